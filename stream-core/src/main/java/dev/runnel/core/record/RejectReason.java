@@ -1,0 +1,35 @@
+package dev.runnel.core.record;
+
+/**
+ * Why a record was not used. Each reason has a stable id that appears on the rejects output;
+ * ids never change meaning once published.
+ */
+public enum RejectReason {
+  /** The bytes are not one JSON object. */
+  MALFORMED_JSON("malformed_json"),
+  /** A declared field (or the target) that the features need is absent or null. */
+  MISSING_FIELD("missing_field"),
+  /** A field has the wrong JSON type, e.g. a string where a number is declared. */
+  WRONG_TYPE("wrong_type"),
+  /** A number is NaN or infinite, or written as such. */
+  NOT_FINITE("not_finite"),
+  /** A number's magnitude exceeds the configured bound. */
+  OUT_OF_RANGE("out_of_range"),
+  /** The event time cannot be parsed. */
+  BAD_TIME("bad_time"),
+  /** The event time is outside the allowed range of years. */
+  ABSURD_TIME("absurd_time"),
+  /** A string field is longer than the configured bound. */
+  TOO_LONG("too_long"),
+  /** The whole record is larger than the configured bound. */
+  RECORD_TOO_LARGE("record_too_large"),
+  /** The model refused the update because a state would have become non-finite. */
+  MODEL_REFUSED("model_refused");
+
+  private final String id;
+
+  RejectReason(String id) { this.id = id; }
+
+  /** The stable identifier written to the rejects output. */
+  public String id() { return id; }
+}
