@@ -1,0 +1,67 @@
+package dev.runnel.core.pipeline;
+
+/**
+ * The outcome of one input record that was not rejected: the a priori prediction (made before the
+ * model learned from this record), its interval and, when the record carried its target, the
+ * actual value and the error. Mutable and reused by {@link PipelineStep}: read it inside the
+ * callback, copy what you keep.
+ */
+public final class Prediction {
+
+  /** What kind of prediction this is. Ids are stable: they appear on the predictions output. */
+  public enum Status {
+    /** The record carried its target: scored a priori, then learned from. */
+    SCORED("scored"),
+    /** The record had no target: a forecast request, scored only. */
+    FORECAST("forecast"),
+    /** The model has not yet seen enough data to give weights (diffuse start); no point value. */
+    WARMING_UP("warming_up");
+
+    private final String id;
+
+    Status(String id) { this.id = id; }
+
+    public String id() { return id; }
+  }
+
+  Status status;
+  long eventTimeMillis;
+  double predicted = Double.NaN;
+  double low = Double.NaN;
+  double high = Double.NaN;
+  double actual = Double.NaN;
+  long layoutVersion;
+  long sourcePartition = -1;
+  long sourceOffset = -1;
+
+  public Status status() { return status; }
+
+  public long eventTimeMillis() { return eventTimeMillis; }
+
+  /** The point prediction; NaN while warming up. */
+  public double predicted() { return predicted; }
+
+  /** Lower end of the prediction interval; NaN while warming up. */
+  public double low() { return low; }
+
+  /** Upper end of the prediction interval; NaN while warming up. */
+  public double high() { return high; }
+
+  /** The actual target value; NaN for a forecast request. */
+  public double actual() { return actual; }
+
+  /** actual − predicted; NaN when either is missing. */
+  public double error() { return actual - predicted; }
+
+  /** Whether the interval held the actual value (false when either is missing). */
+  public boolean covered() { return actual >= low && actual <= high; }
+
+  /** The layout version the prediction was computed with. */
+  public long layoutVersion() { return layoutVersion; }
+
+  /** The source partition the caller gave, or -1. */
+  public long sourcePartition() { return sourcePartition; }
+
+  /** The source offset (or line number) the caller gave, or -1. */
+  public long sourceOffset() { return sourceOffset; }
+}
