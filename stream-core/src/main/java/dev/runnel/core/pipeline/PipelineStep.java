@@ -1,0 +1,394 @@
+package dev.runnel.core.pipeline;
+
+import dev.runnel.core.config.PipelineConfig;
+import dev.runnel.core.feature.Featurizer;
+import dev.runnel.core.model.ModelSettings;
+import dev.runnel.core.model.RlsModel;
+import dev.runnel.core.record.EventRecord;
+import dev.runnel.core.record.JsonRecordDecoder;
+import dev.runnel.core.record.RejectReason;
+import java.io.ByteArrayInputStream;
+import java.io.ByteArrayOutputStream;
+import java.io.DataInputStream;
+import java.io.DataOutputStream;
+import java.io.IOException;
+import java.io.UncheckedIOException;
+import java.nio.charset.StandardCharsets;
+import java.util.Arrays;
+
+/**
+ * The whole per-record job for one stream (one input partition): decode, featurize, predict a
+ * priori, update the model when the target is present, keep prequential metrics, and say when a
+ * coefficient snapshot is due. Pure and deterministic: the same records in the same order give
+ * the same bits out, and {@link #restore(byte[])} of a {@link #checkpoint()} continues exactly as
+ * the uninterrupted run would. One thread.
+ *
+ * <p>Order of work for a record that carries its target (test, then train):
+ * <ol>
+ *   <li>decode; on bad input a reject, and nothing else changes;</li>
+ *   <li>featurize with learning: vocabulary expiry and admission and scaler changes reach the
+ *       model first (as layout events), so the row is encoded in the model's current basis;</li>
+ *   <li>predict with the model as it was before this record's target (a priori), with the
+ *       interval;</li>
+ *   <li>update the model (forgetting by the record factor or the event-time half-life);</li>
+ *   <li>update the metrics with the a priori error.</li>
+ * </ol>
+ * A record without the target is a forecast request: it is encoded read-only and scored, and
+ * changes no state at all.
+ */
+public final class PipelineStep {
+
+  /** Receives what one record produced. Objects passed in are reused: copy what you keep. */
+  public interface Sink {
+    /** A prediction for a record that was not rejected. */
+    void prediction(Prediction prediction, EventRecord record);
+
+    /** A rejected record; the state was not changed by it. */
+    void reject(RejectReason reason, String detail);
+
+    /** A coefficient snapshot became due after this record. */
+    void snapshotDue();
+  }
+
+  /** Version of the checkpoint layout written by {@link #checkpoint()}. */
+  public static final int CHECKPOINT_VERSION = 1;
+  private static final int CHECKPOINT_MAGIC = 0x524E4C43; // "RNLC"
+
+  private final PipelineConfig config;
+  private final JsonRecordDecoder decoder;
+  private final EventRecord record;
+  private final Featurizer featurizer;
+  private RlsModel model;
+  private final PrequentialMetrics metrics;
+  private final Forgetting forgetting;
+  private final Prediction prediction = new Prediction();
+  private final int targetSlot;
+  private final long configFingerprint;
+  private double[] row;
+
+  private long records;
+  private long trained;
+  private long forecasts;
+  private long warmingUp;
+  private long rejected;
+  private final long[] rejectCounts = new long[RejectReason.values().length];
+  private long lastEventTimeMillis = Long.MIN_VALUE;
+  private long trainedAtLastSnapshot;
+  private long periodOfLastSnapshot = Long.MIN_VALUE;
+
+  /**
+   * @param config a checked configuration. Not modified.
+   */
+  public PipelineStep(PipelineConfig config) {
+    this.config = config;
+    PipelineConfig.Input in = config.input();
+    this.decoder = in.eventTime().isPresent()
+        ? new JsonRecordDecoder(in.schema(), in.limits(), in.eventTime().get().field(), in.eventTime().get().format())
+        : new JsonRecordDecoder(in.schema(), in.limits());
+    this.record = new EventRecord(in.schema());
+    this.featurizer = new Featurizer(config);
+    this.model = new RlsModel(featurizer.dimension(), modelSettings(config));
+    this.featurizer.setListener(model);
+    this.metrics = new PrequentialMetrics(config.outputs().metricsHalfLifeRecords());
+    PipelineConfig.Model m = config.model();
+    this.forgetting = new Forgetting(m.forgettingFactor(), m.forgettingHalfLifeMillis());
+    this.targetSlot = config.targetSlot();
+    this.row = new double[Math.max(8, featurizer.maxDimension())];
+    this.configFingerprint = fingerprint(config);
+  }
+
+  /** The model settings a configuration asks for. */
+  static ModelSettings modelSettings(PipelineConfig config) {
+    PipelineConfig.Model m = config.model();
+    double prior = m.diffuse() ? ModelSettings.DIFFUSE : m.priorVariance();
+    return new ModelSettings(prior, m.constantTerm(), m.windupGuard(),
+        ModelSettings.zForLevel(m.intervalLevel()), m.noiseHalfLifeRecords());
+  }
+
+  /**
+   * Processes one record given as JSON bytes.
+   *
+   * @param buf the bytes. Not modified.
+   * @param off start of the record in {@code buf}
+   * @param len length of the record
+   * @param fallbackTimeMillis the event time to use when the configuration names no time field
+   *     (e.g. the Kafka record timestamp)
+   * @param partition source partition, copied into the prediction (-1 if none)
+   * @param offset source offset or line number, copied into the prediction (-1 if none)
+   * @param sink receives the outcome
+   */
+  public void process(byte[] buf, int off, int len, long fallbackTimeMillis, long partition, long offset, Sink sink) {
+    records++;
+    RejectReason reason = decoder.decode(buf, off, len, record);
+    if (reason != null) {
+      reject(reason, decoder.lastDetail(), sink);
+      return;
+    }
+    processDecoded(fallbackTimeMillis, partition, offset, sink);
+  }
+
+  /**
+   * Processes a record already decoded into {@link #record()} by the caller (used by tests and by
+   * sources that are not JSON). Counts it as one record.
+   */
+  public void processRecord(long fallbackTimeMillis, long partition, long offset, Sink sink) {
+    records++;
+    processDecoded(fallbackTimeMillis, partition, offset, sink);
+  }
+
+  /** The reusable record that {@link #processRecord} reads; fill it, then call that method. */
+  public EventRecord record() {
+    return record;
+  }
+
+  private void processDecoded(long fallbackTimeMillis, long partition, long offset, Sink sink) {
+    long t;
+    if (config.input().eventTime().isPresent()) {
+      if (!record.hasEventTime()) {
+        reject(RejectReason.MISSING_FIELD,
+            "field " + config.input().eventTime().get().field() + ": the event time is missing", sink);
+        return;
+      }
+      t = record.eventTimeMillis();
+    } else {
+      t = fallbackTimeMillis;
+    }
+    boolean hasTarget = record.present(targetSlot);
+    RejectReason reason = featurizer.check(record);
+    if (reason != null) {
+      reject(reason, featurizer.lastDetail(), sink);
+      return;
+    }
+    double y = hasTarget ? record.number(targetSlot) : Double.NaN;
+    ensureRow();
+    Prediction p = prediction;
+    p.eventTimeMillis = t;
+    p.sourcePartition = partition;
+    p.sourceOffset = offset;
+    p.actual = y;
+    if (hasTarget) {
+      featurizer.learnAndEncode(record, t, row);
+    } else {
+      featurizer.encode(record, t, row);
+    }
+    p.layoutVersion = featurizer.layoutVersion();
+    if (model.ready()) {
+      double yhat = model.predict(row);
+      double half = model.intervalHalfWidth(row);
+      p.predicted = yhat;
+      if (Double.isNaN(half)) {
+        // no noise estimate yet: an interval cannot be given honestly
+        p.low = Double.NaN;
+        p.high = Double.NaN;
+      } else {
+        p.low = yhat - half;
+        p.high = yhat + half;
+      }
+      p.status = hasTarget ? Prediction.Status.SCORED : Prediction.Status.FORECAST;
+    } else {
+      p.predicted = Double.NaN;
+      p.low = Double.NaN;
+      p.high = Double.NaN;
+      p.status = Prediction.Status.WARMING_UP;
+    }
+    if (hasTarget) {
+      double lambda = forgetting.lambdaFor(t);
+      if (!model.update(row, y, lambda)) {
+        reject(RejectReason.MODEL_REFUSED,
+            "the update would have made the model's state non-finite; the model is unchanged", sink);
+        return;
+      }
+      trained++;
+      if (p.status == Prediction.Status.SCORED && !Double.isNaN(p.low)) {
+        metrics.add(y - p.predicted, p.covered());
+      }
+    } else {
+      forecasts++;
+    }
+    if (p.status == Prediction.Status.WARMING_UP) {
+      warmingUp++;
+    }
+    if (t > lastEventTimeMillis) {
+      lastEventTimeMillis = t;
+    }
+    sink.prediction(p, record);
+    if (hasTarget && snapshotIsDue(t)) {
+      sink.snapshotDue();
+    }
+  }
+
+  private boolean snapshotIsDue(long t) {
+    PipelineConfig.Outputs o = config.outputs();
+    boolean due = false;
+    if (o.snapshotEveryRecords() > 0 && trained - trainedAtLastSnapshot >= o.snapshotEveryRecords()) {
+      due = true;
+    }
+    if (o.snapshotEveryMillis() > 0) {
+      long period = Math.floorDiv(t, o.snapshotEveryMillis());
+      if (periodOfLastSnapshot == Long.MIN_VALUE) {
+        periodOfLastSnapshot = period;
+      } else if (period > periodOfLastSnapshot) {
+        due = true;
+      }
+    }
+    if (due) {
+      trainedAtLastSnapshot = trained;
+      if (o.snapshotEveryMillis() > 0) {
+        periodOfLastSnapshot = Math.floorDiv(t, o.snapshotEveryMillis());
+      }
+    }
+    return due;
+  }
+
+  private void reject(RejectReason reason, String detail, Sink sink) {
+    rejected++;
+    rejectCounts[reason.ordinal()]++;
+    sink.reject(reason, detail);
+  }
+
+  private void ensureRow() {
+    int need = featurizer.maxDimension();
+    if (row.length < need) {
+      row = Arrays.copyOf(row, need);
+    }
+  }
+
+  // ------------------------------------------------------------------ reading (cold path)
+
+  public PipelineConfig config() { return config; }
+
+  public Featurizer featurizer() { return featurizer; }
+
+  public RlsModel model() { return model; }
+
+  public PrequentialMetrics metrics() { return metrics; }
+
+  /** Records handed in, including rejected ones. */
+  public long records() { return records; }
+
+  /** Records the model learned from. */
+  public long trained() { return trained; }
+
+  /** Records scored without a target. */
+  public long forecasts() { return forecasts; }
+
+  /** Records scored while the model was still warming up. */
+  public long warmingUp() { return warmingUp; }
+
+  /** Rejected records. */
+  public long rejected() { return rejected; }
+
+  /** Rejected records with this reason. */
+  public long rejected(RejectReason reason) { return rejectCounts[reason.ordinal()]; }
+
+  /** The latest event time seen, or {@code Long.MIN_VALUE} before the first record. */
+  public long lastEventTimeMillis() { return lastEventTimeMillis; }
+
+  /** Builds a coefficient snapshot of the current state (allocates; O(p³)). */
+  public Snapshot snapshot() {
+    return Snapshot.of(this);
+  }
+
+  // ------------------------------------------------------------------ checkpoints
+
+  /**
+   * The whole state as bytes: layout, vocabularies, scalers, model, metrics, counters.
+   *
+   * @return a checkpoint that {@link #restore} accepts under the same configuration
+   */
+  public byte[] checkpoint() {
+    try {
+      ByteArrayOutputStream bytes = new ByteArrayOutputStream(4096);
+      DataOutputStream out = new DataOutputStream(bytes);
+      out.writeInt(CHECKPOINT_MAGIC);
+      out.writeInt(CHECKPOINT_VERSION);
+      out.writeLong(configFingerprint);
+      out.writeLong(records);
+      out.writeLong(trained);
+      out.writeLong(forecasts);
+      out.writeLong(warmingUp);
+      out.writeLong(rejected);
+      out.writeInt(rejectCounts.length);
+      for (long c : rejectCounts) {
+        out.writeLong(c);
+      }
+      out.writeLong(lastEventTimeMillis);
+      out.writeLong(trainedAtLastSnapshot);
+      out.writeLong(periodOfLastSnapshot);
+      out.writeLong(forgetting.clockMillis());
+      metrics.writeTo(out);
+      featurizer.writeTo(out);
+      model.writeTo(out);
+      out.flush();
+      return bytes.toByteArray();
+    } catch (IOException e) {
+      throw new UncheckedIOException(e);
+    }
+  }
+
+  /**
+   * Replaces the whole state with a checkpoint's.
+   *
+   * @param checkpoint bytes from {@link #checkpoint()}. Not modified.
+   * @throws IllegalArgumentException if the bytes are not a checkpoint, are of another version,
+   *     or were written under a configuration whose features or model differ
+   */
+  public void restore(byte[] checkpoint) {
+    try {
+      DataInputStream in = new DataInputStream(new ByteArrayInputStream(checkpoint));
+      if (in.readInt() != CHECKPOINT_MAGIC) {
+        throw new IllegalArgumentException("not a Runnel pipeline checkpoint");
+      }
+      int version = in.readInt();
+      if (version != CHECKPOINT_VERSION) {
+        throw new IllegalArgumentException("checkpoint format version " + version
+            + " is not supported; this Runnel reads version " + CHECKPOINT_VERSION);
+      }
+      long fp = in.readLong();
+      if (fp != configFingerprint) {
+        throw new IllegalArgumentException("the checkpoint was written under a different feature or model"
+            + " configuration; start a new pipeline name (or reset its state) to use the changed configuration");
+      }
+      records = in.readLong();
+      trained = in.readLong();
+      forecasts = in.readLong();
+      warmingUp = in.readLong();
+      rejected = in.readLong();
+      int n = in.readInt();
+      for (int i = 0; i < n; i++) {
+        long c = in.readLong();
+        if (i < rejectCounts.length) {
+          rejectCounts[i] = c;
+        }
+      }
+      lastEventTimeMillis = in.readLong();
+      trainedAtLastSnapshot = in.readLong();
+      periodOfLastSnapshot = in.readLong();
+      forgetting.setClockMillis(in.readLong());
+      metrics.readFrom(in);
+      featurizer.readFrom(in);
+      model = RlsModel.readFrom(in);
+      featurizer.setListener(model);
+      ensureRow();
+    } catch (IOException e) {
+      throw new IllegalArgumentException("the checkpoint is truncated or corrupt: " + e.getMessage(), e);
+    }
+  }
+
+  /**
+   * A fingerprint of the parts of the configuration that shape the state (schema, target,
+   * features, model), so a checkpoint is never restored under a different layout. FNV-1a over a
+   * canonical text (records' toString is stable for the value types used).
+   */
+  private static long fingerprint(PipelineConfig c) {
+    String text = c.input().schema() + "|" + c.target() + "|" + c.features() + "|" + c.model()
+        + "|" + c.input().timeZone();
+    byte[] b = text.getBytes(StandardCharsets.UTF_8);
+    long h = 0xcbf29ce484222325L;
+    for (byte x : b) {
+      h ^= (x & 0xff);
+      h *= 0x100000001b3L;
+    }
+    return h;
+  }
+}

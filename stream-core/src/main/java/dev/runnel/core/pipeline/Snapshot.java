@@ -1,0 +1,139 @@
+package dev.runnel.core.pipeline;
+
+import dev.runnel.core.feature.Featurizer;
+import dev.runnel.core.model.RlsModel;
+import java.util.ArrayList;
+import java.util.List;
+
+/**
+ * An immutable picture of one pipeline's model at one moment: every column's weight in the
+ * model's (standardized) basis and in the raw units of its input, with standard errors, the noise
+ * level, the effective sample size, the vocabularies and scalers, and the prequential metrics.
+ * Built on the cold path (allocates; O(p³)).
+ *
+ * <p>Raw units: a scaled column encodes {@code z = (v − m)/s}, so its weight per unit of the
+ * (transformed) input is {@code w/s}, and the constant in raw units is
+ * {@code w₀ − Σ w_j m_j / s_j}; its standard error uses the full covariance,
+ * {@code se(c) = σ √(cᵀ (RᵀR)⁻¹ c)} with {@code c = e₀ − Σ (m_j/s_j) e_j}.
+ *
+ * @param eventTimeMillis latest event time seen
+ * @param records records handed in, including rejected ones
+ * @param trained records the model learned from
+ * @param forecasts records scored without a target
+ * @param rejected rejected records
+ * @param layoutVersion the layout's version
+ * @param ready whether the model gives weights (false while a diffuse start warms up)
+ * @param noiseSd the noise sd used for intervals (faded a priori errors)
+ * @param residualSd the residual sd used for standard errors
+ * @param effectiveSampleSize Σ of the records' forgetting weights
+ * @param columns one entry per column, in layout order
+ * @param vocabularies one entry per one-hot feature
+ * @param scalers one entry per scaled column
+ * @param metrics prequential metrics overall and over the fading window
+ */
+public record Snapshot(long eventTimeMillis, long records, long trained, long forecasts, long rejected,
+                       long layoutVersion, boolean ready, double noiseSd, double residualSd,
+                       double effectiveSampleSize, List<Column> columns,
+                       List<Featurizer.VocabularySnapshot> vocabularies,
+                       List<Featurizer.ScalerSnapshot> scalers, Metrics metrics) {
+
+  /** Version of the snapshot's published layout (see docs/formats.md). */
+  public static final int FORMAT_VERSION = 1;
+
+  public Snapshot {
+    columns = List.copyOf(columns);
+    vocabularies = List.copyOf(vocabularies);
+    scalers = List.copyOf(scalers);
+  }
+
+  /**
+   * One column.
+   *
+   * @param name column name, e.g. {@code hub=QM-03}
+   * @param weight weight in the model's basis
+   * @param standardError its standard error
+   * @param rawWeight weight per unit of the raw (transformed) input
+   * @param rawStandardError its standard error
+   * @param centre the scaler's m (0 for an unscaled column)
+   * @param scale the scaler's s (1 for an unscaled column)
+   */
+  public record Column(String name, double weight, double standardError, double rawWeight,
+                       double rawStandardError, double centre, double scale) { }
+
+  /** Prequential metrics: overall and over the fading window. */
+  public record Metrics(long count, double mae, double rmse, double bias, double coverage,
+                        double recentMae, double recentRmse, double recentBias, double recentCoverage) { }
+
+  /** The weight of the column with this name, or NaN if there is none. */
+  public double weightOf(String name) {
+    for (Column c : columns) {
+      if (c.name().equals(name)) {
+        return c.weight();
+      }
+    }
+    return Double.NaN;
+  }
+
+  /** The raw-unit weight of the column with this name, or NaN if there is none. */
+  public double rawWeightOf(String name) {
+    for (Column c : columns) {
+      if (c.name().equals(name)) {
+        return c.rawWeight();
+      }
+    }
+    return Double.NaN;
+  }
+
+  static Snapshot of(PipelineStep step) {
+    Featurizer f = step.featurizer();
+    RlsModel m = step.model();
+    int p = m.dimension();
+    double[] w = new double[p];
+    double[] se = new double[p];
+    m.weights(w);
+    m.standardErrors(se);
+    boolean constant = f.hasConstantTerm();
+    double[] cov = constant && m.ready() ? m.unscaledCovariance() : null;
+    double sigma = m.residualSd();
+    List<Column> cols = new ArrayList<>(p);
+    double rawConstant = constant ? w[0] : Double.NaN;
+    double[] c = new double[p];
+    if (constant) {
+      c[0] = 1.0;
+    }
+    for (int j = 0; j < p; j++) {
+      double mj = f.centre(j);
+      double sj = f.scale(j);
+      if (constant && j > 0) {
+        rawConstant -= w[j] * mj / sj;
+        c[j] = -mj / sj;
+      }
+    }
+    double rawConstantSe = Double.NaN;
+    if (cov != null) {
+      double q = 0.0;
+      for (int i = 0; i < p; i++) {
+        double s = 0.0;
+        for (int j = 0; j < p; j++) {
+          s += cov[i * p + j] * c[j];
+        }
+        q += c[i] * s;
+      }
+      rawConstantSe = sigma * Math.sqrt(Math.max(0.0, q));
+    }
+    for (int j = 0; j < p; j++) {
+      double mj = f.centre(j);
+      double sj = f.scale(j);
+      boolean isConstant = constant && j == 0;
+      cols.add(new Column(f.columnName(j), w[j], se[j],
+          isConstant ? rawConstant : w[j] / sj,
+          isConstant ? rawConstantSe : se[j] / sj, mj, sj));
+    }
+    PrequentialMetrics pm = step.metrics();
+    Metrics metrics = new Metrics(pm.count(), pm.mae(), pm.rmse(), pm.bias(), pm.coverage(),
+        pm.recentMae(), pm.recentRmse(), pm.recentBias(), pm.recentCoverage());
+    return new Snapshot(step.lastEventTimeMillis(), step.records(), step.trained(), step.forecasts(),
+        step.rejected(), f.layoutVersion(), m.ready(), m.noiseSd(), sigma, m.effectiveSampleSize(),
+        cols, f.vocabularies(), f.scalers(), metrics);
+  }
+}
