@@ -1,0 +1,61 @@
+package dev.runnel.core.config;
+
+import java.util.List;
+
+/** One item of the {@code features} list. Every variant is immutable. */
+public sealed interface FeatureConfig {
+
+  /** The feature's name: the prefix of its column names; unique within the pipeline. */
+  String name();
+
+  /** The configuration word of this kind, e.g. {@code onehot}. */
+  String kind();
+
+  /**
+   * One-hot over a rolling vocabulary of a text or flag field.
+   *
+   * @param maxLevels most admitted levels, 1..1000000; the rest share the "(other)" column
+   * @param minCount sightings in training records before a level is admitted, at least 1
+   * @param expireAfterMillis event time without the level before it expires; 0 = never
+   * @param expireAfterRecords training records without the level before it expires; 0 = never
+   */
+  record OneHot(String name, String field, int maxLevels, int minCount, long expireAfterMillis, long expireAfterRecords)
+      implements FeatureConfig {
+    @Override public String kind() { return "onehot"; }
+  }
+
+  /**
+   * Sin/cos pairs of a calendar cycle in the pipeline's time zone.
+   *
+   * @param field a time field to read, or {@code null} for the record's event time
+   * @param harmonics pairs k = 1..harmonics, 1..12
+   */
+  record Cyclic(String name, Cycle cycle, String field, int harmonics) implements FeatureConfig {
+    @Override public String kind() { return "cyclic"; }
+  }
+
+  /**
+   * One scaled column from a number field.
+   *
+   * @param exponent the power for {@link Transform#POWER}; 1 otherwise
+   * @param weightingHalfLifeRecords 0 = plain running mean/variance; &gt; 0 = exponentially weighted
+   * @param clip 0 = off; &gt; 0 bounds |z| (after scaling) to this
+   */
+  record Numeric(String name, String field, Transform transform, double exponent, Scaling scaling,
+                 double weightingHalfLifeRecords, double clip) implements FeatureConfig {
+    @Override public String kind() { return "numeric"; }
+  }
+
+  /** Powers x^1 .. x^degree of a raw number field, each its own scaled column. */
+  record Polynomial(String name, String field, int degree, Scaling scaling, double weightingHalfLifeRecords, double clip)
+      implements FeatureConfig {
+    @Override public String kind() { return "polynomial"; }
+  }
+
+  /** The products of every column of feature {@code of.get(0)} with every column of {@code of.get(1)}. */
+  record Cross(String name, List<String> of) implements FeatureConfig {
+    /** Copies the list. */
+    public Cross { of = List.copyOf(of); }
+    @Override public String kind() { return "cross"; }
+  }
+}

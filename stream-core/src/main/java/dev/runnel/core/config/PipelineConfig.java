@@ -1,0 +1,81 @@
+package dev.runnel.core.config;
+
+import dev.runnel.core.record.RecordLimits;
+import dev.runnel.core.record.RecordSchema;
+import dev.runnel.core.record.TimeFormat;
+import java.time.ZoneId;
+import java.util.List;
+import java.util.Map;
+import java.util.Optional;
+
+/**
+ * A whole, checked pipeline configuration. Immutable. Built by {@link ConfigLoader}.
+ *
+ * @param name pipeline name; output topics are {@code <name>.predictions} etc.
+ * @param sourceName where the configuration came from (a file name), for messages
+ */
+public record PipelineConfig(String name, Input input, String target, List<FeatureConfig> features, Model model,
+                             Outputs outputs, Kafka kafka, Web web, String sourceName) {
+
+  /** Copies the feature list. */
+  public PipelineConfig { features = List.copyOf(features); }
+
+  /** The slot of the target field in {@code input().schema()}. */
+  public int targetSlot() { return input.schema().slot(target); }
+
+  /**
+   * The {@code input} section.
+   *
+   * @param topic the input topic, if given
+   * @param eventTime where the event time is read, if anywhere
+   * @param timeZone zone for calendar features
+   */
+  public record Input(Optional<String> topic, RecordSchema schema, Optional<EventTime> eventTime, ZoneId timeZone,
+                      RecordLimits limits) { }
+
+  /** {@code input.event_time}: the field that holds the event time and its format. */
+  public record EventTime(String field, TimeFormat format) { }
+
+  /**
+   * The {@code model} section.
+   *
+   * @param priorVariance prior variance of each weight in standardized units; {@code +Infinity} when diffuse
+   * @param diffuse no prior: weights are reported once the information is full rank
+   * @param forgettingFactor per-record factor in (0, 1]; 1 when a half-life is used instead
+   * @param forgettingHalfLifeMillis event-time half-life of the data's weight; 0 when the factor is used
+   * @param noiseHalfLifeRecords fading window of the noise-variance estimate, in records
+   */
+  public record Model(boolean constantTerm, double priorVariance, boolean diffuse, double forgettingFactor,
+                      long forgettingHalfLifeMillis, boolean windupGuard, double intervalLevel,
+                      double noiseHalfLifeRecords) {
+    /** Whether forgetting is by event time rather than per record. */
+    public boolean forgetsByTime() { return forgettingHalfLifeMillis > 0; }
+  }
+
+  /**
+   * The {@code outputs} section.
+   *
+   * @param snapshotEveryRecords a coefficient snapshot every this many training records; 0 = off
+   * @param snapshotEveryMillis a snapshot every this much event time; 0 = off
+   * @param metricsHalfLifeRecords fading window of the prequential metrics, in records
+   */
+  public record Outputs(long snapshotEveryRecords, long snapshotEveryMillis, double metricsHalfLifeRecords) { }
+
+  /**
+   * The {@code kafka} section, kept as plain values (stream-core does not use Kafka).
+   *
+   * @param bootstrapServers empty = start the embedded broker
+   * @param clientProperties passed to the Kafka clients as given; {@code ${ENV}} is resolved by connectors
+   */
+  public record Kafka(String bootstrapServers, long commitIntervalMs, long commitIntervalRecords,
+                      Map<String, String> clientProperties, Embedded embedded) {
+    /** Copies the map. */
+    public Kafka { clientProperties = java.util.Collections.unmodifiableMap(new java.util.LinkedHashMap<>(clientProperties)); }
+  }
+
+  /** {@code kafka.embedded}: where the embedded broker keeps its data and its port (0 = any free port). */
+  public record Embedded(String dataDir, int port) { }
+
+  /** The {@code web} section. */
+  public record Web(boolean enabled, String bind, int port) { }
+}

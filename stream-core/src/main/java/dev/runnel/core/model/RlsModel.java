@@ -1,0 +1,847 @@
+package dev.runnel.core.model;
+
+import dev.runnel.core.layout.LayoutListener;
+import java.io.DataInput;
+import java.io.DataOutput;
+import java.io.IOException;
+import java.util.Arrays;
+
+/**
+ * Exponentially weighted recursive least squares with a ridge prior (or an exactly diffuse
+ * start), kept in information square-root form and updated by Givens rotations. One writer
+ * thread; not thread-safe.
+ *
+ * <p>State: an upper-triangular factor {@code R} with {@code R^T R = Lambda} (the information,
+ * in units of 1/noise variance), {@code z} with {@code R theta = z}, the cached weights
+ * {@code theta}, the minimum of the weighted (and penalized) objective {@code rho^2}, the
+ * effective sample size, and an exponentially weighted noise variance. The model solves
+ * <pre>{@code
+ *   minimize  sum_rows  w_row * (y_row - x_row^T theta)^2      (data rows and prior rows)
+ * }</pre>
+ * where every row, data or prior, is decayed by each later update's {@code lambda} and re-based
+ * with its column. Prior rows are {@code sqrt(a) e_j} with target 0; see
+ * {@link #observePriorRows}.
+ *
+ * <p>Costs per {@link #update}: one pass of Givens rotations over the triangle,
+ * {@code 3 p^2} multiply-adds, plus one back-substitution {@code p^2 / 2}; nothing is allocated.
+ * {@link #leverage} is one triangular solve, {@code p^2 / 2}. Layout changes: add {@code O(p)}
+ * (amortized), remove {@code O(p^2)}, re-base {@code O(p)}.
+ *
+ * <p>Storage: {@code R} is a flat row-major {@code double[]} with a row stride equal to the
+ * capacity, so a Givens rotation touches two contiguous row segments, the hot-loop pattern. Only
+ * the upper triangle is ever read. The update writes the new factor into a second buffer and
+ * swaps on success, so a rejected update leaves the state bit-for-bit unchanged at no extra copy.
+ *
+ * <p>Implementation notes: the square-root information form is QR-RLS (Givens rotations on the
+ * information factor), common practice for numerically robust RLS; the windup guard is the
+ * linear-Gaussian case of stabilized forgetting (R. Kulhavý and M. B. Zarrop, "On a general
+ * concept of forgetting", Int. J. Control 58(4), 1993), applied one column per update. All
+ * transcendental functions go through {@link StrictMath} so results are the same bits on every
+ * JVM. Details and what is exact: {@code docs/model.md}.
+ */
+public final class RlsModel implements LayoutListener {
+
+  /** Format version written by {@link #writeTo}. */
+  public static final int FORMAT_VERSION = 1;
+
+  /**
+   * In diffuse mode a column counts as identified when its pivot {@code R_jj} exceeds this
+   * times the largest pivot (about 450 ulps): below it the information is treated as rank
+   * deficient and {@link #ready()} is false.
+   */
+  public static final double READY_TOLERANCE = 1e-13;
+
+  /**
+   * Inputs with a larger magnitude are refused by {@link #update}: rotations preserve row norms,
+   * so with every input below 1e100 no factor entry can overflow for any realistic count.
+   */
+  public static final double MAX_ABS_INPUT = 1e100;
+
+  /** A refresh never tops a column's prior information above this multiple of 1/priorVariance. */
+  static final double MAX_REFRESH_BOOST = 1e12;
+
+  private static final int MAGIC = 0x524e4d31; // "RNM1"
+
+  private final ModelSettings settings;
+  /** 1 / priorVariance, or 0 in diffuse mode. */
+  private final double priorInfo;
+  private final boolean guard;
+  private final double noiseDecay;
+
+  private int p;
+  private int cap;
+  private double[] r;
+  private double[] rNext;
+  private double[] z;
+  private double[] zNext;
+  private double[] theta;
+  private double[] thetaNext;
+  private double[] work;
+  private double[] work2;
+  /** Each column's prior information right after its last refresh (or its addition). */
+  private double[] priorAtRefresh;
+  /** The cumulative log-decay at that moment. */
+  private double[] logDecayAtRefresh;
+  /** Cumulative sum of log(lambda), renormalized to 0 now and then. */
+  private double logDecay;
+  private long refreshCounter;
+
+  private double rho2;
+  private double nEff;
+  private double noiseSum;
+  private double noiseWeight;
+  private long updates;
+  private boolean ready;
+  private boolean lastSolveFullRank;
+
+  private PriorRowObserver observer;
+
+  /**
+   * A model with {@code initialDimension} columns, each starting from the prior (information
+   * {@code 1/priorVariance} on its own diagonal, mean 0) or, diffuse, from zero information.
+   * These initial prior rows are not reported to a {@link PriorRowObserver} (none is registered
+   * yet): there is one of information {@code 1/priorVariance} per column.
+   *
+   * @param initialDimension number of columns, at least 1 with a constant term, at least 0 otherwise
+   * @param settings the settings. Not modified.
+   * @throws IllegalArgumentException if the dimension is out of range
+   * @throws NullPointerException if {@code settings} is null
+   */
+  public RlsModel(int initialDimension, ModelSettings settings) {
+    this.settings = java.util.Objects.requireNonNull(settings, "settings");
+    int min = settings.constantTerm() ? 1 : 0;
+    if (initialDimension < min) {
+      throw new IllegalArgumentException("initialDimension must be at least " + min
+          + (min == 1 ? " (column 0 is the constant term)" : "") + ", got " + initialDimension);
+    }
+    this.priorInfo = settings.diffuse() ? 0.0 : 1.0 / settings.priorVariance();
+    this.guard = settings.windupGuard() && !settings.diffuse();
+    this.noiseDecay = Double.isInfinite(settings.noiseHalfLifeRecords())
+        ? 1.0 : StrictMath.pow(2.0, -1.0 / settings.noiseHalfLifeRecords());
+    allocate(Math.max(4, initialDimension));
+    for (int j = 0; j < initialDimension; j++) {
+      appendColumn();
+    }
+    this.ready = !settings.diffuse() || initialDimension == 0;
+  }
+
+  private void allocate(int capacity) {
+    cap = capacity;
+    r = new double[cap * cap];
+    rNext = new double[cap * cap];
+    z = new double[cap];
+    zNext = new double[cap];
+    theta = new double[cap];
+    thetaNext = new double[cap];
+    work = new double[cap];
+    work2 = new double[cap];
+    priorAtRefresh = new double[cap];
+    logDecayAtRefresh = new double[cap];
+  }
+
+  /** Grows every array to hold {@code needed} columns, keeping the state; cold path. */
+  private void ensureCapacity(int needed) {
+    if (needed <= cap) {
+      return;
+    }
+    int oldCap = cap;
+    double[] oldR = r;
+    double[] oldZ = z;
+    double[] oldTheta = theta;
+    double[] oldPrior = priorAtRefresh;
+    double[] oldLog = logDecayAtRefresh;
+    allocate(Math.max(needed, 2 * oldCap));
+    for (int i = 0; i < p; i++) {
+      System.arraycopy(oldR, i * oldCap + i, r, i * cap + i, p - i);
+    }
+    System.arraycopy(oldZ, 0, z, 0, p);
+    System.arraycopy(oldTheta, 0, theta, 0, p);
+    System.arraycopy(oldPrior, 0, priorAtRefresh, 0, p);
+    System.arraycopy(oldLog, 0, logDecayAtRefresh, 0, p);
+  }
+
+  /** Appends a column at the prior; returns its index. */
+  private int appendColumn() {
+    ensureCapacity(p + 1);
+    int k = p;
+    for (int i = 0; i < k; i++) {
+      r[i * cap + k] = 0.0;
+    }
+    r[k * cap + k] = Math.sqrt(priorInfo);
+    z[k] = 0.0;
+    theta[k] = 0.0;
+    priorAtRefresh[k] = priorInfo;
+    logDecayAtRefresh[k] = logDecay;
+    p = k + 1;
+    return k;
+  }
+
+  // ---------------------------------------------------------------- queries (hot path)
+
+  /** @return the number of live columns */
+  public int dimension() {
+    return p;
+  }
+
+  /** @return the settings */
+  public ModelSettings settings() {
+    return settings;
+  }
+
+  /**
+   * With a prior always true. Diffuse: true once every pivot {@code R_jj} exceeds
+   * {@link #READY_TOLERANCE} times the largest, i.e. the information is full rank.
+   *
+   * @return whether {@link #predict} and the weights are defined
+   */
+  public boolean ready() {
+    return ready;
+  }
+
+  /**
+   * The a-priori prediction {@code x^T theta}.
+   *
+   * @param x feature vector, length at least {@link #dimension()}. Not modified.
+   * @return the prediction, or NaN when not {@link #ready()}
+   */
+  public double predict(double[] x) {
+    checkLength(x);
+    if (!ready) {
+      return Double.NaN;
+    }
+    final double[] t = theta;
+    double s = 0.0;
+    for (int j = 0; j < p; j++) {
+      s += x[j] * t[j];
+    }
+    return s;
+  }
+
+  /**
+   * The leverage {@code x^T (R^T R)^-1 x}, by one triangular solve ({@code p^2/2}); the
+   * prediction's variance in units of the noise variance.
+   *
+   * @param x feature vector, length at least {@link #dimension()}. Not modified.
+   * @return the leverage, or NaN when not {@link #ready()}
+   */
+  public double leverage(double[] x) {
+    checkLength(x);
+    if (!ready) {
+      return Double.NaN;
+    }
+    final double[] u = work2;
+    final double[] rm = r;
+    final int c = cap;
+    System.arraycopy(x, 0, u, 0, p);
+    double sum = 0.0;
+    for (int i = 0; i < p; i++) {
+      int ri = i * c;
+      double ui = u[i] / rm[ri + i];
+      sum += ui * ui;
+      for (int j = i + 1; j < p; j++) {
+        u[j] -= rm[ri + j] * ui;
+      }
+    }
+    return sum;
+  }
+
+  /**
+   * The noise standard deviation, exponentially weighted (half-life
+   * {@code noiseHalfLifeRecords}) over the standardized a-priori errors
+   * {@code e^2 / (1 + x^T (lambda Lambda)^-1 x)} of updates made while ready.
+   *
+   * @return the noise sd, or NaN before the first such update
+   */
+  public double noiseSd() {
+    return noiseWeight > 0 ? Math.sqrt(noiseSum / noiseWeight) : Double.NaN;
+  }
+
+  /**
+   * Half-width of the prediction interval, {@code intervalZ * noiseSd * sqrt(1 + leverage)}.
+   *
+   * @param x feature vector. Not modified.
+   * @return the half-width, NaN when not ready or before the noise is estimated
+   */
+  public double intervalHalfWidth(double[] x) {
+    return settings.intervalZ() * noiseSd() * Math.sqrt(1.0 + leverage(x));
+  }
+
+  // ---------------------------------------------------------------- update (hot path)
+
+  /**
+   * Forgets by {@code lambda}, then adds the row {@code (x, y)}; with the windup guard, also
+   * tops up one column's prior information (round robin). Nothing is allocated.
+   *
+   * @param x feature vector, length at least {@link #dimension()}; entries beyond are ignored. Not
+   *     modified.
+   * @param y target
+   * @param lambda forgetting factor in (0, 1]; 1 for no forgetting
+   * @return true if applied; false if {@code x} or {@code y} is non-finite or beyond
+   *     {@link #MAX_ABS_INPUT}, or the outcome would not be finite. The state is then exactly
+   *     unchanged.
+   * @throws IllegalArgumentException if {@code lambda} is not in (0, 1] or {@code x} is too short
+   */
+  public boolean update(double[] x, double y, double lambda) {
+    if (!(lambda > 0 && lambda <= 1)) {
+      throw new IllegalArgumentException("lambda must be in (0, 1], got " + lambda);
+    }
+    checkLength(x);
+    if (!acceptable(x, y)) {
+      return false;
+    }
+    final int n = p;
+    final int c = cap;
+    final double sl = lambda == 1.0 ? 1.0 : Math.sqrt(lambda);
+    final double[] rm = r;
+    final double[] rn = rNext;
+    final double[] zm = z;
+    final double[] zn = zNext;
+    final double[] w = work;
+    System.arraycopy(x, 0, w, 0, n);
+    double yw = y;
+    for (int i = 0; i < n; i++) {
+      final int ri = i * c;
+      final double xi = w[i];
+      final double zi = sl * zm[i];
+      if (xi == 0.0) {
+        for (int j = i; j < n; j++) {
+          rn[ri + j] = sl * rm[ri + j];
+        }
+        zn[i] = zi;
+        continue;
+      }
+      final double a = sl * rm[ri + i];
+      double h = Math.sqrt(a * a + xi * xi);
+      if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
+        h = StrictMath.hypot(a, xi); // squares under- or overflowed: rare path
+      }
+      final double cs = a / h;
+      final double sn = xi / h;
+      rn[ri + i] = h;
+      for (int j = i + 1; j < n; j++) {
+        final double rij = sl * rm[ri + j];
+        final double xj = w[j];
+        rn[ri + j] = cs * rij + sn * xj;
+        w[j] = cs * xj - sn * rij;
+      }
+      zn[i] = cs * zi + sn * yw;
+      yw = cs * yw - sn * zi;
+    }
+    final double residual = yw; // e_a / sqrt(1 + x^T (lambda Lambda)^-1 x)
+    double rho2n = lambda * rho2 + residual * residual;
+    final double logDecayNext = logDecay + (lambda == 1.0 ? 0.0 : StrictMath.log(lambda));
+
+    int refreshColumn = -1;
+    double refreshInfo = 0.0;
+    double refreshPrior = 0.0;
+    if (guard && n > 0) {
+      refreshColumn = (int) (refreshCounter % n);
+      double decay = StrictMath.exp(logDecayNext - logDecayAtRefresh[refreshColumn]);
+      double now = priorAtRefresh[refreshColumn] * decay;
+      double target = decay * MAX_REFRESH_BOOST > 1.0 ? priorInfo / decay : priorInfo * MAX_REFRESH_BOOST;
+      double add = target - now;
+      if (add > 1e-12 * target) {
+        refreshInfo = add;
+        double e = rotateAxisRow(rn, zn, n, c, refreshColumn, Math.sqrt(add));
+        rho2n += e * e;
+        refreshPrior = now + add;
+      } else {
+        refreshPrior = now;
+      }
+    }
+
+    if (!solve(rn, zn, thetaNext) || !(rho2n < Double.POSITIVE_INFINITY)) {
+      return false; // nothing committed: r, z, theta and every scalar are as before
+    }
+    // commit
+    final boolean wasReady = ready;
+    r = rn;
+    rNext = rm;
+    z = zn;
+    zNext = zm;
+    final double[] t = theta;
+    theta = thetaNext;
+    thetaNext = t;
+    rho2 = rho2n;
+    nEff = lambda * nEff + 1.0;
+    if (wasReady) {
+      noiseSum = noiseDecay * noiseSum + residual * residual;
+      noiseWeight = noiseDecay * noiseWeight + 1.0;
+    }
+    ready = !settings.diffuse() || lastSolveFullRank;
+    logDecay = logDecayNext;
+    updates++;
+    if (refreshColumn >= 0) {
+      refreshCounter++;
+      priorAtRefresh[refreshColumn] = refreshPrior;
+      logDecayAtRefresh[refreshColumn] = logDecay;
+      if (logDecay < -512.0) {
+        renormalizeLogDecay();
+      }
+      if (refreshInfo > 0.0 && observer != null) {
+        observer.priorRowAdded(refreshColumn, refreshInfo);
+      }
+    }
+    return true;
+  }
+
+  private boolean acceptable(double[] x, double y) {
+    if (!(Math.abs(y) <= MAX_ABS_INPUT)) {
+      return false;
+    }
+    for (int j = 0; j < p; j++) {
+      if (!(Math.abs(x[j]) <= MAX_ABS_INPUT)) {
+        return false;
+      }
+    }
+    return true;
+  }
+
+  /** Rotates the row {@code amp * e_j} (target 0) into rows j.. of (rm, zm) in place; returns its residual. */
+  private double rotateAxisRow(double[] rm, double[] zm, int n, int c, int j, double amp) {
+    final double[] w = work;
+    for (int k = j; k < n; k++) {
+      w[k] = 0.0;
+    }
+    w[j] = amp;
+    double yw = 0.0;
+    for (int i = j; i < n; i++) {
+      final double xi = w[i];
+      if (xi == 0.0) {
+        continue;
+      }
+      final int ri = i * c;
+      final double a = rm[ri + i];
+      double h = Math.sqrt(a * a + xi * xi);
+      if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
+        h = StrictMath.hypot(a, xi);
+      }
+      final double cs = a / h;
+      final double sn = xi / h;
+      rm[ri + i] = h;
+      for (int k = i + 1; k < n; k++) {
+        final double rik = rm[ri + k];
+        final double xk = w[k];
+        rm[ri + k] = cs * rik + sn * xk;
+        w[k] = cs * xk - sn * rik;
+      }
+      final double zi = zm[i];
+      zm[i] = cs * zi + sn * yw;
+      yw = cs * yw - sn * zi;
+    }
+    return yw;
+  }
+
+  /**
+   * Back-substitution {@code rm out = zm}. Pivots at or below the tolerance (diffuse: relative,
+   * else exactly 0) give weight 0 and clear {@link #lastSolveFullRank}.
+   *
+   * @return false if any state entry or weight is not finite
+   */
+  private boolean solve(double[] rm, double[] zm, double[] out) {
+    final int n = p;
+    final int c = cap;
+    double maxDiag = 0.0;
+    for (int i = 0; i < n; i++) {
+      maxDiag = Math.max(maxDiag, rm[i * c + i]);
+    }
+    final double tol = settings.diffuse() ? READY_TOLERANCE * maxDiag : 0.0;
+    boolean full = true;
+    boolean finite = maxDiag < Double.POSITIVE_INFINITY;
+    for (int i = n - 1; i >= 0; i--) {
+      final int ri = i * c;
+      final double d = rm[ri + i];
+      if (d > tol) {
+        double s = zm[i];
+        for (int j = i + 1; j < n; j++) {
+          s -= rm[ri + j] * out[j];
+        }
+        final double v = s / d;
+        out[i] = v;
+        // a non-finite entry of row i (or of z_i) makes v non-finite: inf * 0 is NaN
+        finite &= Math.abs(v) < Double.POSITIVE_INFINITY;
+      } else {
+        out[i] = 0.0;
+        full = false;
+        finite &= rowFinite(rm, zm, i);
+      }
+    }
+    lastSolveFullRank = full;
+    return finite;
+  }
+
+  private boolean rowFinite(double[] rm, double[] zm, int i) {
+    boolean ok = Math.abs(zm[i]) < Double.POSITIVE_INFINITY;
+    for (int j = i; j < p; j++) {
+      ok &= Math.abs(rm[i * cap + j]) < Double.POSITIVE_INFINITY;
+    }
+    return ok;
+  }
+
+  private void renormalizeLogDecay() {
+    for (int j = 0; j < p; j++) {
+      logDecayAtRefresh[j] -= logDecay;
+    }
+    logDecay = 0.0;
+  }
+
+  // ---------------------------------------------------------------- layout changes
+
+  /**
+   * Appends a column starting from the prior (information {@code 1/priorVariance} on its own
+   * diagonal, weight 0); in diffuse mode with zero information, so the model is not ready until
+   * data identify it. The prior row is reported to the {@link PriorRowObserver}.
+   *
+   * @param index must equal {@link #dimension()}
+   * @param name the column's name; not kept. Not modified.
+   * @throws IllegalArgumentException if {@code index != dimension()}
+   */
+  @Override
+  public void columnAdded(int index, String name) {
+    if (index != p) {
+      throw new IllegalArgumentException("columnAdded index must equal the dimension " + p
+          + " (columns are appended), got " + index);
+    }
+    appendColumn();
+    if (settings.diffuse()) {
+      ready = false;
+    } else if (observer != null) {
+      observer.priorRowAdded(index, priorInfo);
+    }
+  }
+
+  /**
+   * Marginalizes column {@code index} out exactly: the remaining weights and their covariance are
+   * those of the joint posterior. Moves the column to the front by adjacent swaps, each followed
+   * by one Givens rotation that restores triangularity ({@code z} rotated alike), then drops the
+   * first row and column: the trailing block of an upper-triangular factor factors the marginal
+   * information of the trailing variables. {@code O(p^2)}.
+   *
+   * @param index the column to remove; at least 1 with a constant term
+   * @throws IllegalArgumentException if {@code index} is out of range
+   */
+  @Override
+  public void columnRemoved(int index) {
+    int min = settings.constantTerm() ? 1 : 0;
+    if (index < min || index >= p) {
+      throw new IllegalArgumentException("columnRemoved index must be in [" + min + ", " + (p - 1)
+          + "]" + (min == 1 ? " (column 0 is the constant term)" : "") + ", got " + index);
+    }
+    final double[] rm = r;
+    final int c = cap;
+    for (int k = index; k >= 1; k--) {
+      // swap columns k-1 and k in rows 0..k (rows below hold zeros in both)
+      for (int i = 0; i <= k; i++) {
+        int ri = i * c;
+        double t = rm[ri + k - 1];
+        rm[ri + k - 1] = rm[ri + k];
+        rm[ri + k] = t;
+      }
+      // row k now has a sub-diagonal entry at column k-1: rotate rows k-1 and k
+      int r0 = (k - 1) * c;
+      int r1 = k * c;
+      double a = rm[r0 + k - 1];
+      double b = rm[r1 + k - 1];
+      if (b != 0.0) {
+        double h = StrictMath.hypot(a, b);
+        double cs = a / h;
+        double sn = b / h;
+        rm[r0 + k - 1] = h;
+        rm[r1 + k - 1] = 0.0;
+        for (int j = k; j < p; j++) {
+          double u = rm[r0 + j];
+          double v = rm[r1 + j];
+          rm[r0 + j] = cs * u + sn * v;
+          rm[r1 + j] = cs * v - sn * u;
+        }
+        double u = z[k - 1];
+        double v = z[k];
+        z[k - 1] = cs * u + sn * v;
+        z[k] = cs * v - sn * u;
+      } else {
+        rm[r1 + k - 1] = 0.0;
+        if (rm[r0 + k - 1] < 0.0) { // keep pivots non-negative: negate row k-1 of [R | z]
+          for (int j = k - 1; j < p; j++) {
+            rm[r0 + j] = -rm[r0 + j];
+          }
+          z[k - 1] = -z[k - 1];
+        }
+      }
+      if (rm[r1 + k] < 0.0) { // keep pivots non-negative: negate row k of [R | z]
+        for (int j = k; j < p; j++) {
+          rm[r1 + j] = -rm[r1 + j];
+        }
+        z[k] = -z[k];
+      }
+    }
+    // drop row 0 and column 0
+    for (int i = 0; i < p - 1; i++) {
+      System.arraycopy(rm, (i + 1) * c + i + 1, rm, i * c + i, p - 1 - i);
+    }
+    System.arraycopy(z, 1, z, 0, p - 1);
+    // the removed column is the one at index; bookkeeping arrays follow the layout
+    System.arraycopy(priorAtRefresh, index + 1, priorAtRefresh, index, p - 1 - index);
+    System.arraycopy(logDecayAtRefresh, index + 1, logDecayAtRefresh, index, p - 1 - index);
+    p--;
+    solve(r, z, theta);
+    ready = !settings.diffuse() || lastSolveFullRank;
+  }
+
+  /**
+   * Re-expresses column {@code column} in a new basis so that no prediction changes:
+   * {@code theta'_k = scale theta_k}, {@code theta'_0 += shift theta_k}. With {@code T} the map
+   * {@code theta' = T theta} (upper triangular), {@code R <- R T^-1}, where
+   * {@code (T^-1)_kk = 1/scale} and {@code (T^-1)_0k = -shift/scale}: only column k of R changes,
+   * {@code R'_0k = (R_0k - shift R_00) / scale} and {@code R'_ik = R_ik / scale} for i ≥ 1;
+   * {@code z} is unchanged. {@code O(p)}.
+   *
+   * @param column the re-based column; at least 1 with a constant term
+   * @param scale {@code s'/s}, positive and finite
+   * @param shift {@code (m' - m)/s}, finite; must be 0 without a constant term
+   * @throws IllegalArgumentException if an argument is out of range
+   */
+  @Override
+  public void columnRebased(int column, double scale, double shift) {
+    int min = settings.constantTerm() ? 1 : 0;
+    if (column < min || column >= p) {
+      throw new IllegalArgumentException("columnRebased column must be in [" + min + ", " + (p - 1)
+          + "], got " + column);
+    }
+    if (!(scale > 0 && scale < Double.POSITIVE_INFINITY)) {
+      throw new IllegalArgumentException("columnRebased scale must be positive and finite, got " + scale);
+    }
+    if (!(Math.abs(shift) < Double.POSITIVE_INFINITY) || (shift != 0.0 && !settings.constantTerm())) {
+      throw new IllegalArgumentException("columnRebased shift must be finite, and 0 without a constant term, got "
+          + shift);
+    }
+    final double[] rm = r;
+    final int c = cap;
+    final int k = column;
+    if (shift != 0.0) {
+      rm[k] = (rm[k] - shift * rm[0]) / scale;
+      for (int i = 1; i <= k; i++) {
+        rm[i * c + k] /= scale;
+      }
+      theta[0] += shift * theta[k];
+    } else {
+      for (int i = 0; i <= k; i++) {
+        rm[i * c + k] /= scale;
+      }
+    }
+    theta[k] *= scale;
+    priorAtRefresh[k] /= scale * scale;
+  }
+
+  // ---------------------------------------------------------------- verification hook
+
+  /**
+   * Registers the one observer told of every prior row added from now on (a new column's prior
+   * and every windup-guard refresh), or none.
+   *
+   * @param o the observer, or null to stop
+   */
+  public void observePriorRows(PriorRowObserver o) {
+    this.observer = o;
+  }
+
+  // ---------------------------------------------------------------- snapshots (cold path)
+
+  /**
+   * @param out receives the weights in the current (standardized) basis, length at least
+   *     {@link #dimension()}; NaN when not ready. Modified.
+   */
+  public void weights(double[] out) {
+    checkLength(out);
+    for (int j = 0; j < p; j++) {
+      out[j] = ready ? theta[j] : Double.NaN;
+    }
+  }
+
+  /**
+   * Standard errors {@code residualSd * sqrt(diag((R^T R)^-1))}, from the rows of {@code R^-1};
+   * {@code O(p^3)}.
+   *
+   * @param out length at least {@link #dimension()}; NaN when not ready or
+   *     {@code effectiveSampleSize <= dimension}. Modified.
+   */
+  public void standardErrors(double[] out) {
+    checkLength(out);
+    double s = residualSd();
+    if (!ready || !(s >= 0)) {
+      Arrays.fill(out, 0, p, Double.NaN);
+      return;
+    }
+    double[] u = inverseFactor();
+    for (int i = 0; i < p; i++) {
+      double sum = 0.0;
+      for (int k = i; k < p; k++) {
+        sum += u[i * p + k] * u[i * p + k];
+      }
+      out[i] = s * Math.sqrt(sum);
+    }
+  }
+
+  /**
+   * The unscaled covariance {@code (R^T R)^-1} (multiply by a noise variance), row-major
+   * {@code p x p}; {@code O(p^3)}.
+   *
+   * @return a new array; NaN-filled when not ready
+   */
+  public double[] unscaledCovariance() {
+    double[] out = new double[p * p];
+    if (!ready) {
+      Arrays.fill(out, Double.NaN);
+      return out;
+    }
+    double[] u = inverseFactor();
+    for (int i = 0; i < p; i++) {
+      for (int j = i; j < p; j++) {
+        double sum = 0.0;
+        for (int k = j; k < p; k++) {
+          sum += u[i * p + k] * u[j * p + k];
+        }
+        out[i * p + j] = sum;
+        out[j * p + i] = sum;
+      }
+    }
+    return out;
+  }
+
+  /** R^-1, upper triangular, row-major p x p, by back-substitution per column. */
+  private double[] inverseFactor() {
+    double[] u = new double[p * p];
+    for (int j = 0; j < p; j++) {
+      u[j * p + j] = 1.0 / r[j * cap + j];
+      for (int i = j - 1; i >= 0; i--) {
+        double s = 0.0;
+        for (int k = i + 1; k <= j; k++) {
+          s += r[i * cap + k] * u[k * p + j];
+        }
+        u[i * p + j] = -s / r[i * cap + i];
+      }
+    }
+    return u;
+  }
+
+  /**
+   * The OLS-style residual sd {@code sqrt(rho^2 / (nEff - p))}; {@code rho^2} is the minimum of
+   * the weighted objective, which with a prior includes the prior rows' penalty.
+   *
+   * @return the residual sd, NaN when {@code nEff <= p}
+   */
+  public double residualSd() {
+    double dof = nEff - p;
+    return dof > 0 ? Math.sqrt(rho2 / dof) : Double.NaN;
+  }
+
+  /** @return the weighted residual sum of squares {@code rho^2} (see {@link #residualSd()}) */
+  public double weightedResidualSumOfSquares() {
+    return rho2;
+  }
+
+  /** @return the effective sample size, {@code nEff <- lambda nEff + 1} per update */
+  public double effectiveSampleSize() {
+    return nEff;
+  }
+
+  /** @return the number of accepted updates */
+  public long updates() {
+    return updates;
+  }
+
+  // ---------------------------------------------------------------- checkpoint
+
+  /**
+   * Writes the whole state (not the observer). {@link #readFrom} continues bit-for-bit.
+   *
+   * @param out the sink. Modified.
+   * @throws IOException from {@code out}
+   */
+  public void writeTo(DataOutput out) throws IOException {
+    out.writeInt(MAGIC);
+    out.writeInt(FORMAT_VERSION);
+    out.writeDouble(settings.priorVariance());
+    out.writeBoolean(settings.constantTerm());
+    out.writeBoolean(settings.windupGuard());
+    out.writeDouble(settings.intervalZ());
+    out.writeDouble(settings.noiseHalfLifeRecords());
+    out.writeInt(p);
+    for (int i = 0; i < p; i++) {
+      for (int j = i; j < p; j++) {
+        out.writeDouble(r[i * cap + j]);
+      }
+    }
+    for (int j = 0; j < p; j++) {
+      out.writeDouble(z[j]);
+      out.writeDouble(theta[j]);
+      out.writeDouble(priorAtRefresh[j]);
+      out.writeDouble(logDecayAtRefresh[j]);
+    }
+    out.writeDouble(logDecay);
+    out.writeLong(refreshCounter);
+    out.writeDouble(rho2);
+    out.writeDouble(nEff);
+    out.writeDouble(noiseSum);
+    out.writeDouble(noiseWeight);
+    out.writeLong(updates);
+    out.writeBoolean(ready);
+  }
+
+  /**
+   * Reads a state written by {@link #writeTo}.
+   *
+   * @param in the source. Modified (read).
+   * @return the model
+   * @throws IOException from {@code in}, or if the bytes are not a model of a known version
+   */
+  public static RlsModel readFrom(DataInput in) throws IOException {
+    int magic = in.readInt();
+    if (magic != MAGIC) {
+      throw new IOException("not a model checkpoint: magic 0x" + Integer.toHexString(magic));
+    }
+    int version = in.readInt();
+    if (version != FORMAT_VERSION) {
+      throw new IOException("model checkpoint format version " + version + " is not supported (this build reads "
+          + FORMAT_VERSION + ")");
+    }
+    ModelSettings s;
+    try {
+      s = new ModelSettings(in.readDouble(), in.readBoolean(), in.readBoolean(), in.readDouble(), in.readDouble());
+    } catch (IllegalArgumentException e) {
+      throw new IOException("corrupt model checkpoint: " + e.getMessage(), e);
+    }
+    int p = in.readInt();
+    if (p < (s.constantTerm() ? 1 : 0) || p > 1 << 15) {
+      throw new IOException("corrupt model checkpoint: dimension " + p);
+    }
+    RlsModel m = new RlsModel(s.constantTerm() ? 1 : 0, s);
+    m.ensureCapacity(p);
+    m.p = p;
+    for (int i = 0; i < p; i++) {
+      for (int j = i; j < p; j++) {
+        m.r[i * m.cap + j] = in.readDouble();
+      }
+    }
+    for (int j = 0; j < p; j++) {
+      m.z[j] = in.readDouble();
+      m.theta[j] = in.readDouble();
+      m.priorAtRefresh[j] = in.readDouble();
+      m.logDecayAtRefresh[j] = in.readDouble();
+    }
+    m.logDecay = in.readDouble();
+    m.refreshCounter = in.readLong();
+    m.rho2 = in.readDouble();
+    m.nEff = in.readDouble();
+    m.noiseSum = in.readDouble();
+    m.noiseWeight = in.readDouble();
+    m.updates = in.readLong();
+    m.ready = in.readBoolean();
+    return m;
+  }
+
+  private void checkLength(double[] x) {
+    if (x.length < p) {
+      throw new IllegalArgumentException("vector length must be at least the dimension " + p + ", got " + x.length);
+    }
+  }
+}

@@ -1,0 +1,7 @@
+/**
+ * The online model: exponentially weighted recursive least squares in information (square-root)
+ * form, with a ridge prior or an exactly diffuse start, a cyclic stabilized-forgetting guard
+ * against covariance wind-up, exact marginalization of removed columns and exact re-basing of
+ * re-standardized columns. See {@code docs/model.md}.
+ */
+package dev.runnel.core.model;

@@ -1,0 +1,253 @@
+package dev.runnel.core.record;
+
+import com.fasterxml.jackson.core.JsonFactory;
+import com.fasterxml.jackson.core.JsonParser;
+import com.fasterxml.jackson.core.JsonProcessingException;
+import com.fasterxml.jackson.core.JsonToken;
+import com.fasterxml.jackson.core.json.JsonReadFeature;
+import java.io.IOException;
+
+/**
+ * Decodes one JSON object per call into a reusable {@link EventRecord} with Jackson's streaming
+ * parser (no tree, no boxing). One thread per instance.
+ *
+ * <p>Outcomes: {@link #decode} returns {@code null} when the record was decoded, or the
+ * {@link RejectReason} of the first problem found; {@link #lastDetail()} then says what it was,
+ * e.g. {@code field temperature_c: expected a number, got a string}. Undeclared fields are skipped
+ * whatever they hold. A declared field that is JSON {@code null} is left absent, like a missing
+ * one: the caller decides what is required. When a field occurs twice, the last value wins.
+ *
+ * <p>Checks, in the order met: record size ({@code RECORD_TOO_LARGE}); JSON syntax, a root that is
+ * not an object, anything after the object ({@code MALFORMED_JSON}); per declared field the JSON
+ * type ({@code WRONG_TYPE}, also for objects and arrays); NaN, Infinity and numbers that overflow
+ * a double ({@code NOT_FINITE}); magnitude above {@code max_abs_value} ({@code OUT_OF_RANGE});
+ * strings longer than {@code max_text_length} ({@code TOO_LONG}); time text that does not parse
+ * ({@code BAD_TIME}) or lies outside [{@code min_year}, {@code max_year}] in UTC
+ * ({@code ABSURD_TIME}).
+ *
+ * <p>TIME fields take ISO 8601 text, except the event-time field when its format is an epoch
+ * format: it then takes a number or numeric text. A NUMBER field configured as event time keeps
+ * its number and also sets the record's event time.
+ */
+public final class JsonRecordDecoder {
+
+  private final RecordSchema schema;
+  private final RecordLimits limits;
+  private final int eventTimeSlot;
+  private final TimeFormat eventTimeFormat;
+  private final long minTime;
+  private final long endTime;
+  private final JsonFactory factory;
+  private String detail = "";
+
+  /**
+   * @param schema declared fields. Not modified.
+   * @param limits rejection bounds
+   * @param eventTimeField name of the event-time field, or {@code null} when the caller supplies
+   *     the time
+   * @param eventTimeFormat format of that field; ignored when {@code eventTimeField} is null
+   * @throws IllegalArgumentException if the event-time field is not declared, or its type does not
+   *     fit the format (TIME for any format, NUMBER only for epoch formats)
+   */
+  public JsonRecordDecoder(RecordSchema schema, RecordLimits limits, String eventTimeField, TimeFormat eventTimeFormat) {
+    this.schema = schema;
+    this.limits = limits;
+    if (eventTimeField == null) {
+      eventTimeSlot = -1;
+      this.eventTimeFormat = TimeFormat.ISO8601;
+    } else {
+      eventTimeSlot = schema.slot(eventTimeField);
+      if (eventTimeSlot < 0) throw new IllegalArgumentException("event time field " + eventTimeField + " is not declared");
+      FieldType t = schema.type(eventTimeSlot);
+      if (t != FieldType.TIME && !(t == FieldType.NUMBER && eventTimeFormat != TimeFormat.ISO8601)) {
+        throw new IllegalArgumentException("event time field " + eventTimeField + " is " + t.word() + "; use a time field, or a number field with an epoch format");
+      }
+      this.eventTimeFormat = eventTimeFormat;
+    }
+    this.minTime = limits.minTimeMillis();
+    this.endTime = limits.endTimeMillis();
+    this.factory = JsonFactory.builder().enable(JsonReadFeature.ALLOW_NON_NUMERIC_NUMBERS).build();
+  }
+
+  /** A decoder without an event-time field. */
+  public JsonRecordDecoder(RecordSchema schema, RecordLimits limits) { this(schema, limits, null, null); }
+
+  /** What the last rejected record was rejected for; empty after a success. */
+  public String lastDetail() { return detail; }
+
+  /**
+   * Decodes {@code buf[off .. off+len)} into {@code out}, which is cleared first.
+   *
+   * @param buf the record's bytes, UTF-8 JSON. Not modified.
+   * @param out receives the fields. Modified.
+   * @return null on success, else why the record is rejected ({@code out} is then partly filled)
+   */
+  public RejectReason decode(byte[] buf, int off, int len, EventRecord out) {
+    out.clear();
+    detail = "";
+    if (len > limits.maxRecordBytes()) {
+      detail = "record is " + len + " bytes; the limit is " + limits.maxRecordBytes();
+      return RejectReason.RECORD_TOO_LARGE;
+    }
+    try (JsonParser p = factory.createParser(buf, off, len)) {
+      JsonToken t = p.nextToken();
+      if (t != JsonToken.START_OBJECT) {
+        detail = t == null ? "empty input" : "expected a JSON object, got " + describe(t);
+        return RejectReason.MALFORMED_JSON;
+      }
+      while (true) {
+        t = p.nextToken();
+        if (t == JsonToken.END_OBJECT) break;
+        if (t != JsonToken.FIELD_NAME) {
+          detail = "expected a field name, got " + describe(t);
+          return RejectReason.MALFORMED_JSON;
+        }
+        int slot = schema.slot(p.currentName());
+        t = p.nextToken();
+        if (t == null) {
+          detail = "input ends inside the object";
+          return RejectReason.MALFORMED_JSON;
+        }
+        if (slot < 0) {
+          p.skipChildren();
+          continue;
+        }
+        if (t == JsonToken.VALUE_NULL) {
+          out.setAbsent(slot);
+          continue;
+        }
+        RejectReason r = readValue(p, t, slot, out);
+        if (r != null) return r;
+      }
+      JsonToken after = p.nextToken();
+      if (after != null) {
+        detail = "unexpected " + describe(after) + " after the object";
+        return RejectReason.MALFORMED_JSON;
+      }
+      return null;
+    } catch (JsonProcessingException e) {
+      detail = oneLine(e.getOriginalMessage()) + locationOf(e);
+      return RejectReason.MALFORMED_JSON;
+    } catch (IOException e) {
+      detail = oneLine(e.getMessage());
+      return RejectReason.MALFORMED_JSON;
+    }
+  }
+
+  private RejectReason readValue(JsonParser p, JsonToken t, int slot, EventRecord out) throws IOException {
+    FieldType type = schema.type(slot);
+    switch (type) {
+      case NUMBER: {
+        if (t != JsonToken.VALUE_NUMBER_INT && t != JsonToken.VALUE_NUMBER_FLOAT) return wrongType(p, t, slot, "a number");
+        double v = p.getDoubleValue();
+        if (Double.isNaN(v) || Double.isInfinite(v)) {
+          detail = "field " + schema.name(slot) + ": " + p.getText() + " is not a finite number";
+          return RejectReason.NOT_FINITE;
+        }
+        if (Math.abs(v) > limits.maxAbsValue()) {
+          detail = "field " + schema.name(slot) + ": " + v + " exceeds the limit of " + limits.maxAbsValue() + " in magnitude";
+          return RejectReason.OUT_OF_RANGE;
+        }
+        out.setNumber(slot, v);
+        if (slot == eventTimeSlot) {
+          return setEventTime(slot, EventTimes.fromEpochNumber(v, eventTimeFormat), out, false);
+        }
+        return null;
+      }
+      case TEXT: {
+        if (t != JsonToken.VALUE_STRING) return wrongType(p, t, slot, "a string");
+        int n = p.getTextLength();
+        if (n > limits.maxTextLength()) {
+          detail = "field " + schema.name(slot) + ": text of " + n + " chars exceeds the limit of " + limits.maxTextLength();
+          return RejectReason.TOO_LONG;
+        }
+        out.setText(slot, p.getText());
+        return null;
+      }
+      case FLAG: {
+        if (t != JsonToken.VALUE_TRUE && t != JsonToken.VALUE_FALSE) return wrongType(p, t, slot, "true or false");
+        out.setFlag(slot, t == JsonToken.VALUE_TRUE);
+        return null;
+      }
+      case TIME: default: {
+        boolean epoch = slot == eventTimeSlot && eventTimeFormat != TimeFormat.ISO8601;
+        long ms;
+        if (t == JsonToken.VALUE_STRING) {
+          int n = p.getTextLength();
+          if (n > limits.maxTextLength()) {
+            detail = "field " + schema.name(slot) + ": text of " + n + " chars exceeds the limit of " + limits.maxTextLength();
+            return RejectReason.TOO_LONG;
+          }
+          char[] c = p.getTextCharacters();
+          int o = p.getTextOffset();
+          ms = epoch ? EventTimes.fromEpochText(c, o, n, eventTimeFormat) : EventTimes.parseIso8601(c, o, n);
+        } else if (epoch && (t == JsonToken.VALUE_NUMBER_INT || t == JsonToken.VALUE_NUMBER_FLOAT)) {
+          double v = p.getDoubleValue();
+          if (Double.isNaN(v) || Double.isInfinite(v)) {
+            detail = "field " + schema.name(slot) + ": " + p.getText() + " is not a finite number";
+            return RejectReason.NOT_FINITE;
+          }
+          ms = EventTimes.fromEpochNumber(v, eventTimeFormat);
+        } else {
+          return wrongType(p, t, slot, epoch ? "a number or numeric string (" + eventTimeFormat.word() + ")" : "an ISO 8601 time string");
+        }
+        if (ms == EventTimes.INVALID) {
+          detail = "field " + schema.name(slot) + ": " + abbreviate(p.getText()) + " is not a time in " + (epoch ? eventTimeFormat.word() : "ISO 8601 with an offset, e.g. 2026-03-29T02:30:00+02:00");
+          return RejectReason.BAD_TIME;
+        }
+        return setEventTime(slot, ms, out, true);
+      }
+    }
+  }
+
+  private RejectReason setEventTime(int slot, long ms, EventRecord out, boolean store) {
+    if (ms == EventTimes.INVALID) {
+      detail = "field " + schema.name(slot) + ": " + out.number(slot) + " is not a time in " + eventTimeFormat.word();
+      return RejectReason.BAD_TIME;
+    }
+    if (ms < minTime || ms >= endTime) {
+      detail = "field " + schema.name(slot) + ": " + java.time.Instant.ofEpochMilli(ms) + " is outside the years "
+          + limits.minYear() + " to " + limits.maxYear();
+      return RejectReason.ABSURD_TIME;
+    }
+    if (store) out.setTimeMillis(slot, ms);
+    if (slot == eventTimeSlot) out.setEventTimeMillis(ms);
+    return null;
+  }
+
+  private RejectReason wrongType(JsonParser p, JsonToken t, int slot, String expected) {
+    detail = "field " + schema.name(slot) + ": expected " + expected + ", got " + describe(t);
+    return RejectReason.WRONG_TYPE;
+  }
+
+  private static String describe(JsonToken t) {
+    switch (t) {
+      case START_OBJECT: return "an object";
+      case START_ARRAY: return "an array";
+      case VALUE_STRING: return "a string";
+      case VALUE_NUMBER_INT: case VALUE_NUMBER_FLOAT: return "a number";
+      case VALUE_TRUE: case VALUE_FALSE: return "a boolean";
+      case VALUE_NULL: return "null";
+      case END_OBJECT: return "'}'";
+      case END_ARRAY: return "']'";
+      case FIELD_NAME: return "a field name";
+      default: return t.toString();
+    }
+  }
+
+  private static String locationOf(JsonProcessingException e) {
+    if (e.getLocation() == null) return "";
+    long off = e.getLocation().getByteOffset();
+    return off >= 0 ? " (at byte " + off + ")" : "";
+  }
+
+  private static String oneLine(String s) {
+    if (s == null) return "unreadable input";
+    int nl = s.indexOf('\n');
+    return abbreviate(nl >= 0 ? s.substring(0, nl) : s);
+  }
+
+  private static String abbreviate(String s) {
+    return s.length() <= 80 ? s : s.substring(0, 77) + "...";
+  }
+}

@@ -1,0 +1,189 @@
+package dev.runnel.core.model;
+
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import java.util.ArrayList;
+import java.util.Arrays;
+import java.util.List;
+import java.util.Random;
+import org.ejml.data.DMatrixRMaj;
+import org.ejml.dense.row.factory.LinearSolverFactory_DDRM;
+import org.ejml.interfaces.linsol.LinearSolverDense;
+import org.junit.jupiter.params.ParameterizedTest;
+import org.junit.jupiter.params.provider.ValueSource;
+
+/**
+ * At every step of a seeded stream with forgetting, added and removed columns and re-basings,
+ * the model's weights equal the exponentially weighted ridge solution solved from scratch by
+ * EJML's QR least squares (EJML as reference), over every row ever added.
+ */
+class ReferenceSolutionTest {
+
+  private static final double LAMBDA = 0.99;
+  private static final double PRIOR_VARIANCE = 10.0;
+  /**
+   * Rows whose weight fell below this are left out of the reference: each adds at most 1e-13 of
+   * its own (unit-scale) information, so leaving it out moves the solution by at most about
+   * 1e-13 times the condition number of the information (below 1e3 here), far below the 1e-8
+   * tolerance.
+   */
+  private static final double DROP_WEIGHT = 1e-13;
+
+  /** One row of the reference problem, over column ids (every column ever seen). */
+  static final class Row {
+    double[] a;
+    final double y;
+    double weight = 1.0;
+
+    Row(int ids, double y) {
+      this.a = new double[ids];
+      this.y = y;
+    }
+  }
+
+  final List<Row> rows = new ArrayList<>();
+  final List<Integer> live = new ArrayList<>(); // live index -> column id
+  int ids;
+
+  Row newRow(double y) {
+    Row r = new Row(Math.max(ids, 1), y);
+    rows.add(r);
+    return r;
+  }
+
+  double[] entries(Row r) {
+    if (r.a.length < ids) {
+      r.a = Arrays.copyOf(r.a, ids);
+    }
+    return r.a;
+  }
+
+  @ParameterizedTest(name = "windup guard {0}")
+  @ValueSource(booleans = {true, false})
+  void weightsEqualWeightedRidgeSolutionAtEveryStep(boolean guard) {
+    Random rnd = new Random(20261201L);
+    ModelSettings s = ModelSettings.defaults().withPriorVariance(PRIOR_VARIANCE).withWindupGuard(guard);
+    int p0 = 3;
+    RlsModel model = new RlsModel(p0, s);
+    for (int j = 0; j < p0; j++) {
+      live.add(ids++);
+    }
+    for (int j = 0; j < p0; j++) { // the constructor's prior rows: 1/priorVariance each (documented)
+      Row r = newRow(0.0);
+      entries(r)[j] = Math.sqrt(1.0 / PRIOR_VARIANCE);
+    }
+    model.observePriorRows((column, information) -> {
+      Row r = newRow(0.0);
+      entries(r)[live.get(column)] = Math.sqrt(information);
+    });
+    double[] x = new double[16];
+    double[] theta = new double[16];
+    int adds = 0;
+    int removes = 0;
+    int rebases = 0;
+    for (int step = 0; step < 5000; step++) {
+      double u = rnd.nextDouble();
+      if (u < 0.004 && model.dimension() < 7) {
+        live.add(ids++);
+        model.columnAdded(model.dimension(), "c" + ids);
+        adds++;
+      } else if (u < 0.008 && model.dimension() > 2) {
+        int k = 1 + rnd.nextInt(model.dimension() - 1);
+        live.remove(k);
+        model.columnRemoved(k);
+        removes++;
+      } else if (u < 0.06) {
+        int k = 1 + rnd.nextInt(model.dimension() - 1);
+        double scale = Math.exp(rnd.nextGaussian() * 0.5);
+        double shift = rnd.nextGaussian();
+        rebase(k, scale, shift);
+        model.columnRebased(k, scale, shift);
+        rebases++;
+      }
+      int p = model.dimension();
+      x[0] = 1.0;
+      double y = 0.5;
+      for (int j = 1; j < p; j++) {
+        x[j] = rnd.nextDouble() < 0.3 ? 0.0 : rnd.nextGaussian();
+        y += (j % 3 - 1) * x[j];
+      }
+      y += 0.1 * rnd.nextGaussian();
+      for (Row r : rows) {
+        r.weight *= LAMBDA;
+      }
+      rows.removeIf(r -> r.weight < DROP_WEIGHT);
+      Row data = newRow(y);
+      double[] a = entries(data);
+      for (int j = 0; j < p; j++) {
+        a[live.get(j)] = x[j];
+      }
+      assertTrue(model.update(x, y, LAMBDA));
+      double[] ref = referenceSolution();
+      model.weights(theta);
+      double norm = 0.0;
+      double diff = 0.0;
+      for (int j = 0; j < p; j++) {
+        double rj = ref[live.get(j)];
+        norm = Math.max(norm, Math.abs(rj));
+        diff = Math.max(diff, Math.abs(theta[j] - rj));
+      }
+      assertTrue(diff <= 1e-8 * norm, "step " + step + ": max |theta - reference| " + diff + " vs max |ref| " + norm);
+    }
+    assertTrue(adds >= 5 && removes >= 5 && rebases >= 100, "the stream exercised the layout: " + adds + " adds, "
+        + removes + " removes, " + rebases + " rebases");
+  }
+
+  /**
+   * Re-expresses every stored row in the new basis. With theta' = T theta
+   * (T_kk = scale, T_0k = shift), a prediction x^T theta is kept when x'^T = x^T T^-1, i.e.
+   * row' = row T^-1 with (T^-1)_kk = 1/scale and (T^-1)_0k = -shift/scale: only entry k changes,
+   * a'_k = (a_k - shift a_0) / scale. (As a map on column vectors, row' = A row with
+   * A = T^-T; the same map the model applies to its factor, R' = R T^-1.)
+   */
+  void rebase(int k, double scale, double shift) {
+    int idK = live.get(k);
+    int id0 = live.get(0);
+    for (Row r : rows) {
+      double[] a = entries(r);
+      a[idK] = (a[idK] - shift * a[id0]) / scale;
+    }
+  }
+
+  /** Solves min sum w (y - a^T theta)^2 by EJML's Householder QR over the columns that any row touches. */
+  double[] referenceSolution() {
+    boolean[] used = new boolean[ids];
+    for (Row r : rows) {
+      double[] a = entries(r);
+      for (int j = 0; j < ids; j++) {
+        used[j] |= a[j] != 0.0;
+      }
+    }
+    int[] cols = new int[ids];
+    int m = 0;
+    for (int j = 0; j < ids; j++) {
+      if (used[j]) {
+        cols[m++] = j;
+      }
+    }
+    DMatrixRMaj a = new DMatrixRMaj(rows.size(), m);
+    DMatrixRMaj b = new DMatrixRMaj(rows.size(), 1);
+    int i = 0;
+    for (Row r : rows) {
+      double sw = Math.sqrt(r.weight);
+      for (int c = 0; c < m; c++) {
+        a.set(i, c, sw * r.a[cols[c]]);
+      }
+      b.set(i, 0, sw * r.y);
+      i++;
+    }
+    LinearSolverDense<DMatrixRMaj> solver = LinearSolverFactory_DDRM.leastSquares(rows.size(), m);
+    assertTrue(solver.setA(a), "reference QR");
+    DMatrixRMaj sol = new DMatrixRMaj(m, 1);
+    solver.solve(b, sol);
+    double[] out = new double[ids];
+    for (int c = 0; c < m; c++) {
+      out[cols[c]] = sol.get(c, 0);
+    }
+    return out;
+  }
+}
