@@ -298,6 +298,7 @@ public final class EmbeddedBroker implements AutoCloseable {
     cmd.add("-Djava.awt.headless=true");
     cmd.add("-Dlog4j2.configurationFile=" + folder.resolve("log4j2.properties").toUri());
     cmd.add("-Dorg.slf4j.simpleLogger.defaultLogLevel=warn");
+    cmd.add("-Dorg.slf4j.simpleLogger.logFile=System.err"); // into broker.log, whatever simplelogger.properties is on the classpath
     cmd.add("-Dkafka.logs.dir=" + folder);
     cmd.add("-cp");
     cmd.add(classpath);

@@ -82,6 +82,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private static final Logger LOG = LoggerFactory.getLogger(ExactlyOnceRunner.class);
   private static final long BACKOFF_MS = 2000;
   private static final long CLOSE_COMMIT_TIMEOUT_MS = 30_000;
+  private static final long STATE_VISIBLE_TIMEOUT_MS = 60_000;
   private static final Set<String> FORCED = Set.of(ConsumerConfig.ISOLATION_LEVEL_CONFIG, ConsumerConfig.ENABLE_AUTO_COMMIT_CONFIG,
       ProducerConfig.TRANSACTIONAL_ID_CONFIG, ProducerConfig.ENABLE_IDEMPOTENCE_CONFIG, "key.serializer", "value.serializer",
       "key.deserializer", "value.deserializer", ConsumerConfig.GROUP_ID_CONFIG, ConsumerConfig.BOOTSTRAP_SERVERS_CONFIG);
@@ -566,10 +567,29 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   }
 
   private void assign(List<TopicPartition> fresh) {
+    long stateDeadline = System.currentTimeMillis() + STATE_VISIBLE_TIMEOUT_MS;
     while (true) {
       try {
-        Map<TopicPartition, Checkpoint> state = readState(fresh);
+        // committed() of a read_committed consumer waits for pending transactional offsets (stable offsets)
         Map<TopicPartition, OffsetAndMetadata> committed = consumer.committed(new HashSet<>(fresh), Duration.ofSeconds(15));
+        Map<TopicPartition, Checkpoint> state = readState(fresh);
+        // commitTransaction() returns before the commit markers are written everywhere: a checkpoint older than the
+        // (stable) committed offset means the last transaction's markers are not on the state topic yet. Read again.
+        List<TopicPartition> behind = new ArrayList<>();
+        for (TopicPartition tp : fresh) {
+          OffsetAndMetadata om = committed.get(tp);
+          Checkpoint cp = state.get(tp);
+          if (om != null && (cp == null || cp.nextOffset < om.offset())) behind.add(tp);
+        }
+        if (!behind.isEmpty()) {
+          if (System.currentTimeMillis() < stateDeadline) {
+            sleep(100);
+            continue;
+          }
+          throw new FatalException("the state topic " + settings.stateTopic() + " has no checkpoint matching the committed offsets of "
+              + behind + " after " + STATE_VISIBLE_TIMEOUT_MS / 1000 + " s; was group " + settings.groupId()
+              + " used by another application, or the state topic deleted? Reset the group's offsets or restore the topic.", null);
+        }
         List<TopicPartition> noOffset = new ArrayList<>();
         for (TopicPartition tp : fresh) if (state.get(tp) == null && committed.get(tp) == null) noOffset.add(tp);
         Map<TopicPartition, Long> beginning = noOffset.isEmpty() ? Map.of() : consumer.beginningOffsets(noOffset, Duration.ofSeconds(15));

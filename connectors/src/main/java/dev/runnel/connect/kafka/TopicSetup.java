@@ -41,7 +41,7 @@ public final class TopicSetup {
   public static Layout ensure(Admin admin, RunnerSettings s) throws InterruptedException {
     int inputParts;
     try {
-      inputParts = describe(admin, s.inputTopic()).partitions().size();
+      inputParts = describeSoon(admin, s.inputTopic()).partitions().size();
     } catch (UnknownTopicOrPartitionException e) {
       throw new IllegalStateException("input topic " + s.inputTopic() + " does not exist on " + s.bootstrapServers()
           + "; create it first (its partition count is the number of independent models and the most instances that can share the work)");
@@ -74,9 +74,22 @@ public final class TopicSetup {
       }
     }
     Map<String, Integer> counts = new HashMap<>();
-    for (NewTopic t : wanted) counts.put(t.name(), describe(admin, t.name()).partitions().size());
+    for (NewTopic t : wanted) counts.put(t.name(), describeSoon(admin, t.name()).partitions().size());
     return new Layout(inputParts, counts.get(s.predictionsTopic()), counts.get(s.coefficientsTopic()), counts.get(s.rejectsTopic()),
         counts.get(s.stateTopic()));
+  }
+
+  /** Describes a topic, allowing a few seconds for a just-created topic to appear in the metadata. */
+  private static TopicDescription describeSoon(Admin admin, String topic) throws InterruptedException {
+    long deadline = System.currentTimeMillis() + 5000;
+    while (true) {
+      try {
+        return describe(admin, topic);
+      } catch (UnknownTopicOrPartitionException e) {
+        if (System.currentTimeMillis() > deadline) throw e;
+        Thread.sleep(100);
+      }
+    }
   }
 
   private static TopicDescription describe(Admin admin, String topic) throws InterruptedException {
