@@ -1,0 +1,76 @@
+package dev.runnel.connect.kafka;
+
+import java.util.Locale;
+import java.util.Map;
+import java.util.TreeMap;
+import java.util.function.UnaryOperator;
+import java.util.regex.Matcher;
+import java.util.regex.Pattern;
+
+/**
+ * Kafka client property handling: {@code ${ENV}} resolution, per-client prefixes and masking of secrets
+ * for logs. Stateless.
+ */
+public final class ClientConfig {
+  private static final Pattern VAR = Pattern.compile("\\$\\{([A-Za-z_][A-Za-z0-9_]*)}");
+  private static final String[] SECRET_WORDS = {"password", "secret", "jaas", "token", "key.pem", "credential"};
+
+  /** Which client a property set is for. */
+  public enum Kind { CONSUMER, PRODUCER, ADMIN }
+
+  private ClientConfig() {}
+
+  /**
+   * The properties for one client: unprefixed keys, then keys prefixed {@code consumer.}/{@code producer.}/{@code admin.}
+   * for {@code kind} (prefix removed; they win). Values have {@code ${VAR}} replaced from {@code env}.
+   * @param props user properties. Not modified.
+   * @param env environment lookup (e.g. {@code System::getenv})
+   * @throws IllegalArgumentException if a referenced variable is not set (names the key and the variable, never the value)
+   */
+  public static Map<String, Object> forClient(Map<String, String> props, Kind kind, UnaryOperator<String> env) {
+    Map<String, Object> out = new TreeMap<>();
+    String own = kind.name().toLowerCase(Locale.ROOT) + ".";
+    for (Map.Entry<String, String> e : props.entrySet()) {
+      String k = e.getKey();
+      if (k.startsWith("consumer.") || k.startsWith("producer.") || k.startsWith("admin.")) continue;
+      out.put(k, resolve(k, e.getValue(), env));
+    }
+    for (Map.Entry<String, String> e : props.entrySet()) {
+      if (e.getKey().startsWith(own)) out.put(e.getKey().substring(own.length()), resolve(e.getKey(), e.getValue(), env));
+    }
+    return out;
+  }
+
+  static String resolve(String key, String value, UnaryOperator<String> env) {
+    if (value == null) throw new IllegalArgumentException("client property " + key + " has no value");
+    Matcher m = VAR.matcher(value);
+    StringBuilder sb = new StringBuilder();
+    while (m.find()) {
+      String v = env.apply(m.group(1));
+      if (v == null) {
+        throw new IllegalArgumentException("client property " + key + " refers to environment variable " + m.group(1)
+            + ", which is not set");
+      }
+      m.appendReplacement(sb, Matcher.quoteReplacement(v));
+    }
+    m.appendTail(sb);
+    return sb.toString();
+  }
+
+  /** True if a key names a secret (contains password, secret, jaas, token, ...): its value is never logged. */
+  public static boolean isSecretKey(String key) {
+    String k = key.toLowerCase(Locale.ROOT);
+    for (String w : SECRET_WORDS) if (k.contains(w)) return true;
+    return false;
+  }
+
+  /** A printable form of a property map with secret values replaced by {@code ****}. Not modified. */
+  public static String masked(Map<String, ?> props) {
+    StringBuilder sb = new StringBuilder("{");
+    for (Map.Entry<String, ?> e : new TreeMap<>(props).entrySet()) {
+      if (sb.length() > 1) sb.append(", ");
+      sb.append(e.getKey()).append('=').append(isSecretKey(e.getKey()) ? "****" : String.valueOf(e.getValue()));
+    }
+    return sb.append('}').toString();
+  }
+}

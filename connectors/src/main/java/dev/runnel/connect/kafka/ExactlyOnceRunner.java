@@ -1,0 +1,718 @@
+package dev.runnel.connect.kafka;
+
+import java.nio.charset.StandardCharsets;
+import java.time.Duration;
+import java.util.ArrayList;
+import java.util.Collection;
+import java.util.HashMap;
+import java.util.HashSet;
+import java.util.LinkedHashMap;
+import java.util.List;
+import java.util.Map;
+import java.util.Objects;
+import java.util.OptionalLong;
+import java.util.Set;
+import java.util.concurrent.CountDownLatch;
+import java.util.concurrent.TimeUnit;
+import java.util.concurrent.atomic.AtomicBoolean;
+import java.util.function.UnaryOperator;
+import org.apache.kafka.clients.admin.Admin;
+import org.apache.kafka.clients.admin.AdminClientConfig;
+import org.apache.kafka.clients.consumer.CloseOptions;
+import org.apache.kafka.clients.consumer.ConsumerConfig;
+import org.apache.kafka.clients.consumer.ConsumerRebalanceListener;
+import org.apache.kafka.clients.consumer.ConsumerRecord;
+import org.apache.kafka.clients.consumer.ConsumerRecords;
+import org.apache.kafka.clients.consumer.KafkaConsumer;
+import org.apache.kafka.clients.consumer.OffsetAndMetadata;
+import org.apache.kafka.clients.consumer.RangeAssignor;
+import org.apache.kafka.clients.producer.Callback;
+import org.apache.kafka.clients.producer.KafkaProducer;
+import org.apache.kafka.clients.producer.ProducerConfig;
+import org.apache.kafka.clients.producer.ProducerRecord;
+import org.apache.kafka.common.KafkaException;
+import org.apache.kafka.common.TopicPartition;
+import org.apache.kafka.common.errors.AuthenticationException;
+import org.apache.kafka.common.errors.AuthorizationException;
+import org.apache.kafka.common.errors.FencedInstanceIdException;
+import org.apache.kafka.common.errors.InterruptException;
+import org.apache.kafka.common.errors.InvalidProducerEpochException;
+import org.apache.kafka.common.errors.ProducerFencedException;
+import org.apache.kafka.common.errors.TimeoutException;
+import org.apache.kafka.common.errors.UnsupportedVersionException;
+import org.apache.kafka.common.errors.WakeupException;
+import org.apache.kafka.common.header.Header;
+import org.apache.kafka.common.serialization.ByteArrayDeserializer;
+import org.apache.kafka.common.serialization.ByteArraySerializer;
+import org.slf4j.Logger;
+import org.slf4j.LoggerFactory;
+
+/**
+ * Runs {@link PartitionProcessor}s over an input topic and publishes their outputs exactly once.
+ *
+ * <p>Protocol (one Kafka transaction per commit interval):
+ * <ol>
+ *   <li>poll the input (read_committed, no auto-commit); for each record call the partition's processor;
+ *       its outputs are sent inside the open transaction;</li>
+ *   <li>every {@code commitIntervalMs} or {@code commitIntervalRecords}: for each partition touched since
+ *       the last commit, send {@link PartitionProcessor#checkpoint()} to {@code <name>.state} (key
+ *       {@code <topic>-<partition>}, header {@code runnel.next-offset}), then
+ *       {@code sendOffsetsToTransaction(last processed + 1, consumer.groupMetadata())}, then
+ *       {@code commitTransaction()}. Outputs, checkpoints and offsets become visible together or not at all.</li>
+ * </ol>
+ * On assignment, {@code <name>.state} is read to its end (read_committed) for the assigned partitions; each
+ * processor is restored from its latest checkpoint and the consumer is positioned at the offset stored with it
+ * (equal to the group's committed offset by construction). Before partitions are revoked, the open
+ * transaction is committed. Group protocol: classic, eager ({@link RangeAssignor}), with static membership
+ * ({@code group.instance.id = <name>-<instanceId>}) so that a restarted instance takes its partitions back
+ * without a rebalance; a clean {@link #close()} leaves the group so the others take over at once.
+ *
+ * <p>Errors: a fenced producer or group instance (another instance with the same id) and authorization
+ * failures stop the runner ({@link #failure()}). Any other Kafka error inside a transaction aborts it,
+ * rewinds every partition to its last committed offset and rebuilds its processor from the last committed
+ * checkpoint (kept in memory). An unreachable broker is retried every 2 s with a message.
+ *
+ * <p>Thread contract: {@link #run()} is called by one thread, once. {@link #close()} and {@link #counters()}
+ * may be called from any thread.
+ */
+public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
+  /** Header on state records: the input offset processing resumes from, as a decimal string. */
+  public static final String NEXT_OFFSET_HEADER = "runnel.next-offset";
+
+  private static final Logger LOG = LoggerFactory.getLogger(ExactlyOnceRunner.class);
+  private static final long BACKOFF_MS = 2000;
+  private static final long CLOSE_COMMIT_TIMEOUT_MS = 30_000;
+  private static final long STATE_VISIBLE_TIMEOUT_MS = 60_000;
+  private static final Set<String> FORCED = Set.of(ConsumerConfig.ISOLATION_LEVEL_CONFIG, ConsumerConfig.ENABLE_AUTO_COMMIT_CONFIG,
+      ProducerConfig.TRANSACTIONAL_ID_CONFIG, ProducerConfig.ENABLE_IDEMPOTENCE_CONFIG, "key.serializer", "value.serializer",
+      "key.deserializer", "value.deserializer", ConsumerConfig.GROUP_ID_CONFIG, ConsumerConfig.BOOTSTRAP_SERVERS_CONFIG);
+
+  private final RunnerSettings settings;
+  private final ProcessorFactory factory;
+  private final UnaryOperator<String> env;
+
+  private final AtomicBoolean started = new AtomicBoolean();
+  private final CountDownLatch finished = new CountDownLatch(1);
+  private volatile boolean closing;
+  private volatile String failure;
+
+  // counters: written by the run thread only
+  private volatile long recordsIn;
+  private volatile long outputsOut;
+  private volatile long rejects;
+  private volatile long commits;
+  private volatile long aborts;
+  private volatile long lastCommitMillis;
+  private volatile long lag = -1;
+
+  // owned by the run thread
+  private KafkaConsumer<byte[], byte[]> consumer;
+  private KafkaConsumer<byte[], byte[]> stateReader;
+  private KafkaProducer<byte[], byte[]> producer;
+  private TopicSetup.Layout layout;
+  private final Map<TopicPartition, Slot> slots = new LinkedHashMap<>();
+  private boolean txOpen;
+  private long txStartNanos;
+  private int recordsInTx;
+  private volatile Exception sendError;
+  private final Callback sendCallback = (md, e) -> { if (e != null && sendError == null) sendError = e; };
+
+  /** Per input partition: its processor and what was last committed for it. */
+  private final class Slot implements Emitter {
+    final TopicPartition tp;
+    final byte[] stateKey;
+    final int predPart;
+    final int coefPart;
+    final int rejPart;
+    final int statePart;
+    PartitionProcessor proc;
+    long committedNext;
+    byte[] committedCheckpoint;
+    long next;
+    boolean touched;
+
+    Slot(TopicPartition tp) {
+      this.tp = tp;
+      this.stateKey = (tp.topic() + "-" + tp.partition()).getBytes(StandardCharsets.UTF_8);
+      this.predPart = tp.partition() % layout.predictionsPartitions();
+      this.coefPart = tp.partition() % layout.coefficientsPartitions();
+      this.rejPart = tp.partition() % layout.rejectsPartitions();
+      this.statePart = tp.partition() % layout.statePartitions();
+    }
+
+    @Override public void prediction(byte[] key, byte[] value) {
+      producer.send(new ProducerRecord<>(settings.predictionsTopic(), predPart, key, value), sendCallback);
+      outputsOut++;
+    }
+
+    @Override public void snapshot(byte[] key, byte[] value) {
+      producer.send(new ProducerRecord<>(settings.coefficientsTopic(), coefPart, key, value), sendCallback);
+      outputsOut++;
+    }
+
+    @Override public void reject(byte[] key, byte[] value) {
+      producer.send(new ProducerRecord<>(settings.rejectsTopic(), rejPart, key, value), sendCallback);
+      outputsOut++;
+      rejects++;
+    }
+  }
+
+  /** Stops the runner: fencing, authorization, a processor that threw, a missing input topic. */
+  private static final class FatalException extends RuntimeException {
+    private static final long serialVersionUID = 1L;
+    FatalException(String m, Throwable c) { super(m, c); }
+  }
+
+  /**
+   * @param settings pipeline settings. Not modified.
+   * @param factory creates one processor per assigned input partition
+   */
+  public ExactlyOnceRunner(RunnerSettings settings, ProcessorFactory factory) {
+    this(settings, factory, System::getenv);
+  }
+
+  /** As {@link #ExactlyOnceRunner(RunnerSettings, ProcessorFactory)} with an explicit environment for {@code ${VAR}} values. */
+  public ExactlyOnceRunner(RunnerSettings settings, ProcessorFactory factory, UnaryOperator<String> env) {
+    this.settings = Objects.requireNonNull(settings, "settings must not be null");
+    this.factory = Objects.requireNonNull(factory, "factory must not be null");
+    this.env = Objects.requireNonNull(env, "env must not be null");
+    for (String k : FORCED) {
+      String v = settings.clientProperties().get(k);
+      if (v == null) continue;
+      boolean same = (k.equals(ConsumerConfig.ISOLATION_LEVEL_CONFIG) && v.equals("read_committed"))
+          || (k.equals(ConsumerConfig.ENABLE_AUTO_COMMIT_CONFIG) && v.equals("false"))
+          || (k.equals(ProducerConfig.ENABLE_IDEMPOTENCE_CONFIG) && v.equals("true"));
+      if (!same) {
+        throw new IllegalArgumentException("client property " + k + " is set by the exactly-once runner and cannot be overridden"
+            + " (got " + (ClientConfig.isSecretKey(k) ? "****" : v) + "); use the runner settings instead");
+      }
+    }
+    // resolve now so that a missing ${VAR} is a caller mistake reported at once
+    for (ClientConfig.Kind kind : ClientConfig.Kind.values()) ClientConfig.forClient(settings.clientProperties(), kind, env);
+  }
+
+  /** The settings. */
+  public RunnerSettings settings() { return settings; }
+
+  /** Current counters (a snapshot). */
+  public RunnerCounters counters() {
+    return new RunnerCounters(recordsIn, outputsOut, rejects, commits, aborts, lastCommitMillis, lag);
+  }
+
+  /** Why the runner stopped on its own, or null if it did not (yet). */
+  public String failure() { return failure; }
+
+  /** Runs until {@link #close()} or a fatal error ({@link #failure()}). */
+  @Override public void run() {
+    if (!started.compareAndSet(false, true)) throw new IllegalStateException("an ExactlyOnceRunner runs only once");
+    try {
+      LOG.info("runner {} starting: input {}, group {}, transactional id {}, client properties {}", settings.name(),
+          settings.inputTopic(), settings.groupId(), settings.transactionalId(), ClientConfig.masked(settings.clientProperties()));
+      setUpTopics();
+      if (closing) return;
+      producer = newProducer();
+      initTransactions();
+      consumer = new KafkaConsumer<>(consumerConfig(settings.groupInstanceId(), "consumer"));
+      consumer.subscribe(List.of(settings.inputTopic()), new Listener());
+      loop();
+      if (failure == null) finishOnClose();
+    } catch (FatalException e) {
+      fail(e);
+    } catch (WakeupException e) {
+      if (!closing) fail(new FatalException("unexpected wakeup", e));
+      else finishOnClose();
+    } catch (RuntimeException e) {
+      fail(new FatalException("unexpected error: " + e, e));
+    } finally {
+      closeClients();
+      finished.countDown();
+    }
+  }
+
+  private void fail(FatalException e) {
+    failure = e.getMessage();
+    LOG.error("runner {} stopped: {}", settings.name(), e.getMessage(), e.getCause());
+    if (producer != null) {
+      producer.close(Duration.ZERO);
+      producer = null;
+    }
+  }
+
+  /** Stops the run loop: the open transaction is committed (or aborted, never half), then clients close. Waits up to 60 s. */
+  @Override public void close() {
+    closing = true;
+    if (!started.get()) return;
+    KafkaConsumer<byte[], byte[]> c = consumer;
+    if (c != null) c.wakeup();
+    try {
+      if (!finished.await(60, TimeUnit.SECONDS)) LOG.warn("runner {} did not stop within 60 s", settings.name());
+    } catch (InterruptedException e) {
+      Thread.currentThread().interrupt();
+    }
+  }
+
+  // ------------------------------------------------------------------ main loop
+
+  private void loop() {
+    while (!closing) {
+      ConsumerRecords<byte[], byte[]> batch;
+      try {
+        batch = consumer.poll(Duration.ofMillis(200));
+      } catch (WakeupException e) {
+        if (closing) return;
+        throw e;
+      } catch (FatalException e) {
+        throw e;
+      } catch (KafkaException e) {
+        handle(e);
+        continue;
+      }
+      try {
+        process(batch);
+        if (txOpen && (recordsInTx >= settings.commitIntervalRecords()
+            || System.nanoTime() - txStartNanos >= settings.commitIntervalMs() * 1_000_000L)) {
+          commit();
+        }
+      } catch (FatalException e) {
+        throw e;
+      } catch (KafkaException e) {
+        handle(e);
+      }
+    }
+  }
+
+  private void process(ConsumerRecords<byte[], byte[]> batch) {
+    for (TopicPartition tp : batch.partitions()) {
+      Slot s = slots.get(tp);
+      if (s == null) continue; // not ours any more; the next owner replays them
+      List<ConsumerRecord<byte[], byte[]>> recs = batch.records(tp);
+      if (recs.isEmpty()) continue;
+      beginIfNeeded();
+      for (int i = 0; i < recs.size(); i++) {
+        ConsumerRecord<byte[], byte[]> r = recs.get(i);
+        try {
+          s.proc.process(r.offset(), r.timestamp(), r.key(), r.value(), s);
+        } catch (KafkaException e) {
+          throw e;
+        } catch (RuntimeException e) {
+          throw new FatalException("the processor of " + tp + " threw at offset " + r.offset() + " (processors must emit a reject"
+              + " for bad input instead): " + e, e);
+        }
+        s.next = r.offset() + 1;
+        s.touched = true;
+        recordsIn++;
+        recordsInTx++;
+      }
+    }
+  }
+
+  private void beginIfNeeded() {
+    if (txOpen) return;
+    producer.beginTransaction();
+    txOpen = true;
+    txStartNanos = System.nanoTime();
+    recordsInTx = 0;
+  }
+
+  /** Commits the open transaction with checkpoints and offsets of the touched partitions. */
+  private void commit() {
+    if (!txOpen) return;
+    Map<TopicPartition, OffsetAndMetadata> offsets = new HashMap<>();
+    Map<TopicPartition, byte[]> checkpoints = new HashMap<>();
+    for (Slot s : slots.values()) {
+      if (!s.touched) continue;
+      byte[] cp;
+      try {
+        cp = s.proc.checkpoint();
+      } catch (RuntimeException e) {
+        throw new FatalException("the processor of " + s.tp + " threw in checkpoint(): " + e, e);
+      }
+      if (cp == null) throw new FatalException("the processor of " + s.tp + " returned a null checkpoint", null);
+      ProducerRecord<byte[], byte[]> rec = new ProducerRecord<>(settings.stateTopic(), s.statePart, s.stateKey, cp);
+      rec.headers().add(NEXT_OFFSET_HEADER, Long.toString(s.next).getBytes(StandardCharsets.US_ASCII));
+      producer.send(rec, sendCallback);
+      offsets.put(s.tp, new OffsetAndMetadata(s.next));
+      checkpoints.put(s.tp, cp);
+    }
+    if (sendError != null) throw new KafkaException("an output record could not be sent: " + sendError, sendError);
+    if (!offsets.isEmpty()) producer.sendOffsetsToTransaction(offsets, consumer.groupMetadata());
+    long deadline = closing ? System.currentTimeMillis() + CLOSE_COMMIT_TIMEOUT_MS : Long.MAX_VALUE;
+    while (true) {
+      try {
+        producer.commitTransaction();
+        break;
+      } catch (TimeoutException | InterruptException e) {
+        if (e instanceof InterruptException) Thread.interrupted();
+        if (System.currentTimeMillis() > deadline) {
+          throw new FatalException("could not commit the last transaction within " + CLOSE_COMMIT_TIMEOUT_MS / 1000
+              + " s while closing; it will be aborted by the broker or at the next start", e);
+        }
+        LOG.warn("broker at {} not reachable; retrying the commit in {} s", settings.bootstrapServers(), BACKOFF_MS / 1000);
+        sleep(BACKOFF_MS);
+      }
+    }
+    txOpen = false;
+    for (Map.Entry<TopicPartition, byte[]> e : checkpoints.entrySet()) {
+      Slot s = slots.get(e.getKey());
+      s.committedNext = s.next;
+      s.committedCheckpoint = e.getValue();
+      s.touched = false;
+    }
+    commits++;
+    lastCommitMillis = System.currentTimeMillis();
+    long total = 0;
+    for (TopicPartition tp : slots.keySet()) {
+      OptionalLong l = consumer.currentLag(tp);
+      if (l.isEmpty()) { total = -1; break; }
+      total += l.getAsLong();
+    }
+    lag = total;
+  }
+
+  /** Classifies an error: fatal ones stop the runner; the rest abort the transaction and rewind. */
+  private void handle(KafkaException e) {
+    Throwable fatal = fatalCause(e);
+    if (fatal != null) throw new FatalException(fatalMessage(fatal), e);
+    if (closing && e instanceof WakeupException) throw e;
+    abortAndRewind(e);
+  }
+
+  private static Throwable fatalCause(Throwable e) {
+    for (Throwable t = e; t != null; t = t.getCause()) {
+      if (t instanceof ProducerFencedException || t instanceof FencedInstanceIdException || t instanceof AuthorizationException
+          || t instanceof AuthenticationException || t instanceof UnsupportedVersionException) {
+        return t;
+      }
+      if (t.getCause() == t) break;
+    }
+    return null;
+  }
+
+  private String fatalMessage(Throwable t) {
+    if (t instanceof ProducerFencedException) {
+      return "another instance with transactional id " + settings.transactionalId() + " has started (this one is fenced off);"
+          + " give every instance its own instance id. Stopping.";
+    }
+    if (t instanceof FencedInstanceIdException) {
+      return "another consumer with group.instance.id " + settings.groupInstanceId() + " joined group " + settings.groupId()
+          + "; give every instance its own instance id. Stopping.";
+    }
+    if (t instanceof AuthorizationException || t instanceof AuthenticationException) {
+      return "not allowed by the cluster at " + settings.bootstrapServers() + ": " + t.getMessage()
+          + " (needs READ on " + settings.inputTopic() + " and group " + settings.groupId() + ", WRITE on the four output topics,"
+          + " WRITE/DESCRIBE on transactional id " + settings.transactionalId() + "). Stopping.";
+    }
+    return "the cluster at " + settings.bootstrapServers() + " does not support transactions as needed: " + t.getMessage() + ". Stopping.";
+  }
+
+  private void abortAndRewind(Exception cause) {
+    LOG.warn("runner {}: transaction aborted after {}; rewinding {} partition(s) to the last commit", settings.name(), cause.toString(),
+        slots.size());
+    if (txOpen) {
+      try {
+        while (true) {
+          try {
+            producer.abortTransaction();
+            break;
+          } catch (TimeoutException e) {
+            LOG.warn("broker at {} not reachable; retrying the abort in {} s", settings.bootstrapServers(), BACKOFF_MS / 1000);
+            sleep(BACKOFF_MS);
+          }
+        }
+      } catch (KafkaException e) {
+        Throwable fatal = fatalCause(e);
+        if (fatal != null) throw new FatalException(fatalMessage(fatal), e);
+        LOG.warn("runner {}: the producer cannot abort ({}); starting a new producer", settings.name(), e.toString());
+        recreateProducer();
+      }
+    } else if (cause instanceof InvalidProducerEpochException) {
+      recreateProducer();
+    }
+    txOpen = false;
+    sendError = null;
+    aborts++;
+    for (Slot s : slots.values()) resetSlot(s);
+  }
+
+  private void resetSlot(Slot s) {
+    consumer.seek(s.tp, s.committedNext);
+    s.proc = factory.create(s.tp);
+    s.proc.restore(s.committedCheckpoint == null ? null : s.committedCheckpoint.clone());
+    s.next = s.committedNext;
+    s.touched = false;
+  }
+
+  private void recreateProducer() {
+    if (producer != null) producer.close(Duration.ZERO);
+    producer = newProducer();
+    initTransactions();
+  }
+
+  private void initTransactions() {
+    while (true) {
+      try {
+        producer.initTransactions();
+        return;
+      } catch (TimeoutException e) {
+        if (closing) throw new WakeupException();
+        LOG.warn("broker at {} not reachable; retrying in {} s", settings.bootstrapServers(), BACKOFF_MS / 1000);
+        sleep(BACKOFF_MS);
+      } catch (KafkaException e) {
+        Throwable fatal = fatalCause(e);
+        if (fatal != null) throw new FatalException(fatalMessage(fatal), e);
+        throw e;
+      }
+    }
+  }
+
+  private void setUpTopics() {
+    Map<String, Object> cfg = new HashMap<>(ClientConfig.forClient(settings.clientProperties(), ClientConfig.Kind.ADMIN, env));
+    cfg.put(AdminClientConfig.BOOTSTRAP_SERVERS_CONFIG, settings.bootstrapServers());
+    cfg.putIfAbsent(AdminClientConfig.CLIENT_ID_CONFIG, "runnel-" + settings.name() + "-" + settings.instanceId() + "-admin");
+    cfg.putIfAbsent(AdminClientConfig.DEFAULT_API_TIMEOUT_MS_CONFIG, 10_000);
+    cfg.putIfAbsent(AdminClientConfig.REQUEST_TIMEOUT_MS_CONFIG, 5_000);
+    try (Admin admin = Admin.create(cfg)) {
+      while (!closing) {
+        try {
+          layout = TopicSetup.ensure(admin, settings);
+          return;
+        } catch (TimeoutException e) {
+          LOG.warn("broker at {} not reachable; retrying in {} s", settings.bootstrapServers(), BACKOFF_MS / 1000);
+          sleep(BACKOFF_MS);
+        } catch (IllegalStateException e) {
+          throw new FatalException(e.getMessage(), e);
+        } catch (KafkaException e) {
+          Throwable fatal = fatalCause(e);
+          if (fatal != null) throw new FatalException(fatalMessage(fatal), e);
+          LOG.warn("runner {}: topic setup failed ({}); retrying in {} s", settings.name(), e.toString(), BACKOFF_MS / 1000);
+          sleep(BACKOFF_MS);
+        } catch (InterruptedException e) {
+          Thread.currentThread().interrupt();
+          throw new FatalException("interrupted during topic setup", e);
+        }
+      }
+    }
+  }
+
+  private void finishOnClose() {
+    if (consumer == null || producer == null) return;
+    try {
+      commit();
+    } catch (FatalException e) {
+      fail(e);
+    } catch (KafkaException e) {
+      LOG.warn("runner {}: the last transaction could not be committed ({}); aborting it", settings.name(), e.toString());
+      try {
+        if (txOpen) producer.abortTransaction();
+      } catch (KafkaException ignored) {
+        // closing the producer leaves it to the broker to abort
+      }
+      txOpen = false;
+    }
+  }
+
+  private void closeClients() {
+    if (consumer != null) {
+      try {
+        consumer.close(CloseOptions.groupMembershipOperation(CloseOptions.GroupMembershipOperation.LEAVE_GROUP)
+            .withTimeout(Duration.ofSeconds(10)));
+      } catch (RuntimeException e) {
+        LOG.warn("runner {}: consumer close: {}", settings.name(), e.toString());
+      }
+      consumer = null;
+    }
+    if (stateReader != null) {
+      stateReader.close(CloseOptions.timeout(Duration.ofSeconds(5)));
+      stateReader = null;
+    }
+    if (producer != null) {
+      try {
+        producer.close(Duration.ofSeconds(10));
+      } catch (RuntimeException e) {
+        LOG.warn("runner {}: producer close: {}", settings.name(), e.toString());
+      }
+      producer = null;
+    }
+    LOG.info("runner {} stopped: {}", settings.name(), counters());
+  }
+
+  // ------------------------------------------------------------------ assignment
+
+  private final class Listener implements ConsumerRebalanceListener {
+    @Override public void onPartitionsRevoked(Collection<TopicPartition> partitions) {
+      if (producer != null && txOpen) {
+        try {
+          commit();
+        } catch (FatalException e) {
+          throw e;
+        } catch (KafkaException e) {
+          handle(e);
+        }
+      }
+      for (TopicPartition tp : partitions) slots.remove(tp);
+    }
+
+    @Override public void onPartitionsLost(Collection<TopicPartition> partitions) {
+      // another member may own them already: nothing of the open transaction may be committed
+      if (txOpen) abortAndRewind(new KafkaException("partitions lost: " + partitions));
+      for (TopicPartition tp : partitions) slots.remove(tp);
+    }
+
+    @Override public void onPartitionsAssigned(Collection<TopicPartition> partitions) {
+      List<TopicPartition> fresh = new ArrayList<>();
+      for (TopicPartition tp : partitions) if (!slots.containsKey(tp)) fresh.add(tp);
+      if (fresh.isEmpty()) return;
+      assign(fresh);
+    }
+  }
+
+  private void assign(List<TopicPartition> fresh) {
+    long stateDeadline = System.currentTimeMillis() + STATE_VISIBLE_TIMEOUT_MS;
+    while (true) {
+      try {
+        // committed() of a read_committed consumer waits for pending transactional offsets (stable offsets)
+        Map<TopicPartition, OffsetAndMetadata> committed = consumer.committed(new HashSet<>(fresh), Duration.ofSeconds(15));
+        Map<TopicPartition, Checkpoint> state = readState(fresh);
+        // commitTransaction() returns before the commit markers are written everywhere: a checkpoint older than the
+        // (stable) committed offset means the last transaction's markers are not on the state topic yet. Read again.
+        List<TopicPartition> behind = new ArrayList<>();
+        for (TopicPartition tp : fresh) {
+          OffsetAndMetadata om = committed.get(tp);
+          Checkpoint cp = state.get(tp);
+          if (om != null && (cp == null || cp.nextOffset < om.offset())) behind.add(tp);
+        }
+        if (!behind.isEmpty()) {
+          if (System.currentTimeMillis() < stateDeadline) {
+            sleep(100);
+            continue;
+          }
+          throw new FatalException("the state topic " + settings.stateTopic() + " has no checkpoint matching the committed offsets of "
+              + behind + " after " + STATE_VISIBLE_TIMEOUT_MS / 1000 + " s; was group " + settings.groupId()
+              + " used by another application, or the state topic deleted? Reset the group's offsets or restore the topic.", null);
+        }
+        List<TopicPartition> noOffset = new ArrayList<>();
+        for (TopicPartition tp : fresh) if (state.get(tp) == null && committed.get(tp) == null) noOffset.add(tp);
+        Map<TopicPartition, Long> beginning = noOffset.isEmpty() ? Map.of() : consumer.beginningOffsets(noOffset, Duration.ofSeconds(15));
+        for (TopicPartition tp : fresh) {
+          Slot s = new Slot(tp);
+          Checkpoint cp = state.get(tp);
+          OffsetAndMetadata om = committed.get(tp);
+          if (cp != null) {
+            if (om != null && om.offset() != cp.nextOffset) {
+              LOG.warn("runner {}: {} has committed offset {} but its checkpoint is for offset {}; resuming at the checkpoint's",
+                  settings.name(), tp, om.offset(), cp.nextOffset);
+            }
+            s.committedNext = cp.nextOffset;
+            s.committedCheckpoint = cp.bytes;
+          } else {
+            s.committedNext = om != null ? om.offset() : beginning.get(tp);
+            s.committedCheckpoint = null;
+          }
+          resetSlot(s);
+          slots.put(tp, s);
+        }
+        LOG.info("runner {}: assigned {} (restored {} from checkpoints)", settings.name(), fresh, state.size());
+        return;
+      } catch (TimeoutException e) {
+        if (closing) throw new WakeupException();
+        LOG.warn("broker at {} not reachable while restoring {}; retrying in {} s", settings.bootstrapServers(), fresh, BACKOFF_MS / 1000);
+        sleep(BACKOFF_MS);
+      }
+    }
+  }
+
+  private record Checkpoint(long nextOffset, byte[] bytes) {}
+
+  /** Reads {@code <name>.state} to its end (read_committed) for the given input partitions; latest value per key. */
+  private Map<TopicPartition, Checkpoint> readState(List<TopicPartition> inputs) {
+    if (stateReader == null) stateReader = new KafkaConsumer<>(consumerConfig(null, "state"));
+    Map<String, TopicPartition> byKey = new HashMap<>();
+    Set<TopicPartition> parts = new HashSet<>();
+    for (TopicPartition tp : inputs) {
+      byKey.put(tp.topic() + "-" + tp.partition(), tp);
+      parts.add(new TopicPartition(settings.stateTopic(), tp.partition() % layout.statePartitions()));
+    }
+    stateReader.assign(parts);
+    stateReader.seekToBeginning(parts);
+    Map<TopicPartition, Long> end = stateReader.endOffsets(parts, Duration.ofSeconds(15));
+    Map<TopicPartition, Checkpoint> out = new HashMap<>();
+    long deadline = System.currentTimeMillis() + 120_000;
+    while (true) {
+      boolean done = true;
+      for (TopicPartition p : parts) if (stateReader.position(p, Duration.ofSeconds(15)) < end.get(p)) { done = false; break; }
+      if (done) break;
+      if (System.currentTimeMillis() > deadline) throw new TimeoutException("state topic " + settings.stateTopic() + " not read to its end in 120 s");
+      for (ConsumerRecord<byte[], byte[]> r : stateReader.poll(Duration.ofMillis(200))) {
+        if (r.key() == null) continue;
+        TopicPartition tp = byKey.get(new String(r.key(), StandardCharsets.UTF_8));
+        if (tp == null) continue;
+        if (r.value() == null) { out.remove(tp); continue; }
+        Header h = r.headers().lastHeader(NEXT_OFFSET_HEADER);
+        if (h == null) {
+          LOG.warn("runner {}: state record at {}-{} offset {} has no {} header; ignored", settings.name(), r.topic(), r.partition(),
+              r.offset(), NEXT_OFFSET_HEADER);
+          continue;
+        }
+        out.put(tp, new Checkpoint(Long.parseLong(new String(h.value(), StandardCharsets.US_ASCII)), r.value()));
+      }
+    }
+    stateReader.unsubscribe();
+    return out;
+  }
+
+  // ------------------------------------------------------------------ client configs
+
+  private Map<String, Object> consumerConfig(String groupInstanceId, String role) {
+    Map<String, Object> c = new HashMap<>();
+    c.put(ConsumerConfig.CLIENT_ID_CONFIG, "runnel-" + settings.name() + "-" + settings.instanceId() + "-" + role);
+    c.put(ConsumerConfig.MAX_POLL_RECORDS_CONFIG, 1000);
+    c.put(ConsumerConfig.AUTO_OFFSET_RESET_CONFIG, "earliest");
+    c.put(ConsumerConfig.GROUP_PROTOCOL_CONFIG, "classic");
+    c.put(ConsumerConfig.PARTITION_ASSIGNMENT_STRATEGY_CONFIG, RangeAssignor.class.getName());
+    c.putAll(ClientConfig.forClient(settings.clientProperties(), ClientConfig.Kind.CONSUMER, env));
+    if (!role.equals("consumer")) {
+      // the state reader: no group, its own client id
+      c.put(ConsumerConfig.CLIENT_ID_CONFIG, c.get(ConsumerConfig.CLIENT_ID_CONFIG) + "-state");
+      c.remove(ConsumerConfig.GROUP_INSTANCE_ID_CONFIG);
+      c.remove(ConsumerConfig.GROUP_PROTOCOL_CONFIG);
+      c.remove(ConsumerConfig.PARTITION_ASSIGNMENT_STRATEGY_CONFIG);
+      c.put(ConsumerConfig.MAX_PARTITION_FETCH_BYTES_CONFIG, TopicSetup.STATE_MAX_MESSAGE_BYTES + 1024 * 1024);
+    } else {
+      c.put(ConsumerConfig.GROUP_ID_CONFIG, settings.groupId());
+      c.putIfAbsent(ConsumerConfig.GROUP_INSTANCE_ID_CONFIG, groupInstanceId);
+    }
+    c.put(ConsumerConfig.BOOTSTRAP_SERVERS_CONFIG, settings.bootstrapServers());
+    c.put(ConsumerConfig.ISOLATION_LEVEL_CONFIG, "read_committed");
+    c.put(ConsumerConfig.ENABLE_AUTO_COMMIT_CONFIG, false);
+    c.put(ConsumerConfig.KEY_DESERIALIZER_CLASS_CONFIG, ByteArrayDeserializer.class.getName());
+    c.put(ConsumerConfig.VALUE_DESERIALIZER_CLASS_CONFIG, ByteArrayDeserializer.class.getName());
+    return c;
+  }
+
+  private KafkaProducer<byte[], byte[]> newProducer() {
+    Map<String, Object> p = new HashMap<>();
+    p.put(ProducerConfig.CLIENT_ID_CONFIG, "runnel-" + settings.name() + "-" + settings.instanceId() + "-producer");
+    p.put(ProducerConfig.ACKS_CONFIG, "all");
+    p.put(ProducerConfig.COMPRESSION_TYPE_CONFIG, "lz4");
+    p.put(ProducerConfig.LINGER_MS_CONFIG, 5);
+    p.put(ProducerConfig.MAX_BLOCK_MS_CONFIG, 10_000);
+    p.put(ProducerConfig.MAX_REQUEST_SIZE_CONFIG, TopicSetup.STATE_MAX_MESSAGE_BYTES);
+    p.put(ProducerConfig.BUFFER_MEMORY_CONFIG, 2L * TopicSetup.STATE_MAX_MESSAGE_BYTES + 32L * 1024 * 1024);
+    p.putAll(ClientConfig.forClient(settings.clientProperties(), ClientConfig.Kind.PRODUCER, env));
+    p.put(ProducerConfig.BOOTSTRAP_SERVERS_CONFIG, settings.bootstrapServers());
+    p.put(ProducerConfig.TRANSACTIONAL_ID_CONFIG, settings.transactionalId());
+    p.put(ProducerConfig.ENABLE_IDEMPOTENCE_CONFIG, true);
+    p.put(ProducerConfig.KEY_SERIALIZER_CLASS_CONFIG, ByteArraySerializer.class.getName());
+    p.put(ProducerConfig.VALUE_SERIALIZER_CLASS_CONFIG, ByteArraySerializer.class.getName());
+    return new KafkaProducer<>(p);
+  }
+
+  private void sleep(long ms) {
+    try {
+      Thread.sleep(ms);
+    } catch (InterruptedException e) {
+      Thread.currentThread().interrupt();
+      throw new FatalException("interrupted", e);
+    }
+  }
+}

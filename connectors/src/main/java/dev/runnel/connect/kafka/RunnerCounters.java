@@ -1,0 +1,16 @@
+package dev.runnel.connect.kafka;
+
+/**
+ * A snapshot of an {@link ExactlyOnceRunner}'s counters. Counts include work of transactions that were later
+ * aborted and replayed, so {@code recordsIn} can exceed the number of distinct input offsets.
+ *
+ * @param recordsIn input records processed
+ * @param outputsOut output records sent (predictions, snapshots, rejects; not checkpoints)
+ * @param rejects reject records sent
+ * @param commits transactions committed
+ * @param aborts transactions aborted (each followed by a rewind to the last commit)
+ * @param lastCommitEpochMillis wall-clock time of the last commit, 0 before the first
+ * @param lag records behind the end of the assigned input partitions at the last commit, -1 if unknown
+ */
+public record RunnerCounters(long recordsIn, long outputsOut, long rejects, long commits, long aborts,
+    long lastCommitEpochMillis, long lag) {}

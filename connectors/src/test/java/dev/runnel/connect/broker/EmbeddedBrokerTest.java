@@ -1,0 +1,59 @@
+package dev.runnel.connect.broker;
+
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import dev.runnel.connect.testing.EmbeddedKafkaExtension;
+import dev.runnel.connect.testing.KafkaTestSupport;
+import java.nio.charset.StandardCharsets;
+import java.util.ArrayList;
+import java.util.List;
+import java.util.Map;
+import org.apache.kafka.clients.consumer.ConsumerRecord;
+import org.apache.kafka.clients.producer.KafkaProducer;
+import org.apache.kafka.clients.producer.ProducerConfig;
+import org.apache.kafka.clients.producer.ProducerRecord;
+import org.junit.jupiter.api.Test;
+import org.junit.jupiter.api.extension.ExtendWith;
+
+@ExtendWith(EmbeddedKafkaExtension.class)
+class EmbeddedBrokerTest {
+
+  @Test void committedTransactionIsVisibleReadCommittedAndAbortedOneIsNot(EmbeddedBroker broker) throws Exception {
+    String topic = "broker-tx-check";
+    KafkaTestSupport.createTopic(broker.bootstrapServers(), topic, 1);
+    Map<String, Object> cfg = KafkaTestSupport.producerConfig(broker.bootstrapServers());
+    cfg.put(ProducerConfig.TRANSACTIONAL_ID_CONFIG, "broker-tx-check");
+    try (KafkaProducer<byte[], byte[]> p = new KafkaProducer<>(cfg)) {
+      p.initTransactions();
+      p.beginTransaction();
+      p.send(new ProducerRecord<>(topic, 0, null, "committed-1".getBytes(StandardCharsets.UTF_8)));
+      p.send(new ProducerRecord<>(topic, 0, null, "committed-2".getBytes(StandardCharsets.UTF_8)));
+      p.commitTransaction();
+      p.beginTransaction();
+      p.send(new ProducerRecord<>(topic, 0, null, "aborted".getBytes(StandardCharsets.UTF_8)));
+      p.flush();
+      p.abortTransaction();
+      p.beginTransaction();
+      p.send(new ProducerRecord<>(topic, 0, null, "committed-3".getBytes(StandardCharsets.UTF_8)));
+      p.commitTransaction();
+    }
+    List<String> seen = new ArrayList<>();
+    for (ConsumerRecord<byte[], byte[]> r : KafkaTestSupport.readAll(broker.bootstrapServers(), topic)) {
+      seen.add(new String(r.value(), StandardCharsets.UTF_8));
+    }
+    assertEquals(List.of("committed-1", "committed-2", "committed-3"), seen);
+  }
+
+  @Test void childClasspathContainsTheBrokerJars() throws Exception {
+    String cp = EmbeddedBroker.childClasspath();
+    assertTrue(cp.contains("kafka_2.13"), "kafka_2.13 jar on the child classpath");
+    assertTrue(cp.contains("kafka-clients"), "kafka-clients jar on the child classpath");
+  }
+
+  @Test void rejectsEqualPorts() {
+    IllegalArgumentException e = org.junit.jupiter.api.Assertions.assertThrows(IllegalArgumentException.class,
+        () -> new EmbeddedBroker(java.nio.file.Paths.get("target", "unused"), 9092, 9092, Map.of(), EmbeddedBroker.DEFAULT_START_TIMEOUT, "256m"));
+    assertTrue(e.getMessage().contains("9092"), e.getMessage());
+  }
+}

@@ -1,0 +1,221 @@
+package dev.runnel.demo;
+
+import java.time.ZoneId;
+import java.util.List;
+
+/**
+ * The documented ground truth of the invented Quillmarsh Charging scenario: every number the
+ * generator uses, as constants, so tests and demo summaries can compare a fitted model with them.
+ *
+ * <p>Target (one {@code actual} record of hub {@code j} at local hour {@code h}):
+ * <pre>
+ * sessions = BASE_SESSIONS + hubEffect(j)
+ *          + sum_{k=1..3} ( HOUR_SIN[k-1] sin(2 pi k h / 24) + HOUR_COS[k-1] cos(2 pi k h / 24) )
+ *          + WEEKEND_EFFECT * [local Saturday or Sunday]
+ *          + weatherEffect(weather)                      (clear = 0, the reference)
+ *          + TEMPERATURE_EFFECT_PER_C * temperature_c    (the true value in degrees Celsius)
+ *          + priceEffect * price_per_kwh                 (PRICE_EFFECT_PER_EUR, doubled from the tariff change on)
+ *          + N(0, NOISE_SD^2)
+ * </pre>
+ * then rounded to one decimal (adds variance 0.1^2/12 = 0.00083). {@code h} is the local hour of day
+ * (0..23) in {@link #ZONE}; temperature and price are the published values (rounded to 0.1 degC and
+ * 0.001 EUR/kWh) so a linear model on the published fields is exactly right. No clamp at 0 is
+ * applied: the expected value stays far above 0 (see the module tests).
+ *
+ * <p>Planned changes are placed at fractions of the stream's length in hours ({@link ChangeSchedule}).
+ */
+public final class GroundTruth {
+  private GroundTruth() {}
+
+  /** Scenario name; the scenario is invented. */
+  public static final String SCENARIO = "Quillmarsh Charging (invented)";
+  /** Time zone of all local times (IANA). */
+  public static final ZoneId ZONE = ZoneId.of("Europe/Amsterdam");
+
+  // ---- target -------------------------------------------------------------------------------
+  /** Expected sessions of the reference hub QM-01 at harmonics 0, weekday, clear, 0 degC, price 0. */
+  public static final double BASE_SESSIONS = 40.0;
+  /** Standard deviation of the Gaussian noise on sessions. */
+  public static final double NOISE_SD = 1.5;
+  /** Number of hour-of-day harmonics in the truth. */
+  public static final int HOUR_HARMONICS = 3;
+  /** Weight of sin(2 pi k h / 24), k = 1..3. */
+  public static final double[] HOUR_SIN = {-4.0, 1.5, -0.8};
+  /** Weight of cos(2 pi k h / 24), k = 1..3. */
+  public static final double[] HOUR_COS = {-6.0, 2.0, 0.6};
+  /** Effect of a local Saturday or Sunday. */
+  public static final double WEEKEND_EFFECT = -4.0;
+  /** Sessions per degree Celsius (cold reduces sessions). */
+  public static final double TEMPERATURE_EFFECT_PER_C = 0.20;
+  /** Sessions per EUR/kWh before the tariff change. */
+  public static final double PRICE_EFFECT_PER_EUR = -18.0;
+  /** Sessions per EUR/kWh from the tariff change on: twice {@link #PRICE_EFFECT_PER_EUR}. */
+  public static final double PRICE_EFFECT_AFTER_TARIFF_PER_EUR = 2.0 * PRICE_EFFECT_PER_EUR;
+
+  /**
+   * One charging hub. All names are invented.
+   * @param id the {@code hub} field value
+   * @param name invented display name
+   * @param sessionsEffect sessions relative to QM-01 (the reference, 0)
+   * @param temperatureOffsetC fixed local offset of the hub's temperature, degC
+   * @param priceMarkupPerKwh fixed markup on the regional tariff, EUR/kWh
+   */
+  public record Hub(String id, String name, double sessionsEffect, double temperatureOffsetC, double priceMarkupPerKwh) {}
+
+  /** The 13 hubs in hub order; QM-13 opens mid-stream, QM-05 closes. Index = number - 1. */
+  public static final List<Hub> HUBS = List.of(
+      new Hub("QM-01", "Quillmarsh Quay", 0.0, 0.0, 0.000),
+      new Hub("QM-02", "Reedhaven Market", 4.5, -0.3, 0.010),
+      new Hub("QM-03", "Fenwick Lock", -2.0, 0.4, -0.010),
+      new Hub("QM-04", "Alderdyke Depot", 7.0, 0.2, 0.020),
+      new Hub("QM-05", "Marrow Staithe", -3.5, -0.6, -0.015),
+      new Hub("QM-06", "Brackenmoor Halt", 1.5, 0.1, 0.005),
+      new Hub("QM-07", "Tollgate Flats", 9.0, 0.5, 0.030),
+      new Hub("QM-08", "Heronsend", -1.0, -0.4, -0.005),
+      new Hub("QM-09", "Saltbridge Row", 3.0, 0.3, 0.015),
+      new Hub("QM-10", "Withy Cross", -4.0, -0.8, -0.020),
+      new Hub("QM-11", "Eelmere Park", 5.5, 0.6, 0.025),
+      new Hub("QM-12", "Dunlin Green", 2.0, -0.2, 0.000),
+      new Hub("QM-13", "Sedgefield Yard", 6.0, 0.0, 0.010));
+  /** Index in {@link #HUBS} of the hub that opens mid-stream (QM-13). */
+  public static final int OPENING_HUB = 12;
+  /** Index in {@link #HUBS} of the hub that closes (QM-05). */
+  public static final int CLOSING_HUB = 4;
+
+  /** Effect of a weather category on sessions (clear is the reference). */
+  public static double weatherEffect(Weather w) {
+    switch (w) {
+      case CLEAR: return 0.0;
+      case CLOUDY: return -0.8;
+      case RAIN: return -2.5;
+      case SNOW: return -5.0;
+      default: throw new IllegalArgumentException("weather " + w);
+    }
+  }
+
+  // ---- planned changes (fractions of the stream's hours; see ChangeSchedule) ------------------
+  /** QM-13 reports from hour floor(0.35 H) on. */
+  public static final double OPENING_AT_FRACTION = 0.35;
+  /** QM-05 reports before hour floor(0.65 H) only. */
+  public static final double CLOSING_AT_FRACTION = 0.65;
+  /** The tariff change takes effect at the first local midnight at or after hour floor(0.50 H). */
+  public static final double TARIFF_CHANGE_AT_FRACTION = 0.50;
+  /** The degF incident starts at hour floor(0.42 H). */
+  public static final double FAHRENHEIT_AT_FRACTION = 0.42;
+  /** The degF incident lasts this many consecutive hours. */
+  public static final int FAHRENHEIT_HOURS = 6;
+  /** The corrupt lines replace actual lines at hours floor(f H) for these f, in {@link CorruptKind} order. */
+  public static final double[] CORRUPT_AT_FRACTIONS = {0.15, 0.30, 0.45, 0.70, 0.85};
+  /** A truncated line keeps this many characters. */
+  public static final int TRUNCATE_AT_CHARS = 60;
+
+  // ---- the generating processes of the features --------------------------------------------
+  /** Probability that a hub's weather stays the same from one hour to the next. */
+  public static final double WEATHER_STAY = 0.90;
+  /** Category weights (clear, cloudy, rain, snow) in deep winter. */
+  public static final double[] WEATHER_WINTER = {0.25, 0.40, 0.20, 0.15};
+  /** Category weights (clear, cloudy, rain, snow) in high summer. */
+  public static final double[] WEATHER_SUMMER = {0.45, 0.35, 0.20, 0.00};
+  /** Day of year of the coldest point of the seasonal cycles. */
+  public static final double COLDEST_DAY_OF_YEAR = 20.0;
+  /** Mean temperature of the year, degC. */
+  public static final double TEMP_ANNUAL_MEAN_C = 10.5;
+  /** Seasonal amplitude of the temperature, degC (mean - amplitude on the coldest day). */
+  public static final double TEMP_SEASONAL_AMPLITUDE_C = 7.5;
+  /** Daily amplitude of the temperature, degC. */
+  public static final double TEMP_DAILY_AMPLITUDE_C = 3.5;
+  /** Local hour of the daily temperature peak. */
+  public static final double TEMP_PEAK_HOUR = 15.0;
+  /** AR(1) coefficient of the regional temperature anomaly (per hour). */
+  public static final double TEMP_REGIONAL_AR = 0.97;
+  /** Innovation sd of the regional anomaly, degC. */
+  public static final double TEMP_REGIONAL_INNOVATION_C = 0.35;
+  /** AR(1) coefficient of each hub's own temperature anomaly (per hour). */
+  public static final double TEMP_HUB_AR = 0.90;
+  /** Innovation sd of each hub's anomaly, degC. */
+  public static final double TEMP_HUB_INNOVATION_C = 0.30;
+  /** Temperature shift of a weather category (clear, cloudy, rain, snow), degC. */
+  public static final double[] TEMP_WEATHER_SHIFT_C = {0.0, -0.5, -1.0, -2.0};
+  /** Regional tariff, EUR/kWh, by local hour: 00-06 night, 07-16 day, 17-20 peak, 21-23 evening. */
+  public static final double TARIFF_NIGHT = 0.17;
+  /** Day tariff, EUR/kWh (07:00-16:59). */
+  public static final double TARIFF_DAY = 0.25;
+  /** Peak tariff, EUR/kWh (17:00-20:59). */
+  public static final double TARIFF_PEAK = 0.34;
+  /** Evening tariff, EUR/kWh (21:00-23:59). */
+  public static final double TARIFF_EVENING = 0.22;
+  /** Sd of the offset shared by all hubs for one local calendar day, EUR/kWh. */
+  public static final double PRICE_DAY_SD = 0.025;
+  /** Sd of each hub's hourly price noise, EUR/kWh. */
+  public static final double PRICE_HOUR_SD = 0.012;
+  /** Published prices are never below this floor, EUR/kWh (a clamp on the price, not on sessions). */
+  public static final double PRICE_FLOOR = 0.05;
+  /** A forecast k hours ahead keeps the true weather with probability 0.90 - 0.05 k, else draws from the seasonal weights. */
+  public static final double FORECAST_WEATHER_KEEP = 0.90;
+  /** Drop of the keep probability per hour ahead. */
+  public static final double FORECAST_WEATHER_KEEP_DROP = 0.05;
+  /** Sd of a forecast temperature's error per hour ahead, degC (k hours ahead: 0.4 k). */
+  public static final double FORECAST_TEMP_SD_PER_HOUR = 0.4;
+
+  /** The regional tariff at a local hour of day (0..23), EUR/kWh, before markup and noise. */
+  public static double tariff(int localHour) {
+    if (localHour < 0 || localHour > 23) {
+      throw new IllegalArgumentException("localHour must be in 0..23, got " + localHour);
+    }
+    if (localHour <= 6) {
+      return TARIFF_NIGHT;
+    }
+    if (localHour <= 16) {
+      return TARIFF_DAY;
+    }
+    if (localHour <= 20) {
+      return TARIFF_PEAK;
+    }
+    return TARIFF_EVENING;
+  }
+
+  /** Share of winter in the seasonal weather weights on a (fractional) day of year: (1 + cos(2 pi (d - 20)/365.25)) / 2. */
+  public static double winterShare(double dayOfYear) {
+    return 0.5 * (1.0 + StrictMath.cos(2.0 * StrictMath.PI * (dayOfYear - COLDEST_DAY_OF_YEAR) / 365.25));
+  }
+
+  /** The hour-of-day part of the expected sessions at a local hour (0..23). */
+  public static double dailyCycle(int localHour) {
+    double s = 0.0;
+    for (int k = 1; k <= HOUR_HARMONICS; k++) {
+      double a = 2.0 * StrictMath.PI * k * localHour / 24.0;
+      s += HOUR_SIN[k - 1] * StrictMath.sin(a) + HOUR_COS[k - 1] * StrictMath.cos(a);
+    }
+    return s;
+  }
+
+  /**
+   * The expected sessions (noise-free) of the truth.
+   * @param hubIndex index in {@link #HUBS}
+   * @param localHour local hour of day 0..23
+   * @param weekend whether the local day is Saturday or Sunday
+   * @param weather weather category
+   * @param temperatureC temperature in degC
+   * @param pricePerKwh price in EUR/kWh
+   * @param afterTariffChange whether the record is at or after the tariff change
+   */
+  public static double expectedSessions(int hubIndex, int localHour, boolean weekend, Weather weather,
+      double temperatureC, double pricePerKwh, boolean afterTariffChange) {
+    double beta = afterTariffChange ? PRICE_EFFECT_AFTER_TARIFF_PER_EUR : PRICE_EFFECT_PER_EUR;
+    return BASE_SESSIONS + HUBS.get(hubIndex).sessionsEffect() + dailyCycle(localHour)
+        + (weekend ? WEEKEND_EFFECT : 0.0) + weatherEffect(weather)
+        + TEMPERATURE_EFFECT_PER_C * temperatureC + beta * pricePerKwh;
+  }
+
+  /**
+   * The ground truth of one generation as JSON (parameters plus where the planned changes fall).
+   * @param settings the settings. Not modified.
+   */
+  public static String toJson(Settings settings) { return TruthWriter.json(settings); }
+
+  /**
+   * The ground truth of one generation as Markdown.
+   * @param settings the settings. Not modified.
+   */
+  public static String toMarkdown(Settings settings) { return TruthWriter.markdown(settings); }
+}
