@@ -1,3 +1,4 @@
+// Part of the invented Quillmarsh Charging demo scenario: all names and numbers are made up.
 package dev.runnel.demo;
 
 /**

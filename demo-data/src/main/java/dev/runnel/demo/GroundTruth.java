@@ -1,3 +1,4 @@
+// Part of the invented Quillmarsh Charging demo scenario: all names and numbers are made up.
 package dev.runnel.demo;
 
 import java.time.ZoneId;
@@ -40,9 +41,9 @@ public final class GroundTruth {
   /** Number of hour-of-day harmonics in the truth. */
   public static final int HOUR_HARMONICS = 3;
   /** Weight of sin(2 pi k h / 24), k = 1..3. */
-  public static final double[] HOUR_SIN = {-4.0, 1.5, -0.8};
+  static final double[] HOUR_SIN = {-4.0, 1.5, -0.8};
   /** Weight of cos(2 pi k h / 24), k = 1..3. */
-  public static final double[] HOUR_COS = {-6.0, 2.0, 0.6};
+  static final double[] HOUR_COS = {-6.0, 2.0, 0.6};
   /** Effect of a local Saturday or Sunday. */
   public static final double WEEKEND_EFFECT = -4.0;
   /** Sessions per degree Celsius (cold reduces sessions). */
@@ -105,7 +106,7 @@ public final class GroundTruth {
   /** The degF incident lasts this many consecutive hours. */
   public static final int FAHRENHEIT_HOURS = 6;
   /** The corrupt lines replace actual lines at hours floor(f H) for these f, in {@link CorruptKind} order. */
-  public static final double[] CORRUPT_AT_FRACTIONS = {0.15, 0.30, 0.45, 0.70, 0.85};
+  static final double[] CORRUPT_AT_FRACTIONS = {0.15, 0.30, 0.45, 0.70, 0.85};
   /** A truncated line keeps this many characters. */
   public static final int TRUNCATE_AT_CHARS = 60;
 
@@ -113,9 +114,9 @@ public final class GroundTruth {
   /** Probability that a hub's weather stays the same from one hour to the next. */
   public static final double WEATHER_STAY = 0.90;
   /** Category weights (clear, cloudy, rain, snow) in deep winter. */
-  public static final double[] WEATHER_WINTER = {0.25, 0.40, 0.20, 0.15};
+  static final double[] WEATHER_WINTER = {0.25, 0.40, 0.20, 0.15};
   /** Category weights (clear, cloudy, rain, snow) in high summer. */
-  public static final double[] WEATHER_SUMMER = {0.45, 0.35, 0.20, 0.00};
+  static final double[] WEATHER_SUMMER = {0.45, 0.35, 0.20, 0.00};
   /** Day of year of the coldest point of the seasonal cycles. */
   public static final double COLDEST_DAY_OF_YEAR = 20.0;
   /** Mean temperature of the year, degC. */
@@ -135,7 +136,7 @@ public final class GroundTruth {
   /** Innovation sd of each hub's anomaly, degC. */
   public static final double TEMP_HUB_INNOVATION_C = 0.30;
   /** Temperature shift of a weather category (clear, cloudy, rain, snow), degC. */
-  public static final double[] TEMP_WEATHER_SHIFT_C = {0.0, -0.5, -1.0, -2.0};
+  static final double[] TEMP_WEATHER_SHIFT_C = {0.0, -0.5, -1.0, -2.0};
   /** Regional tariff, EUR/kWh, by local hour: 00-06 night, 07-16 day, 17-20 peak, 21-23 evening. */
   public static final double TARIFF_NIGHT = 0.17;
   /** Day tariff, EUR/kWh (07:00-16:59). */
@@ -156,6 +157,24 @@ public final class GroundTruth {
   public static final double FORECAST_WEATHER_KEEP_DROP = 0.05;
   /** Sd of a forecast temperature's error per hour ahead, degC (k hours ahead: 0.4 k). */
   public static final double FORECAST_TEMP_SD_PER_HOUR = 0.4;
+
+  /** A copy of {@link #HOUR_SIN}. */
+  public static double[] hourSin() { return HOUR_SIN.clone(); }
+
+  /** A copy of {@link #HOUR_COS}. */
+  public static double[] hourCos() { return HOUR_COS.clone(); }
+
+  /** A copy of {@link #CORRUPT_AT_FRACTIONS}. */
+  public static double[] corruptAtFractions() { return CORRUPT_AT_FRACTIONS.clone(); }
+
+  /** A copy of {@link #WEATHER_WINTER}. */
+  public static double[] weatherWinter() { return WEATHER_WINTER.clone(); }
+
+  /** A copy of {@link #WEATHER_SUMMER}. */
+  public static double[] weatherSummer() { return WEATHER_SUMMER.clone(); }
+
+  /** A copy of {@link #TEMP_WEATHER_SHIFT_C}. */
+  public static double[] tempWeatherShiftC() { return TEMP_WEATHER_SHIFT_C.clone(); }
 
   /** The regional tariff at a local hour of day (0..23), EUR/kWh, before markup and noise. */
   public static double tariff(int localHour) {

@@ -1,3 +1,4 @@
+// Part of the invented Quillmarsh Charging demo scenario: all names and numbers are made up.
 /**
  * The invented Quillmarsh Charging demo scenario: a seeded generator of hourly EV-charging records
  * (JSON Lines) with a documented ground truth and planned changes, and a command to regenerate the

@@ -406,8 +406,13 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   }
 
   private void abortAndRewind(Exception cause) {
-    LOG.warn("runner {}: transaction aborted after {}; rewinding {} partition(s) to the last commit", settings.name(), cause.toString(),
-        slots.size());
+    if (cause instanceof TimeoutException) {
+      LOG.warn("broker at {} not reachable ({}); aborting the open transaction and rewinding {} partition(s) to the last commit",
+          settings.bootstrapServers(), cause.getMessage(), slots.size());
+    } else {
+      LOG.warn("runner {}: transaction aborted after {}; rewinding {} partition(s) to the last commit", settings.name(), cause.toString(),
+          slots.size());
+    }
     if (txOpen) {
       try {
         while (true) {

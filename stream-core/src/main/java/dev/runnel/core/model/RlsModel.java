@@ -707,6 +707,27 @@ public final class RlsModel implements LayoutListener {
     return out;
   }
 
+  /**
+   * The information {@code R^T R} (in units of 1/noise variance), row-major {@code p x p}; the
+   * quantity that sums across independent models. {@code O(p^3)}.
+   *
+   * @return a new array
+   */
+  public double[] informationMatrix() {
+    double[] out = new double[p * p];
+    for (int i = 0; i < p; i++) {
+      for (int j = i; j < p; j++) {
+        double sum = 0.0;
+        for (int k = 0; k <= i; k++) {
+          sum += r[k * cap + i] * r[k * cap + j];
+        }
+        out[i * p + j] = sum;
+        out[j * p + i] = sum;
+      }
+    }
+    return out;
+  }
+
   /** R^-1, upper triangular, row-major p x p, by back-substitution per column. */
   private double[] inverseFactor() {
     double[] u = new double[p * p];

@@ -21,7 +21,8 @@ import java.io.IOException;
  * not an object, anything after the object ({@code MALFORMED_JSON}); per declared field the JSON
  * type ({@code WRONG_TYPE}, also for objects and arrays); NaN, Infinity and numbers that overflow
  * a double ({@code NOT_FINITE}); magnitude above {@code max_abs_value} ({@code OUT_OF_RANGE});
- * strings longer than {@code max_text_length} ({@code TOO_LONG}); time text that does not parse
+ * strings longer than {@code max_text_length} ({@code TOO_LONG}); time text that does not parse or
+ * is longer than {@link #MAX_TIME_CHARS}
  * ({@code BAD_TIME}) or lies outside [{@code min_year}, {@code max_year}] in UTC
  * ({@code ABSURD_TIME}).
  *
@@ -30,6 +31,9 @@ import java.io.IOException;
  * its number and also sets the record's event time.
  */
 public final class JsonRecordDecoder {
+
+  /** Longest text accepted for a time value; longer text is BAD_TIME whatever max_text_length says. */
+  public static final int MAX_TIME_CHARS = 64;
 
   private final RecordSchema schema;
   private final RecordLimits limits;
@@ -121,7 +125,7 @@ public final class JsonRecordDecoder {
       }
       JsonToken after = p.nextToken();
       if (after != null) {
-        detail = "unexpected " + describe(after) + " after the object";
+        detail = "trailing data: " + describe(after) + " after the end of the object";
         return RejectReason.MALFORMED_JSON;
       }
       return null;
@@ -174,9 +178,9 @@ public final class JsonRecordDecoder {
         long ms;
         if (t == JsonToken.VALUE_STRING) {
           int n = p.getTextLength();
-          if (n > limits.maxTextLength()) {
-            detail = "field " + schema.name(slot) + ": text of " + n + " chars exceeds the limit of " + limits.maxTextLength();
-            return RejectReason.TOO_LONG;
+          if (n > MAX_TIME_CHARS) {
+            detail = "field " + schema.name(slot) + ": text of " + n + " chars is too long for a time";
+            return RejectReason.BAD_TIME;
           }
           char[] c = p.getTextCharacters();
           int o = p.getTextOffset();
