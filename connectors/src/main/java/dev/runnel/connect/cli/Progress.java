@@ -31,8 +31,11 @@ final class Progress {
     this.startNanos = System.nanoTime();
   }
 
-  /** Reports the count done so far; redraws if enough time has passed. */
-  void update(long done, String extra) {
+  /**
+   * Reports the count done so far; redraws if enough time has passed. Cheap when it does not
+   * redraw: {@code extra} is only asked for its text when a line is drawn.
+   */
+  void update(long done, java.util.function.Supplier<String> extra) {
     if (quiet) {
       return;
     }
@@ -41,7 +44,7 @@ final class Progress {
       return;
     }
     lastDrawNanos = now;
-    draw(done, extra, now);
+    draw(done, extra.get(), now);
   }
 
   /** Draws the final line and ends it. */

@@ -65,7 +65,7 @@ public final class ReplayCommand implements Callable<Integer> {
           }
           @Override public void snapshotDue() { write(snaps, json.snapshot(step.snapshot(), -1)); }
         });
-        progress.update(step.records(), String.format("%.0f%% of the file", 100.0 * bytesDone[0] / Math.max(1, size)));
+        progress.update(step.records(), () -> String.format("%.0f%% of the file", 100.0 * bytesDone[0] / Math.max(1, size)));
       });
       write(snaps, json.snapshot(step.snapshot(), -1));
     }

@@ -1,0 +1,48 @@
+package dev.runnel.connect.cli;
+
+import dev.runnel.connect.demo.DemoRun;
+import dev.runnel.connect.demo.DemoSummary;
+import java.nio.file.Path;
+import java.util.concurrent.Callable;
+import picocli.CommandLine.Command;
+import picocli.CommandLine.Option;
+
+/** The one-command demo on the embedded broker. */
+@Command(name = "demo", mixinStandardHelpOptions = true,
+    description = {"Start the embedded Kafka broker, publish the invented Quillmarsh Charging feed to it, run the "
+        + "pipeline on it exactly once, show live progress, and end with what the model found.",
+        "Repeated runs use new topics (run numbers); the broker's data folder is kept unless --fresh."})
+public final class DemoCommand implements Callable<Integer> {
+
+  @Option(names = "--days", defaultValue = "42", paramLabel = "N",
+      description = "Days of invented hourly data (default: ${DEFAULT-VALUE}).")
+  int days;
+
+  @Option(names = "--seed", defaultValue = "20260105", paramLabel = "S", description = "Generator seed (default: ${DEFAULT-VALUE}).")
+  long seed;
+
+  @Option(names = "--rate", defaultValue = "8000", paramLabel = "RECORDS_PER_S",
+      description = "Publishing pace in records per second, 0 = as fast as possible (default: ${DEFAULT-VALUE}).")
+  double rate;
+
+  @Option(names = "--data-dir", defaultValue = ".runnel/demo", paramLabel = "DIR",
+      description = "Data folder of the embedded broker, kept between runs (default: ${DEFAULT-VALUE}).")
+  Path dataDir;
+
+  @Option(names = "--fresh", description = "Delete the data folder first.")
+  boolean fresh;
+
+  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT",
+      description = "Use this Kafka cluster instead of starting the embedded broker.")
+  String bootstrap;
+
+  @Option(names = "--quiet", description = "No live progress; only the summary.")
+  boolean quiet;
+
+  @Override
+  public Integer call() throws Exception {
+    DemoSummary s = DemoRun.run(new DemoRun.Options(dataDir, fresh, days, seed, rate, quiet, bootstrap),
+        System.out, System.err);
+    return s.tariffChangeFound() ? 0 : 1;
+  }
+}

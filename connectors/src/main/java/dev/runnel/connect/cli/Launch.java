@@ -1,0 +1,44 @@
+package dev.runnel.connect.cli;
+
+import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.kafka.RunnerSettings;
+import dev.runnel.core.config.PipelineConfig;
+import java.io.IOException;
+import java.io.PrintStream;
+import java.nio.file.Path;
+
+/** Shared steps of the verbs that run a pipeline: the broker to use and the runner's settings. */
+final class Launch {
+
+  private Launch() { }
+
+  /**
+   * Starts the embedded broker when the configuration names no bootstrap servers.
+   *
+   * @return the broker started, or null when an external cluster is configured
+   */
+  static EmbeddedBroker brokerIfNeeded(PipelineConfig cfg, Path dataDirOverride, PrintStream err) throws IOException {
+    if (!cfg.kafka().bootstrapServers().isBlank()) {
+      return null;
+    }
+    Path dir = dataDirOverride != null ? dataDirOverride : Path.of(cfg.kafka().embedded().dataDir());
+    EmbeddedBroker broker = new EmbeddedBroker(dir, cfg.kafka().embedded().port(), 0, java.util.Map.of(),
+        EmbeddedBroker.DEFAULT_START_TIMEOUT, "768m");
+    err.printf("runnel: no kafka.bootstrap_servers configured; starting the embedded broker (data in %s)...%n",
+        broker.folder());
+    broker.start();
+    err.printf("runnel: embedded broker ready at %s (log: %s)%n", broker.bootstrapServers(), broker.logFile());
+    return broker;
+  }
+
+  /** The runner settings a configuration asks for. */
+  static RunnerSettings runnerSettings(PipelineConfig cfg, String bootstrap, String instanceId) {
+    String topic = cfg.input().topic().orElseThrow(() -> new IllegalArgumentException(
+        "input.topic: missing; name the Kafka topic to consume, e.g. input: {topic: " + cfg.name() + ".events}"));
+    long records = Math.min(Integer.MAX_VALUE, Math.max(1, cfg.kafka().commitIntervalRecords()));
+    return RunnerSettings.of(cfg.name(), topic, bootstrap)
+        .withClientProperties(cfg.kafka().clientProperties())
+        .withCommitInterval(Math.max(1, cfg.kafka().commitIntervalMs()), (int) records)
+        .withInstanceId(instanceId);
+  }
+}

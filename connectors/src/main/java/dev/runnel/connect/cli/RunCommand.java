@@ -1,0 +1,78 @@
+package dev.runnel.connect.cli;
+
+import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.kafka.ExactlyOnceRunner;
+import dev.runnel.connect.kafka.RunnerCounters;
+import dev.runnel.connect.kafka.RunnerSettings;
+import dev.runnel.connect.pipeline.PipelineProcessor;
+import dev.runnel.core.config.ConfigLoader;
+import dev.runnel.core.config.PipelineConfig;
+import java.nio.file.Path;
+import java.util.concurrent.Callable;
+import picocli.CommandLine.Command;
+import picocli.CommandLine.Option;
+
+/** The main job: consume the input topic, run the pipeline per partition, publish exactly once. */
+@Command(name = "run", mixinStandardHelpOptions = true,
+    description = {"Consume the configured input topic and run the pipeline on every partition, publishing "
+        + "<name>.predictions, <name>.coefficients, <name>.rejects and <name>.state exactly once.",
+        "Without kafka.bootstrap_servers in the configuration, starts the embedded broker.",
+        "Stops cleanly on Ctrl-C / SIGTERM (the open transaction is committed, never half)."})
+public final class RunCommand implements Callable<Integer> {
+
+  @Option(names = "--config", required = true, paramLabel = "FILE", description = "Pipeline configuration (YAML).")
+  Path config;
+
+  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT",
+      description = "Overrides kafka.bootstrap_servers from the configuration.")
+  String bootstrap;
+
+  @Option(names = "--instance-id", paramLabel = "ID", defaultValue = "0",
+      description = "Stable id of this instance, unique among the instances of one pipeline (default: ${DEFAULT-VALUE}).")
+  String instanceId;
+
+  @Option(names = "--data-dir", paramLabel = "DIR",
+      description = "Data folder of the embedded broker (overrides kafka.embedded.data_dir).")
+  Path dataDir;
+
+  @Option(names = "--quiet", description = "No progress line.")
+  boolean quiet;
+
+  @Override
+  public Integer call() throws Exception {
+    PipelineConfig cfg = ConfigLoader.load(config);
+    EmbeddedBroker broker = null;
+    String servers = bootstrap;
+    if (servers == null || servers.isBlank()) {
+      broker = Launch.brokerIfNeeded(cfg, dataDir, System.err);
+      servers = broker != null ? broker.bootstrapServers() : cfg.kafka().bootstrapServers();
+    }
+    RunnerSettings settings = Launch.runnerSettings(cfg, servers, instanceId);
+    ExactlyOnceRunner runner = new ExactlyOnceRunner(settings, PipelineProcessor.factory(cfg));
+    EmbeddedBroker b = broker;
+    Thread stopper = new Thread(() -> {
+      runner.close();
+      if (b != null) {
+        b.stop();
+      }
+    }, "runnel-stop");
+    Runtime.getRuntime().addShutdownHook(stopper);
+    Thread work = new Thread(runner, "runnel-runner");
+    work.start();
+    System.err.printf("runnel: pipeline %s consuming %s from %s (group %s); Ctrl-C to stop%n",
+        cfg.name(), settings.inputTopic(), servers, settings.groupId());
+    Progress progress = new Progress(System.err, "records", 0, quiet);
+    while (work.isAlive()) {
+      work.join(500);
+      RunnerCounters c = runner.counters();
+      progress.update(c.recordsIn(), () -> String.format("%,d rejects  %,d commits", c.rejects(), c.commits()));
+    }
+    RunnerCounters c = runner.counters();
+    progress.finish(c.recordsIn(), String.format("%,d rejects  %,d commits", c.rejects(), c.commits()));
+    if (runner.failure() != null) {
+      System.err.println("runnel run: " + runner.failure());
+      return 2;
+    }
+    return 0;
+  }
+}

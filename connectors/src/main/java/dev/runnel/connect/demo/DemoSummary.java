@@ -1,0 +1,163 @@
+package dev.runnel.connect.demo;
+
+import com.fasterxml.jackson.databind.JsonNode;
+import dev.runnel.demo.ChangeSchedule;
+import dev.runnel.demo.GroundTruth;
+import dev.runnel.demo.Settings;
+import java.io.PrintStream;
+import java.time.Instant;
+import java.util.List;
+import java.util.Locale;
+import java.util.Map;
+import java.util.TreeMap;
+
+/**
+ * What the demo shows: for each planned change in the invented Quillmarsh feed, what the model's
+ * published outputs say about it, beside the generator's ground truth. Computed only from the
+ * records on the output topics (snapshots, predictions, rejects), as any consumer would.
+ *
+ * @param records input records published
+ * @param predictions predictions read back (read_committed)
+ * @param rejectsByReason rejects read back, by reason id
+ * @param priceBefore raw price weight in the last snapshot before the tariff change
+ * @param priceBeforeSe its standard error
+ * @param priceAfter raw price weight in the last snapshot
+ * @param priceAfterSe its standard error
+ * @param openingSeen first snapshot time with a column for the opening hub, or null
+ * @param closingGone first snapshot time, after the closing hub stopped, without its column, or null
+ * @param fahrenheitMae mean absolute error of scored predictions during the °F hours
+ * @param normalMae mean absolute error of scored predictions outside them, after the first day
+ * @param finalMae prequential MAE over the fading window in the last snapshot
+ * @param finalCoverage interval coverage over the fading window in the last snapshot
+ * @param forecasts forecast predictions (records without a target)
+ */
+public record DemoSummary(long records, long predictions, Map<String, Long> rejectsByReason,
+                          double priceBefore, double priceBeforeSe, double priceAfter, double priceAfterSe,
+                          Instant openingSeen, Instant closingGone, double fahrenheitMae, double normalMae,
+                          double finalMae, double finalCoverage, long forecasts, Settings settings) {
+
+  /** Whether the tariff change was found: the price weight roughly doubled, each within 4 standard errors and 20% of the truth. */
+  public boolean tariffChangeFound() {
+    return near(priceBefore, priceBeforeSe, GroundTruth.PRICE_EFFECT_PER_EUR)
+        && near(priceAfter, priceAfterSe, GroundTruth.PRICE_EFFECT_AFTER_TARIFF_PER_EUR);
+  }
+
+  private static boolean near(double est, double se, double truth) {
+    double tol = Math.max(4 * se, 0.2 * Math.abs(truth));
+    return Math.abs(est - truth) <= tol;
+  }
+
+  static DemoSummary of(Settings settings, long records, List<JsonNode> snapshots, List<JsonNode> predictions,
+                        List<JsonNode> rejects) {
+    ChangeSchedule sch = ChangeSchedule.of(settings);
+    Instant tariff = ChangeSchedule.localTime(settings, sch.tariffChangeHour()).toInstant();
+    Instant opening = ChangeSchedule.localTime(settings, sch.openingHour()).toInstant();
+    Instant closing = ChangeSchedule.localTime(settings, sch.closingHour()).toInstant();
+    Instant fFrom = ChangeSchedule.localTime(settings, sch.fahrenheitFirstHour()).toInstant();
+    Instant fTo = ChangeSchedule.localTime(settings, sch.fahrenheitFirstHour() + sch.fahrenheitHours()).toInstant();
+    String openHub = "hub=" + GroundTruth.HUBS.get(GroundTruth.OPENING_HUB).id();
+    String closeHub = "hub=" + GroundTruth.HUBS.get(GroundTruth.CLOSING_HUB).id();
+
+    double pb = Double.NaN, pbSe = Double.NaN, pa = Double.NaN, paSe = Double.NaN;
+    Instant openingSeen = null, closingGone = null;
+    double finalMae = Double.NaN, finalCov = Double.NaN;
+    for (JsonNode s : snapshots) {
+      if (s.path("event_time").isNull() || !s.path("ready").asBoolean()) {
+        continue;
+      }
+      Instant t = Instant.parse(s.path("event_time").asText());
+      JsonNode price = column(s, "price_per_kwh");
+      if (price != null) {
+        if (t.isBefore(tariff)) {
+          pb = price.path("raw_weight").asDouble(Double.NaN);
+          pbSe = price.path("raw_std_error").asDouble(Double.NaN);
+        }
+        pa = price.path("raw_weight").asDouble(Double.NaN);
+        paSe = price.path("raw_std_error").asDouble(Double.NaN);
+      }
+      if (openingSeen == null && column(s, openHub) != null) {
+        openingSeen = t;
+      }
+      if (closingGone == null && !t.isBefore(closing) && column(s, closeHub) == null) {
+        closingGone = t;
+      }
+      finalMae = s.path("metrics").path("recent").path("mae").asDouble(Double.NaN);
+      finalCov = s.path("metrics").path("recent").path("coverage").asDouble(Double.NaN);
+    }
+    double fSum = 0, nSum = 0;
+    long fN = 0, nN = 0, forecasts = 0;
+    Instant warm = ChangeSchedule.localTime(settings, 24).toInstant();
+    for (JsonNode p : predictions) {
+      String status = p.path("status").asText();
+      if (status.equals("forecast")) {
+        forecasts++;
+        continue;
+      }
+      if (!status.equals("scored") || p.path("error").isNull()) {
+        continue;
+      }
+      Instant t = Instant.parse(p.path("event_time").asText());
+      double e = Math.abs(p.path("error").asDouble());
+      if (!t.isBefore(fFrom) && t.isBefore(fTo)) {
+        fSum += e;
+        fN++;
+      } else if (!t.isBefore(warm)) {
+        nSum += e;
+        nN++;
+      }
+    }
+    Map<String, Long> byReason = new TreeMap<>();
+    for (JsonNode r : rejects) {
+      byReason.merge(r.path("reason").asText(), 1L, Long::sum);
+    }
+    return new DemoSummary(records, predictions.size(), byReason, pb, pbSe, pa, paSe, openingSeen, closingGone,
+        fN == 0 ? Double.NaN : fSum / fN, nN == 0 ? Double.NaN : nSum / nN, finalMae, finalCov, forecasts, settings);
+  }
+
+  /** A time as local date and hour in the scenario's zone, like the ground truth's. */
+  private static String local(Instant t) {
+    return t.atZone(GroundTruth.ZONE).toOffsetDateTime().toString().substring(0, 16);
+  }
+
+  private static JsonNode column(JsonNode snapshot, String name) {
+    for (JsonNode c : snapshot.path("columns")) {
+      if (name.equals(c.path("name").asText())) {
+        return c;
+      }
+    }
+    return null;
+  }
+
+  /** Prints the summary as a short report. */
+  public void print(PrintStream out) {
+    ChangeSchedule sch = ChangeSchedule.of(settings);
+    String tariff = ChangeSchedule.localTime(settings, sch.tariffChangeHour()).toString();
+    String opening = ChangeSchedule.localTime(settings, sch.openingHour()).toString();
+    String closing = ChangeSchedule.localTime(settings, sch.closingHour()).toString();
+    out.println();
+    out.println("== What the model found in the Quillmarsh feed (invented data) ==");
+    out.printf(Locale.ROOT, "records in %,d; predictions out %,d (%,d forecasts ahead); rejects %s%n",
+        records, predictions, forecasts, rejectsByReason);
+    out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "planned change", "ground truth", "model", "found?");
+    out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "tariff change (" + tariff.substring(0, 10) + ")",
+        String.format(Locale.ROOT, "price %.1f -> %.1f /EUR", GroundTruth.PRICE_EFFECT_PER_EUR,
+            GroundTruth.PRICE_EFFECT_AFTER_TARIFF_PER_EUR),
+        String.format(Locale.ROOT, "%.1f±%.1f -> %.1f±%.1f", priceBefore, 2 * priceBeforeSe, priceAfter, 2 * priceAfterSe),
+        tariffChangeFound() ? "yes" : "NO");
+    out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "hub " + GroundTruth.HUBS.get(GroundTruth.OPENING_HUB).id() + " opens",
+        opening.substring(0, 16), openingSeen == null ? "never admitted" : "column from " + local(openingSeen),
+        openingSeen != null ? "yes" : "NO");
+    out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "hub " + GroundTruth.HUBS.get(GroundTruth.CLOSING_HUB).id() + " closes",
+        closing.substring(0, 16), closingGone == null ? "still in the model" : "retired by " + local(closingGone),
+        closingGone != null ? "yes" : "NO");
+    out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "temperatures sent in °F (6 h)", "data-quality incident",
+        String.format(Locale.ROOT, "MAE %.2f vs %.2f usual", fahrenheitMae, normalMae),
+        fahrenheitMae > 1.5 * normalMae ? "yes (error spike)" : "contained (|z| clipped)");
+    out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "corrupt records", "5 planted",
+        rejectsByReason.values().stream().mapToLong(Long::longValue).sum() + " rejected", "");
+    out.printf(Locale.ROOT, "recent prequential MAE %.2f (noise sd %.1f: a perfect model scores about %.2f); "
+            + "90%% interval coverage %.1f%%%n",
+        finalMae, GroundTruth.NOISE_SD, GroundTruth.NOISE_SD * Math.sqrt(2 / Math.PI), 100 * finalCoverage);
+    out.println("Forecasts are estimates: read the interval, and distrust a fresh hub's numbers until it has history.");
+  }
+}

@@ -1,0 +1,2 @@
+/** JSON Lines files as a source of records. */
+package dev.runnel.connect.file;

@@ -1,0 +1,101 @@
+package dev.runnel.connect.pipeline;
+
+import dev.runnel.connect.kafka.Emitter;
+import dev.runnel.connect.kafka.PartitionProcessor;
+import dev.runnel.connect.kafka.ProcessorFactory;
+import dev.runnel.core.config.PipelineConfig;
+import dev.runnel.core.pipeline.OutputJson;
+import dev.runnel.core.pipeline.PipelineStep;
+import dev.runnel.core.pipeline.Prediction;
+import dev.runnel.core.record.EventRecord;
+import dev.runnel.core.record.RejectReason;
+import java.nio.charset.StandardCharsets;
+import org.apache.kafka.common.TopicPartition;
+
+/**
+ * Runs the stream-core {@link PipelineStep} for one input partition inside the exactly-once
+ * runner: each Kafka record becomes a prediction or a reject (and now and then a coefficient
+ * snapshot), and the step's checkpoint is the partition's state. Nothing here computes: every
+ * number comes from stream-core, so a replay of the same records gives the same bits.
+ */
+public final class PipelineProcessor implements PartitionProcessor {
+
+  private static final byte[] EMPTY = new byte[0];
+
+  private final PipelineStep step;
+  private final OutputJson json;
+  private final int partition;
+  private final byte[] partitionKey;
+  private final StepSink sink = new StepSink();
+
+  /**
+   * @param config the pipeline configuration. Not modified.
+   * @param tp the input partition this processor serves
+   */
+  public PipelineProcessor(PipelineConfig config, TopicPartition tp) {
+    this.step = new PipelineStep(config);
+    this.json = new OutputJson(config.name(), config.model().intervalLevel());
+    this.partition = tp.partition();
+    this.partitionKey = (tp.topic() + "-" + tp.partition()).getBytes(StandardCharsets.UTF_8);
+  }
+
+  /** A factory for the runner: one processor per assigned partition. */
+  public static ProcessorFactory factory(PipelineConfig config) {
+    return tp -> new PipelineProcessor(config, tp);
+  }
+
+  /** The step (for tests and the demo summary; read only between records). */
+  public PipelineStep step() {
+    return step;
+  }
+
+  @Override
+  public void restore(byte[] checkpointOrNull) {
+    if (checkpointOrNull != null) {
+      step.restore(checkpointOrNull);
+    }
+  }
+
+  @Override
+  public void process(long offset, long timestampMillis, byte[] key, byte[] value, Emitter out) {
+    byte[] v = value == null ? EMPTY : value;
+    sink.bind(out, key, v, offset);
+    step.process(v, 0, v.length, timestampMillis, partition, offset, sink);
+  }
+
+  @Override
+  public byte[] checkpoint() {
+    return step.checkpoint();
+  }
+
+  /** Turns the step's outcomes into output records. Reused for every record. */
+  private final class StepSink implements PipelineStep.Sink {
+    private Emitter out;
+    private byte[] key;
+    private byte[] value;
+    private long offset;
+
+    void bind(Emitter out, byte[] key, byte[] value, long offset) {
+      this.out = out;
+      this.key = key;
+      this.value = value;
+      this.offset = offset;
+    }
+
+    @Override
+    public void prediction(Prediction p, EventRecord record) {
+      out.prediction(key, json.prediction(p, record));
+    }
+
+    @Override
+    public void reject(RejectReason reason, String detail) {
+      String d = value.length == 0 ? "the record has no value" : detail;
+      out.reject(key, json.reject(reason, d, partition, offset, value, 0, value.length));
+    }
+
+    @Override
+    public void snapshotDue() {
+      out.snapshot(partitionKey, json.snapshot(step.snapshot(), partition));
+    }
+  }
+}
