@@ -407,8 +407,13 @@ public final class EmbeddedBroker implements AutoCloseable {
    * @throws IOException if the Kafka broker classes are not among them
    */
   public static String childClasspath() throws IOException {
+    return childClasspath(System.getProperty("java.class.path", ""));
+  }
+
+  /** As {@link #childClasspath()} for an explicit classpath string. */
+  static String childClasspath(String javaClassPath) throws IOException {
     Set<String> entries = new LinkedHashSet<>();
-    for (String e : System.getProperty("java.class.path", "").split(java.io.File.pathSeparator)) {
+    for (String e : javaClassPath.split(java.io.File.pathSeparator)) {
       if (!e.isBlank()) expand(Paths.get(e).toAbsolutePath().normalize(), entries);
     }
     boolean found = false;

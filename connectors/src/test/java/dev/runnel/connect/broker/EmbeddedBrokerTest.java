@@ -56,4 +56,30 @@ class EmbeddedBrokerTest {
         () -> new EmbeddedBroker(java.nio.file.Paths.get("target", "unused"), 9092, 9092, Map.of(), EmbeddedBroker.DEFAULT_START_TIMEOUT, "256m"));
     assertTrue(e.getMessage().contains("9092"), e.getMessage());
   }
+
+  /** Surefire's booter and the packaged jar list their classpath only in the manifest's Class-Path; the child needs the jars themselves. */
+  @Test void manifestOnlyJarIsExpandedToTheJarsItLists() throws Exception {
+    java.nio.file.Path dir = java.nio.file.Paths.get("target", "manifest-only").toAbsolutePath();
+    java.nio.file.Files.createDirectories(dir);
+    StringBuilder cp = new StringBuilder();
+    for (String e : System.getProperty("java.class.path").split(java.io.File.pathSeparator)) {
+      if (e.contains("kafka")) cp.append(java.nio.file.Paths.get(e).toAbsolutePath().toUri()).append(' ');
+    }
+    java.util.jar.Manifest mf = new java.util.jar.Manifest();
+    mf.getMainAttributes().put(java.util.jar.Attributes.Name.MANIFEST_VERSION, "1.0");
+    mf.getMainAttributes().put(java.util.jar.Attributes.Name.CLASS_PATH, cp.toString().trim());
+    java.nio.file.Path jar = dir.resolve("only-manifest.jar");
+    try (java.util.jar.JarOutputStream out = new java.util.jar.JarOutputStream(java.nio.file.Files.newOutputStream(jar), mf)) {
+      // nothing but the manifest
+    }
+    String expanded = EmbeddedBroker.childClasspath(jar.toString());
+    assertTrue(expanded.startsWith(jar.toString()), expanded);
+    assertTrue(expanded.contains("kafka_2.13-"), "kafka_2.13 reached through the manifest: " + expanded);
+  }
+
+  @Test void withoutTheBrokerJarsTheErrorSaysWhatIsMissing() {
+    java.io.IOException e = org.junit.jupiter.api.Assertions.assertThrows(java.io.IOException.class,
+        () -> EmbeddedBroker.childClasspath(java.nio.file.Paths.get("target", "classes").toAbsolutePath().toString()));
+    assertTrue(e.getMessage().contains("kafka_2.13"), e.getMessage());
+  }
 }

@@ -68,6 +68,11 @@ public final class ConfigLoader {
     try {
       root = mapper.readTree(yaml);
     } catch (JsonProcessingException e) {
+      if (e.getCause() instanceof org.yaml.snakeyaml.error.MarkedYAMLException y && y.getProblemMark() != null) {
+        String ctx = y.getContext() == null ? "" : " (" + y.getContext() + ")";
+        throw new ConfigException("", sourceName + ": YAML syntax error at line " + (y.getProblemMark().getLine() + 1)
+            + ", column " + (y.getProblemMark().getColumn() + 1) + ": " + y.getProblem() + ctx);
+      }
       String where = e.getLocation() == null ? ""
           : " at line " + e.getLocation().getLineNr() + ", column " + e.getLocation().getColumnNr();
       String msg = e.getOriginalMessage() == null ? "unreadable" : e.getOriginalMessage();
@@ -395,11 +400,13 @@ public final class ConfigLoader {
           for (String part : c.of()) {
             Integer j = names.get(part);
             if (j == null || j == i) {
-              throw notAllowed(f.p("of"), f.get("of"), "name two other features of kinds onehot or cyclic, e.g. of: [hub, hour_of_day]");
+              throw notAllowed(f.p("of"), new com.fasterxml.jackson.databind.node.TextNode(part),
+                  "name two other features of kinds onehot or cyclic, e.g. of: [hub, hour_of_day]");
             }
             FeatureConfig other = out.get(j);
             if (!(other instanceof FeatureConfig.OneHot) && !(other instanceof FeatureConfig.Cyclic)) {
-              throw notAllowed(f.p("of"), f.get("of"), "a cross takes onehot or cyclic features (unscaled columns); " + part + " is " + other.kind());
+              throw notAllowed(f.p("of"), new com.fasterxml.jackson.databind.node.TextNode(part),
+                  "a cross takes onehot or cyclic features (unscaled columns), and " + part + " is " + other.kind());
             }
           }
         }
@@ -414,7 +421,7 @@ public final class ConfigLoader {
       switch (kind) {
         case "onehot": {
           f.allow(List.of("kind", "name", "field", "max_levels", "min_count", "expire_after", "expire_after_records"));
-          String field = field(f, s, target, FieldType.TEXT, FieldType.FLAG, "a text or flag field");
+          String field = field(f, s, target, FieldType.TEXT, FieldType.FLAG, "text or flag field");
           String name = name(f, field);
           int maxLevels = f.wholeInt("max_levels", 1000, 1, 1_000_000);
           int minCount = f.wholeInt("min_count", 1, 1, 1_000_000);
@@ -427,14 +434,14 @@ public final class ConfigLoader {
           if (!f.has("cycle")) throw missing(f.p("cycle"), "use one of hour_of_day, day_of_week, day_of_year");
           Cycle cycle = f.choice("cycle", null, Cycle.values(), Cycle::word);
           String field = null;
-          if (f.has("field")) field = field(f, s, target, FieldType.TIME, null, "a time field");
+          if (f.has("field")) field = field(f, s, target, FieldType.TIME, null, "time field");
           String name = f.has("name") ? name(f, null) : cycle.word();
           int harmonics = f.wholeInt("harmonics", 1, 1, 12);
           return new FeatureConfig.Cyclic(name, cycle, field, harmonics);
         }
         case "numeric": {
           f.allow(List.of("kind", "name", "field", "transform", "exponent", "scaling", "weighting_half_life_records", "clip"));
-          String field = field(f, s, target, FieldType.NUMBER, null, "a number field");
+          String field = field(f, s, target, FieldType.NUMBER, null, "number field");
           String name = name(f, field);
           Transform tr = f.choice("transform", Transform.NONE, Transform.values(), Transform::word);
           double exponent = 1.0;
@@ -454,7 +461,7 @@ public final class ConfigLoader {
         }
         case "polynomial": {
           f.allow(List.of("kind", "name", "field", "degree", "scaling", "weighting_half_life_records", "clip"));
-          String field = field(f, s, target, FieldType.NUMBER, null, "a number field");
+          String field = field(f, s, target, FieldType.NUMBER, null, "number field");
           String name = name(f, field);
           if (!f.has("degree")) throw missing(f.p("degree"), "give the highest power, a whole number from 1 to 16");
           int degree = f.wholeInt("degree", 2, 1, 16);
