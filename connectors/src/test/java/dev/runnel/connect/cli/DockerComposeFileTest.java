@@ -1,0 +1,45 @@
+package dev.runnel.connect.cli;
+
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import com.fasterxml.jackson.databind.JsonNode;
+import com.fasterxml.jackson.databind.ObjectMapper;
+import com.fasterxml.jackson.dataformat.yaml.YAMLFactory;
+import java.nio.file.Files;
+import java.nio.file.Path;
+import java.util.ArrayList;
+import java.util.List;
+import org.junit.jupiter.api.Test;
+import picocli.CommandLine;
+
+/**
+ * docker-compose.yml cannot be run here (no Docker engine), so it is checked as data: it parses as
+ * YAML, its Kafka image is the version the build uses, and the Runnel service's command parses
+ * with the current command line (so a renamed verb or option breaks this test, not a user).
+ */
+class DockerComposeFileTest {
+
+  @Test
+  void composeFileIsValidAndItsRunnelCommandParses() throws Exception {
+    Path file = Path.of("..", "docker-compose.yml");
+    JsonNode root = new ObjectMapper(new YAMLFactory()).readTree(Files.readString(file));
+    JsonNode services = root.path("services");
+    assertTrue(services.has("kafka") && services.has("runnel"), "services kafka and runnel");
+    String image = services.path("kafka").path("image").asText();
+    String kafkaVersion = org.apache.kafka.common.utils.internals.AppInfoParser.getVersion();
+    assertEquals("apache/kafka:" + kafkaVersion, image, "the compose broker runs the same Kafka version as the clients");
+    List<String> cmd = new ArrayList<>();
+    services.path("runnel").path("command").forEach(n -> cmd.add(n.asText()));
+    int jar = cmd.indexOf("/opt/runnel/runnel.jar");
+    assertTrue(jar > 0 && cmd.get(jar - 1).equals("-jar"), "runs the executable jar: " + cmd);
+    List<String> args = cmd.subList(jar + 1, cmd.size());
+    CommandLine.ParseResult parsed = Main.commandLine().parseArgs(args.toArray(new String[0]));
+    assertTrue(parsed.hasSubcommand(), "a verb: " + args);
+    assertEquals(args.get(0), parsed.subcommand().commandSpec().name());
+    assertTrue(parsed.subcommand().unmatched().isEmpty(), "every option is known: " + args);
+    JsonNode env = services.path("kafka").path("environment");
+    assertEquals("1", env.path("KAFKA_TRANSACTION_STATE_LOG_REPLICATION_FACTOR").asText(),
+        "a single broker needs replication factor 1 for the transaction log (exactly-once needs it)");
+  }
+}

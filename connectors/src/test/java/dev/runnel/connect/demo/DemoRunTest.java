@@ -1,0 +1,57 @@
+package dev.runnel.connect.demo;
+
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertNotNull;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.testing.EmbeddedKafkaExtension;
+import dev.runnel.demo.ChangeSchedule;
+import dev.runnel.demo.GroundTruth;
+import dev.runnel.demo.Settings;
+import java.io.ByteArrayOutputStream;
+import java.io.PrintStream;
+import java.nio.charset.StandardCharsets;
+import java.nio.file.Path;
+import java.time.Duration;
+import java.time.Instant;
+import org.junit.jupiter.api.Test;
+import org.junit.jupiter.api.extension.ExtendWith;
+import org.junit.jupiter.api.io.TempDir;
+
+/**
+ * The demo, headless, with a short feed, on the real embedded broker: it ends by itself and its
+ * summary shows the planned changes of the invented feed being found — in particular the tariff
+ * change, checked against the generator's ground truth (price weight −18 → −36 per EUR/kWh).
+ */
+@ExtendWith(EmbeddedKafkaExtension.class)
+class DemoRunTest {
+
+  @Test
+  void shortDemoFindsThePlannedChanges(EmbeddedBroker broker, @TempDir Path dir) throws Exception {
+    ByteArrayOutputStream text = new ByteArrayOutputStream();
+    PrintStream out = new PrintStream(text, true, StandardCharsets.UTF_8);
+    DemoRun.Options o = new DemoRun.Options(dir, false, 28, Settings.DEFAULT_SEED, 0, true, broker.bootstrapServers());
+    DemoSummary s = DemoRun.run(o, out, out);
+    String printed = text.toString(StandardCharsets.UTF_8);
+
+    assertTrue(s.tariffChangeFound(), "tariff change found: " + printed);
+    assertEquals(GroundTruth.PRICE_EFFECT_PER_EUR, s.priceBefore(), 0.2 * Math.abs(GroundTruth.PRICE_EFFECT_PER_EUR));
+    assertEquals(GroundTruth.PRICE_EFFECT_AFTER_TARIFF_PER_EUR, s.priceAfter(),
+        0.2 * Math.abs(GroundTruth.PRICE_EFFECT_AFTER_TARIFF_PER_EUR));
+    assertTrue(printed.contains("tariff change") && printed.matches("(?s).*tariff change.*yes.*"), printed);
+
+    Settings settings = s.settings();
+    ChangeSchedule sch = ChangeSchedule.of(settings);
+    Instant opening = ChangeSchedule.localTime(settings, sch.openingHour()).toInstant();
+    Instant closing = ChangeSchedule.localTime(settings, sch.closingHour()).toInstant();
+    assertNotNull(s.openingSeen(), "the opening hub got a column");
+    assertTrue(!s.openingSeen().isBefore(opening) && s.openingSeen().isBefore(opening.plus(Duration.ofHours(12))),
+        "admitted within a snapshot period or two of opening: " + s.openingSeen());
+    assertNotNull(s.closingGone(), "the closing hub was retired");
+    assertTrue(s.closingGone().isBefore(closing.plus(Duration.ofHours(24))), "retired within a day: " + s.closingGone());
+    assertEquals(5, s.rejectsByReason().values().stream().mapToLong(Long::longValue).sum(), "the 5 planted corrupt records");
+    assertEquals(s.records(), s.predictions() + 5, "one output per record");
+    assertTrue(s.finalCoverage() > 0.8 && s.finalCoverage() < 0.97, "90% interval coverage near 90%: " + s.finalCoverage());
+  }
+}
