@@ -288,7 +288,7 @@ public final class ConfigLoader {
       if (!in.has("fields")) throw missing(in.p("fields"), "declare the input fields, e.g. fields: {hub: text, sessions: number}");
       Section fs = in.section("fields");
       LinkedHashMap<String, FieldType> fields = new LinkedHashMap<>();
-      Iterator<Map.Entry<String, JsonNode>> it = fs.node.fields();
+      Iterator<Map.Entry<String, JsonNode>> it = fs.node.properties().iterator();
       while (it.hasNext()) {
         Map.Entry<String, JsonNode> e = it.next();
         String fp = fs.p(e.getKey());
@@ -586,7 +586,7 @@ public final class ConfigLoader {
       LinkedHashMap<String, String> props = new LinkedHashMap<>();
       if (k.has("client_properties")) {
         Section cp = k.section("client_properties");
-        Iterator<Map.Entry<String, JsonNode>> it = cp.node.fields();
+        Iterator<Map.Entry<String, JsonNode>> it = cp.node.properties().iterator();
         while (it.hasNext()) {
           Map.Entry<String, JsonNode> e = it.next();
           JsonNode v = e.getValue();

@@ -593,7 +593,7 @@ public final class Featurizer {
     @Override void touchAndExpire(EventRecord r, long t, Featurizer f) {
       current = vocabulary.touch(key(r), t, f.trainingRecords);
       RollingVocabulary.Level gone;
-      while ((gone = vocabulary.expireOne(f.streamTimeMillis, f.trainingRecords)) != null) {
+      while ((gone = vocabulary.expireOne(f.streamTimeMillis, f.trainingRecords, current)) != null) {
         Column c = gone.column;
         gone.column = null;
         f.removeColumn(c);

@@ -141,11 +141,13 @@ public final class RollingVocabulary {
    *
    * @param streamTimeMillis largest event time seen so far
    * @param recordIndex index (1-based) of the current training record
-   * @return the expired level (already removed), or null when the least recently seen one is current
+   * @param keep a level seen in the current record, never expired by this call (may be null)
+   * @return the expired level (already removed), or null when the least recently seen one is
+   *     current or is {@code keep}
    */
-  public Level expireOne(long streamTimeMillis, long recordIndex) {
+  public Level expireOne(long streamTimeMillis, long recordIndex, Level keep) {
     Level h = head;
-    if (h == null) return null;
+    if (h == null || h == keep) return null;
     boolean stale = (expireAfterMillis > 0 && streamTimeMillis - h.lastSeenMillis > expireAfterMillis)
         || (expireAfterRecords > 0 && recordIndex - h.lastSeenRecord > expireAfterRecords);
     if (!stale) return null;
