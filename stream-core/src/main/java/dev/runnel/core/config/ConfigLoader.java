@@ -288,7 +288,7 @@ public final class ConfigLoader {
       if (!in.has("fields")) throw missing(in.p("fields"), "declare the input fields, e.g. fields: {hub: text, sessions: number}");
       Section fs = in.section("fields");
       LinkedHashMap<String, FieldType> fields = new LinkedHashMap<>();
-      Iterator<Map.Entry<String, JsonNode>> it = fs.node.fields();
+      Iterator<Map.Entry<String, JsonNode>> it = fs.node.properties().iterator();
       while (it.hasNext()) {
         Map.Entry<String, JsonNode> e = it.next();
         String fp = fs.p(e.getKey());
@@ -399,14 +399,19 @@ public final class ConfigLoader {
           Section f = crossSections.get(i);
           for (String part : c.of()) {
             Integer j = names.get(part);
-            if (j == null || j == i) {
+            if (j == null || j >= i) {
               throw notAllowed(f.p("of"), new com.fasterxml.jackson.databind.node.TextNode(part),
-                  "name two other features of kinds onehot or cyclic, e.g. of: [hub, hour_of_day]");
+                  "name two features declared before this one, of kinds onehot or cyclic, e.g. of: [hub, hour_of_day]");
             }
             FeatureConfig other = out.get(j);
             if (!(other instanceof FeatureConfig.OneHot) && !(other instanceof FeatureConfig.Cyclic)) {
               throw notAllowed(f.p("of"), new com.fasterxml.jackson.databind.node.TextNode(part),
                   "a cross takes onehot or cyclic features (unscaled columns), and " + part + " is " + other.kind());
+            }
+          }
+          for (int k = 0; k < i; k++) {
+            if (out.get(k) instanceof FeatureConfig.Cross d && new java.util.HashSet<>(d.of()).equals(new java.util.HashSet<>(c.of()))) {
+              throw notAllowed(f.p("of"), f.get("of"), "features[" + k + "] already crosses " + d.of().get(0) + " with " + d.of().get(1));
             }
           }
         }
@@ -474,7 +479,7 @@ public final class ConfigLoader {
           f.allow(List.of("kind", "name", "of"));
           if (!f.has("of")) throw missing(f.p("of"), "name the two features to cross, e.g. of: [hub, hour_of_day]");
           JsonNode of = f.get("of");
-          String allowed = "name two other features of kinds onehot or cyclic, e.g. of: [hub, hour_of_day]";
+          String allowed = "name two different features declared before this one, of kinds onehot or cyclic, e.g. of: [hub, hour_of_day]";
           if (!of.isArray() || of.size() != 2 || !of.get(0).isTextual() || !of.get(1).isTextual()
               || of.get(0).asText().equals(of.get(1).asText())) {
             throw notAllowed(f.p("of"), of, allowed);
@@ -581,7 +586,7 @@ public final class ConfigLoader {
       LinkedHashMap<String, String> props = new LinkedHashMap<>();
       if (k.has("client_properties")) {
         Section cp = k.section("client_properties");
-        Iterator<Map.Entry<String, JsonNode>> it = cp.node.fields();
+        Iterator<Map.Entry<String, JsonNode>> it = cp.node.properties().iterator();
         while (it.hasNext()) {
           Map.Entry<String, JsonNode> e = it.next();
           JsonNode v = e.getValue();

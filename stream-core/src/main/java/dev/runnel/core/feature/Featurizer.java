@@ -25,7 +25,9 @@ import java.util.List;
  * {@code <name>=(other)}, a cyclic feature's {@code <name>.sin1, <name>.cos1, ...}, a numeric
  * feature's {@code <name>}, a polynomial's {@code <name>^1 ... <name>^d}); then the one-hot levels'
  * columns {@code <name>=<level>} in order of admission. Fixed columns never move; a level column
- * is appended on admission and removed on expiry (later columns shift down by one).
+ * is appended on admission and removed on expiry (later columns shift down by one). A cross of
+ * features A and B has a cell column {@code <a column>*<b column>} for each pair of their columns;
+ * cells of a level are added right after the level's column and removed right after it.
  *
  * <p>Training ({@link #learnAndEncode}) changes state in this order, reporting each change to the
  * listener as it is made: (1) sightings of admitted levels are recorded, then expired levels are
@@ -121,6 +123,7 @@ public final class Featurizer {
       else if (fc instanceof FeatureConfig.Cyclic c) f = new Cyclic(c, schema, config);
       else if (fc instanceof FeatureConfig.Numeric n) f = new Numeric(n, schema);
       else if (fc instanceof FeatureConfig.Polynomial p) f = new Polynomial(p, schema);
+      else if (fc instanceof FeatureConfig.Cross x) f = new Cross(x, find(features, i, x.of().get(0)), find(features, i, x.of().get(1)));
       else throw new IllegalArgumentException("features[" + i + "]: kind " + fc.kind() + " is not available in this version");
       features[i] = f;
       max += f.maxColumns();
@@ -131,6 +134,18 @@ public final class Featurizer {
     if (constantTerm) append(new Column("constant", null));
     for (Feature f : features) f.createFixedColumns(this);
     layoutVersion = 0;
+  }
+
+  private static Feature find(Feature[] built, int before, String name) {
+    for (int k = 0; k < before; k++) {
+      if (built[k].name.equals(name)) {
+        if (!(built[k] instanceof OneHot) && !(built[k] instanceof Cyclic)) {
+          throw new IllegalArgumentException("a cross takes onehot or cyclic features; " + name + " is " + built[k].kind());
+        }
+        return built[k];
+      }
+    }
+    throw new IllegalArgumentException("a cross must name features declared before it; " + name + " is not one");
   }
 
   // ---------------------------------------------------------------- layout
@@ -364,25 +379,70 @@ public final class Featurizer {
     out.writeLong(layoutVersion);
     for (Feature f : features) f.writeState(out);
     int first = firstDynamicColumn();
-    java.util.IdentityHashMap<Column, Integer> owners = new java.util.IdentityHashMap<>();
-    java.util.IdentityHashMap<Column, String> keys = new java.util.IdentityHashMap<>();
+    java.util.IdentityHashMap<Column, int[]> owners = new java.util.IdentityHashMap<>();
+    java.util.IdentityHashMap<Column, String> levelKeys = new java.util.IdentityHashMap<>();
+    java.util.IdentityHashMap<Column, Column[]> cellParts = new java.util.IdentityHashMap<>();
     for (int k = 0; k < features.length; k++) {
       if (features[k] instanceof OneHot o) {
+        owners.put(o.other, new int[] {k, PART_OTHER});
         for (RollingVocabulary.Level l : o.vocabulary.levelsInOrder()) {
-          owners.put(l.column, k);
-          keys.put(l.column, l.key);
+          owners.put(l.column, new int[] {k, PART_LEVEL});
+          levelKeys.put(l.column, l.key);
         }
+      } else if (features[k] instanceof Cyclic c) {
+        for (int j = 0; j < c.cols.length; j++) owners.put(c.cols[j], new int[] {k, PART_CYCLIC, j});
+      } else if (features[k] instanceof Cross x) {
+        x.collectCells(k, owners, cellParts);
       }
     }
     out.writeInt(dimension - first);
     for (int i = first; i < dimension; i++) {
       Column c = columns[i];
-      Integer owner = owners.get(c);
-      if (owner == null) throw new IllegalStateException("column " + i + " (" + c.name + ") has no owner");
-      out.writeInt(owner);
-      RollingVocabulary.writeString(out, keys.get(c));
+      int[] owner = owners.get(c);
+      if (owner == null || owner[1] == PART_OTHER || owner[1] == PART_CYCLIC) {
+        throw new IllegalStateException("column " + i + " (" + c.name + ") is not a dynamic column");
+      }
+      out.writeInt(owner[0]);
+      if (owner[1] == PART_LEVEL) {
+        RollingVocabulary.writeString(out, levelKeys.get(c));
+      } else {
+        Column[] parts = cellParts.get(c);
+        writePart(out, owners.get(parts[0]), levelKeys.get(parts[0]));
+        writePart(out, owners.get(parts[1]), levelKeys.get(parts[1]));
+      }
     }
     out.writeInt(dimension);
+  }
+
+  private static final int PART_OTHER = 0;
+  private static final int PART_LEVEL = 1;
+  private static final int PART_CYCLIC = 2;
+  private static final int PART_CELL = 3;
+
+  private static void writePart(DataOutput out, int[] owner, String levelKey) throws IOException {
+    out.writeInt(owner[0]);
+    out.writeByte(owner[1]);
+    if (owner[1] == PART_LEVEL) RollingVocabulary.writeString(out, levelKey);
+    if (owner[1] == PART_CYCLIC) out.writeInt(owner[2]);
+  }
+
+  private Column readPart(DataInput in) throws IOException {
+    int k = in.readInt();
+    int kind = in.readByte();
+    if (k < 0 || k >= features.length) throw new IOException("corrupt checkpoint: part owner " + k);
+    Feature f = features[k];
+    if (kind == PART_OTHER && f instanceof OneHot o) return o.other;
+    if (kind == PART_LEVEL && f instanceof OneHot o) {
+      RollingVocabulary.Level l = o.vocabulary.find(RollingVocabulary.readString(in));
+      if (l == null || l.column == null) throw new IOException("corrupt checkpoint: unknown level of " + o.name);
+      return l.column;
+    }
+    if (kind == PART_CYCLIC && f instanceof Cyclic c) {
+      int j = in.readInt();
+      if (j < 0 || j >= c.cols.length) throw new IOException("corrupt checkpoint: cyclic part " + j);
+      return c.cols[j];
+    }
+    throw new IOException("corrupt checkpoint: part kind " + kind + " of " + f.name);
   }
 
   private int firstDynamicColumn() {
@@ -426,13 +486,20 @@ public final class Featurizer {
     if (dynamic < 0 || dynamic > maxDimension) throw new IOException("corrupt checkpoint: " + dynamic + " level columns");
     for (int i = 0; i < dynamic; i++) {
       int owner = in.readInt();
-      String key = RollingVocabulary.readString(in);
-      if (owner < 0 || owner >= features.length || !(features[owner] instanceof OneHot o)) {
-        throw new IOException("corrupt checkpoint: column owner " + owner);
+      if (owner < 0 || owner >= features.length) throw new IOException("corrupt checkpoint: column owner " + owner);
+      if (features[owner] instanceof OneHot o) {
+        String key = RollingVocabulary.readString(in);
+        RollingVocabulary.Level l = o.vocabulary.find(key);
+        if (l == null || l.column != null) throw new IOException("corrupt checkpoint: level " + key + " of " + o.name);
+        l.column = append(new Column(o.levelColumnName(key), null));
+        o.parts.add(l.column);
+      } else if (features[owner] instanceof Cross x) {
+        Column a = readPart(in);
+        Column b = readPart(in);
+        x.restoreCell(a, b, this);
+      } else {
+        throw new IOException("corrupt checkpoint: column owner " + owner + " has no dynamic columns");
       }
-      RollingVocabulary.Level l = o.vocabulary.find(key);
-      if (l == null || l.column != null) throw new IOException("corrupt checkpoint: level " + key + " of " + o.name);
-      l.column = append(new Column(o.levelColumnName(key), null));
     }
     int dim = in.readInt();
     if (dim != dimension) throw new IOException("corrupt checkpoint: dimension " + dim + ", rebuilt " + dimension);
@@ -488,6 +555,11 @@ public final class Featurizer {
     final boolean flag;
     final RollingVocabulary vocabulary;
     Column other;
+    /** The "(other)" column, then the level columns in layout order: the parts a cross multiplies. */
+    final ArrayList<Column> parts = new ArrayList<>();
+    final ArrayList<Cross> dependents = new ArrayList<>();
+    /** The column set to 1 by the last write. */
+    Column written;
     private RollingVocabulary.Level current;
 
     OneHot(FeatureConfig.OneHot cfg, RecordSchema s) {
@@ -502,7 +574,10 @@ public final class Featurizer {
     @Override int maxColumns() { return cfg.maxLevels() + 1; }
     @Override int fixedColumns() { return 1; }
 
-    @Override void createFixedColumns(Featurizer f) { other = f.append(new Column(name + "=(other)", null)); }
+    @Override void createFixedColumns(Featurizer f) {
+      other = f.append(new Column(name + "=(other)", null));
+      parts.add(other);
+    }
 
     String levelColumnName(String key) { return name + "=" + key; }
 
@@ -518,10 +593,12 @@ public final class Featurizer {
     @Override void touchAndExpire(EventRecord r, long t, Featurizer f) {
       current = vocabulary.touch(key(r), t, f.trainingRecords);
       RollingVocabulary.Level gone;
-      while ((gone = vocabulary.expireOne(f.streamTimeMillis, f.trainingRecords)) != null) {
+      while ((gone = vocabulary.expireOne(f.streamTimeMillis, f.trainingRecords, current)) != null) {
         Column c = gone.column;
         gone.column = null;
         f.removeColumn(c);
+        parts.remove(c);
+        for (int i = 0; i < dependents.size(); i++) dependents.get(i).partRemoved(this, c, f);
       }
     }
 
@@ -532,12 +609,15 @@ public final class Featurizer {
       if (l != null) {
         l.column = f.addColumn(levelColumnName(k), null);
         current = l;
+        parts.add(l.column);
+        for (int i = 0; i < dependents.size(); i++) dependents.get(i).partAdded(this, l.column, f);
       }
     }
 
     @Override void write(EventRecord r, long t, double[] out, boolean training) {
       RollingVocabulary.Level l = training ? current : vocabulary.find(key(r));
-      out[l != null ? l.column.index : other.index] = 1.0;
+      written = l != null ? l.column : other;
+      out[written.index] = 1.0;
       if (training) current = null;
     }
 
@@ -711,6 +791,135 @@ public final class Featurizer {
 
     @Override void readState(DataInput in) throws IOException {
       for (RunningScaler s : scalers) s.readFrom(in);
+    }
+  }
+
+  /**
+   * Products of the columns of two earlier one-hot or cyclic features. A cell column
+   * {@code <a column>*<b column>} exists for every pair of parts; a one-hot's parts are its
+   * "(other)" column and its level columns, so cells come and go with the levels (right after the
+   * level's own column event). Those columns are unscaled, so no re-basing is needed.
+   */
+  private static final class Cross extends Feature {
+    final FeatureConfig.Cross cfg;
+    final Feature a;
+    final Feature b;
+    private final java.util.IdentityHashMap<Column, java.util.IdentityHashMap<Column, Column>> cells = new java.util.IdentityHashMap<>();
+
+    Cross(FeatureConfig.Cross cfg, Feature a, Feature b) {
+      super(cfg.name());
+      this.cfg = cfg;
+      this.a = a;
+      this.b = b;
+      if (a instanceof OneHot o) o.dependents.add(this);
+      if (b instanceof OneHot o) o.dependents.add(this);
+    }
+
+    @Override String kind() { return cfg.kind(); }
+
+    private static int maxParts(Feature f) {
+      return f instanceof OneHot o ? o.cfg.maxLevels() + 1 : ((Cyclic) f).cols.length;
+    }
+
+    private static List<Column> partsOf(Feature f) {
+      return f instanceof OneHot o ? o.parts : Arrays.asList(((Cyclic) f).cols);
+    }
+
+    @Override int maxColumns() {
+      long n = (long) maxParts(a) * maxParts(b);
+      return n > Integer.MAX_VALUE / 2 ? Integer.MAX_VALUE / 2 : (int) n;
+    }
+
+    @Override int fixedColumns() {
+      return (a instanceof OneHot ? 1 : ((Cyclic) a).cols.length) * (b instanceof OneHot ? 1 : ((Cyclic) b).cols.length);
+    }
+
+    @Override void createFixedColumns(Featurizer f) {
+      List<Column> pa = partsOf(a);
+      List<Column> pb = partsOf(b);
+      for (int i = 0; i < pa.size(); i++) {
+        for (int j = 0; j < pb.size(); j++) put(pa.get(i), pb.get(j), f.append(new Column(pa.get(i).name + "*" + pb.get(j).name, null)));
+      }
+    }
+
+    private void put(Column pa, Column pb, Column cell) {
+      cells.computeIfAbsent(pa, k -> new java.util.IdentityHashMap<>()).put(pb, cell);
+    }
+
+    void restoreCell(Column pa, Column pb, Featurizer f) throws IOException {
+      java.util.IdentityHashMap<Column, Column> row = cells.get(pa);
+      if (row != null && row.containsKey(pb)) throw new IOException("corrupt checkpoint: cell " + pa.name + "*" + pb.name + " twice");
+      put(pa, pb, f.append(new Column(pa.name + "*" + pb.name, null)));
+    }
+
+    void partAdded(Feature side, Column part, Featurizer f) {
+      if (side == a) {
+        List<Column> pb = partsOf(b);
+        for (int j = 0; j < pb.size(); j++) {
+          Column q = pb.get(j);
+          put(part, q, f.addColumn(part.name + "*" + q.name, null));
+        }
+      } else {
+        List<Column> pa = partsOf(a);
+        for (int i = 0; i < pa.size(); i++) {
+          Column q = pa.get(i);
+          put(q, part, f.addColumn(q.name + "*" + part.name, null));
+        }
+      }
+    }
+
+    void partRemoved(Feature side, Column part, Featurizer f) {
+      if (side == a) {
+        java.util.IdentityHashMap<Column, Column> row = cells.remove(part);
+        if (row == null) return;
+        List<Column> pb = partsOf(b);
+        for (int j = 0; j < pb.size(); j++) {
+          Column cell = row.get(pb.get(j));
+          if (cell != null) f.removeColumn(cell);
+        }
+      } else {
+        List<Column> pa = partsOf(a);
+        for (int i = 0; i < pa.size(); i++) {
+          java.util.IdentityHashMap<Column, Column> row = cells.get(pa.get(i));
+          Column cell = row == null ? null : row.remove(part);
+          if (cell != null) f.removeColumn(cell);
+        }
+      }
+    }
+
+    void collectCells(int k, java.util.IdentityHashMap<Column, int[]> owners, java.util.IdentityHashMap<Column, Column[]> cellParts) {
+      for (java.util.Map.Entry<Column, java.util.IdentityHashMap<Column, Column>> e : cells.entrySet()) {
+        for (java.util.Map.Entry<Column, Column> g : e.getValue().entrySet()) {
+          owners.put(g.getValue(), new int[] {k, PART_CELL});
+          cellParts.put(g.getValue(), new Column[] {e.getKey(), g.getKey()});
+        }
+      }
+    }
+
+    @Override RejectReason check(EventRecord r, Featurizer f) { return null; }
+
+    @Override void write(EventRecord r, long t, double[] out, boolean training) {
+      if (a instanceof OneHot oa) {
+        java.util.IdentityHashMap<Column, Column> row = cells.get(oa.written);
+        if (b instanceof OneHot ob) {
+          out[row.get(ob.written).index] = 1.0;
+        } else {
+          Column[] cb = ((Cyclic) b).cols;
+          for (int j = 0; j < cb.length; j++) out[row.get(cb[j]).index] = out[cb[j].index];
+        }
+      } else {
+        Column[] ca = ((Cyclic) a).cols;
+        for (int i = 0; i < ca.length; i++) {
+          java.util.IdentityHashMap<Column, Column> row = cells.get(ca[i]);
+          double va = out[ca[i].index];
+          if (b instanceof OneHot ob) {
+            out[row.get(ob.written).index] = va;
+          } else {
+            Column[] cb = ((Cyclic) b).cols;
+            for (int j = 0; j < cb.length; j++) out[row.get(cb[j]).index] = va * out[cb[j].index];
+          }
+        }
+      }
     }
   }
 }

@@ -24,9 +24,14 @@ import java.util.List;
  * order of last sighting (a doubly linked list threaded through the entries); only the least
  * recently seen end is checked, so each record costs O(1) amortized. With event times out of
  * order, "least recently seen" is by arrival, and a level is expired only when it is at that end.
+ * A level seen in the current record is never expired by that record.
  *
  * <p>Memory: at most {@code maxLevels} levels and {@link #candidateCapacity()} candidates are
  * retained, whatever the input.
+ *
+ * <p>Outside this package the vocabulary is read-only: its mutators ({@code touch},
+ * {@code expireOne}, {@code sight}) are driven by the {@link Featurizer}, which turns their
+ * answers into layout events.
  */
 public final class RollingVocabulary {
 
@@ -123,7 +128,7 @@ public final class RollingVocabulary {
    *
    * @return the level, or null if {@code key} is not admitted (then nothing changed)
    */
-  public Level touch(String key, long eventTimeMillis, long recordIndex) {
+  Level touch(String key, long eventTimeMillis, long recordIndex) {
     Level l = levels.get(key);
     if (l == null) return null;
     l.count++;
@@ -141,11 +146,13 @@ public final class RollingVocabulary {
    *
    * @param streamTimeMillis largest event time seen so far
    * @param recordIndex index (1-based) of the current training record
-   * @return the expired level (already removed), or null when the least recently seen one is current
+   * @param keep a level seen in the current record, never expired by this call (may be null)
+   * @return the expired level (already removed), or null when the least recently seen one is
+   *     current or is {@code keep}
    */
-  public Level expireOne(long streamTimeMillis, long recordIndex) {
+  Level expireOne(long streamTimeMillis, long recordIndex, Level keep) {
     Level h = head;
-    if (h == null) return null;
+    if (h == null || h == keep) return null;
     boolean stale = (expireAfterMillis > 0 && streamTimeMillis - h.lastSeenMillis > expireAfterMillis)
         || (expireAfterRecords > 0 && recordIndex - h.lastSeenRecord > expireAfterRecords);
     if (!stale) return null;
@@ -160,7 +167,7 @@ public final class RollingVocabulary {
    *
    * @return the newly admitted level, or null (the record then belongs to "other")
    */
-  public Level sight(String key, long eventTimeMillis, long recordIndex) {
+  Level sight(String key, long eventTimeMillis, long recordIndex) {
     boolean room = levels.size() < maxLevels;
     if (minCount > 1) {
       Candidate c = candidates.get(key);

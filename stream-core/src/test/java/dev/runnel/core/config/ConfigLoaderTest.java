@@ -70,7 +70,9 @@ class ConfigLoaderTest {
       `    field: observed_at` | `    field: hub` | input.event_time.field: "hub" is not allowed; it is a text field; name a time field (or a number field with an epoch format)
       `    field: observed_at` | `    field: sessions` | input.event_time.field: "sessions" is not allowed; it is a number field; use format epoch_millis or epoch_seconds, or declare it as time
       `    of: [hub, hour_of_day]` | `    of: [hub, temperature_c]` | features[5].of: "temperature_c" is not allowed; a cross takes onehot or cyclic features (unscaled columns), and temperature_c is numeric
-      `    of: [hub, hour_of_day]` | `    of: [hub, hub]` | features[5].of: a list is not allowed; name two other features of kinds onehot or cyclic, e.g. of: [hub, hour_of_day]
+      `    of: [hub, hour_of_day]` | `    of: [hub, hub]` | features[5].of: a list is not allowed; name two different features declared before this one, of kinds onehot or cyclic, e.g. of: [hub, hour_of_day]
+      `    of: [hub, hour_of_day]` | `    of: [hub, hour_of_day]\n  - kind: cross\n    name: again\n    of: [hour_of_day, hub]` | features[6].of: a list is not allowed; features[5] already crosses hub with hour_of_day
+      `    of: [hub, hour_of_day]` | `    of: [hub, later]\n  - kind: onehot\n    field: hub\n    name: later` | features[5].of: "later" is not allowed; name two features declared before this one, of kinds onehot or cyclic, e.g. of: [hub, hour_of_day]
       `    max_levels: 64` | `    max_level: 64` | features[0].max_level: unknown key; did you mean max_levels?
       `    transform: none` | `    transform: none\\n    exponent: 2` | features[2].exponent: only allowed with transform: power; remove it or set transform: power
       `    transform: log1p` | `    transform: power` | features[3].exponent: missing; give the power for transform: power, e.g. exponent: 0.5

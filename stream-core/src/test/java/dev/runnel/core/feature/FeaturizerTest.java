@@ -35,7 +35,9 @@ class FeaturizerTest {
       + "  - {kind: cyclic, cycle: day_of_week}\n"
       + "  - {kind: numeric, field: temp, weighting_half_life_records: 200, clip: 6}\n"
       + "  - {kind: numeric, field: price, transform: log1p, scaling: scale}\n"
-      + "  - {kind: polynomial, field: temp, name: tpoly, degree: 3}\n";
+      + "  - {kind: polynomial, field: temp, name: tpoly, degree: 3}\n"
+      + "  - {kind: cross, of: [hub, day_of_week]}\n"
+      + "  - {kind: cross, of: [holiday, hub]}\n";
 
   static final long T0 = 1_774_000_000_000L;
 

@@ -120,6 +120,18 @@ class RollingVocabularyTest {
     assertEquals(List.of("constant", "hub=(other)", "hub=C"), g.f.columnNames());
   }
 
+  @Test void levelInTheCurrentRecord_isNotExpiredEvenWhenLateAndAlone() {
+    Rig g = new Rig(", expire_after: PT1H, expire_after_records: 1");
+    long t0 = 1_774_000_000_000L;
+    g.learn("B", t0 + 3 * HOUR);   // 1
+    g.learn("A", t0);              // 2: late; admitted although already an hour stale
+    assertEquals(2, g.learn("A", t0)); // 3: B expires (2 records without it), A moves to 2 and, seen now, stays
+    assertEquals(List.of("add 2 hub=B", "add 3 hub=A", "remove 2 hub=B"), g.l.events);
+    assertEquals(List.of("constant", "hub=(other)", "hub=A"), g.f.columnNames());
+    assertEquals(2, g.learn("C", t0 + 3 * HOUR)); // 4: now A expires (stale by time and by records)
+    assertEquals(List.of("remove 2 hub=A", "add 2 hub=C"), g.l.events.subList(3, 5));
+  }
+
   @Test void cap_sendsTheRestToOther() {
     Rig g = new Rig(", max_levels: 2");
     assertEquals(2, g.learn("A", 0));
