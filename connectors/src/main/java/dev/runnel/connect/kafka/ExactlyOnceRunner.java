@@ -114,6 +114,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private boolean txOpen;
   private long txStartNanos;
   private int recordsInTx;
+  private int consecutiveAborts;
   private volatile Exception sendError;
   private final Callback sendCallback = (md, e) -> { if (e != null && sendError == null) sendError = e; };
 
@@ -352,6 +353,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       }
     }
     txOpen = false;
+    consecutiveAborts = 0;
     for (Map.Entry<TopicPartition, byte[]> e : checkpoints.entrySet()) {
       Slot s = slots.get(e.getKey());
       s.committedNext = s.next;
@@ -437,6 +439,25 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     sendError = null;
     aborts++;
     for (Slot s : slots.values()) resetSlot(s);
+    if (groupMembershipProblem(cause)) {
+      // the coordinator no longer accepts our generation: rejoin, and restore whatever we are given
+      LOG.warn("runner {}: the group no longer accepts this member's commits; rejoining group {}", settings.name(), settings.groupId());
+      consumer.enforceRebalance("offset commit refused: " + cause.getMessage());
+    }
+    // back off when aborts follow each other without a commit in between, so a persistent problem does not spin
+    consecutiveAborts++;
+    if (consecutiveAborts > 1) sleep(Math.min(BACKOFF_MS, 50L << Math.min(consecutiveAborts, 6)));
+  }
+
+  private static boolean groupMembershipProblem(Throwable e) {
+    for (Throwable t = e; t != null; t = t.getCause()) {
+      if (t instanceof org.apache.kafka.clients.consumer.CommitFailedException || t instanceof org.apache.kafka.common.errors.RebalanceInProgressException
+          || t instanceof org.apache.kafka.common.errors.IllegalGenerationException || t instanceof org.apache.kafka.common.errors.UnknownMemberIdException) {
+        return true;
+      }
+      if (t.getCause() == t) break;
+    }
+    return false;
   }
 
   private void resetSlot(Slot s) {

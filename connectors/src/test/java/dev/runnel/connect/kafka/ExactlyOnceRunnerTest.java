@@ -129,4 +129,34 @@ class ExactlyOnceRunnerTest {
         () -> new ExactlyOnceRunner(s, new SumProcessorFactory()));
     assertTrue(e.getMessage().contains("isolation.level"), e.getMessage());
   }
+
+  /** Two instances with the same instance id (a misconfiguration): exactly one stops with a message, the other finishes exactly once. */
+  @Test void twoInstancesWithTheSameIdEndWithOneStoppedWithAClearMessage(EmbeddedBroker broker) throws Exception {
+    String bs = broker.bootstrapServers();
+    String topic = "fence-in";
+    KafkaTestSupport.createTopic(bs, topic, 1);
+    ExactlyOnceCheck check = new ExactlyOnceCheck(ExactlyOnceCheck.input(59, 1, 30_000, 0));
+    KafkaTestSupport.produce(bs, topic, check.input);
+    RunnerSettings s = RunnerSettings.of("fence", topic, bs).withClientProperties(TEST_CLIENT_PROPS).withCommitInterval(100, 500)
+        .withInstanceId("same");
+    ExactlyOnceRunner first = new ExactlyOnceRunner(s, new SumProcessorFactory());
+    Thread t1 = start(first);
+    KafkaTestSupport.await("first instance processing", Duration.ofSeconds(60), () -> first.counters().recordsIn() >= 1000);
+    ExactlyOnceRunner second = new ExactlyOnceRunner(s, new SumProcessorFactory());
+    Thread t2 = start(second);
+    KafkaTestSupport.await("one instance stopping", Duration.ofSeconds(60), () -> first.failure() != null || second.failure() != null);
+    ExactlyOnceRunner stopped = first.failure() != null ? first : second;
+    ExactlyOnceRunner survivor = stopped == first ? second : first;
+    assertTrue(stopped.failure().contains("give every instance its own instance id"), stopped.failure());
+    try (Admin admin = KafkaTestSupport.admin(bs)) {
+      awaitCommitted(admin, s, check.total(), survivor);
+    }
+    survivor.close();
+    first.close();
+    second.close();
+    t1.join(30_000);
+    t2.join(30_000);
+    assertNull(survivor.failure());
+    check.verify(bs, "fence", topic);
+  }
 }
