@@ -94,6 +94,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private final AtomicBoolean started = new AtomicBoolean();
   private final CountDownLatch finished = new CountDownLatch(1);
   private volatile boolean closing;
+  private volatile Thread runThread;
   private volatile String failure;
 
   // counters: written by the run thread only
@@ -206,6 +207,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   /** Runs until {@link #close()} or a fatal error ({@link #failure()}). */
   @Override public void run() {
     if (!started.compareAndSet(false, true)) throw new IllegalStateException("an ExactlyOnceRunner runs only once");
+    runThread = Thread.currentThread();
     try {
       LOG.info("runner {} starting: input {}, group {}, transactional id {}, client properties {}", settings.name(),
           settings.inputTopic(), settings.groupId(), settings.transactionalId(), ClientConfig.masked(settings.clientProperties()));
@@ -243,6 +245,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   @Override public void close() {
     closing = true;
     if (!started.get()) return;
+    if (Thread.currentThread() == runThread) return; // called from a processor: the loop ends after this record batch
     KafkaConsumer<byte[], byte[]> c = consumer;
     if (c != null) c.wakeup();
     try {
@@ -382,7 +385,8 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private static Throwable fatalCause(Throwable e) {
     for (Throwable t = e; t != null; t = t.getCause()) {
       if (t instanceof ProducerFencedException || t instanceof FencedInstanceIdException || t instanceof AuthorizationException
-          || t instanceof AuthenticationException || t instanceof UnsupportedVersionException) {
+          || t instanceof AuthenticationException || t instanceof UnsupportedVersionException
+          || t instanceof org.apache.kafka.common.errors.RecordTooLargeException) {
         return t;
       }
       if (t.getCause() == t) break;
@@ -403,6 +407,11 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       return "not allowed by the cluster at " + settings.bootstrapServers() + ": " + t.getMessage()
           + " (needs READ on " + settings.inputTopic() + " and group " + settings.groupId() + ", WRITE on the four output topics,"
           + " WRITE/DESCRIBE on transactional id " + settings.transactionalId() + "). Stopping.";
+    }
+    if (t instanceof org.apache.kafka.common.errors.RecordTooLargeException) {
+      return "an output or checkpoint record is too large (" + t.getMessage() + "); the state topic accepts "
+          + TopicSetup.STATE_MAX_MESSAGE_BYTES + " bytes per checkpoint and other topics their max.message.bytes;"
+          + " raise max.message.bytes on the topic and producer.max.request.size, or make the state smaller. Stopping.";
     }
     return "the cluster at " + settings.bootstrapServers() + " does not support transactions as needed: " + t.getMessage() + ". Stopping.";
   }
