@@ -67,10 +67,13 @@ import org.slf4j.LoggerFactory;
  * ({@code group.instance.id = <name>-<instanceId>}) so that a restarted instance takes its partitions back
  * without a rebalance; a clean {@link #close()} leaves the group so the others take over at once.
  *
- * <p>Errors: a fenced producer or group instance (another instance with the same id) and authorization
- * failures stop the runner ({@link #failure()}). Any other Kafka error inside a transaction aborts it,
- * rewinds every partition to its last committed offset and rebuilds its processor from the last committed
- * checkpoint (kept in memory). An unreachable broker is retried every 2 s with a message.
+ * <p>Errors: a fenced producer or group instance (another instance with the same id), authorization
+ * failures, a record too large for its topic and a processor that throws stop the runner ({@link #failure()}).
+ * Any other Kafka error inside a transaction aborts it, rewinds every partition to its last committed offset
+ * and rebuilds its processor from the last committed checkpoint (kept in memory); when the abort itself fails
+ * (e.g. {@code InvalidProducerEpochException} after the coordinator timed the transaction out) a new producer
+ * with the same transactional id replaces the old one. Commits refused for this group member make the consumer
+ * rejoin. An unreachable broker is retried every 2 s with a message.
  *
  * <p>Thread contract: {@link #run()} is called by one thread, once. {@link #close()} and {@link #counters()}
  * may be called from any thread.
@@ -471,8 +474,14 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
 
   private void resetSlot(Slot s) {
     consumer.seek(s.tp, s.committedNext);
-    s.proc = factory.create(s.tp);
-    s.proc.restore(s.committedCheckpoint == null ? null : s.committedCheckpoint.clone());
+    try {
+      s.proc = factory.create(s.tp);
+      s.proc.restore(s.committedCheckpoint == null ? null : s.committedCheckpoint.clone());
+    } catch (RuntimeException e) {
+      throw new FatalException("the processor of " + s.tp + " could not be created or restored from its checkpoint ("
+          + (s.committedCheckpoint == null ? "none" : s.committedCheckpoint.length + " bytes") + ", resuming at offset " + s.committedNext
+          + "): " + e, e);
+    }
     s.next = s.committedNext;
     s.touched = false;
   }
