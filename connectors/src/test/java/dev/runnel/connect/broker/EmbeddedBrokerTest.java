@@ -69,9 +69,7 @@ class EmbeddedBrokerTest {
     mf.getMainAttributes().put(java.util.jar.Attributes.Name.MANIFEST_VERSION, "1.0");
     mf.getMainAttributes().put(java.util.jar.Attributes.Name.CLASS_PATH, cp.toString().trim());
     java.nio.file.Path jar = dir.resolve("only-manifest.jar");
-    try (java.util.jar.JarOutputStream out = new java.util.jar.JarOutputStream(java.nio.file.Files.newOutputStream(jar), mf)) {
-      // nothing but the manifest
-    }
+    new java.util.jar.JarOutputStream(java.nio.file.Files.newOutputStream(jar), mf).close(); // nothing but the manifest
     String expanded = EmbeddedBroker.childClasspath(jar.toString());
     assertTrue(expanded.startsWith(jar.toString()), expanded);
     assertTrue(expanded.contains("kafka_2.13-"), "kafka_2.13 reached through the manifest: " + expanded);
@@ -97,10 +95,11 @@ class EmbeddedBrokerTest {
   @Test void aBrokerThatCannotStartPointsToItsLog() throws Exception {
     java.nio.file.Path dir = java.nio.file.Paths.get("target", "embedded-kafka", "port-taken").toAbsolutePath();
     dev.runnel.connect.testing.EmbeddedKafkaExtension.deleteTree(dir);
-    try (java.net.ServerSocket taken = new java.net.ServerSocket(0, 50, java.net.InetAddress.getByName("127.0.0.1"));
-         java.net.ServerSocket free = new java.net.ServerSocket(0, 50, java.net.InetAddress.getByName("127.0.0.1"))) {
-      int cport = free.getLocalPort();
-      free.close();
+    int cport;
+    try (java.net.ServerSocket free = new java.net.ServerSocket(0, 50, java.net.InetAddress.getByName("127.0.0.1"))) {
+      cport = free.getLocalPort();
+    }
+    try (java.net.ServerSocket taken = new java.net.ServerSocket(0, 50, java.net.InetAddress.getByName("127.0.0.1"))) {
       EmbeddedBroker b = new EmbeddedBroker(dir, 0, cport,
           Map.of("listeners", "PLAINTEXT://127.0.0.1:" + taken.getLocalPort() + ",CONTROLLER://127.0.0.1:" + cport,
               "advertised.listeners", "PLAINTEXT://127.0.0.1:" + taken.getLocalPort()),

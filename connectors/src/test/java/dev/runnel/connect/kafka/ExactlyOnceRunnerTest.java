@@ -65,6 +65,15 @@ class ExactlyOnceRunnerTest {
     assertEquals(0, c.aborts());
     assertEquals(20_000, check.predictions.get(0).size() + check.predictions.get(1).size());
     check.verify(bs, "e2e", topic);
+    try (Admin admin = KafkaTestSupport.admin(bs)) {
+      org.apache.kafka.common.config.ConfigResource state =
+          new org.apache.kafka.common.config.ConfigResource(org.apache.kafka.common.config.ConfigResource.Type.TOPIC, "e2e.state");
+      org.apache.kafka.clients.admin.Config cfg = admin.describeConfigs(List.of(state)).all().get(20, TimeUnit.SECONDS).get(state);
+      assertEquals("compact", cfg.get("cleanup.policy").value());
+      assertEquals(Integer.toString(16 * 1024 * 1024), cfg.get("max.message.bytes").value());
+      assertEquals(2, admin.describeTopics(List.of("e2e.predictions")).allTopicNames().get(20, TimeUnit.SECONDS)
+          .get("e2e.predictions").partitions().size(), "predictions have the input's partition count");
+    }
   }
 
   @Test void secondInstanceTakesOverPartitionsOfAClosedOneFromTheirCheckpoints(EmbeddedBroker broker) throws Exception {
