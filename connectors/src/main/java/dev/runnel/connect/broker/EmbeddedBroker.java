@@ -232,7 +232,13 @@ public final class EmbeddedBroker implements AutoCloseable {
   }
 
   private static int pick(int requested, String remembered, int notThis) throws IOException {
-    if (requested != 0) return requested;
+    if (requested != 0) {
+      if (!isFree(requested)) {
+        throw new IOException("port " + requested + " on 127.0.0.1 is in use (another program, or another broker on this folder?);"
+            + " choose another port, or 0 for a free one");
+      }
+      return requested;
+    }
     if (remembered != null) {
       int r = Integer.parseInt(remembered.trim());
       if (r != notThis && isFree(r)) return r;

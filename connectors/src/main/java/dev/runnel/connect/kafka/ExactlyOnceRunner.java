@@ -67,10 +67,13 @@ import org.slf4j.LoggerFactory;
  * ({@code group.instance.id = <name>-<instanceId>}) so that a restarted instance takes its partitions back
  * without a rebalance; a clean {@link #close()} leaves the group so the others take over at once.
  *
- * <p>Errors: a fenced producer or group instance (another instance with the same id) and authorization
- * failures stop the runner ({@link #failure()}). Any other Kafka error inside a transaction aborts it,
- * rewinds every partition to its last committed offset and rebuilds its processor from the last committed
- * checkpoint (kept in memory). An unreachable broker is retried every 2 s with a message.
+ * <p>Errors: a fenced producer or group instance (another instance with the same id), authorization
+ * failures, a record too large for its topic and a processor that throws stop the runner ({@link #failure()}).
+ * Any other Kafka error inside a transaction aborts it, rewinds every partition to its last committed offset
+ * and rebuilds its processor from the last committed checkpoint (kept in memory); when the abort itself fails
+ * (e.g. {@code InvalidProducerEpochException} after the coordinator timed the transaction out) a new producer
+ * with the same transactional id replaces the old one. Commits refused for this group member make the consumer
+ * rejoin. An unreachable broker is retried every 2 s with a message.
  *
  * <p>Thread contract: {@link #run()} is called by one thread, once. {@link #close()} and {@link #counters()}
  * may be called from any thread.
@@ -94,6 +97,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private final AtomicBoolean started = new AtomicBoolean();
   private final CountDownLatch finished = new CountDownLatch(1);
   private volatile boolean closing;
+  private volatile Thread runThread;
   private volatile String failure;
 
   // counters: written by the run thread only
@@ -114,6 +118,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private boolean txOpen;
   private long txStartNanos;
   private int recordsInTx;
+  private int consecutiveAborts;
   private volatile Exception sendError;
   private final Callback sendCallback = (md, e) -> { if (e != null && sendError == null) sendError = e; };
 
@@ -205,6 +210,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   /** Runs until {@link #close()} or a fatal error ({@link #failure()}). */
   @Override public void run() {
     if (!started.compareAndSet(false, true)) throw new IllegalStateException("an ExactlyOnceRunner runs only once");
+    runThread = Thread.currentThread();
     try {
       LOG.info("runner {} starting: input {}, group {}, transactional id {}, client properties {}", settings.name(),
           settings.inputTopic(), settings.groupId(), settings.transactionalId(), ClientConfig.masked(settings.clientProperties()));
@@ -242,6 +248,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   @Override public void close() {
     closing = true;
     if (!started.get()) return;
+    if (Thread.currentThread() == runThread) return; // called from a processor: the loop ends after this record batch
     KafkaConsumer<byte[], byte[]> c = consumer;
     if (c != null) c.wakeup();
     try {
@@ -352,6 +359,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       }
     }
     txOpen = false;
+    consecutiveAborts = 0;
     for (Map.Entry<TopicPartition, byte[]> e : checkpoints.entrySet()) {
       Slot s = slots.get(e.getKey());
       s.committedNext = s.next;
@@ -380,7 +388,8 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private static Throwable fatalCause(Throwable e) {
     for (Throwable t = e; t != null; t = t.getCause()) {
       if (t instanceof ProducerFencedException || t instanceof FencedInstanceIdException || t instanceof AuthorizationException
-          || t instanceof AuthenticationException || t instanceof UnsupportedVersionException) {
+          || t instanceof AuthenticationException || t instanceof UnsupportedVersionException
+          || t instanceof org.apache.kafka.common.errors.RecordTooLargeException) {
         return t;
       }
       if (t.getCause() == t) break;
@@ -401,6 +410,11 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       return "not allowed by the cluster at " + settings.bootstrapServers() + ": " + t.getMessage()
           + " (needs READ on " + settings.inputTopic() + " and group " + settings.groupId() + ", WRITE on the four output topics,"
           + " WRITE/DESCRIBE on transactional id " + settings.transactionalId() + "). Stopping.";
+    }
+    if (t instanceof org.apache.kafka.common.errors.RecordTooLargeException) {
+      return "an output or checkpoint record is too large (" + t.getMessage() + "); the state topic accepts "
+          + TopicSetup.STATE_MAX_MESSAGE_BYTES + " bytes per checkpoint and other topics their max.message.bytes;"
+          + " raise max.message.bytes on the topic and producer.max.request.size, or make the state smaller. Stopping.";
     }
     return "the cluster at " + settings.bootstrapServers() + " does not support transactions as needed: " + t.getMessage() + ". Stopping.";
   }
@@ -437,12 +451,37 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     sendError = null;
     aborts++;
     for (Slot s : slots.values()) resetSlot(s);
+    if (groupMembershipProblem(cause)) {
+      // the coordinator no longer accepts our generation: rejoin, and restore whatever we are given
+      LOG.warn("runner {}: the group no longer accepts this member's commits; rejoining group {}", settings.name(), settings.groupId());
+      consumer.enforceRebalance("offset commit refused: " + cause.getMessage());
+    }
+    // back off when aborts follow each other without a commit in between, so a persistent problem does not spin
+    consecutiveAborts++;
+    if (consecutiveAborts > 1) sleep(Math.min(BACKOFF_MS, 50L << Math.min(consecutiveAborts, 6)));
+  }
+
+  private static boolean groupMembershipProblem(Throwable e) {
+    for (Throwable t = e; t != null; t = t.getCause()) {
+      if (t instanceof org.apache.kafka.clients.consumer.CommitFailedException || t instanceof org.apache.kafka.common.errors.RebalanceInProgressException
+          || t instanceof org.apache.kafka.common.errors.IllegalGenerationException || t instanceof org.apache.kafka.common.errors.UnknownMemberIdException) {
+        return true;
+      }
+      if (t.getCause() == t) break;
+    }
+    return false;
   }
 
   private void resetSlot(Slot s) {
     consumer.seek(s.tp, s.committedNext);
-    s.proc = factory.create(s.tp);
-    s.proc.restore(s.committedCheckpoint == null ? null : s.committedCheckpoint.clone());
+    try {
+      s.proc = factory.create(s.tp);
+      s.proc.restore(s.committedCheckpoint == null ? null : s.committedCheckpoint.clone());
+    } catch (RuntimeException e) {
+      throw new FatalException("the processor of " + s.tp + " could not be created or restored from its checkpoint ("
+          + (s.committedCheckpoint == null ? "none" : s.committedCheckpoint.length + " bytes") + ", resuming at offset " + s.committedNext
+          + "): " + e, e);
+    }
     s.next = s.committedNext;
     s.touched = false;
   }

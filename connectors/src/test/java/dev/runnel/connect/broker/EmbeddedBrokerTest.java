@@ -69,9 +69,7 @@ class EmbeddedBrokerTest {
     mf.getMainAttributes().put(java.util.jar.Attributes.Name.MANIFEST_VERSION, "1.0");
     mf.getMainAttributes().put(java.util.jar.Attributes.Name.CLASS_PATH, cp.toString().trim());
     java.nio.file.Path jar = dir.resolve("only-manifest.jar");
-    try (java.util.jar.JarOutputStream out = new java.util.jar.JarOutputStream(java.nio.file.Files.newOutputStream(jar), mf)) {
-      // nothing but the manifest
-    }
+    new java.util.jar.JarOutputStream(java.nio.file.Files.newOutputStream(jar), mf).close(); // nothing but the manifest
     String expanded = EmbeddedBroker.childClasspath(jar.toString());
     assertTrue(expanded.startsWith(jar.toString()), expanded);
     assertTrue(expanded.contains("kafka_2.13-"), "kafka_2.13 reached through the manifest: " + expanded);
@@ -81,5 +79,35 @@ class EmbeddedBrokerTest {
     java.io.IOException e = org.junit.jupiter.api.Assertions.assertThrows(java.io.IOException.class,
         () -> EmbeddedBroker.childClasspath(java.nio.file.Paths.get("target", "classes").toAbsolutePath().toString()));
     assertTrue(e.getMessage().contains("kafka_2.13"), e.getMessage());
+  }
+
+  @Test void aRequestedPortInUseIsReportedBeforeLaunching() throws Exception {
+    java.nio.file.Path dir = java.nio.file.Paths.get("target", "embedded-kafka", "port-in-use").toAbsolutePath();
+    try (java.net.ServerSocket taken = new java.net.ServerSocket(0, 50, java.net.InetAddress.getByName("127.0.0.1"))) {
+      EmbeddedBroker b = new EmbeddedBroker(dir, taken.getLocalPort(), 0, Map.of(), java.time.Duration.ofSeconds(60), "256m");
+      java.io.IOException e = org.junit.jupiter.api.Assertions.assertThrows(java.io.IOException.class, b::start);
+      assertTrue(e.getMessage().contains("port " + taken.getLocalPort()) && e.getMessage().contains("in use"), e.getMessage());
+      assertTrue(!b.isRunning());
+    }
+  }
+
+  /** The child fails to bind (the listener is overridden to a taken port): the error names broker.log and quotes it. */
+  @Test void aBrokerThatCannotStartPointsToItsLog() throws Exception {
+    java.nio.file.Path dir = java.nio.file.Paths.get("target", "embedded-kafka", "port-taken").toAbsolutePath();
+    dev.runnel.connect.testing.EmbeddedKafkaExtension.deleteTree(dir);
+    int cport;
+    try (java.net.ServerSocket free = new java.net.ServerSocket(0, 50, java.net.InetAddress.getByName("127.0.0.1"))) {
+      cport = free.getLocalPort();
+    }
+    try (java.net.ServerSocket taken = new java.net.ServerSocket(0, 50, java.net.InetAddress.getByName("127.0.0.1"))) {
+      EmbeddedBroker b = new EmbeddedBroker(dir, 0, cport,
+          Map.of("listeners", "PLAINTEXT://127.0.0.1:" + taken.getLocalPort() + ",CONTROLLER://127.0.0.1:" + cport,
+              "advertised.listeners", "PLAINTEXT://127.0.0.1:" + taken.getLocalPort()),
+          java.time.Duration.ofSeconds(60), "256m");
+      java.io.IOException e = org.junit.jupiter.api.Assertions.assertThrows(java.io.IOException.class, b::start);
+      assertTrue(e.getMessage().contains("broker.log") && e.getMessage().contains("Last lines"), e.getMessage());
+      assertTrue(e.getMessage().contains("Address already in use"), "the quoted log says why: " + e.getMessage());
+      assertTrue(!b.isRunning());
+    }
   }
 }

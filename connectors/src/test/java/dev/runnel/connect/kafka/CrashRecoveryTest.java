@@ -53,7 +53,8 @@ class CrashRecoveryTest {
     try (Admin admin = KafkaTestSupport.admin(bs)) {
       Process p = startRunner(bs, 0);
       for (int k = 0; k < 3; k++) {
-        final long threshold = killAt[k];
+        // each restarted runner must restore and commit some work of its own before it is killed again
+        final long threshold = k == 0 ? killAt[0] : Math.max(killAt[k], committedAtKill[k - 1] + 5_000);
         final Process running = p;
         KafkaTestSupport.await("committed offsets reaching " + threshold, Duration.ofSeconds(120), () -> {
           if (!running.isAlive()) throw new AssertionError("runner exited with " + running.exitValue() + "; see target/crash-runner-*.log");

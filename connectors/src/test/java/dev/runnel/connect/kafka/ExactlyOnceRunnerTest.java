@@ -65,6 +65,15 @@ class ExactlyOnceRunnerTest {
     assertEquals(0, c.aborts());
     assertEquals(20_000, check.predictions.get(0).size() + check.predictions.get(1).size());
     check.verify(bs, "e2e", topic);
+    try (Admin admin = KafkaTestSupport.admin(bs)) {
+      org.apache.kafka.common.config.ConfigResource state =
+          new org.apache.kafka.common.config.ConfigResource(org.apache.kafka.common.config.ConfigResource.Type.TOPIC, "e2e.state");
+      org.apache.kafka.clients.admin.Config cfg = admin.describeConfigs(List.of(state)).all().get(20, TimeUnit.SECONDS).get(state);
+      assertEquals("compact", cfg.get("cleanup.policy").value());
+      assertEquals(Integer.toString(16 * 1024 * 1024), cfg.get("max.message.bytes").value());
+      assertEquals(2, admin.describeTopics(List.of("e2e.predictions")).allTopicNames().get(20, TimeUnit.SECONDS)
+          .get("e2e.predictions").partitions().size(), "predictions have the input's partition count");
+    }
   }
 
   @Test void secondInstanceTakesOverPartitionsOfAClosedOneFromTheirCheckpoints(EmbeddedBroker broker) throws Exception {
@@ -128,5 +137,35 @@ class ExactlyOnceRunnerTest {
     IllegalArgumentException e = org.junit.jupiter.api.Assertions.assertThrows(IllegalArgumentException.class,
         () -> new ExactlyOnceRunner(s, new SumProcessorFactory()));
     assertTrue(e.getMessage().contains("isolation.level"), e.getMessage());
+  }
+
+  /** Two instances with the same instance id (a misconfiguration): exactly one stops with a message, the other finishes exactly once. */
+  @Test void twoInstancesWithTheSameIdEndWithOneStoppedWithAClearMessage(EmbeddedBroker broker) throws Exception {
+    String bs = broker.bootstrapServers();
+    String topic = "fence-in";
+    KafkaTestSupport.createTopic(bs, topic, 1);
+    ExactlyOnceCheck check = new ExactlyOnceCheck(ExactlyOnceCheck.input(59, 1, 30_000, 0));
+    KafkaTestSupport.produce(bs, topic, check.input);
+    RunnerSettings s = RunnerSettings.of("fence", topic, bs).withClientProperties(TEST_CLIENT_PROPS).withCommitInterval(100, 500)
+        .withInstanceId("same");
+    ExactlyOnceRunner first = new ExactlyOnceRunner(s, new SumProcessorFactory());
+    Thread t1 = start(first);
+    KafkaTestSupport.await("first instance processing", Duration.ofSeconds(60), () -> first.counters().recordsIn() >= 1000);
+    ExactlyOnceRunner second = new ExactlyOnceRunner(s, new SumProcessorFactory());
+    Thread t2 = start(second);
+    KafkaTestSupport.await("one instance stopping", Duration.ofSeconds(60), () -> first.failure() != null || second.failure() != null);
+    ExactlyOnceRunner stopped = first.failure() != null ? first : second;
+    ExactlyOnceRunner survivor = stopped == first ? second : first;
+    assertTrue(stopped.failure().contains("give every instance its own instance id"), stopped.failure());
+    try (Admin admin = KafkaTestSupport.admin(bs)) {
+      awaitCommitted(admin, s, check.total(), survivor);
+    }
+    survivor.close();
+    first.close();
+    second.close();
+    t1.join(30_000);
+    t2.join(30_000);
+    assertNull(survivor.failure());
+    check.verify(bs, "fence", topic);
   }
 }

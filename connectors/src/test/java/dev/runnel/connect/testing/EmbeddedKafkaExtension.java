@@ -32,7 +32,7 @@ public final class EmbeddedKafkaExtension implements ParameterResolver {
   }
 
   @Override public Object resolveParameter(ParameterContext pc, ExtensionContext ec) {
-    return ec.getRoot().getStore(NS).getOrComputeIfAbsent("broker", k -> startShared(), EmbeddedBroker.class);
+    return ec.getRoot().getStore(NS).computeIfAbsent("broker", k -> startShared(), EmbeddedBroker.class);
   }
 
   private static EmbeddedBroker startShared() {
