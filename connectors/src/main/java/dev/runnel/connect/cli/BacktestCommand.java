@@ -91,6 +91,10 @@ public final class BacktestCommand implements Callable<Integer> {
   @Option(names = "--quiet", description = "No progress line.")
   boolean quiet;
 
+  @Option(names = "--read-only", description = "Benchmark: read the source once without running any configuration, "
+      + "and print the reading rate (the ceiling a backtest can reach).")
+  boolean readOnly;
+
   @Override
   public Integer call() throws Exception {
     List<Backtest.Variant> variants = new ArrayList<>();
@@ -125,7 +129,7 @@ public final class BacktestCommand implements Callable<Integer> {
           throw new IllegalArgumentException("--start-*/--end-* apply to a topic source; " + source + " is a file");
         }
         FileSource fs = new FileSource(file);
-        n = ReplayDriver.run(bt, fs, (recs, done, total) -> progress.update(recs,
+        n = readOnly ? fs.read((b, o, l, ts, p, off) -> { }, null) : ReplayDriver.run(bt, fs, (recs, done, total) -> progress.update(recs,
             () -> String.format("%.0f%% of the file", 100.0 * done / Math.max(1, total))));
       } else {
         TopicRange range = new TopicRange(startOffset, instant("--start-time", startTime), endOffset,
@@ -138,7 +142,7 @@ public final class BacktestCommand implements Callable<Integer> {
         }
         run.put("bootstrap_servers", servers);
         try (TopicSource ts = new TopicSource(servers, first.kafka().clientProperties(), source, range)) {
-          n = ReplayDriver.run(bt, ts, (recs, done, all) -> progress.update(recs,
+          n = readOnly ? ts.read((b, o, l, t, p, off) -> { }, null) : ReplayDriver.run(bt, ts, (recs, done, all) -> progress.update(recs,
               () -> String.format("%.1f%% done  %s", 100.0 * done / Math.max(1, all), left(recs, all, t0))));
         }
         run.put("range", range.toString());
@@ -150,6 +154,10 @@ public final class BacktestCommand implements Callable<Integer> {
     }
     double secs = (System.nanoTime() - t0) / 1e9;
     progress.finish(n, String.format("%.1f s", secs));
+    if (readOnly) {
+      System.out.printf("read %,d records in %.2f s (%,.0f records/s), no configuration run%n", n, secs, n / Math.max(1e-9, secs));
+      return 0;
+    }
     BacktestResult r = bt.result();
     Files.createDirectories(out);
     JsonReport.write(r, run, out.resolve("backtest.json"));
