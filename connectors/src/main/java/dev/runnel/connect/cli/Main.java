@@ -14,6 +14,9 @@ import picocli.CommandLine.Command;
         DemoCommand.class,
         ReplayCommand.class,
         BrokerCommand.class,
+        BacktestCommand.class,
+        RecordCommand.class,
+        LoadCommand.class,
         CommandLine.HelpCommand.class
     })
 public final class Main implements Runnable {

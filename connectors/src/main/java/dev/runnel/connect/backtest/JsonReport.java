@@ -1,0 +1,185 @@
+package dev.runnel.connect.backtest;
+
+import com.fasterxml.jackson.core.JsonEncoding;
+import com.fasterxml.jackson.core.JsonGenerator;
+import dev.runnel.core.evaluate.BacktestResult;
+import dev.runnel.core.evaluate.DieboldMariano;
+import dev.runnel.core.evaluate.Metrics;
+import java.io.IOException;
+import java.nio.file.Path;
+import java.util.List;
+import java.util.Map;
+import java.util.TreeMap;
+
+/**
+ * The backtest report as one JSON document (layout in docs/backtesting.md). Non-finite numbers
+ * are written as null.
+ */
+public final class JsonReport {
+
+  /** Version of the document's layout. */
+  public static final int FORMAT_VERSION = 1;
+
+  private JsonReport() { }
+
+  /** Writes the report to {@code file}. */
+  public static void write(BacktestResult r, Map<String, Object> run, Path file) throws IOException {
+    try (JsonGenerator g = Recording.JSON.createGenerator(file.toFile(), JsonEncoding.UTF8)) {
+      g.useDefaultPrettyPrinter();
+      g.writeStartObject();
+      g.writeNumberField("format_version", FORMAT_VERSION);
+      g.writeObjectFieldStart("run");
+      for (Map.Entry<String, Object> e : run.entrySet()) {
+        g.writeFieldName(e.getKey());
+        Object v = e.getValue();
+        if (v instanceof Number n) {
+          g.writeNumber(n.toString());
+        } else if (v instanceof List<?> l) {
+          g.writeStartArray();
+          for (Object o : l) {
+            g.writeString(String.valueOf(o));
+          }
+          g.writeEndArray();
+        } else {
+          g.writeString(String.valueOf(v));
+        }
+      }
+      g.writeEndObject();
+      g.writeNumberField("records", r.records());
+      g.writeNumberField("partitions", r.partitions());
+      if (r.segmentField() != null) {
+        g.writeStringField("segment_field", r.segmentField());
+      }
+      g.writeNumberField("period_ms", r.periodMillis());
+      g.writeNumberField("alpha", r.alpha());
+      g.writeArrayFieldStart("ranking_by_rmse");
+      for (BacktestResult.VariantResult v : TextReport.ranking(r)) {
+        g.writeString(v.label());
+      }
+      g.writeEndArray();
+      g.writeArrayFieldStart("configurations");
+      for (BacktestResult.VariantResult v : r.variants()) {
+        g.writeStartObject();
+        g.writeStringField("label", v.label());
+        g.writeStringField("pipeline", v.pipelineName());
+        g.writeNumberField("records", v.records());
+        g.writeNumberField("scored", v.scored());
+        g.writeNumberField("forecasts", v.forecasts());
+        g.writeNumberField("warming_up", v.warmingUp());
+        g.writeNumberField("rejected", v.rejected());
+        g.writeObjectFieldStart("rejects_by_reason");
+        for (Map.Entry<String, Long> e : new TreeMap<>(v.rejectsByReason()).entrySet()) {
+          g.writeNumberField(e.getKey(), e.getValue());
+        }
+        g.writeEndObject();
+        g.writeFieldName("overall");
+        metrics(g, v.overall());
+        g.writeArrayFieldStart("segments");
+        for (BacktestResult.Segment s : v.segments()) {
+          g.writeStartObject();
+          g.writeStringField("level", s.level());
+          metricFields(g, s.metrics());
+          g.writeEndObject();
+        }
+        g.writeEndArray();
+        g.writeArrayFieldStart("by_hour");
+        for (int h = 0; h < v.byHour().size(); h++) {
+          g.writeStartObject();
+          g.writeNumberField("hour", h);
+          metricFields(g, v.byHour().get(h));
+          g.writeEndObject();
+        }
+        g.writeEndArray();
+        g.writeArrayFieldStart("over_time");
+        for (BacktestResult.Bucket b : v.overTime()) {
+          g.writeStartObject();
+          g.writeStringField("start_local", b.start());
+          metricFields(g, b.metrics());
+          g.writeEndObject();
+        }
+        g.writeEndArray();
+        g.writeArrayFieldStart("coefficient_paths");
+        for (BacktestResult.WeightPath p : v.paths()) {
+          g.writeStartObject();
+          g.writeStringField("column", p.column());
+          g.writeNumberField("partition", p.partition());
+          g.writeArrayFieldStart("points");
+          for (BacktestResult.PathPoint pt : p.points()) {
+            g.writeStartArray();
+            g.writeNumber(pt.eventTimeMillis());
+            num(g, pt.weight());
+            num(g, pt.standardError());
+            g.writeEndArray();
+          }
+          g.writeEndArray();
+          g.writeEndObject();
+        }
+        g.writeEndArray();
+        g.writeEndObject();
+      }
+      g.writeEndArray();
+      g.writeArrayFieldStart("comparisons");
+      for (BacktestResult.Comparison c : r.comparisons()) {
+        g.writeStartObject();
+        g.writeStringField("a", c.a());
+        g.writeStringField("b", c.b());
+        g.writeNumberField("n", c.n());
+        test(g, "squared", c.squared(), c.squaredVerdict());
+        test(g, "absolute", c.absolute(), c.absoluteVerdict());
+        g.writeEndObject();
+      }
+      g.writeEndArray();
+      g.writeEndObject();
+    }
+  }
+
+  private static void test(JsonGenerator g, String name, DieboldMariano.Result t, String verdict) throws IOException {
+    g.writeObjectFieldStart(name);
+    g.writeNumberField("lag", t.lag());
+    g.writeNumberField("horizon", t.horizon());
+    g.writeFieldName("mean_loss_a");
+    num(g, t.meanLossA());
+    g.writeFieldName("mean_loss_b");
+    num(g, t.meanLossB());
+    g.writeFieldName("mean_difference");
+    num(g, t.meanDifference());
+    g.writeFieldName("long_run_variance");
+    num(g, t.longRunVariance());
+    g.writeFieldName("dm");
+    num(g, t.statistic());
+    g.writeFieldName("p_normal");
+    num(g, t.pValue());
+    g.writeFieldName("dm_corrected");
+    num(g, t.correctedStatistic());
+    g.writeFieldName("p");
+    num(g, t.correctedPValue());
+    g.writeStringField("verdict", verdict);
+    g.writeEndObject();
+  }
+
+  private static void metrics(JsonGenerator g, Metrics m) throws IOException {
+    g.writeStartObject();
+    metricFields(g, m);
+    g.writeEndObject();
+  }
+
+  private static void metricFields(JsonGenerator g, Metrics m) throws IOException {
+    g.writeNumberField("count", m.count());
+    g.writeFieldName("mae");
+    num(g, m.mae());
+    g.writeFieldName("rmse");
+    num(g, m.rmse());
+    g.writeFieldName("bias");
+    num(g, m.bias());
+    g.writeFieldName("coverage");
+    num(g, m.coverage());
+  }
+
+  private static void num(JsonGenerator g, double x) throws IOException {
+    if (Double.isFinite(x)) {
+      g.writeNumber(x);
+    } else {
+      g.writeNull();
+    }
+  }
+}

@@ -1,0 +1,119 @@
+package dev.runnel.connect.backtest;
+
+import dev.runnel.connect.file.JsonLinesReader;
+import java.io.IOException;
+import java.nio.file.Files;
+import java.nio.file.Path;
+import java.util.Arrays;
+import java.util.List;
+import java.util.Map;
+import java.util.Properties;
+import java.util.concurrent.ExecutionException;
+import java.util.concurrent.TimeUnit;
+import java.util.concurrent.atomic.AtomicReference;
+import org.apache.kafka.clients.admin.Admin;
+import org.apache.kafka.clients.admin.AdminClientConfig;
+import org.apache.kafka.clients.admin.NewTopic;
+import org.apache.kafka.clients.admin.TopicDescription;
+import org.apache.kafka.clients.producer.KafkaProducer;
+import org.apache.kafka.clients.producer.ProducerConfig;
+import org.apache.kafka.clients.producer.ProducerRecord;
+import org.apache.kafka.common.errors.UnknownTopicOrPartitionException;
+import org.apache.kafka.common.serialization.ByteArraySerializer;
+
+/**
+ * Publishes a JSON Lines file to a topic. A recording keeps each record's partition, key and
+ * timestamp (the topic must have at least as many partitions); a plain file is published one line
+ * per record, without key, with the producer's timestamps.
+ */
+public final class Loader {
+
+  private Loader() { }
+
+  /**
+   * @param file the file (plain or a recording)
+   * @param bootstrap bootstrap servers
+   * @param topic the topic; created when missing
+   * @param partitionsForPlain partitions of a new topic for a plain file, ≥ 1
+   * @return records published
+   * @throws IllegalArgumentException if the file is missing or empty, or the topic has too few partitions
+   */
+  public static long load(Path file, String bootstrap, String topic, int partitionsForPlain) throws Exception {
+    if (partitionsForPlain < 1) {
+      throw new IllegalArgumentException("--partitions must be at least 1, got " + partitionsForPlain);
+    }
+    FileSource src = new FileSource(file);
+    int[] maxPartition = {-1};
+    boolean[] recorded = {false};
+    JsonLinesReader.read(file, new JsonLinesReader.LineHandler() {
+      boolean first = true;
+      final Recording.Line line = new Recording.Line();
+
+      @Override
+      public void line(byte[] buf, int off, int len, long n) {
+        if (first) {
+          first = false;
+          recorded[0] = Recording.isHeader(buf, off, len);
+          if (recorded[0]) {
+            return;
+          }
+        }
+        if (recorded[0]) {
+          line.parse(buf, off, len, n);
+          maxPartition[0] = Math.max(maxPartition[0], line.partition);
+        }
+      }
+    });
+    int need = recorded[0] ? maxPartition[0] + 1 : partitionsForPlain;
+    ensureTopic(bootstrap, topic, Math.max(1, need));
+    Properties p = new Properties();
+    p.put(ProducerConfig.BOOTSTRAP_SERVERS_CONFIG, bootstrap);
+    p.put(ProducerConfig.ACKS_CONFIG, "all");
+    p.put(ProducerConfig.ENABLE_IDEMPOTENCE_CONFIG, "true");
+    p.put(ProducerConfig.LINGER_MS_CONFIG, "20");
+    p.put(ProducerConfig.BATCH_SIZE_CONFIG, String.valueOf(256 * 1024));
+    p.put(ProducerConfig.COMPRESSION_TYPE_CONFIG, "lz4");
+    AtomicReference<Exception> failure = new AtomicReference<>();
+    long n;
+    try (KafkaProducer<byte[], byte[]> producer = new KafkaProducer<>(p, new ByteArraySerializer(), new ByteArraySerializer())) {
+      n = src.read(new RecordHandler() {
+        @Override
+        public void record(byte[] buf, int off, int len, long ts, int partition, long offset) {
+          byte[] value = Arrays.copyOfRange(buf, off, off + len);
+          ProducerRecord<byte[], byte[]> r = recorded[0]
+              ? new ProducerRecord<>(topic, partition, ts, null, value)
+              : new ProducerRecord<>(topic, value);
+          producer.send(r, (md, e) -> {
+            if (e != null) {
+              failure.compareAndSet(null, e);
+            }
+          });
+        }
+      }, null);
+      producer.flush();
+    }
+    if (failure.get() != null) {
+      throw new IllegalStateException("publishing to " + topic + " failed: " + failure.get().getMessage(), failure.get());
+    }
+    return n;
+  }
+
+  private static void ensureTopic(String bootstrap, String topic, int partitions) throws Exception {
+    try (Admin admin = Admin.create(Map.of(AdminClientConfig.BOOTSTRAP_SERVERS_CONFIG, bootstrap,
+        AdminClientConfig.DEFAULT_API_TIMEOUT_MS_CONFIG, 30_000))) {
+      try {
+        TopicDescription d = admin.describeTopics(List.of(topic)).allTopicNames().get(30, TimeUnit.SECONDS).get(topic);
+        if (d.partitions().size() < partitions) {
+          throw new IllegalArgumentException("--topic " + topic + " has " + d.partitions().size()
+              + " partitions but the recording needs " + partitions + "; load it into a new topic");
+        }
+      } catch (ExecutionException e) {
+        if (!(e.getCause() instanceof UnknownTopicOrPartitionException)) {
+          throw e;
+        }
+        admin.createTopics(List.of(new NewTopic(topic, partitions, (short) 1))).all().get(30, TimeUnit.SECONDS);
+      }
+    }
+  }
+
+}

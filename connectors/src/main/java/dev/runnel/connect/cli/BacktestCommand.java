@@ -1,0 +1,196 @@
+package dev.runnel.connect.cli;
+
+import dev.runnel.connect.backtest.FileSource;
+import dev.runnel.connect.backtest.HtmlReport;
+import dev.runnel.connect.backtest.JsonReport;
+import dev.runnel.connect.backtest.ReplayDriver;
+import dev.runnel.connect.backtest.TextReport;
+import dev.runnel.connect.backtest.TopicRange;
+import dev.runnel.connect.backtest.TopicSource;
+import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.core.config.ConfigLoader;
+import dev.runnel.core.config.PipelineConfig;
+import dev.runnel.core.evaluate.Backtest;
+import dev.runnel.core.evaluate.BacktestResult;
+import java.nio.file.Files;
+import java.nio.file.Path;
+import java.time.Duration;
+import java.time.Instant;
+import java.time.OffsetDateTime;
+import java.time.format.DateTimeParseException;
+import java.util.ArrayList;
+import java.util.LinkedHashMap;
+import java.util.List;
+import java.util.Map;
+import java.util.concurrent.Callable;
+import picocli.CommandLine.Command;
+import picocli.CommandLine.Option;
+
+/** Replays a recorded topic or a JSON Lines file through several configurations side by side. */
+@Command(name = "backtest", mixinStandardHelpOptions = true,
+    description = {"Replay a recorded topic (all partitions, over a range) or a JSON Lines file through every "
+        + "configuration in one pass, with the same code that runs live, and compare their prequential errors.",
+        "Uses its own consumer without a group and commits nothing: a live pipeline is never disturbed.",
+        "Writes a table to the terminal, backtest.json and backtest.html (self-contained, SVG plots) to --out."})
+public final class BacktestCommand implements Callable<Integer> {
+
+  @Option(names = "--source", required = true, paramLabel = "TOPIC|FILE",
+      description = "A topic name, or a JSON Lines file (plain, or a recording made by `runnel record`).")
+  String source;
+
+  @Option(names = "--config", required = true, paramLabel = "FILE",
+      description = "A pipeline configuration (YAML); repeat for each configuration to compare. Labels are the file names.")
+  List<Path> configs;
+
+  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT",
+      description = "Kafka cluster for a topic source (default: kafka.bootstrap_servers of the first configuration, "
+          + "else the embedded broker with its data folder).")
+  String bootstrap;
+
+  @Option(names = "--data-dir", paramLabel = "DIR", description = "Data folder of the embedded broker (overrides kafka.embedded.data_dir).")
+  Path dataDir;
+
+  @Option(names = "--start-offset", paramLabel = "N", description = "First offset to read in every partition.")
+  Long startOffset;
+
+  @Option(names = "--start-time", paramLabel = "ISO", description = "First Kafka timestamp to read, ISO 8601 with offset, e.g. 2026-02-01T00:00Z.")
+  String startTime;
+
+  @Option(names = "--end-offset", paramLabel = "N", description = "Stop before this offset in every partition (default: the end of the topic).")
+  Long endOffset;
+
+  @Option(names = "--end-time", paramLabel = "ISO", description = "Stop before this Kafka timestamp.")
+  String endTime;
+
+  @Option(names = "--segment-by", paramLabel = "FIELD", description = "A text field: metrics per level (e.g. hub).")
+  String segmentBy;
+
+  @Option(names = "--period", paramLabel = "DURATION", defaultValue = "P1D",
+      description = "Length of the over-time buckets, ISO 8601 duration (default: ${DEFAULT-VALUE}).")
+  String period;
+
+  @Option(names = "--weights", paramLabel = "COLUMN", split = ",",
+      description = "Columns whose coefficient paths to plot, e.g. price_per_kwh,temperature_c.")
+  List<String> weights = new ArrayList<>();
+
+  @Option(names = "--dm-lag", paramLabel = "L", defaultValue = "-1",
+      description = "HAC lag of the Diebold–Mariano test; -1 = floor(4(n/100)^(2/9)) (default: ${DEFAULT-VALUE}).")
+  int lag;
+
+  @Option(names = "--horizon", paramLabel = "H", defaultValue = "1",
+      description = "Forecast horizon h for the test's correction (default: ${DEFAULT-VALUE}: one-step prequential errors).")
+  int horizon;
+
+  @Option(names = "--alpha", paramLabel = "A", defaultValue = "0.05", description = "Significance level of the verdicts (default: ${DEFAULT-VALUE}).")
+  double alpha;
+
+  @Option(names = "--out", paramLabel = "DIR", defaultValue = "target/backtest",
+      description = "Folder for backtest.json and backtest.html (default: ${DEFAULT-VALUE}).")
+  Path out;
+
+  @Option(names = "--quiet", description = "No progress line.")
+  boolean quiet;
+
+  @Option(names = "--read-only", description = "Benchmark: read the source once without running any configuration, "
+      + "and print the reading rate (the ceiling a backtest can reach).")
+  boolean readOnly;
+
+  @Override
+  public Integer call() throws Exception {
+    List<Backtest.Variant> variants = new ArrayList<>();
+    for (Path c : configs) {
+      PipelineConfig cfg = ConfigLoader.load(c);
+      String label = c.getFileName().toString().replaceFirst("\\.ya?ml$", "");
+      variants.add(new Backtest.Variant(label, cfg));
+    }
+    long periodMillis;
+    try {
+      periodMillis = Duration.parse(period).toMillis();
+    } catch (DateTimeParseException e) {
+      throw new IllegalArgumentException("--period " + period + ": not an ISO 8601 duration; use e.g. P1D or PT6H");
+    }
+    Backtest bt = new Backtest(variants, new Backtest.Options(segmentBy, periodMillis, weights, lag, horizon, alpha));
+    Path file = Path.of(source);
+    boolean isFile = Files.exists(file) || source.endsWith(".jsonl") || source.endsWith(".json");
+    Progress progress = new Progress(System.err, "records", 0, quiet);
+    long t0 = System.nanoTime();
+    Map<String, Object> run = new LinkedHashMap<>();
+    run.put("source", source);
+    List<String> names = new ArrayList<>();
+    for (Path c : configs) {
+      names.add(c.toString());
+    }
+    run.put("configurations", names);
+    EmbeddedBroker broker = null;
+    long n;
+    try {
+      if (isFile) {
+        if (startOffset != null || startTime != null || endOffset != null || endTime != null) {
+          throw new IllegalArgumentException("--start-*/--end-* apply to a topic source; " + source + " is a file");
+        }
+        FileSource fs = new FileSource(file);
+        n = readOnly ? fs.read((b, o, l, ts, p, off) -> { }, null) : ReplayDriver.run(bt, fs, (recs, done, total) -> progress.update(recs,
+            () -> String.format("%.0f%% of the file", 100.0 * done / Math.max(1, total))));
+      } else {
+        TopicRange range = new TopicRange(startOffset, instant("--start-time", startTime), endOffset,
+            instant("--end-time", endTime));
+        PipelineConfig first = variants.get(0).config();
+        String servers = bootstrap;
+        if (servers == null || servers.isBlank()) {
+          broker = Launch.brokerIfNeeded(first, dataDir, System.err);
+          servers = broker != null ? broker.bootstrapServers() : first.kafka().bootstrapServers();
+        }
+        run.put("bootstrap_servers", servers);
+        try (TopicSource ts = new TopicSource(servers, first.kafka().clientProperties(), source, range)) {
+          n = readOnly ? ts.read((b, o, l, t, p, off) -> { }, null) : ReplayDriver.run(bt, ts, (recs, done, all) -> progress.update(recs,
+              () -> String.format("%.1f%% done  %s", 100.0 * done / Math.max(1, all), left(recs, all, t0))));
+        }
+        run.put("range", range.toString());
+      }
+    } finally {
+      if (broker != null) {
+        broker.stop();
+      }
+    }
+    double secs = (System.nanoTime() - t0) / 1e9;
+    progress.finish(n, String.format("%.1f s", secs));
+    if (readOnly) {
+      System.out.printf("read %,d records in %.2f s (%,.0f records/s), no configuration run%n", n, secs, n / Math.max(1e-9, secs));
+      return 0;
+    }
+    BacktestResult r = bt.result();
+    Files.createDirectories(out);
+    JsonReport.write(r, run, out.resolve("backtest.json"));
+    HtmlReport.write(r, run, out.resolve("backtest.html"));
+    System.out.print(TextReport.render(r));
+    System.out.printf("%nreplayed %,d records through %d configuration(s) in %.1f s (%,.0f records/s)%n", n,
+        variants.size(), secs, n / Math.max(1e-9, secs));
+    System.out.printf("report: %s and %s%n", out.resolve("backtest.json").toAbsolutePath(),
+        out.resolve("backtest.html").toAbsolutePath());
+    return 0;
+  }
+
+  private static String left(long done, long total, long t0) {
+    double secs = (System.nanoTime() - t0) / 1e9;
+    if (done == 0 || secs <= 0) {
+      return "";
+    }
+    long left = (long) ((total - done) / (done / secs));
+    return String.format("%d:%02d left", left / 60, left % 60);
+  }
+
+  static Instant instant(String option, String text) {
+    if (text == null) {
+      return null;
+    }
+    try {
+      return OffsetDateTime.parse(text).toInstant();
+    } catch (DateTimeParseException e) {
+      try {
+        return Instant.parse(text);
+      } catch (DateTimeParseException e2) {
+        throw new IllegalArgumentException(option + " " + text + ": not an ISO 8601 time with offset; use e.g. 2026-02-01T00:00Z");
+      }
+    }
+  }
+}

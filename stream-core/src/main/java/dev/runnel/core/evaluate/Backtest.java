@@ -1,0 +1,494 @@
+package dev.runnel.core.evaluate;
+
+import dev.runnel.core.config.PipelineConfig;
+import dev.runnel.core.feature.LocalCalendar;
+import dev.runnel.core.pipeline.PipelineStep;
+import dev.runnel.core.pipeline.Prediction;
+import dev.runnel.core.pipeline.Snapshot;
+import dev.runnel.core.record.EventRecord;
+import dev.runnel.core.record.FieldType;
+import dev.runnel.core.record.RejectReason;
+import java.time.LocalDateTime;
+import java.time.ZoneOffset;
+import java.util.ArrayList;
+import java.util.Arrays;
+import java.util.HashMap;
+import java.util.LinkedHashMap;
+import java.util.List;
+import java.util.Map;
+import java.util.TreeMap;
+
+/**
+ * Replays one stream through several configurations in one pass: every record is handed, as the
+ * same bytes, to one {@link PipelineStep} per (configuration, partition) — the code that runs
+ * live — and each step's a priori errors are logged for the report ({@link #result()}).
+ *
+ * <p>Determinism: each partition's records reach its steps in offset order, and the report reads
+ * the logs partition by partition in ascending order, so the result does not depend on how a
+ * source interleaves partitions: a topic and a recording of it give the same bits.
+ *
+ * <p>Threads: {@link #accept} runs every variant on the calling thread. A caller may instead give
+ * each variant its own thread and call {@link #acceptFor} with that variant's index only; variants
+ * share no mutable state. {@link #result()} must be called after all work has finished.
+ */
+public final class Backtest {
+
+  /**
+   * One configuration under test.
+   *
+   * @param label short unique name shown in the report (e.g. the file name)
+   * @param config the checked configuration
+   */
+  public record Variant(String label, PipelineConfig config) {
+    public Variant {
+      if (label == null || label.isBlank()) {
+        throw new IllegalArgumentException("a variant label must not be blank");
+      }
+    }
+  }
+
+  /**
+   * What the report computes besides the overall metrics.
+   *
+   * @param segmentField a text field whose levels give segments, or null for none
+   * @param periodMillis length of the over-time buckets in local time (e.g. one day); positive
+   * @param weights column names whose coefficient paths are kept (e.g. {@code price_per_kwh})
+   * @param lag HAC lag for the Diebold–Mariano test, or -1 for {@link DieboldMariano#defaultLag}
+   * @param horizon forecast horizon h for the test (1 for prequential one-step errors)
+   * @param alpha significance level of the verdicts, in (0, 1)
+   */
+  public record Options(String segmentField, long periodMillis, List<String> weights, int lag, int horizon,
+                        double alpha) {
+    public Options {
+      weights = List.copyOf(weights);
+      if (periodMillis <= 0) {
+        throw new IllegalArgumentException("--period must be positive, got " + periodMillis + " ms");
+      }
+      if (lag < -1) {
+        throw new IllegalArgumentException("--dm-lag must be -1 (automatic) or at least 0, got " + lag);
+      }
+      if (horizon < 1) {
+        throw new IllegalArgumentException("--horizon must be at least 1, got " + horizon);
+      }
+      if (!(alpha > 0 && alpha < 1)) {
+        throw new IllegalArgumentException("--alpha must be in (0, 1), got " + alpha);
+      }
+    }
+
+    /** No segments, daily buckets, no paths, automatic lag, one-step, 5% level. */
+    public static Options defaults() {
+      return new Options(null, 86_400_000L, List.of(), -1, 1, 0.05);
+    }
+  }
+
+  private final List<Variant> variants;
+  private final Options options;
+  private final VariantState[] states;
+  private long records;
+
+  /**
+   * @param variants the configurations, at least one; labels unique. Not modified.
+   * @param options report options
+   * @throws IllegalArgumentException if there is no variant, a label repeats, or the segment
+   *     field is not a text field of every configuration
+   */
+  public Backtest(List<Variant> variants, Options options) {
+    if (variants.isEmpty()) {
+      throw new IllegalArgumentException("--config: give at least one configuration (two or more to compare)");
+    }
+    this.variants = List.copyOf(variants);
+    this.options = options;
+    this.states = new VariantState[variants.size()];
+    for (int i = 0; i < states.length; i++) {
+      Variant v = variants.get(i);
+      for (int j = 0; j < i; j++) {
+        if (variants.get(j).label().equals(v.label())) {
+          throw new IllegalArgumentException("two configurations share the label " + v.label()
+              + "; give the files different names");
+        }
+      }
+      int slot = -1;
+      if (options.segmentField() != null) {
+        var schema = v.config().input().schema();
+        slot = schema.slot(options.segmentField());
+        if (slot < 0 || schema.type(slot) != FieldType.TEXT) {
+          throw new IllegalArgumentException("--segment-by " + options.segmentField() + ": not a text field of "
+              + v.label() + " (its fields: " + schema.fields() + "); name a categorical (text) input field");
+        }
+      }
+      states[i] = new VariantState(v, slot, options.weights());
+    }
+  }
+
+  /** The variants, in the order given. */
+  public List<Variant> variants() {
+    return variants;
+  }
+
+  /**
+   * Hands one record to every variant.
+   *
+   * @param buf the record's bytes (the Kafka value or one JSON line). Not modified.
+   * @param off start in {@code buf}
+   * @param len length
+   * @param fallbackTimeMillis event time for configurations without a time field (the Kafka timestamp)
+   * @param partition source partition, ≥ 0 (0 for a plain file)
+   * @param offset source offset or line number
+   * @throws IllegalArgumentException if {@code partition} is negative
+   */
+  public void accept(byte[] buf, int off, int len, long fallbackTimeMillis, int partition, long offset) {
+    records++;
+    for (int v = 0; v < states.length; v++) {
+      states[v].accept(buf, off, len, fallbackTimeMillis, partition, offset);
+    }
+  }
+
+  /**
+   * Hands one record to one variant only (for callers that run each variant on its own thread;
+   * every variant must then see every record). Does not count {@link #records()}.
+   */
+  public void acceptFor(int variant, byte[] buf, int off, int len, long fallbackTimeMillis, int partition, long offset) {
+    states[variant].accept(buf, off, len, fallbackTimeMillis, partition, offset);
+  }
+
+  /** Records handed to {@link #accept} (or counted by {@link #countRecords}). */
+  public long records() {
+    return records;
+  }
+
+  /** Adds to {@link #records()} for callers that use {@link #acceptFor}. */
+  public void countRecords(long n) {
+    records += n;
+  }
+
+  /** Records seen so far by one variant. */
+  public long recordsOf(int variant) {
+    return states[variant].records;
+  }
+
+  /** Builds the report: metrics, segments, buckets, paths, pairwise tests. Allocates. */
+  public BacktestResult result() {
+    List<BacktestResult.VariantResult> vrs = new ArrayList<>();
+    for (VariantState s : states) {
+      vrs.add(s.result(options));
+    }
+    List<BacktestResult.Comparison> cs = new ArrayList<>();
+    for (int i = 0; i < states.length; i++) {
+      for (int j = i + 1; j < states.length; j++) {
+        cs.add(compare(states[i], states[j]));
+      }
+    }
+    int partitions = 0;
+    for (VariantState s : states) {
+      partitions = Math.max(partitions, s.partitionCount());
+    }
+    return new BacktestResult(records, partitions, options.segmentField(), options.periodMillis(),
+        options.alpha(), vrs, cs);
+  }
+
+  private BacktestResult.Comparison compare(VariantState a, VariantState b) {
+    int n = 0;
+    int maxPartitions = Math.max(a.lanes.length, b.lanes.length);
+    long total = 0;
+    for (int p = 0; p < maxPartitions; p++) {
+      Lane la = a.lane(p);
+      Lane lb = b.lane(p);
+      if (la != null && lb != null) {
+        total += Math.min(la.size, lb.size);
+      }
+    }
+    double[] ea = new double[(int) Math.min(Integer.MAX_VALUE - 8, total)];
+    double[] eb = new double[ea.length];
+    for (int p = 0; p < maxPartitions; p++) {
+      Lane la = a.lane(p);
+      Lane lb = b.lane(p);
+      if (la == null || lb == null) {
+        continue;
+      }
+      int m = Math.min(la.size, lb.size);
+      for (int k = 0; k < m; k++) {
+        double x = la.errors[k];
+        double y = lb.errors[k];
+        if (!Double.isNaN(x) && !Double.isNaN(y)) {
+          ea[n] = x;
+          eb[n] = y;
+          n++;
+        }
+      }
+    }
+    int lag = options.lag() >= 0 ? options.lag() : DieboldMariano.defaultLag(n, options.horizon());
+    DieboldMariano.Result sq = DieboldMariano.test(ea, eb, n, Loss.SQUARED, lag, options.horizon());
+    DieboldMariano.Result ab = DieboldMariano.test(ea, eb, n, Loss.ABSOLUTE, lag, options.horizon());
+    String la = a.variant.label();
+    String lb = b.variant.label();
+    return new BacktestResult.Comparison(la, lb, n, sq, ab,
+        sq.verdict(la, lb, options.alpha()), ab.verdict(la, lb, options.alpha()));
+  }
+
+  // ------------------------------------------------------------------ per variant
+
+  /** One variant: its steps and logs, one lane per partition. One writer thread. */
+  private static final class VariantState {
+    final Variant variant;
+    final int segmentSlot;
+    final List<String> weightNames;
+    Lane[] lanes = new Lane[1];
+    long records;
+    final Map<String, Integer> levelIds = new HashMap<>();
+    final List<String> levels = new ArrayList<>();
+
+    VariantState(Variant variant, int segmentSlot, List<String> weightNames) {
+      this.variant = variant;
+      this.segmentSlot = segmentSlot;
+      this.weightNames = weightNames;
+    }
+
+    Lane lane(int p) {
+      return p < lanes.length ? lanes[p] : null;
+    }
+
+    int partitionCount() {
+      int c = 0;
+      for (Lane l : lanes) {
+        if (l != null) {
+          c++;
+        }
+      }
+      return c;
+    }
+
+    void accept(byte[] buf, int off, int len, long fallback, int partition, long offset) {
+      if (partition < 0) {
+        throw new IllegalArgumentException("partition must not be negative, got " + partition);
+      }
+      if (partition >= lanes.length) {
+        lanes = Arrays.copyOf(lanes, Math.max(partition + 1, lanes.length * 2));
+      }
+      Lane lane = lanes[partition];
+      if (lane == null) {
+        lane = new Lane(this, partition);
+        lanes[partition] = lane;
+      }
+      records++;
+      lane.process(buf, off, len, fallback, offset);
+    }
+
+    int levelId(String level) {
+      Integer id = levelIds.get(level);
+      if (id == null) {
+        id = levels.size();
+        levels.add(level);
+        levelIds.put(level, id);
+      }
+      return id;
+    }
+
+    BacktestResult.VariantResult result(Options o) {
+      PipelineConfig cfg = variant.config();
+      LocalCalendar cal = new LocalCalendar(cfg.input().timeZone());
+      Metrics.Accumulator overall = new Metrics.Accumulator();
+      Metrics.Accumulator[] byHour = new Metrics.Accumulator[24];
+      for (int h = 0; h < 24; h++) {
+        byHour[h] = new Metrics.Accumulator();
+      }
+      Metrics.Accumulator[] byLevel = new Metrics.Accumulator[levels.size()];
+      Metrics.Accumulator absent = new Metrics.Accumulator();
+      for (int i = 0; i < byLevel.length; i++) {
+        byLevel[i] = new Metrics.Accumulator();
+      }
+      TreeMap<Long, Metrics.Accumulator> buckets = new TreeMap<>();
+      long rec = 0;
+      long scored = 0;
+      long forecasts = 0;
+      long warming = 0;
+      long rejected = 0;
+      long[] reasons = new long[RejectReason.values().length];
+      List<BacktestResult.WeightPath> paths = new ArrayList<>();
+      int firstPartition = -1;
+      for (int p = 0; p < lanes.length; p++) {
+        Lane lane = lanes[p];
+        if (lane == null) {
+          continue;
+        }
+        if (firstPartition < 0) {
+          firstPartition = p;
+        }
+        PipelineStep st = lane.step;
+        rec += st.records();
+        forecasts += st.forecasts();
+        warming += st.warmingUp();
+        rejected += st.rejected();
+        for (RejectReason r : RejectReason.values()) {
+          reasons[r.ordinal()] += st.rejected(r);
+        }
+        Metrics.Accumulator bucket = null;
+        long bucketKey = Long.MIN_VALUE;
+        for (int k = 0; k < lane.size; k++) {
+          double e = lane.errors[k];
+          if (Double.isNaN(e)) {
+            continue;
+          }
+          scored++;
+          boolean cov = lane.covered[k] != 0;
+          overall.add(e, cov);
+          long local = cal.localMillis(lane.times[k]);
+          int hour = (int) (Math.floorMod(local, 86_400_000L) / 3_600_000L);
+          byHour[hour].add(e, cov);
+          int lev = lane.segments[k];
+          if (segmentSlot >= 0) {
+            (lev >= 0 ? byLevel[lev] : absent).add(e, cov);
+          }
+          long key = Math.floorDiv(local, o.periodMillis());
+          if (key != bucketKey) {
+            bucketKey = key;
+            bucket = buckets.computeIfAbsent(key, x -> new Metrics.Accumulator());
+          }
+          bucket.add(e, cov);
+        }
+      }
+      Map<String, Long> rejectsByReason = new LinkedHashMap<>();
+      for (RejectReason r : RejectReason.values()) {
+        if (reasons[r.ordinal()] > 0) {
+          rejectsByReason.put(r.id(), reasons[r.ordinal()]);
+        }
+      }
+      List<BacktestResult.Segment> segments = new ArrayList<>();
+      if (segmentSlot >= 0) {
+        TreeMap<String, Metrics> sorted = new TreeMap<>();
+        for (int i = 0; i < byLevel.length; i++) {
+          sorted.put(levels.get(i), byLevel[i].metrics());
+        }
+        for (Map.Entry<String, Metrics> e : sorted.entrySet()) {
+          if (e.getValue().count() > 0) {
+            segments.add(new BacktestResult.Segment(e.getKey(), e.getValue()));
+          }
+        }
+        Metrics am = absent.metrics();
+        if (am.count() > 0) {
+          segments.add(new BacktestResult.Segment("(absent)", am));
+        }
+      }
+      List<Metrics> hours = new ArrayList<>(24);
+      for (Metrics.Accumulator a : byHour) {
+        hours.add(a.metrics());
+      }
+      List<BacktestResult.Bucket> overTime = new ArrayList<>();
+      for (Map.Entry<Long, Metrics.Accumulator> e : buckets.entrySet()) {
+        long startLocal = e.getKey() * o.periodMillis();
+        String label = LocalDateTime.ofEpochSecond(Math.floorDiv(startLocal, 1000L), 0, ZoneOffset.UTC).toString();
+        overTime.add(new BacktestResult.Bucket(label, startLocal, e.getValue().metrics()));
+      }
+      if (firstPartition >= 0) {
+        Lane lane = lanes[firstPartition];
+        lane.finalSnapshot();
+        for (int w = 0; w < weightNames.size(); w++) {
+          List<BacktestResult.PathPoint> pts = new ArrayList<>(lane.pathTimes.size());
+          for (int i = 0; i < lane.pathTimes.size(); i++) {
+            double[] ws = lane.pathValues.get(i);
+            pts.add(new BacktestResult.PathPoint(lane.pathTimes.get(i), ws[2 * w], ws[2 * w + 1]));
+          }
+          paths.add(new BacktestResult.WeightPath(weightNames.get(w), firstPartition, pts));
+        }
+      }
+      return new BacktestResult.VariantResult(variant.label(), cfg.name(), rec, scored, forecasts, warming,
+          rejected, rejectsByReason, overall.metrics(), segments, hours, overTime, paths);
+    }
+  }
+
+  /** One (variant, partition): the live step and the log of its a priori errors, one entry per record. */
+  private static final class Lane implements PipelineStep.Sink {
+    final VariantState owner;
+    final PipelineStep step;
+    final int partition;
+    double[] errors = new double[1024];
+    long[] times = new long[1024];
+    int[] segments = new int[1024];
+    byte[] covered = new byte[1024];
+    int size;
+    // filled by the sink during one process call
+    private double pendingError;
+    private long pendingTime;
+    private int pendingSegment;
+    private boolean pendingCovered;
+    final List<Long> pathTimes = new ArrayList<>();
+    final List<double[]> pathValues = new ArrayList<>();
+    private long lastSnapshotRecords = -1;
+
+    Lane(VariantState owner, int partition) {
+      this.owner = owner;
+      this.partition = partition;
+      this.step = new PipelineStep(owner.variant.config());
+    }
+
+    void process(byte[] buf, int off, int len, long fallback, long offset) {
+      pendingError = Double.NaN;
+      pendingTime = fallback;
+      pendingSegment = -1;
+      pendingCovered = false;
+      step.process(buf, off, len, fallback, partition, offset, this);
+      if (size == errors.length) {
+        int n = size * 2;
+        errors = Arrays.copyOf(errors, n);
+        times = Arrays.copyOf(times, n);
+        segments = Arrays.copyOf(segments, n);
+        covered = Arrays.copyOf(covered, n);
+      }
+      errors[size] = pendingError;
+      times[size] = pendingTime;
+      segments[size] = pendingSegment;
+      covered[size] = (byte) (pendingCovered ? 1 : 0);
+      size++;
+    }
+
+    @Override
+    public void prediction(Prediction p, EventRecord record) {
+      pendingTime = p.eventTimeMillis();
+      if (p.status() == Prediction.Status.SCORED && !Double.isNaN(p.low()) && !Double.isNaN(p.actual())) {
+        pendingError = p.error();
+        pendingCovered = p.covered();
+        int slot = owner.segmentSlot;
+        if (slot >= 0 && record.present(slot)) {
+          pendingSegment = owner.levelId(record.text(slot));
+        }
+      }
+    }
+
+    @Override
+    public void reject(RejectReason reason, String detail) {
+      // counted by the step; the log entry stays NaN
+    }
+
+    @Override
+    public void snapshotDue() {
+      if (!owner.weightNames.isEmpty()) {
+        takeSnapshot();
+      }
+    }
+
+    void finalSnapshot() {
+      if (!owner.weightNames.isEmpty() && lastSnapshotRecords != step.records()) {
+        takeSnapshot();
+      }
+    }
+
+    private void takeSnapshot() {
+      if (!step.model().ready()) {
+        return;
+      }
+      Snapshot s = step.snapshot();
+      List<String> names = owner.weightNames;
+      double[] v = new double[2 * names.size()];
+      Arrays.fill(v, Double.NaN);
+      for (Snapshot.Column c : s.columns()) {
+        int i = names.indexOf(c.name());
+        if (i >= 0) {
+          v[2 * i] = c.rawWeight();
+          v[2 * i + 1] = c.rawStandardError();
+        }
+      }
+      pathTimes.add(s.eventTimeMillis());
+      pathValues.add(v);
+      lastSnapshotRecords = step.records();
+    }
+  }
+}

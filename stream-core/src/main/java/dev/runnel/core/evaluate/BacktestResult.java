@@ -1,0 +1,102 @@
+package dev.runnel.core.evaluate;
+
+import java.util.List;
+import java.util.Map;
+
+/**
+ * Everything a backtest reports, as immutable values: per configuration the prequential metrics
+ * overall, per segment level, per local hour of day and per period, the rejects and the chosen
+ * coefficient paths; per pair of configurations the Diebold–Mariano tests.
+ *
+ * @param records records read from the source
+ * @param partitions partitions seen
+ * @param segmentField the segment field, or null
+ * @param periodMillis length of the over-time buckets
+ * @param alpha significance level of the verdicts
+ * @param variants one per configuration, in the order given
+ * @param comparisons one per pair (i &lt; j), in order (0,1), (0,2), …, (1,2), …
+ */
+public record BacktestResult(long records, int partitions, String segmentField, long periodMillis, double alpha,
+                             List<VariantResult> variants, List<Comparison> comparisons) {
+
+  public BacktestResult {
+    variants = List.copyOf(variants);
+    comparisons = List.copyOf(comparisons);
+  }
+
+  /**
+   * One configuration's results.
+   *
+   * @param label the label given
+   * @param pipelineName the configuration's {@code name}
+   * @param records records handed in
+   * @param scored records scored a priori with an interval (the ones in the metrics)
+   * @param forecasts records without a target (scored only)
+   * @param warmingUp records scored while the model was warming up
+   * @param rejected rejected records
+   * @param rejectsByReason rejects per reason id, only reasons that occurred
+   * @param overall metrics over all scored records
+   * @param segments metrics per level of the segment field (sorted by level; "(absent)" last)
+   * @param byHour metrics per local hour of day, 24 entries (hour 0 first)
+   * @param overTime metrics per period, in time order
+   * @param paths coefficient paths of the chosen columns (raw units, first partition)
+   */
+  public record VariantResult(String label, String pipelineName, long records, long scored, long forecasts,
+                              long warmingUp, long rejected, Map<String, Long> rejectsByReason, Metrics overall,
+                              List<Segment> segments, List<Metrics> byHour, List<Bucket> overTime,
+                              List<WeightPath> paths) {
+    public VariantResult {
+      rejectsByReason = Map.copyOf(rejectsByReason);
+      segments = List.copyOf(segments);
+      byHour = List.copyOf(byHour);
+      overTime = List.copyOf(overTime);
+      paths = List.copyOf(paths);
+    }
+  }
+
+  /** Metrics of one segment level. */
+  public record Segment(String level, Metrics metrics) { }
+
+  /**
+   * Metrics of one period.
+   *
+   * @param start local start of the period, ISO 8601 without offset (e.g. 2026-03-25T00:00)
+   * @param startLocalMillis the same as local epoch millis
+   * @param metrics the period's metrics
+   */
+  public record Bucket(String start, long startLocalMillis, Metrics metrics) { }
+
+  /** The path of one column's weight, at each coefficient snapshot of one partition. */
+  public record WeightPath(String column, int partition, List<PathPoint> points) {
+    public WeightPath {
+      points = List.copyOf(points);
+    }
+  }
+
+  /** One point of a path; NaN while the column does not exist. */
+  public record PathPoint(long eventTimeMillis, double weight, double standardError) { }
+
+  /**
+   * The tests of one pair.
+   *
+   * @param a first label
+   * @param b second label
+   * @param n records scored by both (the pairs tested)
+   * @param squared the test under squared loss
+   * @param absolute the test under absolute loss
+   * @param squaredVerdict plain-language verdict under squared loss
+   * @param absoluteVerdict plain-language verdict under absolute loss
+   */
+  public record Comparison(String a, String b, int n, DieboldMariano.Result squared, DieboldMariano.Result absolute,
+                           String squaredVerdict, String absoluteVerdict) { }
+
+  /** The variant with this label, or null. */
+  public VariantResult variant(String label) {
+    for (VariantResult v : variants) {
+      if (v.label().equals(label)) {
+        return v;
+      }
+    }
+    return null;
+  }
+}
