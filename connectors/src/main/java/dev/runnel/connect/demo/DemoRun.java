@@ -104,7 +104,8 @@ public final class DemoRun {
     PipelineConfig cfg = new PipelineConfig(name,
         new PipelineConfig.Input(Optional.of(topic), base.input().schema(), base.input().eventTime(),
             base.input().timeZone(), base.input().limits()),
-        base.target(), base.features(), base.model(), base.outputs(), base.kafka(), base.web(), base.sourceName());
+        base.target(), base.features(), base.model(), base.outputs(), base.kafka(), base.web(), base.sourceName(),
+        base.drift());
     Settings settings = Settings.defaults().withDays(o.days()).withSeed(o.seed());
     QuillmarshGenerator gen = new QuillmarshGenerator(settings);
     long total = gen.countRecords();
