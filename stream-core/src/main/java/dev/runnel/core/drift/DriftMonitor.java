@@ -17,8 +17,8 @@ import java.util.Map;
  * The pipeline's drift alarms. One writer thread. Two inputs:
  * <ul>
  *   <li>{@link #observeError} for every scored record (hot path, allocates nothing unless an
- *       alarm fires): the a priori error divided by its predictive sd,
- *       {@code z = e / (s √(1 + xᵀPx))}; the test watches {@code min(|z|, MAX_ABS_Z)} with a
+ *       alarm fires): the a priori error divided by its predictive sd with a reference noise sd,
+ *       {@code z = e / (s_ref √(1 + xᵀPx))}; the test watches {@code min(|z|, MAX_ABS_Z)} with a
  *       two-sided {@link PageHinkley} test and records the event time at which it fired;</li>
  *   <li>{@link #observeSnapshot} once per published snapshot (cold path): each column's raw-unit
  *       weight is compared with its baseline, {@code score = (w − w_b) / √(se² + se_b²)}; a weight
@@ -47,6 +47,8 @@ public final class DriftMonitor {
   private final ArrayList<DriftAlarm> errorAlarms = new ArrayList<>();
   private final LinkedHashMap<String, Double> moved = new LinkedHashMap<>();
   private long weightFired;
+  private double refNoiseSd = Double.NaN;
+  private long sinceRestart;
   private long errorFired;
 
   /**
@@ -65,15 +67,35 @@ public final class DriftMonitor {
   }
 
   /**
-   * One scored record's standardized a priori error. Non-finite values are ignored.
+   * One scored record's a priori error. After a start or an alarm, the first
+   * {@code error_warmup_records} errors are skipped (the model and its noise estimate settle),
+   * the next freezes the reference noise sd, and the test then learns the level for another
+   * {@code error_warmup_records} errors before it may fire. The test sees {@code |e| / (s_ref √(1 + xᵀPx))}, where
+   * {@code s_ref} is the noise sd frozen when the test (re)started: standardizing by the live noise
+   * estimate would let that estimate absorb a change and fire a second, opposite alarm as it
+   * catches up. Non-finite values are ignored.
    *
-   * @param z error / predictive sd
+   * @param error actual − predicted
+   * @param predictiveSd the prediction's sd {@code s √(1 + xᵀPx)} with the live noise sd s
+   * @param noiseSd the live noise sd s
    * @param eventTimeMillis the record's event time
    * @param trained the pipeline's trained-record count including this record
    * @return true if the error-level test fired on this record
    */
-  public boolean observeError(double z, long eventTimeMillis, long trained) {
-    if (test == null || !Double.isFinite(z)) {
+  public boolean observeError(double error, double predictiveSd, double noiseSd, long eventTimeMillis, long trained) {
+    if (test == null || !(predictiveSd > 0) || !(noiseSd > 0)) {
+      return false;
+    }
+    if (sinceRestart < settings.errorWarmupRecords()) {
+      // the model and its noise estimate settle first; then the reference noise sd is frozen
+      sinceRestart++;
+      return false;
+    }
+    if (Double.isNaN(refNoiseSd)) {
+      refNoiseSd = noiseSd;
+    }
+    double z = error / predictiveSd * (noiseSd / refNoiseSd);
+    if (!Double.isFinite(z)) {
       return false;
     }
     double x = Math.min(Math.abs(z), MAX_ABS_Z);
@@ -81,7 +103,9 @@ public final class DriftMonitor {
     if (d == PageHinkley.Direction.NONE) {
       return false;
     }
-    // rare path: an alarm fired
+    // rare path: an alarm fired; the next value freezes a new reference noise sd
+    refNoiseSd = Double.NaN;
+    sinceRestart = 0;
     errorFired++;
     errorAlarms.add(new DriftAlarm(DriftAlarm.ERROR_LEVEL, null, d == PageHinkley.Direction.UP ? "up" : "down",
         eventTimeMillis, -1, trained, test.lastFireStatistic(), test.threshold(), test.lastFireMean(), Double.NaN));
@@ -201,6 +225,8 @@ public final class DriftMonitor {
   public void writeTo(DataOutput out) throws IOException {
     out.writeLong(weightFired);
     out.writeLong(errorFired);
+    out.writeDouble(refNoiseSd);
+    out.writeLong(sinceRestart);
     out.writeBoolean(test != null);
     if (test != null) {
       test.writeTo(out);
@@ -229,6 +255,8 @@ public final class DriftMonitor {
   public void readFrom(DataInput in) throws IOException {
     weightFired = in.readLong();
     errorFired = in.readLong();
+    refNoiseSd = in.readDouble();
+    sinceRestart = in.readLong();
     if (in.readBoolean()) {
       // the test's parameters come from the configuration; a saved test is skipped when it is now off
       (test != null ? test : new PageHinkley(0, 1, 1)).readFrom(in);

@@ -206,8 +206,8 @@ public final class PipelineStep {
       trained++;
       if (p.status == Prediction.Status.SCORED && !Double.isNaN(p.low)) {
         metrics.add(y - p.predicted, p.covered());
-        // the a priori error over its predictive sd s·√(1 + xᵀPx) = half-width / z
-        drift.observeError((y - p.predicted) * model.settings().intervalZ() / half, t, trained);
+        // the a priori error and its predictive sd s·√(1 + xᵀPx) = half-width / z
+        drift.observeError(y - p.predicted, half / model.settings().intervalZ(), model.noiseSd(), t, trained);
       }
     } else {
       forecasts++;
