@@ -53,7 +53,7 @@ public final class DriftTable {
   private final int top;
   private final Point from;
   private final Point to;
-  private final Map<Integer, JsonNode> first = new HashMap<>();
+  private final Map<Integer, Map<String, JsonNode>> first = new HashMap<>();
   private final Map<Integer, JsonNode> previous = new HashMap<>();
   private final Map<Integer, JsonNode> chosen = new HashMap<>();
 
@@ -98,18 +98,16 @@ public final class DriftTable {
   public String take(JsonNode s) {
     int part = s.path("partition").asInt();
     JsonNode prev = previous.put(part, s);
-    if (s.path("ready").asBoolean(false)) {
-      first.putIfAbsent(part, s);
-    }
     if (baselinePoint != null && !chosen.containsKey(part) && baselinePoint.reachedBy(s)) {
       chosen.put(part, s);
     }
     if ((from != null && !from.reachedBy(s)) || (to != null && to.passedBy(s))) {
       return null;
     }
+    // "first": per column, the first snapshot in which it had a finite weight and standard error
+    Map<String, JsonNode> firstCols = first.computeIfAbsent(part, k -> new HashMap<>());
     JsonNode base = switch (baseline) {
-      case "pipeline" -> null;
-      case "first" -> first.get(part);
+      case "pipeline", "first" -> null;
       case "previous" -> prev;
       default -> chosen.get(part);
     };
@@ -118,7 +116,7 @@ public final class DriftTable {
         num(s.path("metrics").path("recent").path("mae")), num(s.path("metrics").path("recent").path("rmse"))));
     List<double[]> scores = new ArrayList<>();
     List<String> texts = new ArrayList<>();
-    Map<String, JsonNode> before = new HashMap<>();
+    Map<String, JsonNode> before = baseline.equals("first") ? new HashMap<>(firstCols) : new HashMap<>();
     if (base != null) {
       for (JsonNode c : base.path("columns")) {
         before.put(c.path("name").asText(), c);
@@ -154,9 +152,17 @@ public final class DriftTable {
           ? String.format(Locale.ROOT, "%s %s (%+.1f)", name, sig(w), score)
           : String.format(Locale.ROOT, "%s %s→%s (%+.1f)", name, sig(w0), sig(w), score));
     }
+    if (s.path("ready").asBoolean(false)) {
+      for (JsonNode c : s.path("columns")) {
+        if (c.path("raw_weight").isNumber() && c.path("raw_std_error").isNumber()) {
+          firstCols.putIfAbsent(c.path("name").asText(), c);
+        }
+      }
+    }
     scores.sort((x, y) -> Double.compare(y[0], x[0]));
     if (scores.isEmpty()) {
-      sb.append(base == null && !baseline.equals("pipeline") ? "(before the baseline)" : "(no scores yet)");
+      boolean waiting = base == null && !baseline.equals("pipeline") && !baseline.equals("first");
+      sb.append(waiting ? "(before the baseline)" : "(no scores yet)");
     }
     for (int i = 0; i < Math.min(top, scores.size()); i++) {
       if (i > 0) {
