@@ -617,7 +617,9 @@ public final class ConfigLoader {
             + ": only allowed with baseline: snapshots_ago; remove it or set baseline: snapshots_ago");
       }
       int back = d.wholeInt("baseline_snapshots", def.baselineSnapshots(), 1, 10_000);
-      ErrorTest test = d.choice("error_test", def.errorTest(), ErrorTest.values(), ErrorTest::word);
+      // YAML 1.1 reads a bare off as false: accept it as the word off
+      ErrorTest test = d.has("error_test") && d.get("error_test").isBoolean() && !d.get("error_test").asBoolean()
+          ? ErrorTest.OFF : d.choice("error_test", def.errorTest(), ErrorTest.values(), ErrorTest::word);
       double delta = d.number("error_allowance", def.errorAllowance(), 0, false, 100, false,
           "use a number from 0 to 100 (units of the absolute standardized error), e.g. 0.1");
       double lambda = d.number("error_threshold", def.errorThreshold(), 0, true, 1.0e9, false,
