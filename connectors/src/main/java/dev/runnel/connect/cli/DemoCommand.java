@@ -39,9 +39,21 @@ public final class DemoCommand implements Callable<Integer> {
   @Option(names = "--quiet", description = "No live progress; only the summary.")
   boolean quiet;
 
+  @Option(names = "--web-port", defaultValue = "8642", paramLabel = "PORT",
+      description = "Port of the live web view on 127.0.0.1; a taken port falls back to a free one; 0 = any free port (default: ${DEFAULT-VALUE}).")
+  int webPort;
+
+  @Option(names = "--no-web", description = "Do not serve the live web view.")
+  boolean noWeb;
+
+  @Option(names = "--linger", defaultValue = "0", paramLabel = "SECONDS",
+      description = "Keep the live view up this many seconds after the summary (default: ${DEFAULT-VALUE}: end at once).")
+  long linger;
+
   @Override
   public Integer call() throws Exception {
-    DemoSummary s = DemoRun.run(new DemoRun.Options(dataDir, fresh, days, seed, rate, quiet, bootstrap),
+    DemoSummary s = DemoRun.run(new DemoRun.Options(dataDir, fresh, days, seed, rate, quiet, bootstrap,
+        noWeb ? -1 : webPort, linger),
         System.out, System.err);
     return s.tariffChangeFound() ? 0 : 1;
   }

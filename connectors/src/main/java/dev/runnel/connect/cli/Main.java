@@ -13,6 +13,7 @@ import picocli.CommandLine.Command;
         RunCommand.class,
         DemoCommand.class,
         ReplayCommand.class,
+        DriftCommand.class,
         BrokerCommand.class,
         BacktestCommand.class,
         RecordCommand.class,

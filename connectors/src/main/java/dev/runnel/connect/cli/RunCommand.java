@@ -38,6 +38,13 @@ public final class RunCommand implements Callable<Integer> {
   @Option(names = "--quiet", description = "No progress line.")
   boolean quiet;
 
+  @Option(names = "--web-port", paramLabel = "PORT",
+      description = "Port of the live web view (overrides web.port; 0 = any free port).")
+  Integer webPort;
+
+  @Option(names = "--no-web", description = "Do not serve the live web view (overrides web.enabled).")
+  boolean noWeb;
+
   @Override
   public Integer call() throws Exception {
     PipelineConfig cfg = ConfigLoader.load(config);
@@ -61,11 +68,22 @@ public final class RunCommand implements Callable<Integer> {
     work.start();
     System.err.printf("runnel: pipeline %s consuming %s from %s (group %s); Ctrl-C to stop%n",
         cfg.name(), settings.inputTopic(), servers, settings.groupId());
+    dev.runnel.connect.web.LiveState live = null;
+    dev.runnel.connect.web.WebView web = null;
+    if (cfg.web().enabled() && !noWeb) {
+      live = new dev.runnel.connect.web.LiveState(cfg.name(), servers, cfg.kafka().clientProperties(), runner::counters).start();
+      web = dev.runnel.connect.web.WebView.start(cfg.web().bind(), webPort != null ? webPort : cfg.web().port(), false, live);
+      System.err.println("runnel: live view at " + web.url());
+    }
     Progress progress = new Progress(System.err, "records", 0, quiet);
     while (work.isAlive()) {
       work.join(500);
       RunnerCounters c = runner.counters();
       progress.update(c.recordsIn(), () -> String.format("%,d rejects  %,d commits", c.rejects(), c.commits()));
+    }
+    if (web != null) {
+      web.close();
+      live.close();
     }
     RunnerCounters c = runner.counters();
     progress.finish(c.recordsIn(), String.format("%,d rejects  %,d commits", c.rejects(), c.commits()));

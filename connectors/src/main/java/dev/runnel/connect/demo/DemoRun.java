@@ -7,6 +7,8 @@ import dev.runnel.connect.kafka.ExactlyOnceRunner;
 import dev.runnel.connect.kafka.RunnerCounters;
 import dev.runnel.connect.kafka.RunnerSettings;
 import dev.runnel.connect.pipeline.PipelineProcessor;
+import dev.runnel.connect.web.LiveState;
+import dev.runnel.connect.web.WebView;
 import dev.runnel.core.config.ConfigLoader;
 import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.demo.GeneratedRecord;
@@ -59,9 +61,23 @@ public final class DemoRun {
    * @param rate records per second to publish; 0 = as fast as possible
    * @param quiet no live progress
    * @param bootstrap an existing cluster to use instead of the embedded broker, or null
+   * @param webPort port of the live web view (0 = any free port; a taken port falls back to a free one), or -1 for no web view
+   * @param lingerSeconds keep the web view (and broker) up this long after the summary; 0 = end at once
    */
-  public record Options(Path dataDir, boolean fresh, int days, long seed, double rate, boolean quiet, String bootstrap) {
+  public record Options(Path dataDir, boolean fresh, int days, long seed, double rate, boolean quiet, String bootstrap,
+                        int webPort, long lingerSeconds) {
+    /** Options with the configured web port and no lingering. */
+    public Options(Path dataDir, boolean fresh, int days, long seed, double rate, boolean quiet, String bootstrap) {
+      this(dataDir, fresh, days, seed, rate, quiet, bootstrap, 8642, 0);
+    }
+
     public Options {
+      if (webPort < -1 || webPort > 65535) {
+        throw new IllegalArgumentException("--web-port must be a port from 0 to 65535, got " + webPort);
+      }
+      if (lingerSeconds < 0) {
+        throw new IllegalArgumentException("--linger must be 0 or a number of seconds, got " + lingerSeconds);
+      }
       if (days < 2 || days > 3660) {
         throw new IllegalArgumentException("--days must be a whole number from 2 to 3660, got " + days);
       }
@@ -104,13 +120,16 @@ public final class DemoRun {
     PipelineConfig cfg = new PipelineConfig(name,
         new PipelineConfig.Input(Optional.of(topic), base.input().schema(), base.input().eventTime(),
             base.input().timeZone(), base.input().limits()),
-        base.target(), base.features(), base.model(), base.outputs(), base.kafka(), base.web(), base.sourceName());
+        base.target(), base.features(), base.model(), base.outputs(), base.kafka(), base.web(), base.sourceName(),
+        base.drift());
     Settings settings = Settings.defaults().withDays(o.days()).withSeed(o.seed());
     QuillmarshGenerator gen = new QuillmarshGenerator(settings);
     long total = gen.countRecords();
 
     EmbeddedBroker broker = null;
     String bootstrap = o.bootstrap();
+    LiveState liveState = null;
+    WebView web = null;
     try {
       if (bootstrap == null) {
         broker = new EmbeddedBroker(o.dataDir().resolve("broker"));
@@ -127,6 +146,11 @@ public final class DemoRun {
       ExactlyOnceRunner runner = new ExactlyOnceRunner(rs, PipelineProcessor.factory(cfg));
       Thread work = new Thread(runner, "demo-runner");
       work.start();
+      if (o.webPort() >= 0 && cfg.web().enabled()) {
+        liveState = new LiveState(name, bootstrap, Map.of(), runner::counters).start();
+        web = WebView.start(cfg.web().bind(), o.webPort(), true, liveState);
+        err.println("demo: live view at " + web.url());
+      }
       AtomicLong produced = new AtomicLong();
       AtomicReference<Throwable> produceFailure = new AtomicReference<>();
       String bs = bootstrap;
@@ -170,8 +194,18 @@ public final class DemoRun {
       summary.print(out);
       out.printf("The topics stay in %s: replay them with a later backtest, or start fresh with --fresh.%n",
           broker == null ? bootstrap : broker.folder());
+      if (web != null && o.lingerSeconds() > 0) {
+        out.printf("The live view stays at %s for %d s (Ctrl-C to end sooner).%n", web.url(), o.lingerSeconds());
+        Thread.sleep(o.lingerSeconds() * 1000L);
+      }
       return summary;
     } finally {
+      if (web != null) {
+        web.close();
+      }
+      if (liveState != null) {
+        liveState.close();
+      }
       if (broker != null) {
         broker.stop();
       }

@@ -251,7 +251,7 @@ public final class ConfigLoader {
         throw new ConfigException("", source + ": the configuration is " + render(root) + "; it must be a mapping with name:, input:, target:, features:");
       }
       Section top = new Section(root, "");
-      top.allow(List.of("name", "input", "target", "features", "model", "outputs", "kafka", "web"));
+      top.allow(List.of("name", "input", "target", "features", "model", "outputs", "kafka", "web", "drift"));
 
       String name = top.requiredText("name", "give the pipeline a name, e.g. name: quillmarsh", nameRule());
       if (!NAME.matcher(name).matches()) throw notAllowed("name", top.get("name"), nameRule());
@@ -268,7 +268,8 @@ public final class ConfigLoader {
       PipelineConfig.Outputs outputs = outputs(top.has("outputs") ? top.section("outputs") : null);
       PipelineConfig.Kafka kafka = kafka(top.has("kafka") ? top.section("kafka") : null);
       PipelineConfig.Web web = web(top.has("web") ? top.section("web") : null);
-      return new PipelineConfig(name, input, target, features, model, outputs, kafka, web, source);
+      PipelineConfig.Drift drift = drift(top.has("drift") ? top.section("drift") : null);
+      return new PipelineConfig(name, input, target, features, model, outputs, kafka, web, source, drift);
     }
 
     private static String nameRule() {
@@ -606,6 +607,31 @@ public final class ConfigLoader {
         embedded = new PipelineConfig.Embedded(dir, port);
       }
       return new PipelineConfig.Kafka(servers, ms, recs, props, embedded);
+    }
+
+    private PipelineConfig.Drift drift(Section d) {
+      PipelineConfig.Drift def = PipelineConfig.Drift.DEFAULTS;
+      if (d == null) return def;
+      d.allow(List.of("weight_alarm_se", "baseline", "baseline_snapshots", "error_test", "error_allowance",
+          "error_threshold", "error_warmup_records", "alarm_hold_snapshots"));
+      double k = d.number("weight_alarm_se", def.weightAlarmSe(), 0, false, 1.0e6, false,
+          "use 0 (off) or a number of standard errors greater than 0, e.g. 4");
+      DriftBaseline baseline = d.choice("baseline", def.baseline(), DriftBaseline.values(), DriftBaseline::word);
+      if (d.has("baseline_snapshots") && baseline != DriftBaseline.SNAPSHOTS_AGO) {
+        throw new ConfigException(d.p("baseline_snapshots"), d.p("baseline_snapshots")
+            + ": only allowed with baseline: snapshots_ago; remove it or set baseline: snapshots_ago");
+      }
+      int back = d.wholeInt("baseline_snapshots", def.baselineSnapshots(), 1, 10_000);
+      // YAML 1.1 reads a bare off as false: accept it as the word off
+      ErrorTest test = d.has("error_test") && d.get("error_test").isBoolean() && !d.get("error_test").asBoolean()
+          ? ErrorTest.OFF : d.choice("error_test", def.errorTest(), ErrorTest.values(), ErrorTest::word);
+      double delta = d.number("error_allowance", def.errorAllowance(), 0, false, 100, false,
+          "use a number from 0 to 100 (units of the absolute standardized error), e.g. 0.1");
+      double lambda = d.number("error_threshold", def.errorThreshold(), 0, true, 1.0e9, false,
+          "use a number greater than 0 (units of the absolute standardized error), e.g. 30");
+      long warm = d.whole("error_warmup_records", def.errorWarmupRecords(), 1, 1_000_000_000);
+      int hold = d.wholeInt("alarm_hold_snapshots", def.alarmHoldSnapshots(), 1, 10_000);
+      return new PipelineConfig.Drift(k, baseline, back, test, delta, lambda, warm, hold);
     }
 
     private PipelineConfig.Web web(Section w) {

@@ -13,12 +13,19 @@ import java.util.Optional;
  *
  * @param name pipeline name; output topics are {@code <name>.predictions} etc.
  * @param sourceName where the configuration came from (a file name), for messages
+ * @param drift the {@code drift} section: weight and error-level alarms
  */
 public record PipelineConfig(String name, Input input, String target, List<FeatureConfig> features, Model model,
-                             Outputs outputs, Kafka kafka, Web web, String sourceName) {
+                             Outputs outputs, Kafka kafka, Web web, String sourceName, Drift drift) {
 
   /** Copies the feature list. */
   public PipelineConfig { features = List.copyOf(features); }
+
+  /** A configuration with the default {@code drift} section. */
+  public PipelineConfig(String name, Input input, String target, List<FeatureConfig> features, Model model,
+                        Outputs outputs, Kafka kafka, Web web, String sourceName) {
+    this(name, input, target, features, model, outputs, kafka, web, sourceName, Drift.DEFAULTS);
+  }
 
   /** The slot of the target field in {@code input().schema()}. */
   public int targetSlot() { return input.schema().slot(target); }
@@ -78,4 +85,24 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
 
   /** The {@code web} section. */
   public record Web(boolean enabled, String bind, int port) { }
+
+  /**
+   * The {@code drift} section: alarms computed in the pipeline and carried in the snapshots.
+   *
+   * @param weightAlarmSe a weight alarm is raised when a raw-unit weight is more than this many
+   *     standard errors from its baseline ({@code |w − w_b| / √(se² + se_b²)}); 0 = off
+   * @param baseline which earlier snapshot a weight is compared with
+   * @param baselineSnapshots how many snapshots back for {@link DriftBaseline#SNAPSHOTS_AGO}
+   * @param errorTest the sequential test on the error level
+   * @param errorAllowance the Page–Hinkley allowance δ, in units of the absolute standardized error
+   * @param errorThreshold the Page–Hinkley threshold λ, same units
+   * @param errorWarmupRecords scored records after a start or an alarm before the test may fire
+   * @param alarmHoldSnapshots snapshots an error-level alarm stays listed after it fired
+   */
+  public record Drift(double weightAlarmSe, DriftBaseline baseline, int baselineSnapshots, ErrorTest errorTest,
+                      double errorAllowance, double errorThreshold, long errorWarmupRecords, int alarmHoldSnapshots) {
+    /** The defaults, as documented in docs/drift.md. */
+    public static final Drift DEFAULTS = new Drift(4.0, DriftBaseline.SNAPSHOTS_AGO, 8, ErrorTest.PAGE_HINKLEY,
+        0.1, 30.0, 100, 4);
+  }
 }

@@ -4,6 +4,8 @@ import com.fasterxml.jackson.core.JsonEncoding;
 import com.fasterxml.jackson.core.JsonFactory;
 import com.fasterxml.jackson.core.JsonGenerator;
 import com.fasterxml.jackson.core.util.ByteArrayBuilder;
+import dev.runnel.core.drift.DriftAlarm;
+import dev.runnel.core.drift.DriftStatus;
 import dev.runnel.core.feature.Featurizer;
 import dev.runnel.core.record.EventRecord;
 import dev.runnel.core.record.FieldType;
@@ -123,6 +125,7 @@ public final class OutputJson {
       g.writeNumberField("format", Snapshot.FORMAT_VERSION);
       g.writeStringField("pipeline", pipeline);
       g.writeNumberField("partition", partition);
+      g.writeNumberField("index", s.index());
       g.writeStringField("event_time", s.eventTimeMillis() == Long.MIN_VALUE ? null
           : Instant.ofEpochMilli(s.eventTimeMillis()).toString());
       g.writeNumberField("records", s.records());
@@ -160,9 +163,11 @@ public final class OutputJson {
         number(g, "raw_std_error", c.rawStandardError());
         number(g, "centre", c.centre());
         number(g, "scale", c.scale());
+        number(g, "moved_se", c.movedSe());
         g.writeEndObject();
       }
       g.writeEndArray();
+      writeAlarms(g, s);
       g.writeArrayFieldStart("vocabularies");
       for (Featurizer.VocabularySnapshot v : s.vocabularies()) {
         g.writeStartObject();
@@ -203,6 +208,42 @@ public final class OutputJson {
       throw new UncheckedIOException(e);
     }
     return finish();
+  }
+
+  private static void writeAlarms(JsonGenerator g, Snapshot s) throws IOException {
+    g.writeArrayFieldStart("alarms");
+    for (DriftAlarm a : s.alarms()) {
+      g.writeStartObject();
+      g.writeStringField("kind", a.kind());
+      if (a.column() != null) {
+        g.writeStringField("column", a.column());
+      }
+      g.writeStringField("direction", a.direction());
+      time(g, "fired_at", a.firedAtMillis());
+      g.writeNumberField("fired_at_snapshot", a.firedAtSnapshot());
+      g.writeNumberField("fired_at_record", a.firedAtRecord());
+      number(g, "score", a.score());
+      number(g, "threshold", a.threshold());
+      number(g, "baseline_value", a.baselineValue());
+      number(g, "current_value", a.currentValue());
+      g.writeEndObject();
+    }
+    g.writeEndArray();
+    DriftStatus d = s.drift();
+    if (d != null) {
+      g.writeObjectFieldStart("drift");
+      g.writeStringField("baseline", d.baseline());
+      number(g, "weight_alarm_se", d.weightAlarmSe());
+      g.writeNumberField("weight_alarms_fired", d.weightAlarmsFired());
+      g.writeStringField("error_test", d.errorTest());
+      number(g, "error_up", d.upStatistic());
+      number(g, "error_down", d.downStatistic());
+      number(g, "error_threshold", d.threshold());
+      number(g, "error_mean_abs_z", d.meanAbsError());
+      g.writeNumberField("error_count", d.errorCount());
+      g.writeNumberField("error_alarms_fired", d.errorAlarmsFired());
+      g.writeEndObject();
+    }
   }
 
   private JsonGenerator start() throws IOException {

@@ -1,6 +1,7 @@
 package dev.runnel.core.pipeline;
 
 import dev.runnel.core.config.PipelineConfig;
+import dev.runnel.core.drift.DriftMonitor;
 import dev.runnel.core.feature.Featurizer;
 import dev.runnel.core.model.ModelSettings;
 import dev.runnel.core.model.RlsModel;
@@ -51,7 +52,7 @@ public final class PipelineStep {
   }
 
   /** Version of the checkpoint layout written by {@link #checkpoint()}. */
-  public static final int CHECKPOINT_VERSION = 1;
+  public static final int CHECKPOINT_VERSION = 2;
   private static final int CHECKPOINT_MAGIC = 0x524E4C43; // "RNLC"
 
   private final PipelineConfig config;
@@ -60,6 +61,7 @@ public final class PipelineStep {
   private final Featurizer featurizer;
   private RlsModel model;
   private final PrequentialMetrics metrics;
+  private final DriftMonitor drift;
   private final Forgetting forgetting;
   private final Prediction prediction = new Prediction();
   private final int targetSlot;
@@ -75,6 +77,7 @@ public final class PipelineStep {
   private long lastEventTimeMillis = Long.MIN_VALUE;
   private long trainedAtLastSnapshot;
   private long periodOfLastSnapshot = Long.MIN_VALUE;
+  private long snapshotsTaken;
 
   /**
    * @param config a checked configuration. Not modified.
@@ -90,6 +93,7 @@ public final class PipelineStep {
     this.model = new RlsModel(featurizer.dimension(), modelSettings(config));
     this.featurizer.setListener(model);
     this.metrics = new PrequentialMetrics(config.outputs().metricsHalfLifeRecords());
+    this.drift = new DriftMonitor(config.drift());
     PipelineConfig.Model m = config.model();
     this.forgetting = new Forgetting(m.forgettingFactor(), m.forgettingHalfLifeMillis());
     this.targetSlot = config.targetSlot();
@@ -172,9 +176,10 @@ public final class PipelineStep {
       featurizer.encode(record, t, row);
     }
     p.layoutVersion = featurizer.layoutVersion();
+    double half = Double.NaN;
     if (model.ready()) {
       double yhat = model.predict(row);
-      double half = model.intervalHalfWidth(row);
+      half = model.intervalHalfWidth(row);
       p.predicted = yhat;
       if (Double.isNaN(half)) {
         // no noise estimate yet: an interval cannot be given honestly
@@ -201,6 +206,8 @@ public final class PipelineStep {
       trained++;
       if (p.status == Prediction.Status.SCORED && !Double.isNaN(p.low)) {
         metrics.add(y - p.predicted, p.covered());
+        // the a priori error and its predictive sd s·√(1 + xᵀPx) = half-width / z
+        drift.observeError(y - p.predicted, half / model.settings().intervalZ(), model.noiseSd(), t, trained);
       }
     } else {
       forecasts++;
@@ -213,6 +220,7 @@ public final class PipelineStep {
     }
     sink.prediction(p, record);
     if (hasTarget && snapshotIsDue(t)) {
+      observeSnapshotForDrift();
       sink.snapshotDue();
     }
   }
@@ -240,6 +248,23 @@ public final class PipelineStep {
     return due;
   }
 
+  /** Cold path: the weight alarms and baselines move on once per published snapshot. */
+  private void observeSnapshotForDrift() {
+    Snapshot s = Snapshot.of(this);
+    int n = s.columns().size();
+    String[] names = new String[n];
+    double[] raw = new double[n];
+    double[] se = new double[n];
+    for (int j = 0; j < n; j++) {
+      Snapshot.Column c = s.columns().get(j);
+      names[j] = c.name();
+      raw[j] = s.ready() ? c.rawWeight() : Double.NaN;
+      se[j] = c.rawStandardError();
+    }
+    drift.observeSnapshot(snapshotsTaken, lastEventTimeMillis, trained, names, raw, se, n);
+    snapshotsTaken++;
+  }
+
   private void reject(RejectReason reason, String detail, Sink sink) {
     rejected++;
     rejectCounts[reason.ordinal()]++;
@@ -263,6 +288,14 @@ public final class PipelineStep {
 
   public PrequentialMetrics metrics() { return metrics; }
 
+  /** The drift alarms' state. */
+  public DriftMonitor drift() { return drift; }
+
+  /**
+   * Snapshots that became due so far; the latest due snapshot has index {@code snapshotsTaken() − 1}.
+   */
+  public long snapshotsTaken() { return snapshotsTaken; }
+
   /** Records handed in, including rejected ones. */
   public long records() { return records; }
 
@@ -284,7 +317,11 @@ public final class PipelineStep {
   /** The latest event time seen, or {@code Long.MIN_VALUE} before the first record. */
   public long lastEventTimeMillis() { return lastEventTimeMillis; }
 
-  /** Builds a coefficient snapshot of the current state (allocates; O(p³)). */
+  /**
+   * Builds a coefficient snapshot of the current state (allocates; O(p³)). Its index, alarms and
+   * per-column drift scores are those of the latest due snapshot, so called from
+   * {@link Sink#snapshotDue()} it is exactly the snapshot that became due.
+   */
   public Snapshot snapshot() {
     return Snapshot.of(this);
   }
@@ -319,6 +356,8 @@ public final class PipelineStep {
       metrics.writeTo(out);
       featurizer.writeTo(out);
       model.writeTo(out);
+      out.writeLong(snapshotsTaken);
+      drift.writeTo(out);
       out.flush();
       return bytes.toByteArray();
     } catch (IOException e) {
@@ -330,7 +369,9 @@ public final class PipelineStep {
    * Replaces the whole state with a checkpoint's.
    *
    * @param checkpoint bytes from {@link #checkpoint()}. Not modified.
-   * @throws IllegalArgumentException if the bytes are not a checkpoint, are of another version,
+   * A version 1 checkpoint (before drift alarms) is read with a fresh drift state.
+   *
+   * @throws IllegalArgumentException if the bytes are not a checkpoint, are of an unknown version,
    *     or were written under a configuration whose features or model differ
    */
   public void restore(byte[] checkpoint) {
@@ -340,7 +381,7 @@ public final class PipelineStep {
         throw new IllegalArgumentException("not a Runnel pipeline checkpoint");
       }
       int version = in.readInt();
-      if (version != CHECKPOINT_VERSION) {
+      if (version != CHECKPOINT_VERSION && version != 1) {
         throw new IllegalArgumentException("checkpoint format version " + version
             + " is not supported; this Runnel reads version " + CHECKPOINT_VERSION);
       }
@@ -369,6 +410,10 @@ public final class PipelineStep {
       featurizer.readFrom(in);
       model = RlsModel.readFrom(in);
       featurizer.setListener(model);
+      if (version >= 2) {
+        snapshotsTaken = in.readLong();
+        drift.readFrom(in);
+      }
       ensureRow();
     } catch (IOException e) {
       throw new IllegalArgumentException("the checkpoint is truncated or corrupt: " + e.getMessage(), e);

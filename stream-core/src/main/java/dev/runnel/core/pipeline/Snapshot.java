@@ -1,5 +1,8 @@
 package dev.runnel.core.pipeline;
 
+import dev.runnel.core.drift.DriftAlarm;
+import dev.runnel.core.drift.DriftMonitor;
+import dev.runnel.core.drift.DriftStatus;
 import dev.runnel.core.feature.Featurizer;
 import dev.runnel.core.model.RlsModel;
 import java.util.ArrayList;
@@ -30,12 +33,16 @@ import java.util.List;
  * @param vocabularies one entry per one-hot feature
  * @param scalers one entry per scaled column
  * @param metrics prequential metrics overall and over the fading window
+ * @param index the snapshot's sequence number in this pipeline's state (0 for the first; -1 if none was due yet)
+ * @param alarms the drift alarms raised at this snapshot
+ * @param drift the drift monitor's status (null when not known)
  */
 public record Snapshot(long eventTimeMillis, long records, long trained, long forecasts, long rejected,
                        long layoutVersion, boolean ready, double noiseSd, double residualSd,
                        double effectiveSampleSize, List<Column> columns,
                        List<Featurizer.VocabularySnapshot> vocabularies,
-                       List<Featurizer.ScalerSnapshot> scalers, Metrics metrics) {
+                       List<Featurizer.ScalerSnapshot> scalers, Metrics metrics, long index,
+                       List<DriftAlarm> alarms, DriftStatus drift) {
 
   /** Version of the snapshot's published layout (see docs/formats.md). */
   public static final int FORMAT_VERSION = 1;
@@ -44,6 +51,17 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
     columns = List.copyOf(columns);
     vocabularies = List.copyOf(vocabularies);
     scalers = List.copyOf(scalers);
+    alarms = List.copyOf(alarms);
+  }
+
+  /** A snapshot without drift information (index -1, no alarms). */
+  public Snapshot(long eventTimeMillis, long records, long trained, long forecasts, long rejected,
+                  long layoutVersion, boolean ready, double noiseSd, double residualSd,
+                  double effectiveSampleSize, List<Column> columns,
+                  List<Featurizer.VocabularySnapshot> vocabularies,
+                  List<Featurizer.ScalerSnapshot> scalers, Metrics metrics) {
+    this(eventTimeMillis, records, trained, forecasts, rejected, layoutVersion, ready, noiseSd, residualSd,
+        effectiveSampleSize, columns, vocabularies, scalers, metrics, -1, List.of(), null);
   }
 
   /**
@@ -56,9 +74,17 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
    * @param rawStandardError its standard error
    * @param centre the scaler's m (0 for an unscaled column)
    * @param scale the scaler's s (1 for an unscaled column)
+   * @param movedSe signed drift score against the configured baseline,
+   *     {@code (w − w_b) / √(se² + se_b²)} in raw units; NaN when the column has no baseline yet
    */
   public record Column(String name, double weight, double standardError, double rawWeight,
-                       double rawStandardError, double centre, double scale) { }
+                       double rawStandardError, double centre, double scale, double movedSe) {
+    /** A column without a drift score. */
+    public Column(String name, double weight, double standardError, double rawWeight,
+                  double rawStandardError, double centre, double scale) {
+      this(name, weight, standardError, rawWeight, rawStandardError, centre, scale, Double.NaN);
+    }
+  }
 
   /** Prequential metrics: overall and over the fading window. */
   public record Metrics(long count, double mae, double rmse, double bias, double coverage,
@@ -87,6 +113,7 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
   static Snapshot of(PipelineStep step) {
     Featurizer f = step.featurizer();
     RlsModel m = step.model();
+    DriftMonitor drift = step.drift();
     int p = m.dimension();
     double[] w = new double[p];
     double[] se = new double[p];
@@ -125,15 +152,16 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
       double mj = f.centre(j);
       double sj = f.scale(j);
       boolean isConstant = constant && j == 0;
-      cols.add(new Column(f.columnName(j), w[j], se[j],
+      String name = f.columnName(j);
+      cols.add(new Column(name, w[j], se[j],
           isConstant ? rawConstant : w[j] / sj,
-          isConstant ? rawConstantSe : se[j] / sj, mj, sj));
+          isConstant ? rawConstantSe : se[j] / sj, mj, sj, drift.moved(name)));
     }
     PrequentialMetrics pm = step.metrics();
     Metrics metrics = new Metrics(pm.count(), pm.mae(), pm.rmse(), pm.bias(), pm.coverage(),
         pm.recentMae(), pm.recentRmse(), pm.recentBias(), pm.recentCoverage());
     return new Snapshot(step.lastEventTimeMillis(), step.records(), step.trained(), step.forecasts(),
         step.rejected(), f.layoutVersion(), m.ready(), m.noiseSd(), sigma, m.effectiveSampleSize(),
-        cols, f.vocabularies(), f.scalers(), metrics);
+        cols, f.vocabularies(), f.scalers(), metrics, step.snapshotsTaken() - 1, drift.alarms(), drift.status());
   }
 }

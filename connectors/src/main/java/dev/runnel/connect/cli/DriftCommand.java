@@ -1,0 +1,157 @@
+package dev.runnel.connect.cli;
+
+import com.fasterxml.jackson.databind.JsonNode;
+import com.fasterxml.jackson.databind.ObjectMapper;
+import dev.runnel.connect.drift.DriftTable;
+import dev.runnel.core.config.ConfigLoader;
+import dev.runnel.core.config.PipelineConfig;
+import java.io.IOException;
+import java.io.PrintStream;
+import java.nio.file.Path;
+import java.time.Duration;
+import java.util.ArrayList;
+import java.util.List;
+import java.util.Map;
+import java.util.Properties;
+import java.util.UUID;
+import java.util.concurrent.Callable;
+import org.apache.kafka.clients.consumer.ConsumerConfig;
+import org.apache.kafka.clients.consumer.ConsumerRecord;
+import org.apache.kafka.clients.consumer.KafkaConsumer;
+import org.apache.kafka.common.PartitionInfo;
+import org.apache.kafka.common.TopicPartition;
+import org.apache.kafka.common.serialization.ByteArrayDeserializer;
+import picocli.CommandLine.Command;
+import picocli.CommandLine.Option;
+
+/** Follows a pipeline's coefficient snapshots and prints, per snapshot, the weights that moved most since a baseline. */
+@Command(name = "drift", mixinStandardHelpOptions = true,
+    description = {"Read <name>.coefficients (committed records only, no consumer group) and print one line per "
+        + "snapshot: time, index, noise sd, recent prequential MAE and RMSE, the weights that moved most since the "
+        + "baseline in standard errors ((w - w_b) / sqrt(se^2 + se_b^2), raw units), and the raised alarms.",
+        "Reads to the current end and stops, or keeps following with --follow."})
+public final class DriftCommand implements Callable<Integer> {
+
+  @Option(names = "--pipeline", paramLabel = "NAME", description = "Pipeline name: reads NAME.coefficients.")
+  String pipeline;
+
+  @Option(names = "--topic", paramLabel = "TOPIC", description = "The coefficients topic itself (instead of --pipeline).")
+  String topic;
+
+  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT",
+      description = "Kafka bootstrap servers (or take kafka.bootstrap_servers from --config).")
+  String bootstrap;
+
+  @Option(names = "--config", paramLabel = "FILE",
+      description = "Pipeline configuration: gives the pipeline name, the bootstrap servers and client properties.")
+  Path config;
+
+  @Option(names = "--baseline", defaultValue = "pipeline", paramLabel = "WHICH",
+      description = "pipeline (the snapshot's own moved_se against drift.baseline), first, previous, a snapshot "
+          + "index or an ISO 8601 time (the first snapshot at or after it) (default: ${DEFAULT-VALUE}).")
+  String baseline;
+
+  @Option(names = "--from", paramLabel = "INDEX|TIME", description = "First snapshot to print: an index or an ISO 8601 time.")
+  String from;
+
+  @Option(names = "--to", paramLabel = "INDEX|TIME", description = "Last snapshot to print: an index or an ISO 8601 time.")
+  String to;
+
+  @Option(names = "--top", defaultValue = "3", paramLabel = "N", description = "Moved weights shown per snapshot (default: ${DEFAULT-VALUE}).")
+  int top;
+
+  @Option(names = "--follow", description = "Keep following new snapshots until Ctrl-C.")
+  boolean follow;
+
+  private static final ObjectMapper JSON = new ObjectMapper();
+
+  @Override
+  public Integer call() throws Exception {
+    Map<String, String> props = Map.of();
+    String name = pipeline;
+    String servers = bootstrap;
+    if (config != null) {
+      PipelineConfig cfg = ConfigLoader.load(config);
+      props = cfg.kafka().clientProperties();
+      if (name == null) {
+        name = cfg.name();
+      }
+      if (servers == null || servers.isBlank()) {
+        servers = cfg.kafka().bootstrapServers();
+      }
+    }
+    if ((name == null) == (topic == null)) {
+      throw new IllegalArgumentException("give exactly one of --pipeline NAME (or --config FILE) and --topic TOPIC");
+    }
+    if (servers == null || servers.isBlank()) {
+      throw new IllegalArgumentException("--bootstrap-servers: missing; give the cluster (for the embedded broker, the"
+          + " address that run or broker printed, e.g. --bootstrap-servers 127.0.0.1:9092)");
+    }
+    String t = topic != null ? topic : name + ".coefficients";
+    DriftTable table = new DriftTable(baseline, top,
+        from == null ? null : DriftTable.Point.parse(from, "--from"),
+        to == null ? null : DriftTable.Point.parse(to, "--to"));
+    return print(servers, props, t, table, follow, System.out);
+  }
+
+  /** Reads the topic and prints the table; package-private for tests. */
+  static int print(String servers, Map<String, String> props, String t, DriftTable table, boolean follow, PrintStream out) {
+    Properties p = new Properties();
+    p.putAll(props);
+    p.put(ConsumerConfig.BOOTSTRAP_SERVERS_CONFIG, servers);
+    p.put(ConsumerConfig.ISOLATION_LEVEL_CONFIG, "read_committed");
+    p.put(ConsumerConfig.ENABLE_AUTO_COMMIT_CONFIG, "false");
+    p.put(ConsumerConfig.CLIENT_ID_CONFIG, "runnel-drift-" + UUID.randomUUID());
+    try (KafkaConsumer<byte[], byte[]> c = new KafkaConsumer<>(p, new ByteArrayDeserializer(), new ByteArrayDeserializer())) {
+      List<PartitionInfo> infos = c.partitionsFor(t, Duration.ofSeconds(30));
+      if (infos == null || infos.isEmpty()) {
+        throw new IllegalArgumentException("--pipeline/--topic: topic " + t + " does not exist at " + servers
+            + "; check the name (the topic is <name>.coefficients) and that the pipeline has run");
+      }
+      List<TopicPartition> tps = new ArrayList<>();
+      for (PartitionInfo i : infos) {
+        tps.add(new TopicPartition(t, i.partition()));
+      }
+      c.assign(tps);
+      c.seekToBeginning(tps);
+      Map<TopicPartition, Long> end = c.endOffsets(tps, Duration.ofSeconds(30));
+      out.println(DriftTable.header());
+      int lines = 0;
+      while (true) {
+        boolean allPast = false;
+        for (ConsumerRecord<byte[], byte[]> r : c.poll(Duration.ofMillis(300))) {
+          JsonNode s;
+          try {
+            s = JSON.readTree(r.value());
+          } catch (IOException e) {
+            out.println("(offset " + r.offset() + ": not a snapshot, skipped)");
+            continue;
+          }
+          String line = table.take(s);
+          if (line != null) {
+            out.println(line);
+            lines++;
+          }
+          allPast = table.pastEnd(s);
+        }
+        if (!follow && reachedEnd(c, end)) {
+          break;
+        }
+        if (allPast && tps.size() == 1) {
+          break;
+        }
+      }
+      out.flush();
+      return lines == 0 ? 1 : 0;
+    }
+  }
+
+  private static boolean reachedEnd(KafkaConsumer<byte[], byte[]> c, Map<TopicPartition, Long> end) {
+    for (Map.Entry<TopicPartition, Long> e : end.entrySet()) {
+      if (c.position(e.getKey()) < e.getValue()) {
+        return false;
+      }
+    }
+    return true;
+  }
+}

@@ -1,0 +1,218 @@
+package dev.runnel.connect.drift;
+
+import com.fasterxml.jackson.databind.JsonNode;
+import java.time.Instant;
+import java.time.format.DateTimeParseException;
+import java.util.ArrayList;
+import java.util.HashMap;
+import java.util.List;
+import java.util.Locale;
+import java.util.Map;
+
+/**
+ * Turns coefficient snapshots (the JSON of {@code <name>.coefficients}, in offset order per
+ * partition) into one compact line each: time, index, noise sd, prequential error, the weights that
+ * moved most since the baseline in standard errors, and the raised alarms. One thread.
+ *
+ * <p>The score is the pipeline's own: {@code (w − w_b) / √(se² + se_b²)} on raw-unit weights.
+ * With the baseline {@code pipeline}, the snapshot's own {@code moved_se} (against the configured
+ * {@code drift.baseline}) is shown as published.
+ */
+public final class DriftTable {
+
+  /** A bound or a baseline given as a snapshot index or an ISO 8601 time. */
+  public record Point(long index, Instant time) {
+    /**
+     * @param text a whole number (a snapshot index) or an ISO 8601 instant such as 2026-02-01T00:00:00Z
+     * @param option the option's name for the message
+     * @throws IllegalArgumentException if it is neither
+     */
+    public static Point parse(String text, String option) {
+      if (text.matches("\\d{1,18}")) {
+        return new Point(Long.parseLong(text), null);
+      }
+      try {
+        return new Point(-1, Instant.parse(text));
+      } catch (DateTimeParseException e) {
+        throw new IllegalArgumentException(option + ": \"" + text + "\" is not allowed; use a snapshot index (a whole"
+            + " number) or an ISO 8601 time such as 2026-02-01T00:00:00Z");
+      }
+    }
+
+    boolean reachedBy(JsonNode s) {
+      return time == null ? s.path("index").asLong(-1) >= index : !timeOf(s).isBefore(time);
+    }
+
+    boolean passedBy(JsonNode s) {
+      return time == null ? s.path("index").asLong(-1) > index : timeOf(s).isAfter(time);
+    }
+  }
+
+  private final String baseline;
+  private final Point baselinePoint;
+  private final int top;
+  private final Point from;
+  private final Point to;
+  private final Map<Integer, Map<String, JsonNode>> first = new HashMap<>();
+  private final Map<Integer, JsonNode> previous = new HashMap<>();
+  private final Map<Integer, JsonNode> chosen = new HashMap<>();
+
+  /**
+   * @param baseline {@code pipeline}, {@code first}, {@code previous}, a snapshot index or an ISO 8601 time
+   * @param top how many moved weights to show per snapshot, at least 1
+   * @param from first snapshot to print, or null
+   * @param to last snapshot to print, or null
+   * @throws IllegalArgumentException if {@code baseline} or {@code top} is not allowed
+   */
+  public DriftTable(String baseline, int top, Point from, Point to) {
+    if (top < 1 || top > 1000) {
+      throw new IllegalArgumentException("--top: " + top + " is not allowed; use a whole number from 1 to 1000");
+    }
+    this.baseline = baseline;
+    this.baselinePoint = switch (baseline) {
+      case "pipeline", "first", "previous" -> null;
+      default -> Point.parse(baseline, "--baseline");
+    };
+    this.top = top;
+    this.from = from;
+    this.to = to;
+  }
+
+  /** The column header. */
+  public static String header() {
+    return String.format(Locale.ROOT, "%-5s %-17s %3s %8s %8s %8s  %s", "snap", "event time (UTC)", "prt", "noise_sd",
+        "rec_MAE", "rec_RMSE", "moved most since the baseline (raw units, score in standard errors) | alarms");
+  }
+
+  /** Whether a snapshot is past {@code --to} (a follower can stop). */
+  public boolean pastEnd(JsonNode s) {
+    return to != null && to.passedBy(s);
+  }
+
+  /**
+   * Takes the next snapshot.
+   *
+   * @param s a snapshot. Not modified.
+   * @return the line to print, or null when it is outside {@code --from}/{@code --to}
+   */
+  public String take(JsonNode s) {
+    int part = s.path("partition").asInt();
+    JsonNode prev = previous.put(part, s);
+    if (baselinePoint != null && !chosen.containsKey(part) && baselinePoint.reachedBy(s)) {
+      chosen.put(part, s);
+    }
+    if ((from != null && !from.reachedBy(s)) || (to != null && to.passedBy(s))) {
+      return null;
+    }
+    // "first": per column, the first snapshot in which it had a finite weight and standard error
+    Map<String, JsonNode> firstCols = first.computeIfAbsent(part, k -> new HashMap<>());
+    JsonNode base = switch (baseline) {
+      case "pipeline", "first" -> null;
+      case "previous" -> prev;
+      default -> chosen.get(part);
+    };
+    StringBuilder sb = new StringBuilder(String.format(Locale.ROOT, "%-5d %-17s %3d %8s %8s %8s  ",
+        s.path("index").asLong(-1), shortTime(s.path("event_time").asText("")), part, num(s.path("noise_sd")),
+        num(s.path("metrics").path("recent").path("mae")), num(s.path("metrics").path("recent").path("rmse"))));
+    List<double[]> scores = new ArrayList<>();
+    List<String> texts = new ArrayList<>();
+    Map<String, JsonNode> before = baseline.equals("first") ? new HashMap<>(firstCols) : new HashMap<>();
+    if (base != null) {
+      for (JsonNode c : base.path("columns")) {
+        before.put(c.path("name").asText(), c);
+      }
+    }
+    for (JsonNode c : s.path("columns")) {
+      String name = c.path("name").asText();
+      double score;
+      double w0;
+      if (baseline.equals("pipeline")) {
+        if (!c.path("moved_se").isNumber()) {
+          continue;
+        }
+        score = c.path("moved_se").asDouble();
+        w0 = Double.NaN;
+      } else {
+        JsonNode b = before.get(name);
+        if (b == null || base == s || !isNum(b, "raw_weight") || !isNum(c, "raw_weight")) {
+          continue;
+        }
+        double se = c.path("raw_std_error").asDouble(Double.NaN);
+        double seb = b.path("raw_std_error").asDouble(Double.NaN);
+        double den = Math.sqrt(se * se + seb * seb);
+        if (!(den > 0)) {
+          continue;
+        }
+        w0 = b.path("raw_weight").asDouble();
+        score = (c.path("raw_weight").asDouble() - w0) / den;
+      }
+      scores.add(new double[] {Math.abs(score), texts.size()});
+      double w = c.path("raw_weight").asDouble(Double.NaN);
+      texts.add(Double.isNaN(w0)
+          ? String.format(Locale.ROOT, "%s %s (%+.1f)", name, sig(w), score)
+          : String.format(Locale.ROOT, "%s %s→%s (%+.1f)", name, sig(w0), sig(w), score));
+    }
+    if (s.path("ready").asBoolean(false)) {
+      for (JsonNode c : s.path("columns")) {
+        if (c.path("raw_weight").isNumber() && c.path("raw_std_error").isNumber()) {
+          firstCols.putIfAbsent(c.path("name").asText(), c);
+        }
+      }
+    }
+    scores.sort((x, y) -> Double.compare(y[0], x[0]));
+    if (scores.isEmpty()) {
+      boolean waiting = base == null && !baseline.equals("pipeline") && !baseline.equals("first");
+      sb.append(waiting ? "(before the baseline)" : "(no scores yet)");
+    }
+    for (int i = 0; i < Math.min(top, scores.size()); i++) {
+      if (i > 0) {
+        sb.append(", ");
+      }
+      sb.append(texts.get((int) scores.get(i)[1]));
+    }
+    JsonNode alarms = s.path("alarms");
+    if (alarms.size() > 0) {
+      sb.append("  | ALARM");
+      for (JsonNode a : alarms) {
+        sb.append(' ');
+        if (a.path("kind").asText().equals("weight")) {
+          sb.append(a.path("column").asText()).append(' ').append(a.path("direction").asText());
+        } else {
+          sb.append("error level ").append(a.path("direction").asText()).append(" at ")
+              .append(shortTime(a.path("fired_at").asText("")));
+        }
+        sb.append(';');
+      }
+      sb.setLength(sb.length() - 1);
+    }
+    return sb.toString();
+  }
+
+  private static Instant timeOf(JsonNode s) {
+    try {
+      return Instant.parse(s.path("event_time").asText());
+    } catch (DateTimeParseException e) {
+      return Instant.MIN;
+    }
+  }
+
+  private static boolean isNum(JsonNode c, String k) {
+    return c.path(k).isNumber();
+  }
+
+  private static String shortTime(String iso) {
+    return iso.length() >= 16 ? iso.substring(0, 16) + "Z" : iso;
+  }
+
+  private static String num(JsonNode v) {
+    return v.isNumber() ? sig(v.asDouble()) : "-";
+  }
+
+  private static String sig(double v) {
+    if (Double.isNaN(v)) {
+      return "-";
+    }
+    double a = Math.abs(v);
+    return String.format(Locale.ROOT, a >= 100 ? "%.1f" : a >= 1 ? "%.3f" : "%.4f", v);
+  }
+}

@@ -1,0 +1,60 @@
+package dev.runnel.connect.drift;
+
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertNull;
+import static org.junit.jupiter.api.Assertions.assertThrows;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import com.fasterxml.jackson.databind.JsonNode;
+import com.fasterxml.jackson.databind.ObjectMapper;
+import java.time.Instant;
+import java.util.Locale;
+import org.junit.jupiter.api.Test;
+
+/** The drift table on hand-made snapshots with hand-computed scores. */
+class DriftTableTest {
+
+  private static final ObjectMapper JSON = new ObjectMapper();
+
+  static JsonNode snap(int index, double wa, double sea, double wb, double seb, String alarms) throws Exception {
+    String t = Instant.parse("2026-02-01T00:00:00Z").plusSeconds(3600L * index).toString();
+    return JSON.readTree(String.format(Locale.ROOT, "{\"partition\":0,\"index\":%d,\"event_time\":\"%s\",\"ready\":true,"
+        + "\"noise_sd\":1.5,\"metrics\":{\"recent\":{\"mae\":1.2,\"rmse\":1.6}},"
+        + "\"columns\":[{\"name\":\"a\",\"raw_weight\":%s,\"raw_std_error\":%s,\"moved_se\":0.5},"
+        + "{\"name\":\"b\",\"raw_weight\":%s,\"raw_std_error\":%s,\"moved_se\":-7.25}],\"alarms\":[%s]}",
+        index, t, wa, sea, wb, seb, alarms));
+  }
+
+  @Test
+  void scoresAgainstTheFirstSnapshotWorkedByHand() throws Exception {
+    DriftTable t = new DriftTable("first", 2, null, null);
+    assertTrue(t.take(snap(0, 1.0, 0.3, 2.0, 0.4, "")).contains("(no scores yet)"));
+    // a: (1.6 − 1.0)/√(0.3² + 0.4²) = 0.6/0.5 = +1.2;  b: (0.8 − 2.0)/√(0.4² + 0.3²) = −1.2/0.5 = −2.4
+    String line = t.take(snap(1, 1.6, 0.4, 0.8, 0.3, ""));
+    assertTrue(line.contains("b 2.000→0.8000 (-2.4), a 1.000→1.600 (+1.2)"), line);
+  }
+
+  @Test
+  void pipelineBaselineShowsThePublishedScoresAndAlarms() throws Exception {
+    DriftTable t = new DriftTable("pipeline", 1, null, null);
+    String line = t.take(snap(3, 1, 0.1, 2, 0.1,
+        "{\"kind\":\"weight\",\"column\":\"b\",\"direction\":\"down\"},"
+            + "{\"kind\":\"error_level\",\"direction\":\"up\",\"fired_at\":\"2026-02-01T02:17:00Z\"}"));
+    assertTrue(line.startsWith("3     2026-02-01T03:00Z   0    1.500    1.200    1.600  b 2.000 (-7.3)"), line);
+    assertTrue(line.endsWith("| ALARM b down; error level up at 2026-02-01T02:17Z"), line);
+  }
+
+  @Test
+  void fromToAndAChosenBaselineByIndexAndTime() throws Exception {
+    DriftTable t = new DriftTable("2", 1, DriftTable.Point.parse("2026-02-01T01:00:00Z", "--from"),
+        DriftTable.Point.parse("3", "--to"));
+    assertNull(t.take(snap(0, 1, 0.1, 1, 0.1, "")), "before --from");
+    assertTrue(t.take(snap(1, 1, 0.1, 1, 0.1, "")).contains("(before the baseline)"));
+    assertTrue(t.take(snap(2, 1, 0.1, 1, 0.1, "")).contains("(no scores yet)"), "the baseline itself");
+    // a: (1.3 − 1)/√(0.1² + 0.1²) = 2.1213
+    assertTrue(t.take(snap(3, 1.3, 0.1, 1, 0.1, "")).contains("a 1.000→1.300 (+2.1)"));
+    assertNull(t.take(snap(4, 1, 0.1, 1, 0.1, "")), "after --to");
+    IllegalArgumentException e = assertThrows(IllegalArgumentException.class, () -> new DriftTable("yesterday", 3, null, null));
+    assertTrue(e.getMessage().startsWith("--baseline: \"yesterday\" is not allowed"), e.getMessage());
+  }
+}

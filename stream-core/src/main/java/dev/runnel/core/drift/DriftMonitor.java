@@ -1,0 +1,333 @@
+package dev.runnel.core.drift;
+
+import dev.runnel.core.config.DriftBaseline;
+import dev.runnel.core.config.ErrorTest;
+import dev.runnel.core.config.PipelineConfig;
+import java.io.DataInput;
+import java.io.DataOutput;
+import java.io.IOException;
+import java.util.ArrayDeque;
+import java.util.ArrayList;
+import java.util.Iterator;
+import java.util.LinkedHashMap;
+import java.util.List;
+import java.util.Map;
+
+/**
+ * The pipeline's drift alarms. One writer thread. Two inputs:
+ * <ul>
+ *   <li>{@link #observeError} for every scored record (hot path, allocates nothing unless an
+ *       alarm fires): the a priori error divided by its predictive sd with a reference noise sd,
+ *       {@code z = e / (s_ref √(1 + xᵀPx))}; the test watches {@code min(|z|, MAX_ABS_Z)} with a
+ *       two-sided {@link PageHinkley} test and records the event time at which it fired;</li>
+ *   <li>{@link #observeSnapshot} once per published snapshot (cold path): each column's raw-unit
+ *       weight is compared with its baseline, {@code score = (w − w_b) / √(se² + se_b²)}; a weight
+ *       alarm is raised while {@code |score| > k} and cleared when it falls back.</li>
+ * </ul>
+ * An error-level alarm is listed in the snapshot after it fired and in the next
+ * {@code alarm_hold_snapshots − 1} snapshots.
+ *
+ * <p>Implementation notes: the weight score divides by the combined standard error of the two
+ * estimates as if they were independent. Estimates that share data are positively correlated,
+ * so the true sd of the difference is smaller and the score is conservative (fewer false alarms
+ * than a normal tail at k would give, and a somewhat later alarm). Raw units are used because the
+ * model-basis weights are re-expressed whenever a scaler moves; raw weights change only with data.
+ */
+public final class DriftMonitor {
+
+  /** Absolute standardized errors are clipped at this value before the test sees them, so one wild record cannot fire it alone (with λ above it). */
+  public static final double MAX_ABS_Z = 8.0;
+
+  private final PipelineConfig.Drift settings;
+  private final PageHinkley test;
+  private final int historySize;
+  private final ArrayDeque<Map<String, double[]>> history = new ArrayDeque<>();
+  private final LinkedHashMap<String, double[]> first = new LinkedHashMap<>();
+  private final LinkedHashMap<String, DriftAlarm> weightAlarms = new LinkedHashMap<>();
+  private final ArrayList<DriftAlarm> errorAlarms = new ArrayList<>();
+  private final LinkedHashMap<String, Double> moved = new LinkedHashMap<>();
+  private long weightFired;
+  private double refNoiseSd = Double.NaN;
+  private long sinceRestart;
+  private long errorFired;
+
+  /**
+   * @param settings the {@code drift} section. Not modified.
+   */
+  public DriftMonitor(PipelineConfig.Drift settings) {
+    this.settings = settings;
+    this.test = settings.errorTest() == ErrorTest.PAGE_HINKLEY
+        ? new PageHinkley(settings.errorAllowance(), settings.errorThreshold(), settings.errorWarmupRecords())
+        : null;
+    this.historySize = switch (settings.baseline()) {
+      case PREVIOUS_SNAPSHOT -> 1;
+      case SNAPSHOTS_AGO -> settings.baselineSnapshots();
+      case FIRST_READY_SNAPSHOT -> 0;
+    };
+  }
+
+  /**
+   * One scored record's a priori error. After a start or an alarm, the first
+   * {@code error_warmup_records} errors are skipped (the model and its noise estimate settle),
+   * the next freezes the reference noise sd, and the test then learns the level for another
+   * {@code error_warmup_records} errors before it may fire. The test sees {@code |e| / (s_ref √(1 + xᵀPx))}, where
+   * {@code s_ref} is the noise sd frozen when the test (re)started: standardizing by the live noise
+   * estimate would let that estimate absorb a change and fire a second, opposite alarm as it
+   * catches up. Non-finite values are ignored.
+   *
+   * @param error actual − predicted
+   * @param predictiveSd the prediction's sd {@code s √(1 + xᵀPx)} with the live noise sd s
+   * @param noiseSd the live noise sd s
+   * @param eventTimeMillis the record's event time
+   * @param trained the pipeline's trained-record count including this record
+   * @return true if the error-level test fired on this record
+   */
+  public boolean observeError(double error, double predictiveSd, double noiseSd, long eventTimeMillis, long trained) {
+    if (test == null || !(predictiveSd > 0) || !(noiseSd > 0)) {
+      return false;
+    }
+    if (sinceRestart < settings.errorWarmupRecords()) {
+      // the model and its noise estimate settle first; then the reference noise sd is frozen
+      sinceRestart++;
+      return false;
+    }
+    if (Double.isNaN(refNoiseSd)) {
+      refNoiseSd = noiseSd;
+    }
+    double z = error / predictiveSd * (noiseSd / refNoiseSd);
+    if (!Double.isFinite(z)) {
+      return false;
+    }
+    double x = Math.min(Math.abs(z), MAX_ABS_Z);
+    PageHinkley.Direction d = test.add(x);
+    if (d == PageHinkley.Direction.NONE) {
+      return false;
+    }
+    // rare path: an alarm fired; the next value freezes a new reference noise sd
+    refNoiseSd = Double.NaN;
+    sinceRestart = 0;
+    errorFired++;
+    errorAlarms.add(new DriftAlarm(DriftAlarm.ERROR_LEVEL, null, d == PageHinkley.Direction.UP ? "up" : "down",
+        eventTimeMillis, -1, trained, test.lastFireStatistic(), test.threshold(), test.lastFireMean(), Double.NaN));
+    return true;
+  }
+
+  /**
+   * One snapshot's raw-unit weights and standard errors: evaluates the weight alarms, moves the
+   * baselines on and dates the error-level alarms fired since the previous snapshot.
+   *
+   * @param index the snapshot's index (0 for the pipeline's first)
+   * @param eventTimeMillis the snapshot's event time
+   * @param trained the pipeline's trained-record count
+   * @param names column names. Not modified.
+   * @param raw raw-unit weights (NaN when not defined). Not modified.
+   * @param rawSe their standard errors. Not modified.
+   * @param n number of columns
+   */
+  public void observeSnapshot(long index, long eventTimeMillis, long trained, String[] names, double[] raw,
+                              double[] rawSe, int n) {
+    Map<String, double[]> base = switch (settings.baseline()) {
+      case FIRST_READY_SNAPSHOT -> first;
+      case PREVIOUS_SNAPSHOT, SNAPSHOTS_AGO -> history.peekFirst();
+    };
+    double k = settings.weightAlarmSe();
+    moved.clear();
+    LinkedHashMap<String, double[]> now = new LinkedHashMap<>();
+    LinkedHashMap<String, DriftAlarm> still = new LinkedHashMap<>();
+    for (int j = 0; j < n; j++) {
+      double w = raw[j];
+      double se = rawSe[j];
+      if (!Double.isFinite(w) || !(se > 0) || Double.isInfinite(se)) {
+        continue;
+      }
+      now.put(names[j], new double[] {w, se});
+      double[] b = base == null ? null : base.get(names[j]);
+      if (b == null) {
+        continue;
+      }
+      double score = (w - b[0]) / Math.sqrt(se * se + b[1] * b[1]);
+      moved.put(names[j], score);
+      if (k > 0 && Math.abs(score) > k) {
+        String dir = score > 0 ? "up" : "down";
+        DriftAlarm a = weightAlarms.get(names[j]);
+        if (a == null) {
+          weightFired++;
+          a = new DriftAlarm(DriftAlarm.WEIGHT, names[j], dir, eventTimeMillis, index, trained, Math.abs(score), k,
+              b[0], w);
+        } else {
+          a = a.withScore(Math.abs(score), w, dir);
+        }
+        still.put(names[j], a);
+      }
+    }
+    weightAlarms.clear();
+    weightAlarms.putAll(still);
+    if (settings.baseline() == DriftBaseline.FIRST_READY_SNAPSHOT) {
+      for (Map.Entry<String, double[]> e : now.entrySet()) {
+        first.putIfAbsent(e.getKey(), e.getValue());
+      }
+      first.keySet().retainAll(now.keySet());
+    } else {
+      history.addLast(now);
+      while (history.size() > historySize) {
+        history.removeFirst();
+      }
+    }
+    for (int i = 0; i < errorAlarms.size(); i++) {
+      DriftAlarm a = errorAlarms.get(i);
+      if (a.firedAtSnapshot() < 0) {
+        errorAlarms.set(i, new DriftAlarm(a.kind(), a.column(), a.direction(), a.firedAtMillis(), index,
+            a.firedAtRecord(), a.score(), a.threshold(), a.baselineValue(), a.currentValue()));
+      }
+    }
+    Iterator<DriftAlarm> it = errorAlarms.iterator();
+    while (it.hasNext()) {
+      if (index - it.next().firedAtSnapshot() >= settings.alarmHoldSnapshots()) {
+        it.remove();
+      }
+    }
+  }
+
+  /** The alarms raised at the latest snapshot: weight alarms in column order, then error-level alarms. */
+  public List<DriftAlarm> alarms() {
+    List<DriftAlarm> out = new ArrayList<>(weightAlarms.values());
+    for (DriftAlarm a : errorAlarms) {
+      if (a.firedAtSnapshot() >= 0) {
+        out.add(a);
+      }
+    }
+    return out;
+  }
+
+  /** The signed score of a column at the latest snapshot, NaN when it had no baseline. */
+  public double moved(String column) {
+    Double d = moved.get(column);
+    return d == null ? Double.NaN : d;
+  }
+
+  /** The published status. */
+  public DriftStatus status() {
+    return new DriftStatus(settings.errorTest().word(),
+        test == null ? Double.NaN : test.upStatistic(), test == null ? Double.NaN : test.downStatistic(),
+        test == null ? Double.NaN : test.threshold(), test == null ? Double.NaN : test.mean(),
+        test == null ? 0 : test.count(), weightFired, errorFired, settings.baseline().word(), settings.weightAlarmSe());
+  }
+
+  /** Weight alarms fired since the start. */
+  public long weightAlarmsFired() { return weightFired; }
+
+  /** Error-level alarms fired since the start. */
+  public long errorAlarmsFired() { return errorFired; }
+
+  // ------------------------------------------------------------------ checkpoint
+
+  /** Writes the whole state. */
+  public void writeTo(DataOutput out) throws IOException {
+    out.writeLong(weightFired);
+    out.writeLong(errorFired);
+    out.writeDouble(refNoiseSd);
+    out.writeLong(sinceRestart);
+    out.writeBoolean(test != null);
+    if (test != null) {
+      test.writeTo(out);
+    }
+    out.writeInt(history.size());
+    for (Map<String, double[]> m : history) {
+      writeMap(out, m);
+    }
+    writeMap(out, first);
+    out.writeInt(weightAlarms.size());
+    for (DriftAlarm a : weightAlarms.values()) {
+      writeAlarm(out, a);
+    }
+    out.writeInt(errorAlarms.size());
+    for (DriftAlarm a : errorAlarms) {
+      writeAlarm(out, a);
+    }
+    out.writeInt(moved.size());
+    for (Map.Entry<String, Double> e : moved.entrySet()) {
+      out.writeUTF(e.getKey());
+      out.writeDouble(e.getValue());
+    }
+  }
+
+  /** Reads a state written by {@link #writeTo}; the settings come from the configuration. */
+  public void readFrom(DataInput in) throws IOException {
+    weightFired = in.readLong();
+    errorFired = in.readLong();
+    refNoiseSd = in.readDouble();
+    sinceRestart = in.readLong();
+    if (in.readBoolean()) {
+      // the test's parameters come from the configuration; a saved test is skipped when it is now off
+      (test != null ? test : new PageHinkley(0, 1, 1)).readFrom(in);
+    }
+    history.clear();
+    int h = in.readInt();
+    for (int i = 0; i < h; i++) {
+      history.addLast(readMap(in));
+    }
+    while (history.size() > Math.max(historySize, 0)) {
+      history.removeFirst();
+    }
+    first.clear();
+    first.putAll(readMap(in));
+    weightAlarms.clear();
+    int wa = in.readInt();
+    for (int i = 0; i < wa; i++) {
+      DriftAlarm a = readAlarm(in);
+      weightAlarms.put(a.column(), a);
+    }
+    errorAlarms.clear();
+    int ea = in.readInt();
+    for (int i = 0; i < ea; i++) {
+      errorAlarms.add(readAlarm(in));
+    }
+    moved.clear();
+    int mv = in.readInt();
+    for (int i = 0; i < mv; i++) {
+      moved.put(in.readUTF(), in.readDouble());
+    }
+  }
+
+  private static void writeMap(DataOutput out, Map<String, double[]> m) throws IOException {
+    out.writeInt(m.size());
+    for (Map.Entry<String, double[]> e : m.entrySet()) {
+      out.writeUTF(e.getKey());
+      out.writeDouble(e.getValue()[0]);
+      out.writeDouble(e.getValue()[1]);
+    }
+  }
+
+  private static LinkedHashMap<String, double[]> readMap(DataInput in) throws IOException {
+    int n = in.readInt();
+    LinkedHashMap<String, double[]> m = new LinkedHashMap<>();
+    for (int i = 0; i < n; i++) {
+      String k = in.readUTF();
+      m.put(k, new double[] {in.readDouble(), in.readDouble()});
+    }
+    return m;
+  }
+
+  private static void writeAlarm(DataOutput out, DriftAlarm a) throws IOException {
+    out.writeUTF(a.kind());
+    out.writeBoolean(a.column() != null);
+    if (a.column() != null) {
+      out.writeUTF(a.column());
+    }
+    out.writeUTF(a.direction());
+    out.writeLong(a.firedAtMillis());
+    out.writeLong(a.firedAtSnapshot());
+    out.writeLong(a.firedAtRecord());
+    out.writeDouble(a.score());
+    out.writeDouble(a.threshold());
+    out.writeDouble(a.baselineValue());
+    out.writeDouble(a.currentValue());
+  }
+
+  private static DriftAlarm readAlarm(DataInput in) throws IOException {
+    String kind = in.readUTF();
+    String column = in.readBoolean() ? in.readUTF() : null;
+    return new DriftAlarm(kind, column, in.readUTF(), in.readLong(), in.readLong(), in.readLong(), in.readDouble(),
+        in.readDouble(), in.readDouble(), in.readDouble());
+  }
+}
