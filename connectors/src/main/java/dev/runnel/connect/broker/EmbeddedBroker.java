@@ -185,6 +185,22 @@ public final class EmbeddedBroker implements AutoCloseable {
   /** Same as {@link #stop()}. */
   @Override public void close() { stop(); }
 
+  /**
+   * Removes the JVM shutdown hook that stops the broker, for a caller whose own hook must finish
+   * first with the broker still up (the runner commits its open transaction, then stops the
+   * broker). The caller then owns stopping it.
+   */
+  public synchronized void detachShutdownHook() {
+    if (shutdownHook != null) {
+      try {
+        Runtime.getRuntime().removeShutdownHook(shutdownHook);
+      } catch (IllegalStateException alreadyShuttingDown) {
+        return; // the hook runs or has run; nothing to undo
+      }
+      shutdownHook = null;
+    }
+  }
+
   // ---------------------------------------------------------------- internals
 
   private void forget() {

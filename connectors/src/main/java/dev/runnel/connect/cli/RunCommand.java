@@ -56,6 +56,9 @@ public final class RunCommand implements Callable<Integer> {
     }
     RunnerSettings settings = Launch.runnerSettings(cfg, servers, instanceId);
     ExactlyOnceRunner runner = new ExactlyOnceRunner(settings, PipelineProcessor.factory(cfg));
+    if (broker != null) {
+      broker.detachShutdownHook(); // our stopper below commits first, then stops the broker
+    }
     EmbeddedBroker b = broker;
     Thread stopper = new Thread(() -> {
       runner.close();

@@ -28,7 +28,6 @@ import java.util.Iterator;
 import java.util.List;
 import java.util.Locale;
 import java.util.Map;
-import java.util.Optional;
 import java.util.Properties;
 import java.util.concurrent.ExecutionException;
 import java.util.concurrent.atomic.AtomicLong;
@@ -117,11 +116,7 @@ public final class DemoRun {
     PipelineConfig base = demoConfig();
     String name = base.name() + "-r" + runNo;
     String topic = name + ".sessions";
-    PipelineConfig cfg = new PipelineConfig(name,
-        new PipelineConfig.Input(Optional.of(topic), base.input().schema(), base.input().eventTime(),
-            base.input().timeZone(), base.input().limits()),
-        base.target(), base.features(), base.model(), base.outputs(), base.kafka(), base.web(), base.sourceName(),
-        base.drift());
+    PipelineConfig cfg = base.withNameAndTopic(name, topic);
     Settings settings = Settings.defaults().withDays(o.days()).withSeed(o.seed());
     QuillmarshGenerator gen = new QuillmarshGenerator(settings);
     long total = gen.countRecords();

@@ -30,7 +30,6 @@ import java.util.HashMap;
 import java.util.LinkedHashMap;
 import java.util.List;
 import java.util.Map;
-import java.util.Optional;
 import org.apache.kafka.clients.admin.Admin;
 import org.apache.kafka.clients.consumer.ConsumerRecord;
 import org.junit.jupiter.api.Test;
@@ -51,11 +50,7 @@ class PipelineOnKafkaTest {
 
   /** The demo configuration with its own pipeline name and topic. */
   static PipelineConfig config(String name) {
-    PipelineConfig b = DemoRun.demoConfig();
-    return new PipelineConfig(name,
-        new PipelineConfig.Input(Optional.of(name + ".in"), b.input().schema(), b.input().eventTime(),
-            b.input().timeZone(), b.input().limits()),
-        b.target(), b.features(), b.model(), b.outputs(), b.kafka(), b.web(), b.sourceName());
+    return DemoRun.demoConfig().withNameAndTopic(name, name + ".in");
   }
 
   static List<String> demoLines(int n) {

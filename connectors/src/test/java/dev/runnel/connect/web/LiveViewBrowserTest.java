@@ -32,7 +32,6 @@ import java.util.ArrayList;
 import java.util.Iterator;
 import java.util.List;
 import java.util.Map;
-import java.util.Optional;
 import java.util.concurrent.TimeUnit;
 import java.util.regex.Matcher;
 import java.util.regex.Pattern;
@@ -56,12 +55,7 @@ class LiveViewBrowserTest {
   private static final ObjectMapper JSON = new ObjectMapper();
 
   static PipelineConfig config(String name, String topic) {
-    PipelineConfig base = DemoRun.demoConfig();
-    return new PipelineConfig(name,
-        new PipelineConfig.Input(Optional.of(topic), base.input().schema(), base.input().eventTime(),
-            base.input().timeZone(), base.input().limits()),
-        base.target(), base.features(), base.model(), base.outputs(), base.kafka(), base.web(), base.sourceName(),
-        base.drift());
+    return DemoRun.demoConfig().withNameAndTopic(name, topic);
   }
 
   static Path chromium() {

@@ -27,6 +27,17 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
     this(name, input, target, features, model, outputs, kafka, web, sourceName, Drift.DEFAULTS);
   }
 
+  /**
+   * The same configuration under another pipeline name and input topic (a demo run, a test, a
+   * second pipeline on the same features). The name is not re-checked here; {@link ConfigLoader}
+   * checks names read from files.
+   */
+  public PipelineConfig withNameAndTopic(String newName, String newTopic) {
+    return new PipelineConfig(newName,
+        new Input(Optional.of(newTopic), input.schema(), input.eventTime(), input.timeZone(), input.limits()),
+        target, features, model, outputs, kafka, web, sourceName, drift);
+  }
+
   /** The slot of the target field in {@code input().schema()}. */
   public int targetSlot() { return input.schema().slot(target); }
 
