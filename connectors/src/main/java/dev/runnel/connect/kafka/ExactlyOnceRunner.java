@@ -120,7 +120,18 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private int recordsInTx;
   private int consecutiveAborts;
   private volatile Exception sendError;
-  private final Callback sendCallback = (md, e) -> { if (e != null && sendError == null) sendError = e; };
+  /**
+   * The transaction that send errors count for. Callbacks of an earlier transaction (aborted, or
+   * of a producer already replaced) arrive late and must not fail the current one.
+   */
+  private volatile long txGeneration;
+  private Callback sendCallback = callbackFor(0);
+
+  private Callback callbackFor(long generation) {
+    return (md, e) -> {
+      if (e != null && generation == txGeneration && sendError == null) sendError = e;
+    };
+  }
 
   /** Per input partition: its processor and what was last committed for it. */
   private final class Slot implements Emitter {
@@ -135,6 +146,9 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     byte[] committedCheckpoint;
     long next;
     boolean touched;
+    /** What the transaction being committed carries for this partition, until its outcome is known. */
+    long pendingNext = -1;
+    byte[] pendingCheckpoint;
 
     Slot(TopicPartition tp) {
       this.tp = tp;
@@ -315,6 +329,9 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
 
   private void beginIfNeeded() {
     if (txOpen) return;
+    txGeneration++;
+    sendError = null;
+    sendCallback = callbackFor(txGeneration);
     producer.beginTransaction();
     txOpen = true;
     txStartNanos = System.nanoTime();
@@ -340,6 +357,8 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       producer.send(rec, sendCallback);
       offsets.put(s.tp, new OffsetAndMetadata(s.next));
       checkpoints.put(s.tp, cp);
+      s.pendingNext = s.next;
+      s.pendingCheckpoint = cp;
     }
     if (sendError != null) throw new KafkaException("an output record could not be sent: " + sendError, sendError);
     if (!offsets.isEmpty()) producer.sendOffsetsToTransaction(offsets, consumer.groupMetadata());
@@ -365,6 +384,8 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       s.committedNext = s.next;
       s.committedCheckpoint = e.getValue();
       s.touched = false;
+      s.pendingNext = -1;
+      s.pendingCheckpoint = null;
     }
     commits++;
     lastCommitMillis = System.currentTimeMillis();
@@ -448,8 +469,10 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       recreateProducer();
     }
     txOpen = false;
+    txGeneration++; // late callbacks of the aborted transaction no longer count
     sendError = null;
     aborts++;
+    adoptCommitsThatHappened();
     for (Slot s : slots.values()) resetSlot(s);
     if (groupMembershipProblem(cause)) {
       // the coordinator no longer accepts our generation: rejoin, and restore whatever we are given
@@ -459,6 +482,44 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     // back off when aborts follow each other without a commit in between, so a persistent problem does not spin
     consecutiveAborts++;
     if (consecutiveAborts > 1) sleep(Math.min(BACKOFF_MS, 50L << Math.min(consecutiveAborts, 6)));
+  }
+
+  /**
+   * A failed {@code commitTransaction()} does not say whether the commit happened: the broker may
+   * have written the commit decision before the connection broke, and a new producer's
+   * {@code initTransactions()} then completes it. Rewinding to the previous commit would then
+   * process those records twice. So before rewinding, ask the group coordinator which offsets are
+   * committed (a read_committed consumer waits for pending transactional offsets) and adopt the
+   * interrupted transaction's checkpoint where its offsets are the committed ones.
+   */
+  private void adoptCommitsThatHappened() {
+    Map<TopicPartition, Slot> pending = new LinkedHashMap<>();
+    for (Slot s : slots.values()) {
+      if (s.pendingCheckpoint != null) pending.put(s.tp, s);
+    }
+    if (pending.isEmpty()) return;
+    Map<TopicPartition, OffsetAndMetadata> committed;
+    while (true) {
+      try {
+        committed = consumer.committed(new HashSet<>(pending.keySet()), Duration.ofSeconds(15));
+        break;
+      } catch (TimeoutException e) {
+        if (closing) throw new WakeupException();
+        LOG.warn("broker at {} not reachable; retrying the offset check in {} s", settings.bootstrapServers(), BACKOFF_MS / 1000);
+        sleep(BACKOFF_MS);
+      }
+    }
+    for (Slot s : pending.values()) {
+      OffsetAndMetadata o = committed.get(s.tp);
+      if (o != null && o.offset() == s.pendingNext) {
+        LOG.info("runner {}: the interrupted commit of {} had gone through (offset {}); resuming after it",
+            settings.name(), s.tp, s.pendingNext);
+        s.committedNext = s.pendingNext;
+        s.committedCheckpoint = s.pendingCheckpoint;
+      }
+      s.pendingNext = -1;
+      s.pendingCheckpoint = null;
+    }
   }
 
   private static boolean groupMembershipProblem(Throwable e) {
