@@ -30,11 +30,16 @@ import java.util.TreeMap;
  * @param finalMae prequential MAE over the fading window in the last snapshot
  * @param finalCoverage interval coverage over the fading window in the last snapshot
  * @param forecasts forecast predictions (records without a target)
+ * @param tariffAlarmAt first drift alarm (error level up, or the price weight) within two days of the tariff change, or null
+ * @param tariffAlarm what that alarm was
+ * @param fahrenheitAlarmAt first drift alarm (error level up, or the temperature weight) from the °F hours to a day after, or null
+ * @param fahrenheitAlarm what that alarm was
  */
 public record DemoSummary(long records, long predictions, Map<String, Long> rejectsByReason,
                           double priceBefore, double priceBeforeSe, double priceAfter, double priceAfterSe,
                           Instant openingSeen, Instant closingGone, double fahrenheitMae, double normalMae,
-                          double finalMae, double finalCoverage, long forecasts, Settings settings) {
+                          double finalMae, double finalCoverage, long forecasts, Settings settings,
+                          Instant tariffAlarmAt, String tariffAlarm, Instant fahrenheitAlarmAt, String fahrenheitAlarm) {
 
   /** Whether the tariff change was found: the price weight roughly doubled, each within 4 standard errors and 20% of the truth. */
   public boolean tariffChangeFound() {
@@ -61,7 +66,30 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     double pb = Double.NaN, pbSe = Double.NaN, pa = Double.NaN, paSe = Double.NaN;
     Instant openingSeen = null, closingGone = null;
     double finalMae = Double.NaN, finalCov = Double.NaN;
+    Instant priceAlarm = null, fAlarm = null;
+    String priceAlarmWhat = null, fAlarmWhat = null;
     for (JsonNode s : snapshots) {
+      for (JsonNode a : s.path("alarms")) {
+        if (!a.path("fired_at").isTextual()) {
+          continue;
+        }
+        Instant at = Instant.parse(a.path("fired_at").asText());
+        String kind = a.path("kind").asText();
+        String col = a.path("column").asText("");
+        String what = kind.equals("weight") ? col + " weight " + a.path("direction").asText()
+            : "error level " + a.path("direction").asText();
+        boolean errorUp = kind.equals("error_level") && a.path("direction").asText().equals("up");
+        if ((errorUp || col.equals("price_per_kwh")) && !at.isBefore(tariff)
+            && at.isBefore(tariff.plus(java.time.Duration.ofDays(2))) && (priceAlarm == null || at.isBefore(priceAlarm))) {
+          priceAlarm = at;
+          priceAlarmWhat = what;
+        }
+        if ((errorUp || col.equals("temperature_c")) && !at.isBefore(fFrom)
+            && at.isBefore(fTo.plus(java.time.Duration.ofDays(1))) && (fAlarm == null || at.isBefore(fAlarm))) {
+          fAlarm = at;
+          fAlarmWhat = what;
+        }
+      }
       if (s.path("event_time").isNull() || !s.path("ready").asBoolean()) {
         continue;
       }
@@ -111,7 +139,8 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
       byReason.merge(r.path("reason").asText(), 1L, Long::sum);
     }
     return new DemoSummary(records, predictions.size(), byReason, pb, pbSe, pa, paSe, openingSeen, closingGone,
-        fN == 0 ? Double.NaN : fSum / fN, nN == 0 ? Double.NaN : nSum / nN, finalMae, finalCov, forecasts, settings);
+        fN == 0 ? Double.NaN : fSum / fN, nN == 0 ? Double.NaN : nSum / nN, finalMae, finalCov, forecasts, settings,
+        priceAlarm, priceAlarmWhat, fAlarm, fAlarmWhat);
   }
 
   /** A time as local date and hour in the scenario's zone, like the ground truth's. */
@@ -144,6 +173,8 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
             GroundTruth.PRICE_EFFECT_AFTER_TARIFF_PER_EUR),
         String.format(Locale.ROOT, "%.1f±%.1f -> %.1f±%.1f", priceBefore, 2 * priceBeforeSe, priceAfter, 2 * priceAfterSe),
         tariffChangeFound() ? "yes" : "NO");
+    out.printf(Locale.ROOT, "%-34s %-26s %s%n", "", "", tariffAlarmAt == null ? "no drift alarm within 2 days"
+        : "drift alarm " + local(tariffAlarmAt) + ": " + tariffAlarm);
     out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "hub " + GroundTruth.HUBS.get(GroundTruth.OPENING_HUB).id() + " opens",
         opening.substring(0, 16), openingSeen == null ? "never admitted" : "column from " + local(openingSeen),
         openingSeen != null ? "yes" : "NO");
@@ -153,6 +184,8 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "temperatures sent in °F (6 h)", "data-quality incident",
         String.format(Locale.ROOT, "MAE %.2f vs %.2f usual", fahrenheitMae, normalMae),
         fahrenheitMae > 1.5 * normalMae ? "yes (error spike)" : "contained (|z| clipped)");
+    out.printf(Locale.ROOT, "%-34s %-26s %s%n", "", "", fahrenheitAlarmAt == null ? "no drift alarm within a day"
+        : "drift alarm " + local(fahrenheitAlarmAt) + ": " + fahrenheitAlarm);
     out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "corrupt records", "5 planted",
         rejectsByReason.values().stream().mapToLong(Long::longValue).sum() + " rejected", "");
     out.printf(Locale.ROOT, "recent prequential MAE %.2f (noise sd %.1f: a perfect model scores about %.2f); "

@@ -52,6 +52,8 @@ class DemoRunTest {
     assertTrue(s.closingGone().isBefore(closing.plus(Duration.ofHours(24))), "retired within a day: " + s.closingGone());
     assertEquals(5, s.rejectsByReason().values().stream().mapToLong(Long::longValue).sum(), "the 5 planted corrupt records");
     assertEquals(s.records(), s.predictions() + 5, "one output per record");
+    // the drift alarms carried in the snapshots see the tariff change (error level up, or the price weight)
+    assertNotNull(s.tariffAlarmAt(), "a drift alarm within two days of the tariff change: " + printed);
     assertTrue(s.finalCoverage() > 0.8 && s.finalCoverage() < 0.97, "90% interval coverage near 90%: " + s.finalCoverage());
   }
 }
