@@ -78,6 +78,8 @@ public final class RlsModel implements LayoutListener {
   private double[] thetaNext;
   private double[] work;
   private double[] work2;
+  /** The windup guard's refresh row during an update. */
+  private double[] work3;
   /** Each column's prior information right after its last refresh (or its addition). */
   private double[] priorAtRefresh;
   /** The cumulative log-decay at that moment. */
@@ -135,6 +137,7 @@ public final class RlsModel implements LayoutListener {
     thetaNext = new double[cap];
     work = new double[cap];
     work2 = new double[cap];
+    work3 = new double[cap];
     priorAtRefresh = new double[cap];
     logDecayAtRefresh = new double[cap];
   }
@@ -292,45 +295,12 @@ public final class RlsModel implements LayoutListener {
     final int n = p;
     final int c = cap;
     final double sl = lambda == 1.0 ? 1.0 : Math.sqrt(lambda);
-    final double[] rm = r;
-    final double[] rn = rNext;
-    final double[] zm = z;
-    final double[] zn = zNext;
-    final double[] w = work;
-    System.arraycopy(x, 0, w, 0, n);
-    double yw = y;
-    for (int i = 0; i < n; i++) {
-      final int ri = i * c;
-      final double xi = w[i];
-      final double zi = sl * zm[i];
-      if (xi == 0.0) {
-        for (int j = i; j < n; j++) {
-          rn[ri + j] = sl * rm[ri + j];
-        }
-        zn[i] = zi;
-        continue;
-      }
-      final double a = sl * rm[ri + i];
-      double h = Math.sqrt(a * a + xi * xi);
-      if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
-        h = StrictMath.hypot(a, xi); // squares under- or overflowed: rare path
-      }
-      final double cs = a / h;
-      final double sn = xi / h;
-      rn[ri + i] = h;
-      for (int j = i + 1; j < n; j++) {
-        final double rij = sl * rm[ri + j];
-        final double xj = w[j];
-        rn[ri + j] = cs * rij + sn * xj;
-        w[j] = cs * xj - sn * rij;
-      }
-      zn[i] = cs * zi + sn * yw;
-      yw = cs * yw - sn * zi;
-    }
-    final double residual = yw; // e_a / sqrt(1 + x^T (lambda Lambda)^-1 x)
-    double rho2n = lambda * rho2 + residual * residual;
     final double logDecayNext = logDecay + (lambda == 1.0 ? 0.0 : StrictMath.log(lambda));
 
+    // The windup guard's refresh row sqrt(add) e_j is decided before the pass (it depends on the
+    // bookkeeping only) and rotated in the same pass as the data row: at row i the data rotation
+    // comes first, then the refresh rotation, which is exactly the order of two separate passes,
+    // with each element computed by the same expressions, so the bits are those of two passes.
     int refreshColumn = -1;
     double refreshInfo = 0.0;
     double refreshPrior = 0.0;
@@ -342,12 +312,102 @@ public final class RlsModel implements LayoutListener {
       double add = target - now;
       if (add > 1e-12 * target) {
         refreshInfo = add;
-        double e = rotateAxisRow(rn, zn, n, c, refreshColumn, Math.sqrt(add));
-        rho2n += e * e;
         refreshPrior = now + add;
       } else {
         refreshPrior = now;
       }
+    }
+    final int rc = refreshInfo > 0.0 ? refreshColumn : n; // first row the refresh row touches
+    final double[] rm = r;
+    final double[] rn = rNext;
+    final double[] zm = z;
+    final double[] zn = zNext;
+    final double[] w = work;
+    final double[] v = work3;
+    System.arraycopy(x, 0, w, 0, n);
+    if (rc < n) {
+      for (int k = rc; k < n; k++) {
+        v[k] = 0.0;
+      }
+      v[rc] = Math.sqrt(refreshInfo);
+    }
+    double yw = y;
+    double yv = 0.0;
+    for (int i = 0; i < n; i++) {
+      final int ri = i * c;
+      final double xi = w[i];
+      final double zi = sl * zm[i];
+      double cs;
+      double sn;
+      double zi1;
+      if (xi == 0.0) {
+        cs = 1.0;
+        sn = 0.0;
+        rn[ri + i] = sl * rm[ri + i];
+        zi1 = zi;
+      } else {
+        final double a = sl * rm[ri + i];
+        double h = Math.sqrt(a * a + xi * xi);
+        if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
+          h = StrictMath.hypot(a, xi); // squares under- or overflowed: rare path
+        }
+        cs = a / h;
+        sn = xi / h;
+        rn[ri + i] = h;
+        zi1 = cs * zi + sn * yw;
+        yw = cs * yw - sn * zi;
+      }
+      final double vi = i >= rc ? v[i] : 0.0;
+      if (vi == 0.0) {
+        if (xi == 0.0) {
+          for (int j = i + 1; j < n; j++) {
+            rn[ri + j] = sl * rm[ri + j];
+          }
+        } else {
+          for (int j = i + 1; j < n; j++) {
+            final double rij = sl * rm[ri + j];
+            final double xj = w[j];
+            rn[ri + j] = cs * rij + sn * xj;
+            w[j] = cs * xj - sn * rij;
+          }
+        }
+        zn[i] = zi1;
+        continue;
+      }
+      // the refresh row meets row i (i >= rc)
+      final double a2 = rn[ri + i];
+      double h2 = Math.sqrt(a2 * a2 + vi * vi);
+      if (!(h2 > 0.0 && h2 < Double.POSITIVE_INFINITY)) {
+        h2 = StrictMath.hypot(a2, vi);
+      }
+      final double cv = a2 / h2;
+      final double sv = vi / h2;
+      rn[ri + i] = h2;
+      if (xi == 0.0) {
+        for (int j = i + 1; j < n; j++) {
+          final double rij = sl * rm[ri + j];
+          final double vj = v[j];
+          rn[ri + j] = cv * rij + sv * vj;
+          v[j] = cv * vj - sv * rij;
+        }
+      } else {
+        for (int j = i + 1; j < n; j++) {
+          final double rij = sl * rm[ri + j];
+          final double xj = w[j];
+          final double r1 = cs * rij + sn * xj;
+          w[j] = cs * xj - sn * rij;
+          final double vj = v[j];
+          rn[ri + j] = cv * r1 + sv * vj;
+          v[j] = cv * vj - sv * r1;
+        }
+      }
+      zn[i] = cv * zi1 + sv * yv;
+      yv = cv * yv - sv * zi1;
+    }
+    final double residual = yw; // e_a / sqrt(1 + x^T (lambda Lambda)^-1 x)
+    double rho2n = lambda * rho2 + residual * residual;
+    if (rc < n) {
+      rho2n += yv * yv;
     }
 
     if (!solve(rn, zn, thetaNext) || !(rho2n < Double.POSITIVE_INFINITY)) {
@@ -397,41 +457,6 @@ public final class RlsModel implements LayoutListener {
     return true;
   }
 
-  /** Rotates the row {@code amp * e_j} (target 0) into rows j.. of (rm, zm) in place; returns its residual. */
-  private double rotateAxisRow(double[] rm, double[] zm, int n, int c, int j, double amp) {
-    final double[] w = work;
-    for (int k = j; k < n; k++) {
-      w[k] = 0.0;
-    }
-    w[j] = amp;
-    double yw = 0.0;
-    for (int i = j; i < n; i++) {
-      final double xi = w[i];
-      if (xi == 0.0) {
-        continue;
-      }
-      final int ri = i * c;
-      final double a = rm[ri + i];
-      double h = Math.sqrt(a * a + xi * xi);
-      if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
-        h = StrictMath.hypot(a, xi);
-      }
-      final double cs = a / h;
-      final double sn = xi / h;
-      rm[ri + i] = h;
-      for (int k = i + 1; k < n; k++) {
-        final double rik = rm[ri + k];
-        final double xk = w[k];
-        rm[ri + k] = cs * rik + sn * xk;
-        w[k] = cs * xk - sn * rik;
-      }
-      final double zi = zm[i];
-      zm[i] = cs * zi + sn * yw;
-      yw = cs * yw - sn * zi;
-    }
-    return yw;
-  }
-
   /**
    * Back-substitution {@code rm out = zm}. Pivots at or below the tolerance (diffuse: relative,
    * else exactly 0) give weight 0 and clear {@link #lastSolveFullRank}.
@@ -452,11 +477,7 @@ public final class RlsModel implements LayoutListener {
       final int ri = i * c;
       final double d = rm[ri + i];
       if (d > tol) {
-        double s = zm[i];
-        for (int j = i + 1; j < n; j++) {
-          s -= rm[ri + j] * out[j];
-        }
-        final double v = s / d;
+        final double v = (zm[i] - dot(rm, ri, out, i + 1, n)) / d;
         out[i] = v;
         // a non-finite entry of row i (or of z_i) makes v non-finite: inf * 0 is NaN
         finite &= Math.abs(v) < Double.POSITIVE_INFINITY;
@@ -468,6 +489,29 @@ public final class RlsModel implements LayoutListener {
     }
     lastSolveFullRank = full;
     return finite;
+  }
+
+  /**
+   * {@code sum_{j in [from, to)} a[off + j] b[j]} with four partial sums, so the additions do not
+   * form one chain of dependent operations (a back-substitution is otherwise bound by the latency
+   * of its additions, not by their number). Measured in {@code RlsKernelBenchmark}.
+   */
+  static double dot(double[] a, int off, double[] b, int from, int to) {
+    double s0 = 0.0;
+    double s1 = 0.0;
+    double s2 = 0.0;
+    double s3 = 0.0;
+    int j = from;
+    for (; j + 3 < to; j += 4) {
+      s0 += a[off + j] * b[j];
+      s1 += a[off + j + 1] * b[j + 1];
+      s2 += a[off + j + 2] * b[j + 2];
+      s3 += a[off + j + 3] * b[j + 3];
+    }
+    for (; j < to; j++) {
+      s0 += a[off + j] * b[j];
+    }
+    return (s0 + s1) + (s2 + s3);
   }
 
   private boolean rowFinite(double[] rm, double[] zm, int i) {
