@@ -42,7 +42,7 @@ import java.util.Arrays;
 public final class RlsModel implements LayoutListener {
 
   /** Format version written by {@link #writeTo}. */
-  public static final int FORMAT_VERSION = 1;
+  public static final int FORMAT_VERSION = 2;
 
   /**
    * In diffuse mode a column counts as identified when its pivot {@code R_jj} exceeds this
@@ -61,6 +61,9 @@ public final class RlsModel implements LayoutListener {
   static final double MAX_REFRESH_BOOST = 1e12;
 
   private static final int MAGIC = 0x524e4d31; // "RNM1"
+
+  /** Below this the factor's scale is renormalized (2^-60: stored entries stay far from overflow). */
+  static final double MIN_SCALE = 0x1p-60;
 
   private final ModelSettings settings;
   /** 1 / priorVariance, or 0 in diffuse mode. */
@@ -87,6 +90,14 @@ public final class RlsModel implements LayoutListener {
   /** Cumulative sum of log(lambda), renormalized to 0 now and then. */
   private double logDecay;
   private long refreshCounter;
+
+  /**
+   * The factor's scale: the information factor is {@code scale * r} and {@code R theta = z} holds
+   * as {@code r theta = z} in stored units. Forgetting multiplies this scalar by
+   * {@code sqrt(lambda)} instead of every entry of {@code r}; it is brought back towards 1 by an
+   * exact power of two when it falls below {@link #MIN_SCALE}.
+   */
+  private double scale = 1.0;
 
   private double rho2;
   private double nEff;
@@ -170,7 +181,7 @@ public final class RlsModel implements LayoutListener {
     for (int i = 0; i < k; i++) {
       r[i * cap + k] = 0.0;
     }
-    r[k * cap + k] = Math.sqrt(priorInfo);
+    r[k * cap + k] = Math.sqrt(priorInfo) / scale;
     z[k] = 0.0;
     theta[k] = 0.0;
     priorAtRefresh[k] = priorInfo;
@@ -245,7 +256,7 @@ public final class RlsModel implements LayoutListener {
         u[j] -= rm[ri + j] * ui;
       }
     }
-    return sum;
+    return scale == 1.0 ? sum : sum / (scale * scale);
   }
 
   /**
@@ -295,6 +306,9 @@ public final class RlsModel implements LayoutListener {
     final int n = p;
     final int c = cap;
     final double sl = lambda == 1.0 ? 1.0 : Math.sqrt(lambda);
+    // forgetting: the true factor becomes sl * scale * r; rows enter in stored units (divided by it)
+    final double scaleNext = scale * sl;
+    final double toStored = 1.0 / scaleNext;
     final double logDecayNext = logDecay + (lambda == 1.0 ? 0.0 : StrictMath.log(lambda));
 
     // The windup guard's refresh row sqrt(add) e_j is decided before the pass (it depends on the
@@ -324,29 +338,35 @@ public final class RlsModel implements LayoutListener {
     final double[] zn = zNext;
     final double[] w = work;
     final double[] v = work3;
-    System.arraycopy(x, 0, w, 0, n);
+    if (toStored == 1.0) {
+      System.arraycopy(x, 0, w, 0, n);
+    } else {
+      for (int k = 0; k < n; k++) {
+        w[k] = x[k] * toStored;
+      }
+    }
     if (rc < n) {
       for (int k = rc; k < n; k++) {
         v[k] = 0.0;
       }
-      v[rc] = Math.sqrt(refreshInfo);
+      v[rc] = Math.sqrt(refreshInfo) * toStored;
     }
-    double yw = y;
+    double yw = y * toStored;
     double yv = 0.0;
     for (int i = 0; i < n; i++) {
       final int ri = i * c;
       final double xi = w[i];
-      final double zi = sl * zm[i];
+      final double zi = zm[i];
       double cs;
       double sn;
       double zi1;
       if (xi == 0.0) {
         cs = 1.0;
         sn = 0.0;
-        rn[ri + i] = sl * rm[ri + i];
+        rn[ri + i] = rm[ri + i];
         zi1 = zi;
       } else {
-        final double a = sl * rm[ri + i];
+        final double a = rm[ri + i];
         double h = Math.sqrt(a * a + xi * xi);
         if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
           h = StrictMath.hypot(a, xi); // squares under- or overflowed: rare path
@@ -360,12 +380,10 @@ public final class RlsModel implements LayoutListener {
       final double vi = i >= rc ? v[i] : 0.0;
       if (vi == 0.0) {
         if (xi == 0.0) {
-          for (int j = i + 1; j < n; j++) {
-            rn[ri + j] = sl * rm[ri + j];
-          }
+          System.arraycopy(rm, ri + i + 1, rn, ri + i + 1, n - i - 1);
         } else {
           for (int j = i + 1; j < n; j++) {
-            final double rij = sl * rm[ri + j];
+            final double rij = rm[ri + j];
             final double xj = w[j];
             rn[ri + j] = cs * rij + sn * xj;
             w[j] = cs * xj - sn * rij;
@@ -385,14 +403,14 @@ public final class RlsModel implements LayoutListener {
       rn[ri + i] = h2;
       if (xi == 0.0) {
         for (int j = i + 1; j < n; j++) {
-          final double rij = sl * rm[ri + j];
+          final double rij = rm[ri + j];
           final double vj = v[j];
           rn[ri + j] = cv * rij + sv * vj;
           v[j] = cv * vj - sv * rij;
         }
       } else {
         for (int j = i + 1; j < n; j++) {
-          final double rij = sl * rm[ri + j];
+          final double rij = rm[ri + j];
           final double xj = w[j];
           final double r1 = cs * rij + sn * xj;
           w[j] = cs * xj - sn * rij;
@@ -404,10 +422,11 @@ public final class RlsModel implements LayoutListener {
       zn[i] = cv * zi1 + sv * yv;
       yv = cv * yv - sv * zi1;
     }
-    final double residual = yw; // e_a / sqrt(1 + x^T (lambda Lambda)^-1 x)
+    final double residual = yw * scaleNext; // e_a / sqrt(1 + x^T (lambda Lambda)^-1 x)
     double rho2n = lambda * rho2 + residual * residual;
     if (rc < n) {
-      rho2n += yv * yv;
+      final double e = yv * scaleNext;
+      rho2n += e * e;
     }
 
     if (!solve(rn, zn, thetaNext) || !(rho2n < Double.POSITIVE_INFINITY)) {
@@ -415,6 +434,10 @@ public final class RlsModel implements LayoutListener {
     }
     // commit
     final boolean wasReady = ready;
+    scale = scaleNext;
+    if (scaleNext < MIN_SCALE) {
+      renormalizeScale(rn, zn);
+    }
     r = rn;
     rNext = rm;
     z = zn;
@@ -520,6 +543,25 @@ public final class RlsModel implements LayoutListener {
       ok &= Math.abs(rm[i * cap + j]) < Double.POSITIVE_INFINITY;
     }
     return ok;
+  }
+
+  /**
+   * Moves the power-of-two part of the scale into the stored factor: exact (a multiplication by
+   * a power of two), so the bits of every later result are as if it had not happened, except for
+   * entries that would become subnormal. Rare: once per {@code 60 / log2(1/sqrt(lambda))} updates.
+   */
+  private void renormalizeScale(double[] rm, double[] zm) {
+    final int k = Math.getExponent(scale);
+    final double f = Math.scalb(1.0, k);
+    final int c = cap;
+    for (int i = 0; i < p; i++) {
+      final int ri = i * c;
+      for (int j = i; j < p; j++) {
+        rm[ri + j] *= f;
+      }
+      zm[i] *= f;
+    }
+    scale = Math.scalb(scale, -k);
   }
 
   private void renormalizeLogDecay() {
@@ -721,7 +763,7 @@ public final class RlsModel implements LayoutListener {
       for (int k = i; k < p; k++) {
         sum += u[i * p + k] * u[i * p + k];
       }
-      out[i] = s * Math.sqrt(sum);
+      out[i] = s * Math.sqrt(sum) / scale;
     }
   }
 
@@ -744,6 +786,7 @@ public final class RlsModel implements LayoutListener {
         for (int k = j; k < p; k++) {
           sum += u[i * p + k] * u[j * p + k];
         }
+        sum /= scale * scale;
         out[i * p + j] = sum;
         out[j * p + i] = sum;
       }
@@ -765,6 +808,7 @@ public final class RlsModel implements LayoutListener {
         for (int k = 0; k <= i; k++) {
           sum += r[k * cap + i] * r[k * cap + j];
         }
+        sum *= scale * scale;
         out[i * p + j] = sum;
         out[j * p + i] = sum;
       }
@@ -831,6 +875,7 @@ public final class RlsModel implements LayoutListener {
     out.writeDouble(settings.intervalZ());
     out.writeDouble(settings.noiseHalfLifeRecords());
     out.writeInt(p);
+    out.writeDouble(scale);
     for (int i = 0; i < p; i++) {
       for (int j = i; j < p; j++) {
         out.writeDouble(r[i * cap + j]);
@@ -865,7 +910,7 @@ public final class RlsModel implements LayoutListener {
       throw new IOException("not a model checkpoint: magic 0x" + Integer.toHexString(magic));
     }
     int version = in.readInt();
-    if (version != FORMAT_VERSION) {
+    if (version != FORMAT_VERSION && version != 1) {
       throw new IOException("model checkpoint format version " + version + " is not supported (this build reads "
           + FORMAT_VERSION + ")");
     }
@@ -882,6 +927,10 @@ public final class RlsModel implements LayoutListener {
     RlsModel m = new RlsModel(s.constantTerm() ? 1 : 0, s);
     m.ensureCapacity(p);
     m.p = p;
+    m.scale = version == 1 ? 1.0 : in.readDouble();
+    if (!(m.scale > 0 && m.scale < Double.POSITIVE_INFINITY)) {
+      throw new IOException("corrupt model checkpoint: factor scale " + m.scale);
+    }
     for (int i = 0; i < p; i++) {
       for (int j = i; j < p; j++) {
         m.r[i * m.cap + j] = in.readDouble();
