@@ -27,6 +27,8 @@ import org.openjdk.jmh.annotations.Warmup;
  *       about {@code p^2} more flops on average).</li>
  *   <li>{@code leverageAndUpdate}: what the pipeline asks of the model per trained record: the
  *       prediction, the leverage for the interval (one triangular solve) and the guarded update.</li>
+ *   <li>{@code updateWithLeverage}: the same outputs with the leverage taken from the update's own
+ *       rotation angles ({@link RlsModel#update(double[], double, double, double[])}), no solve.</li>
  * </ul>
  *
  * <pre>{@code
@@ -85,5 +87,16 @@ public class RlsKernelBenchmark {
     double half = guarded.intervalHalfWidth(x);
     guarded.update(x, ys[k], LAMBDA);
     return yhat + half;
+  }
+
+  private final double[] lev = new double[1];
+
+  @Benchmark
+  public double updateWithLeverage() {
+    int k = i++ & (N - 1);
+    double[] x = rows[k];
+    double yhat = guarded.predict(x);
+    guarded.update(x, ys[k], LAMBDA, lev);
+    return yhat + guarded.settings().intervalZ() * guarded.noiseSd() * Math.sqrt(1.0 + lev[0]);
   }
 }

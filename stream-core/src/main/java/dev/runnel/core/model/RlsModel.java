@@ -296,6 +296,26 @@ public final class RlsModel implements LayoutListener {
    * @throws IllegalArgumentException if {@code lambda} is not in (0, 1] or {@code x} is too short
    */
   public boolean update(double[] x, double y, double lambda) {
+    return update(x, y, lambda, null);
+  }
+
+  /**
+   * As {@link #update(double[], double, double)}, and also gives the a-priori leverage
+   * {@code x^T Lambda^-1 x} of the state before this update (what {@link #leverage} would have
+   * returned just before the call), from the rotation angles of the update itself instead of a
+   * separate triangular solve: with {@code g = prod cos^2} of the rotations,
+   * {@code x^T (lambda Lambda)^-1 x = (1 - g) / g}; {@code 1 - g} is accumulated directly,
+   * {@code q <- q + g sin^2}, so it does not cancel. Agrees with {@link #leverage} to rounding, not
+   * bit for bit.
+   *
+   * @param leverageOut null, or receives the leverage in element 0 (NaN when not ready, or when
+   *     the update is refused). Modified.
+   * @return as {@link #update(double[], double, double)}
+   */
+  public boolean update(double[] x, double y, double lambda, double[] leverageOut) {
+    if (leverageOut != null) {
+      leverageOut[0] = Double.NaN;
+    }
     if (!(lambda > 0 && lambda <= 1)) {
       throw new IllegalArgumentException("lambda must be in (0, 1], got " + lambda);
     }
@@ -353,6 +373,8 @@ public final class RlsModel implements LayoutListener {
     }
     double yw = y * toStored;
     double yv = 0.0;
+    double g = 1.0; // product of the data rotations' cos^2
+    double q = 0.0; // 1 - g, accumulated without cancellation
     for (int i = 0; i < n; i++) {
       final int ri = i * c;
       final double xi = w[i];
@@ -373,6 +395,8 @@ public final class RlsModel implements LayoutListener {
         }
         cs = a / h;
         sn = xi / h;
+        q += g * (sn * sn);
+        g *= cs * cs;
         rn[ri + i] = h;
         zi1 = cs * zi + sn * yw;
         yw = cs * yw - sn * zi;
@@ -434,6 +458,9 @@ public final class RlsModel implements LayoutListener {
     }
     // commit
     final boolean wasReady = ready;
+    if (leverageOut != null && wasReady) {
+      leverageOut[0] = lambda * (q / g);
+    }
     scale = scaleNext;
     if (scaleNext < MIN_SCALE) {
       renormalizeScale(rn, zn);
