@@ -1,5 +1,6 @@
 package dev.runnel.core.bench;
 
+import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.pipeline.PipelineStep;
 import java.util.concurrent.TimeUnit;
 import org.openjdk.jmh.annotations.Benchmark;
@@ -35,7 +36,7 @@ public class CheckpointBenchmark {
   public int p;
 
   private PipelineStep step;
-  private PipelineStep target;
+  private PipelineConfig config;
   private byte[] bytes;
 
   static PipelineStep warm(int p) {
@@ -51,7 +52,7 @@ public class CheckpointBenchmark {
   @Setup(Level.Trial)
   public void setup() {
     step = warm(p);
-    target = new PipelineStep(BenchData.syntheticConfig(p));
+    config = BenchData.syntheticConfig(p);
     bytes = step.checkpoint();
   }
 
@@ -60,8 +61,10 @@ public class CheckpointBenchmark {
     return step.checkpoint().length;
   }
 
+  /** A restore needs a fresh step (as the runner creates one per partition): construction included. */
   @Benchmark
   public int restore() {
+    PipelineStep target = new PipelineStep(config);
     target.restore(bytes);
     return target.model().dimension();
   }
