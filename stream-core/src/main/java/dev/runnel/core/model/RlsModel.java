@@ -42,7 +42,7 @@ import java.util.Arrays;
 public final class RlsModel implements LayoutListener {
 
   /** Format version written by {@link #writeTo}. */
-  public static final int FORMAT_VERSION = 1;
+  public static final int FORMAT_VERSION = 2;
 
   /**
    * In diffuse mode a column counts as identified when its pivot {@code R_jj} exceeds this
@@ -62,6 +62,9 @@ public final class RlsModel implements LayoutListener {
 
   private static final int MAGIC = 0x524e4d31; // "RNM1"
 
+  /** Below this the factor's scale is renormalized (2^-60: stored entries stay far from overflow). */
+  static final double MIN_SCALE = 0x1p-60;
+
   private final ModelSettings settings;
   /** 1 / priorVariance, or 0 in diffuse mode. */
   private final double priorInfo;
@@ -78,6 +81,8 @@ public final class RlsModel implements LayoutListener {
   private double[] thetaNext;
   private double[] work;
   private double[] work2;
+  /** The windup guard's refresh row during an update. */
+  private double[] work3;
   /** Each column's prior information right after its last refresh (or its addition). */
   private double[] priorAtRefresh;
   /** The cumulative log-decay at that moment. */
@@ -85,6 +90,14 @@ public final class RlsModel implements LayoutListener {
   /** Cumulative sum of log(lambda), renormalized to 0 now and then. */
   private double logDecay;
   private long refreshCounter;
+
+  /**
+   * The factor's scale: the information factor is {@code scale * r} and {@code R theta = z} holds
+   * as {@code r theta = z} in stored units. Forgetting multiplies this scalar by
+   * {@code sqrt(lambda)} instead of every entry of {@code r}; it is brought back towards 1 by an
+   * exact power of two when it falls below {@link #MIN_SCALE}.
+   */
+  private double scale = 1.0;
 
   private double rho2;
   private double nEff;
@@ -135,6 +148,7 @@ public final class RlsModel implements LayoutListener {
     thetaNext = new double[cap];
     work = new double[cap];
     work2 = new double[cap];
+    work3 = new double[cap];
     priorAtRefresh = new double[cap];
     logDecayAtRefresh = new double[cap];
   }
@@ -167,7 +181,7 @@ public final class RlsModel implements LayoutListener {
     for (int i = 0; i < k; i++) {
       r[i * cap + k] = 0.0;
     }
-    r[k * cap + k] = Math.sqrt(priorInfo);
+    r[k * cap + k] = Math.sqrt(priorInfo) / scale;
     z[k] = 0.0;
     theta[k] = 0.0;
     priorAtRefresh[k] = priorInfo;
@@ -242,7 +256,7 @@ public final class RlsModel implements LayoutListener {
         u[j] -= rm[ri + j] * ui;
       }
     }
-    return sum;
+    return scale == 1.0 ? sum : sum / (scale * scale);
   }
 
   /**
@@ -282,6 +296,26 @@ public final class RlsModel implements LayoutListener {
    * @throws IllegalArgumentException if {@code lambda} is not in (0, 1] or {@code x} is too short
    */
   public boolean update(double[] x, double y, double lambda) {
+    return update(x, y, lambda, null);
+  }
+
+  /**
+   * As {@link #update(double[], double, double)}, and also gives the a-priori leverage
+   * {@code x^T Lambda^-1 x} of the state before this update (what {@link #leverage} would have
+   * returned just before the call), from the rotation angles of the update itself instead of a
+   * separate triangular solve: with {@code g = prod cos^2} of the rotations,
+   * {@code x^T (lambda Lambda)^-1 x = (1 - g) / g}; {@code 1 - g} is accumulated directly,
+   * {@code q <- q + g sin^2}, so it does not cancel. Agrees with {@link #leverage} to rounding, not
+   * bit for bit.
+   *
+   * @param leverageOut null, or receives the leverage in element 0 (NaN when not ready, or when
+   *     the update is refused). Modified.
+   * @return as {@link #update(double[], double, double)}
+   */
+  public boolean update(double[] x, double y, double lambda, double[] leverageOut) {
+    if (leverageOut != null) {
+      leverageOut[0] = Double.NaN;
+    }
     if (!(lambda > 0 && lambda <= 1)) {
       throw new IllegalArgumentException("lambda must be in (0, 1], got " + lambda);
     }
@@ -292,45 +326,15 @@ public final class RlsModel implements LayoutListener {
     final int n = p;
     final int c = cap;
     final double sl = lambda == 1.0 ? 1.0 : Math.sqrt(lambda);
-    final double[] rm = r;
-    final double[] rn = rNext;
-    final double[] zm = z;
-    final double[] zn = zNext;
-    final double[] w = work;
-    System.arraycopy(x, 0, w, 0, n);
-    double yw = y;
-    for (int i = 0; i < n; i++) {
-      final int ri = i * c;
-      final double xi = w[i];
-      final double zi = sl * zm[i];
-      if (xi == 0.0) {
-        for (int j = i; j < n; j++) {
-          rn[ri + j] = sl * rm[ri + j];
-        }
-        zn[i] = zi;
-        continue;
-      }
-      final double a = sl * rm[ri + i];
-      double h = Math.sqrt(a * a + xi * xi);
-      if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
-        h = StrictMath.hypot(a, xi); // squares under- or overflowed: rare path
-      }
-      final double cs = a / h;
-      final double sn = xi / h;
-      rn[ri + i] = h;
-      for (int j = i + 1; j < n; j++) {
-        final double rij = sl * rm[ri + j];
-        final double xj = w[j];
-        rn[ri + j] = cs * rij + sn * xj;
-        w[j] = cs * xj - sn * rij;
-      }
-      zn[i] = cs * zi + sn * yw;
-      yw = cs * yw - sn * zi;
-    }
-    final double residual = yw; // e_a / sqrt(1 + x^T (lambda Lambda)^-1 x)
-    double rho2n = lambda * rho2 + residual * residual;
+    // forgetting: the true factor becomes sl * scale * r; rows enter in stored units (divided by it)
+    final double scaleNext = scale * sl;
+    final double toStored = 1.0 / scaleNext;
     final double logDecayNext = logDecay + (lambda == 1.0 ? 0.0 : StrictMath.log(lambda));
 
+    // The windup guard's refresh row sqrt(add) e_j is decided before the pass (it depends on the
+    // bookkeeping only) and rotated in the same pass as the data row: at row i the data rotation
+    // comes first, then the refresh rotation, which is exactly the order of two separate passes,
+    // with each element computed by the same expressions, so the bits are those of two passes.
     int refreshColumn = -1;
     double refreshInfo = 0.0;
     double refreshPrior = 0.0;
@@ -342,12 +346,111 @@ public final class RlsModel implements LayoutListener {
       double add = target - now;
       if (add > 1e-12 * target) {
         refreshInfo = add;
-        double e = rotateAxisRow(rn, zn, n, c, refreshColumn, Math.sqrt(add));
-        rho2n += e * e;
         refreshPrior = now + add;
       } else {
         refreshPrior = now;
       }
+    }
+    final int rc = refreshInfo > 0.0 ? refreshColumn : n; // first row the refresh row touches
+    final double[] rm = r;
+    final double[] rn = rNext;
+    final double[] zm = z;
+    final double[] zn = zNext;
+    final double[] w = work;
+    final double[] v = work3;
+    if (toStored == 1.0) {
+      System.arraycopy(x, 0, w, 0, n);
+    } else {
+      for (int k = 0; k < n; k++) {
+        w[k] = x[k] * toStored;
+      }
+    }
+    if (rc < n) {
+      for (int k = rc; k < n; k++) {
+        v[k] = 0.0;
+      }
+      v[rc] = Math.sqrt(refreshInfo) * toStored;
+    }
+    double yw = y * toStored;
+    double yv = 0.0;
+    double g = 1.0; // product of the data rotations' cos^2
+    double q = 0.0; // 1 - g, accumulated without cancellation
+    for (int i = 0; i < n; i++) {
+      final int ri = i * c;
+      final double xi = w[i];
+      final double zi = zm[i];
+      double cs;
+      double sn;
+      double zi1;
+      if (xi == 0.0) {
+        cs = 1.0;
+        sn = 0.0;
+        rn[ri + i] = rm[ri + i];
+        zi1 = zi;
+      } else {
+        final double a = rm[ri + i];
+        double h = Math.sqrt(a * a + xi * xi);
+        if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
+          h = StrictMath.hypot(a, xi); // squares under- or overflowed: rare path
+        }
+        cs = a / h;
+        sn = xi / h;
+        q += g * (sn * sn);
+        g *= cs * cs;
+        rn[ri + i] = h;
+        zi1 = cs * zi + sn * yw;
+        yw = cs * yw - sn * zi;
+      }
+      final double vi = i >= rc ? v[i] : 0.0;
+      if (vi == 0.0) {
+        if (xi == 0.0) {
+          System.arraycopy(rm, ri + i + 1, rn, ri + i + 1, n - i - 1);
+        } else {
+          for (int j = i + 1; j < n; j++) {
+            final double rij = rm[ri + j];
+            final double xj = w[j];
+            rn[ri + j] = cs * rij + sn * xj;
+            w[j] = cs * xj - sn * rij;
+          }
+        }
+        zn[i] = zi1;
+        continue;
+      }
+      // the refresh row meets row i (i >= rc)
+      final double a2 = rn[ri + i];
+      double h2 = Math.sqrt(a2 * a2 + vi * vi);
+      if (!(h2 > 0.0 && h2 < Double.POSITIVE_INFINITY)) {
+        h2 = StrictMath.hypot(a2, vi);
+      }
+      final double cv = a2 / h2;
+      final double sv = vi / h2;
+      rn[ri + i] = h2;
+      if (xi == 0.0) {
+        for (int j = i + 1; j < n; j++) {
+          final double rij = rm[ri + j];
+          final double vj = v[j];
+          rn[ri + j] = cv * rij + sv * vj;
+          v[j] = cv * vj - sv * rij;
+        }
+      } else {
+        for (int j = i + 1; j < n; j++) {
+          final double rij = rm[ri + j];
+          final double xj = w[j];
+          final double r1 = cs * rij + sn * xj;
+          w[j] = cs * xj - sn * rij;
+          final double vj = v[j];
+          rn[ri + j] = cv * r1 + sv * vj;
+          v[j] = cv * vj - sv * r1;
+        }
+      }
+      zn[i] = cv * zi1 + sv * yv;
+      yv = cv * yv - sv * zi1;
+    }
+    final double residual = yw * scaleNext; // e_a / sqrt(1 + x^T (lambda Lambda)^-1 x)
+    double rho2n = lambda * rho2 + residual * residual;
+    if (rc < n) {
+      final double e = yv * scaleNext;
+      rho2n += e * e;
     }
 
     if (!solve(rn, zn, thetaNext) || !(rho2n < Double.POSITIVE_INFINITY)) {
@@ -355,6 +458,13 @@ public final class RlsModel implements LayoutListener {
     }
     // commit
     final boolean wasReady = ready;
+    if (leverageOut != null && wasReady) {
+      leverageOut[0] = lambda * (q / g);
+    }
+    scale = scaleNext;
+    if (scaleNext < MIN_SCALE) {
+      renormalizeScale(rn, zn);
+    }
     r = rn;
     rNext = rm;
     z = zn;
@@ -397,41 +507,6 @@ public final class RlsModel implements LayoutListener {
     return true;
   }
 
-  /** Rotates the row {@code amp * e_j} (target 0) into rows j.. of (rm, zm) in place; returns its residual. */
-  private double rotateAxisRow(double[] rm, double[] zm, int n, int c, int j, double amp) {
-    final double[] w = work;
-    for (int k = j; k < n; k++) {
-      w[k] = 0.0;
-    }
-    w[j] = amp;
-    double yw = 0.0;
-    for (int i = j; i < n; i++) {
-      final double xi = w[i];
-      if (xi == 0.0) {
-        continue;
-      }
-      final int ri = i * c;
-      final double a = rm[ri + i];
-      double h = Math.sqrt(a * a + xi * xi);
-      if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
-        h = StrictMath.hypot(a, xi);
-      }
-      final double cs = a / h;
-      final double sn = xi / h;
-      rm[ri + i] = h;
-      for (int k = i + 1; k < n; k++) {
-        final double rik = rm[ri + k];
-        final double xk = w[k];
-        rm[ri + k] = cs * rik + sn * xk;
-        w[k] = cs * xk - sn * rik;
-      }
-      final double zi = zm[i];
-      zm[i] = cs * zi + sn * yw;
-      yw = cs * yw - sn * zi;
-    }
-    return yw;
-  }
-
   /**
    * Back-substitution {@code rm out = zm}. Pivots at or below the tolerance (diffuse: relative,
    * else exactly 0) give weight 0 and clear {@link #lastSolveFullRank}.
@@ -452,11 +527,7 @@ public final class RlsModel implements LayoutListener {
       final int ri = i * c;
       final double d = rm[ri + i];
       if (d > tol) {
-        double s = zm[i];
-        for (int j = i + 1; j < n; j++) {
-          s -= rm[ri + j] * out[j];
-        }
-        final double v = s / d;
+        final double v = (zm[i] - dot(rm, ri, out, i + 1, n)) / d;
         out[i] = v;
         // a non-finite entry of row i (or of z_i) makes v non-finite: inf * 0 is NaN
         finite &= Math.abs(v) < Double.POSITIVE_INFINITY;
@@ -470,12 +541,54 @@ public final class RlsModel implements LayoutListener {
     return finite;
   }
 
+  /**
+   * {@code sum_{j in [from, to)} a[off + j] b[j]} with four partial sums, so the additions do not
+   * form one chain of dependent operations (a back-substitution is otherwise bound by the latency
+   * of its additions, not by their number). Measured in {@code RlsKernelBenchmark}.
+   */
+  static double dot(double[] a, int off, double[] b, int from, int to) {
+    double s0 = 0.0;
+    double s1 = 0.0;
+    double s2 = 0.0;
+    double s3 = 0.0;
+    int j = from;
+    for (; j + 3 < to; j += 4) {
+      s0 += a[off + j] * b[j];
+      s1 += a[off + j + 1] * b[j + 1];
+      s2 += a[off + j + 2] * b[j + 2];
+      s3 += a[off + j + 3] * b[j + 3];
+    }
+    for (; j < to; j++) {
+      s0 += a[off + j] * b[j];
+    }
+    return (s0 + s1) + (s2 + s3);
+  }
+
   private boolean rowFinite(double[] rm, double[] zm, int i) {
     boolean ok = Math.abs(zm[i]) < Double.POSITIVE_INFINITY;
     for (int j = i; j < p; j++) {
       ok &= Math.abs(rm[i * cap + j]) < Double.POSITIVE_INFINITY;
     }
     return ok;
+  }
+
+  /**
+   * Moves the power-of-two part of the scale into the stored factor: exact (a multiplication by
+   * a power of two), so the bits of every later result are as if it had not happened, except for
+   * entries that would become subnormal. Rare: once per {@code 60 / log2(1/sqrt(lambda))} updates.
+   */
+  private void renormalizeScale(double[] rm, double[] zm) {
+    final int k = Math.getExponent(scale);
+    final double f = Math.scalb(1.0, k);
+    final int c = cap;
+    for (int i = 0; i < p; i++) {
+      final int ri = i * c;
+      for (int j = i; j < p; j++) {
+        rm[ri + j] *= f;
+      }
+      zm[i] *= f;
+    }
+    scale = Math.scalb(scale, -k);
   }
 
   private void renormalizeLogDecay() {
@@ -677,7 +790,7 @@ public final class RlsModel implements LayoutListener {
       for (int k = i; k < p; k++) {
         sum += u[i * p + k] * u[i * p + k];
       }
-      out[i] = s * Math.sqrt(sum);
+      out[i] = s * Math.sqrt(sum) / scale;
     }
   }
 
@@ -700,6 +813,7 @@ public final class RlsModel implements LayoutListener {
         for (int k = j; k < p; k++) {
           sum += u[i * p + k] * u[j * p + k];
         }
+        sum /= scale * scale;
         out[i * p + j] = sum;
         out[j * p + i] = sum;
       }
@@ -721,6 +835,7 @@ public final class RlsModel implements LayoutListener {
         for (int k = 0; k <= i; k++) {
           sum += r[k * cap + i] * r[k * cap + j];
         }
+        sum *= scale * scale;
         out[i * p + j] = sum;
         out[j * p + i] = sum;
       }
@@ -787,6 +902,7 @@ public final class RlsModel implements LayoutListener {
     out.writeDouble(settings.intervalZ());
     out.writeDouble(settings.noiseHalfLifeRecords());
     out.writeInt(p);
+    out.writeDouble(scale);
     for (int i = 0; i < p; i++) {
       for (int j = i; j < p; j++) {
         out.writeDouble(r[i * cap + j]);
@@ -821,7 +937,7 @@ public final class RlsModel implements LayoutListener {
       throw new IOException("not a model checkpoint: magic 0x" + Integer.toHexString(magic));
     }
     int version = in.readInt();
-    if (version != FORMAT_VERSION) {
+    if (version != FORMAT_VERSION && version != 1) {
       throw new IOException("model checkpoint format version " + version + " is not supported (this build reads "
           + FORMAT_VERSION + ")");
     }
@@ -838,6 +954,10 @@ public final class RlsModel implements LayoutListener {
     RlsModel m = new RlsModel(s.constantTerm() ? 1 : 0, s);
     m.ensureCapacity(p);
     m.p = p;
+    m.scale = version == 1 ? 1.0 : in.readDouble();
+    if (!(m.scale > 0 && m.scale < Double.POSITIVE_INFINITY)) {
+      throw new IOException("corrupt model checkpoint: factor scale " + m.scale);
+    }
     for (int i = 0; i < p; i++) {
       for (int j = i; j < p; j++) {
         m.r[i * m.cap + j] = in.readDouble();

@@ -143,7 +143,10 @@ public final class JsonRecordDecoder {
     switch (type) {
       case NUMBER: {
         if (t != JsonToken.VALUE_NUMBER_INT && t != JsonToken.VALUE_NUMBER_FLOAT) return wrongType(p, t, slot, "a number");
-        double v = p.getDoubleValue();
+        double v = parseShortDecimal(p.getTextCharacters(), p.getTextOffset(), p.getTextLength());
+        if (Double.isNaN(v)) {
+          v = p.getDoubleValue(); // long, exotic or non-finite text: Jackson's parser (allocates)
+        }
         if (Double.isNaN(v) || Double.isInfinite(v)) {
           detail = "field " + schema.name(slot) + ": " + p.getText() + " is not a finite number";
           return RejectReason.NOT_FINITE;
@@ -202,6 +205,66 @@ public final class JsonRecordDecoder {
         return setEventTime(slot, ms, out, true);
       }
     }
+  }
+
+  private static final double[] POW10 = {
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
+    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+  };
+
+  /**
+   * The double nearest to a short decimal {@code [-]digits[.digits][(e|E)[+-]digits]} with at most
+   * 15 digits and a resulting power of ten within 10^±22, without allocating; NaN for anything
+   * else (the caller then uses the general parser). Exact: the digits form an integer below 2^53
+   * and 10^k (k ≤ 22) is exact in binary, so one multiplication or division, correctly rounded,
+   * gives the correctly rounded result, the same bits as {@link Double#parseDouble} (Clinger's fast
+   * path, common practice).
+   */
+  static double parseShortDecimal(char[] c, int off, int len) {
+    int i = off;
+    int end = off + len;
+    if (len <= 0 || len > 40) return Double.NaN;
+    boolean negative = c[i] == '-';
+    if (negative) i++;
+    long m = 0;
+    int digits = 0;
+    int scale = 0;
+    boolean any = false;
+    for (; i < end && c[i] >= '0' && c[i] <= '9'; i++) {
+      m = 10 * m + (c[i] - '0');
+      digits++;
+      any = true;
+    }
+    if (i < end && c[i] == '.') {
+      i++;
+      for (; i < end && c[i] >= '0' && c[i] <= '9'; i++) {
+        m = 10 * m + (c[i] - '0');
+        digits++;
+        scale--;
+        any = true;
+      }
+    }
+    if (!any || digits > 15) return Double.NaN;
+    if (i < end && (c[i] == 'e' || c[i] == 'E')) {
+      i++;
+      boolean eneg = false;
+      if (i < end && (c[i] == '+' || c[i] == '-')) {
+        eneg = c[i] == '-';
+        i++;
+      }
+      int e = 0;
+      boolean edig = false;
+      for (; i < end && c[i] >= '0' && c[i] <= '9' && e < 1000; i++) {
+        e = 10 * e + (c[i] - '0');
+        edig = true;
+      }
+      if (!edig) return Double.NaN;
+      scale += eneg ? -e : e;
+    }
+    if (i != end || scale < -22 || scale > 22) return Double.NaN;
+    double v = (double) m;
+    v = scale >= 0 ? v * POW10[scale] : v / POW10[-scale];
+    return negative ? -v : v;
   }
 
   private RejectReason setEventTime(int slot, long ms, EventRecord out, boolean store) {

@@ -1,0 +1,129 @@
+package dev.runnel.core.bench;
+
+import dev.runnel.core.config.ConfigLoader;
+import dev.runnel.core.config.PipelineConfig;
+import java.io.IOException;
+import java.io.UncheckedIOException;
+import java.nio.charset.StandardCharsets;
+import java.nio.file.Files;
+import java.nio.file.Path;
+import java.util.List;
+import java.util.SplittableRandom;
+
+/**
+ * Inputs for the benchmarks: the demo configuration with its recorded (invented) sample feed, and
+ * synthetic configurations of a chosen width {@code p}. All seeded.
+ *
+ * <p>A synthetic configuration of width {@code p} has the constant, {@code k = p/4} numeric
+ * columns (dense, standardized online), one one-hot feature with an "(other)" column and
+ * {@code p - 2 - k} levels (one non-zero per record), no event-time field (the caller passes a
+ * monotone time) and per-record forgetting 0.999.
+ */
+final class BenchData {
+  private BenchData() { }
+
+  /** Where the repository's files are; {@code -Drunnel.root=...} when not run from the root. */
+  static Path root() {
+    return Path.of(System.getProperty("runnel.root", "."));
+  }
+
+  static PipelineConfig demoConfig() {
+    return ConfigLoader.load(root().resolve("demo-data/src/main/resources/dev/runnel/demo/quillmarsh.yaml"));
+  }
+
+  /** The invented demo sample feed, one JSON document per line. */
+  static List<byte[]> demoRecords() {
+    try {
+      List<String> lines = Files.readAllLines(root().resolve("demo-data/samples/quillmarsh-small.jsonl"));
+      return lines.stream().filter(l -> !l.isBlank()).map(l -> l.getBytes(StandardCharsets.UTF_8)).toList();
+    } catch (IOException e) {
+      throw new UncheckedIOException("run from the repository root or pass -Drunnel.root=<path>", e);
+    }
+  }
+
+  static int numericCount(int p) {
+    return Math.max(1, p / 4);
+  }
+
+  static int levelCount(int p) {
+    return p - 2 - numericCount(p);
+  }
+
+  static String syntheticYaml(int p, int maxLevels) {
+    int k = numericCount(p);
+    StringBuilder y = new StringBuilder();
+    y.append("name: bench").append(p).append('\n');
+    y.append("input:\n  fields:\n    cat: text\n    y: number\n");
+    for (int i = 0; i < k; i++) {
+      y.append("    x").append(i).append(": number\n");
+    }
+    y.append("target: y\nfeatures:\n");
+    y.append("  - {kind: onehot, field: cat, max_levels: ").append(maxLevels).append("}\n");
+    for (int i = 0; i < k; i++) {
+      y.append("  - {kind: numeric, field: x").append(i).append("}\n");
+    }
+    y.append("model:\n  prior_variance: 100\n  forgetting: {factor: 0.999}\n");
+    y.append("outputs:\n  snapshot_every_records: 0\n");
+    return y.toString();
+  }
+
+  static PipelineConfig syntheticConfig(int p) {
+    return ConfigLoader.parse(syntheticYaml(p, levelCount(p)), "bench" + p + ".yaml");
+  }
+
+  /**
+   * {@code n} records for the synthetic configuration of width {@code p}: a level drawn uniformly
+   * from {@code levels} names, standard normal numerics, a linear target with noise.
+   */
+  static byte[][] syntheticRecords(int p, int n, int levels, long seed) {
+    int k = numericCount(p);
+    SplittableRandom r = new SplittableRandom(seed);
+    double[] beta = new double[k];
+    for (int i = 0; i < k; i++) {
+      beta[i] = r.nextDouble(-2, 2);
+    }
+    byte[][] out = new byte[n][];
+    StringBuilder s = new StringBuilder(256);
+    for (int t = 0; t < n; t++) {
+      s.setLength(0);
+      int level = r.nextInt(levels);
+      double y = 10.0 + 0.01 * level;
+      s.append("{\"cat\":\"L").append(level).append('"');
+      for (int i = 0; i < k; i++) {
+        double x = gaussian(r);
+        y += beta[i] * x;
+        s.append(",\"x").append(i).append("\":").append(round(x));
+      }
+      y += 0.5 * gaussian(r);
+      s.append(",\"y\":").append(round(y)).append('}');
+      out[t] = s.toString().getBytes(StandardCharsets.UTF_8);
+    }
+    return out;
+  }
+
+  static double round(double x) {
+    return Math.round(x * 1e4) / 1e4;
+  }
+
+  static double gaussian(SplittableRandom r) {
+    double u = r.nextDouble();
+    double v = r.nextDouble();
+    return Math.sqrt(-2.0 * Math.log(1.0 - u)) * Math.cos(2.0 * Math.PI * v);
+  }
+
+  /** Dense rows with x0 = 1 and standard normal entries; targets linear plus noise. */
+  static double[][] denseRows(int p, int n, long seed, double[] targets) {
+    SplittableRandom r = new SplittableRandom(seed);
+    double[][] rows = new double[n][p];
+    for (int t = 0; t < n; t++) {
+      rows[t][0] = 1.0;
+      double y = 1.0;
+      for (int j = 1; j < p; j++) {
+        rows[t][j] = gaussian(r);
+        y += rows[t][j] * (j % 3 - 1);
+      }
+      targets[t] = y + 0.1 * gaussian(r);
+    }
+    return rows;
+  }
+}
