@@ -67,6 +67,7 @@ public final class PipelineStep {
   private final int targetSlot;
   private final long configFingerprint;
   private double[] row;
+  private final double[] leverage = new double[1];
 
   private long records;
   private long trained;
@@ -177,32 +178,39 @@ public final class PipelineStep {
     }
     p.layoutVersion = featurizer.layoutVersion();
     double half = Double.NaN;
-    if (model.ready()) {
-      double yhat = model.predict(row);
-      half = model.intervalHalfWidth(row);
-      p.predicted = yhat;
-      if (Double.isNaN(half)) {
-        // no noise estimate yet: an interval cannot be given honestly
-        p.low = Double.NaN;
-        p.high = Double.NaN;
-      } else {
-        p.low = yhat - half;
-        p.high = yhat + half;
-      }
+    boolean ready = model.ready();
+    if (ready) {
+      p.predicted = model.predict(row);
       p.status = hasTarget ? Prediction.Status.SCORED : Prediction.Status.FORECAST;
     } else {
       p.predicted = Double.NaN;
-      p.low = Double.NaN;
-      p.high = Double.NaN;
       p.status = Prediction.Status.WARMING_UP;
     }
     if (hasTarget) {
+      // the interval is the a priori one: noise sd before this record, and the leverage of the
+      // factor before this record, which the update gives from its own rotations (no second solve)
+      double noiseBefore = model.noiseSd();
       double lambda = forgetting.lambdaFor(t);
-      if (!model.update(row, y, lambda)) {
+      if (!model.update(row, y, lambda, leverage)) {
         reject(RejectReason.MODEL_REFUSED,
             "the update would have made the model's state non-finite; the model is unchanged", sink);
         return;
       }
+      if (ready) {
+        half = model.settings().intervalZ() * noiseBefore * Math.sqrt(1.0 + leverage[0]);
+      }
+    } else if (ready) {
+      half = model.intervalHalfWidth(row);
+    }
+    if (Double.isNaN(half)) {
+      // warming up, or no noise estimate yet: an interval cannot be given honestly
+      p.low = Double.NaN;
+      p.high = Double.NaN;
+    } else {
+      p.low = p.predicted - half;
+      p.high = p.predicted + half;
+    }
+    if (hasTarget) {
       trained++;
       if (p.status == Prediction.Status.SCORED && !Double.isNaN(p.low)) {
         metrics.add(y - p.predicted, p.covered());
