@@ -119,6 +119,8 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private long txStartNanos;
   private int recordsInTx;
   private int consecutiveAborts;
+  /** {@link #commits} when a fence was last recovered from; -1 before any. */
+  private long commitsAtLastFence = -1;
   private volatile Exception sendError;
   /**
    * The transaction that send errors count for. Callbacks of an earlier transaction (aborted, or
@@ -401,9 +403,27 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   /** Classifies an error: fatal ones stop the runner; the rest abort the transaction and rewind. */
   private void handle(KafkaException e) {
     Throwable fatal = fatalCause(e);
-    if (fatal != null) throw new FatalException(fatalMessage(fatal), e);
+    if (fatal != null && !recoverableFence(fatal)) throw new FatalException(fatalMessage(fatal), e);
     if (closing && e instanceof WakeupException) throw e;
     abortAndRewind(e);
+  }
+
+  /**
+   * A {@code ProducerFencedException} does not always mean a second instance: when the broker is
+   * away longer than {@code transaction.timeout.ms}, the coordinator aborts the open transaction
+   * and bumps the producer epoch, and this producer is then told it is fenced. So the first fence
+   * after a successful commit is recovered from (new producer, rewind to what the broker has
+   * committed); a second one without a commit in between stops the runner. A real second instance
+   * with the same instance id is also caught by static membership ({@code FencedInstanceIdException}).
+   */
+  private boolean recoverableFence(Throwable fatal) {
+    if (!(fatal instanceof ProducerFencedException)) return false;
+    if (commits == commitsAtLastFence) return false;
+    commitsAtLastFence = commits;
+    LOG.warn("runner {}: producer fenced ({}); if no other instance uses transactional id {}, the coordinator aborted a"
+        + " transaction that outlived transaction.timeout.ms; starting a new producer and rewinding to the last commit",
+        settings.name(), fatal.getMessage(), settings.transactionalId());
+    return true;
   }
 
   private static Throwable fatalCause(Throwable e) {
@@ -461,11 +481,11 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
         }
       } catch (KafkaException e) {
         Throwable fatal = fatalCause(e);
-        if (fatal != null) throw new FatalException(fatalMessage(fatal), e);
+        if (fatal != null && !recoverableFence(fatal)) throw new FatalException(fatalMessage(fatal), e);
         LOG.warn("runner {}: the producer cannot abort ({}); starting a new producer", settings.name(), e.toString());
         recreateProducer();
       }
-    } else if (cause instanceof InvalidProducerEpochException) {
+    } else if (cause instanceof InvalidProducerEpochException || fatalCause(cause) instanceof ProducerFencedException) {
       recreateProducer();
     }
     txOpen = false;
