@@ -6,7 +6,6 @@ import java.util.HashMap;
 import java.util.List;
 import java.util.Map;
 import java.util.Properties;
-import java.util.UUID;
 import org.apache.kafka.clients.consumer.ConsumerConfig;
 import org.apache.kafka.clients.consumer.ConsumerRecord;
 import org.apache.kafka.clients.consumer.ConsumerRecords;
@@ -44,13 +43,8 @@ public final class TopicSource implements AutoCloseable {
    */
   public TopicSource(String bootstrap, Map<String, String> clientProperties, String topic, TopicRange range) {
     this.topic = topic;
-    Properties p = new Properties();
-    p.putAll(clientProperties);
-    p.put(ConsumerConfig.BOOTSTRAP_SERVERS_CONFIG, bootstrap);
-    p.put(ConsumerConfig.ISOLATION_LEVEL_CONFIG, "read_committed");
-    p.put(ConsumerConfig.ENABLE_AUTO_COMMIT_CONFIG, "false");
+    Properties p = dev.runnel.connect.kafka.ClientConfig.groupLessReader(bootstrap, clientProperties, "runnel-backtest");
     p.put(ConsumerConfig.ALLOW_AUTO_CREATE_TOPICS_CONFIG, "false");
-    p.put(ConsumerConfig.CLIENT_ID_CONFIG, "runnel-backtest-" + UUID.randomUUID());
     p.put(ConsumerConfig.MAX_POLL_RECORDS_CONFIG, "10000");
     p.put(ConsumerConfig.FETCH_MAX_BYTES_CONFIG, String.valueOf(64 << 20));
     p.put(ConsumerConfig.MAX_PARTITION_FETCH_BYTES_CONFIG, String.valueOf(16 << 20));

@@ -13,9 +13,7 @@ import java.util.ArrayList;
 import java.util.List;
 import java.util.Map;
 import java.util.Properties;
-import java.util.UUID;
 import java.util.concurrent.Callable;
-import org.apache.kafka.clients.consumer.ConsumerConfig;
 import org.apache.kafka.clients.consumer.ConsumerRecord;
 import org.apache.kafka.clients.consumer.KafkaConsumer;
 import org.apache.kafka.common.PartitionInfo;
@@ -96,12 +94,7 @@ public final class DriftCommand implements Callable<Integer> {
 
   /** Reads the topic and prints the table; package-private for tests. */
   static int print(String servers, Map<String, String> props, String t, DriftTable table, boolean follow, PrintStream out) {
-    Properties p = new Properties();
-    p.putAll(props);
-    p.put(ConsumerConfig.BOOTSTRAP_SERVERS_CONFIG, servers);
-    p.put(ConsumerConfig.ISOLATION_LEVEL_CONFIG, "read_committed");
-    p.put(ConsumerConfig.ENABLE_AUTO_COMMIT_CONFIG, "false");
-    p.put(ConsumerConfig.CLIENT_ID_CONFIG, "runnel-drift-" + UUID.randomUUID());
+    Properties p = dev.runnel.connect.kafka.ClientConfig.groupLessReader(servers, props, "runnel-drift");
     try (KafkaConsumer<byte[], byte[]> c = new KafkaConsumer<>(p, new ByteArrayDeserializer(), new ByteArrayDeserializer())) {
       List<PartitionInfo> infos = c.partitionsFor(t, Duration.ofSeconds(30));
       if (infos == null || infos.isEmpty()) {

@@ -288,11 +288,7 @@ public final class DemoRun {
     private long lastPrintNanos;
 
     LiveView(String bootstrap, String topic, PrintStream out, boolean quiet) {
-      Properties p = new Properties();
-      p.put("bootstrap.servers", bootstrap);
-      p.put("isolation.level", "read_committed");
-      p.put("enable.auto.commit", "false");
-      p.put("client.id", "runnel-demo-view");
+      Properties p = dev.runnel.connect.kafka.ClientConfig.groupLessReader(bootstrap, Map.of(), "runnel-demo-view");
       this.consumer = new org.apache.kafka.clients.consumer.KafkaConsumer<>(p,
           new org.apache.kafka.common.serialization.ByteArrayDeserializer(),
           new org.apache.kafka.common.serialization.ByteArrayDeserializer());

@@ -5,7 +5,6 @@ import java.util.ArrayList;
 import java.util.List;
 import java.util.Map;
 import java.util.Properties;
-import java.util.UUID;
 import java.util.function.Consumer;
 import org.apache.kafka.clients.consumer.ConsumerConfig;
 import org.apache.kafka.clients.consumer.ConsumerRecord;
@@ -30,11 +29,7 @@ public final class TopicReader {
    * @return the number of records read
    */
   public static long readAll(String bootstrap, String topic, Consumer<ConsumerRecord<byte[], byte[]>> handler) {
-    Properties p = new Properties();
-    p.put(ConsumerConfig.BOOTSTRAP_SERVERS_CONFIG, bootstrap);
-    p.put(ConsumerConfig.ISOLATION_LEVEL_CONFIG, "read_committed");
-    p.put(ConsumerConfig.ENABLE_AUTO_COMMIT_CONFIG, "false");
-    p.put(ConsumerConfig.CLIENT_ID_CONFIG, "runnel-reader-" + UUID.randomUUID());
+    Properties p = dev.runnel.connect.kafka.ClientConfig.groupLessReader(bootstrap, Map.of(), "runnel-reader");
     p.put(ConsumerConfig.MAX_POLL_RECORDS_CONFIG, "5000");
     long n = 0;
     try (KafkaConsumer<byte[], byte[]> c = new KafkaConsumer<>(p, new ByteArrayDeserializer(), new ByteArrayDeserializer())) {

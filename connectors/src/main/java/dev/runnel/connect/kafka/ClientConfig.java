@@ -41,6 +41,27 @@ public final class ClientConfig {
     return out;
   }
 
+  /**
+   * Properties of a consumer that reads committed records without a consumer group (it assigns
+   * partitions and never commits), for replays, views and readers that must not disturb a
+   * pipeline: the user's consumer properties ({@code ${ENV}} resolved from the process
+   * environment), then bootstrap servers, {@code read_committed}, no auto commit, and a unique
+   * client id.
+   *
+   * @param bootstrap bootstrap servers
+   * @param props user client properties, as for {@link #forClient}. Not modified.
+   * @param clientIdPrefix e.g. {@code runnel-backtest}; a random suffix is added
+   */
+  public static java.util.Properties groupLessReader(String bootstrap, Map<String, String> props, String clientIdPrefix) {
+    java.util.Properties p = new java.util.Properties();
+    p.putAll(forClient(props, Kind.CONSUMER, System::getenv));
+    p.put("bootstrap.servers", bootstrap);
+    p.put("isolation.level", "read_committed");
+    p.put("enable.auto.commit", "false");
+    p.put("client.id", clientIdPrefix + "-" + java.util.UUID.randomUUID());
+    return p;
+  }
+
   static String resolve(String key, String value, UnaryOperator<String> env) {
     if (value == null) throw new IllegalArgumentException("client property " + key + " has no value");
     Matcher m = VAR.matcher(value);
