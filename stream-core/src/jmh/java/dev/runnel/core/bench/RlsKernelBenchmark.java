@@ -20,15 +20,19 @@ import org.openjdk.jmh.annotations.Warmup;
  * Benchmark 2: the RLS update kernel alone on dense rows (x0 = 1, the rest standard normal),
  * {@code lambda} = 0.999, prior variance 100.
  * <ul>
- *   <li>{@code update}: windup guard off: forget, Givens rotation of the row into the factor,
- *       back-substitution for the weights. Nominal work {@code 4 p^2} flops (6 per rotated
- *       element of the triangle, 2 per back-substitution element), the figure used for GFLOP/s.</li>
- *   <li>{@code updateGuarded}: the same with the windup guard (one prior-row refresh per update,
- *       about {@code p^2} more flops on average).</li>
- *   <li>{@code leverageAndUpdate}: what the pipeline asks of the model per trained record: the
- *       prediction, the leverage for the interval (one triangular solve) and the guarded update.</li>
- *   <li>{@code updateWithLeverage}: the same outputs with the leverage taken from the update's own
- *       rotation angles ({@link RlsModel#update(double[], double, double, double[])}), no solve.</li>
+ *   <li>{@code update}: windup guard off: forget, Givens rotation of the row into the factor.
+ *       Nominal work {@code 3 p^2} flops (6 per rotated element of the triangle), the figure used
+ *       for GFLOP/s. The weights are not solved per update (see {@link RlsModel}).</li>
+ *   <li>{@code updateAndWeights}: the same, then the weights ({@link RlsModel#weights}: one
+ *       back-substitution, {@code p^2} more flops): what the EJML references produce.</li>
+ *   <li>{@code updateGuarded}: {@code update} with the windup guard (one prior-row refresh per
+ *       update, about {@code p^2} more flops on average).</li>
+ *   <li>{@code separateSolvesAndUpdate}: the a-priori prediction and leverage by separate solves
+ *       ({@link RlsModel#predict}: a back-substitution; {@link RlsModel#intervalHalfWidth}: a forward
+ *       substitution), then the guarded update.</li>
+ *   <li>{@code updateWithAPriori}: what the pipeline asks of the model per trained record: the
+ *       same outputs from the guarded update's own rotations
+ *       ({@link RlsModel#update(double[], double, double, double[])}), no solve.</li>
  * </ul>
  *
  * <pre>{@code
@@ -79,8 +83,18 @@ public class RlsKernelBenchmark {
     return guarded.update(rows[k], ys[k], LAMBDA);
   }
 
+  private final double[] weights = new double[256];
+
   @Benchmark
-  public double leverageAndUpdate() {
+  public double updateAndWeights() {
+    int k = i++ & (N - 1);
+    plain.update(rows[k], ys[k], LAMBDA);
+    plain.weights(weights);
+    return weights[0];
+  }
+
+  @Benchmark
+  public double separateSolvesAndUpdate() {
     int k = i++ & (N - 1);
     double[] x = rows[k];
     double yhat = guarded.predict(x);
@@ -89,14 +103,14 @@ public class RlsKernelBenchmark {
     return yhat + half;
   }
 
-  private final double[] lev = new double[1];
+  private final double[] aPriori = new double[2];
 
   @Benchmark
-  public double updateWithLeverage() {
+  public double updateWithAPriori() {
     int k = i++ & (N - 1);
     double[] x = rows[k];
-    double yhat = guarded.predict(x);
-    guarded.update(x, ys[k], LAMBDA, lev);
-    return yhat + guarded.settings().intervalZ() * guarded.noiseSd() * Math.sqrt(1.0 + lev[0]);
+    double z = guarded.settings().intervalZ() * guarded.noiseSd();
+    guarded.update(x, ys[k], LAMBDA, aPriori);
+    return aPriori[1] + z * Math.sqrt(1.0 + aPriori[0]);
   }
 }

@@ -12,8 +12,8 @@ import java.util.Arrays;
  * thread; not thread-safe.
  *
  * <p>State: an upper-triangular factor {@code R} with {@code R^T R = Lambda} (the information,
- * in units of 1/noise variance), {@code z} with {@code R theta = z}, the cached weights
- * {@code theta}, the minimum of the weighted (and penalized) objective {@code rho^2}, the
+ * in units of 1/noise variance), {@code z} with {@code R theta = z}, the weights {@code theta}
+ * (solved from {@code R} and {@code z} when first asked for after a change), the minimum of the weighted (and penalized) objective {@code rho^2}, the
  * effective sample size, and an exponentially weighted noise variance. The model solves
  * <pre>{@code
  *   minimize  sum_rows  w_row * (y_row - x_row^T theta)^2      (data rows and prior rows)
@@ -22,15 +22,21 @@ import java.util.Arrays;
  * with its column. Prior rows are {@code sqrt(a) e_j} with target 0; see
  * {@link #observePriorRows}.
  *
- * <p>Costs per {@link #update}: one pass of Givens rotations over the triangle,
- * {@code 3 p^2} multiply-adds, plus one back-substitution {@code p^2 / 2}; nothing is allocated.
- * {@link #leverage} is one triangular solve, {@code p^2 / 2}. Layout changes: add {@code O(p)}
- * (amortized), remove {@code O(p^2)}, re-base {@code O(p)}.
+ * <p>Costs per {@link #update}: one pass of Givens rotations over the triangle, {@code 3 p^2}
+ * flops (rows before the first non-zero of {@code x} are not touched); the a-priori prediction
+ * and leverage come out of the same rotations; nothing is allocated. The weights are not
+ * back-substituted per update: {@link #predict} and {@link #weights} solve for them (one
+ * back-substitution, {@code p^2}) only when asked after a change, and {@link #forecast} gives a
+ * prediction with its leverage from one forward substitution ({@code p^2}) without them.
+ * Layout changes: add {@code O(p)} (amortized), remove {@code O(p^2)}, re-base {@code O(p)}.
  *
- * <p>Storage: {@code R} is a flat row-major {@code double[]} with a row stride equal to the
- * capacity, so a Givens rotation touches two contiguous row segments, the hot-loop pattern. Only
- * the upper triangle is ever read. The update writes the new factor into a second buffer and
- * swaps on success, so a rejected update leaves the state bit-for-bit unchanged at no extra copy.
+ * <p>Storage: {@code R} is an array of rows, row {@code i} a {@code double[]} indexed by column,
+ * so a Givens rotation reads and writes a row and the rotated data vector at the same index; the
+ * JIT compiles that loop to vector instructions (with one flat array and a row offset it cannot
+ * prove that the two ranges do not overlap, and runs it scalar: measured about three times
+ * slower). Only the upper triangle is ever read. The update writes each rotated row into a
+ * spare row and swaps the two row references on success, so a rejected update leaves the state
+ * bit-for-bit unchanged and untouched rows are neither copied nor swapped.
  *
  * <p>Implementation notes: the square-root information form is QR-RLS (Givens rotations on the
  * information factor), common practice for numerically robust RLS; the windup guard is the
@@ -73,12 +79,17 @@ public final class RlsModel implements LayoutListener {
 
   private int p;
   private int cap;
-  private double[] r;
-  private double[] rNext;
+  /** Row i of the factor; entries {@code [i, p)} are live. */
+  private double[][] r;
+  /** Spare rows the update writes into; row i is swapped with {@code r[i]} on success. */
+  private double[][] spare;
+  /** Per row: did this update write the spare row. */
+  private boolean[] rotated;
   private double[] z;
   private double[] zNext;
   private double[] theta;
-  private double[] thetaNext;
+  /** Whether {@link #theta} is the solution of the current {@code R theta = z}. */
+  private boolean thetaValid;
   private double[] work;
   private double[] work2;
   /** The windup guard's refresh row during an update. */
@@ -105,7 +116,6 @@ public final class RlsModel implements LayoutListener {
   private double noiseWeight;
   private long updates;
   private boolean ready;
-  private boolean lastSolveFullRank;
 
   private PriorRowObserver observer;
 
@@ -140,12 +150,12 @@ public final class RlsModel implements LayoutListener {
 
   private void allocate(int capacity) {
     cap = capacity;
-    r = new double[cap * cap];
-    rNext = new double[cap * cap];
+    r = new double[cap][cap];
+    spare = new double[cap][cap];
+    rotated = new boolean[cap];
     z = new double[cap];
     zNext = new double[cap];
     theta = new double[cap];
-    thetaNext = new double[cap];
     work = new double[cap];
     work2 = new double[cap];
     work3 = new double[cap];
@@ -158,15 +168,14 @@ public final class RlsModel implements LayoutListener {
     if (needed <= cap) {
       return;
     }
-    int oldCap = cap;
-    double[] oldR = r;
+    double[][] oldR = r;
     double[] oldZ = z;
     double[] oldTheta = theta;
     double[] oldPrior = priorAtRefresh;
     double[] oldLog = logDecayAtRefresh;
-    allocate(Math.max(needed, 2 * oldCap));
+    allocate(Math.max(needed, 2 * cap));
     for (int i = 0; i < p; i++) {
-      System.arraycopy(oldR, i * oldCap + i, r, i * cap + i, p - i);
+      System.arraycopy(oldR[i], i, r[i], i, p - i);
     }
     System.arraycopy(oldZ, 0, z, 0, p);
     System.arraycopy(oldTheta, 0, theta, 0, p);
@@ -179,11 +188,12 @@ public final class RlsModel implements LayoutListener {
     ensureCapacity(p + 1);
     int k = p;
     for (int i = 0; i < k; i++) {
-      r[i * cap + k] = 0.0;
+      r[i][k] = 0.0;
     }
-    r[k * cap + k] = Math.sqrt(priorInfo) / scale;
+    Arrays.fill(r[k], k + 1, cap, 0.0);
+    r[k][k] = Math.sqrt(priorInfo) / scale;
     z[k] = 0.0;
-    theta[k] = 0.0;
+    theta[k] = 0.0; // the old weights stay the solution: the new column's row is (0.., d, 0..) with z 0
     priorAtRefresh[k] = priorInfo;
     logDecayAtRefresh[k] = logDecay;
     p = k + 1;
@@ -223,7 +233,7 @@ public final class RlsModel implements LayoutListener {
     if (!ready) {
       return Double.NaN;
     }
-    final double[] t = theta;
+    final double[] t = currentTheta();
     double s = 0.0;
     for (int j = 0; j < p; j++) {
       s += x[j] * t[j];
@@ -244,19 +254,64 @@ public final class RlsModel implements LayoutListener {
       return Double.NaN;
     }
     final double[] u = work2;
-    final double[] rm = r;
-    final int c = cap;
-    System.arraycopy(x, 0, u, 0, p);
+    final double[][] rm = r;
+    final int n = p;
+    System.arraycopy(x, 0, u, 0, n);
     double sum = 0.0;
-    for (int i = 0; i < p; i++) {
-      int ri = i * c;
-      double ui = u[i] / rm[ri + i];
+    for (int i = 0; i < n; i++) {
+      final double[] row = rm[i];
+      final double ui = u[i] / row[i];
       sum += ui * ui;
-      for (int j = i + 1; j < p; j++) {
-        u[j] -= rm[ri + j] * ui;
+      for (int j = i + 1; j < n; j++) {
+        u[j] -= row[j] * ui;
       }
     }
     return scale == 1.0 ? sum : sum / (scale * scale);
+  }
+
+  /**
+   * The a-priori prediction {@code x^T theta} and its leverage {@code x^T (R^T R)^-1 x} from one
+   * forward substitution {@code u = R^-T x}: the prediction is {@code u^T z} (as
+   * {@code theta = R^-1 z}), the leverage {@code u^T u}, so the weights need not be solved. Agrees
+   * with {@link #predict} and {@link #leverage} to rounding, not bit for bit. When a pivot is not
+   * positive (rank deficient in diffuse mode) it falls back to those two.
+   *
+   * @param x feature vector, length at least {@link #dimension()}. Not modified.
+   * @param out receives the leverage in element 0 and the prediction in element 1 (the order of
+   *     {@link #update(double[], double, double, double[])}), NaN when not {@link #ready()}.
+   *     Modified.
+   */
+  public void forecast(double[] x, double[] out) {
+    checkLength(x);
+    if (!ready) {
+      out[0] = Double.NaN;
+      out[1] = Double.NaN;
+      return;
+    }
+    final double[] u = work2;
+    final double[][] rm = r;
+    final double[] zm = z;
+    final int n = p;
+    System.arraycopy(x, 0, u, 0, n);
+    double sum = 0.0;
+    double pred = 0.0;
+    for (int i = 0; i < n; i++) {
+      final double[] row = rm[i];
+      final double d = row[i];
+      if (!(d > 0.0)) {
+        out[0] = leverage(x);
+        out[1] = predict(x);
+        return;
+      }
+      final double ui = u[i] / d;
+      sum += ui * ui;
+      pred += ui * zm[i];
+      for (int j = i + 1; j < n; j++) {
+        u[j] -= row[j] * ui;
+      }
+    }
+    out[0] = scale == 1.0 ? sum : sum / (scale * scale);
+    out[1] = pred;
   }
 
   /**
@@ -302,19 +357,25 @@ public final class RlsModel implements LayoutListener {
   /**
    * As {@link #update(double[], double, double)}, and also gives the a-priori leverage
    * {@code x^T Lambda^-1 x} of the state before this update (what {@link #leverage} would have
-   * returned just before the call), from the rotation angles of the update itself instead of a
+   * returned just before the call) and the a-priori prediction {@code x^T theta} (what
+   * {@link #predict} would have returned), from the rotations of the update itself instead of a
    * separate triangular solve: with {@code g = prod cos^2} of the rotations,
    * {@code x^T (lambda Lambda)^-1 x = (1 - g) / g}; {@code 1 - g} is accumulated directly,
-   * {@code q <- q + g sin^2}, so it does not cancel. Agrees with {@link #leverage} to rounding, not
-   * bit for bit.
+   * {@code q <- q + g sin^2}, so it does not cancel; the rotated target is the a-priori error
+   * times {@code sqrt(g)}, so the prediction is {@code y - e / sqrt(g)}. Both agree with the
+   * separate computations to rounding, not bit for bit.
    *
-   * @param leverageOut null, or receives the leverage in element 0 (NaN when not ready, or when
-   *     the update is refused). Modified.
+   * @param aPrioriOut null, or receives the leverage in element 0 and, when its length is at
+   *     least 2, the prediction in element 1 (NaN when not ready, or when the update is refused).
+   *     Modified.
    * @return as {@link #update(double[], double, double)}
    */
-  public boolean update(double[] x, double y, double lambda, double[] leverageOut) {
-    if (leverageOut != null) {
-      leverageOut[0] = Double.NaN;
+  public boolean update(double[] x, double y, double lambda, double[] aPrioriOut) {
+    if (aPrioriOut != null) {
+      aPrioriOut[0] = Double.NaN;
+      if (aPrioriOut.length > 1) {
+        aPrioriOut[1] = Double.NaN;
+      }
     }
     if (!(lambda > 0 && lambda <= 1)) {
       throw new IllegalArgumentException("lambda must be in (0, 1], got " + lambda);
@@ -324,7 +385,6 @@ public final class RlsModel implements LayoutListener {
       return false;
     }
     final int n = p;
-    final int c = cap;
     final double sl = lambda == 1.0 ? 1.0 : Math.sqrt(lambda);
     // forgetting: the true factor becomes sl * scale * r; rows enter in stored units (divided by it)
     final double scaleNext = scale * sl;
@@ -352,16 +412,22 @@ public final class RlsModel implements LayoutListener {
       }
     }
     final int rc = refreshInfo > 0.0 ? refreshColumn : n; // first row the refresh row touches
-    final double[] rm = r;
-    final double[] rn = rNext;
+    final double[][] rm = r;
+    final double[][] rs = spare;
+    final boolean[] changed = rotated;
     final double[] zm = z;
     final double[] zn = zNext;
     final double[] w = work;
     final double[] v = work3;
+    int lead = 0; // rows before the first non-zero of x (and before the refresh row) stay as they are
+    while (lead < n && x[lead] == 0.0) {
+      lead++;
+    }
+    final int start = Math.min(lead, rc);
     if (toStored == 1.0) {
-      System.arraycopy(x, 0, w, 0, n);
+      System.arraycopy(x, start, w, start, n - start);
     } else {
-      for (int k = 0; k < n; k++) {
+      for (int k = start; k < n; k++) {
         w[k] = x[k] * toStored;
       }
     }
@@ -371,79 +437,70 @@ public final class RlsModel implements LayoutListener {
       }
       v[rc] = Math.sqrt(refreshInfo) * toStored;
     }
+    System.arraycopy(zm, 0, zn, 0, start);
     double yw = y * toStored;
     double yv = 0.0;
     double g = 1.0; // product of the data rotations' cos^2
     double q = 0.0; // 1 - g, accumulated without cancellation
-    for (int i = 0; i < n; i++) {
-      final int ri = i * c;
+    double zMax = 0.0; // largest |z| of the new state, to refuse a non-finite one
+    for (int i = start; i < n; i++) {
+      final double[] a = rm[i];
+      final double[] b = rs[i];
       final double xi = w[i];
       final double zi = zm[i];
+      final double vi = i >= rc ? v[i] : 0.0;
+      if (xi == 0.0 && vi == 0.0) {
+        changed[i] = false; // nothing meets row i: it stays where it is
+        zn[i] = zi;
+        continue;
+      }
+      changed[i] = true;
       double cs;
       double sn;
       double zi1;
+      double d;
       if (xi == 0.0) {
         cs = 1.0;
         sn = 0.0;
-        rn[ri + i] = rm[ri + i];
+        d = a[i];
         zi1 = zi;
       } else {
-        final double a = rm[ri + i];
-        double h = Math.sqrt(a * a + xi * xi);
+        final double ai = a[i];
+        double h = Math.sqrt(ai * ai + xi * xi);
         if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
-          h = StrictMath.hypot(a, xi); // squares under- or overflowed: rare path
+          h = StrictMath.hypot(ai, xi); // squares under- or overflowed: rare path
         }
-        cs = a / h;
+        cs = ai / h;
         sn = xi / h;
         q += g * (sn * sn);
         g *= cs * cs;
-        rn[ri + i] = h;
+        d = h;
         zi1 = cs * zi + sn * yw;
         yw = cs * yw - sn * zi;
       }
-      final double vi = i >= rc ? v[i] : 0.0;
       if (vi == 0.0) {
-        if (xi == 0.0) {
-          System.arraycopy(rm, ri + i + 1, rn, ri + i + 1, n - i - 1);
-        } else {
-          for (int j = i + 1; j < n; j++) {
-            final double rij = rm[ri + j];
-            final double xj = w[j];
-            rn[ri + j] = cs * rij + sn * xj;
-            w[j] = cs * xj - sn * rij;
-          }
-        }
+        b[i] = d;
+        rotate(a, b, w, i + 1, n, cs, sn);
         zn[i] = zi1;
+        zMax = Math.max(zMax, Math.abs(zi1));
         continue;
       }
       // the refresh row meets row i (i >= rc)
-      final double a2 = rn[ri + i];
-      double h2 = Math.sqrt(a2 * a2 + vi * vi);
+      double h2 = Math.sqrt(d * d + vi * vi);
       if (!(h2 > 0.0 && h2 < Double.POSITIVE_INFINITY)) {
-        h2 = StrictMath.hypot(a2, vi);
+        h2 = StrictMath.hypot(d, vi);
       }
-      final double cv = a2 / h2;
+      final double cv = d / h2;
       final double sv = vi / h2;
-      rn[ri + i] = h2;
+      b[i] = h2;
       if (xi == 0.0) {
-        for (int j = i + 1; j < n; j++) {
-          final double rij = rm[ri + j];
-          final double vj = v[j];
-          rn[ri + j] = cv * rij + sv * vj;
-          v[j] = cv * vj - sv * rij;
-        }
+        rotate(a, b, v, i + 1, n, cv, sv);
       } else {
-        for (int j = i + 1; j < n; j++) {
-          final double rij = rm[ri + j];
-          final double xj = w[j];
-          final double r1 = cs * rij + sn * xj;
-          w[j] = cs * xj - sn * rij;
-          final double vj = v[j];
-          rn[ri + j] = cv * r1 + sv * vj;
-          v[j] = cv * vj - sv * r1;
-        }
+        rotateTwice(a, b, w, v, i + 1, n, cs, sn, cv, sv);
       }
-      zn[i] = cv * zi1 + sv * yv;
+      final double zi2 = cv * zi1 + sv * yv;
+      zn[i] = zi2;
+      zMax = Math.max(zMax, Math.abs(zi2));
       yv = cv * yv - sv * zi1;
     }
     final double residual = yw * scaleNext; // e_a / sqrt(1 + x^T (lambda Lambda)^-1 x)
@@ -452,33 +509,47 @@ public final class RlsModel implements LayoutListener {
       final double e = yv * scaleNext;
       rho2n += e * e;
     }
-
-    if (!solve(rn, zn, thetaNext) || !(rho2n < Double.POSITIVE_INFINITY)) {
+    // pivots of the new state: rotated rows in the spare rows, the others where they are
+    double maxDiag = 0.0;
+    double minDiag = Double.POSITIVE_INFINITY;
+    for (int i = 0; i < n; i++) {
+      final double d = i >= start && changed[i] ? rs[i][i] : rm[i][i];
+      maxDiag = Math.max(maxDiag, d);
+      minDiag = Math.min(minDiag, d);
+    }
+    if (!(maxDiag < Double.POSITIVE_INFINITY) || !(zMax < Double.POSITIVE_INFINITY)
+        || !(rho2n < Double.POSITIVE_INFINITY)) {
       return false; // nothing committed: r, z, theta and every scalar are as before
     }
     // commit
     final boolean wasReady = ready;
-    if (leverageOut != null && wasReady) {
-      leverageOut[0] = lambda * (q / g);
+    if (aPrioriOut != null && wasReady) {
+      aPrioriOut[0] = lambda * (q / g);
+      if (aPrioriOut.length > 1) {
+        aPrioriOut[1] = y - residual / Math.sqrt(g);
+      }
+    }
+    for (int i = start; i < n; i++) {
+      if (changed[i]) {
+        final double[] t = rm[i];
+        rm[i] = rs[i];
+        rs[i] = t;
+      }
     }
     scale = scaleNext;
     if (scaleNext < MIN_SCALE) {
-      renormalizeScale(rn, zn);
+      renormalizeScale(rm, zn);
     }
-    r = rn;
-    rNext = rm;
     z = zn;
     zNext = zm;
-    final double[] t = theta;
-    theta = thetaNext;
-    thetaNext = t;
+    thetaValid = false;
     rho2 = rho2n;
     nEff = lambda * nEff + 1.0;
     if (wasReady) {
       noiseSum = noiseDecay * noiseSum + residual * residual;
       noiseWeight = noiseDecay * noiseWeight + 1.0;
     }
-    ready = !settings.diffuse() || lastSolveFullRank;
+    ready = !settings.diffuse() || (n > 0 ? minDiag > READY_TOLERANCE * maxDiag : true);
     logDecay = logDecayNext;
     updates++;
     if (refreshColumn >= 0) {
@@ -495,6 +566,34 @@ public final class RlsModel implements LayoutListener {
     return true;
   }
 
+  /**
+   * One Givens rotation of a factor row with a vector over {@code [from, to)}:
+   * {@code b = cs a + sn w}, {@code w = cs w - sn a}. Every array is indexed alike, the pattern
+   * the JIT vectorizes.
+   */
+  private static void rotate(double[] a, double[] b, double[] w, int from, int to, double cs, double sn) {
+    for (int j = from; j < to; j++) {
+      final double aj = a[j];
+      final double wj = w[j];
+      b[j] = cs * aj + sn * wj;
+      w[j] = cs * wj - sn * aj;
+    }
+  }
+
+  /** The data rotation, then the refresh rotation, of one row in one pass (see {@link #update}). */
+  private static void rotateTwice(double[] a, double[] b, double[] w, double[] v, int from, int to,
+      double cs, double sn, double cv, double sv) {
+    for (int j = from; j < to; j++) {
+      final double aj = a[j];
+      final double wj = w[j];
+      final double r1 = cs * aj + sn * wj;
+      w[j] = cs * wj - sn * aj;
+      final double vj = v[j];
+      b[j] = cv * r1 + sv * vj;
+      v[j] = cv * vj - sv * r1;
+    }
+  }
+
   private boolean acceptable(double[] x, double y) {
     if (!(Math.abs(y) <= MAX_ABS_INPUT)) {
       return false;
@@ -507,69 +606,54 @@ public final class RlsModel implements LayoutListener {
     return true;
   }
 
-  /**
-   * Back-substitution {@code rm out = zm}. Pivots at or below the tolerance (diffuse: relative,
-   * else exactly 0) give weight 0 and clear {@link #lastSolveFullRank}.
-   *
-   * @return false if any state entry or weight is not finite
-   */
-  private boolean solve(double[] rm, double[] zm, double[] out) {
-    final int n = p;
-    final int c = cap;
-    double maxDiag = 0.0;
-    for (int i = 0; i < n; i++) {
-      maxDiag = Math.max(maxDiag, rm[i * c + i]);
+  /** The weights, solved from the current factor if a change made them stale. */
+  private double[] currentTheta() {
+    if (!thetaValid) {
+      solve(r, z, theta);
+      thetaValid = true;
     }
-    final double tol = settings.diffuse() ? READY_TOLERANCE * maxDiag : 0.0;
-    boolean full = true;
-    boolean finite = maxDiag < Double.POSITIVE_INFINITY;
-    for (int i = n - 1; i >= 0; i--) {
-      final int ri = i * c;
-      final double d = rm[ri + i];
-      if (d > tol) {
-        final double v = (zm[i] - dot(rm, ri, out, i + 1, n)) / d;
-        out[i] = v;
-        // a non-finite entry of row i (or of z_i) makes v non-finite: inf * 0 is NaN
-        finite &= Math.abs(v) < Double.POSITIVE_INFINITY;
-      } else {
-        out[i] = 0.0;
-        full = false;
-        finite &= rowFinite(rm, zm, i);
-      }
-    }
-    lastSolveFullRank = full;
-    return finite;
+    return theta;
   }
 
   /**
-   * {@code sum_{j in [from, to)} a[off + j] b[j]} with four partial sums, so the additions do not
-   * form one chain of dependent operations (a back-substitution is otherwise bound by the latency
-   * of its additions, not by their number). Measured in {@code RlsKernelBenchmark}.
+   * Back-substitution {@code rm out = zm}. Pivots at or below the tolerance (diffuse: relative,
+   * else exactly 0) give weight 0.
    */
-  static double dot(double[] a, int off, double[] b, int from, int to) {
+  private void solve(double[][] rm, double[] zm, double[] out) {
+    final int n = p;
+    double maxDiag = 0.0;
+    for (int i = 0; i < n; i++) {
+      maxDiag = Math.max(maxDiag, rm[i][i]);
+    }
+    final double tol = settings.diffuse() ? READY_TOLERANCE * maxDiag : 0.0;
+    for (int i = n - 1; i >= 0; i--) {
+      final double[] row = rm[i];
+      final double d = row[i];
+      out[i] = d > tol ? (zm[i] - dot(row, out, i + 1, n)) / d : 0.0;
+    }
+  }
+
+  /**
+   * {@code sum_{j in [from, to)} a[j] b[j]} with four partial sums, so the additions do not form
+   * one chain of dependent operations (a back-substitution is otherwise bound by the latency of
+   * its additions, not by their number).
+   */
+  static double dot(double[] a, double[] b, int from, int to) {
     double s0 = 0.0;
     double s1 = 0.0;
     double s2 = 0.0;
     double s3 = 0.0;
     int j = from;
     for (; j + 3 < to; j += 4) {
-      s0 += a[off + j] * b[j];
-      s1 += a[off + j + 1] * b[j + 1];
-      s2 += a[off + j + 2] * b[j + 2];
-      s3 += a[off + j + 3] * b[j + 3];
+      s0 += a[j] * b[j];
+      s1 += a[j + 1] * b[j + 1];
+      s2 += a[j + 2] * b[j + 2];
+      s3 += a[j + 3] * b[j + 3];
     }
     for (; j < to; j++) {
-      s0 += a[off + j] * b[j];
+      s0 += a[j] * b[j];
     }
     return (s0 + s1) + (s2 + s3);
-  }
-
-  private boolean rowFinite(double[] rm, double[] zm, int i) {
-    boolean ok = Math.abs(zm[i]) < Double.POSITIVE_INFINITY;
-    for (int j = i; j < p; j++) {
-      ok &= Math.abs(rm[i * cap + j]) < Double.POSITIVE_INFINITY;
-    }
-    return ok;
   }
 
   /**
@@ -577,18 +661,28 @@ public final class RlsModel implements LayoutListener {
    * a power of two), so the bits of every later result are as if it had not happened, except for
    * entries that would become subnormal. Rare: once per {@code 60 / log2(1/sqrt(lambda))} updates.
    */
-  private void renormalizeScale(double[] rm, double[] zm) {
+  private void renormalizeScale(double[][] rm, double[] zm) {
     final int k = Math.getExponent(scale);
     final double f = Math.scalb(1.0, k);
-    final int c = cap;
     for (int i = 0; i < p; i++) {
-      final int ri = i * c;
+      final double[] row = rm[i];
       for (int j = i; j < p; j++) {
-        rm[ri + j] *= f;
+        row[j] *= f;
       }
       zm[i] *= f;
     }
     scale = Math.scalb(scale, -k);
+  }
+
+  /** In diffuse mode: every pivot above {@link #READY_TOLERANCE} times the largest. */
+  private boolean fullRank() {
+    double maxDiag = 0.0;
+    double minDiag = Double.POSITIVE_INFINITY;
+    for (int i = 0; i < p; i++) {
+      maxDiag = Math.max(maxDiag, r[i][i]);
+      minDiag = Math.min(minDiag, r[i][i]);
+    }
+    return p == 0 || minDiag > READY_TOLERANCE * maxDiag;
   }
 
   private void renormalizeLogDecay() {
@@ -640,64 +734,70 @@ public final class RlsModel implements LayoutListener {
       throw new IllegalArgumentException("columnRemoved index must be in [" + min + ", " + (p - 1)
           + "]" + (min == 1 ? " (column 0 is the constant term)" : "") + ", got " + index);
     }
-    final double[] rm = r;
-    final int c = cap;
+    final double[][] rm = r;
     for (int k = index; k >= 1; k--) {
-      // swap columns k-1 and k in rows 0..k (rows below hold zeros in both)
-      for (int i = 0; i <= k; i++) {
-        int ri = i * c;
-        double t = rm[ri + k - 1];
-        rm[ri + k - 1] = rm[ri + k];
-        rm[ri + k] = t;
+      // swap columns k-1 and k in rows 0..k (rows below hold zeros in both; so does row k at
+      // column k-1, below its diagonal, where the stored entry is not kept at zero)
+      for (int i = 0; i < k; i++) {
+        final double[] row = rm[i];
+        double t = row[k - 1];
+        row[k - 1] = row[k];
+        row[k] = t;
       }
+      rm[k][k - 1] = rm[k][k];
+      rm[k][k] = 0.0;
       // row k now has a sub-diagonal entry at column k-1: rotate rows k-1 and k
-      int r0 = (k - 1) * c;
-      int r1 = k * c;
-      double a = rm[r0 + k - 1];
-      double b = rm[r1 + k - 1];
+      final double[] r0 = rm[k - 1];
+      final double[] r1 = rm[k];
+      double a = r0[k - 1];
+      double b = r1[k - 1];
       if (b != 0.0) {
         double h = StrictMath.hypot(a, b);
         double cs = a / h;
         double sn = b / h;
-        rm[r0 + k - 1] = h;
-        rm[r1 + k - 1] = 0.0;
+        r0[k - 1] = h;
+        r1[k - 1] = 0.0;
         for (int j = k; j < p; j++) {
-          double u = rm[r0 + j];
-          double v = rm[r1 + j];
-          rm[r0 + j] = cs * u + sn * v;
-          rm[r1 + j] = cs * v - sn * u;
+          double u = r0[j];
+          double v = r1[j];
+          r0[j] = cs * u + sn * v;
+          r1[j] = cs * v - sn * u;
         }
         double u = z[k - 1];
         double v = z[k];
         z[k - 1] = cs * u + sn * v;
         z[k] = cs * v - sn * u;
       } else {
-        rm[r1 + k - 1] = 0.0;
-        if (rm[r0 + k - 1] < 0.0) { // keep pivots non-negative: negate row k-1 of [R | z]
+        r1[k - 1] = 0.0;
+        if (r0[k - 1] < 0.0) { // keep pivots non-negative: negate row k-1 of [R | z]
           for (int j = k - 1; j < p; j++) {
-            rm[r0 + j] = -rm[r0 + j];
+            r0[j] = -r0[j];
           }
           z[k - 1] = -z[k - 1];
         }
       }
-      if (rm[r1 + k] < 0.0) { // keep pivots non-negative: negate row k of [R | z]
+      if (r1[k] < 0.0) { // keep pivots non-negative: negate row k of [R | z]
         for (int j = k; j < p; j++) {
-          rm[r1 + j] = -rm[r1 + j];
+          r1[j] = -r1[j];
         }
         z[k] = -z[k];
       }
     }
-    // drop row 0 and column 0
+    // drop row 0 and column 0: row i + 1 becomes row i, shifted one column left
+    final double[] first = rm[0];
     for (int i = 0; i < p - 1; i++) {
-      System.arraycopy(rm, (i + 1) * c + i + 1, rm, i * c + i, p - 1 - i);
+      final double[] row = rm[i + 1];
+      System.arraycopy(row, i + 1, row, i, p - 1 - i);
+      rm[i] = row;
     }
+    rm[p - 1] = first;
     System.arraycopy(z, 1, z, 0, p - 1);
     // the removed column is the one at index; bookkeeping arrays follow the layout
     System.arraycopy(priorAtRefresh, index + 1, priorAtRefresh, index, p - 1 - index);
     System.arraycopy(logDecayAtRefresh, index + 1, logDecayAtRefresh, index, p - 1 - index);
     p--;
-    solve(r, z, theta);
-    ready = !settings.diffuse() || lastSolveFullRank;
+    thetaValid = false;
+    ready = !settings.diffuse() || fullRank();
   }
 
   /**
@@ -727,21 +827,19 @@ public final class RlsModel implements LayoutListener {
       throw new IllegalArgumentException("columnRebased shift must be finite, and 0 without a constant term, got "
           + shift);
     }
-    final double[] rm = r;
-    final int c = cap;
+    final double[][] rm = r;
     final int k = column;
     if (shift != 0.0) {
-      rm[k] = (rm[k] - shift * rm[0]) / scale;
+      rm[0][k] = (rm[0][k] - shift * rm[0][0]) / scale;
       for (int i = 1; i <= k; i++) {
-        rm[i * c + k] /= scale;
+        rm[i][k] /= scale;
       }
-      theta[0] += shift * theta[k];
     } else {
       for (int i = 0; i <= k; i++) {
-        rm[i * c + k] /= scale;
+        rm[i][k] /= scale;
       }
     }
-    theta[k] *= scale;
+    thetaValid = false; // the weights follow from R and z, which are exactly re-based
     priorAtRefresh[k] /= scale * scale;
   }
 
@@ -765,8 +863,9 @@ public final class RlsModel implements LayoutListener {
    */
   public void weights(double[] out) {
     checkLength(out);
+    final double[] t = ready ? currentTheta() : null;
     for (int j = 0; j < p; j++) {
-      out[j] = ready ? theta[j] : Double.NaN;
+      out[j] = ready ? t[j] : Double.NaN;
     }
   }
 
@@ -833,7 +932,7 @@ public final class RlsModel implements LayoutListener {
       for (int j = i; j < p; j++) {
         double sum = 0.0;
         for (int k = 0; k <= i; k++) {
-          sum += r[k * cap + i] * r[k * cap + j];
+          sum += r[k][i] * r[k][j];
         }
         sum *= scale * scale;
         out[i * p + j] = sum;
@@ -847,13 +946,13 @@ public final class RlsModel implements LayoutListener {
   private double[] inverseFactor() {
     double[] u = new double[p * p];
     for (int j = 0; j < p; j++) {
-      u[j * p + j] = 1.0 / r[j * cap + j];
+      u[j * p + j] = 1.0 / r[j][j];
       for (int i = j - 1; i >= 0; i--) {
         double s = 0.0;
         for (int k = i + 1; k <= j; k++) {
-          s += r[i * cap + k] * u[k * p + j];
+          s += r[i][k] * u[k * p + j];
         }
-        u[i * p + j] = -s / r[i * cap + i];
+        u[i * p + j] = -s / r[i][i];
       }
     }
     return u;
@@ -905,12 +1004,13 @@ public final class RlsModel implements LayoutListener {
     out.writeDouble(scale);
     for (int i = 0; i < p; i++) {
       for (int j = i; j < p; j++) {
-        out.writeDouble(r[i * cap + j]);
+        out.writeDouble(r[i][j]);
       }
     }
+    final double[] t = currentTheta();
     for (int j = 0; j < p; j++) {
       out.writeDouble(z[j]);
-      out.writeDouble(theta[j]);
+      out.writeDouble(t[j]);
       out.writeDouble(priorAtRefresh[j]);
       out.writeDouble(logDecayAtRefresh[j]);
     }
@@ -960,7 +1060,7 @@ public final class RlsModel implements LayoutListener {
     }
     for (int i = 0; i < p; i++) {
       for (int j = i; j < p; j++) {
-        m.r[i * m.cap + j] = in.readDouble();
+        m.r[i][j] = in.readDouble();
       }
     }
     for (int j = 0; j < p; j++) {
@@ -977,6 +1077,7 @@ public final class RlsModel implements LayoutListener {
     m.noiseWeight = in.readDouble();
     m.updates = in.readLong();
     m.ready = in.readBoolean();
+    m.thetaValid = false; // solved from R and z when needed, as in the model that wrote it
     return m;
   }
 

@@ -67,7 +67,8 @@ public final class PipelineStep {
   private final int targetSlot;
   private final long configFingerprint;
   private double[] row;
-  private final double[] leverage = new double[1];
+  /** The model's a-priori leverage (element 0) and prediction (element 1) for this record. */
+  private final double[] aPriori = new double[2];
 
   private long records;
   private long trained;
@@ -179,28 +180,29 @@ public final class PipelineStep {
     p.layoutVersion = featurizer.layoutVersion();
     double half = Double.NaN;
     boolean ready = model.ready();
-    if (ready) {
-      p.predicted = model.predict(row);
-      p.status = hasTarget ? Prediction.Status.SCORED : Prediction.Status.FORECAST;
-    } else {
-      p.predicted = Double.NaN;
-      p.status = Prediction.Status.WARMING_UP;
-    }
+    p.status = !ready ? Prediction.Status.WARMING_UP
+        : hasTarget ? Prediction.Status.SCORED : Prediction.Status.FORECAST;
+    p.predicted = Double.NaN;
     if (hasTarget) {
-      // the interval is the a priori one: noise sd before this record, and the leverage of the
-      // factor before this record, which the update gives from its own rotations (no second solve)
+      // the prediction and its interval are the a priori ones (the model before this record's
+      // target, noise sd before this record); the update gives the prediction and the leverage
+      // from its own rotations, so no triangular solve is needed
       double noiseBefore = model.noiseSd();
       double lambda = forgetting.lambdaFor(t);
-      if (!model.update(row, y, lambda, leverage)) {
+      if (!model.update(row, y, lambda, aPriori)) {
         reject(RejectReason.MODEL_REFUSED,
             "the update would have made the model's state non-finite; the model is unchanged", sink);
         return;
       }
       if (ready) {
-        half = model.settings().intervalZ() * noiseBefore * Math.sqrt(1.0 + leverage[0]);
+        p.predicted = aPriori[1];
+        half = model.settings().intervalZ() * noiseBefore * Math.sqrt(1.0 + aPriori[0]);
       }
     } else if (ready) {
-      half = model.intervalHalfWidth(row);
+      // a forecast request: prediction and leverage from one forward substitution
+      model.forecast(row, aPriori);
+      p.predicted = aPriori[1];
+      half = model.settings().intervalZ() * model.noiseSd() * Math.sqrt(1.0 + aPriori[0]);
     }
     if (Double.isNaN(half)) {
       // warming up, or no noise estimate yet: an interval cannot be given honestly
