@@ -206,7 +206,7 @@ public final class Featurizer {
   Column addColumn(String name, RunningScaler scaler) {
     Column c = append(new Column(name, scaler));
     layoutVersion++;
-    listener.columnAdded(c.index, name);
+    listener.columnAdded(c.index, name, scaler == null); // only scaled columns are ever re-based
     return c;
   }
 

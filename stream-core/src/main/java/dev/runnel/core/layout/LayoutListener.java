@@ -27,6 +27,19 @@ public interface LayoutListener {
   void columnAdded(int index, String name);
 
   /**
+   * As {@link #columnAdded(int, String)}, saying whether {@link #columnRebased} will ever be
+   * called for the column (false for a one-hot level, whose encoding is fixed). A model may use
+   * it to order its own storage; by default it is ignored.
+   *
+   * @param index the new column's index
+   * @param name the column's name. Not modified.
+   * @param neverRebased true if the column will never be re-based
+   */
+  default void columnAdded(int index, String name, boolean neverRebased) {
+    columnAdded(index, name);
+  }
+
+  /**
    * The column at {@code index} was removed; later columns shift down by one.
    *
    * @param index index of the removed column, at least 1 when there is a constant term

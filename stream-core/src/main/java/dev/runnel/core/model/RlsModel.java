@@ -28,7 +28,15 @@ import java.util.Arrays;
  * back-substituted per update: {@link #predict} and {@link #weights} solve for them (one
  * back-substitution, {@code p^2}) only when asked after a change, and {@link #forecast} gives a
  * prediction with its leverage from one forward substitution ({@code p^2}) without them.
- * Layout changes: add {@code O(p)} (amortized), remove {@code O(p^2)}, re-base {@code O(p)}.
+ * Layout changes: add {@code O(p)} (amortized; {@code O(p^2)} moves for a never-re-based column,
+ * which goes into the leading block), remove {@code O(p^2)}, re-base {@code O(p)}.
+ *
+ * <p>Column order: the factor keeps its own order of the layout's columns: columns added as never
+ * re-based (one-hot levels, {@link #columnAdded(int, String, boolean)}) first, then the constant
+ * term and the columns it was built with, then other added columns. A one-hot row is zero on
+ * every level but one, so its leading zeros skip the longest rows of the triangle; a re-basing
+ * moves weight into the constant, whose column must precede the re-based one for the factor to
+ * stay triangular, which this order keeps. Every method takes and gives vectors in layout order.
  *
  * <p>Storage: {@code R} is an array of rows, row {@code i} a {@code double[]} indexed by column,
  * so a Givens rotation reads and writes a row and the rotated data vector at the same index; the
@@ -48,7 +56,7 @@ import java.util.Arrays;
 public final class RlsModel implements LayoutListener {
 
   /** Format version written by {@link #writeTo}. */
-  public static final int FORMAT_VERSION = 2;
+  public static final int FORMAT_VERSION = 3;
 
   /**
    * In diffuse mode a column counts as identified when its pivot {@code R_jj} exceeds this
@@ -79,7 +87,18 @@ public final class RlsModel implements LayoutListener {
 
   private int p;
   private int cap;
-  /** Row i of the factor; entries {@code [i, p)} are live. */
+  /**
+   * The factor's own column order: {@code pos[j]} is the position of layout column {@code j} in
+   * {@code R}, {@code col[q]} the layout column at position {@code q}. Columns added with
+   * {@code neverRebased} (one-hot levels) are kept in a block before every other column, so a
+   * row's leading zeros (the levels it does not have) come first and the update skips their rows;
+   * the constant term follows them, so re-basing another column stays {@code O(p)}.
+   */
+  private int[] pos;
+  private int[] col;
+  /** Number of columns in the leading block. */
+  private int front;
+  /** Row i of the factor (position i in the factor's column order); entries {@code [i, p)} are live. */
   private double[][] r;
   /** Spare rows the update writes into; row i is swapped with {@code r[i]} on success. */
   private double[][] spare;
@@ -153,6 +172,8 @@ public final class RlsModel implements LayoutListener {
     r = new double[cap][cap];
     spare = new double[cap][cap];
     rotated = new boolean[cap];
+    pos = new int[cap];
+    col = new int[cap];
     z = new double[cap];
     zNext = new double[cap];
     theta = new double[cap];
@@ -173,7 +194,11 @@ public final class RlsModel implements LayoutListener {
     double[] oldTheta = theta;
     double[] oldPrior = priorAtRefresh;
     double[] oldLog = logDecayAtRefresh;
+    int[] oldPos = pos;
+    int[] oldCol = col;
     allocate(Math.max(needed, 2 * cap));
+    System.arraycopy(oldPos, 0, pos, 0, p);
+    System.arraycopy(oldCol, 0, col, 0, p);
     for (int i = 0; i < p; i++) {
       System.arraycopy(oldR[i], i, r[i], i, p - i);
     }
@@ -196,8 +221,52 @@ public final class RlsModel implements LayoutListener {
     theta[k] = 0.0; // the old weights stay the solution: the new column's row is (0.., d, 0..) with z 0
     priorAtRefresh[k] = priorInfo;
     logDecayAtRefresh[k] = logDecay;
+    pos[k] = k;
+    col[k] = k;
     p = k + 1;
     return k;
+  }
+
+  /**
+   * Adds layout column {@code p} at position {@code front} of the factor (the end of the leading
+   * block): rows and columns from there move one place on. The new row is the prior row
+   * {@code (0.., d, ..0)} with {@code z} 0, and the new column is 0 above it, so the factor stays
+   * upper triangular and exact. {@code O(p^2)} moves.
+   */
+  private void insertFrontColumn() {
+    ensureCapacity(p + 1);
+    final int n = p;
+    final int q0 = front;
+    final double[][] rm = r;
+    for (int i = 0; i < q0; i++) {
+      final double[] row = rm[i];
+      System.arraycopy(row, q0, row, q0 + 1, n - q0);
+      row[q0] = 0.0;
+    }
+    final double[] fresh = rm[n];
+    for (int i = n - 1; i >= q0; i--) {
+      final double[] row = rm[i];
+      System.arraycopy(row, i, row, i + 1, n - i);
+      rm[i + 1] = row;
+    }
+    Arrays.fill(fresh, q0, cap, 0.0);
+    fresh[q0] = Math.sqrt(priorInfo) / scale;
+    rm[q0] = fresh;
+    System.arraycopy(z, q0, z, q0 + 1, n - q0);
+    z[q0] = 0.0;
+    for (int j = 0; j < n; j++) {
+      if (pos[j] >= q0) {
+        pos[j]++;
+      }
+    }
+    pos[n] = q0;
+    System.arraycopy(col, q0, col, q0 + 1, n - q0);
+    col[q0] = n;
+    priorAtRefresh[n] = priorInfo;
+    logDecayAtRefresh[n] = logDecay;
+    front = q0 + 1;
+    p = n + 1;
+    thetaValid = false;
   }
 
   // ---------------------------------------------------------------- queries (hot path)
@@ -256,7 +325,7 @@ public final class RlsModel implements LayoutListener {
     final double[] u = work2;
     final double[][] rm = r;
     final int n = p;
-    System.arraycopy(x, 0, u, 0, n);
+    gather(x, u);
     double sum = 0.0;
     for (int i = 0; i < n; i++) {
       final double[] row = rm[i];
@@ -292,7 +361,7 @@ public final class RlsModel implements LayoutListener {
     final double[][] rm = r;
     final double[] zm = z;
     final int n = p;
-    System.arraycopy(x, 0, u, 0, n);
+    gather(x, u);
     double sum = 0.0;
     double pred = 0.0;
     for (int i = 0; i < n; i++) {
@@ -411,7 +480,7 @@ public final class RlsModel implements LayoutListener {
         refreshPrior = now;
       }
     }
-    final int rc = refreshInfo > 0.0 ? refreshColumn : n; // first row the refresh row touches
+    final int rc = refreshInfo > 0.0 ? pos[refreshColumn] : n; // first row the refresh row touches
     final double[][] rm = r;
     final double[][] rs = spare;
     final boolean[] changed = rotated;
@@ -419,18 +488,26 @@ public final class RlsModel implements LayoutListener {
     final double[] zn = zNext;
     final double[] w = work;
     final double[] v = work3;
+    // x in the factor's column order, in stored units
+    if (front == 0) { // the factor's order is the layout's
+      if (toStored == 1.0) {
+        System.arraycopy(x, 0, w, 0, n);
+      } else {
+        for (int k = 0; k < n; k++) {
+          w[k] = x[k] * toStored;
+        }
+      }
+    } else {
+      final int[] cm = col;
+      for (int k = 0; k < n; k++) {
+        w[k] = x[cm[k]] * toStored;
+      }
+    }
     int lead = 0; // rows before the first non-zero of x (and before the refresh row) stay as they are
-    while (lead < n && x[lead] == 0.0) {
+    while (lead < n && w[lead] == 0.0) {
       lead++;
     }
     final int start = Math.min(lead, rc);
-    if (toStored == 1.0) {
-      System.arraycopy(x, start, w, start, n - start);
-    } else {
-      for (int k = start; k < n; k++) {
-        w[k] = x[k] * toStored;
-      }
-    }
     if (rc < n) {
       for (int k = rc; k < n; k++) {
         v[k] = 0.0;
@@ -606,10 +683,29 @@ public final class RlsModel implements LayoutListener {
     return true;
   }
 
-  /** The weights, solved from the current factor if a change made them stale. */
+  /** {@code out[q] = x[col[q]]}: a layout vector in the factor's column order. */
+  private void gather(double[] x, double[] out) {
+    if (front == 0) {
+      System.arraycopy(x, 0, out, 0, p);
+    } else {
+      for (int q = 0; q < p; q++) {
+        out[q] = x[col[q]];
+      }
+    }
+  }
+
+  /** The weights in layout order, solved from the current factor if a change made them stale. */
   private double[] currentTheta() {
     if (!thetaValid) {
-      solve(r, z, theta);
+      if (front == 0) {
+        solve(r, z, theta);
+      } else {
+        final double[] t = work2;
+        solve(r, z, t);
+        for (int q = 0; q < p; q++) {
+          theta[col[q]] = t[q];
+        }
+      }
       thetaValid = true;
     }
     return theta;
@@ -705,11 +801,30 @@ public final class RlsModel implements LayoutListener {
    */
   @Override
   public void columnAdded(int index, String name) {
+    columnAdded(index, name, false);
+  }
+
+  /**
+   * As {@link #columnAdded(int, String)}; a column that will never be re-based (a one-hot
+   * level) is kept in the factor's leading block, before the constant term, so the update skips
+   * the rows of the levels a record does not have. Results are the same either way, to rounding.
+   *
+   * @param index must equal {@link #dimension()}
+   * @param name the column's name; not kept. Not modified.
+   * @param neverRebased true if {@link #columnRebased} will never be called for this column
+   * @throws IllegalArgumentException if {@code index != dimension()}
+   */
+  @Override
+  public void columnAdded(int index, String name, boolean neverRebased) {
     if (index != p) {
       throw new IllegalArgumentException("columnAdded index must equal the dimension " + p
           + " (columns are appended), got " + index);
     }
-    appendColumn();
+    if (neverRebased) {
+      insertFrontColumn();
+    } else {
+      appendColumn();
+    }
     if (settings.diffuse()) {
       ready = false;
     } else if (observer != null) {
@@ -735,7 +850,8 @@ public final class RlsModel implements LayoutListener {
           + "]" + (min == 1 ? " (column 0 is the constant term)" : "") + ", got " + index);
     }
     final double[][] rm = r;
-    for (int k = index; k >= 1; k--) {
+    final int q = pos[index];
+    for (int k = q; k >= 1; k--) {
       // swap columns k-1 and k in rows 0..k (rows below hold zeros in both; so does row k at
       // column k-1, below its diagonal, where the stored entry is not kept at zero)
       for (int i = 0; i < k; i++) {
@@ -795,6 +911,19 @@ public final class RlsModel implements LayoutListener {
     // the removed column is the one at index; bookkeeping arrays follow the layout
     System.arraycopy(priorAtRefresh, index + 1, priorAtRefresh, index, p - 1 - index);
     System.arraycopy(logDecayAtRefresh, index + 1, logDecayAtRefresh, index, p - 1 - index);
+    System.arraycopy(pos, index + 1, pos, index, p - 1 - index);
+    System.arraycopy(col, q + 1, col, q, p - 1 - q);
+    for (int j = 0; j < p - 1; j++) {
+      if (pos[j] > q) {
+        pos[j]--;
+      }
+      if (col[j] > index) {
+        col[j]--;
+      }
+    }
+    if (q < front) {
+      front--;
+    }
     p--;
     thetaValid = false;
     ready = !settings.diffuse() || fullRank();
@@ -828,10 +957,19 @@ public final class RlsModel implements LayoutListener {
           + shift);
     }
     final double[][] rm = r;
-    final int k = column;
+    final int k = pos[column];
+    if (k < front) {
+      throw new IllegalStateException("column " + column + " was added as never re-based (columnAdded with"
+          + " neverRebased), but columnRebased was called for it");
+    }
     if (shift != 0.0) {
-      rm[0][k] = (rm[0][k] - shift * rm[0][0]) / scale;
-      for (int i = 1; i <= k; i++) {
+      // the constant term's column c precedes k (the leading block precedes both), so only
+      // rows 0..k change and R stays upper triangular
+      final int c = pos[0];
+      for (int i = 0; i <= c; i++) {
+        rm[i][k] = (rm[i][k] - shift * rm[i][c]) / scale;
+      }
+      for (int i = c + 1; i <= k; i++) {
         rm[i][k] /= scale;
       }
     } else {
@@ -840,7 +978,7 @@ public final class RlsModel implements LayoutListener {
       }
     }
     thetaValid = false; // the weights follow from R and z, which are exactly re-based
-    priorAtRefresh[k] /= scale * scale;
+    priorAtRefresh[column] /= scale * scale;
   }
 
   // ---------------------------------------------------------------- verification hook
@@ -889,13 +1027,13 @@ public final class RlsModel implements LayoutListener {
       for (int k = i; k < p; k++) {
         sum += u[i * p + k] * u[i * p + k];
       }
-      out[i] = s * Math.sqrt(sum) / scale;
+      out[col[i]] = s * Math.sqrt(sum) / scale;
     }
   }
 
   /**
    * The unscaled covariance {@code (R^T R)^-1} (multiply by a noise variance), row-major
-   * {@code p x p}; {@code O(p^3)}.
+   * {@code p x p} in layout order; {@code O(p^3)}.
    *
    * @return a new array; NaN-filled when not ready
    */
@@ -913,8 +1051,8 @@ public final class RlsModel implements LayoutListener {
           sum += u[i * p + k] * u[j * p + k];
         }
         sum /= scale * scale;
-        out[i * p + j] = sum;
-        out[j * p + i] = sum;
+        out[col[i] * p + col[j]] = sum;
+        out[col[j] * p + col[i]] = sum;
       }
     }
     return out;
@@ -922,7 +1060,7 @@ public final class RlsModel implements LayoutListener {
 
   /**
    * The information {@code R^T R} (in units of 1/noise variance), row-major {@code p x p}; the
-   * quantity that sums across independent models. {@code O(p^3)}.
+   * quantity that sums across independent models, in layout order. {@code O(p^3)}.
    *
    * @return a new array
    */
@@ -935,8 +1073,8 @@ public final class RlsModel implements LayoutListener {
           sum += r[k][i] * r[k][j];
         }
         sum *= scale * scale;
-        out[i * p + j] = sum;
-        out[j * p + i] = sum;
+        out[col[i] * p + col[j]] = sum;
+        out[col[j] * p + col[i]] = sum;
       }
     }
     return out;
@@ -1022,6 +1160,11 @@ public final class RlsModel implements LayoutListener {
     out.writeDouble(noiseWeight);
     out.writeLong(updates);
     out.writeBoolean(ready);
+    // version 3: the factor's column order
+    out.writeInt(front);
+    for (int q = 0; q < p; q++) {
+      out.writeInt(col[q]);
+    }
   }
 
   /**
@@ -1037,7 +1180,7 @@ public final class RlsModel implements LayoutListener {
       throw new IOException("not a model checkpoint: magic 0x" + Integer.toHexString(magic));
     }
     int version = in.readInt();
-    if (version != FORMAT_VERSION && version != 1) {
+    if (version < 1 || version > FORMAT_VERSION) {
       throw new IOException("model checkpoint format version " + version + " is not supported (this build reads "
           + FORMAT_VERSION + ")");
     }
@@ -1077,6 +1220,28 @@ public final class RlsModel implements LayoutListener {
     m.noiseWeight = in.readDouble();
     m.updates = in.readLong();
     m.ready = in.readBoolean();
+    if (version >= 3) {
+      int front = in.readInt();
+      if (front < 0 || front > p) {
+        throw new IOException("corrupt model checkpoint: leading block of " + front + " columns in " + p);
+      }
+      m.front = front;
+      boolean[] seen = new boolean[p];
+      for (int q = 0; q < p; q++) {
+        int j = in.readInt();
+        if (j < 0 || j >= p || seen[j]) {
+          throw new IOException("corrupt model checkpoint: column order entry " + j + " at position " + q);
+        }
+        seen[j] = true;
+        m.col[q] = j;
+        m.pos[j] = q;
+      }
+    } else {
+      for (int j = 0; j < p; j++) {
+        m.col[j] = j;
+        m.pos[j] = j;
+      }
+    }
     m.thetaValid = false; // solved from R and z when needed, as in the model that wrote it
     return m;
   }
