@@ -98,6 +98,16 @@ public final class RlsModel implements LayoutListener {
   private int[] col;
   /** Number of columns in the leading block. */
   private int front;
+  /**
+   * Re-basings not yet applied to {@code R}, per factor position: the shift, and the reciprocal
+   * of the scale (0 and 1 where none is pending), over positions {@code [pendLo, pendHi]}; applied
+   * together, one pass over the rows, before {@code R} is next read (see {@link #columnRebased}).
+   */
+  private double[] pendShift;
+  private double[] pendInvScale;
+  private boolean[] pending;
+  private int pendLo = Integer.MAX_VALUE;
+  private int pendHi = -1;
   /** Row i of the factor (position i in the factor's column order); entries {@code [i, p)} are live. */
   private double[][] r;
   /** Spare rows the update writes into; row i is swapped with {@code r[i]} on success. */
@@ -174,6 +184,10 @@ public final class RlsModel implements LayoutListener {
     rotated = new boolean[cap];
     pos = new int[cap];
     col = new int[cap];
+    pendShift = new double[cap];
+    pendInvScale = new double[cap];
+    Arrays.fill(pendInvScale, 1.0);
+    pending = new boolean[cap];
     z = new double[cap];
     zNext = new double[cap];
     theta = new double[cap];
@@ -189,6 +203,7 @@ public final class RlsModel implements LayoutListener {
     if (needed <= cap) {
       return;
     }
+    applyRebases();
     double[][] oldR = r;
     double[] oldZ = z;
     double[] oldTheta = theta;
@@ -322,12 +337,16 @@ public final class RlsModel implements LayoutListener {
     if (!ready) {
       return Double.NaN;
     }
+    applyRebases();
     final double[] u = work2;
     final double[][] rm = r;
     final int n = p;
     gather(x, u);
     double sum = 0.0;
     for (int i = 0; i < n; i++) {
+      if (u[i] == 0.0) {
+        continue; // a zero of x (a one-hot level it does not have) before any non-zero: nothing to carry
+      }
       final double[] row = rm[i];
       final double ui = u[i] / row[i];
       sum += ui * ui;
@@ -357,6 +376,7 @@ public final class RlsModel implements LayoutListener {
       out[1] = Double.NaN;
       return;
     }
+    applyRebases();
     final double[] u = work2;
     final double[][] rm = r;
     final double[] zm = z;
@@ -371,6 +391,9 @@ public final class RlsModel implements LayoutListener {
         out[0] = leverage(x);
         out[1] = predict(x);
         return;
+      }
+      if (u[i] == 0.0) {
+        continue; // as in leverage: nothing to carry from a zero
       }
       final double ui = u[i] / d;
       sum += ui * ui;
@@ -453,6 +476,7 @@ public final class RlsModel implements LayoutListener {
     if (!acceptable(x, y)) {
       return false;
     }
+    applyRebases();
     final int n = p;
     final double sl = lambda == 1.0 ? 1.0 : Math.sqrt(lambda);
     // forgetting: the true factor becomes sl * scale * r; rows enter in stored units (divided by it)
@@ -672,15 +696,11 @@ public final class RlsModel implements LayoutListener {
   }
 
   private boolean acceptable(double[] x, double y) {
-    if (!(Math.abs(y) <= MAX_ABS_INPUT)) {
-      return false;
-    }
+    double m = Math.abs(y);
     for (int j = 0; j < p; j++) {
-      if (!(Math.abs(x[j]) <= MAX_ABS_INPUT)) {
-        return false;
-      }
+      m = Math.max(m, Math.abs(x[j])); // NaN propagates
     }
-    return true;
+    return m <= MAX_ABS_INPUT;
   }
 
   /** {@code out[q] = x[col[q]]}: a layout vector in the factor's column order. */
@@ -697,6 +717,7 @@ public final class RlsModel implements LayoutListener {
   /** The weights in layout order, solved from the current factor if a change made them stale. */
   private double[] currentTheta() {
     if (!thetaValid) {
+      applyRebases();
       if (front == 0) {
         solve(r, z, theta);
       } else {
@@ -770,6 +791,46 @@ public final class RlsModel implements LayoutListener {
     scale = Math.scalb(scale, -k);
   }
 
+  /**
+   * Applies the pending re-basings to {@code R}: column {@code k} becomes
+   * {@code (R_k - shift_k R_c) / scale_k} in rows up to the constant's position {@code c} (which
+   * precedes every re-based column) and {@code R_k / scale_k} below it, for all pending {@code k}
+   * in one pass over each row (the per-column form touches one entry in each of {@code k} rows,
+   * a scattered access that cost more than the update itself at p = 128). Not pending columns in
+   * the range have shift 0 and scale 1 and are left exactly as they are. {@code z} is unchanged.
+   */
+  private void applyRebases() {
+    final int hi = pendHi;
+    if (hi < 0) {
+      return;
+    }
+    final int lo = pendLo;
+    final double[][] rm = r;
+    final double[] sh = pendShift;
+    final double[] inv = pendInvScale;
+    final int c = settings.constantTerm() ? pos[0] : -1;
+    for (int i = 0; i <= hi; i++) {
+      final double[] row = rm[i];
+      if (i <= c) {
+        final double rc = row[c];
+        for (int j = lo; j <= hi; j++) {
+          row[j] = (row[j] - rc * sh[j]) * inv[j];
+        }
+      } else {
+        for (int j = Math.max(i, lo); j <= hi; j++) {
+          row[j] *= inv[j];
+        }
+      }
+    }
+    for (int j = lo; j <= hi; j++) {
+      sh[j] = 0.0;
+      inv[j] = 1.0;
+      pending[j] = false;
+    }
+    pendLo = Integer.MAX_VALUE;
+    pendHi = -1;
+  }
+
   /** In diffuse mode: every pivot above {@link #READY_TOLERANCE} times the largest. */
   private boolean fullRank() {
     double maxDiag = 0.0;
@@ -820,6 +881,7 @@ public final class RlsModel implements LayoutListener {
       throw new IllegalArgumentException("columnAdded index must equal the dimension " + p
           + " (columns are appended), got " + index);
     }
+    applyRebases();
     if (neverRebased) {
       insertFrontColumn();
     } else {
@@ -849,6 +911,7 @@ public final class RlsModel implements LayoutListener {
       throw new IllegalArgumentException("columnRemoved index must be in [" + min + ", " + (p - 1)
           + "]" + (min == 1 ? " (column 0 is the constant term)" : "") + ", got " + index);
     }
+    applyRebases();
     final double[][] rm = r;
     final int q = pos[index];
     for (int k = q; k >= 1; k--) {
@@ -956,27 +1019,19 @@ public final class RlsModel implements LayoutListener {
       throw new IllegalArgumentException("columnRebased shift must be finite, and 0 without a constant term, got "
           + shift);
     }
-    final double[][] rm = r;
     final int k = pos[column];
     if (k < front) {
       throw new IllegalStateException("column " + column + " was added as never re-based (columnAdded with"
           + " neverRebased), but columnRebased was called for it");
     }
-    if (shift != 0.0) {
-      // the constant term's column c precedes k (the leading block precedes both), so only
-      // rows 0..k change and R stays upper triangular
-      final int c = pos[0];
-      for (int i = 0; i <= c; i++) {
-        rm[i][k] = (rm[i][k] - shift * rm[i][c]) / scale;
-      }
-      for (int i = c + 1; i <= k; i++) {
-        rm[i][k] /= scale;
-      }
-    } else {
-      for (int i = 0; i <= k; i++) {
-        rm[i][k] /= scale;
-      }
+    if (pending[k]) {
+      applyRebases(); // one pending re-basing per column: compose by applying the first
     }
+    pending[k] = true;
+    pendShift[k] = shift;
+    pendInvScale[k] = 1.0 / scale;
+    pendLo = Math.min(pendLo, k);
+    pendHi = Math.max(pendHi, k);
     thetaValid = false; // the weights follow from R and z, which are exactly re-based
     priorAtRefresh[column] /= scale * scale;
   }
@@ -1021,6 +1076,7 @@ public final class RlsModel implements LayoutListener {
       Arrays.fill(out, 0, p, Double.NaN);
       return;
     }
+    applyRebases();
     double[] u = inverseFactor();
     for (int i = 0; i < p; i++) {
       double sum = 0.0;
@@ -1043,6 +1099,7 @@ public final class RlsModel implements LayoutListener {
       Arrays.fill(out, Double.NaN);
       return out;
     }
+    applyRebases();
     double[] u = inverseFactor();
     for (int i = 0; i < p; i++) {
       for (int j = i; j < p; j++) {
@@ -1065,6 +1122,7 @@ public final class RlsModel implements LayoutListener {
    * @return a new array
    */
   public double[] informationMatrix() {
+    applyRebases();
     double[] out = new double[p * p];
     for (int i = 0; i < p; i++) {
       for (int j = i; j < p; j++) {
@@ -1131,6 +1189,7 @@ public final class RlsModel implements LayoutListener {
    * @throws IOException from {@code out}
    */
   public void writeTo(DataOutput out) throws IOException {
+    applyRebases();
     out.writeInt(MAGIC);
     out.writeInt(FORMAT_VERSION);
     out.writeDouble(settings.priorVariance());
