@@ -117,17 +117,27 @@ class TimeEncodingTest {
       if (!(tmx instanceof com.sun.management.ThreadMXBean sun) || !sun.isThreadAllocatedMemorySupported()) continue;
       long[] times = new long[4096];
       for (int i = 0; i < times.length; i++) times[i] = base + (long) (rnd.nextDouble() * window);
-      long sum = 0;
-      for (int i = 0; i < times.length; i++) sum += cal.localMillis(times[i]);
       long tid = Thread.currentThread().getId();
-      long before = sun.getThreadAllocatedBytes(tid);
-      for (int k = 0; k < 20; k++) {
-        for (int i = 0; i < times.length; i++) sum += cal.localMillis(times[i]);
+      long least = Long.MAX_VALUE;
+      // the least of five measurements: the JVM's own work (compiling, deoptimizing) can be counted
+      // once, an allocation per call would show in every measurement (20 * 4096 calls)
+      for (int attempt = 0; attempt < 5; attempt++) {
+        long before = sun.getThreadAllocatedBytes(tid);
+        long sum = sweep(cal, times, 20);
+        least = Math.min(least, sun.getThreadAllocatedBytes(tid) - before);
+        assertTrue(sum != 0);
       }
-      long allocated = sun.getThreadAllocatedBytes(tid) - before;
       // measured 0 bytes; the bound leaves room for the counter itself
-      assertTrue(allocated < 1024, zone + ": allocated " + allocated + " bytes (sum " + sum + ")");
+      assertTrue(least < 1024, zone + ": allocated " + least + " bytes");
     }
+  }
+
+  private static long sweep(LocalCalendar cal, long[] times, int rounds) {
+    long sum = 0;
+    for (int k = 0; k < rounds; k++) {
+      for (int i = 0; i < times.length; i++) sum += cal.localMillis(times[i]);
+    }
+    return sum;
   }
 
   @Test void lateEveningAndEarlyMorning_landCloseOnTheCircle() {
