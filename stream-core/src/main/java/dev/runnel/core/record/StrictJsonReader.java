@@ -72,9 +72,7 @@ final class StrictJsonReader {
     nameMask = size - 1;
     for (int s = 0; s < n; s++) {
       byte[] k = names[s];
-      int h = 0;
-      for (int j = 0; j < k.length; j++) h = 31 * h + (k[j] & 0xff);
-      int at = spread(h) & nameMask;
+      int at = nameHash(k, 0, k.length) & nameMask;
       while (nameTable[at] != 0) at = (at + 1) & nameMask;
       nameTable[at] = s + 1;
     }
@@ -107,9 +105,31 @@ final class StrictJsonReader {
     return true;
   }
 
-  private static int spread(int h) {
+  /**
+   * A hash of a name from its length and three of its bytes: O(1) whatever the name's length. The
+   * table holds only the declared names, so a name chosen to collide costs at most a scan of that
+   * small table.
+   */
+  private static int nameHash(byte[] b, int at, int n) {
+    int h = n;
+    if (n > 0) h = h * 31 + b[at] * 961 + b[at + (n >> 1)] * 31 + b[at + n - 1];
     h *= 0x9E3779B9;
     return h ^ (h >>> 16);
+  }
+
+  /** Byte classes in strings. */
+  private static final byte PLAIN = 0;
+  private static final byte QUOTE = 1;
+  private static final byte BACKSLASH = 2;
+  private static final byte CONTROL = 3;
+  private static final byte WIDE = 4;
+  /** The class of each byte value (index {@code b & 0xff}). */
+  private static final byte[] CLASS = new byte[256];
+
+  static {
+    for (int c = 0; c < 256; c++) {
+      CLASS[c] = c < 0x20 ? CONTROL : c == '"' ? QUOTE : c == '\\' ? BACKSLASH : c >= 0x80 ? WIDE : PLAIN;
+    }
   }
 
   /**
@@ -131,27 +151,20 @@ final class StrictJsonReader {
     } else {
       while (true) {
         if (b[i] != '"') return false;
-        // the name: plain bytes up to the closing quote, hashed on the way
+        // the name: plain bytes up to the closing quote
         int start = i + 1;
         int j = start;
-        int h = 0;
         int stop = Math.min(end, start + MAX_NAME_BYTES);
         while (true) {
+          while (j < stop && CLASS[b[j] & 0xff] == PLAIN) j++;
           if (j >= stop) return false;
-          int c = b[j];
-          if (c == '"') break;
-          if (c >= 0x20 && c != '\\') {
-            h = 31 * h + c;
-            j++;
-          } else if (c < 0) {
-            int k = utf8End(b, j, end);
-            if (k < 0) return false;
-            for (; j < k; j++) h = 31 * h + (b[j] & 0xff);
-          } else {
-            return false; // a control char, or an escape: Jackson decides
-          }
+          int k = CLASS[b[j] & 0xff];
+          if (k == QUOTE) break;
+          if (k != WIDE) return false; // a control char, or an escape: Jackson decides
+          j = utf8End(b, j, end);
+          if (j < 0) return false;
         }
-        int slot = slotOf(b, start, j - start, h);
+        int slot = slotOf(b, start, j - start);
         i = skipWs(b, j + 1, end);
         if (i >= end || b[i] != ':') return false;
         i = skipWs(b, i + 1, end);
@@ -173,8 +186,8 @@ final class StrictJsonReader {
     return skipWs(b, i, end) == end;
   }
 
-  private int slotOf(byte[] b, int at, int n, int h) {
-    int k = spread(h) & nameMask;
+  private int slotOf(byte[] b, int at, int n) {
+    int k = nameHash(b, at, n) & nameMask;
     int[] table = nameTable;
     while (true) {
       int e = table[k];
@@ -390,6 +403,14 @@ final class StrictJsonReader {
   private int readString(byte[] b, int i, int end, char[] dst, int limit) {
     int n = 0;
     while (true) {
+      // a run of plain ASCII, at most up to the limit
+      int stop = Math.min(end, i + (limit - n));
+      while (i < stop) {
+        int c = b[i];
+        if (CLASS[c & 0xff] != PLAIN) break;
+        dst[n++] = (char) c;
+        i++;
+      }
       if (i >= end) return FAIL;
       int c = b[i];
       if (c >= 0x20 && c != '"' && c != '\\') {
@@ -457,6 +478,7 @@ final class StrictJsonReader {
   /** Like {@link #readString} without keeping the chars: the position after the closing quote, or FAIL. */
   private static int skipString(byte[] b, int i, int end) {
     while (true) {
+      while (i < end && CLASS[b[i] & 0xff] == PLAIN) i++;
       if (i >= end) return FAIL;
       int c = b[i];
       if (c >= 0x20 && c != '"' && c != '\\') {
