@@ -203,4 +203,20 @@ class JsonRecordDecoderTest {
     assertEquals(RejectReason.TOO_LONG, d.decode(over, 0, over.length, r));
     assertEquals("field hub: text of 100001 chars exceeds the limit of 100000", d.lastDetail());
   }
+
+  @Test void textBuffer_growsWithTheTextsNotWithTheRecord() {
+    RecordLimits big = new RecordLimits(1_000_000, 16_000_000, 1e6, 1970, 2200);
+    JsonRecordDecoder d = new JsonRecordDecoder(schema, big);
+    EventRecord r = new EventRecord(schema);
+    int hub = schema.slot("hub");
+    byte[] b = ("{\"hub\":\"H07\",\"pad\":\"" + "p".repeat(2_000_000) + "\"}").getBytes(StandardCharsets.UTF_8);
+    assertNull(d.decode(b, 0, b.length, r), d.lastDetail());
+    assertEquals("H07", r.text(hub));
+    assertTrue(r.textChars(hub).length <= 64, "buffer of " + r.textChars(hub).length + " chars for a 3-char text");
+    String longer = "\u00e9".repeat(300) + "z".repeat(700);
+    byte[] c = ("{\"hub\":\"" + longer + "\"}").getBytes(StandardCharsets.UTF_8);
+    assertNull(d.decode(c, 0, c.length, r), d.lastDetail());
+    assertEquals(longer, r.text(hub));
+    assertTrue(r.textChars(hub).length < 4096, "buffer of " + r.textChars(hub).length + " chars for a 1000-char text");
+  }
 }
