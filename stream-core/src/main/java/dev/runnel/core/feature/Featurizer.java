@@ -37,7 +37,8 @@ import java.util.List;
  * reads state only; a level that is not admitted encodes as "other".
  *
  * <p>Allocation: once warm and with a stable layout, the training and scoring paths allocate
- * nothing (a level's text is looked up in a hash map; admission creates one entry).
+ * nothing (a level is looked up by the chars of the record's text, without a {@code String};
+ * admission creates one entry and its key).
  */
 public final class Featurizer {
 
@@ -581,9 +582,18 @@ public final class Featurizer {
 
     String levelColumnName(String key) { return name + "=" + key; }
 
-    private String key(EventRecord r) {
-      if (flag) return r.flag(slot) ? "true" : "false";
-      return r.text(slot);
+    private static final char[] TRUE = {'t', 'r', 'u', 'e'};
+    private static final char[] FALSE = {'f', 'a', 'l', 's', 'e'};
+
+    /** The chars of the record's level: the text buffer, or "true"/"false" for a flag. */
+    private char[] keyChars(EventRecord r) {
+      if (flag) return r.flag(slot) ? TRUE : FALSE;
+      return r.textChars(slot);
+    }
+
+    private int keyLength(EventRecord r) {
+      if (flag) return r.flag(slot) ? 4 : 5;
+      return r.textLength(slot);
     }
 
     @Override RejectReason check(EventRecord r, Featurizer f) {
@@ -591,7 +601,7 @@ public final class Featurizer {
     }
 
     @Override void touchAndExpire(EventRecord r, long t, Featurizer f) {
-      current = vocabulary.touch(key(r), t, f.trainingRecords);
+      current = vocabulary.touch(keyChars(r), 0, keyLength(r), t, f.trainingRecords);
       RollingVocabulary.Level gone;
       while ((gone = vocabulary.expireOne(f.streamTimeMillis, f.trainingRecords, current)) != null) {
         Column c = gone.column;
@@ -604,10 +614,9 @@ public final class Featurizer {
 
     @Override void admit(EventRecord r, long t, Featurizer f) {
       if (current != null) return;
-      String k = key(r);
-      RollingVocabulary.Level l = vocabulary.sight(k, t, f.trainingRecords);
+      RollingVocabulary.Level l = vocabulary.sight(keyChars(r), 0, keyLength(r), t, f.trainingRecords);
       if (l != null) {
-        l.column = f.addColumn(levelColumnName(k), null);
+        l.column = f.addColumn(levelColumnName(l.key), null);
         current = l;
         parts.add(l.column);
         for (int i = 0; i < dependents.size(); i++) dependents.get(i).partAdded(this, l.column, f);
@@ -615,7 +624,7 @@ public final class Featurizer {
     }
 
     @Override void write(EventRecord r, long t, double[] out, boolean training) {
-      RollingVocabulary.Level l = training ? current : vocabulary.find(key(r));
+      RollingVocabulary.Level l = training ? current : vocabulary.find(keyChars(r), 0, keyLength(r));
       written = l != null ? l.column : other;
       out[written.index] = 1.0;
       if (training) current = null;

@@ -9,23 +9,51 @@ import java.time.zone.ZoneRules;
 /**
  * Local calendar positions of instants in one time zone, by the zone's rules (java.time), with the
  * current UTC offset cached between transitions: a stream moving forward in time allocates only
- * when it crosses a transition. Not thread-safe (the cache is mutable; results depend only on the
- * instant).
+ * when it crosses a transition. The last {@value #HISTORY} spans between transitions are kept too,
+ * so a stream that steps back and forth across a few transitions (late records, a replay that
+ * starts over) allocates only the first time it meets each span. Not thread-safe (the cache is
+ * mutable; results depend only on the instant).
  */
 public final class LocalCalendar {
+
+  /** Spans between transitions remembered besides the current one. */
+  static final int HISTORY = 8;
 
   private final ZoneRules rules;
   private long validFrom = Long.MAX_VALUE;
   private long validUntil = Long.MIN_VALUE;
   private long offsetMillis;
+  private final long[] spanFrom = new long[HISTORY];
+  private final long[] spanUntil = new long[HISTORY];
+  private final long[] spanOffset = new long[HISTORY];
+  private int spans;
+  private int nextSpan;
 
   /** @param zone the zone whose rules decide the local time */
   public LocalCalendar(ZoneId zone) { this.rules = zone.getRules(); }
 
   /** Local wall-clock millis (epoch millis shifted by the zone's offset at that instant). */
   public long localMillis(long epochMillis) {
-    if (epochMillis < validFrom || epochMillis >= validUntil) refresh(epochMillis);
+    if (epochMillis < validFrom || epochMillis >= validUntil) lookUp(epochMillis);
     return epochMillis + offsetMillis;
+  }
+
+  /** Makes the span holding {@code t} current: from the history, else from the zone's rules. */
+  private void lookUp(long t) {
+    for (int k = 0; k < spans; k++) {
+      if (t >= spanFrom[k] && t < spanUntil[k]) {
+        validFrom = spanFrom[k];
+        validUntil = spanUntil[k];
+        offsetMillis = spanOffset[k];
+        return;
+      }
+    }
+    refresh(t);
+    spanFrom[nextSpan] = validFrom;
+    spanUntil[nextSpan] = validUntil;
+    spanOffset[nextSpan] = offsetMillis;
+    nextSpan = (nextSpan + 1) % HISTORY;
+    if (spans < HISTORY) spans++;
   }
 
   private void refresh(long t) {

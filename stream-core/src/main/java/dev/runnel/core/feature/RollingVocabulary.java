@@ -5,7 +5,6 @@ import java.io.DataOutput;
 import java.io.IOException;
 import java.nio.charset.StandardCharsets;
 import java.util.ArrayList;
-import java.util.HashMap;
 import java.util.List;
 
 /**
@@ -28,6 +27,10 @@ import java.util.List;
  *
  * <p>Memory: at most {@code maxLevels} levels and {@link #candidateCapacity()} candidates are
  * retained, whatever the input.
+ *
+ * <p>Lookups take a level's text as a {@code String} or as a range of chars (the record's text
+ * buffer); the two give the same answers. The char forms allocate nothing unless they create a
+ * level or a candidate, whose key {@code String} is then made once.
  *
  * <p>Outside this package the vocabulary is read-only: its mutators ({@code touch},
  * {@code expireOne}, {@code sight}) are driven by the {@link Featurizer}, which turns their
@@ -75,10 +78,10 @@ public final class RollingVocabulary {
   private final long expireAfterRecords;
   private final int candidateCapacity;
 
-  private final HashMap<String, Level> levels;
+  private final TextKeyTable<Level> levels;
   private Level head;
   private Level tail;
-  private final HashMap<String, Candidate> candidates;
+  private final TextKeyTable<Candidate> candidates;
   private Candidate cHead;
   private Candidate cTail;
   private long otherCount;
@@ -100,8 +103,8 @@ public final class RollingVocabulary {
     this.expireAfterMillis = expireAfterMillis;
     this.expireAfterRecords = expireAfterRecords;
     this.candidateCapacity = minCount == 1 ? 0 : (int) Math.min(1_000_000L, Math.max(64L, 2L * maxLevels));
-    this.levels = new HashMap<>(Math.min(maxLevels, 1 << 16) * 2);
-    this.candidates = new HashMap<>(Math.min(candidateCapacity, 1 << 16) * 2 + 1);
+    this.levels = new TextKeyTable<>();
+    this.candidates = new TextKeyTable<>();
   }
 
   /** Most candidates retained: 0 when {@code minCount == 1}, else {@code 2 * maxLevels} clamped to [64, 1000000]. */
@@ -123,13 +126,27 @@ public final class RollingVocabulary {
   public Level find(String key) { return levels.get(key); }
 
   /**
+   * The admitted level whose text is {@code c[off .. off+len)}, or null. Reads state only;
+   * allocates nothing. @param c not modified
+   */
+  public Level find(char[] c, int off, int len) { return levels.get(c, off, len); }
+
+  /**
    * Records a sighting of an admitted level in a training record: updates its count and times and
    * moves it to the most recently seen end.
    *
    * @return the level, or null if {@code key} is not admitted (then nothing changed)
    */
   Level touch(String key, long eventTimeMillis, long recordIndex) {
-    Level l = levels.get(key);
+    return touched(levels.get(key), eventTimeMillis, recordIndex);
+  }
+
+  /** {@link #touch(String, long, long)} for the text {@code c[off .. off+len)}; allocates nothing. */
+  Level touch(char[] c, int off, int len, long eventTimeMillis, long recordIndex) {
+    return touched(levels.get(c, off, len), eventTimeMillis, recordIndex);
+  }
+
+  private Level touched(Level l, long eventTimeMillis, long recordIndex) {
     if (l == null) return null;
     l.count++;
     if (eventTimeMillis > l.lastSeenMillis) l.lastSeenMillis = eventTimeMillis;
@@ -168,10 +185,24 @@ public final class RollingVocabulary {
    * @return the newly admitted level, or null (the record then belongs to "other")
    */
   Level sight(String key, long eventTimeMillis, long recordIndex) {
+    return sight(key, null, 0, key.length(), eventTimeMillis, recordIndex);
+  }
+
+  /**
+   * {@link #sight(String, long, long)} for the text {@code chars[off .. off+len)}; makes the key's
+   * {@code String} only when it creates a candidate or a level.
+   */
+  Level sight(char[] chars, int off, int len, long eventTimeMillis, long recordIndex) {
+    return sight(null, chars, off, len, eventTimeMillis, recordIndex);
+  }
+
+  /** The key is {@code key} when not null, else {@code chars[off .. off+len)}. */
+  private Level sight(String key, char[] chars, int off, int len, long eventTimeMillis, long recordIndex) {
     boolean room = levels.size() < maxLevels;
     if (minCount > 1) {
-      Candidate c = candidates.get(key);
+      Candidate c = key != null ? candidates.get(key) : candidates.get(chars, off, len);
       if (c == null) {
+        if (key == null) key = new String(chars, off, len);
         if (candidates.size() >= candidateCapacity) {
           Candidate old = cHead;
           unlinkCandidate(old);
@@ -190,11 +221,13 @@ public final class RollingVocabulary {
         return null;
       }
       unlinkCandidate(c);
-      candidates.remove(key);
+      candidates.remove(c.key);
+      key = c.key;
     } else if (!room) {
       otherCount++;
       return null;
     }
+    if (key == null) key = new String(chars, off, len);
     Level l = new Level(key);
     l.count = 1;
     l.firstSeenMillis = eventTimeMillis;
@@ -282,6 +315,7 @@ public final class RollingVocabulary {
       l.firstSeenMillis = in.readLong();
       l.lastSeenMillis = in.readLong();
       l.lastSeenRecord = in.readLong();
+      if (levels.get(l.key) != null) throw new IOException("corrupt checkpoint: level " + l.key + " twice");
       levels.put(l.key, l);
       append(l);
     }
@@ -290,6 +324,7 @@ public final class RollingVocabulary {
     for (int i = 0; i < m; i++) {
       Candidate c = new Candidate(readString(in));
       c.count = in.readLong();
+      if (candidates.get(c.key) != null) throw new IOException("corrupt checkpoint: candidate " + c.key + " twice");
       candidates.put(c.key, c);
       appendCandidate(c);
     }

@@ -2,8 +2,8 @@ package dev.runnel.core.pipeline;
 
 import com.fasterxml.jackson.core.JsonEncoding;
 import com.fasterxml.jackson.core.JsonFactory;
+import com.fasterxml.jackson.core.JsonFactoryBuilder;
 import com.fasterxml.jackson.core.JsonGenerator;
-import com.fasterxml.jackson.core.util.ByteArrayBuilder;
 import dev.runnel.core.drift.DriftAlarm;
 import dev.runnel.core.drift.DriftStatus;
 import dev.runnel.core.feature.Featurizer;
@@ -12,14 +12,21 @@ import dev.runnel.core.record.FieldType;
 import dev.runnel.core.record.RecordSchema;
 import dev.runnel.core.record.RejectReason;
 import java.io.IOException;
+import java.io.OutputStream;
 import java.io.UncheckedIOException;
 import java.nio.charset.StandardCharsets;
 import java.time.Instant;
+import java.util.Arrays;
 
 /**
  * Writes the published records — predictions, coefficient snapshots, rejects — as JSON bytes, in
  * the layouts documented in {@code docs/formats.md} (format version {@link #FORMAT_VERSION}).
- * Numbers that are not defined (NaN) are written as {@code null}. One thread; reuses its buffer.
+ * Numbers that are not defined (NaN) are written as {@code null}. One thread.
+ *
+ * <p>One Jackson generator is kept and reused for every record (written into a reusable buffer,
+ * with no separator between root values), so a record costs its result array and the number
+ * texts Jackson makes, not a new generator. After a failure the generator is dropped and the next
+ * record starts a new one.
  */
 public final class OutputJson {
 
@@ -28,11 +35,14 @@ public final class OutputJson {
   /** Raw bytes of a rejected record are truncated to this many bytes on the rejects output. */
   public static final int MAX_RAW_BYTES = 4096;
 
-  private static final JsonFactory FACTORY = new JsonFactory();
+  private static final JsonFactory FACTORY = new JsonFactoryBuilder().rootValueSeparator((String) null).build();
 
   private final String pipeline;
   private final double intervalLevel;
-  private final ByteArrayBuilder buffer = new ByteArrayBuilder(512);
+  private final Buffer buffer = new Buffer();
+  private final char[] timeChars = new char[24];
+  /** The reused generator; null before the first record and after a failure. */
+  private JsonGenerator generator;
 
   /**
    * @param pipeline the pipeline name written into every record
@@ -52,13 +62,21 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] prediction(Prediction p, EventRecord record) {
-    try (JsonGenerator g = start()) {
+    boolean done = false;
+    try {
+      JsonGenerator g = start();
       g.writeStartObject();
       g.writeNumberField("format", FORMAT_VERSION);
       g.writeStringField("pipeline", pipeline);
       g.writeStringField("status", p.status().id());
       writeSource(g, p.sourcePartition(), p.sourceOffset());
-      g.writeStringField("event_time", Instant.ofEpochMilli(p.eventTimeMillis()).toString());
+      g.writeFieldName("event_time");
+      int tn = instantChars(p.eventTimeMillis(), timeChars);
+      if (tn > 0) {
+        g.writeString(timeChars, 0, tn);
+      } else {
+        g.writeString(Instant.ofEpochMilli(p.eventTimeMillis()).toString());
+      }
       RecordSchema schema = record.schema();
       g.writeObjectFieldStart("fields");
       for (int i = 0; i < schema.size(); i++) {
@@ -67,7 +85,13 @@ public final class OutputJson {
         }
         FieldType t = schema.type(i);
         if (t == FieldType.TEXT) {
-          g.writeStringField(schema.name(i), record.text(i));
+          g.writeFieldName(schema.name(i));
+          int n = record.textLength(i);
+          if (n < 0) {
+            g.writeNull(); // present without a text: only a caller that filled the record oddly
+          } else {
+            g.writeString(record.textChars(i), 0, n);
+          }
         } else if (t == FieldType.FLAG) {
           g.writeBooleanField(schema.name(i), record.flag(i));
         }
@@ -81,10 +105,16 @@ public final class OutputJson {
       number(g, "error", p.error());
       g.writeNumberField("layout_version", p.layoutVersion());
       g.writeEndObject();
+      byte[] bytes = finish(g);
+      done = true;
+      return bytes;
     } catch (IOException e) {
       throw new UncheckedIOException(e);
+    } finally {
+      if (!done) {
+        generator = null;
+      }
     }
-    return finish();
   }
 
   /**
@@ -94,7 +124,9 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] reject(RejectReason reason, String detail, long partition, long offset, byte[] raw, int off, int len) {
-    try (JsonGenerator g = start()) {
+    boolean done = false;
+    try {
+      JsonGenerator g = start();
       g.writeStartObject();
       g.writeNumberField("format", FORMAT_VERSION);
       g.writeStringField("pipeline", pipeline);
@@ -107,10 +139,16 @@ public final class OutputJson {
       // the raw bytes as text (invalid UTF-8 is replaced); truncation never splits the JSON output
       g.writeStringField("raw", new String(raw, off, keep, StandardCharsets.UTF_8));
       g.writeEndObject();
+      byte[] bytes = finish(g);
+      done = true;
+      return bytes;
     } catch (IOException e) {
       throw new UncheckedIOException(e);
+    } finally {
+      if (!done) {
+        generator = null;
+      }
     }
-    return finish();
   }
 
   /**
@@ -120,7 +158,9 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] snapshot(Snapshot s, long partition) {
-    try (JsonGenerator g = start()) {
+    boolean done = false;
+    try {
+      JsonGenerator g = start();
       g.writeStartObject();
       g.writeNumberField("format", Snapshot.FORMAT_VERSION);
       g.writeStringField("pipeline", pipeline);
@@ -204,10 +244,16 @@ public final class OutputJson {
       }
       g.writeEndArray();
       g.writeEndObject();
+      byte[] bytes = finish(g);
+      done = true;
+      return bytes;
     } catch (IOException e) {
       throw new UncheckedIOException(e);
+    } finally {
+      if (!done) {
+        generator = null;
+      }
     }
-    return finish();
   }
 
   private static void writeAlarms(JsonGenerator g, Snapshot s) throws IOException {
@@ -247,12 +293,96 @@ public final class OutputJson {
   }
 
   private JsonGenerator start() throws IOException {
-    buffer.reset();
-    return FACTORY.createGenerator(buffer, JsonEncoding.UTF8);
+    buffer.size = 0;
+    JsonGenerator g = generator;
+    if (g == null) {
+      g = FACTORY.createGenerator(buffer, JsonEncoding.UTF8);
+      generator = g;
+    }
+    return g;
   }
 
-  private byte[] finish() {
-    return buffer.toByteArray();
+  private byte[] finish(JsonGenerator g) throws IOException {
+    g.flush();
+    return Arrays.copyOf(buffer.bytes, buffer.size);
+  }
+
+  /** The reusable output of the generator. */
+  private static final class Buffer extends OutputStream {
+    byte[] bytes = new byte[1024];
+    int size;
+
+    @Override public void write(int b) {
+      if (size == bytes.length) {
+        bytes = Arrays.copyOf(bytes, 2 * bytes.length);
+      }
+      bytes[size++] = (byte) b;
+    }
+
+    @Override public void write(byte[] b, int off, int len) {
+      if (bytes.length - size < len) {
+        bytes = Arrays.copyOf(bytes, Math.max(2 * bytes.length, size + len));
+      }
+      System.arraycopy(b, off, bytes, size, len);
+      size += len;
+    }
+  }
+
+  private static final long FIRST_MILLIS = -62_167_219_200_000L; // 0000-01-01T00:00:00Z
+  private static final long END_MILLIS = 253_402_300_800_000L;   // 10000-01-01T00:00:00Z
+
+  /**
+   * Writes {@code Instant.ofEpochMilli(millis).toString()} into {@code out} without allocating,
+   * for the years 0000 to 9999: {@code yyyy-MM-ddTHH:mm:ss[.SSS]Z}, the fraction only when the
+   * milliseconds are not 0 (the JDK's ISO_INSTANT form). Package-private for tests.
+   *
+   * @param out room for 24 chars. Modified.
+   * @return the number of chars, or 0 for a year outside 0000..9999 (then use {@code Instant})
+   */
+  static int instantChars(long millis, char[] out) {
+    if (millis < FIRST_MILLIS || millis >= END_MILLIS) {
+      return 0;
+    }
+    long day = Math.floorDiv(millis, 86_400_000L);
+    int msOfDay = (int) Math.floorMod(millis, 86_400_000L);
+    // civil from days (proleptic Gregorian; common practice), as in EventTimes
+    long z = day + 719_468;
+    long era = (z >= 0 ? z : z - 146_096) / 146_097;
+    long doe = z - era * 146_097;
+    long yoe = (doe - doe / 1460 + doe / 36_524 - doe / 146_096) / 365;
+    long doy = doe - (365 * yoe + yoe / 4 - yoe / 100);
+    long mp = (5 * doy + 2) / 153;
+    int d = (int) (doy - (153 * mp + 2) / 5 + 1);
+    int m = (int) (mp < 10 ? mp + 3 : mp - 9);
+    int y = (int) (yoe + era * 400 + (m <= 2 ? 1 : 0));
+    int secOfDay = msOfDay / 1000;
+    int ms = msOfDay % 1000;
+    digits(out, 0, y, 4);
+    out[4] = '-';
+    digits(out, 5, m, 2);
+    out[7] = '-';
+    digits(out, 8, d, 2);
+    out[10] = 'T';
+    digits(out, 11, secOfDay / 3600, 2);
+    out[13] = ':';
+    digits(out, 14, secOfDay / 60 % 60, 2);
+    out[16] = ':';
+    digits(out, 17, secOfDay % 60, 2);
+    int n = 19;
+    if (ms != 0) {
+      out[n++] = '.';
+      digits(out, n, ms, 3);
+      n += 3;
+    }
+    out[n++] = 'Z';
+    return n;
+  }
+
+  private static void digits(char[] out, int at, int v, int width) {
+    for (int k = at + width - 1; k >= at; k--) {
+      out[k] = (char) ('0' + v % 10);
+      v /= 10;
+    }
   }
 
   private static void writeSource(JsonGenerator g, long partition, long offset) throws IOException {

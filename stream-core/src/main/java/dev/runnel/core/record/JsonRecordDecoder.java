@@ -8,8 +8,10 @@ import com.fasterxml.jackson.core.json.JsonReadFeature;
 import java.io.IOException;
 
 /**
- * Decodes one JSON object per call into a reusable {@link EventRecord} with Jackson's streaming
- * parser (no tree, no boxing). One thread per instance.
+ * Decodes one JSON object per call into a reusable {@link EventRecord}: a valid record of the
+ * common shape is read straight from its bytes without allocating ({@link StrictJsonReader});
+ * anything else, including every rejected record, by Jackson's streaming parser (no tree, no
+ * boxing), which is the reference for both. One thread per instance.
  *
  * <p>Outcomes: {@link #decode} returns {@code null} when the record was decoded, or the
  * {@link RejectReason} of the first problem found; {@link #lastDetail()} then says what it was,
@@ -42,6 +44,8 @@ public final class JsonRecordDecoder {
   private final long minTime;
   private final long endTime;
   private final JsonFactory factory;
+  /** The allocation-free reader of plainly valid records; null when the schema's names rule it out. */
+  private final StrictJsonReader strict;
   private String detail = "";
 
   /**
@@ -71,6 +75,7 @@ public final class JsonRecordDecoder {
     this.minTime = limits.minTimeMillis();
     this.endTime = limits.endTimeMillis();
     this.factory = JsonFactory.builder().enable(JsonReadFeature.ALLOW_NON_NUMERIC_NUMBERS).build();
+    this.strict = StrictJsonReader.create(schema, limits, eventTimeSlot, this.eventTimeFormat);
   }
 
   /** A decoder without an event-time field. */
@@ -80,13 +85,27 @@ public final class JsonRecordDecoder {
   public String lastDetail() { return detail; }
 
   /**
-   * Decodes {@code buf[off .. off+len)} into {@code out}, which is cleared first.
+   * Decodes {@code buf[off .. off+len)} into {@code out}, which is cleared first. Allocates
+   * nothing for a valid record of the common shape (see {@link StrictJsonReader}); any other input
+   * is decoded by Jackson's parser, which decides the outcome and its detail.
    *
    * @param buf the record's bytes, UTF-8 JSON. Not modified.
    * @param out receives the fields. Modified.
    * @return null on success, else why the record is rejected ({@code out} is then partly filled)
    */
   public RejectReason decode(byte[] buf, int off, int len, EventRecord out) {
+    if (len <= limits.maxRecordBytes() && strict != null && strict.read(buf, off, len, out)) {
+      detail = "";
+      return null;
+    }
+    return decodeWithJackson(buf, off, len, out);
+  }
+
+  /**
+   * Decodes with a new Jackson parser for the record: the reference for {@link #decode}, which
+   * gives the same outcome, detail and fields for every input (package-private for tests).
+   */
+  RejectReason decodeWithJackson(byte[] buf, int off, int len, EventRecord out) {
     out.clear();
     detail = "";
     if (len > limits.maxRecordBytes()) {

@@ -99,6 +99,47 @@ class TimeEncodingTest {
     }
   }
 
+  @Test void localCalendar_backAndForthAcrossTransitions_matchesJavaTimeAndStopsAllocating() {
+    // Reference: java.time ZoneRules#getOffset for each instant.
+    Random rnd = new Random(7L);
+    for (String zone : new String[] {"Europe/Amsterdam", "America/New_York", "Australia/Lord_Howe", "Asia/Kolkata", "UTC"}) {
+      java.time.ZoneId id = java.time.ZoneId.of(zone);
+      LocalCalendar cal = new LocalCalendar(id);
+      long base = Instant.parse("2026-03-01T00:00:00Z").toEpochMilli();
+      long window = 400L * 86_400_000L; // about three transitions in zones with daylight saving time
+      for (int i = 0; i < 40_000; i++) {
+        long t = base + (long) (rnd.nextDouble() * window);
+        if (i % 7 == 0) t = base + (long) (rnd.nextDouble() * 200L * 365 * 86_400_000L) - 100L * 365 * 86_400_000L;
+        long expected = t + id.getRules().getOffset(Instant.ofEpochMilli(t)).getTotalSeconds() * 1000L;
+        assertEquals(expected, cal.localMillis(t), zone + " at " + Instant.ofEpochMilli(t));
+      }
+      java.lang.management.ThreadMXBean tmx = java.lang.management.ManagementFactory.getThreadMXBean();
+      if (!(tmx instanceof com.sun.management.ThreadMXBean sun) || !sun.isThreadAllocatedMemorySupported()) continue;
+      long[] times = new long[4096];
+      for (int i = 0; i < times.length; i++) times[i] = base + (long) (rnd.nextDouble() * window);
+      long tid = Thread.currentThread().getId();
+      long least = Long.MAX_VALUE;
+      // the least of five measurements: the JVM's own work (compiling, deoptimizing) can be counted
+      // once, an allocation per call would show in every measurement (20 * 4096 calls)
+      for (int attempt = 0; attempt < 5; attempt++) {
+        long before = sun.getThreadAllocatedBytes(tid);
+        long sum = sweep(cal, times, 20);
+        least = Math.min(least, sun.getThreadAllocatedBytes(tid) - before);
+        assertTrue(sum != 0);
+      }
+      // measured 0 bytes; the bound leaves room for the counter itself
+      assertTrue(least < 1024, zone + ": allocated " + least + " bytes");
+    }
+  }
+
+  private static long sweep(LocalCalendar cal, long[] times, int rounds) {
+    long sum = 0;
+    for (int k = 0; k < rounds; k++) {
+      for (int i = 0; i < times.length; i++) sum += cal.localMillis(times[i]);
+    }
+    return sum;
+  }
+
   @Test void lateEveningAndEarlyMorning_landCloseOnTheCircle() {
     // Common practice: one hour apart on a 24 h circle is a chord of 2 sin(pi/24).
     Featurizer f = featurizer("UTC");

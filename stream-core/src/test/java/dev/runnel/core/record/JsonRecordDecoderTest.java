@@ -138,4 +138,85 @@ class JsonRecordDecoderTest {
     byte[] b3 = "{\"ts\":\"soon\"}".getBytes(StandardCharsets.UTF_8);
     assertEquals(RejectReason.BAD_TIME, d2.decode(b3, 0, b3.length, r2));
   }
+
+  @Test void malformedRecord_thenGoodRecords_decodeNormally() {
+    String good = "{\"hub\":\"H07\",\"sessions\":12.5,\"observed_at\":\"2026-03-29T02:30:00+02:00\"}";
+    long t = Instant.parse("2026-03-29T00:30:00Z").toEpochMilli();
+    String[] bad = {"{\"hub\":", "{\"hub\":\"H0", "{\"sessions\":1} x", "{\"sessions\":1}garbage", "{\"sessions\":1} 1",
+      "{\"sessions\":1}\u0000", "{\"hub\":\"a\u0001b\"}", "{\"sessions\":01}", "not json"};
+    for (String b : bad) {
+      assertEquals(RejectReason.MALFORMED_JSON, decode(b), b);
+      assertFalse(decoder.lastDetail().isEmpty(), "a detail for " + b);
+      for (int k = 0; k < 2; k++) {
+        assertNull(decode(good), "after " + b + ": " + decoder.lastDetail());
+        assertEquals("", decoder.lastDetail());
+        assertEquals("H07", rec.text(schema.slot("hub")));
+        assertEquals(12.5, rec.number(schema.slot("sessions")));
+        assertEquals(t, rec.eventTimeMillis());
+      }
+    }
+  }
+
+  @Test void trailingContent_isMalformedWithItsDetail() {
+    assertEquals(RejectReason.MALFORMED_JSON, decode("{\"sessions\":1} {\"sessions\":2}"));
+    assertEquals("trailing data: an object after the end of the object", decoder.lastDetail());
+    assertEquals(RejectReason.MALFORMED_JSON, decode("{\"sessions\":1} [2]"));
+    assertEquals("trailing data: an array after the end of the object", decoder.lastDetail());
+    assertEquals(RejectReason.MALFORMED_JSON, decode("{\"sessions\":1} \"x\""));
+    assertEquals("trailing data: a string after the end of the object", decoder.lastDetail());
+    assertNull(decode(" \t{\"sessions\":1}\r\n "), "whitespace around the object is fine");
+  }
+
+  @Test void escapesAndNonAsciiText_decodeToTheirChars() {
+    // expected strings written by hand from RFC 8259 section 7 (escapes) and the UTF-8 of each char
+    assertNull(decode("{\"hub\":\"Z\\u00fcrich \\\"N\\\" \\/ \\\\\\t\\n\"}"), decoder.lastDetail());
+    assertEquals("Z\u00fcrich \"N\" / \\\t\n", rec.text(schema.slot("hub")));
+    assertNull(decode("{\"hub\":\"\u00e9\u65e5\ud83d\ude00\"}"), decoder.lastDetail());
+    assertEquals("\u00e9\u65e5\ud83d\ude00", rec.text(schema.slot("hub")));
+    assertEquals(4, rec.textLength(schema.slot("hub")), "a four-byte UTF-8 char is two UTF-16 units");
+    assertNull(decode("{\"hub\":\"\\ud83d\\ude00\"}"), decoder.lastDetail());
+    assertEquals("\ud83d\ude00", rec.text(schema.slot("hub")));
+    assertNull(decode("{\"hub\":\"\"}"));
+    assertEquals("", rec.text(schema.slot("hub")));
+    assertEquals(0, rec.textLength(schema.slot("hub")));
+  }
+
+  @Test void emptyObject_decodesWithNothingPresent() {
+    assertNull(decode("{\"hub\":\"A\",\"observed_at\":\"2026-01-01T00:00:00Z\"}"));
+    assertNull(decode("{}"));
+    for (int i = 0; i < schema.size(); i++) assertFalse(rec.present(i), schema.name(i));
+    assertNull(rec.text(schema.slot("hub")));
+    assertEquals(-1, rec.textLength(schema.slot("hub")));
+    assertFalse(rec.hasEventTime());
+    assertNull(decode(" { } "));
+  }
+
+  @Test void veryLongText_upToItsLimit() {
+    RecordLimits big = new RecordLimits(100_000, 1_000_000, 1e6, 1970, 2200);
+    JsonRecordDecoder d = new JsonRecordDecoder(schema, big);
+    EventRecord r = new EventRecord(schema);
+    String text = "q".repeat(99_999) + "\u00e9";
+    byte[] b = ("{\"pad\":\"" + "p".repeat(300_000) + "\",\"hub\":\"" + text + "\"}").getBytes(StandardCharsets.UTF_8);
+    assertNull(d.decode(b, 0, b.length, r), d.lastDetail());
+    assertEquals(text, r.text(schema.slot("hub")));
+    byte[] over = ("{\"hub\":\"" + text + "x\"}").getBytes(StandardCharsets.UTF_8);
+    assertEquals(RejectReason.TOO_LONG, d.decode(over, 0, over.length, r));
+    assertEquals("field hub: text of 100001 chars exceeds the limit of 100000", d.lastDetail());
+  }
+
+  @Test void textBuffer_growsWithTheTextsNotWithTheRecord() {
+    RecordLimits big = new RecordLimits(1_000_000, 16_000_000, 1e6, 1970, 2200);
+    JsonRecordDecoder d = new JsonRecordDecoder(schema, big);
+    EventRecord r = new EventRecord(schema);
+    int hub = schema.slot("hub");
+    byte[] b = ("{\"hub\":\"H07\",\"pad\":\"" + "p".repeat(2_000_000) + "\"}").getBytes(StandardCharsets.UTF_8);
+    assertNull(d.decode(b, 0, b.length, r), d.lastDetail());
+    assertEquals("H07", r.text(hub));
+    assertTrue(r.textChars(hub).length <= 64, "buffer of " + r.textChars(hub).length + " chars for a 3-char text");
+    String longer = "\u00e9".repeat(300) + "z".repeat(700);
+    byte[] c = ("{\"hub\":\"" + longer + "\"}").getBytes(StandardCharsets.UTF_8);
+    assertNull(d.decode(c, 0, c.length, r), d.lastDetail());
+    assertEquals(longer, r.text(hub));
+    assertTrue(r.textChars(hub).length < 4096, "buffer of " + r.textChars(hub).length + " chars for a 1000-char text");
+  }
 }
