@@ -119,6 +119,9 @@ public final class RlsModel implements LayoutListener {
   private double[] theta;
   /** Whether {@link #theta} is the solution of the current {@code R theta = z}. */
   private boolean thetaValid;
+  /** {@code 1 / r_ii} per factor position, valid while {@link #invDiagValid}. */
+  private double[] invDiag;
+  private boolean invDiagValid;
   private double[] work;
   private double[] work2;
   /** The windup guard's refresh row during an update. */
@@ -191,6 +194,8 @@ public final class RlsModel implements LayoutListener {
     z = new double[cap];
     zNext = new double[cap];
     theta = new double[cap];
+    invDiag = new double[cap];
+    invDiagValid = false;
     work = new double[cap];
     work2 = new double[cap];
     work3 = new double[cap];
@@ -239,6 +244,7 @@ public final class RlsModel implements LayoutListener {
     pos[k] = k;
     col[k] = k;
     p = k + 1;
+    invDiagValid = false;
     return k;
   }
 
@@ -281,7 +287,7 @@ public final class RlsModel implements LayoutListener {
     logDecayAtRefresh[n] = logDecay;
     front = q0 + 1;
     p = n + 1;
-    thetaValid = false;
+    factorChanged();
   }
 
   // ---------------------------------------------------------------- queries (hot path)
@@ -380,6 +386,7 @@ public final class RlsModel implements LayoutListener {
     final double[] u = work2;
     final double[][] rm = r;
     final double[] zm = z;
+    final double[] inv = reciprocalPivots();
     final int n = p;
     gather(x, u);
     double sum = 0.0;
@@ -395,7 +402,7 @@ public final class RlsModel implements LayoutListener {
       if (u[i] == 0.0) {
         continue; // as in leverage: nothing to carry from a zero
       }
-      final double ui = u[i] / d;
+      final double ui = u[i] * inv[i];
       sum += ui * ui;
       pred += ui * zm[i];
       for (int j = i + 1; j < n; j++) {
@@ -643,7 +650,7 @@ public final class RlsModel implements LayoutListener {
     }
     z = zn;
     zNext = zm;
-    thetaValid = false;
+    factorChanged();
     rho2 = rho2n;
     nEff = lambda * nEff + 1.0;
     if (wasReady) {
@@ -701,6 +708,29 @@ public final class RlsModel implements LayoutListener {
       m = Math.max(m, Math.abs(x[j])); // NaN propagates
     }
     return m <= MAX_ABS_INPUT;
+  }
+
+  /** The weights and the reciprocal pivots no longer describe {@code R}. */
+  private void factorChanged() {
+    thetaValid = false;
+    invDiagValid = false;
+  }
+
+  /**
+   * {@code 1 / r_ii}, computed once per factor (the divisions are independent of each other, so
+   * they overlap), so that a forward substitution's chain from row to row is a multiplication
+   * rather than a division.
+   */
+  private double[] reciprocalPivots() {
+    if (!invDiagValid) {
+      final double[][] rm = r;
+      final double[] inv = invDiag;
+      for (int i = 0; i < p; i++) {
+        inv[i] = 1.0 / rm[i][i];
+      }
+      invDiagValid = true;
+    }
+    return invDiag;
   }
 
   /** {@code out[q] = x[col[q]]}: a layout vector in the factor's column order. */
@@ -988,7 +1018,7 @@ public final class RlsModel implements LayoutListener {
       front--;
     }
     p--;
-    thetaValid = false;
+    factorChanged();
     ready = !settings.diffuse() || fullRank();
   }
 
@@ -1032,7 +1062,7 @@ public final class RlsModel implements LayoutListener {
     pendInvScale[k] = 1.0 / scale;
     pendLo = Math.min(pendLo, k);
     pendHi = Math.max(pendHi, k);
-    thetaValid = false; // the weights follow from R and z, which are exactly re-based
+    factorChanged(); // the weights follow from R and z, which are exactly re-based
     priorAtRefresh[column] /= scale * scale;
   }
 
