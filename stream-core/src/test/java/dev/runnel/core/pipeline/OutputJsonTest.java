@@ -57,6 +57,43 @@ class OutputJsonTest {
     return b.toString(StandardCharsets.UTF_8);
   }
 
+  @Test void numbers_readBackAsTheSameDoubles() throws IOException {
+    // the fast (Schubfach) double writer must keep every value: the JDK's Double.parseDouble,
+    // correctly rounded by its specification, is the reference reader
+    Map<String, FieldType> m = new LinkedHashMap<>();
+    m.put("hub", FieldType.TEXT);
+    EventRecord r = new EventRecord(new RecordSchema(m));
+    r.setText(0, "QM-01");
+    OutputJson json = new OutputJson("t", 0.9);
+    Prediction p = new Prediction();
+    p.status = Prediction.Status.SCORED;
+    p.eventTimeMillis = 1_774_744_200_000L;
+    Random rnd = new Random(17);
+    com.fasterxml.jackson.databind.ObjectMapper reader = new com.fasterxml.jackson.databind.ObjectMapper();
+    for (int i = 0; i < 20_000; i++) {
+      double v = switch (i % 4) {
+        case 0 -> Double.longBitsToDouble(rnd.nextLong());
+        case 1 -> rnd.nextGaussian() * 30;
+        case 2 -> Math.scalb(rnd.nextDouble(), rnd.nextInt(200) - 100);
+        default -> Math.round(rnd.nextGaussian() * 1e4) / 100.0;
+      };
+      if (!Double.isFinite(v)) {
+        continue;
+      }
+      p.predicted = v;
+      p.actual = -v / 3;
+      p.low = v - 1e-300;
+      p.high = Math.nextUp(v);
+      String out = new String(json.prediction(p, r), StandardCharsets.UTF_8);
+      com.fasterxml.jackson.databind.JsonNode n = reader.readTree(out);
+      for (String f : new String[] {"predicted", "actual", "low", "high"}) {
+        double expected = f.equals("predicted") ? p.predicted : f.equals("actual") ? p.actual : f.equals("low") ? p.low : p.high;
+        String text = n.get(f).asText();
+        assertEquals(Double.doubleToRawLongBits(expected), Double.doubleToRawLongBits(Double.parseDouble(text)), f + " written as " + text);
+      }
+    }
+  }
+
   @Test void textFields_areWrittenAsJacksonWritesTheirStrings() throws IOException {
     Map<String, FieldType> m = new LinkedHashMap<>();
     m.put("hub", FieldType.TEXT);
