@@ -122,6 +122,8 @@ public final class RlsModel implements LayoutListener {
   /** {@code 1 / r_ii} per factor position, valid while {@link #invDiagValid}. */
   private double[] invDiag;
   private boolean invDiagValid;
+  /** {@code R^-1} of the current factor (row-major p x p), or null; see {@link #inverseFactor}. */
+  private double[] inverse;
   private double[] work;
   private double[] work2;
   /** The windup guard's refresh row during an update. */
@@ -245,6 +247,7 @@ public final class RlsModel implements LayoutListener {
     col[k] = k;
     p = k + 1;
     invDiagValid = false;
+    inverse = null;
     return k;
   }
 
@@ -714,6 +717,7 @@ public final class RlsModel implements LayoutListener {
   private void factorChanged() {
     thetaValid = false;
     invDiagValid = false;
+    inverse = null;
   }
 
   /**
@@ -1168,8 +1172,15 @@ public final class RlsModel implements LayoutListener {
     return out;
   }
 
-  /** R^-1, upper triangular, row-major p x p, by back-substitution per column. */
+  /**
+   * R^-1, upper triangular, row-major p x p, by back-substitution per column; kept until the
+   * factor changes (a snapshot asks for standard errors and the covariance, twice). Not to be
+   * modified by the caller.
+   */
   private double[] inverseFactor() {
+    if (inverse != null) {
+      return inverse;
+    }
     double[] u = new double[p * p];
     for (int j = 0; j < p; j++) {
       u[j * p + j] = 1.0 / r[j][j];
@@ -1181,6 +1192,7 @@ public final class RlsModel implements LayoutListener {
         u[i * p + j] = -s / r[i][i];
       }
     }
+    inverse = u;
     return u;
   }
 
