@@ -99,12 +99,14 @@ public final class RlsModel implements LayoutListener {
   /** Number of columns in the leading block. */
   private int front;
   /**
-   * Re-basings not yet applied to {@code R}, per factor position: the shift, and the reciprocal
-   * of the scale (0 and 1 where none is pending), over positions {@code [pendLo, pendHi]}; applied
-   * together, one pass over the rows, before {@code R} is next read (see {@link #columnRebased}).
+   * Re-basings not yet applied to {@code R}, per factor position: the shift and the scale (0 and
+   * 1 where none is pending), over positions {@code [pendLo, pendHi]}; applied together, one pass
+   * over the rows, before {@code R} is next read (see {@link #columnRebased}). The entries are
+   * divided by the scale, as the per-column form did, so the bits are the same: multiplying by a
+   * reciprocal instead lost half a digit on NIST Filip.
    */
   private double[] pendShift;
-  private double[] pendInvScale;
+  private double[] pendScale;
   private boolean[] pending;
   private int pendLo = Integer.MAX_VALUE;
   private int pendHi = -1;
@@ -190,8 +192,8 @@ public final class RlsModel implements LayoutListener {
     pos = new int[cap];
     col = new int[cap];
     pendShift = new double[cap];
-    pendInvScale = new double[cap];
-    Arrays.fill(pendInvScale, 1.0);
+    pendScale = new double[cap];
+    Arrays.fill(pendScale, 1.0);
     pending = new boolean[cap];
     z = new double[cap];
     zNext = new double[cap];
@@ -841,24 +843,24 @@ public final class RlsModel implements LayoutListener {
     final int lo = pendLo;
     final double[][] rm = r;
     final double[] sh = pendShift;
-    final double[] inv = pendInvScale;
+    final double[] sc = pendScale;
     final int c = settings.constantTerm() ? pos[0] : -1;
     for (int i = 0; i <= hi; i++) {
       final double[] row = rm[i];
       if (i <= c) {
         final double rc = row[c];
         for (int j = lo; j <= hi; j++) {
-          row[j] = (row[j] - rc * sh[j]) * inv[j];
+          row[j] = (row[j] - rc * sh[j]) / sc[j];
         }
       } else {
         for (int j = Math.max(i, lo); j <= hi; j++) {
-          row[j] *= inv[j];
+          row[j] /= sc[j];
         }
       }
     }
     for (int j = lo; j <= hi; j++) {
       sh[j] = 0.0;
-      inv[j] = 1.0;
+      sc[j] = 1.0;
       pending[j] = false;
     }
     pendLo = Integer.MAX_VALUE;
@@ -1063,7 +1065,7 @@ public final class RlsModel implements LayoutListener {
     }
     pending[k] = true;
     pendShift[k] = shift;
-    pendInvScale[k] = 1.0 / scale;
+    pendScale[k] = scale;
     pendLo = Math.min(pendLo, k);
     pendHi = Math.max(pendHi, k);
     factorChanged(); // the weights follow from R and z, which are exactly re-based
