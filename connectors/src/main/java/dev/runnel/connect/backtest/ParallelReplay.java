@@ -31,7 +31,9 @@ import java.util.function.LongSupplier;
  *       other workers, and is thrown by {@link #run} as a {@link ConfigurationFailure} naming the
  *       configuration and the record. {@link #cancel} (Ctrl-C) or an interrupt of the reader stops
  *       everything and makes {@link #run} throw {@link CancellationException}. Either way every
- *       worker thread has ended when {@link #run} returns or throws. Workers are daemon threads.
+ *       worker thread has ended when {@link #run} returns or throws (it waits up to two seconds
+ *       for a step that ignores the interrupt; a worker leaves after its current batch at the
+ *       latest). Workers are daemon threads, so they never keep the JVM alive.
  * </ul>
  *
  * <p>One run per instance.
@@ -95,6 +97,8 @@ public final class ParallelReplay {
   private final Worker[] workers;
   private final AtomicReference<RuntimeException> failure = new AtomicReference<>();
   private volatile boolean cancelled;
+  /** Set when the run ends early for any reason: workers leave at their next batch. */
+  private volatile boolean stopping;
   private boolean used;
 
   /**
@@ -208,7 +212,8 @@ public final class ParallelReplay {
 
   /**
    * Stops the replay from any thread (for Ctrl-C): the reader stops at its next record or wait,
-   * the workers are interrupted; waits up to two seconds for the worker threads to end.
+   * the workers are interrupted and leave at their next batch; waits up to two seconds for the
+   * worker threads to end.
    */
   public void cancel() {
     cancelled = true;
@@ -216,6 +221,7 @@ public final class ParallelReplay {
   }
 
   private void stopWorkers() {
+    stopping = true;
     boolean interrupted = Thread.interrupted(); // restored below; join must not fail at once
     for (Worker w : workers) {
       w.thread.interrupt();
@@ -430,7 +436,7 @@ public final class ParallelReplay {
       int i = -1;
       Batch b = null;
       try {
-        while (!cancelled && failure.get() == null) {
+        while (!stopping && failure.get() == null) {
           b = queue.take();
           if (b == END) {
             return;
@@ -451,8 +457,8 @@ public final class ParallelReplay {
       } catch (InterruptedException e) {
         // stopped by cancel or by another worker's failure
       } catch (RuntimeException | Error e) {
-        if (cancelled) {
-          return; // a step that fails because it was interrupted by cancel is not a configuration failure
+        if (stopping) {
+          return; // a step that fails because the run is being stopped is not a configuration failure
         }
         if (b == null || i < 0 || i >= b.count) {
           failure.compareAndSet(null, new IllegalStateException("replay worker " + thread.getName() + " failed: " + e, e));
