@@ -7,10 +7,13 @@
 #   backtest                        (two configurations, default threads: one worker per configuration)
 # and writes a Markdown table of the rates and medians to docs/bench/replay-speed.md (and stdout).
 # It also checks that the reports of the sequential and the threaded runs are byte-identical.
+# Then the same three runs in one warm JVM (dev.runnel.connect.bench.ReplayBenchmark: WARMUP rounds
+# not counted, then WARM_ROUNDS rounds), a second table without JIT compilation in the timings.
 #
 # Usage: docs/bench/replay-speed.sh            (from anywhere; takes a few minutes)
 # Settings (environment): DAYS=180 COPIES=5 RUNS=3 PORT=19092 WORK=/tmp/runnel-replay-bench
 #                         OUT=docs/bench/replay-speed.md EXTRA="" (more backtest options for every run)
+#                         WARMUP=2 WARM_ROUNDS=3 (WARM_ROUNDS=0: no second table)
 # Do not run it while a Maven build runs in the same worktree: ./runnel rebuilds the jar when sources change.
 set -euo pipefail
 root="$(cd "$(dirname "$0")/../.." && pwd)"
@@ -22,6 +25,8 @@ PORT="${PORT:-19092}"
 WORK="${WORK:-${TMPDIR:-/tmp}/runnel-replay-bench}"
 OUT="${OUT:-docs/bench/replay-speed.md}"
 EXTRA="${EXTRA:-}"
+WARMUP="${WARMUP:-2}"
+WARM_ROUNDS="${WARM_ROUNDS:-3}"
 TOPIC=bench.sessions
 BS="127.0.0.1:$PORT"
 CONFIGS=(--config docs/examples/with-weather.yaml --config docs/examples/no-weather.yaml)
@@ -82,6 +87,12 @@ for run in $(seq "$RUNS"); do
   cmp -s "$WORK/out-threads-1/backtest.json" "$WORK/out-default/backtest.json" \
     || { log "backtest.json differs between --threads 1 and the default threads"; exit 1; }
 done
+warm=""
+if [ "$WARM_ROUNDS" -gt 0 ]; then
+  log "the same runs in one warm JVM ($WARMUP warm-up rounds, $WARM_ROUNDS counted)"
+  warm=$(java -cp "connectors/target/runnel.jar:connectors/target/lib/*" dev.runnel.connect.bench.ReplayBenchmark \
+    --bootstrap-servers "$BS" --topic "$TOPIC" "${CONFIGS[@]}" --warmup "$WARMUP" --rounds "$WARM_ROUNDS")
+fi
 load_after=$(cut -d' ' -f1-3 /proc/loadavg 2>/dev/null || echo "?")
 
 median() { tr ' ' '\n' | grep -v '^$' | sort -n | awk '{a[NR]=$1} END {if (NR % 2) print a[(NR+1)/2]; else printf "%.0f\n", (a[NR/2]+a[NR/2+1])/2}'; }
@@ -110,6 +121,10 @@ git diff --quiet HEAD -- stream-core connectors demo-data 2>/dev/null || commit=
   row default '`backtest`, two configurations, default threads (one worker per configuration)'
   echo
   echo "backtest.json of \`--threads 1\` and of the default threads: byte-identical in every run."
+  if [ -n "$warm" ]; then
+    echo
+    printf '%s\n' "$warm"
+  fi
 } > "$OUT.tmp"
 mv "$OUT.tmp" "$OUT"
 cat "$OUT"
