@@ -1,6 +1,7 @@
 package dev.runnel.connect.backtest;
 
 import dev.runnel.connect.file.JsonLinesReader;
+import dev.runnel.connect.kafka.ClientConfig;
 import java.io.IOException;
 import java.nio.file.Files;
 import java.nio.file.Path;
@@ -30,15 +31,25 @@ public final class Loader {
 
   private Loader() { }
 
+  /** As {@link #load(Path, String, Map, String, int)} without client properties. */
+  public static long load(Path file, String bootstrap, String topic, int partitionsForPlain) throws Exception {
+    return load(file, bootstrap, Map.of(), topic, partitionsForPlain);
+  }
+
   /**
    * @param file the file (plain or a recording)
    * @param bootstrap bootstrap servers
+   * @param clientProperties Kafka client properties (security, tuning) as in {@code kafka.client_properties}:
+   *     unprefixed keys for both clients, {@code producer.}/{@code admin.} keys for one; {@code ${ENV}}
+   *     resolved from the environment. Not modified.
    * @param topic the topic; created when missing
    * @param partitionsForPlain partitions of a new topic for a plain file, ≥ 1
    * @return records published
-   * @throws IllegalArgumentException if the file is missing or empty, or the topic has too few partitions
+   * @throws IllegalArgumentException if the file is missing or empty, the topic has too few partitions, or a
+   *     client property refers to an environment variable that is not set
    */
-  public static long load(Path file, String bootstrap, String topic, int partitionsForPlain) throws Exception {
+  public static long load(Path file, String bootstrap, Map<String, String> clientProperties, String topic,
+                          int partitionsForPlain) throws Exception {
     if (partitionsForPlain < 1) {
       throw new IllegalArgumentException("--partitions must be at least 1, got " + partitionsForPlain);
     }
@@ -65,17 +76,11 @@ public final class Loader {
       }
     });
     int need = recorded[0] ? maxPartition[0] + 1 : partitionsForPlain;
-    ensureTopic(bootstrap, topic, Math.max(1, need));
-    Properties p = new Properties();
-    p.put(ProducerConfig.BOOTSTRAP_SERVERS_CONFIG, bootstrap);
-    p.put(ProducerConfig.ACKS_CONFIG, "all");
-    p.put(ProducerConfig.ENABLE_IDEMPOTENCE_CONFIG, "true");
-    p.put(ProducerConfig.LINGER_MS_CONFIG, "20");
-    p.put(ProducerConfig.BATCH_SIZE_CONFIG, String.valueOf(256 * 1024));
-    p.put(ProducerConfig.COMPRESSION_TYPE_CONFIG, "lz4");
+    Properties producerProps = producerProperties(bootstrap, clientProperties);
+    ensureTopic(adminProperties(bootstrap, clientProperties), topic, Math.max(1, need));
     AtomicReference<Exception> failure = new AtomicReference<>();
     long n;
-    try (KafkaProducer<byte[], byte[]> producer = new KafkaProducer<>(p, new ByteArraySerializer(), new ByteArraySerializer())) {
+    try (KafkaProducer<byte[], byte[]> producer = new KafkaProducer<>(producerProps, new ByteArraySerializer(), new ByteArraySerializer())) {
       n = src.read(new RecordHandler() {
         @Override
         public void record(byte[] buf, int off, int len, long ts, int partition, long offset) {
@@ -98,9 +103,33 @@ public final class Loader {
     return n;
   }
 
-  private static void ensureTopic(String bootstrap, String topic, int partitions) throws Exception {
-    try (Admin admin = Admin.create(Map.of(AdminClientConfig.BOOTSTRAP_SERVERS_CONFIG, bootstrap,
-        AdminClientConfig.DEFAULT_API_TIMEOUT_MS_CONFIG, 30_000))) {
+  /**
+   * The producer's properties: our defaults (idempotent, lz4, 256 KiB batches), then the user's
+   * properties for a producer (they win), then the bootstrap servers.
+   */
+  static Properties producerProperties(String bootstrap, Map<String, String> clientProperties) {
+    Properties p = new Properties();
+    p.put(ProducerConfig.ACKS_CONFIG, "all");
+    p.put(ProducerConfig.ENABLE_IDEMPOTENCE_CONFIG, "true");
+    p.put(ProducerConfig.LINGER_MS_CONFIG, "20");
+    p.put(ProducerConfig.BATCH_SIZE_CONFIG, String.valueOf(256 * 1024));
+    p.put(ProducerConfig.COMPRESSION_TYPE_CONFIG, "lz4");
+    p.putAll(ClientConfig.forClient(clientProperties, ClientConfig.Kind.PRODUCER, System::getenv));
+    p.put(ProducerConfig.BOOTSTRAP_SERVERS_CONFIG, bootstrap);
+    return p;
+  }
+
+  /** The admin client's properties: a 30 s timeout, the user's properties for an admin client, the bootstrap servers. */
+  static Properties adminProperties(String bootstrap, Map<String, String> clientProperties) {
+    Properties p = new Properties();
+    p.put(AdminClientConfig.DEFAULT_API_TIMEOUT_MS_CONFIG, 30_000);
+    p.putAll(ClientConfig.forClient(clientProperties, ClientConfig.Kind.ADMIN, System::getenv));
+    p.put(AdminClientConfig.BOOTSTRAP_SERVERS_CONFIG, bootstrap);
+    return p;
+  }
+
+  private static void ensureTopic(Properties adminProps, String topic, int partitions) throws Exception {
+    try (Admin admin = Admin.create(adminProps)) {
       try {
         TopicDescription d = admin.describeTopics(List.of(topic)).allTopicNames().get(30, TimeUnit.SECONDS).get(topic);
         if (d.partitions().size() < partitions) {

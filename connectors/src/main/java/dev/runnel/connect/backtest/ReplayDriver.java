@@ -2,40 +2,148 @@ package dev.runnel.connect.backtest;
 
 import dev.runnel.core.evaluate.Backtest;
 import java.io.IOException;
+import java.util.ArrayList;
+import java.util.List;
+import java.util.function.LongSupplier;
 
-/** Feeds a source through a {@link Backtest} in one pass, reporting progress now and then. */
+/**
+ * Feeds a source through a {@link Backtest} in one pass, reporting progress now and then: on the
+ * calling thread alone ({@code threads} = 1, the sequential path), or with one reader and worker
+ * threads that run the configurations ({@link ParallelReplay}). Both give the same bits.
+ */
 public final class ReplayDriver {
 
-  /** Told how far the pass is: {@code done} of about {@code total} (records or bytes). */
+  /** Told how far the pass is: {@code records} finished by every configuration, {@code done} of about {@code total} (records or bytes). */
   @FunctionalInterface
   public interface ProgressListener {
     void progress(long records, long done, long total);
   }
 
+  /** Highest default thread count, whatever the processor count (the reader needs a core too). */
+  static final int MAX_DEFAULT_THREADS = 8;
+
   private ReplayDriver() { }
 
-  /** Replays a file; progress is measured in bytes. @return records read */
-  public static long run(Backtest bt, FileSource src, ProgressListener listener) throws IOException {
-    long size = src.sizeBytes();
-    long[] bytes = {0};
-    long[] n = {0};
-    return src.read((buf, off, len, ts, p, o) -> {
-      bt.accept(buf, off, len, ts, p, o);
-      if ((++n[0] & 1023) == 0 && listener != null) {
-        listener.progress(n[0], bytes[0], size);
-      }
-    }, bytes);
+  /**
+   * The default number of worker threads: one per configuration, at most the processors the JVM
+   * may use and at most {@value #MAX_DEFAULT_THREADS}; 1 (the sequential path) for one
+   * configuration or one processor.
+   *
+   * @param configurations number of configurations, at least 1
+   */
+  public static int defaultThreads(int configurations) {
+    return Math.max(1, Math.min(configurations, Math.min(MAX_DEFAULT_THREADS, Runtime.getRuntime().availableProcessors())));
   }
 
-  /** Replays a topic range; progress is measured in offsets. @return records read */
+  /** Replays a file on the calling thread; progress is measured in bytes. @return records read */
+  public static long run(Backtest bt, FileSource src, ProgressListener listener) throws IOException {
+    return run(bt, src, 1, listener);
+  }
+
+  /** Replays a topic range on the calling thread; progress is measured in offsets. @return records read */
   public static long run(Backtest bt, TopicSource src, ProgressListener listener) {
-    long total = src.expectedRecords();
-    long[] n = {0};
-    return src.read((buf, off, len, ts, p, o) -> {
-      bt.accept(buf, off, len, ts, p, o);
-      if ((++n[0] & 1023) == 0 && listener != null) {
-        listener.progress(n[0], n[0], total);
+    return run(bt, src, 1, listener);
+  }
+
+  /**
+   * Replays a file; progress is measured in bytes.
+   *
+   * @param bt the backtest. Modified.
+   * @param threads 1 for the sequential path, more for that many worker threads (capped at the
+   *     number of configurations)
+   * @return records read
+   * @throws ParallelReplay.ConfigurationFailure if a configuration's step threw (names it)
+   * @throws java.util.concurrent.CancellationException if the replay was stopped (Ctrl-C)
+   * @throws IllegalArgumentException if {@code threads} is less than 1
+   */
+  public static long run(Backtest bt, FileSource src, int threads, ProgressListener listener) throws IOException {
+    long[] bytes = {0};
+    long n = replay(labels(bt), bt::acceptFor, h -> src.read(h, bytes), () -> bytes[0], src.sizeBytes(), threads, listener);
+    bt.countRecords(n);
+    return n;
+  }
+
+  /**
+   * Replays a topic range; progress is measured in offsets.
+   *
+   * @param bt the backtest. Modified.
+   * @param threads as for {@link #run(Backtest, FileSource, int, ProgressListener)}
+   * @return records read
+   * @throws ParallelReplay.ConfigurationFailure if a configuration's step threw (names it)
+   * @throws java.util.concurrent.CancellationException if the replay was stopped (Ctrl-C)
+   */
+  public static long run(Backtest bt, TopicSource src, int threads, ProgressListener listener) {
+    try {
+      long n = replay(labels(bt), bt::acceptFor, h -> src.read(h, null), null, src.expectedRecords(), threads, listener);
+      bt.countRecords(n);
+      return n;
+    } catch (IOException e) {
+      throw new java.io.UncheckedIOException(e); // a topic source throws no IOException
+    }
+  }
+
+  private static List<String> labels(Backtest bt) {
+    List<String> labels = new ArrayList<>();
+    for (Backtest.Variant v : bt.variants()) {
+      labels.add(v.label());
+    }
+    return labels;
+  }
+
+  /**
+   * The replay behind both sources.
+   *
+   * @param doneSoFar the listener's measure so far, read on the calling thread; null to count records
+   */
+  static long replay(List<String> labels, ParallelReplay.VariantSink sink, ParallelReplay.Feed feed,
+                     LongSupplier doneSoFar, long total, int threads, ProgressListener listener) throws IOException {
+    if (threads < 1) {
+      throw new IllegalArgumentException("--threads must be at least 1 (1 = no worker threads), got " + threads);
+    }
+    if (threads == 1) {
+      return sequential(labels, sink, feed, doneSoFar, total, listener);
+    }
+    ParallelReplay replay = new ParallelReplay(labels, sink, threads);
+    Thread stopper = new Thread(replay::cancel, "runnel-replay-stop");
+    boolean hooked = false;
+    try {
+      Runtime.getRuntime().addShutdownHook(stopper);
+      hooked = true;
+    } catch (IllegalStateException shuttingDown) {
+      throw new java.util.concurrent.CancellationException("the JVM is shutting down; the replay did not start");
+    }
+    try {
+      return replay.run(feed, doneSoFar, total, listener);
+    } finally {
+      if (hooked) {
+        try {
+          Runtime.getRuntime().removeShutdownHook(stopper);
+        } catch (IllegalStateException shuttingDown) {
+          // Ctrl-C: the hook is running or has run
+        }
       }
-    }, null);
+    }
+  }
+
+  private static long sequential(List<String> labels, ParallelReplay.VariantSink sink, ParallelReplay.Feed feed,
+                                 LongSupplier doneSoFar, long total, ProgressListener listener) throws IOException {
+    int variants = labels.size();
+    long[] n = {0};
+    long read = feed.read((buf, off, len, ts, p, o) -> {
+      for (int v = 0; v < variants; v++) {
+        try {
+          sink.accept(v, buf, off, len, ts, p, o);
+        } catch (RuntimeException e) {
+          throw new ParallelReplay.ConfigurationFailure(labels.get(v), p, o, e);
+        }
+      }
+      if ((++n[0] & 1023) == 0 && listener != null) {
+        listener.progress(n[0], doneSoFar == null ? n[0] : doneSoFar.getAsLong(), total);
+      }
+    });
+    if (listener != null) {
+      listener.progress(read, doneSoFar == null ? read : doneSoFar.getAsLong(), total);
+    }
+    return read;
   }
 }

@@ -91,6 +91,13 @@ public final class BacktestCommand implements Callable<Integer> {
   @Option(names = "--quiet", description = "No progress line.")
   boolean quiet;
 
+  @Option(names = "--threads", paramLabel = "N",
+      description = "Worker threads that run the configurations while the source is read: 1 = none (read and run "
+          + "every configuration on one thread); more = that many, configurations spread over them, at most one "
+          + "per configuration. Results are the same bits whatever N (default: one per configuration, at most the "
+          + "number of processors and at most 8).")
+  Integer threads;
+
   @Option(names = "--read-only", description = "Benchmark: read the source once without running any configuration, "
       + "and print the reading rate (the ceiling a backtest can reach).")
   boolean readOnly;
@@ -110,6 +117,10 @@ public final class BacktestCommand implements Callable<Integer> {
       throw new IllegalArgumentException("--period " + period + ": not an ISO 8601 duration; use e.g. P1D or PT6H");
     }
     Backtest bt = new Backtest(variants, new Backtest.Options(segmentBy, periodMillis, weights, lag, horizon, alpha));
+    if (threads != null && threads < 1) {
+      throw new IllegalArgumentException("--threads " + threads + ": must be at least 1 (1 = no worker threads)");
+    }
+    int workers = Math.min(variants.size(), threads != null ? threads : ReplayDriver.defaultThreads(variants.size()));
     Path file = Path.of(source);
     boolean isFile = Files.exists(file) || source.endsWith(".jsonl") || source.endsWith(".json");
     Progress progress = new Progress(System.err, "records", 0, quiet);
@@ -129,7 +140,7 @@ public final class BacktestCommand implements Callable<Integer> {
           throw new IllegalArgumentException("--start-*/--end-* apply to a topic source; " + source + " is a file");
         }
         FileSource fs = new FileSource(file);
-        n = readOnly ? fs.read((b, o, l, ts, p, off) -> { }, null) : ReplayDriver.run(bt, fs, (recs, done, total) -> progress.update(recs,
+        n = readOnly ? fs.read((b, o, l, ts, p, off) -> { }, null) : ReplayDriver.run(bt, fs, workers, (recs, done, total) -> progress.update(recs,
             () -> String.format("%.0f%% of the file", 100.0 * done / Math.max(1, total))));
       } else {
         TopicRange range = new TopicRange(startOffset, instant("--start-time", startTime), endOffset,
@@ -142,7 +153,7 @@ public final class BacktestCommand implements Callable<Integer> {
         }
         run.put("bootstrap_servers", servers);
         try (TopicSource ts = new TopicSource(servers, first.kafka().clientProperties(), source, range)) {
-          n = readOnly ? ts.read((b, o, l, t, p, off) -> { }, null) : ReplayDriver.run(bt, ts, (recs, done, all) -> progress.update(recs,
+          n = readOnly ? ts.read((b, o, l, t, p, off) -> { }, null) : ReplayDriver.run(bt, ts, workers, (recs, done, all) -> progress.update(recs,
               () -> String.format("%.1f%% done  %s", 100.0 * done / Math.max(1, all), left(recs, all, t0))));
         }
         run.put("range", range.toString());
@@ -163,8 +174,8 @@ public final class BacktestCommand implements Callable<Integer> {
     JsonReport.write(r, run, out.resolve("backtest.json"));
     HtmlReport.write(r, run, out.resolve("backtest.html"));
     System.out.print(TextReport.render(r));
-    System.out.printf("%nreplayed %,d records through %d configuration(s) in %.1f s (%,.0f records/s)%n", n,
-        variants.size(), secs, n / Math.max(1e-9, secs));
+    System.out.printf("%nreplayed %,d records through %d configuration(s) %s in %.1f s (%,.0f records/s)%n", n,
+        variants.size(), workers == 1 ? "on one thread" : "on " + workers + " worker threads", secs, n / Math.max(1e-9, secs));
     System.out.printf("report: %s and %s%n", out.resolve("backtest.json").toAbsolutePath(),
         out.resolve("backtest.html").toAbsolutePath());
     return 0;

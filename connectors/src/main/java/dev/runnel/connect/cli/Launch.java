@@ -31,6 +31,35 @@ final class Launch {
     return broker;
   }
 
+  /** Where a verb without a pipeline of its own connects: servers and client properties (security). */
+  record Cluster(String bootstrapServers, java.util.Map<String, String> clientProperties) { }
+
+  /**
+   * The cluster of the verbs that only move records ({@code record}, {@code load}): the
+   * {@code --bootstrap-servers} option, else {@code kafka.bootstrap_servers} of {@code --config},
+   * else {@code fallback}; client properties from {@code kafka.client_properties} of
+   * {@code --config} (as {@code run} and {@code backtest} use them), none without one.
+   *
+   * @param config a pipeline configuration, or null
+   * @param bootstrapOption the option's value, or null
+   * @param fallback servers when neither names any
+   */
+  static Cluster cluster(Path config, String bootstrapOption, String fallback) {
+    java.util.Map<String, String> props = java.util.Map.of();
+    String servers = bootstrapOption;
+    if (config != null) {
+      PipelineConfig cfg = dev.runnel.core.config.ConfigLoader.load(config);
+      props = cfg.kafka().clientProperties();
+      if (servers == null || servers.isBlank()) {
+        servers = cfg.kafka().bootstrapServers();
+      }
+    }
+    if (servers == null || servers.isBlank()) {
+      servers = fallback;
+    }
+    return new Cluster(servers, props);
+  }
+
   /** The runner settings a configuration asks for. */
   static RunnerSettings runnerSettings(PipelineConfig cfg, String bootstrap, String instanceId) {
     String topic = cfg.input().topic().orElseThrow(() -> new IllegalArgumentException(

@@ -19,9 +19,15 @@ public final class LoadCommand implements Callable<Integer> {
   @Option(names = "--topic", required = true, paramLabel = "TOPIC", description = "The topic to publish to.")
   String topic;
 
-  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT", defaultValue = "127.0.0.1:9092",
-      description = "Kafka cluster (default: ${DEFAULT-VALUE}, e.g. a `runnel broker`).")
+  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT",
+      description = "Kafka cluster (default: kafka.bootstrap_servers of --config, else " + RecordCommand.DEFAULT_SERVERS
+          + ", e.g. a `runnel broker`).")
   String bootstrap;
+
+  @Option(names = "--config", paramLabel = "FILE",
+      description = "Pipeline configuration: gives the client properties (kafka.client_properties: SASL, TLS; "
+          + "$${ENV} resolved; producer./admin. prefixes for one client) and the bootstrap servers, as for run and backtest.")
+  Path config;
 
   @Option(names = "--partitions", paramLabel = "N", defaultValue = "1",
       description = "Partitions of a new topic for a plain file (default: ${DEFAULT-VALUE}).")
@@ -29,7 +35,8 @@ public final class LoadCommand implements Callable<Integer> {
 
   @Override
   public Integer call() throws Exception {
-    long n = Loader.load(source, bootstrap, topic, partitions);
+    Launch.Cluster cluster = Launch.cluster(config, bootstrap, RecordCommand.DEFAULT_SERVERS);
+    long n = Loader.load(source, cluster.bootstrapServers(), cluster.clientProperties(), topic, partitions);
     System.out.printf("published %,d records from %s to %s%n", n, source, topic);
     return 0;
   }

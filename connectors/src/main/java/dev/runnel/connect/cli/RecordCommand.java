@@ -9,7 +9,6 @@ import java.io.OutputStream;
 import java.io.UncheckedIOException;
 import java.nio.file.Files;
 import java.nio.file.Path;
-import java.util.Map;
 import java.util.concurrent.Callable;
 import picocli.CommandLine.Command;
 import picocli.CommandLine.Option;
@@ -21,15 +20,24 @@ import picocli.CommandLine.Option;
         "A backtest of the recording gives the same results as a backtest of the topic. No consumer group, no commits."})
 public final class RecordCommand implements Callable<Integer> {
 
+  /** Servers used when neither --bootstrap-servers nor --config names any. */
+  static final String DEFAULT_SERVERS = "127.0.0.1:9092";
+
   @Option(names = "--topic", required = true, paramLabel = "TOPIC", description = "The topic to record.")
   String topic;
 
   @Option(names = "--out", required = true, paramLabel = "FILE", description = "The recording to write (.jsonl).")
   Path out;
 
-  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT", defaultValue = "127.0.0.1:9092",
-      description = "Kafka cluster (default: ${DEFAULT-VALUE}, e.g. a `runnel broker`).")
+  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT",
+      description = "Kafka cluster (default: kafka.bootstrap_servers of --config, else " + DEFAULT_SERVERS
+          + ", e.g. a `runnel broker`).")
   String bootstrap;
+
+  @Option(names = "--config", paramLabel = "FILE",
+      description = "Pipeline configuration: gives the client properties (kafka.client_properties: SASL, TLS; "
+          + "$${ENV} resolved) and the bootstrap servers, as for run and backtest.")
+  Path config;
 
   @Option(names = "--start-offset", paramLabel = "N") Long startOffset;
   @Option(names = "--start-time", paramLabel = "ISO") String startTime;
@@ -41,6 +49,7 @@ public final class RecordCommand implements Callable<Integer> {
 
   @Override
   public Integer call() throws IOException {
+    Launch.Cluster cluster = Launch.cluster(config, bootstrap, DEFAULT_SERVERS);
     TopicRange range = new TopicRange(startOffset, BacktestCommand.instant("--start-time", startTime), endOffset,
         BacktestCommand.instant("--end-time", endTime));
     Progress progress = new Progress(System.err, "records", 0, quiet);
@@ -48,7 +57,7 @@ public final class RecordCommand implements Callable<Integer> {
     if (out.getParent() != null) {
       Files.createDirectories(out.getParent());
     }
-    try (TopicSource src = new TopicSource(bootstrap, Map.of(), topic, range);
+    try (TopicSource src = new TopicSource(cluster.bootstrapServers(), cluster.clientProperties(), topic, range);
          OutputStream o = new BufferedOutputStream(Files.newOutputStream(out), 1 << 16)) {
       Recording.writeHeader(o, topic, src.partitionCount());
       StringBuilder scratch = new StringBuilder(256);

@@ -110,6 +110,28 @@ class TopicReplayTest {
   }
 
   @Test
+  void workerThreads_giveTheSameJsonAsOneThread(EmbeddedBroker broker, @TempDir Path dir) throws Exception {
+    String bs = broker.bootstrapServers();
+    String topic = "bt-threads";
+    publishSample(bs, topic);
+    byte[] expected = null;
+    for (int threads : new int[] {1, 2}) {
+      Backtest bt = new Backtest(variants(), options());
+      try (TopicSource src = new TopicSource(bs, Map.of(), topic, TopicRange.ALL)) {
+        assertEquals(5235, ReplayDriver.run(bt, src, threads, null), "every line of the sample (quillmarsh-truth.md: 5235 lines)");
+      }
+      Path out = dir.resolve("t" + threads + ".json");
+      JsonReport.write(bt.result(), Map.of("source", topic), out);
+      byte[] json = Files.readAllBytes(out);
+      if (expected == null) {
+        expected = json;
+      } else {
+        assertArrayEquals(expected, json, threads + " threads, three partitions");
+      }
+    }
+  }
+
+  @Test
   void offsetRange_readsOnlyThatRange(EmbeddedBroker broker) throws Exception {
     String bs = broker.bootstrapServers();
     String topic = "bt-range";
