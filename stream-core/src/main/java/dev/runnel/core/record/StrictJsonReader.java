@@ -75,6 +75,18 @@ final class StrictJsonReader {
   private final int[] expected;
   /** Per slot whether its name may be guessed (see {@link #expected}). */
   private final boolean[] guessable;
+  /**
+   * Per slot the first and the last 8 bytes of its name as little-endian words (names of 8 bytes
+   * or more), or the first and last 4 (names of 4 to 7 bytes), overlapping when the name is short:
+   * a guessed name is confirmed with two word comparisons.
+   */
+  private final long[] nameHead;
+  private final long[] nameTail;
+
+  private static final java.lang.invoke.VarHandle LONGS =
+      java.lang.invoke.MethodHandles.byteArrayViewVarHandle(long[].class, java.nio.ByteOrder.LITTLE_ENDIAN);
+  private static final java.lang.invoke.VarHandle INTS =
+      java.lang.invoke.MethodHandles.byteArrayViewVarHandle(int[].class, java.nio.ByteOrder.LITTLE_ENDIAN);
 
   /** Open-addressing table of the declared names' UTF-8 bytes: slot + 1, 0 = empty. */
   private final int[] nameTable;
@@ -101,6 +113,18 @@ final class StrictJsonReader {
     isoTime = new boolean[n];
     guessable = new boolean[n];
     expected = new int[n + 1];
+    nameHead = new long[n];
+    nameTail = new long[n];
+    for (int s = 0; s < n; s++) {
+      byte[] k = names[s];
+      if (k.length >= 8) {
+        nameHead[s] = (long) LONGS.get(k, 0);
+        nameTail[s] = (long) LONGS.get(k, k.length - 8);
+      } else if (k.length >= 4) {
+        nameHead[s] = (int) INTS.get(k, 0);
+        nameTail[s] = (int) INTS.get(k, k.length - 4);
+      }
+    }
     java.util.Arrays.fill(expected, -1);
     for (int s = 0; s < n; s++) {
       FieldType t = types[s];
@@ -206,7 +230,7 @@ final class StrictJsonReader {
         if (slot >= 0) {
           byte[] name = nameBytes[slot];
           j = start + name.length;
-          if (j >= end || b[j] != '"' || !sameBytes(name, b, start, name.length)) slot = -1;
+          if (j >= end || b[j] != '"' || !sameName(slot, name, b, start)) slot = -1;
         } else {
           j = 0;
         }
@@ -281,6 +305,22 @@ final class StrictJsonReader {
       if (name.length == n && sameBytes(name, b, at, n)) return e - 1;
       k = (k + 1) & nameMask;
     }
+  }
+
+  /**
+   * Whether {@code b[at .. at+n)} holds the name of {@code slot} ({@code n} its length), the
+   * caller having checked that those bytes lie within the record.
+   */
+  private boolean sameName(int slot, byte[] name, byte[] b, int at) {
+    int n = name.length;
+    if (n >= 8) {
+      return (long) LONGS.get(b, at) == nameHead[slot] && (long) LONGS.get(b, at + n - 8) == nameTail[slot]
+          && (n <= 16 || sameBytes(name, b, at, n));
+    }
+    if (n >= 4) {
+      return (int) INTS.get(b, at) == (int) nameHead[slot] && (int) INTS.get(b, at + n - 4) == (int) nameTail[slot];
+    }
+    return sameBytes(name, b, at, n);
   }
 
   private static boolean sameBytes(byte[] name, byte[] b, int at, int n) {
