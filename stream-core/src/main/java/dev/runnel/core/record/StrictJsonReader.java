@@ -500,6 +500,42 @@ final class StrictJsonReader {
    * for any other string, which the caller then reads the general way.
    */
   private long isoFromBytes(byte[] b, int p, int end) {
+    int seen = lastIsoLength;
+    if (seen > 0 && end - p >= seen && sameAsLastIso(b, p, seen)) {
+      isoEnd = p + seen;
+      return lastIsoMillis;
+    }
+    long ms = parseIsoBytes(b, p, end);
+    if (ms != EventTimes.INVALID) {
+      int n = isoEnd - p;
+      if (n <= lastIso.length) {
+        System.arraycopy(b, p, lastIso, 0, n);
+        lastIsoLength = n;
+        lastIsoMillis = ms;
+      }
+    }
+    return ms;
+  }
+
+  /**
+   * The bytes (the text and its closing quote) of the last time {@link #parseIsoBytes} accepted,
+   * and its value: records often come in runs that share a time, whose text is then compared in
+   * words instead of parsed. The value depends on those bytes only.
+   */
+  private final byte[] lastIso = new byte[40];
+  private int lastIsoLength;
+  private long lastIsoMillis;
+
+  private boolean sameAsLastIso(byte[] b, int p, int n) {
+    byte[] last = lastIso;
+    for (int k = 0; k < n - 8; k += 8) {
+      if ((long) LONGS.get(b, p + k) != (long) LONGS.get(last, k)) return false;
+    }
+    return (long) LONGS.get(b, p + n - 8) == (long) LONGS.get(last, n - 8);
+  }
+
+  /** {@link #isoFromBytes} without the memory of the last time. */
+  private long parseIsoBytes(byte[] b, int p, int end) {
     if (end - p < 21) return EventTimes.INVALID;
     if (b[p + 4] != '-' || b[p + 7] != '-' || (b[p + 10] | 0x20) != 't' || b[p + 13] != ':' || b[p + 16] != ':') {
       return EventTimes.INVALID;
