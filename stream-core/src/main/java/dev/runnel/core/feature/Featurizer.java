@@ -647,6 +647,7 @@ public final class Featurizer {
       this.slot = cfg.field() == null ? -1 : s.slot(cfg.field());
       this.calendar = new LocalCalendar(pc.input().timeZone());
       this.cols = new Column[2 * cfg.harmonics()];
+      this.memo = new double[MEMO * cols.length];
     }
 
     @Override String kind() { return cfg.kind(); }
@@ -673,14 +674,37 @@ public final class Featurizer {
       }
     }
 
+    /**
+     * Remembered encodings: slot {@code e} holds the angle {@code memoAngle[e]} (its bits; valid
+     * when {@code memoFilled[e]}) and its sines and cosines {@code memo[e * cols.length ..]}, in
+     * column order. A stream has few distinct positions in a cycle (24 hours of hourly data, 7
+     * days), so most records find theirs here instead of computing {@code cols.length} sines and
+     * cosines; the values are those the same computation gave, so the row is the same bit for bit.
+     * Direct-mapped by the angle's bits, {@value #MEMO} slots.
+     */
+    private static final int MEMO = 64;
+    private final long[] memoAngle = new long[MEMO];
+    private final boolean[] memoFilled = new boolean[MEMO];
+    private final double[] memo;
+
     @Override void write(EventRecord r, long t, double[] out, boolean training) {
       long time = slot < 0 ? t : r.timeMillis(slot);
       double base = 2.0 * Math.PI * phase(time);
-      for (int k = 1; k <= cfg.harmonics(); k++) {
-        double a = base * k;
-        out[cols[2 * k - 2].index] = Math.sin(a);
-        out[cols[2 * k - 1].index] = Math.cos(a);
+      long bits = Double.doubleToRawLongBits(base);
+      int e = (int) ((bits * 0x9E3779B97F4A7C15L) >>> 58);
+      int w = cols.length;
+      double[] m = memo;
+      if (!memoFilled[e] || memoAngle[e] != bits) {
+        for (int k = 1; k <= w / 2; k++) {
+          double a = base * k;
+          m[e * w + 2 * k - 2] = Math.sin(a);
+          m[e * w + 2 * k - 1] = Math.cos(a);
+        }
+        memoAngle[e] = bits;
+        memoFilled[e] = true;
       }
+      Column[] c = cols;
+      for (int j = 0; j < w; j++) out[c[j].index] = m[e * w + j];
     }
   }
 
