@@ -85,6 +85,18 @@ public final class Featurizer {
   private final RecordSchema schema;
   private final boolean constantTerm;
   private final Feature[] features;
+  /**
+   * The features by kind, each in the order of {@link #features}: the per-record loops call
+   * only the features that have work in that phase, and each call site sees one class (or two),
+   * so the calls are direct. Writes go kind by kind with the crosses last: a feature writes only
+   * its own columns, and a cross reads those of its parts, which come before it.
+   */
+  private final OneHot[] oneHots;
+  private final Feature[] scaled;
+  private final Cyclic[] cyclics;
+  private final Numeric[] numerics;
+  private final Polynomial[] polynomials;
+  private final Cross[] crosses;
   private final int maxDimension;
   private final int targetSlot;
   private final int eventTimeSlot;
@@ -129,6 +141,12 @@ public final class Featurizer {
       features[i] = f;
       max += f.maxColumns();
     }
+    oneHots = Arrays.stream(features).filter(f -> f instanceof OneHot).toArray(OneHot[]::new);
+    scaled = Arrays.stream(features).filter(f -> f instanceof Numeric || f instanceof Polynomial).toArray(Feature[]::new);
+    cyclics = Arrays.stream(features).filter(f -> f instanceof Cyclic).toArray(Cyclic[]::new);
+    numerics = Arrays.stream(features).filter(f -> f instanceof Numeric).toArray(Numeric[]::new);
+    polynomials = Arrays.stream(features).filter(f -> f instanceof Polynomial).toArray(Polynomial[]::new);
+    crosses = Arrays.stream(features).filter(f -> f instanceof Cross).toArray(Cross[]::new);
     if (max > Integer.MAX_VALUE - 8) throw new IllegalArgumentException("the layout could grow to " + max + " columns; lower max_levels");
     maxDimension = (int) max;
     columns = new Column[Math.min(maxDimension, 64)];
@@ -295,9 +313,10 @@ public final class Featurizer {
   public void learnAndEncode(EventRecord r, long eventTimeMillis, double[] out) {
     trainingRecords++;
     if (eventTimeMillis > streamTimeMillis) streamTimeMillis = eventTimeMillis;
-    Feature[] fs = features;
-    for (int i = 0; i < fs.length; i++) fs[i].touchAndExpire(r, eventTimeMillis, this);
-    for (int i = 0; i < fs.length; i++) fs[i].admit(r, eventTimeMillis, this);
+    OneHot[] hs = oneHots;
+    for (int i = 0; i < hs.length; i++) hs[i].touchAndExpire(r, eventTimeMillis, this);
+    for (int i = 0; i < hs.length; i++) hs[i].admit(r, eventTimeMillis, this);
+    Feature[] fs = scaled;
     for (int i = 0; i < fs.length; i++) fs[i].learnScalers(r, this);
     write(r, eventTimeMillis, out, true);
   }
@@ -317,8 +336,16 @@ public final class Featurizer {
     int n = dimension;
     for (int i = 0; i < n; i++) out[i] = 0.0;
     if (constantTerm) out[0] = 1.0;
-    Feature[] fs = features;
-    for (int i = 0; i < fs.length; i++) fs[i].write(r, t, out, training);
+    OneHot[] hs = oneHots;
+    for (int i = 0; i < hs.length; i++) hs[i].write(r, t, out, training);
+    Cyclic[] cs = cyclics;
+    for (int i = 0; i < cs.length; i++) cs[i].write(r, t, out, training);
+    Numeric[] ns = numerics;
+    for (int i = 0; i < ns.length; i++) ns[i].write(r, t, out, training);
+    Polynomial[] ps = polynomials;
+    for (int i = 0; i < ps.length; i++) ps[i].write(r, t, out, training);
+    Cross[] xs = crosses;
+    for (int i = 0; i < xs.length; i++) xs[i].write(r, t, out, training);
   }
 
   // ---------------------------------------------------------------- snapshots
