@@ -82,6 +82,8 @@ final class StrictJsonReader {
    */
   private final long[] nameHead;
   private final long[] nameTail;
+  /** Per slot the length of its name in bytes. */
+  private final int[] nameLength;
 
   private static final java.lang.invoke.VarHandle LONGS =
       java.lang.invoke.MethodHandles.byteArrayViewVarHandle(long[].class, java.nio.ByteOrder.LITTLE_ENDIAN);
@@ -115,8 +117,10 @@ final class StrictJsonReader {
     expected = new int[n + 1];
     nameHead = new long[n];
     nameTail = new long[n];
+    nameLength = new int[n];
     for (int s = 0; s < n; s++) {
       byte[] k = names[s];
+      nameLength[s] = k.length;
       if (k.length >= 8) {
         nameHead[s] = (long) LONGS.get(k, 0);
         nameTail[s] = (long) LONGS.get(k, k.length - 8);
@@ -228,9 +232,8 @@ final class StrictJsonReader {
         int slot = guesses[after];
         int j;
         if (slot >= 0) {
-          byte[] name = nameBytes[slot];
-          j = start + name.length;
-          if (j >= end || b[j] != '"' || !sameName(slot, name, b, start)) slot = -1;
+          j = start + nameLength[slot];
+          if (j >= end || b[j] != '"' || !sameName(slot, b, start)) slot = -1;
         } else {
           j = 0;
         }
@@ -311,16 +314,16 @@ final class StrictJsonReader {
    * Whether {@code b[at .. at+n)} holds the name of {@code slot} ({@code n} its length), the
    * caller having checked that those bytes lie within the record.
    */
-  private boolean sameName(int slot, byte[] name, byte[] b, int at) {
-    int n = name.length;
+  private boolean sameName(int slot, byte[] b, int at) {
+    int n = nameLength[slot];
     if (n >= 8) {
       return (long) LONGS.get(b, at) == nameHead[slot] && (long) LONGS.get(b, at + n - 8) == nameTail[slot]
-          && (n <= 16 || sameBytes(name, b, at, n));
+          && (n <= 16 || sameBytes(nameBytes[slot], b, at, n));
     }
     if (n >= 4) {
       return (int) INTS.get(b, at) == (int) nameHead[slot] && (int) INTS.get(b, at + n - 4) == (int) nameTail[slot];
     }
-    return sameBytes(name, b, at, n);
+    return sameBytes(nameBytes[slot], b, at, n);
   }
 
   private static boolean sameBytes(byte[] name, byte[] b, int at, int n) {
@@ -354,13 +357,16 @@ final class StrictJsonReader {
         int e = readDecimal(b, i, end);
         double v;
         if (e >= 0) {
+          // finite; and |v| <= m (a division by 10^k >= 1, correctly rounded), so the check of the
+          // magnitude waits for the division only when m itself exceeds the limit
           v = decimal;
+          if (decimalDigits > maxAbsValue && Math.abs(v) > maxAbsValue) return FAIL;
         } else {
           e = numberEnd(b, i, end);
           if (e < 0) return FAIL;
           v = numberValue(b, i, e);
+          if (Double.isNaN(v) || Double.isInfinite(v) || Math.abs(v) > maxAbsValue) return FAIL;
         }
-        if (Double.isNaN(v) || Double.isInfinite(v) || Math.abs(v) > maxAbsValue) return FAIL;
         out.setNumber(slot, v);
         if (slot == eventTimeSlot) {
           long ms = EventTimes.fromEpochNumber(v, eventTimeFormat);
@@ -430,8 +436,9 @@ final class StrictJsonReader {
     }
   }
 
-  /** The value read by the last successful {@link #readDecimal}. */
+  /** The value read by the last successful {@link #readDecimal}, and its digits m as an integer (at most 2^53). */
   private double decimal;
+  private long decimalDigits;
   /** The position after the closing quote of the last time read by {@link #isoFromBytes}. */
   private int isoEnd;
 
@@ -489,6 +496,7 @@ final class StrictJsonReader {
     double v = (double) m;
     if (scale > 0) v /= POW10[scale];
     decimal = negative ? -v : v;
+    decimalDigits = m;
     return i;
   }
 
