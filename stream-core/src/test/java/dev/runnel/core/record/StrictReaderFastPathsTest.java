@@ -116,6 +116,21 @@ class StrictReaderFastPathsTest {
     assertTrue(read > 190_000, read + " numbers read");
   }
 
+  @Test void magnitudeLimit_isCheckedOnTheValue_notOnTheDigits() {
+    RecordLimits limits = new RecordLimits(64, 4096, 1.0e6, 1970, 2200);
+    DecoderAgreementTest.Pair p = new DecoderAgreementTest.Pair(schema, limits, "at", TimeFormat.ISO8601);
+    StrictJsonReader strict = StrictJsonReader.create(schema, limits, schema.slot("at"), TimeFormat.ISO8601);
+    // {text, within the limit of 1e6}: the digits as an integer exceed the limit in all but the first
+    String[][] cases = {{"999999", "true"}, {"999999.99", "true"}, {"1000000.0", "true"}, {"-1000000.000", "true"},
+      {"1000000.5", "false"}, {"-1000000.00000001", "false"}, {"1000001", "false"}, {"0.0000001", "true"}};
+    for (String[] c : cases) {
+      byte[] b = ("{\"x\":" + c[0] + "}").getBytes(StandardCharsets.UTF_8);
+      RejectReason r = p.check(b);
+      assertEquals(Boolean.parseBoolean(c[1]) ? null : RejectReason.OUT_OF_RANGE, r, c[0]);
+      assertEquals(r == null, strict.read(b, 0, b.length, out), c[0]);
+    }
+  }
+
   @Test void numbersThatAreNotJson_areLeftToJackson() {
     for (String t : new String[] {"01", "-01", "00.5", "1.", "-", "-.5", ".5", "+1", "1.2.3", "0x1", "1e", "1e+", "--1", "1-", "0-1"}) {
       assertTrue(!read("{\"x\":" + t + "}"), t);
