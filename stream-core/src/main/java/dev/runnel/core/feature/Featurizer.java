@@ -97,6 +97,8 @@ public final class Featurizer {
   private final Numeric[] numerics;
   private final Polynomial[] polynomials;
   private final Cross[] crosses;
+  /** The slots every feature reads, which a record must hold (see {@link #plainlyValid}). */
+  private final int[] requiredSlots;
   private final int maxDimension;
   private final int targetSlot;
   private final int eventTimeSlot;
@@ -147,12 +149,22 @@ public final class Featurizer {
     numerics = Arrays.stream(features).filter(f -> f instanceof Numeric).toArray(Numeric[]::new);
     polynomials = Arrays.stream(features).filter(f -> f instanceof Polynomial).toArray(Polynomial[]::new);
     crosses = Arrays.stream(features).filter(f -> f instanceof Cross).toArray(Cross[]::new);
+    requiredSlots = Arrays.stream(features).mapToInt(Featurizer::requiredSlot).filter(s -> s >= 0).toArray();
     if (max > Integer.MAX_VALUE - 8) throw new IllegalArgumentException("the layout could grow to " + max + " columns; lower max_levels");
     maxDimension = (int) max;
     columns = new Column[Math.min(maxDimension, 64)];
     if (constantTerm) append(new Column("constant", null));
     for (Feature f : features) f.createFixedColumns(this);
     layoutVersion = 0;
+  }
+
+  /** The slot a feature requires to be present, or -1 when it requires none. */
+  private static int requiredSlot(Feature f) {
+    if (f instanceof OneHot o) return o.slot;
+    if (f instanceof Cyclic c) return c.slot;
+    if (f instanceof Numeric n) return n.slot;
+    if (f instanceof Polynomial p) return p.slot;
+    return -1;
   }
 
   private static Feature find(Feature[] built, int before, String name) {
@@ -276,9 +288,11 @@ public final class Featurizer {
       detail = "field " + schema.name(eventTimeSlot) + " (the event time): missing";
       return RejectReason.MISSING_FIELD;
     }
-    for (Feature f : features) {
-      RejectReason why = f.check(r, this);
-      if (why != null) return why;
+    if (!plainlyValid(r)) {
+      for (Feature f : features) {
+        RejectReason why = f.check(r, this);
+        if (why != null) return why;
+      }
     }
     if (requireTarget) {
       if (!r.present(targetSlot)) {
@@ -291,6 +305,28 @@ public final class Featurizer {
       }
     }
     return null;
+  }
+
+  /**
+   * Whether every feature's check passes, tested without calling each feature: every field a
+   * feature reads is present, each numeric value is in its transform's domain, each polynomial's
+   * highest power is finite. When false, the features' own checks in order find the first problem
+   * and its detail.
+   */
+  private boolean plainlyValid(EventRecord r) {
+    int[] slots = requiredSlots;
+    for (int i = 0; i < slots.length; i++) {
+      if (!r.present(slots[i])) return false;
+    }
+    Numeric[] ns = numerics;
+    for (int i = 0; i < ns.length; i++) {
+      if (!ns[i].scaler.accepts(r.number(ns[i].slot))) return false;
+    }
+    Polynomial[] ps = polynomials;
+    for (int i = 0; i < ps.length; i++) {
+      if (ps[i].check(r, this) != null) return false;
+    }
+    return true;
   }
 
   /** Whether the record holds the target (a training record). */
