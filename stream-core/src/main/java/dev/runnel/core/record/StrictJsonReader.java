@@ -21,13 +21,23 @@ package dev.runnel.core.record;
  * deep. Jackson's own limits (names 50,000 chars, numbers 1,000 chars, nesting 1,000, strings
  * 20,000,000 chars in 2.21) lie beyond these, so they never reject what this reader accepts.
  * Anything outside the subset (NaN, escaped names, a byte-order mark, a rejection of any kind)
- * goes to Jackson. The decoded values go through the same functions as on the Jackson path
- * ({@link JsonRecordDecoder#parseShortDecimal}, {@link EventTimes}), and a long number through
- * {@link Double#parseDouble}, which Jackson's {@code getDoubleValue} equals for JSON number text
- * (both round correctly; Jackson's default does not enable its fast double parser).
+ * goes to Jackson. Values: a number of at most 18 digits without exponent whose digits form an
+ * integer of at most 2^53 is converted in the pass that scans it (one exact division, the bits of
+ * {@link Double#parseDouble}); any other number goes through {@link JsonRecordDecoder#parseShortDecimal}
+ * or {@link Double#parseDouble}, which Jackson's {@code getDoubleValue} equals for JSON number text
+ * (all round correctly; Jackson's default does not enable its fast double parser). A time of the
+ * fixed shape {@code YYYY-MM-DDTHH:MM:SS[.fraction](Z|±HH:MM)} is read from the bytes with the
+ * checks and arithmetic of {@link EventTimes#parseIso8601}, and the last one's bytes and value are
+ * kept for the next record; other times go through {@link EventTimes}.
  *
- * <p>Measured (demo sample, 140 bytes per line, 2-CPU shared machine, best of 20 rounds): this
- * reader decodes a line in about 245 ns and allocates nothing; a new Jackson parser per line took
+ * <p>Per record the work is one pass: the next field's name is guessed from the order met before
+ * and confirmed by word comparisons (a miss falls back to the scan and the name table); values
+ * are converted as they are scanned.
+ *
+ * <p>Measured (JMH {@code DecodeBenchmark.decode}, demo sample, 140 bytes per line, 2-CPU shared
+ * machine, median of 3 alternating runs): a line in about 125 ns (245 ns before the one-pass
+ * changes), allocating nothing. Tried and not kept, as they measured no better: scanning strings
+ * eight bytes to a word. Earlier: a new Jackson parser per line took
  * about 430 ns and 640 bytes plus one {@code String} per text field. One Jackson non-blocking parser
  * reused across lines ({@code createNonBlockingByteArrayParser}) only tokenized a line in about
  * 400 ns against 450 ns for a new blocking parser, keeps every distinct field name it meets in its
