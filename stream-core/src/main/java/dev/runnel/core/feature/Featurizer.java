@@ -85,6 +85,20 @@ public final class Featurizer {
   private final RecordSchema schema;
   private final boolean constantTerm;
   private final Feature[] features;
+  /**
+   * The features by kind, each in the order of {@link #features}: the per-record loops call
+   * only the features that have work in that phase, and each call site sees one class (or two),
+   * so the calls are direct. Writes go kind by kind with the crosses last: a feature writes only
+   * its own columns, and a cross reads those of its parts, which come before it.
+   */
+  private final OneHot[] oneHots;
+  private final Feature[] scaled;
+  private final Cyclic[] cyclics;
+  private final Numeric[] numerics;
+  private final Polynomial[] polynomials;
+  private final Cross[] crosses;
+  /** The slots every feature reads, which a record must hold (see {@link #plainlyValid}). */
+  private final int[] requiredSlots;
   private final int maxDimension;
   private final int targetSlot;
   private final int eventTimeSlot;
@@ -129,12 +143,28 @@ public final class Featurizer {
       features[i] = f;
       max += f.maxColumns();
     }
+    oneHots = Arrays.stream(features).filter(f -> f instanceof OneHot).toArray(OneHot[]::new);
+    scaled = Arrays.stream(features).filter(f -> f instanceof Numeric || f instanceof Polynomial).toArray(Feature[]::new);
+    cyclics = Arrays.stream(features).filter(f -> f instanceof Cyclic).toArray(Cyclic[]::new);
+    numerics = Arrays.stream(features).filter(f -> f instanceof Numeric).toArray(Numeric[]::new);
+    polynomials = Arrays.stream(features).filter(f -> f instanceof Polynomial).toArray(Polynomial[]::new);
+    crosses = Arrays.stream(features).filter(f -> f instanceof Cross).toArray(Cross[]::new);
+    requiredSlots = Arrays.stream(features).mapToInt(Featurizer::requiredSlot).filter(s -> s >= 0).toArray();
     if (max > Integer.MAX_VALUE - 8) throw new IllegalArgumentException("the layout could grow to " + max + " columns; lower max_levels");
     maxDimension = (int) max;
     columns = new Column[Math.min(maxDimension, 64)];
     if (constantTerm) append(new Column("constant", null));
     for (Feature f : features) f.createFixedColumns(this);
     layoutVersion = 0;
+  }
+
+  /** The slot a feature requires to be present, or -1 when it requires none. */
+  private static int requiredSlot(Feature f) {
+    if (f instanceof OneHot o) return o.slot;
+    if (f instanceof Cyclic c) return c.slot;
+    if (f instanceof Numeric n) return n.slot;
+    if (f instanceof Polynomial p) return p.slot;
+    return -1;
   }
 
   private static Feature find(Feature[] built, int before, String name) {
@@ -258,9 +288,11 @@ public final class Featurizer {
       detail = "field " + schema.name(eventTimeSlot) + " (the event time): missing";
       return RejectReason.MISSING_FIELD;
     }
-    for (Feature f : features) {
-      RejectReason why = f.check(r, this);
-      if (why != null) return why;
+    if (!plainlyValid(r)) {
+      for (Feature f : features) {
+        RejectReason why = f.check(r, this);
+        if (why != null) return why;
+      }
     }
     if (requireTarget) {
       if (!r.present(targetSlot)) {
@@ -273,6 +305,28 @@ public final class Featurizer {
       }
     }
     return null;
+  }
+
+  /**
+   * Whether every feature's check passes, tested without calling each feature: every field a
+   * feature reads is present, each numeric value is in its transform's domain, each polynomial's
+   * highest power is finite. When false, the features' own checks in order find the first problem
+   * and its detail.
+   */
+  private boolean plainlyValid(EventRecord r) {
+    int[] slots = requiredSlots;
+    for (int i = 0; i < slots.length; i++) {
+      if (!r.present(slots[i])) return false;
+    }
+    Numeric[] ns = numerics;
+    for (int i = 0; i < ns.length; i++) {
+      if (!ns[i].scaler.accepts(r.number(ns[i].slot))) return false;
+    }
+    Polynomial[] ps = polynomials;
+    for (int i = 0; i < ps.length; i++) {
+      if (ps[i].check(r, this) != null) return false;
+    }
+    return true;
   }
 
   /** Whether the record holds the target (a training record). */
@@ -295,9 +349,10 @@ public final class Featurizer {
   public void learnAndEncode(EventRecord r, long eventTimeMillis, double[] out) {
     trainingRecords++;
     if (eventTimeMillis > streamTimeMillis) streamTimeMillis = eventTimeMillis;
-    Feature[] fs = features;
-    for (int i = 0; i < fs.length; i++) fs[i].touchAndExpire(r, eventTimeMillis, this);
-    for (int i = 0; i < fs.length; i++) fs[i].admit(r, eventTimeMillis, this);
+    OneHot[] hs = oneHots;
+    for (int i = 0; i < hs.length; i++) hs[i].touchAndExpire(r, eventTimeMillis, this);
+    for (int i = 0; i < hs.length; i++) hs[i].admit(r, eventTimeMillis, this);
+    Feature[] fs = scaled;
     for (int i = 0; i < fs.length; i++) fs[i].learnScalers(r, this);
     write(r, eventTimeMillis, out, true);
   }
@@ -317,8 +372,16 @@ public final class Featurizer {
     int n = dimension;
     for (int i = 0; i < n; i++) out[i] = 0.0;
     if (constantTerm) out[0] = 1.0;
-    Feature[] fs = features;
-    for (int i = 0; i < fs.length; i++) fs[i].write(r, t, out, training);
+    OneHot[] hs = oneHots;
+    for (int i = 0; i < hs.length; i++) hs[i].write(r, t, out, training);
+    Cyclic[] cs = cyclics;
+    for (int i = 0; i < cs.length; i++) cs[i].write(r, t, out, training);
+    Numeric[] ns = numerics;
+    for (int i = 0; i < ns.length; i++) ns[i].write(r, t, out, training);
+    Polynomial[] ps = polynomials;
+    for (int i = 0; i < ps.length; i++) ps[i].write(r, t, out, training);
+    Cross[] xs = crosses;
+    for (int i = 0; i < xs.length; i++) xs[i].write(r, t, out, training);
   }
 
   // ---------------------------------------------------------------- snapshots
@@ -647,6 +710,7 @@ public final class Featurizer {
       this.slot = cfg.field() == null ? -1 : s.slot(cfg.field());
       this.calendar = new LocalCalendar(pc.input().timeZone());
       this.cols = new Column[2 * cfg.harmonics()];
+      this.memo = new double[MEMO * cols.length];
     }
 
     @Override String kind() { return cfg.kind(); }
@@ -673,14 +737,37 @@ public final class Featurizer {
       }
     }
 
+    /**
+     * Remembered encodings: slot {@code e} holds the angle {@code memoAngle[e]} (its bits; valid
+     * when {@code memoFilled[e]}) and its sines and cosines {@code memo[e * cols.length ..]}, in
+     * column order. A stream has few distinct positions in a cycle (24 hours of hourly data, 7
+     * days), so most records find theirs here instead of computing {@code cols.length} sines and
+     * cosines; the values are those the same computation gave, so the row is the same bit for bit.
+     * Direct-mapped by the angle's bits, {@value #MEMO} slots.
+     */
+    private static final int MEMO = 64;
+    private final long[] memoAngle = new long[MEMO];
+    private final boolean[] memoFilled = new boolean[MEMO];
+    private final double[] memo;
+
     @Override void write(EventRecord r, long t, double[] out, boolean training) {
       long time = slot < 0 ? t : r.timeMillis(slot);
       double base = 2.0 * Math.PI * phase(time);
-      for (int k = 1; k <= cfg.harmonics(); k++) {
-        double a = base * k;
-        out[cols[2 * k - 2].index] = Math.sin(a);
-        out[cols[2 * k - 1].index] = Math.cos(a);
+      long bits = Double.doubleToRawLongBits(base);
+      int e = (int) ((bits * 0x9E3779B97F4A7C15L) >>> 58);
+      int w = cols.length;
+      double[] m = memo;
+      if (!memoFilled[e] || memoAngle[e] != bits) {
+        for (int k = 1; k <= w / 2; k++) {
+          double a = base * k;
+          m[e * w + 2 * k - 2] = Math.sin(a);
+          m[e * w + 2 * k - 1] = Math.cos(a);
+        }
+        memoAngle[e] = bits;
+        memoFilled[e] = true;
       }
+      Column[] c = cols;
+      for (int j = 0; j < w; j++) out[c[j].index] = m[e * w + j];
     }
   }
 

@@ -10,7 +10,7 @@ import java.util.concurrent.ThreadLocalRandom;
  *
  * <p>Implementation notes: open addressing with linear probing, at most half full, doubling when
  * needed; removal shifts the following entries back (no tombstones), so lookups stay short after
- * any number of removals. The hash of a key is a multiply-xor mix of its chars and length under a
+ * any number of removals. The hash of a key is a multiply-xor mix of its chars (four to a word) and length under a
  * seed drawn per table: keys chosen to collide under {@code String.hashCode} (e.g. "Aa" and "BB")
  * spread here, and an input cannot be tuned to one table's seed without seeing it. The seed changes
  * only where entries sit in the arrays, never what a lookup returns; callers that need an order
@@ -53,16 +53,27 @@ final class TextKeyTable<V> {
   /** Slots in the arrays (tests: memory stays bounded by the largest size held). */
   int capacity() { return keys.length; }
 
+  /** The hash of a key: its chars taken four at a time as one 64-bit word (a quarter of the multiplies in the chain). */
   int hash(String s) {
     int n = s.length();
     long h = seed ^ n;
-    for (int i = 0; i < n; i++) h = (h ^ s.charAt(i)) * M1;
+    int i = 0;
+    for (; i + 3 < n; i += 4) {
+      h = (h ^ (s.charAt(i) | (long) s.charAt(i + 1) << 16 | (long) s.charAt(i + 2) << 32 | (long) s.charAt(i + 3) << 48)) * M1;
+    }
+    for (; i < n; i++) h = (h ^ s.charAt(i)) * M1;
     return finish(h);
   }
 
+  /** {@link #hash(String)} of the key {@code c[off .. off+len)}. */
   int hash(char[] c, int off, int len) {
     long h = seed ^ len;
-    for (int i = off, end = off + len; i < end; i++) h = (h ^ c[i]) * M1;
+    int i = off;
+    int end = off + len;
+    for (; i + 3 < end; i += 4) {
+      h = (h ^ (c[i] | (long) c[i + 1] << 16 | (long) c[i + 2] << 32 | (long) c[i + 3] << 48)) * M1;
+    }
+    for (; i < end; i++) h = (h ^ c[i]) * M1;
     return finish(h);
   }
 

@@ -28,6 +28,8 @@ public final class EventRecord {
   private final boolean[] present;
   private long eventTimeMillis;
   private boolean hasEventTime;
+  /** Whether some element of {@link #texts} may be non-null (false: all are null, nothing to drop). */
+  private boolean stringsHeld;
 
   /** @param schema the declared fields; decides the number of slots. Not modified. */
   public EventRecord(RecordSchema schema) {
@@ -50,7 +52,10 @@ public final class EventRecord {
   public void clear() {
     Arrays.fill(present, false);
     Arrays.fill(textLengths, -1);
-    Arrays.fill(texts, null);
+    if (stringsHeld) {
+      Arrays.fill(texts, null);
+      stringsHeld = false;
+    }
     hasEventTime = false;
     eventTimeMillis = 0L;
   }
@@ -76,6 +81,7 @@ public final class EventRecord {
       if (n < 0) return null;
       s = new String(textChars[slot], 0, n);
       texts[slot] = s;
+      stringsHeld = true;
     }
     return s;
   }
@@ -106,6 +112,7 @@ public final class EventRecord {
     value.getChars(0, n, b, 0);
     textLengths[slot] = n;
     texts[slot] = value;
+    stringsHeld = true;
     present[slot] = true;
   }
 
@@ -140,7 +147,7 @@ public final class EventRecord {
   /** Marks the first {@code len} chars of the slot's buffer as its text and the slot present. */
   void setTextLength(int slot, int len) {
     textLengths[slot] = len;
-    texts[slot] = null;
+    if (stringsHeld) texts[slot] = null;
     present[slot] = true;
   }
 

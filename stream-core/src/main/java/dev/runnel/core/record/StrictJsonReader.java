@@ -21,13 +21,23 @@ package dev.runnel.core.record;
  * deep. Jackson's own limits (names 50,000 chars, numbers 1,000 chars, nesting 1,000, strings
  * 20,000,000 chars in 2.21) lie beyond these, so they never reject what this reader accepts.
  * Anything outside the subset (NaN, escaped names, a byte-order mark, a rejection of any kind)
- * goes to Jackson. The decoded values go through the same functions as on the Jackson path
- * ({@link JsonRecordDecoder#parseShortDecimal}, {@link EventTimes}), and a long number through
- * {@link Double#parseDouble}, which Jackson's {@code getDoubleValue} equals for JSON number text
- * (both round correctly; Jackson's default does not enable its fast double parser).
+ * goes to Jackson. Values: a number of at most 18 digits without exponent whose digits form an
+ * integer of at most 2^53 is converted in the pass that scans it (one exact division, the bits of
+ * {@link Double#parseDouble}); any other number goes through {@link JsonRecordDecoder#parseShortDecimal}
+ * or {@link Double#parseDouble}, which Jackson's {@code getDoubleValue} equals for JSON number text
+ * (all round correctly; Jackson's default does not enable its fast double parser). A time of the
+ * fixed shape {@code YYYY-MM-DDTHH:MM:SS[.fraction](Z|±HH:MM)} is read from the bytes with the
+ * checks and arithmetic of {@link EventTimes#parseIso8601}, and the last one's bytes and value are
+ * kept for the next record; other times go through {@link EventTimes}.
  *
- * <p>Measured (demo sample, 140 bytes per line, 2-CPU shared machine, best of 20 rounds): this
- * reader decodes a line in about 245 ns and allocates nothing; a new Jackson parser per line took
+ * <p>Per record the work is one pass: the next field's name is guessed from the order met before
+ * and confirmed by word comparisons (a miss falls back to the scan and the name table); values
+ * are converted as they are scanned.
+ *
+ * <p>Measured (JMH {@code DecodeBenchmark.decode}, demo sample, 140 bytes per line, 2-CPU shared
+ * machine, median of 3 alternating runs): a line in about 125 ns (245 ns before the one-pass
+ * changes), allocating nothing. Tried and not kept, as they measured no better: scanning strings
+ * eight bytes to a word. Earlier: a new Jackson parser per line took
  * about 430 ns and 640 bytes plus one {@code String} per text field. One Jackson non-blocking parser
  * reused across lines ({@code createNonBlockingByteArrayParser}) only tokenized a line in about
  * 400 ns against 450 ns for a new blocking parser, keeps every distinct field name it meets in its
@@ -55,6 +65,41 @@ final class StrictJsonReader {
   private final int maxTextLength;
   private final double maxAbsValue;
 
+  /** Per slot its type as a small int ({@link #K_NUMBER} ...), for a cheap switch. */
+  private final byte[] kinds;
+  private static final byte K_NUMBER = 0;
+  private static final byte K_TEXT = 1;
+  private static final byte K_FLAG = 2;
+  private static final byte K_TIME = 3;
+  /** Per slot: whether the TIME slot takes ISO 8601 text (not the epoch event-time field). */
+  private final boolean[] isoTime;
+
+  /**
+   * The declared slot expected next: at index 0 the first field of a record, at index s + 1 the
+   * field after slot s, as met in the last record that had them; -1 when none. Only a guess that
+   * saves the scan of a name: it is confirmed by comparing the bytes, and a wrong guess costs one
+   * comparison before the general lookup. Only names that cannot hold a quote, a backslash or a
+   * control char, and are shorter than {@link #MAX_NAME_BYTES}, are ever guessed, so a confirmed
+   * guess is exactly the name the general scan would find.
+   */
+  private final int[] expected;
+  /** Per slot whether its name may be guessed (see {@link #expected}). */
+  private final boolean[] guessable;
+  /**
+   * Per slot the first and the last 8 bytes of its name as little-endian words (names of 8 bytes
+   * or more), or the first and last 4 (names of 4 to 7 bytes), overlapping when the name is short:
+   * a guessed name is confirmed with two word comparisons.
+   */
+  private final long[] nameHead;
+  private final long[] nameTail;
+  /** Per slot the length of its name in bytes. */
+  private final int[] nameLength;
+
+  private static final java.lang.invoke.VarHandle LONGS =
+      java.lang.invoke.MethodHandles.byteArrayViewVarHandle(long[].class, java.nio.ByteOrder.LITTLE_ENDIAN);
+  private static final java.lang.invoke.VarHandle INTS =
+      java.lang.invoke.MethodHandles.byteArrayViewVarHandle(int[].class, java.nio.ByteOrder.LITTLE_ENDIAN);
+
   /** Open-addressing table of the declared names' UTF-8 bytes: slot + 1, 0 = empty. */
   private final int[] nameTable;
   private final int nameMask;
@@ -76,6 +121,36 @@ final class StrictJsonReader {
     this.maxTextLength = limits.maxTextLength();
     this.maxAbsValue = limits.maxAbsValue();
     this.nameBytes = names;
+    kinds = new byte[n];
+    isoTime = new boolean[n];
+    guessable = new boolean[n];
+    expected = new int[n + 1];
+    nameHead = new long[n];
+    nameTail = new long[n];
+    nameLength = new int[n];
+    for (int s = 0; s < n; s++) {
+      byte[] k = names[s];
+      nameLength[s] = k.length;
+      if (k.length >= 8) {
+        nameHead[s] = (long) LONGS.get(k, 0);
+        nameTail[s] = (long) LONGS.get(k, k.length - 8);
+      } else if (k.length >= 4) {
+        nameHead[s] = (int) INTS.get(k, 0);
+        nameTail[s] = (int) INTS.get(k, k.length - 4);
+      }
+    }
+    java.util.Arrays.fill(expected, -1);
+    for (int s = 0; s < n; s++) {
+      FieldType t = types[s];
+      kinds[s] = t == FieldType.NUMBER ? K_NUMBER : t == FieldType.TEXT ? K_TEXT : t == FieldType.FLAG ? K_FLAG : K_TIME;
+      isoTime[s] = !(s == eventTimeSlot && eventTimeFormat != TimeFormat.ISO8601);
+      boolean plain = names[s].length < MAX_NAME_BYTES;
+      for (byte x : names[s]) {
+        int k = x & 0xff;
+        if (k < 0x20 || k == '"' || k == '\\') plain = false;
+      }
+      guessable[s] = plain;
+    }
     int size = 8;
     while (size < 4 * n) size <<= 1;
     nameTable = new int[size];
@@ -159,41 +234,78 @@ final class StrictJsonReader {
     if (b[i] == '}') {
       i++;
     } else {
+      int[] guesses = expected;
+      int after = 0; // index into guesses: 0 at the start, s + 1 after declared slot s
       while (true) {
         if (b[i] != '"') return false;
-        // the name: plain bytes up to the closing quote
         int start = i + 1;
-        int j = start;
-        int stop = Math.min(end, start + MAX_NAME_BYTES);
-        while (true) {
-          while (j < stop && CLASS[b[j] & 0xff] == PLAIN) j++;
-          if (j >= stop) return false;
-          int k = CLASS[b[j] & 0xff];
-          if (k == QUOTE) break;
-          if (k != WIDE) return false; // a control char, or an escape: Jackson decides
-          j = utf8End(b, j, end);
-          if (j < 0) return false;
+        int slot = guesses[after];
+        int j;
+        if (slot >= 0) {
+          j = start + nameLength[slot];
+          if (j >= end || b[j] != '"' || !sameName(slot, b, start)) slot = -1;
+        } else {
+          j = 0;
         }
-        int slot = slotOf(b, start, j - start);
-        i = skipWs(b, j + 1, end);
-        if (i >= end || b[i] != ':') return false;
-        i = skipWs(b, i + 1, end);
-        if (i >= end) return false;
-        i = slot < 0 ? skipValue(b, i, end, 1) : readValue(b, i, end, slot, out);
+        if (slot < 0) {
+          // the name: plain bytes up to the closing quote
+          j = start;
+          int stop = Math.min(end, start + MAX_NAME_BYTES);
+          while (true) {
+            while (j < stop && CLASS[b[j] & 0xff] == PLAIN) j++;
+            if (j >= stop) return false;
+            int k = CLASS[b[j] & 0xff];
+            if (k == QUOTE) break;
+            if (k != WIDE) return false; // a control char, or an escape: Jackson decides
+            j = utf8End(b, j, end);
+            if (j < 0) return false;
+          }
+          slot = slotOf(b, start, j - start);
+          if (slot >= 0 && guessable[slot]) guesses[after] = slot;
+        }
+        i = j + 1;
+        if (i < end && b[i] == ':') {
+          i++;
+        } else {
+          i = skipWs(b, i, end);
+          if (i >= end || b[i] != ':') return false;
+          i++;
+        }
+        if (i < end && b[i] > ' ') {
+          // the common case: no whitespace before the value
+        } else {
+          i = skipWs(b, i, end);
+          if (i >= end) return false;
+        }
+        if (slot < 0) {
+          i = skipValue(b, i, end, 1);
+        } else {
+          i = readValue(b, i, end, slot, out);
+          after = slot + 1;
+        }
         if (i < 0) return false;
-        i = skipWs(b, i, end);
         if (i >= end) return false;
         int c = b[i];
+        if (c != ',' && c != '}') {
+          i = skipWs(b, i, end);
+          if (i >= end) return false;
+          c = b[i];
+        }
         if (c == '}') {
           i++;
           break;
         }
         if (c != ',') return false;
-        i = skipWs(b, i + 1, end);
-        if (i >= end) return false;
+        i++;
+        if (i < end && b[i] == '"') {
+          // the common case: the next name follows at once
+        } else {
+          i = skipWs(b, i, end);
+          if (i >= end) return false;
+        }
       }
     }
-    return skipWs(b, i, end) == end;
+    return i == end || skipWs(b, i, end) == end;
   }
 
   private int slotOf(byte[] b, int at, int n) {
@@ -206,6 +318,22 @@ final class StrictJsonReader {
       if (name.length == n && sameBytes(name, b, at, n)) return e - 1;
       k = (k + 1) & nameMask;
     }
+  }
+
+  /**
+   * Whether {@code b[at .. at+n)} holds the name of {@code slot} ({@code n} its length), the
+   * caller having checked that those bytes lie within the record.
+   */
+  private boolean sameName(int slot, byte[] b, int at) {
+    int n = nameLength[slot];
+    if (n >= 8) {
+      return (long) LONGS.get(b, at) == nameHead[slot] && (long) LONGS.get(b, at + n - 8) == nameTail[slot]
+          && (n <= 16 || sameBytes(nameBytes[slot], b, at, n));
+    }
+    if (n >= 4) {
+      return (int) INTS.get(b, at) == (int) nameHead[slot] && (int) INTS.get(b, at + n - 4) == (int) nameTail[slot];
+    }
+    return sameBytes(nameBytes[slot], b, at, n);
   }
 
   private static boolean sameBytes(byte[] name, byte[] b, int at, int n) {
@@ -233,13 +361,22 @@ final class StrictJsonReader {
       if (i >= 0) out.setAbsent(slot);
       return i;
     }
-    switch (types[slot]) {
-      case NUMBER: {
+    switch (kinds[slot]) {
+      case K_NUMBER: {
         if (c != '-' && (c < '0' || c > '9')) return FAIL;
-        int e = numberEnd(b, i, end);
-        if (e < 0) return FAIL;
-        double v = numberValue(b, i, e);
-        if (Double.isNaN(v) || Double.isInfinite(v) || Math.abs(v) > maxAbsValue) return FAIL;
+        int e = readDecimal(b, i, end);
+        double v;
+        if (e >= 0) {
+          // finite; and |v| <= m (a division by 10^k >= 1, correctly rounded), so the check of the
+          // magnitude waits for the division only when m itself exceeds the limit
+          v = decimal;
+          if (decimalDigits > maxAbsValue && Math.abs(v) > maxAbsValue) return FAIL;
+        } else {
+          e = numberEnd(b, i, end);
+          if (e < 0) return FAIL;
+          v = numberValue(b, i, e);
+          if (Double.isNaN(v) || Double.isInfinite(v) || Math.abs(v) > maxAbsValue) return FAIL;
+        }
         out.setNumber(slot, v);
         if (slot == eventTimeSlot) {
           long ms = EventTimes.fromEpochNumber(v, eventTimeFormat);
@@ -248,7 +385,7 @@ final class StrictJsonReader {
         }
         return e;
       }
-      case TEXT: {
+      case K_TEXT: {
         if (c != '"') return FAIL;
         // the slot's buffer grows with the texts met (doubling; the string is read again), not
         // with the record's size: the text has at most min(limit, bytes left) chars
@@ -265,7 +402,7 @@ final class StrictJsonReader {
         out.setTextLength(slot, stringLength);
         return e;
       }
-      case FLAG: {
+      case K_FLAG: {
         if (c == 't') {
           i = literal(b, i, end, TRUE);
           if (i >= 0) out.setFlag(slot, true);
@@ -278,15 +415,20 @@ final class StrictJsonReader {
         }
         return FAIL;
       }
-      case TIME: default: {
-        boolean epoch = slot == eventTimeSlot && eventTimeFormat != TimeFormat.ISO8601;
+      default: {
+        boolean epoch = !isoTime[slot];
         long ms;
         int e;
         if (c == '"') {
-          e = readString(b, i + 1, end, scratch, JsonRecordDecoder.MAX_TIME_CHARS);
-          if (e < 0) return FAIL;
-          int n = stringLength;
-          ms = epoch ? EventTimes.fromEpochText(scratch, 0, n, eventTimeFormat) : EventTimes.parseIso8601(scratch, 0, n);
+          ms = epoch ? EventTimes.INVALID : isoFromBytes(b, i + 1, end);
+          if (ms != EventTimes.INVALID) {
+            e = isoEnd;
+          } else {
+            e = readString(b, i + 1, end, scratch, JsonRecordDecoder.MAX_TIME_CHARS);
+            if (e < 0) return FAIL;
+            int n = stringLength;
+            ms = epoch ? EventTimes.fromEpochText(scratch, 0, n, eventTimeFormat) : EventTimes.parseIso8601(scratch, 0, n);
+          }
         } else if (epoch && (c == '-' || (c >= '0' && c <= '9'))) {
           e = numberEnd(b, i, end);
           if (e < 0) return FAIL;
@@ -302,6 +444,202 @@ final class StrictJsonReader {
         return e;
       }
     }
+  }
+
+  /** The value read by the last successful {@link #readDecimal}, and its digits m as an integer (at most 2^53). */
+  private double decimal;
+  private long decimalDigits;
+  /** The position after the closing quote of the last time read by {@link #isoFromBytes}. */
+  private int isoEnd;
+
+  private static final double[] POW10 = {
+    1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
+    1e17, 1e18, 1e19, 1e20, 1e21, 1e22,
+  };
+
+  /**
+   * Scans and converts in one pass a short JSON number {@code -?(0|[1-9][0-9]*)(\.[0-9]+)?} at
+   * {@code i} with at most 18 digits whose digits form an integer m of at most 2^53 and with at
+   * most 22 digits after the point: leaves its value in {@link #decimal} and returns its end; FAIL
+   * for anything else (an exponent, more digits, a grammar error), which the caller then reads the
+   * general way. Exact: m and 10^k (k ≤ 22) are exact in binary, so the one division, correctly
+   * rounded, gives the correctly rounded value, the same bits as {@link Double#parseDouble}
+   * (Clinger's fast path, common practice). What follows the number is checked by the caller.
+   */
+  private int readDecimal(byte[] b, int i, int end) {
+    boolean negative = false;
+    if (b[i] == '-') {
+      negative = true;
+      i++;
+      if (i >= end) return FAIL;
+    }
+    int d = b[i] - '0';
+    if (d < 0 || d > 9) return FAIL;
+    long m = d;
+    int first = i;
+    i++;
+    if (d != 0) {
+      while (i < end) {
+        d = b[i] - '0';
+        if (d < 0 || d > 9) break;
+        m = 10 * m + d;
+        i++;
+      }
+    }
+    int digits = i - first;
+    int scale = 0;
+    if (i < end && b[i] == '.') {
+      i++;
+      int f = i;
+      while (i < end) {
+        d = b[i] - '0';
+        if (d < 0 || d > 9) break;
+        m = 10 * m + d;
+        i++;
+      }
+      scale = i - f;
+      if (scale == 0) return FAIL;
+      digits += scale;
+    }
+    if (digits > 18 || scale > 22 || m > (1L << 53)) return FAIL;
+    if (i < end && (b[i] | 0x20) == 'e') return FAIL;
+    double v = (double) m;
+    if (scale > 0) v /= POW10[scale];
+    decimal = negative ? -v : v;
+    decimalDigits = m;
+    return i;
+  }
+
+  /**
+   * The epoch millis of a JSON string at {@code p} (after its opening quote) that is exactly
+   * {@code YYYY-MM-DDTHH:MM:SS[.fraction](Z|+HH:MM|-HH:MM)} in plain bytes followed by the
+   * closing quote, with every field in range (the shape {@link EventTimes#parseIso8601} reads
+   * without {@code java.time}, and the same value); sets {@link #isoEnd}. {@link EventTimes#INVALID}
+   * for any other string, which the caller then reads the general way.
+   */
+  private long isoFromBytes(byte[] b, int p, int end) {
+    int seen = lastIsoLength;
+    if (seen > 0 && end - p >= seen && sameAsLastIso(b, p, seen)) {
+      isoEnd = p + seen;
+      return lastIsoMillis;
+    }
+    long ms = parseIsoBytes(b, p, end);
+    if (ms != EventTimes.INVALID) {
+      int n = isoEnd - p;
+      if (n <= lastIso.length) {
+        System.arraycopy(b, p, lastIso, 0, n);
+        lastIsoLength = n;
+        lastIsoMillis = ms;
+      }
+    }
+    return ms;
+  }
+
+  /**
+   * The bytes (the text and its closing quote) of the last time {@link #parseIsoBytes} accepted,
+   * and its value: records often come in runs that share a time, whose text is then compared in
+   * words instead of parsed. The value depends on those bytes only.
+   */
+  private final byte[] lastIso = new byte[40];
+  private int lastIsoLength;
+  private long lastIsoMillis;
+
+  private boolean sameAsLastIso(byte[] b, int p, int n) {
+    byte[] last = lastIso;
+    for (int k = 0; k < n - 8; k += 8) {
+      if ((long) LONGS.get(b, p + k) != (long) LONGS.get(last, k)) return false;
+    }
+    return (long) LONGS.get(b, p + n - 8) == (long) LONGS.get(last, n - 8);
+  }
+
+  /** {@link #isoFromBytes} without the memory of the last time. */
+  private long parseIsoBytes(byte[] b, int p, int end) {
+    if (end - p < 21) return EventTimes.INVALID;
+    if (b[p + 4] != '-' || b[p + 7] != '-' || (b[p + 10] | 0x20) != 't' || b[p + 13] != ':' || b[p + 16] != ':') {
+      return EventTimes.INVALID;
+    }
+    int y0 = b[p] - '0';
+    int y1 = b[p + 1] - '0';
+    int y2 = b[p + 2] - '0';
+    int y3 = b[p + 3] - '0';
+    int mo0 = b[p + 5] - '0';
+    int mo1 = b[p + 6] - '0';
+    int d0 = b[p + 8] - '0';
+    int d1 = b[p + 9] - '0';
+    int h0 = b[p + 11] - '0';
+    int h1 = b[p + 12] - '0';
+    int mi0 = b[p + 14] - '0';
+    int mi1 = b[p + 15] - '0';
+    int s0 = b[p + 17] - '0';
+    int s1 = b[p + 18] - '0';
+    // one test for "all are digits": each is in 0..9 exactly when no value has a bit above 0..15
+    // set and none exceeds 9
+    if (((y0 | y1 | y2 | y3 | mo0 | mo1 | d0 | d1 | h0 | h1 | mi0 | mi1 | s0 | s1) & ~0xF) != 0) return EventTimes.INVALID;
+    if (y0 > 9 || y1 > 9 || y2 > 9 || y3 > 9 || mo0 > 9 || mo1 > 9 || d0 > 9 || d1 > 9 || h0 > 9 || h1 > 9
+        || mi0 > 9 || mi1 > 9 || s0 > 9 || s1 > 9) return EventTimes.INVALID;
+    int year = ((y0 * 10 + y1) * 10 + y2) * 10 + y3;
+    int month = mo0 * 10 + mo1;
+    int day = d0 * 10 + d1;
+    int hour = h0 * 10 + h1;
+    int minute = mi0 * 10 + mi1;
+    int second = s0 * 10 + s1;
+    if (month < 1 || month > 12 || day < 1 || hour > 23 || minute > 59 || second > 59) return EventTimes.INVALID;
+    if (day > 28 && day > EventTimes.daysInMonth(year, month)) return EventTimes.INVALID;
+    int i = p + 19;
+    int millis = 0;
+    int z = b[i];
+    if (z == '.' || z == ',') {
+      i++;
+      int start = i;
+      while (i < end) {
+        int d = b[i] - '0';
+        if (d < 0 || d > 9) break;
+        if (i - start < 3) millis = millis * 10 + d;
+        i++;
+      }
+      int count = i - start;
+      if (count == 0 || count > 9) return EventTimes.INVALID;
+      for (int k = count; k < 3; k++) millis *= 10;
+      if (i >= end) return EventTimes.INVALID;
+      z = b[i];
+    }
+    int offsetSeconds;
+    if (z == 'Z' || z == 'z') {
+      if (i + 1 >= end || b[i + 1] != '"') return EventTimes.INVALID;
+      isoEnd = i + 2;
+      offsetSeconds = 0;
+    } else if (z == '+' || z == '-') {
+      if (end - i < 7 || b[i + 3] != ':' || b[i + 6] != '"') return EventTimes.INVALID;
+      int oh0 = b[i + 1] - '0';
+      int oh1 = b[i + 2] - '0';
+      int om0 = b[i + 4] - '0';
+      int om1 = b[i + 5] - '0';
+      if (((oh0 | oh1 | om0 | om1) & ~0xF) != 0 || oh0 > 9 || oh1 > 9 || om0 > 9 || om1 > 9) return EventTimes.INVALID;
+      int oh = oh0 * 10 + oh1;
+      int om = om0 * 10 + om1;
+      if (oh > 18 || om > 59 || (oh == 18 && om != 0)) return EventTimes.INVALID;
+      offsetSeconds = (oh * 3600 + om * 60) * (z == '-' ? -1 : 1);
+      isoEnd = i + 7;
+    } else {
+      return EventTimes.INVALID;
+    }
+    long days = daysOf(year, month, day);
+    long secs = days * 86_400L + hour * 3600L + minute * 60L + second - offsetSeconds;
+    return secs * 1000L + millis;
+  }
+
+  /** The last date converted by {@link #daysOf} (year * 512 + month * 32 + day; -1 = none) and its epoch day. */
+  private int lastDate = -1;
+  private long lastDays;
+
+  /** {@link EventTimes#daysFromCivil} of a checked date, remembering the last one (records come in runs of one date). */
+  private long daysOf(int year, int month, int day) {
+    int key = (year << 9) | (month << 5) | day;
+    if (key != lastDate) {
+      lastDays = EventTimes.daysFromCivil(year, month, day);
+      lastDate = key;
+    }
+    return lastDays;
   }
 
   private boolean acceptedTime(long ms) {

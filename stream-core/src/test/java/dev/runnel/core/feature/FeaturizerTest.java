@@ -235,6 +235,36 @@ class FeaturizerTest {
     assertEquals("field at (the event time): missing", f.lastDetail());
   }
 
+  @Test void check_withSeveralProblems_reportsTheFirstFeatureInDeclarationOrder() {
+    Featurizer f = new Featurizer(TestConfigs.parse("name: t\n"
+        + "input:\n  fields: {y: number, hub: text, price: number, temp: number}\n"
+        + "target: y\n"
+        + "features:\n"
+        + "  - {kind: numeric, field: price, transform: log1p}\n"
+        + "  - {kind: onehot, field: hub}\n"
+        + "  - {kind: polynomial, field: temp, degree: 3}\n"));
+    RecordSchema s = f.config().input().schema();
+    EventRecord r = new EventRecord(s);
+    // price (declared first) out of its domain, hub missing, temp^3 not finite: price is reported
+    r.setNumber(s.slot("price"), -2.0);
+    r.setNumber(s.slot("temp"), 1e200);
+    assertEquals(RejectReason.OUT_OF_RANGE, f.check(r));
+    assertEquals("field price: -2.0 is outside the transform's domain (log1p needs a value above -1)", f.lastDetail());
+    // price fine: the missing hub comes before the polynomial
+    r.setNumber(s.slot("price"), 0.5);
+    assertEquals(RejectReason.MISSING_FIELD, f.check(r));
+    assertEquals("field hub: missing", f.lastDetail());
+    r.setText(s.slot("hub"), "H1");
+    assertEquals(RejectReason.OUT_OF_RANGE, f.check(r));
+    assertEquals("field temp: 1.0E200^3 is not finite", f.lastDetail());
+    r.setNumber(s.slot("temp"), 20.0);
+    assertNull(f.check(r));
+    assertEquals("", f.lastDetail());
+    r.setAbsent(s.slot("temp"));
+    assertEquals(RejectReason.MISSING_FIELD, f.check(r));
+    assertEquals("field temp: missing", f.lastDetail());
+  }
+
   @Test void snapshots_listVocabulariesAndScalers() {
     Featurizer f = fresh();
     RecordSchema s = f.config().input().schema();
