@@ -4,47 +4,19 @@ import static org.junit.jupiter.api.Assertions.assertArrayEquals;
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
-import java.io.ByteArrayOutputStream;
-import java.io.PrintStream;
-import java.io.PrintWriter;
-import java.io.StringWriter;
-import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import org.junit.jupiter.api.Test;
 import org.junit.jupiter.api.io.TempDir;
-import picocli.CommandLine;
 
 /** {@code runnel backtest --threads}: same report files whatever the count; bad counts named; documented in --help. */
 class BacktestThreadsCliTest {
 
   private static final String SAMPLE = "../demo-data/samples/quillmarsh-small.jsonl";
 
-  private static String[] run(String... args) {
-    StringWriter err = new StringWriter();
-    StringWriter help = new StringWriter();
-    PrintStream oldOut = System.out;
-    PrintStream oldErr = System.err;
-    ByteArrayOutputStream out = new ByteArrayOutputStream();
-    int code;
-    try {
-      System.setOut(new PrintStream(out, true, StandardCharsets.UTF_8));
-      System.setErr(new PrintStream(new ByteArrayOutputStream(), true, StandardCharsets.UTF_8));
-      // picocli's default execution strategy keeps the System streams it was made with and replaces
-      // the writers below if they differ at execution time: make the command line after swapping them
-      CommandLine cl = Main.commandLine();
-      cl.setErr(new PrintWriter(err, true));
-      cl.setOut(new PrintWriter(help, true));
-      code = cl.execute(args);
-    } finally {
-      System.setOut(oldOut);
-      System.setErr(oldErr);
-    }
-    return new String[] {String.valueOf(code), err.toString(), out.toString(StandardCharsets.UTF_8) + help};
-  }
 
   private static String[] backtest(Path out, String threads) {
-    return run("backtest", "--source", SAMPLE, "--config", "../docs/examples/with-weather.yaml",
+    return CliCapture.run("backtest", "--source", SAMPLE, "--config", "../docs/examples/with-weather.yaml",
         "--config", "../docs/examples/no-weather.yaml", "--segment-by", "weather", "--weights", "price_per_kwh,temperature_c",
         "--out", out.toString(), "--quiet", "--threads", threads);
   }
@@ -79,12 +51,12 @@ class BacktestThreadsCliTest {
 
   @Test
   void helpDocumentsTheOption() {
-    String[] r = run("backtest", "--help");
+    String[] r = CliCapture.run("backtest", "--help");
     assertEquals("0", r[0]);
     assertTrue(r[2].contains("--threads=N"), r[2]);
-    String rec = run("record", "--help")[2];
+    String rec = CliCapture.run("record", "--help")[2];
     assertTrue(rec.contains("--config=FILE") && rec.contains("kafka.client_properties") && rec.contains("${ENV}"), rec);
-    String load = run("load", "--help")[2];
+    String load = CliCapture.run("load", "--help")[2];
     assertTrue(load.contains("--config=FILE") && load.contains("${ENV}"), load);
   }
 }

@@ -5,19 +5,13 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import dev.runnel.connect.broker.EmbeddedBroker;
 import dev.runnel.connect.testing.EmbeddedKafkaExtension;
-import java.io.ByteArrayOutputStream;
 import java.io.IOException;
-import java.io.PrintStream;
-import java.io.PrintWriter;
-import java.io.StringWriter;
-import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import java.util.List;
 import org.junit.jupiter.api.Test;
 import org.junit.jupiter.api.extension.ExtendWith;
 import org.junit.jupiter.api.io.TempDir;
-import picocli.CommandLine;
 
 /**
  * {@code record} and {@code load} take {@code kafka.client_properties} (and the bootstrap servers) from
@@ -41,27 +35,6 @@ class RecordLoadClientPropertiesTest {
     return p;
   }
 
-  /** Runs one verb; returns exit code, error text, standard output (captured: tests are quiet). */
-  private static String[] run(String... args) {
-    StringWriter err = new StringWriter();
-    PrintStream oldOut = System.out;
-    PrintStream oldErr = System.err;
-    ByteArrayOutputStream out = new ByteArrayOutputStream();
-    int code;
-    try {
-      System.setOut(new PrintStream(out, true, StandardCharsets.UTF_8));
-      System.setErr(new PrintStream(new ByteArrayOutputStream(), true, StandardCharsets.UTF_8));
-      // picocli's default execution strategy keeps the System streams it was made with and replaces
-      // the writers below if they differ at execution time: make the command line after swapping them
-      CommandLine cl = Main.commandLine();
-      cl.setErr(new PrintWriter(err, true));
-      code = cl.execute(args);
-    } finally {
-      System.setOut(oldOut);
-      System.setErr(oldErr);
-    }
-    return new String[] {String.valueOf(code), err.toString(), out.toString(StandardCharsets.UTF_8)};
-  }
 
   private static Path sampleCopy(Path dir, int lines) throws IOException {
     List<String> all = Files.readAllLines(Path.of("../demo-data/samples/quillmarsh-small.jsonl"));
@@ -73,7 +46,7 @@ class RecordLoadClientPropertiesTest {
   @Test
   void record_passesTheConfigsClientPropertiesToItsConsumer(@TempDir Path dir) throws IOException {
     Path cfg = config(dir, "bad-protocol.yaml", "127.0.0.1:1", "{security.protocol: NOT_A_PROTOCOL}");
-    String[] r = run("record", "--config", cfg.toString(), "--topic", "t", "--out", dir.resolve("o.jsonl").toString(), "--quiet");
+    String[] r = CliCapture.run("record", "--config", cfg.toString(), "--topic", "t", "--out", dir.resolve("o.jsonl").toString(), "--quiet");
     assertEquals("2", r[0], r[1]);
     assertTrue(r[1].startsWith("runnel record: ") && r[1].contains("NOT_A_PROTOCOL") && r[1].contains("security.protocol"), r[1]);
   }
@@ -82,10 +55,10 @@ class RecordLoadClientPropertiesTest {
   void bothVerbs_resolveEnvironmentReferences_andNameTheKeyOfAMissingOne(@TempDir Path dir) throws IOException {
     Path cfg = config(dir, "env.yaml", "127.0.0.1:1", "{sasl.jaas.config: \"${" + UNSET + "}\"}");
     String expected = "client property sasl.jaas.config refers to environment variable " + UNSET + ", which is not set";
-    String[] rec = run("record", "--config", cfg.toString(), "--topic", "t", "--out", dir.resolve("o.jsonl").toString(), "--quiet");
+    String[] rec = CliCapture.run("record", "--config", cfg.toString(), "--topic", "t", "--out", dir.resolve("o.jsonl").toString(), "--quiet");
     assertEquals("2", rec[0]);
     assertEquals("runnel record: " + expected, rec[1].trim());
-    String[] load = run("load", "--config", cfg.toString(), "--source", sampleCopy(dir, 10).toString(), "--topic", "t");
+    String[] load = CliCapture.run("load", "--config", cfg.toString(), "--source", sampleCopy(dir, 10).toString(), "--topic", "t");
     assertEquals("2", load[0]);
     assertEquals("runnel load: " + expected, load[1].trim());
   }
@@ -95,12 +68,12 @@ class RecordLoadClientPropertiesTest {
     String bs = broker.bootstrapServers();
     Path file = sampleCopy(dir, 20);
     Path badAdmin = config(dir, "bad-admin.yaml", bs, "{admin.security.protocol: BOGUS_ADMIN}");
-    String[] a = run("load", "--config", badAdmin.toString(), "--source", file.toString(), "--topic", "props-admin");
+    String[] a = CliCapture.run("load", "--config", badAdmin.toString(), "--source", file.toString(), "--topic", "props-admin");
     assertEquals("2", a[0], a[1]);
     assertTrue(a[1].contains("BOGUS_ADMIN"), a[1]);
     // the servers come from the configuration: the admin client reaches the broker, the producer gets its own key
     Path badProducer = config(dir, "bad-producer.yaml", bs, "{producer.security.protocol: BOGUS_PRODUCER}");
-    String[] p = run("load", "--config", badProducer.toString(), "--source", file.toString(), "--topic", "props-producer");
+    String[] p = CliCapture.run("load", "--config", badProducer.toString(), "--source", file.toString(), "--topic", "props-producer");
     assertEquals("2", p[0], p[1]);
     assertTrue(p[1].contains("BOGUS_PRODUCER"), p[1]);
   }
@@ -110,11 +83,11 @@ class RecordLoadClientPropertiesTest {
     Path cfg = config(dir, "ok.yaml", broker.bootstrapServers(),
         "{request.timeout.ms: 20000, producer.linger.ms: 5, consumer.fetch.min.bytes: 1}");
     Path file = sampleCopy(dir, 300);
-    String[] load = run("load", "--config", cfg.toString(), "--source", file.toString(), "--topic", "props-roundtrip");
+    String[] load = CliCapture.run("load", "--config", cfg.toString(), "--source", file.toString(), "--topic", "props-roundtrip");
     assertEquals("0", load[0], load[1]);
     assertTrue(load[2].startsWith("published 300 records"), load[2]);
     Path out = dir.resolve("rec.jsonl");
-    String[] rec = run("record", "--config", cfg.toString(), "--topic", "props-roundtrip", "--out", out.toString(), "--quiet");
+    String[] rec = CliCapture.run("record", "--config", cfg.toString(), "--topic", "props-roundtrip", "--out", out.toString(), "--quiet");
     assertEquals("0", rec[0], rec[1]);
     assertEquals(301, Files.readAllLines(out).size(), "a header line and the 300 records");
   }
