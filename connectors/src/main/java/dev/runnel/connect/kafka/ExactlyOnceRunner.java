@@ -469,22 +469,13 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
           slots.size());
     }
     if (txOpen) {
-      try {
-        while (true) {
-          try {
-            producer.abortTransaction();
-            break;
-          } catch (TimeoutException e) {
-            LOG.warn("broker at {} not reachable; retrying the abort in {} s", settings.bootstrapServers(), BACKOFF_MS / 1000);
-            sleep(BACKOFF_MS);
-          }
-        }
-      } catch (KafkaException e) {
-        Throwable fatal = fatalCause(e);
-        if (fatal != null && !recoverableFence(fatal)) throw new FatalException(fatalMessage(fatal), e);
-        LOG.warn("runner {}: the producer cannot abort ({}); starting a new producer", settings.name(), e.toString());
-        recreateProducer();
-      }
+      // A new producer, not abortTransaction(): its initTransactions() returns only once the
+      // coordinator has settled the interrupted transaction (aborted it, or finished a commit it had
+      // already decided), so the committed offsets asked for below are the final ones. With an
+      // abort on the old producer, the offset check could run while a commit decided before a
+      // broker crash was still being completed, and the runner rewound behind it (a batch written
+      // twice, seen in BrokerRestartTest).
+      recreateProducer();
     } else if (cause instanceof InvalidProducerEpochException || fatalCause(cause) instanceof ProducerFencedException) {
       recreateProducer();
     }
