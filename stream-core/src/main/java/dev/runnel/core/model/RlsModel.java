@@ -127,6 +127,8 @@ public final class RlsModel implements LayoutListener {
   /** {@code R^-1} of the current factor (row-major p x p), or null; see {@link #inverseFactor}. */
   private double[] inverse;
   private double[] work;
+  /** The scalars {@link #dataRows} carries in and out. */
+  private final double[] passAcc = new double[5];
   private double[] work2;
   /** The windup guard's refresh row during an update. */
   private double[] work3;
@@ -145,6 +147,14 @@ public final class RlsModel implements LayoutListener {
    * exact power of two when it falls below {@link #MIN_SCALE}.
    */
   private double scale = 1.0;
+
+  /**
+   * The last forgetting factor {@link #update} was given, with its square root and logarithm
+   * ({@code StrictMath.log} is a native call): a cache, not state.
+   */
+  private double lastLambda = 1.0;
+  private double lastSqrtLambda = 1.0;
+  private double lastLogLambda = 0.0;
 
   private double rho2;
   private double nEff;
@@ -490,11 +500,16 @@ public final class RlsModel implements LayoutListener {
     }
     applyRebases();
     final int n = p;
-    final double sl = lambda == 1.0 ? 1.0 : Math.sqrt(lambda);
+    if (lambda != lastLambda) { // sqrt and log of the forgetting factor, kept while it stays the same
+      lastLambda = lambda;
+      lastSqrtLambda = lambda == 1.0 ? 1.0 : Math.sqrt(lambda);
+      lastLogLambda = lambda == 1.0 ? 0.0 : StrictMath.log(lambda);
+    }
+    final double sl = lastSqrtLambda;
     // forgetting: the true factor becomes sl * scale * r; rows enter in stored units (divided by it)
     final double scaleNext = scale * sl;
     final double toStored = 1.0 / scaleNext;
-    final double logDecayNext = logDecay + (lambda == 1.0 ? 0.0 : StrictMath.log(lambda));
+    final double logDecayNext = logDecay + lastLogLambda;
 
     // The windup guard's refresh row sqrt(add) e_j is decided before the pass (it depends on the
     // bookkeeping only) and rotated in the same pass as the data row: at row i the data rotation
@@ -556,12 +571,27 @@ public final class RlsModel implements LayoutListener {
     double g = 1.0; // product of the data rotations' cos^2
     double q = 0.0; // 1 - g, accumulated without cancellation
     double zMax = 0.0; // largest |z| of the new state, to refuse a non-finite one
-    for (int i = start; i < n; i++) {
+    double pivotMax = 0.0; // largest rotated pivot, likewise (the others are as they were)
+    if (start < rc) { // rows before the refresh row: the data row alone, in a method of its own
+      final double[] acc = passAcc;
+      acc[0] = yw;
+      acc[1] = g;
+      acc[2] = q;
+      acc[3] = zMax;
+      acc[4] = pivotMax;
+      dataRows(rm, rs, changed, w, zm, zn, start, Math.min(rc, n), n, acc);
+      yw = acc[0];
+      g = acc[1];
+      q = acc[2];
+      zMax = acc[3];
+      pivotMax = acc[4];
+    }
+    for (int i = rc; i < n; i++) {
       final double[] a = rm[i];
       final double[] b = rs[i];
       final double xi = w[i];
       final double zi = zm[i];
-      final double vi = i >= rc ? v[i] : 0.0;
+      final double vi = v[i]; // i >= rc
       if (xi == 0.0 && vi == 0.0) {
         changed[i] = false; // nothing meets row i: it stays where it is
         zn[i] = zi;
@@ -593,6 +623,7 @@ public final class RlsModel implements LayoutListener {
       }
       if (vi == 0.0) {
         b[i] = d;
+        pivotMax = Math.max(pivotMax, d);
         rotate(a, b, w, i + 1, n, cs, sn);
         zn[i] = zi1;
         zMax = Math.max(zMax, Math.abs(zi1));
@@ -606,6 +637,7 @@ public final class RlsModel implements LayoutListener {
       final double cv = d / h2;
       final double sv = vi / h2;
       b[i] = h2;
+      pivotMax = Math.max(pivotMax, h2);
       if (xi == 0.0) {
         rotate(a, b, v, i + 1, n, cv, sv);
       } else {
@@ -622,13 +654,17 @@ public final class RlsModel implements LayoutListener {
       final double e = yv * scaleNext;
       rho2n += e * e;
     }
-    // pivots of the new state: rotated rows in the spare rows, the others where they are
-    double maxDiag = 0.0;
+    // In diffuse mode readiness needs every pivot of the new state (rotated rows in the spare
+    // rows, the others where they are); with a prior the model is always ready and only the
+    // rotated pivots need a check (a profile put the full loop at a quarter of an update, p = 64).
+    double maxDiag = pivotMax;
     double minDiag = Double.POSITIVE_INFINITY;
-    for (int i = 0; i < n; i++) {
-      final double d = i >= start && changed[i] ? rs[i][i] : rm[i][i];
-      maxDiag = Math.max(maxDiag, d);
-      minDiag = Math.min(minDiag, d);
+    if (settings.diffuse()) {
+      for (int i = 0; i < n; i++) {
+        final double d = i >= start && changed[i] ? rs[i][i] : rm[i][i];
+        maxDiag = Math.max(maxDiag, d);
+        minDiag = Math.min(minDiag, d);
+      }
     }
     if (!(maxDiag < Double.POSITIVE_INFINITY) || !(zMax < Double.POSITIVE_INFINITY)
         || !(rho2n < Double.POSITIVE_INFINITY)) {
@@ -680,6 +716,54 @@ public final class RlsModel implements LayoutListener {
   }
 
   /**
+   * The data row's rotations of rows {@code [from, to)}, the rows before the refresh row (all of
+   * them without the guard): the expressions of {@link #update}'s combined loop without the
+   * refresh's tests, so the bits are the same. {@code acc} carries {@code yw, g, q, zMax} and the
+   * largest new pivot in and out.
+   */
+  private static void dataRows(double[][] rm, double[][] rs, boolean[] changed, double[] w, double[] zm,
+      double[] zn, int from, int to, int n, double[] acc) {
+    double yw = acc[0];
+    double g = acc[1];
+    double q = acc[2];
+    double zMax = acc[3];
+    double pivotMax = acc[4];
+    for (int i = from; i < to; i++) {
+      final double[] a = rm[i];
+      final double xi = w[i];
+      final double zi = zm[i];
+      if (xi == 0.0) {
+        changed[i] = false; // nothing meets row i: it stays where it is
+        zn[i] = zi;
+        continue;
+      }
+      changed[i] = true;
+      final double[] b = rs[i];
+      final double ai = a[i];
+      double h = Math.sqrt(ai * ai + xi * xi);
+      if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
+        h = StrictMath.hypot(ai, xi); // squares under- or overflowed: rare path
+      }
+      final double cs = ai / h;
+      final double sn = xi / h;
+      q += g * (sn * sn);
+      g *= cs * cs;
+      final double zi1 = cs * zi + sn * yw;
+      yw = cs * yw - sn * zi;
+      b[i] = h;
+      rotate(a, b, w, i + 1, n, cs, sn);
+      zn[i] = zi1;
+      zMax = Math.max(zMax, Math.abs(zi1));
+      pivotMax = Math.max(pivotMax, h);
+    }
+    acc[0] = yw;
+    acc[1] = g;
+    acc[2] = q;
+    acc[3] = zMax;
+    acc[4] = pivotMax;
+  }
+
+  /**
    * One Givens rotation of a factor row with a vector over {@code [from, to)}:
    * {@code b = cs a + sn w}, {@code w = cs w - sn a}. Every array is indexed alike, the pattern
    * the JIT vectorizes.
@@ -708,11 +792,12 @@ public final class RlsModel implements LayoutListener {
   }
 
   private boolean acceptable(double[] x, double y) {
-    double m = Math.abs(y);
+    // one test per entry (false for NaN), not a running maximum: no chain from entry to entry
+    boolean ok = Math.abs(y) <= MAX_ABS_INPUT;
     for (int j = 0; j < p; j++) {
-      m = Math.max(m, Math.abs(x[j])); // NaN propagates
+      ok &= Math.abs(x[j]) <= MAX_ABS_INPUT;
     }
-    return m <= MAX_ABS_INPUT;
+    return ok;
   }
 
   /** The weights and the reciprocal pivots no longer describe {@code R}. */
