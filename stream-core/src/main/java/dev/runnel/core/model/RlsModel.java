@@ -43,8 +43,9 @@ import java.util.Arrays;
  * JIT compiles that loop to vector instructions (with one flat array and a row offset it cannot
  * prove that the two ranges do not overlap, and runs it scalar: measured about three times
  * slower). Only the upper triangle is ever read. The update writes each rotated row into a
- * spare row and swaps the two row references on success, so a rejected update leaves the state
- * bit-for-bit unchanged and untouched rows are neither copied nor swapped.
+ * spare row and swaps the two row references on success (the two sets of rows at once when every
+ * row was rotated), so a rejected update leaves the state bit-for-bit unchanged and untouched rows
+ * are neither copied nor swapped.
  *
  * <p>Implementation notes: the square-root information form is QR-RLS (Givens rotations on the
  * information factor), common practice for numerically robust RLS; the windup guard is the
@@ -572,6 +573,7 @@ public final class RlsModel implements LayoutListener {
     double q = 0.0; // 1 - g, accumulated without cancellation
     double zMax = 0.0; // largest |z| of the new state, to refuse a non-finite one
     double pivotMax = 0.0; // largest rotated pivot, likewise (the others are as they were)
+    int skipped = 0; // rows from start that no rotation touched
     if (start < rc) { // rows before the refresh row: the data row alone, in a method of its own
       final double[] acc = passAcc;
       acc[0] = yw;
@@ -579,7 +581,7 @@ public final class RlsModel implements LayoutListener {
       acc[2] = q;
       acc[3] = zMax;
       acc[4] = pivotMax;
-      dataRows(rm, rs, changed, w, zm, zn, start, Math.min(rc, n), n, acc);
+      skipped = dataRows(rm, rs, changed, w, zm, zn, start, Math.min(rc, n), n, acc);
       yw = acc[0];
       g = acc[1];
       q = acc[2];
@@ -595,6 +597,7 @@ public final class RlsModel implements LayoutListener {
       if (xi == 0.0 && vi == 0.0) {
         changed[i] = false; // nothing meets row i: it stays where it is
         zn[i] = zi;
+        skipped++;
         continue;
       }
       changed[i] = true;
@@ -678,16 +681,21 @@ public final class RlsModel implements LayoutListener {
         aPrioriOut[1] = y - residual / Math.sqrt(g);
       }
     }
-    for (int i = start; i < n; i++) {
-      if (changed[i]) {
-        final double[] t = rm[i];
-        rm[i] = rs[i];
-        rs[i] = t;
+    if (start == 0 && skipped == 0) { // every row rotated: swap the two sets of rows at once
+      r = rs;
+      spare = rm;
+    } else {
+      for (int i = start; i < n; i++) {
+        if (changed[i]) {
+          final double[] t = rm[i];
+          rm[i] = rs[i];
+          rs[i] = t;
+        }
       }
     }
     scale = scaleNext;
     if (scaleNext < MIN_SCALE) {
-      renormalizeScale(rm, zn);
+      renormalizeScale(r, zn); // r, not rm: the row sets may have been swapped
     }
     z = zn;
     zNext = zm;
@@ -719,10 +727,11 @@ public final class RlsModel implements LayoutListener {
    * The data row's rotations of rows {@code [from, to)}, the rows before the refresh row (all of
    * them without the guard): the expressions of {@link #update}'s combined loop without the
    * refresh's tests, so the bits are the same. {@code acc} carries {@code yw, g, q, zMax} and the
-   * largest new pivot in and out.
+   * largest new pivot in and out; returns the number of rows left untouched.
    */
-  private static void dataRows(double[][] rm, double[][] rs, boolean[] changed, double[] w, double[] zm,
+  private static int dataRows(double[][] rm, double[][] rs, boolean[] changed, double[] w, double[] zm,
       double[] zn, int from, int to, int n, double[] acc) {
+    int skipped = 0;
     double yw = acc[0];
     double g = acc[1];
     double q = acc[2];
@@ -735,6 +744,7 @@ public final class RlsModel implements LayoutListener {
       if (xi == 0.0) {
         changed[i] = false; // nothing meets row i: it stays where it is
         zn[i] = zi;
+        skipped++;
         continue;
       }
       changed[i] = true;
@@ -761,6 +771,7 @@ public final class RlsModel implements LayoutListener {
     acc[2] = q;
     acc[3] = zMax;
     acc[4] = pivotMax;
+    return skipped;
   }
 
   /**
