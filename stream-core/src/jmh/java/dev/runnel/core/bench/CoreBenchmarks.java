@@ -34,7 +34,8 @@ import org.openjdk.jmh.runner.options.TimeValue;
  * java -cp stream-core/target/benchmarks.jar dev.runnel.core.bench.CoreBenchmarks --out docs/bench/core-results.md
  * }</pre>
  * Options: {@code --quick} (fewer, shorter iterations), {@code --no-gc} (skip JMH's GC profiler),
- * {@code --include REGEX} (a subset; the tables then show what ran).
+ * {@code --include REGEX} (a subset; the tables then show what ran), {@code --forks N} (JVM forks
+ * per benchmark instead of each one's own; medians are then over every fork's iterations).
  */
 public final class CoreBenchmarks {
   private CoreBenchmarks() { }
@@ -43,6 +44,7 @@ public final class CoreBenchmarks {
     Path out = Path.of("docs/bench/core-results.md");
     boolean quick = false;
     boolean gc = true;
+    int forks = 0; // 0: each benchmark's own @Fork
     String include = "RlsKernelBenchmark|AxpyBenchmark|EjmlReferenceBenchmark|PipelineStepBenchmark|RefitBenchmark|CheckpointBenchmark";
     for (int a = 0; a < args.length; a++) {
       switch (args[a]) {
@@ -50,8 +52,9 @@ public final class CoreBenchmarks {
         case "--quick" -> quick = true;
         case "--no-gc" -> gc = false;
         case "--include" -> include = args[++a];
+        case "--forks" -> forks = Integer.parseInt(args[++a]);
         default -> throw new IllegalArgumentException("unknown option " + args[a]
-            + "; allowed: --out FILE, --quick, --no-gc, --include REGEX");
+            + "; allowed: --out FILE, --quick, --no-gc, --include REGEX, --forks N");
       }
     }
     ChainedOptionsBuilder o = new OptionsBuilder().include(include).shouldFailOnError(false);
@@ -61,10 +64,13 @@ public final class CoreBenchmarks {
     if (gc) {
       o.addProfiler(GCProfiler.class);
     }
+    if (forks > 0) {
+      o.forks(forks);
+    }
     long t0 = System.nanoTime();
     Collection<RunResult> results = new Runner(o.build()).run();
     double minutes = (System.nanoTime() - t0) / 6e10;
-    String md = render(results, quick, gc, minutes);
+    String md = render(results, quick, gc, minutes, forks);
     if (out.getParent() != null) {
       Files.createDirectories(out.getParent());
     }
@@ -141,7 +147,7 @@ public final class CoreBenchmarks {
     return Double.isNaN(v) ? "–" : String.format(Locale.ROOT, "%,.0f", v);
   }
 
-  static String render(Collection<RunResult> results, boolean quick, boolean gc, double minutes) {
+  static String render(Collection<RunResult> results, boolean quick, boolean gc, double minutes, int forks) {
     List<Row> rows = new ArrayList<>();
     for (RunResult r : results) {
       rows.add(new Row(r));
@@ -149,6 +155,7 @@ public final class CoreBenchmarks {
     StringBuilder s = new StringBuilder();
     s.append("<!-- written by dev.runnel.core.bench.CoreBenchmarks; do not edit by hand -->\n");
     s.append("Run ").append(Instant.now()).append(", ").append(quick ? "quick settings (2 warm-up + 3 measured 1 s iterations)" : "settings of each benchmark's annotations")
+        .append(forks > 0 ? ", " + forks + " forks per benchmark (scores over all of them)" : "")
         .append(", ").append(f("%.1f", minutes)).append(" min, JVM ").append(System.getProperty("java.vm.version"))
         .append(", ").append(Runtime.getRuntime().availableProcessors()).append(" CPUs, load average at the end ")
         .append(f("%.2f", ManagementFactory.getOperatingSystemMXBean().getSystemLoadAverage()))
