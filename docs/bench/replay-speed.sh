@@ -90,7 +90,7 @@ done
 warm=""
 if [ "$WARM_ROUNDS" -gt 0 ]; then
   log "the same runs in one warm JVM ($WARMUP warm-up rounds, $WARM_ROUNDS counted)"
-  warm=$(java -cp "connectors/target/runnel.jar:connectors/target/lib/*" dev.runnel.connect.bench.ReplayBenchmark \
+  warm=$(java -cp "connectors/target/test-classes:connectors/target/runnel.jar:connectors/target/lib/*" dev.runnel.connect.bench.ReplayBenchmark \
     --bootstrap-servers "$BS" --topic "$TOPIC" "${CONFIGS[@]}" --warmup "$WARMUP" --rounds "$WARM_ROUNDS")
 fi
 load_after=$(cut -d' ' -f1-3 /proc/loadavg 2>/dev/null || echo "?")

@@ -1,12 +1,12 @@
 package dev.runnel.connect.cli;
 
-import dev.runnel.connect.backtest.FileSource;
-import dev.runnel.connect.backtest.HtmlReport;
-import dev.runnel.connect.backtest.JsonReport;
-import dev.runnel.connect.backtest.ReplayDriver;
-import dev.runnel.connect.backtest.TextReport;
-import dev.runnel.connect.backtest.TopicRange;
-import dev.runnel.connect.backtest.TopicSource;
+import dev.runnel.connect.replay.FileSource;
+import dev.runnel.connect.report.HtmlReport;
+import dev.runnel.connect.report.JsonReport;
+import dev.runnel.connect.replay.ReplayDriver;
+import dev.runnel.connect.report.TextReport;
+import dev.runnel.connect.replay.TopicRange;
+import dev.runnel.connect.replay.TopicSource;
 import dev.runnel.connect.broker.EmbeddedBroker;
 import dev.runnel.core.config.ConfigLoader;
 import dev.runnel.core.config.PipelineConfig;

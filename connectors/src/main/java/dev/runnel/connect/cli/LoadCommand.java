@@ -1,6 +1,6 @@
 package dev.runnel.connect.cli;
 
-import dev.runnel.connect.backtest.Loader;
+import dev.runnel.connect.recording.Loader;
 import java.nio.file.Path;
 import java.util.concurrent.Callable;
 import picocli.CommandLine.Command;

@@ -1,8 +1,8 @@
 package dev.runnel.connect.cli;
 
-import dev.runnel.connect.backtest.Recording;
-import dev.runnel.connect.backtest.TopicRange;
-import dev.runnel.connect.backtest.TopicSource;
+import dev.runnel.connect.file.Recording;
+import dev.runnel.connect.replay.TopicRange;
+import dev.runnel.connect.replay.TopicSource;
 import java.io.BufferedOutputStream;
 import java.io.IOException;
 import java.io.OutputStream;

@@ -1,5 +1,8 @@
-package dev.runnel.connect.backtest;
+package dev.runnel.connect.replay;
 
+import dev.runnel.connect.report.TextReport;
+import dev.runnel.connect.report.JsonReport;
+import dev.runnel.connect.report.HtmlReport;
 import static org.junit.jupiter.api.Assertions.assertArrayEquals;
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertInstanceOf;

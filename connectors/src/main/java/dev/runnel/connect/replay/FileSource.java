@@ -1,6 +1,7 @@
-package dev.runnel.connect.backtest;
+package dev.runnel.connect.replay;
 
 import dev.runnel.connect.file.JsonLinesReader;
+import dev.runnel.connect.file.Recording;
 import java.io.IOException;
 import java.nio.file.Files;
 import java.nio.file.Path;
@@ -61,7 +62,7 @@ public final class FileSource {
       n[0]++;
       if (recorded[0]) {
         rec.parse(buf, off, len, line);
-        handler.record(rec.valueBuf, rec.valueOff, rec.valueLen, rec.timestamp, rec.partition, rec.offset);
+        handler.record(rec.valueBuf(), rec.valueOff(), rec.valueLen(), rec.timestamp(), rec.partition(), rec.offset());
       } else {
         handler.record(buf, off, len, 0L, 0, line);
       }

@@ -1,4 +1,4 @@
-package dev.runnel.connect.backtest;
+package dev.runnel.connect.file;
 
 import com.fasterxml.jackson.core.JsonFactory;
 import com.fasterxml.jackson.core.JsonParser;
@@ -150,7 +150,7 @@ public final class Recording {
   }
 
   /** One parsed record line; mutable and reused. */
-  static final class Line {
+  public static final class Line {
     int partition;
     long offset;
     long timestamp;
@@ -160,12 +160,24 @@ public final class Recording {
     int valueLen;
     boolean absent;
 
+    public int partition() { return partition; }
+    public long offset() { return offset; }
+    public long timestamp() { return timestamp; }
+    /** The key bytes, or null. Not a copy. */
+    public byte[] key() { return key; }
+    /** The value's bytes: a slice {@link #valueOff()}, {@link #valueLen()} of this array. Not a copy. */
+    public byte[] valueBuf() { return valueBuf; }
+    public int valueOff() { return valueOff; }
+    public int valueLen() { return valueLen; }
+    /** True when the record had no value (a tombstone). */
+    public boolean absent() { return absent; }
+
     /**
      * Parses a record line. The value, when embedded verbatim, stays a slice of {@code buf}.
      *
      * @throws IllegalArgumentException with the line number if the line is not a record line
      */
-    void parse(byte[] buf, int off, int len, long lineNumber) {
+    public void parse(byte[] buf, int off, int len, long lineNumber) {
       partition = -1;
       offset = -1;
       timestamp = 0;

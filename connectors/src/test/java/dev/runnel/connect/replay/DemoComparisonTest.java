@@ -1,5 +1,6 @@
-package dev.runnel.connect.backtest;
+package dev.runnel.connect.replay;
 
+import dev.runnel.connect.report.TextReport;
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 

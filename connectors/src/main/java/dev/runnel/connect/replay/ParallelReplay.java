@@ -1,4 +1,4 @@
-package dev.runnel.connect.backtest;
+package dev.runnel.connect.replay;
 
 import java.io.IOException;
 import java.util.Arrays;

@@ -1,4 +1,4 @@
-package dev.runnel.connect.backtest;
+package dev.runnel.connect.replay;
 
 import dev.runnel.core.evaluate.Backtest;
 import java.io.IOException;

@@ -1,8 +1,8 @@
 package dev.runnel.connect.bench;
 
-import dev.runnel.connect.backtest.ReplayDriver;
-import dev.runnel.connect.backtest.TopicRange;
-import dev.runnel.connect.backtest.TopicSource;
+import dev.runnel.connect.replay.ReplayDriver;
+import dev.runnel.connect.replay.TopicRange;
+import dev.runnel.connect.replay.TopicSource;
 import dev.runnel.core.config.ConfigLoader;
 import dev.runnel.core.evaluate.Backtest;
 import java.nio.file.Path;

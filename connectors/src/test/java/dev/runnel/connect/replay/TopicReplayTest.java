@@ -1,5 +1,8 @@
-package dev.runnel.connect.backtest;
+package dev.runnel.connect.replay;
 
+import dev.runnel.connect.report.JsonReport;
+import dev.runnel.connect.file.Recording;
+import dev.runnel.connect.recording.Loader;
 import static org.junit.jupiter.api.Assertions.assertArrayEquals;
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertThrows;

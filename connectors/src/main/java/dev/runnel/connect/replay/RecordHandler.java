@@ -1,4 +1,4 @@
-package dev.runnel.connect.backtest;
+package dev.runnel.connect.replay;
 
 /** Receives one source record. The buffer is reused: copy what you keep. */
 @FunctionalInterface

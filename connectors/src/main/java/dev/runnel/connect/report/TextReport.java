@@ -1,4 +1,4 @@
-package dev.runnel.connect.backtest;
+package dev.runnel.connect.report;
 
 import dev.runnel.core.evaluate.BacktestResult;
 import dev.runnel.core.evaluate.DieboldMariano;

@@ -1,6 +1,9 @@
-package dev.runnel.connect.backtest;
+package dev.runnel.connect.recording;
 
 import dev.runnel.connect.file.JsonLinesReader;
+import dev.runnel.connect.file.Recording;
+import dev.runnel.connect.replay.FileSource;
+import dev.runnel.connect.replay.RecordHandler;
 import dev.runnel.connect.kafka.ClientConfig;
 import java.io.IOException;
 import java.nio.file.Files;
@@ -71,7 +74,7 @@ public final class Loader {
         }
         if (recorded[0]) {
           line.parse(buf, off, len, n);
-          maxPartition[0] = Math.max(maxPartition[0], line.partition);
+          maxPartition[0] = Math.max(maxPartition[0], line.partition());
         }
       }
     });

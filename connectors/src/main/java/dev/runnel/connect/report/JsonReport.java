@@ -1,4 +1,4 @@
-package dev.runnel.connect.backtest;
+package dev.runnel.connect.report;
 
 import com.fasterxml.jackson.core.JsonEncoding;
 import com.fasterxml.jackson.core.JsonGenerator;
@@ -24,7 +24,7 @@ public final class JsonReport {
 
   /** Writes the report to {@code file}. */
   public static void write(BacktestResult r, Map<String, Object> run, Path file) throws IOException {
-    try (JsonGenerator g = Recording.JSON.createGenerator(file.toFile(), JsonEncoding.UTF8)) {
+    try (JsonGenerator g = new com.fasterxml.jackson.core.JsonFactory().createGenerator(file.toFile(), JsonEncoding.UTF8)) {
       g.useDefaultPrettyPrinter();
       g.writeStartObject();
       g.writeNumberField("format_version", FORMAT_VERSION);
