@@ -52,13 +52,17 @@ public final class KafkaTestSupport {
   /** Writes values to explicit partitions (values[p] to partition p), in order, and waits for all acks. */
   public static void produce(String bootstrap, String topic, List<List<String>> valuesByPartition) throws Exception {
     try (KafkaProducer<byte[], byte[]> p = new KafkaProducer<>(producerConfig(bootstrap))) {
+      List<java.util.concurrent.Future<?>> sent = new ArrayList<>();
       for (int part = 0; part < valuesByPartition.size(); part++) {
         List<String> vs = valuesByPartition.get(part);
         for (int i = 0; i < vs.size(); i++) {
-          p.send(new ProducerRecord<>(topic, part, ("k" + i).getBytes(StandardCharsets.UTF_8), vs.get(i).getBytes(StandardCharsets.UTF_8)));
+          sent.add(p.send(new ProducerRecord<>(topic, part, ("k" + i).getBytes(StandardCharsets.UTF_8), vs.get(i).getBytes(StandardCharsets.UTF_8))));
         }
       }
       p.flush();
+      for (java.util.concurrent.Future<?> f : sent) {
+        f.get(); // a send that failed (a batch that expired on a slow broker) fails the test here, not later as a missing record
+      }
     }
   }
 
