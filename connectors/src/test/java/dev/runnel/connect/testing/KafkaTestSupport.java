@@ -46,6 +46,12 @@ public final class KafkaTestSupport {
     p.put(ProducerConfig.VALUE_SERIALIZER_CLASS_CONFIG, ByteArraySerializer.class.getName());
     p.put(ProducerConfig.ACKS_CONFIG, "all");
     p.put(ProducerConfig.LINGER_MS_CONFIG, 5);
+    // Test input only. Not idempotent: after BrokerRestartTest has SIGKILLed the shared single-node
+    // broker, the restarted broker was seen to hand a new producer an id whose sequence numbers a
+    // partition already held, and every batch then failed OUT_OF_ORDER_SEQUENCE_NUMBER until it
+    // expired (120 s). One request in flight keeps the order without sequence numbers.
+    p.put(ProducerConfig.ENABLE_IDEMPOTENCE_CONFIG, false);
+    p.put(ProducerConfig.MAX_IN_FLIGHT_REQUESTS_PER_CONNECTION, 1);
     return p;
   }
 
