@@ -51,6 +51,26 @@ import org.apache.kafka.clients.admin.DescribeClusterOptions;
 public final class EmbeddedBroker implements AutoCloseable {
 
   /** Default maximum wait for the broker to become ready. */
+  /**
+   * The broker settings Runnel's single-node brokers need, stated once: the embedded broker writes
+   * them into its {@code server.properties}, and the tests' container broker passes them to the
+   * image as {@code KAFKA_*} variables. Transactions and consumer offsets need a replication factor
+   * and a minimum in-sync count of 1 on one node; a group's first join need not wait.
+   */
+  public static final Map<String, String> SINGLE_NODE_SETTINGS = singleNodeSettings();
+
+  private static Map<String, String> singleNodeSettings() {
+    Map<String, String> p = new LinkedHashMap<>();
+    p.put("offsets.topic.replication.factor", "1");
+    p.put("offsets.topic.num.partitions", "5");
+    p.put("transaction.state.log.replication.factor", "1");
+    p.put("transaction.state.log.min.isr", "1");
+    p.put("transaction.state.log.num.partitions", "5");
+    p.put("group.initial.rebalance.delay.ms", "0");
+    p.put("num.partitions", "1");
+    return Collections.unmodifiableMap(p);
+  }
+
   public static final Duration DEFAULT_START_TIMEOUT = Duration.ofSeconds(90);
   /** Default wait for a graceful stop before the child is killed. */
   public static final Duration DEFAULT_STOP_TIMEOUT = Duration.ofSeconds(30);
@@ -288,13 +308,7 @@ public final class EmbeddedBroker implements AutoCloseable {
     p.put("controller.listener.names", "CONTROLLER");
     p.put("inter.broker.listener.name", "PLAINTEXT");
     p.put("listener.security.protocol.map", "PLAINTEXT:PLAINTEXT,CONTROLLER:PLAINTEXT");
-    p.put("offsets.topic.replication.factor", "1");
-    p.put("offsets.topic.num.partitions", "5");
-    p.put("transaction.state.log.replication.factor", "1");
-    p.put("transaction.state.log.min.isr", "1");
-    p.put("transaction.state.log.num.partitions", "5");
-    p.put("group.initial.rebalance.delay.ms", "0");
-    p.put("num.partitions", "1");
+    p.putAll(SINGLE_NODE_SETTINGS);
     p.put("num.network.threads", "2");
     p.put("num.io.threads", "4");
     p.put("log.dirs", folder.resolve("data").toString());

@@ -3,7 +3,7 @@ package dev.runnel.connect.cli;
 import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
-import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.testing.TestBroker;
 import dev.runnel.connect.testing.EmbeddedKafkaExtension;
 import java.io.IOException;
 import java.nio.file.Files;
@@ -64,7 +64,7 @@ class RecordLoadClientPropertiesTest {
   }
 
   @Test
-  void load_passesAdminAndProducerKeysToThoseClients(EmbeddedBroker broker, @TempDir Path dir) throws IOException {
+  void load_passesAdminAndProducerKeysToThoseClients(TestBroker broker, @TempDir Path dir) throws IOException {
     String bs = broker.bootstrapServers();
     Path file = sampleCopy(dir, 20);
     Path badAdmin = config(dir, "bad-admin.yaml", bs, "{admin.security.protocol: BOGUS_ADMIN}");
@@ -79,7 +79,7 @@ class RecordLoadClientPropertiesTest {
   }
 
   @Test
-  void loadThenRecord_withTheConfigsServersAndProperties(EmbeddedBroker broker, @TempDir Path dir) throws IOException {
+  void loadThenRecord_withTheConfigsServersAndProperties(TestBroker broker, @TempDir Path dir) throws IOException {
     Path cfg = config(dir, "ok.yaml", broker.bootstrapServers(),
         "{request.timeout.ms: 20000, producer.linger.ms: 5, consumer.fetch.min.bytes: 1}");
     Path file = sampleCopy(dir, 300);

@@ -4,7 +4,7 @@ import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertNotNull;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
-import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.testing.TestBroker;
 import dev.runnel.connect.testing.EmbeddedKafkaExtension;
 import dev.runnel.demo.ChangeSchedule;
 import dev.runnel.demo.GroundTruth;
@@ -28,7 +28,7 @@ import org.junit.jupiter.api.io.TempDir;
 class DemoRunTest {
 
   @Test
-  void shortDemoFindsThePlannedChanges(EmbeddedBroker broker, @TempDir Path dir) throws Exception {
+  void shortDemoFindsThePlannedChanges(TestBroker broker, @TempDir Path dir) throws Exception {
     ByteArrayOutputStream text = new ByteArrayOutputStream();
     PrintStream out = new PrintStream(text, true, StandardCharsets.UTF_8);
     DemoRun.Options o = new DemoRun.Options(dir, false, 28, Settings.DEFAULT_SEED, 0, true, broker.bootstrapServers());

@@ -3,7 +3,7 @@ package dev.runnel.connect.kafka;
 import static org.junit.jupiter.api.Assertions.assertNull;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
-import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.testing.TestBroker;
 import dev.runnel.connect.testing.EmbeddedKafkaExtension;
 import dev.runnel.connect.testing.KafkaTestSupport;
 import java.time.Duration;
@@ -17,7 +17,7 @@ import org.junit.jupiter.api.extension.ExtendWith;
 @ExtendWith(EmbeddedKafkaExtension.class)
 class BrokerRestartTest {
 
-  @Test void runnerRecoversFromABrokerCrashWithExactlyOnceOutputs(EmbeddedBroker broker) throws Exception {
+  @Test void runnerRecoversFromABrokerCrashWithExactlyOnceOutputs(TestBroker broker) throws Exception {
     String bs = broker.bootstrapServers();
     String topic = "restart-in";
     KafkaTestSupport.createTopic(bs, topic, 2);

@@ -4,6 +4,7 @@ import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.testing.TestBroker;
 import dev.runnel.connect.testing.EmbeddedKafkaExtension;
 import dev.runnel.connect.testing.KafkaTestSupport;
 import java.nio.file.Path;
@@ -38,7 +39,7 @@ class CrashRecoveryTest {
     return new ProcessBuilder(cmd).redirectErrorStream(true).redirectOutput(log.toFile()).start();
   }
 
-  @Test void threeKillsAndRestartsLeaveExactlyOnePredictionPerInputOffset(EmbeddedBroker broker) throws Exception {
+  @Test void threeKillsAndRestartsLeaveExactlyOnePredictionPerInputOffset(TestBroker broker) throws Exception {
     String bs = broker.bootstrapServers();
     KafkaTestSupport.createTopic(bs, TOPIC, 2);
     ExactlyOnceCheck check = new ExactlyOnceCheck(ExactlyOnceCheck.input(31, 2, 50_000, 0));

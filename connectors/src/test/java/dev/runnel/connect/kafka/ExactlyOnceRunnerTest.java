@@ -4,7 +4,7 @@ import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertNull;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
-import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.testing.TestBroker;
 import dev.runnel.connect.testing.EmbeddedKafkaExtension;
 import dev.runnel.connect.testing.KafkaTestSupport;
 import java.time.Duration;
@@ -43,7 +43,7 @@ class ExactlyOnceRunnerTest {
     });
   }
 
-  @Test void twentyThousandRecordsGiveOnePredictionPerInputOffset(EmbeddedBroker broker) throws Exception {
+  @Test void twentyThousandRecordsGiveOnePredictionPerInputOffset(TestBroker broker) throws Exception {
     String bs = broker.bootstrapServers();
     String topic = "e2e-in";
     KafkaTestSupport.createTopic(bs, topic, 2);
@@ -76,7 +76,7 @@ class ExactlyOnceRunnerTest {
     }
   }
 
-  @Test void secondInstanceTakesOverPartitionsOfAClosedOneFromTheirCheckpoints(EmbeddedBroker broker) throws Exception {
+  @Test void secondInstanceTakesOverPartitionsOfAClosedOneFromTheirCheckpoints(TestBroker broker) throws Exception {
     String bs = broker.bootstrapServers();
     String topic = "rebalance-in";
     KafkaTestSupport.createTopic(bs, topic, 4);
@@ -104,7 +104,7 @@ class ExactlyOnceRunnerTest {
     check.verify(bs, "rebalance", topic);
   }
 
-  @Test void clientIdFromThePropertyMapIsVisibleOnTheBroker(EmbeddedBroker broker) throws Exception {
+  @Test void clientIdFromThePropertyMapIsVisibleOnTheBroker(TestBroker broker) throws Exception {
     String bs = broker.bootstrapServers();
     String topic = "clientid-in";
     KafkaTestSupport.createTopic(bs, topic, 1);
@@ -140,7 +140,7 @@ class ExactlyOnceRunnerTest {
   }
 
   /** Two instances with the same instance id (a misconfiguration): exactly one stops with a message, the other finishes exactly once. */
-  @Test void twoInstancesWithTheSameIdEndWithOneStoppedWithAClearMessage(EmbeddedBroker broker) throws Exception {
+  @Test void twoInstancesWithTheSameIdEndWithOneStoppedWithAClearMessage(TestBroker broker) throws Exception {
     String bs = broker.bootstrapServers();
     String topic = "fence-in";
     KafkaTestSupport.createTopic(bs, topic, 1);

@@ -7,6 +7,7 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 import com.fasterxml.jackson.databind.JsonNode;
 import com.fasterxml.jackson.databind.ObjectMapper;
 import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.testing.TestBroker;
 import dev.runnel.connect.testing.EmbeddedKafkaExtension;
 import dev.runnel.connect.testing.KafkaTestSupport;
 import dev.runnel.core.config.ConfigLoader;
@@ -72,7 +73,7 @@ class PipelineCrashTest {
   }
 
   @Test
-  void threeKillsOfTheRealRunnerLeaveTheUninterruptedRunsOutputsAndState(EmbeddedBroker broker) throws Exception {
+  void threeKillsOfTheRealRunnerLeaveTheUninterruptedRunsOutputsAndState(TestBroker broker) throws Exception {
     String bs = broker.bootstrapServers();
     Path config = writeConfig(bs);
     PipelineConfig cfg = ConfigLoader.load(config);

@@ -7,7 +7,7 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import com.fasterxml.jackson.databind.JsonNode;
 import com.fasterxml.jackson.databind.ObjectMapper;
-import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.testing.TestBroker;
 import dev.runnel.connect.demo.DemoRun;
 import dev.runnel.connect.kafka.ExactlyOnceRunner;
 import dev.runnel.connect.kafka.RunnerSettings;
@@ -58,7 +58,7 @@ class PipelineOnKafkaTest {
   }
 
   /** Runs the pipeline on the topic until every input record is committed; returns the final state bytes. */
-  static byte[] runToEnd(EmbeddedBroker broker, PipelineConfig cfg, long total) throws Exception {
+  static byte[] runToEnd(TestBroker broker, PipelineConfig cfg, long total) throws Exception {
     String bs = broker.bootstrapServers();
     RunnerSettings s = RunnerSettings.of(cfg.name(), cfg.input().topic().orElseThrow(), bs)
         .withClientProperties(TEST_CLIENT_PROPS).withCommitInterval(500, 4000);
@@ -112,7 +112,7 @@ class PipelineOnKafkaTest {
   }
 
   @Test
-  void twentyThousandDemoRecordsGiveOnePredictionEachAndTheDirectRunsState(EmbeddedBroker broker) throws Exception {
+  void twentyThousandDemoRecordsGiveOnePredictionEachAndTheDirectRunsState(TestBroker broker) throws Exception {
     PipelineConfig cfg = config("e2e-pipeline");
     String bs = broker.bootstrapServers();
     List<String> lines = demoLines(20_000);
@@ -171,7 +171,7 @@ class PipelineOnKafkaTest {
   }
 
   @Test
-  void badRecordsGoToRejectsWithTheirReasonAndNeverTouchTheModel(EmbeddedBroker broker) throws Exception {
+  void badRecordsGoToRejectsWithTheirReasonAndNeverTouchTheModel(TestBroker broker) throws Exception {
     PipelineConfig cfg = config("bad-input");
     String bs = broker.bootstrapServers();
     List<String> clean = demoLines(6_000);

@@ -8,7 +8,7 @@ import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertThrows;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
-import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.testing.TestBroker;
 import dev.runnel.connect.testing.EmbeddedKafkaExtension;
 import dev.runnel.connect.testing.KafkaTestSupport;
 import dev.runnel.core.config.ConfigLoader;
@@ -61,7 +61,7 @@ class TopicReplayTest {
   }
 
   @Test
-  void topicAndItsRecording_giveTheSameBits(EmbeddedBroker broker, @TempDir Path dir) throws Exception {
+  void topicAndItsRecording_giveTheSameBits(TestBroker broker, @TempDir Path dir) throws Exception {
     String bs = broker.bootstrapServers();
     String topic = "bt-same-bits";
     publishSample(bs, topic);
@@ -113,7 +113,7 @@ class TopicReplayTest {
   }
 
   @Test
-  void workerThreads_giveTheSameJsonAsOneThread(EmbeddedBroker broker, @TempDir Path dir) throws Exception {
+  void workerThreads_giveTheSameJsonAsOneThread(TestBroker broker, @TempDir Path dir) throws Exception {
     String bs = broker.bootstrapServers();
     String topic = "bt-threads";
     publishSample(bs, topic);
@@ -135,7 +135,7 @@ class TopicReplayTest {
   }
 
   @Test
-  void offsetRange_readsOnlyThatRange(EmbeddedBroker broker) throws Exception {
+  void offsetRange_readsOnlyThatRange(TestBroker broker) throws Exception {
     String bs = broker.bootstrapServers();
     String topic = "bt-range";
     KafkaTestSupport.createTopic(bs, topic, 1);
@@ -152,7 +152,7 @@ class TopicReplayTest {
   }
 
   @Test
-  void badRanges_giveClearErrors(EmbeddedBroker broker, @TempDir Path dir) throws Exception {
+  void badRanges_giveClearErrors(TestBroker broker, @TempDir Path dir) throws Exception {
     String bs = broker.bootstrapServers();
     assertEquals("--end-offset 5 is not after --start-offset 10; the end is exclusive and must be greater than the start",
         assertThrows(IllegalArgumentException.class, () -> new TopicRange(10L, null, 5L, null)).getMessage());

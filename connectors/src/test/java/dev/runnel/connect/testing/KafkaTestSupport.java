@@ -46,19 +46,29 @@ public final class KafkaTestSupport {
     p.put(ProducerConfig.VALUE_SERIALIZER_CLASS_CONFIG, ByteArraySerializer.class.getName());
     p.put(ProducerConfig.ACKS_CONFIG, "all");
     p.put(ProducerConfig.LINGER_MS_CONFIG, 5);
+    // Test input only. Not idempotent: after BrokerRestartTest has SIGKILLed the shared single-node
+    // broker, the restarted broker was seen to hand a new producer an id whose sequence numbers a
+    // partition already held, and every batch then failed OUT_OF_ORDER_SEQUENCE_NUMBER until it
+    // expired (120 s). One request in flight keeps the order without sequence numbers.
+    p.put(ProducerConfig.ENABLE_IDEMPOTENCE_CONFIG, false);
+    p.put(ProducerConfig.MAX_IN_FLIGHT_REQUESTS_PER_CONNECTION, 1);
     return p;
   }
 
   /** Writes values to explicit partitions (values[p] to partition p), in order, and waits for all acks. */
   public static void produce(String bootstrap, String topic, List<List<String>> valuesByPartition) throws Exception {
     try (KafkaProducer<byte[], byte[]> p = new KafkaProducer<>(producerConfig(bootstrap))) {
+      List<java.util.concurrent.Future<?>> sent = new ArrayList<>();
       for (int part = 0; part < valuesByPartition.size(); part++) {
         List<String> vs = valuesByPartition.get(part);
         for (int i = 0; i < vs.size(); i++) {
-          p.send(new ProducerRecord<>(topic, part, ("k" + i).getBytes(StandardCharsets.UTF_8), vs.get(i).getBytes(StandardCharsets.UTF_8)));
+          sent.add(p.send(new ProducerRecord<>(topic, part, ("k" + i).getBytes(StandardCharsets.UTF_8), vs.get(i).getBytes(StandardCharsets.UTF_8))));
         }
       }
       p.flush();
+      for (java.util.concurrent.Future<?> f : sent) {
+        f.get(); // a send that failed (a batch that expired on a slow broker) fails the test here, not later as a missing record
+      }
     }
   }
 

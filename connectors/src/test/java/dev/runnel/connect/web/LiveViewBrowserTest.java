@@ -6,7 +6,7 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import com.fasterxml.jackson.databind.JsonNode;
 import com.fasterxml.jackson.databind.ObjectMapper;
-import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.testing.TestBroker;
 import dev.runnel.connect.demo.DemoRun;
 import dev.runnel.connect.drift.DriftTable;
 import dev.runnel.connect.kafka.ExactlyOnceRunner;
@@ -68,7 +68,7 @@ class LiveViewBrowserTest {
   }
 
   @Test
-  void pageDrawsCoefficientPathsAndPredictionsFromARunningPipeline(EmbeddedBroker broker) throws Exception {
+  void pageDrawsCoefficientPathsAndPredictionsFromARunningPipeline(TestBroker broker) throws Exception {
     String bs = broker.bootstrapServers();
     String name = "liveview";
     String topic = name + ".sessions";
