@@ -133,6 +133,17 @@ class ConfigLoaderTest {
     assertEquals(0, c.targetSlot());
   }
 
+  @Test void modelSettingsDefaults_equalAnEmptyModelSection() {
+    // ModelSettings.defaults() once said prior variance 100 and noise half-life 1000 while the loader gave 1 and 500
+    PipelineConfig.Model m = ConfigLoader.parse("name: m\ninput:\n  fields: {y: number}\ntarget: y\n", "m.yaml").model();
+    dev.runnel.core.model.ModelSettings d = dev.runnel.core.model.ModelSettings.defaults();
+    assertEquals(d.priorVariance(), m.priorVariance());
+    assertEquals(d.constantTerm(), m.constantTerm());
+    assertEquals(d.windupGuard(), m.windupGuard());
+    assertEquals(d.intervalZ(), dev.runnel.core.model.ModelSettings.zForLevel(m.intervalLevel()));
+    assertEquals(d.noiseHalfLifeRecords(), m.noiseHalfLifeRecords());
+  }
+
   @Test void noConstantTerm_defaultsScalingToScale_andHalfLifeAndNoPriorParse() {
     PipelineConfig c = ConfigLoader.parse("name: m\ninput:\n  fields: {y: number, x: number}\ntarget: y\n"
         + "features:\n  - {kind: numeric, field: x}\n"
