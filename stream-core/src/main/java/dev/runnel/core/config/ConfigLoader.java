@@ -13,7 +13,6 @@ import java.io.IOException;
 import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
-import java.time.DateTimeException;
 import java.time.Duration;
 import java.time.ZoneId;
 import java.time.format.DateTimeParseException;
@@ -27,8 +26,10 @@ import java.util.Optional;
 import java.util.regex.Pattern;
 
 /**
- * Reads a pipeline configuration from YAML and checks every key. Cold path: the YAML is read into a
- * tree and walked by hand, tracking the key path for messages.
+ * Reads a pipeline configuration from YAML and checks every key, each defined once in {@link ConfigKeys}
+ * (name, type, default, check). Cold path: the YAML is read into a tree and walked by hand, tracking
+ * the key path for messages. What loads but is probably unintended becomes a {@link ConfigWarning}
+ * in {@link PipelineConfig#warnings()}.
  *
  * <p>Every problem throws {@link ConfigException} with a message of the form
  * {@code <key path>: <value> is not allowed; <what is allowed>}, {@code <key path>: missing; <what

@@ -25,11 +25,12 @@ class ConfigDocsTest {
 
   private static final Pattern KIND = Pattern.compile("kind: (\\w+)");
 
-  /** What the doc's tables say: key path → default cell; former name → new name. */
-  record Doc(Map<String, String> defaults, Map<String, String> renamed) { }
+  /** What the doc's tables say: key path → default cell; key path → type cell (tables with a type column); former name → new name. */
+  record Doc(Map<String, String> defaults, Map<String, String> types, Map<String, String> renamed) { }
 
   static Doc parse(List<String> lines) {
     Map<String, String> defaults = new LinkedHashMap<>();
+    Map<String, String> types = new LinkedHashMap<>();
     Map<String, String> renamed = new LinkedHashMap<>();
     String prefix = "";
     List<String> header = null;
@@ -59,9 +60,11 @@ class ConfigDocsTest {
       } else if (d >= 0) {
         String path = prefix + key;
         if (defaults.put(path, cells.get(d)) != null) throw new AssertionError("configuration.md lists " + path + " twice");
+        int t = header.indexOf("type");
+        if (t >= 0) types.put(path, cells.get(t));
       }
     }
-    return new Doc(defaults, renamed);
+    return new Doc(defaults, types, renamed);
   }
 
   /** A table row's cells, split at '|' but not at an escaped '\|'. */
@@ -113,6 +116,10 @@ class ConfigDocsTest {
       } else if (!sameDefault(k.docDefault(), cell)) {
         out.add(path + ": default is " + k.docDefault() + " in ConfigKeys but \"" + cell + "\" in docs/configuration.md");
       }
+      String type = doc.types().get(path);
+      if (type != null && !type.equals(k.type())) {
+        out.add(path + ": type is " + k.type() + " in ConfigKeys but \"" + type + "\" in docs/configuration.md");
+      }
       for (String former : k.formerNames()) {
         String fp = k.scope().isEmpty() ? former : k.scope() + "." + former;
         String np = k.scope().isEmpty() ? k.name() : k.scope() + "." + k.name();
@@ -135,7 +142,7 @@ class ConfigDocsTest {
     assertEquals(List.of(), problems(ConfigKeys.all(), parse(docLines())));
   }
 
-  @Test void theCheck_findsAChangedDefault_aMissingRow_anUnknownRow_andAnUnlistedRename() throws IOException {
+  @Test void theCheck_findsAChangedDefault_aChangedType_aMissingRow_anUnknownRow_andAnUnlistedRename() throws IOException {
     List<String> lines = new ArrayList<>(docLines());
     boolean changed = false;
     for (int i = 0; i < lines.size(); i++) {
@@ -143,6 +150,8 @@ class ConfigDocsTest {
       if (l.startsWith("| `kafka.commit_interval_records` |")) {
         lines.set(i, l.replace("| 5000 |", "| 10000 |"));
         changed = true;
+      } else if (l.startsWith("| `model.interval_level` | number |")) {
+        lines.set(i, l.replace("| number |", "| whole number |"));
       } else if (l.startsWith("| `web.port` |")) {
         lines.set(i, "| `web.portt` | `8642` | 0 to 65535 | the port |");
       }
@@ -150,11 +159,12 @@ class ConfigDocsTest {
     assertTrue(lines.removeIf(l -> l.startsWith("| `model.windup_guard` |")), "the doc lists the former name");
     assertTrue(changed, "the doc has the row this test edits");
     List<String> p = problems(ConfigKeys.all(), parse(lines));
-    assertEquals(4, p.size(), p.toString());
+    assertEquals(5, p.size(), p.toString());
     assertTrue(p.get(0).startsWith("model.windup_guard: a former name of model.forget_towards_prior"), p.get(0));
-    assertTrue(p.get(1).startsWith("kafka.commit_interval_records: default is 5000 in ConfigKeys but \"10000\""), p.get(1));
-    assertTrue(p.get(2).startsWith("web.port: accepted by the loader but has no row"), p.get(2));
-    assertTrue(p.get(3).startsWith("web.portt: has a row in docs/configuration.md but the loader does not accept it"), p.get(3));
+    assertTrue(p.get(1).startsWith("model.interval_level: type is number in ConfigKeys but \"whole number\""), p.get(1));
+    assertTrue(p.get(2).startsWith("kafka.commit_interval_records: default is 5000 in ConfigKeys but \"10000\""), p.get(2));
+    assertTrue(p.get(3).startsWith("web.port: accepted by the loader but has no row"), p.get(3));
+    assertTrue(p.get(4).startsWith("web.portt: has a row in docs/configuration.md but the loader does not accept it"), p.get(4));
   }
 
   @Test void sameDefault_comparesNumbersAsNumbers_andWordsAtTheStartOfTheCell() {
