@@ -106,7 +106,7 @@ public final class BacktestCommand implements Callable<Integer> {
   public Integer call() throws Exception {
     List<Backtest.Variant> variants = new ArrayList<>();
     for (Path c : configs) {
-      PipelineConfig cfg = ConfigLoader.load(c);
+      PipelineConfig cfg = Launch.warn(ConfigLoader.load(c), System.err);
       String label = c.getFileName().toString().replaceFirst("\\.ya?ml$", "");
       variants.add(new Backtest.Variant(label, cfg));
     }

@@ -13,6 +13,20 @@ final class Launch {
   private Launch() { }
 
   /**
+   * Prints the configuration's warnings ({@link PipelineConfig#warnings()}), one line each, as
+   * {@code runnel: warning: <file>: <message>}. The verbs that run a pipeline call it once, right
+   * after loading, before any work starts.
+   *
+   * @return {@code cfg}, for chaining after {@code ConfigLoader.load}
+   */
+  static PipelineConfig warn(PipelineConfig cfg, PrintStream err) {
+    for (dev.runnel.core.config.ConfigWarning w : cfg.warnings()) {
+      err.println("runnel: warning: " + cfg.sourceName() + ": " + w.message());
+    }
+    return cfg;
+  }
+
+  /**
    * Starts the embedded broker when the configuration names no bootstrap servers.
    *
    * @return the broker started, or null when an external cluster is configured

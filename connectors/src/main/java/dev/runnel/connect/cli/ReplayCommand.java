@@ -42,7 +42,7 @@ public final class ReplayCommand implements Callable<Integer> {
 
   @Override
   public Integer call() throws IOException {
-    PipelineConfig cfg = ConfigLoader.load(config);
+    PipelineConfig cfg = Launch.warn(ConfigLoader.load(config), System.err);
     if (!Files.isRegularFile(source)) {
       throw new IllegalArgumentException("--source " + source + ": no such file; give a JSON Lines file");
     }

@@ -47,7 +47,7 @@ public final class RunCommand implements Callable<Integer> {
 
   @Override
   public Integer call() throws Exception {
-    PipelineConfig cfg = ConfigLoader.load(config);
+    PipelineConfig cfg = Launch.warn(ConfigLoader.load(config), System.err);
     EmbeddedBroker broker = null;
     String servers = bootstrap;
     if (servers == null || servers.isBlank()) {

@@ -23,10 +23,11 @@ import java.util.regex.Pattern;
 public record RunnerSettings(String name, String inputTopic, String bootstrapServers, Map<String, String> clientProperties,
     long commitIntervalMs, int commitIntervalRecords, String transactionalIdPrefix, String instanceId, String groupId) {
 
-  /** Default commit interval in milliseconds. */
-  public static final long DEFAULT_COMMIT_INTERVAL_MS = 1000;
-  /** Default commit interval in records. */
-  public static final int DEFAULT_COMMIT_INTERVAL_RECORDS = 10_000;
+  /** Default commit interval in milliseconds: the default of {@code kafka.commit_interval_ms}. */
+  public static final long DEFAULT_COMMIT_INTERVAL_MS = dev.runnel.core.config.ConfigKeys.COMMIT_INTERVAL_MS.defaultValue();
+  /** Default commit interval in records: the default of {@code kafka.commit_interval_records}. */
+  public static final int DEFAULT_COMMIT_INTERVAL_RECORDS =
+      Math.toIntExact(dev.runnel.core.config.ConfigKeys.COMMIT_INTERVAL_RECORDS.defaultValue());
   /** Default transactional id prefix. */
   public static final String DEFAULT_TRANSACTIONAL_ID_PREFIX = "runnel";
 
@@ -53,7 +54,7 @@ public record RunnerSettings(String name, String inputTopic, String bootstrapSer
     }
   }
 
-  /** Defaults: no client properties, 1 s / 10,000 records, prefix "runnel", instance "0", group {@code runnel.<name>}. */
+  /** Defaults: no client properties, 1 s / 5,000 records (the configuration's defaults), prefix "runnel", instance "0", group {@code runnel.<name>}. */
   public static RunnerSettings of(String name, String inputTopic, String bootstrapServers) {
     return new RunnerSettings(name, inputTopic, bootstrapServers, Map.of(), DEFAULT_COMMIT_INTERVAL_MS,
         DEFAULT_COMMIT_INTERVAL_RECORDS, DEFAULT_TRANSACTIONAL_ID_PREFIX, "0", "runnel." + name);

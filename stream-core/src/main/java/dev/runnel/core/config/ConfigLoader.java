@@ -13,7 +13,6 @@ import java.io.IOException;
 import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
-import java.time.DateTimeException;
 import java.time.Duration;
 import java.time.ZoneId;
 import java.time.format.DateTimeParseException;
@@ -27,8 +26,10 @@ import java.util.Optional;
 import java.util.regex.Pattern;
 
 /**
- * Reads a pipeline configuration from YAML and checks every key. Cold path: the YAML is read into a
- * tree and walked by hand, tracking the key path for messages.
+ * Reads a pipeline configuration from YAML and checks every key, each defined once in {@link ConfigKeys}
+ * (name, type, default, check). Cold path: the YAML is read into a tree and walked by hand, tracking
+ * the key path for messages. What loads but is probably unintended becomes a {@link ConfigWarning}
+ * in {@link PipelineConfig#warnings()}.
  *
  * <p>Every problem throws {@link ConfigException} with a message of the form
  * {@code <key path>: <value> is not allowed; <what is allowed>}, {@code <key path>: missing; <what
@@ -132,15 +133,32 @@ public final class ConfigLoader {
     return new ConfigException(path, path + ": missing; " + hint);
   }
 
+  static final String DURATION_ALLOWED =
+      "use an ISO 8601 duration of at least 1 ms such as PT1H, PT90M or P30D (days, hours, minutes, seconds)";
+
   /** One mapping in the document and its key path. */
   static final class Section {
     final JsonNode node;
     final String path;
+    private final List<ConfigWarning> warnings;
 
-    Section(JsonNode node, String path) {
+    Section(JsonNode node, String path) { this(node, path, new ArrayList<>()); }
+
+    Section(JsonNode node, String path, List<ConfigWarning> warnings) {
       if (!node.isObject()) throw notAllowed(path, node, "use a mapping of keys to values");
       this.node = node;
       this.path = path;
+      this.warnings = warnings;
+    }
+
+    /** Records a warning (the loader's result carries them; the commands print them at start). */
+    void warn(String key, String message) { warnings.add(new ConfigWarning(key, message)); }
+
+    /** Accepts exactly the keys {@link ConfigKeys} lists for {@code scope} (and their former names), plus {@code extra}. */
+    void allowScope(String scope, String... extra) {
+      List<String> keys = new ArrayList<>(List.of(extra));
+      keys.addAll(ConfigKeys.in(scope));
+      allow(keys);
     }
 
     void allow(List<String> keys) {
@@ -165,7 +183,7 @@ public final class ConfigLoader {
 
     String p(String key) { return join(path, key); }
 
-    Section section(String key) { return has(key) ? new Section(node.get(key), p(key)) : null; }
+    Section section(String key) { return has(key) ? new Section(node.get(key), p(key), warnings) : null; }
 
     long whole(String key, long def, long min, long max) {
       if (!has(key)) return def;
@@ -227,7 +245,7 @@ public final class ConfigLoader {
     long durationMillis(String key) {
       if (!has(key)) return 0L;
       JsonNode v = node.get(key);
-      String allowed = "use an ISO 8601 duration of at least 1 ms such as PT1H, PT90M or P30D (days, hours, minutes, seconds)";
+      String allowed = DURATION_ALLOWED;
       if (!v.isTextual()) throw notAllowed(p(key), v, allowed);
       try {
         Duration d = Duration.parse(v.asText());
@@ -243,15 +261,22 @@ public final class ConfigLoader {
   /** Walks one document. */
   private static final class Reader {
     private final String source;
+    private final List<ConfigWarning> warnings = new ArrayList<>();
 
     Reader(String source) { this.source = source; }
+
+    /** The section under {@code key}, or an empty one when absent, so every key reads its default from {@link ConfigKeys}. */
+    private Section sectionOrEmpty(Section parent, String key) {
+      Section s = parent.section(key);
+      return s != null ? s : new Section(com.fasterxml.jackson.databind.node.JsonNodeFactory.instance.objectNode(), parent.p(key), warnings);
+    }
 
     PipelineConfig read(JsonNode root) {
       if (!root.isObject()) {
         throw new ConfigException("", source + ": the configuration is " + render(root) + "; it must be a mapping with name:, input:, target:, features:");
       }
-      Section top = new Section(root, "");
-      top.allow(List.of("name", "input", "target", "features", "model", "outputs", "kafka", "web", "drift"));
+      Section top = new Section(root, "", warnings);
+      top.allowScope("");
 
       String name = top.requiredText("name", "give the pipeline a name, e.g. name: quillmarsh", nameRule());
       if (!NAME.matcher(name).matches()) throw notAllowed("name", top.get("name"), nameRule());
@@ -259,17 +284,40 @@ public final class ConfigLoader {
       if (!top.has("input")) throw missing("input", "declare the input, e.g. input: {fields: {sessions: number}}");
       PipelineConfig.Input input = input(top.section("input"));
 
-      PipelineConfig.Model model = model(top.has("model") ? top.section("model") : null);
+      PipelineConfig.Model model = model(sectionOrEmpty(top, "model"));
 
       String target = target(top, input.schema());
 
       List<FeatureConfig> features = features(top, input, target, model);
 
-      PipelineConfig.Outputs outputs = outputs(top.has("outputs") ? top.section("outputs") : null);
-      PipelineConfig.Kafka kafka = kafka(top.has("kafka") ? top.section("kafka") : null);
-      PipelineConfig.Web web = web(top.has("web") ? top.section("web") : null);
-      PipelineConfig.Drift drift = drift(top.has("drift") ? top.section("drift") : null);
-      return new PipelineConfig(name, input, target, features, model, outputs, kafka, web, source, drift);
+      PipelineConfig.Outputs outputs = outputs(sectionOrEmpty(top, "outputs"));
+      PipelineConfig.Kafka kafka = kafka(sectionOrEmpty(top, "kafka"));
+      PipelineConfig.Web web = web(sectionOrEmpty(top, "web"));
+      PipelineConfig.Drift drift = drift(sectionOrEmpty(top, "drift"));
+      warnAboutTime(top.section("input"), input, features);
+      return new PipelineConfig(name, input, target, features, model, outputs, kafka, web, source, drift, warnings);
+    }
+
+    /**
+     * Warnings for times that silently take a surprising value: no event time (a file's records all
+     * sit at 1970-01-01, Kafka's at their produce time), and calendar features without a time zone (UTC).
+     */
+    private void warnAboutTime(Section in, PipelineConfig.Input input, List<FeatureConfig> features) {
+      if (input.eventTime().isEmpty()) {
+        String k = in.p("event_time");
+        warnings.add(new ConfigWarning(k, k + ": not given, so records carry no event time of their own: read from a file"
+            + " (replay, backtest) every record sits at 1970-01-01T00:00Z (calendar features constant, one time snapshot,"
+            + " no forgetting by half-life); read from Kafka each takes its record timestamp (when it was produced, not when"
+            + " it happened); name the field that holds the event time, e.g. event_time: {field: observed_at, format: iso8601}"));
+      }
+      List<String> cyclic = new ArrayList<>();
+      for (FeatureConfig f : features) if (f instanceof FeatureConfig.Cyclic c) cyclic.add(c.name());
+      if (!cyclic.isEmpty() && !in.has("time_zone")) {
+        String k = in.p("time_zone");
+        warnings.add(new ConfigWarning(k, k + ": not given, so the calendar features (" + String.join(", ", cyclic)
+            + ") are computed in UTC, whatever offset the times carry; set the zone whose hours and weekdays matter,"
+            + " e.g. time_zone: Europe/Amsterdam (an IANA name), or time_zone: UTC to keep UTC and silence this warning"));
+      }
     }
 
     private static String nameRule() {
@@ -277,7 +325,7 @@ public final class ConfigLoader {
     }
 
     private PipelineConfig.Input input(Section in) {
-      in.allow(List.of("topic", "fields", "event_time", "time_zone", "limits"));
+      in.allowScope("input");
       Optional<String> topic = Optional.empty();
       if (in.has("topic")) {
         String t = in.text("topic", null, "use a Kafka topic name");
@@ -307,8 +355,8 @@ public final class ConfigLoader {
       Optional<PipelineConfig.EventTime> eventTime = Optional.empty();
       if (in.has("event_time")) {
         Section et = in.section("event_time");
-        et.allow(List.of("field", "format"));
-        TimeFormat format = et.choice("format", TimeFormat.ISO8601, TimeFormat.values(), TimeFormat::word);
+        et.allowScope("input.event_time");
+        TimeFormat format = ConfigKeys.EVENT_TIME_FORMAT.read(et);
         String f = et.requiredText("field", "name the field that holds the event time, e.g. field: observed_at", "name a declared time field");
         int slot = schema.slot(f);
         if (slot < 0) {
@@ -324,34 +372,20 @@ public final class ConfigLoader {
         eventTime = Optional.of(new PipelineConfig.EventTime(f, format));
       }
 
-      ZoneId zone = ZoneId.of("UTC");
-      if (in.has("time_zone")) {
-        String allowed = "use an IANA time-zone name such as Europe/Amsterdam, or UTC";
-        String z = in.text("time_zone", null, allowed);
-        try {
-          zone = ZoneId.of(z);
-        } catch (DateTimeException e) {
-          throw notAllowed(in.p("time_zone"), in.get("time_zone"), allowed);
-        }
-      }
+      ZoneId zone = ConfigKeys.TIME_ZONE.read(in);
 
-      RecordLimits d = RecordLimits.DEFAULTS;
-      RecordLimits limits = d;
-      if (in.has("limits")) {
-        Section l = in.section("limits");
-        l.allow(List.of("max_text_length", "max_record_bytes", "max_abs_value", "min_year", "max_year"));
-        int maxText = l.wholeInt("max_text_length", d.maxTextLength(), 1, 1_000_000);
-        int maxBytes = l.wholeInt("max_record_bytes", d.maxRecordBytes(), 64, 16_777_216);
-        double maxAbs = l.number("max_abs_value", d.maxAbsValue(), 0, true, Double.MAX_VALUE, false,
-            "use a number greater than 0, e.g. 1.0e12");
-        int minYear = l.wholeInt("min_year", d.minYear(), 1, 9999);
-        int maxYear = (int) l.whole("max_year", d.maxYear(), 1, 9999);
-        if (maxYear < minYear) {
-          throw notAllowed(l.p("max_year"), l.has("max_year") ? l.get("max_year") : new com.fasterxml.jackson.databind.node.IntNode(maxYear),
-              "use a year from min_year (" + minYear + ") to 9999");
-        }
-        limits = new RecordLimits(maxText, maxBytes, maxAbs, minYear, maxYear);
+      Section l = sectionOrEmpty(in, "limits");
+      l.allowScope("input.limits");
+      int maxText = ConfigKeys.MAX_TEXT_LENGTH.read(l);
+      int maxBytes = ConfigKeys.MAX_RECORD_BYTES.read(l);
+      double maxAbs = ConfigKeys.MAX_ABS_VALUE.read(l);
+      int minYear = ConfigKeys.MIN_YEAR.read(l);
+      int maxYear = ConfigKeys.MAX_YEAR.read(l);
+      if (maxYear < minYear) {
+        throw notAllowed(l.p("max_year"), l.has("max_year") ? l.get("max_year") : new com.fasterxml.jackson.databind.node.IntNode(maxYear),
+            "use a year from min_year (" + minYear + ") to 9999");
       }
+      RecordLimits limits = new RecordLimits(maxText, maxBytes, maxAbs, minYear, maxYear);
       return new PipelineConfig.Input(topic, schema, eventTime, zone, limits);
     }
 
@@ -384,7 +418,7 @@ public final class ConfigLoader {
       List<Section> crossSections = new ArrayList<>();
       for (int i = 0; i < list.size(); i++) {
         String path = "features[" + i + "]";
-        Section f = new Section(list.get(i), path);
+        Section f = new Section(list.get(i), path, warnings);
         FeatureConfig fc = feature(f, input, target, model);
         Integer earlier = names.putIfAbsent(fc.name(), i);
         if (earlier != null) {
@@ -426,58 +460,58 @@ public final class ConfigLoader {
       RecordSchema s = input.schema();
       switch (kind) {
         case "onehot": {
-          f.allow(List.of("kind", "name", "field", "max_levels", "min_count", "expire_after", "expire_after_records"));
+          f.allowScope("features.onehot", "kind");
           String field = field(f, s, target, FieldType.TEXT, FieldType.FLAG, "text or flag field");
           String name = name(f, field);
-          int maxLevels = f.wholeInt("max_levels", 1000, 1, 1_000_000);
-          int minCount = f.wholeInt("min_count", 1, 1, 1_000_000);
-          long expireMs = f.durationMillis("expire_after");
-          long expireRecords = f.whole("expire_after_records", 0, 0, Long.MAX_VALUE);
+          int maxLevels = ConfigKeys.MAX_LEVELS.read(f);
+          int minCount = ConfigKeys.MIN_COUNT.read(f);
+          long expireMs = ConfigKeys.EXPIRE_AFTER.read(f);
+          long expireRecords = ConfigKeys.EXPIRE_AFTER_RECORDS.read(f);
           return new FeatureConfig.OneHot(name, field, maxLevels, minCount, expireMs, expireRecords);
         }
         case "cyclic": {
-          f.allow(List.of("kind", "name", "cycle", "field", "harmonics"));
-          if (!f.has("cycle")) throw missing(f.p("cycle"), "use one of hour_of_day, day_of_week, day_of_year");
-          Cycle cycle = f.choice("cycle", null, Cycle.values(), Cycle::word);
+          f.allowScope("features.cyclic", "kind");
+          if (!f.has("cycle")) throw missing(f.p("cycle"), ConfigKeys.CYCLE.allowed());
+          Cycle cycle = ConfigKeys.CYCLE.read(f);
           String field = null;
           if (f.has("field")) field = field(f, s, target, FieldType.TIME, null, "time field");
           String name = f.has("name") ? name(f, null) : cycle.word();
-          int harmonics = f.wholeInt("harmonics", 1, 1, 12);
+          int harmonics = ConfigKeys.HARMONICS.read(f);
           return new FeatureConfig.Cyclic(name, cycle, field, harmonics);
         }
         case "numeric": {
-          f.allow(List.of("kind", "name", "field", "transform", "exponent", "scaling", "weighting_half_life_records", "clip"));
+          f.allowScope("features.numeric", "kind");
           String field = field(f, s, target, FieldType.NUMBER, null, "number field");
           String name = name(f, field);
-          Transform tr = f.choice("transform", Transform.NONE, Transform.values(), Transform::word);
+          Transform tr = ConfigKeys.TRANSFORM.read(f);
           double exponent = 1.0;
           if (f.has("exponent")) {
             if (tr != Transform.POWER) {
               throw new ConfigException(f.p("exponent"), f.p("exponent") + ": only allowed with transform: power; remove it or set transform: power");
             }
-            exponent = f.number("exponent", 1.0, -1.0e3, false, 1.0e3, false, "use a non-zero number from -1000 to 1000");
-            if (exponent == 0) throw notAllowed(f.p("exponent"), f.get("exponent"), "use a non-zero number from -1000 to 1000");
+            exponent = ConfigKeys.EXPONENT.read(f);
+            if (exponent == 0) throw notAllowed(f.p("exponent"), f.get("exponent"), ConfigKeys.EXPONENT_ALLOWED);
           } else if (tr == Transform.POWER) {
             throw missing(f.p("exponent"), "give the power for transform: power, e.g. exponent: 0.5");
           }
-          Scaling sc = scaling(f, model);
-          double hl = f.number("weighting_half_life_records", 0, 0, false, 1.0e15, false, "use 0 (no weighting) or a number of records greater than 0");
-          double clip = f.number("clip", 0, 0, false, 1.0e6, false, "use 0 (off) or a bound on |z| greater than 0");
+          Scaling sc = scaling(f, model, ConfigKeys.NUMERIC_SCALING);
+          double hl = ConfigKeys.NUMERIC_WEIGHTING.read(f);
+          double clip = ConfigKeys.NUMERIC_CLIP.read(f);
           return new FeatureConfig.Numeric(name, field, tr, exponent, sc, hl, clip);
         }
         case "polynomial": {
-          f.allow(List.of("kind", "name", "field", "degree", "scaling", "weighting_half_life_records", "clip"));
+          f.allowScope("features.polynomial", "kind");
           String field = field(f, s, target, FieldType.NUMBER, null, "number field");
           String name = name(f, field);
           if (!f.has("degree")) throw missing(f.p("degree"), "give the highest power, a whole number from 1 to 16");
-          int degree = f.wholeInt("degree", 2, 1, 16);
-          Scaling sc = scaling(f, model);
-          double hl = f.number("weighting_half_life_records", 0, 0, false, 1.0e15, false, "use 0 (no weighting) or a number of records greater than 0");
-          double clip = f.number("clip", 0, 0, false, 1.0e6, false, "use 0 (off) or a bound on |z| greater than 0");
+          int degree = ConfigKeys.DEGREE.read(f);
+          Scaling sc = scaling(f, model, ConfigKeys.POLYNOMIAL_SCALING);
+          double hl = ConfigKeys.POLYNOMIAL_WEIGHTING.read(f);
+          double clip = ConfigKeys.POLYNOMIAL_CLIP.read(f);
           return new FeatureConfig.Polynomial(name, field, degree, sc, hl, clip);
         }
         case "cross": {
-          f.allow(List.of("kind", "name", "of"));
+          f.allowScope("features.cross", "kind");
           if (!f.has("of")) throw missing(f.p("of"), "name the two features to cross, e.g. of: [hub, hour_of_day]");
           JsonNode of = f.get("of");
           String allowed = "name two different features declared before this one, of kinds onehot or cyclic, e.g. of: [hub, hour_of_day]";
@@ -494,9 +528,9 @@ public final class ConfigLoader {
       }
     }
 
-    private Scaling scaling(Section f, PipelineConfig.Model model) {
-      Scaling def = model.constantTerm() ? Scaling.STANDARDIZE : Scaling.SCALE;
-      Scaling sc = f.choice("scaling", def, Scaling.values(), Scaling::word);
+    private Scaling scaling(Section f, PipelineConfig.Model model, ConfigKey<Scaling> key) {
+      // the key's default (standardize) needs the constant term; without it the default is scale
+      Scaling sc = f.has(key.name()) || model.constantTerm() ? key.read(f) : Scaling.SCALE;
       if (sc == Scaling.STANDARDIZE && !model.constantTerm()) {
         throw notAllowed(f.p("scaling"), f.get("scaling"),
             "standardize needs model.constant_term: true to absorb the centre; use scale or none");
@@ -531,26 +565,15 @@ public final class ConfigLoader {
     }
 
     private PipelineConfig.Model model(Section m) {
-      if (m == null) return new PipelineConfig.Model(true, 1.0, false, 1.0, 0L, true, 0.9, 500);
-      m.allow(List.of("constant_term", "prior_variance", "forgetting", "windup_guard", "interval_level", "noise_half_life_records"));
-      boolean constant = m.flag("constant_term", true);
-      double prior = 1.0;
-      boolean diffuse = false;
-      if (m.has("prior_variance")) {
-        JsonNode v = m.get("prior_variance");
-        String allowed = "use a number greater than 0, or the word diffuse";
-        if (v.isTextual() && v.asText().equals("diffuse")) {
-          diffuse = true;
-          prior = Double.POSITIVE_INFINITY;
-        } else {
-          prior = m.number("prior_variance", 1.0, 0, true, Double.MAX_VALUE, false, allowed);
-        }
-      }
-      double factor = 1.0;
+      m.allowScope("model");
+      boolean constant = ConfigKeys.CONSTANT_TERM.read(m);
+      double prior = ConfigKeys.PRIOR_VARIANCE.read(m);
+      boolean diffuse = prior == Double.POSITIVE_INFINITY;
+      double factor = ConfigKeys.FORGETTING_FACTOR.defaultValue();
       long halfLife = 0;
       if (m.has("forgetting")) {
         Section fg = m.section("forgetting");
-        fg.allow(List.of("factor", "half_life"));
+        fg.allowScope("model.forgetting");
         boolean hasF = fg.has("factor");
         boolean hasH = fg.has("half_life");
         if (hasF && hasH) {
@@ -559,31 +582,28 @@ public final class ConfigLoader {
         if (!hasF && !hasH) {
           throw new ConfigException(fg.path, fg.path + ": neither factor nor half_life is given; give exactly one, e.g. factor: 0.999 or half_life: P7D");
         }
-        factor = fg.number("factor", 1.0, 0, true, 1, false, "use a number greater than 0 and at most 1");
-        halfLife = fg.durationMillis("half_life");
+        factor = ConfigKeys.FORGETTING_FACTOR.read(fg);
+        halfLife = ConfigKeys.FORGETTING_HALF_LIFE.read(fg);
       }
-      boolean windup = m.flag("windup_guard", true);
-      double level = m.number("interval_level", 0.9, 0, true, 1, true, "use a number between 0 and 1 (both excluded), e.g. 0.9");
-      double noise = m.number("noise_half_life_records", 500, 0, true, 1.0e15, false, "use a number of records greater than 0");
-      return new PipelineConfig.Model(constant, prior, diffuse, factor, halfLife, windup, level, noise);
+      boolean towardsPrior = ConfigKeys.FORGET_TOWARDS_PRIOR.read(m);
+      double level = ConfigKeys.INTERVAL_LEVEL.read(m);
+      double noise = ConfigKeys.NOISE_HALF_LIFE_RECORDS.read(m);
+      return new PipelineConfig.Model(constant, prior, diffuse, factor, halfLife, towardsPrior, level, noise);
     }
 
     private PipelineConfig.Outputs outputs(Section o) {
-      if (o == null) return new PipelineConfig.Outputs(1000, 0, 1000);
-      o.allow(List.of("snapshot_every_records", "snapshot_every", "metrics_half_life_records"));
-      long every = o.whole("snapshot_every_records", 1000, 0, Long.MAX_VALUE);
-      long period = o.durationMillis("snapshot_every");
-      double metrics = o.number("metrics_half_life_records", 1000, 0, true, 1.0e15, false, "use a number of records greater than 0");
+      o.allowScope("outputs");
+      long every = ConfigKeys.SNAPSHOT_EVERY_RECORDS.read(o);
+      long period = ConfigKeys.SNAPSHOT_EVERY.read(o);
+      double metrics = ConfigKeys.METRICS_HALF_LIFE_RECORDS.read(o);
       return new PipelineConfig.Outputs(every, period, metrics);
     }
 
     private PipelineConfig.Kafka kafka(Section k) {
-      PipelineConfig.Embedded defEmbedded = new PipelineConfig.Embedded(".runnel/broker", 0);
-      if (k == null) return new PipelineConfig.Kafka("", 1000, 5000, Map.of(), defEmbedded);
-      k.allow(List.of("bootstrap_servers", "commit_interval_ms", "commit_interval_records", "client_properties", "embedded"));
-      String servers = k.text("bootstrap_servers", "", "use host:port[,host:port...], or \"\" for the embedded broker");
-      long ms = k.whole("commit_interval_ms", 1000, 1, 3_600_000);
-      long recs = k.whole("commit_interval_records", 5000, 1, 1_000_000_000);
+      k.allowScope("kafka");
+      String servers = ConfigKeys.BOOTSTRAP_SERVERS.read(k);
+      long ms = ConfigKeys.COMMIT_INTERVAL_MS.read(k);
+      long recs = ConfigKeys.COMMIT_INTERVAL_RECORDS.read(k);
       LinkedHashMap<String, String> props = new LinkedHashMap<>();
       if (k.has("client_properties")) {
         Section cp = k.section("client_properties");
@@ -597,50 +617,37 @@ public final class ConfigLoader {
           props.put(e.getKey(), v.asText());
         }
       }
-      PipelineConfig.Embedded embedded = defEmbedded;
-      if (k.has("embedded")) {
-        Section em = k.section("embedded");
-        em.allow(List.of("data_dir", "port"));
-        String dir = em.text("data_dir", ".runnel/broker", "use a folder path");
-        if (dir.isEmpty()) throw notAllowed(em.p("data_dir"), em.get("data_dir"), "use a folder path");
-        int port = em.wholeInt("port", 0, 0, 65535);
-        embedded = new PipelineConfig.Embedded(dir, port);
-      }
+      Section em = sectionOrEmpty(k, "embedded");
+      em.allowScope("kafka.embedded");
+      PipelineConfig.Embedded embedded = new PipelineConfig.Embedded(ConfigKeys.EMBEDDED_DATA_DIR.read(em),
+          ConfigKeys.EMBEDDED_PORT.read(em));
       return new PipelineConfig.Kafka(servers, ms, recs, props, embedded);
     }
 
     private PipelineConfig.Drift drift(Section d) {
-      PipelineConfig.Drift def = PipelineConfig.Drift.DEFAULTS;
-      if (d == null) return def;
-      d.allow(List.of("weight_alarm_se", "baseline", "baseline_snapshots", "error_test", "error_allowance",
-          "error_threshold", "error_warmup_records", "alarm_hold_snapshots"));
-      double k = d.number("weight_alarm_se", def.weightAlarmSe(), 0, false, 1.0e6, false,
-          "use 0 (off) or a number of standard errors greater than 0, e.g. 4");
-      DriftBaseline baseline = d.choice("baseline", def.baseline(), DriftBaseline.values(), DriftBaseline::word);
+      d.allowScope("drift");
+      double k = ConfigKeys.WEIGHT_ALARM_SE.read(d);
+      DriftBaseline baseline = ConfigKeys.BASELINE.read(d);
       if (d.has("baseline_snapshots") && baseline != DriftBaseline.SNAPSHOTS_AGO) {
         throw new ConfigException(d.p("baseline_snapshots"), d.p("baseline_snapshots")
             + ": only allowed with baseline: snapshots_ago; remove it or set baseline: snapshots_ago");
       }
-      int back = d.wholeInt("baseline_snapshots", def.baselineSnapshots(), 1, 10_000);
+      int back = ConfigKeys.BASELINE_SNAPSHOTS.read(d);
       // YAML 1.1 reads a bare off as false: accept it as the word off
       ErrorTest test = d.has("error_test") && d.get("error_test").isBoolean() && !d.get("error_test").asBoolean()
-          ? ErrorTest.OFF : d.choice("error_test", def.errorTest(), ErrorTest.values(), ErrorTest::word);
-      double delta = d.number("error_allowance", def.errorAllowance(), 0, false, 100, false,
-          "use a number from 0 to 100 (units of the absolute standardized error), e.g. 0.1");
-      double lambda = d.number("error_threshold", def.errorThreshold(), 0, true, 1.0e9, false,
-          "use a number greater than 0 (units of the absolute standardized error), e.g. 30");
-      long warm = d.whole("error_warmup_records", def.errorWarmupRecords(), 1, 1_000_000_000);
-      int hold = d.wholeInt("alarm_hold_snapshots", def.alarmHoldSnapshots(), 1, 10_000);
+          ? ErrorTest.OFF : ConfigKeys.ERROR_TEST.read(d);
+      double delta = ConfigKeys.ERROR_ALLOWANCE.read(d);
+      double lambda = ConfigKeys.ERROR_THRESHOLD.read(d);
+      long warm = ConfigKeys.ERROR_WARMUP_RECORDS.read(d);
+      int hold = ConfigKeys.ALARM_HOLD_SNAPSHOTS.read(d);
       return new PipelineConfig.Drift(k, baseline, back, test, delta, lambda, warm, hold);
     }
 
     private PipelineConfig.Web web(Section w) {
-      if (w == null) return new PipelineConfig.Web(true, "127.0.0.1", 8642);
-      w.allow(List.of("enabled", "bind", "port"));
-      boolean enabled = w.flag("enabled", true);
-      String bind = w.text("bind", "127.0.0.1", "use an address to listen on, e.g. 127.0.0.1");
-      if (bind.isEmpty()) throw notAllowed(w.p("bind"), w.get("bind"), "use an address to listen on, e.g. 127.0.0.1");
-      int port = w.wholeInt("port", 8642, 0, 65535);
+      w.allowScope("web");
+      boolean enabled = ConfigKeys.WEB_ENABLED.read(w);
+      String bind = ConfigKeys.WEB_BIND.read(w);
+      int port = ConfigKeys.WEB_PORT.read(w);
       return new PipelineConfig.Web(enabled, bind, port);
     }
   }

@@ -14,12 +14,24 @@ import java.util.Optional;
  * @param name pipeline name; output topics are {@code <name>.predictions} etc.
  * @param sourceName where the configuration came from (a file name), for messages
  * @param drift the {@code drift} section: weight and error-level alarms
+ * @param warnings what the loader found probably unintended (a key left out whose default is
+ *     surprising, a former key name), in the order found; the commands print them at start
  */
 public record PipelineConfig(String name, Input input, String target, List<FeatureConfig> features, Model model,
-                             Outputs outputs, Kafka kafka, Web web, String sourceName, Drift drift) {
+                             Outputs outputs, Kafka kafka, Web web, String sourceName, Drift drift,
+                             List<ConfigWarning> warnings) {
 
-  /** Copies the feature list. */
-  public PipelineConfig { features = List.copyOf(features); }
+  /** Copies the lists. */
+  public PipelineConfig {
+    features = List.copyOf(features);
+    warnings = List.copyOf(warnings);
+  }
+
+  /** A configuration with no warnings. */
+  public PipelineConfig(String name, Input input, String target, List<FeatureConfig> features, Model model,
+                        Outputs outputs, Kafka kafka, Web web, String sourceName, Drift drift) {
+    this(name, input, target, features, model, outputs, kafka, web, sourceName, drift, List.of());
+  }
 
   /** A configuration with the default {@code drift} section. */
   public PipelineConfig(String name, Input input, String target, List<FeatureConfig> features, Model model,
@@ -35,7 +47,7 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
   public PipelineConfig withNameAndTopic(String newName, String newTopic) {
     return new PipelineConfig(newName,
         new Input(Optional.of(newTopic), input.schema(), input.eventTime(), input.timeZone(), input.limits()),
-        target, features, model, outputs, kafka, web, sourceName, drift);
+        target, features, model, outputs, kafka, web, sourceName, drift, warnings);
   }
 
   /** The slot of the target field in {@code input().schema()}. */
@@ -57,8 +69,14 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
   /**
    * The {@code model} section.
    *
-   * @param priorVariance prior variance of each weight in standardized units; {@code +Infinity} when diffuse
-   * @param diffuse no prior: weights are reported once the information is full rank
+   * @param priorVariance prior variance of each weight in standardized units; {@code +Infinity} for
+   *     {@code prior_variance: no_prior}
+   * @param diffuse no prior ({@code prior_variance: no_prior}): weights are reported once the
+   *     information is full rank
+   * @param windupGuard key {@code model.forget_towards_prior} (formerly {@code windup_guard}): forgetting
+   *     pulls each weight's information back towards the prior, so unseen columns' variance stays
+   *     bounded (the component keeps its old name: a checkpoint's configuration fingerprint is
+   *     computed from this record's text)
    * @param forgettingFactor per-record factor in (0, 1]; 1 when a half-life is used instead
    * @param forgettingHalfLifeMillis event-time half-life of the data's weight; 0 when the factor is used
    * @param noiseHalfLifeRecords fading window of the noise-variance estimate, in records

@@ -23,6 +23,19 @@ public record ModelSettings(double priorVariance, boolean constantTerm, boolean 
   /** The {@code priorVariance} meaning "no prior": information starts at exactly zero. */
   public static final double DIFFUSE = Double.POSITIVE_INFINITY;
 
+  // The defaults, one place: the configuration's keys (dev.runnel.core.config.ConfigKeys) take
+  // theirs from here, and docs/configuration.md is checked against them (ConfigDocsTest).
+  /** Default prior variance (configuration key {@code model.prior_variance}). */
+  public static final double DEFAULT_PRIOR_VARIANCE = 1.0;
+  /** Default of {@code constantTerm} (configuration key {@code model.constant_term}). */
+  public static final boolean DEFAULT_CONSTANT_TERM = true;
+  /** Default of {@code windupGuard} (configuration key {@code model.forget_towards_prior}). */
+  public static final boolean DEFAULT_WINDUP_GUARD = true;
+  /** Default interval coverage (configuration key {@code model.interval_level}). */
+  public static final double DEFAULT_INTERVAL_LEVEL = 0.9;
+  /** Default noise half-life in records (configuration key {@code model.noise_half_life_records}). */
+  public static final double DEFAULT_NOISE_HALF_LIFE_RECORDS = 500;
+
   /**
    * Checks every setting.
    *
@@ -30,26 +43,29 @@ public record ModelSettings(double priorVariance, boolean constantTerm, boolean 
    */
   public ModelSettings {
     if (!(priorVariance > 0)) {
-      throw new IllegalArgumentException(
-          "model.prior-variance must be positive (or DIFFUSE = +Infinity), got " + priorVariance);
+      throw new IllegalArgumentException("priorVariance (model.prior_variance): " + priorVariance
+          + " is not allowed; use a number greater than 0, or DIFFUSE (+Infinity) for no prior");
     }
     if (!(intervalZ > 0) || Double.isInfinite(intervalZ)) {
-      throw new IllegalArgumentException("model.interval-z must be positive and finite, got " + intervalZ);
+      throw new IllegalArgumentException("intervalZ: " + intervalZ
+          + " is not allowed; use a positive finite z-value, e.g. zForLevel(model.interval_level)");
     }
     if (!(noiseHalfLifeRecords > 0)) {
-      throw new IllegalArgumentException(
-          "model.noise-half-life-records must be positive (or +Infinity), got " + noiseHalfLifeRecords);
+      throw new IllegalArgumentException("noiseHalfLifeRecords (model.noise_half_life_records): " + noiseHalfLifeRecords
+          + " is not allowed; use a number of records greater than 0, or +Infinity for a plain mean");
     }
   }
 
   /**
-   * Defaults: prior variance 100, constant term, windup guard on, 90 % interval, noise half-life
-   * 1000 records.
+   * The defaults, the same as a configuration's {@code model} section with no keys: the
+   * {@code DEFAULT_} constants above (prior variance 1, constant term, windup guard on, 90 %
+   * interval, noise half-life 500 records).
    *
    * @return the default settings
    */
   public static ModelSettings defaults() {
-    return new ModelSettings(100.0, true, true, zForLevel(0.90), 1000.0);
+    return new ModelSettings(DEFAULT_PRIOR_VARIANCE, DEFAULT_CONSTANT_TERM, DEFAULT_WINDUP_GUARD,
+        zForLevel(DEFAULT_INTERVAL_LEVEL), DEFAULT_NOISE_HALF_LIFE_RECORDS);
   }
 
   /** @return whether there is no prior ({@code priorVariance == DIFFUSE}) */
@@ -106,7 +122,8 @@ public record ModelSettings(double priorVariance, boolean constantTerm, boolean 
    */
   public static double zForLevel(double level) {
     if (!(level > 0 && level < 1)) {
-      throw new IllegalArgumentException("model.interval-level must be in (0, 1), got " + level);
+      throw new IllegalArgumentException("level (model.interval_level): " + level
+          + " is not allowed; use a number between 0 and 1 (both excluded), e.g. 0.9");
     }
     return NormalQuantile.inverseCdf(0.5 + 0.5 * level);
   }

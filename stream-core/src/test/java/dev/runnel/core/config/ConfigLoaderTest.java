@@ -57,7 +57,7 @@ class ConfigLoaderTest {
       `    field: temperature_c\\n    transform: none` | `    field: sessions\\n    transform: none` | features[2].field: "sessions" is not allowed; it is the target, and a feature must not read the target; name a declared number field: temperature_c, price_per_kwh
       `    transform: log1p` | `    transform: log2` | features[3].transform: "log2" is not allowed; use one of none, log1p, sqrt, power
       `  interval_level: 0.9` | `  interval_level: 1` | model.interval_level: 1 is not allowed; use a number between 0 and 1 (both excluded), e.g. 0.9
-      `  prior_variance: 1.0` | `  prior_variance: none` | model.prior_variance: "none" is not allowed; use a number greater than 0, or the word diffuse
+      `  prior_variance: 1.0` | `  prior_variance: none` | model.prior_variance: "none" is not allowed; use a number greater than 0, or the word no_prior
       `  bind: 127.0.0.1` | `  bind: 127.0.0.1\\n  enabld: true` | web.enabld: unknown key; did you mean enabled?
       `    sessions: number` | `    sessions: integer` | input.fields.sessions: "integer" is not allowed; use one of text, number, flag, time
       `    hub: text` | `    hub: text\\n   bad: [1` | quillmarsh.yaml: YAML syntax error at line 6, column 4: expected <block end>, but found '<block mapping start>' (while parsing a block mapping)
@@ -133,10 +133,21 @@ class ConfigLoaderTest {
     assertEquals(0, c.targetSlot());
   }
 
-  @Test void noConstantTerm_defaultsScalingToScale_andHalfLifeAndDiffuseParse() {
+  @Test void modelSettingsDefaults_equalAnEmptyModelSection() {
+    // ModelSettings.defaults() once said prior variance 100 and noise half-life 1000 while the loader gave 1 and 500
+    PipelineConfig.Model m = ConfigLoader.parse("name: m\ninput:\n  fields: {y: number}\ntarget: y\n", "m.yaml").model();
+    dev.runnel.core.model.ModelSettings d = dev.runnel.core.model.ModelSettings.defaults();
+    assertEquals(d.priorVariance(), m.priorVariance());
+    assertEquals(d.constantTerm(), m.constantTerm());
+    assertEquals(d.windupGuard(), m.windupGuard());
+    assertEquals(d.intervalZ(), dev.runnel.core.model.ModelSettings.zForLevel(m.intervalLevel()));
+    assertEquals(d.noiseHalfLifeRecords(), m.noiseHalfLifeRecords());
+  }
+
+  @Test void noConstantTerm_defaultsScalingToScale_andHalfLifeAndNoPriorParse() {
     PipelineConfig c = ConfigLoader.parse("name: m\ninput:\n  fields: {y: number, x: number}\ntarget: y\n"
         + "features:\n  - {kind: numeric, field: x}\n"
-        + "model: {constant_term: false, prior_variance: diffuse, forgetting: {half_life: P7D}}\n", "m.yaml");
+        + "model: {constant_term: false, prior_variance: no_prior, forgetting: {half_life: P7D}}\n", "m.yaml");
     assertEquals(Scaling.SCALE, ((FeatureConfig.Numeric) c.features().get(0)).scaling());
     assertTrue(c.model().diffuse());
     assertEquals(Double.POSITIVE_INFINITY, c.model().priorVariance());

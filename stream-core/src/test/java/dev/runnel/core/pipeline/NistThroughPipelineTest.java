@@ -89,7 +89,7 @@ class NistThroughPipelineTest {
         columns.add("x" + k);
       }
     }
-    yaml.append("model:\n  constant_term: ").append(constant).append("\n  prior_variance: diffuse\n");
+    yaml.append("model:\n  constant_term: ").append(constant).append("\n  prior_variance: no_prior\n");
     yaml.append("outputs:\n  snapshot_every_records: 0\n");
     PipelineConfig cfg = ConfigLoader.parse(yaml.toString(), name + ".yaml");
     PipelineStep step = new PipelineStep(cfg);
