@@ -277,7 +277,7 @@ public final class ConfigLoader {
     }
 
     private PipelineConfig.Input input(Section in) {
-      in.allow(List.of("topic", "fields", "event_time", "time_zone", "limits"));
+      in.allow(List.of("topic", "fields", "event_time", "time_zone", "limits", "clock"));
       Optional<String> topic = Optional.empty();
       if (in.has("topic")) {
         String t = in.text("topic", null, "use a Kafka topic name");
@@ -352,7 +352,15 @@ public final class ConfigLoader {
         }
         limits = new RecordLimits(maxText, maxBytes, maxAbs, minYear, maxYear);
       }
-      return new PipelineConfig.Input(topic, schema, eventTime, zone, limits);
+      PipelineConfig.Clock clock = PipelineConfig.Clock.DEFAULTS;
+      if (in.has("clock")) {
+        Section c = in.section("clock");
+        c.allow(List.of("max_ahead", "confirm_records"));
+        long ahead = c.durationMillis("max_ahead");
+        int confirm = c.wholeInt("confirm_records", clock.confirmRecords(), 1, 1000);
+        clock = new PipelineConfig.Clock(ahead == 0 ? clock.maxAheadMillis() : ahead, confirm);
+      }
+      return new PipelineConfig.Input(topic, schema, eventTime, zone, limits, clock);
     }
 
     private static List<String> fieldsOfType(RecordSchema s, FieldType a, FieldType b) {

@@ -26,7 +26,7 @@ class CrossFeatureTest {
     r.setText(0, hub);
     r.setFlag(1, holiday);
     r.setNumber(2, 1.0);
-    f.learnAndEncode(r, t, row);
+    f.learnAndEncode(r, t, t, row);
     assertEquals(f.columnNames(), l.names, "listener follows the layout");
   }
 
