@@ -75,6 +75,7 @@ public final class PipelineStep {
   private long trained;
   private long forecasts;
   private long warmingUp;
+  private long modelRestarts;
   private long rejected;
   private final long[] rejectCounts = new long[RejectReason.values().length];
   private long trainedAtLastSnapshot;
@@ -176,6 +177,13 @@ public final class PipelineStep {
       }
       // periods are half-open [start, end): the record that opens a period first closes the last
       periodSnapshotBefore(verdict, sink);
+      if (clock.forgetsAll()) {
+        // 64 half-lives or more since the clock: what came before weighs under 2^-64 of this
+        // record; the model starts again from its prior over the current columns
+        model = new RlsModel(featurizer.dimension(), modelSettings(config));
+        featurizer.setListener(model);
+        modelRestarts++;
+      }
     }
     double y = hasTarget ? record.number(targetSlot) : Double.NaN;
     ensureRow();
@@ -342,6 +350,9 @@ public final class PipelineStep {
 
   /** Rejected records. */
   public long rejected() { return rejected; }
+
+  /** Times the model restarted from its prior after a step of 64 half-lives or more (since this step was made or restored). */
+  public long modelRestarts() { return modelRestarts; }
 
   /** Rejected records with this reason. */
   public long rejected(RejectReason reason) { return rejectCounts[reason.ordinal()]; }

@@ -29,9 +29,11 @@ import java.io.IOException;
  *       so a wrong first record (dated 2039) is overruled by {@code K} agreeing ordinary ones and
  *       the clock moves back to them.</li>
  * </ol>
- * Forgetting by event time is floored at {@link #MIN_LAMBDA} ({@value #MAX_HALVINGS} half-lives in
- * one step): past that the data before the gap weighs less than one part in 2^64 and the model
- * is as good as back on its prior, while every factor stays a positive, exact power of two.
+ * Forgetting by event time never reaches zero: a step of {@value #MAX_HALVINGS} half-lives or more
+ * ({@link #forgetsAll()}) leaves the data before it weighing less than one part in 2^64, below a
+ * double's resolution, so the step restarts the model from its prior over the current columns
+ * instead of decaying it (the factor is then 1); every other factor is {@code 2^(-Δt/h)} in
+ * ({@link #MIN_LAMBDA}, 1].
  *
  * <p>The horizon work extends this one clock (forecasts issued ahead, actuals arriving late or
  * twice): records behind the clock are where late actuals land, and the jump rule is the only way
@@ -42,7 +44,7 @@ public final class StreamClock {
   /** Most half-lives forgotten in one step. */
   public static final int MAX_HALVINGS = 64;
 
-  /** The smallest forgetting factor the clock gives by event time: {@code 2^-64}. */
+  /** Every factor by event time is above this ({@code 2^-64}); a step that would forget more forgets all. */
   public static final double MIN_LAMBDA = 0x1p-64;
 
   /** What {@link #accept} decided. */
@@ -70,6 +72,8 @@ public final class StreamClock {
   private long jumps;
   /** The forgetting factor for the record accepted last. */
   private double lambda = 1.0;
+  /** Whether the record accepted last forgets all the data before it. */
+  private boolean forgetsAll;
   private String detail = "";
 
   /**
@@ -104,6 +108,7 @@ public final class StreamClock {
       nowMillis = t;
       support = 1;
       lambda = halfLifeMillis > 0 ? 1.0 : factor;
+      forgetsAll = false;
       clearRun();
       return Verdict.ACCEPTED;
     }
@@ -153,6 +158,7 @@ public final class StreamClock {
 
   /** The forgetting factor for a step of {@code d} ms (none backwards), floored at {@link #MIN_LAMBDA}. */
   private double lambdaFor(long d) {
+    forgetsAll = false;
     if (halfLifeMillis <= 0) {
       return factor;
     }
@@ -160,7 +166,11 @@ public final class StreamClock {
       return 1.0;
     }
     double halvings = d / halfLifeMillis;
-    return halvings >= MAX_HALVINGS ? MIN_LAMBDA : StrictMath.pow(2.0, -halvings);
+    if (halvings >= MAX_HALVINGS) {
+      forgetsAll = true;
+      return 1.0;
+    }
+    return StrictMath.pow(2.0, -halvings);
   }
 
   private static String span(long ms) {
@@ -172,6 +182,13 @@ public final class StreamClock {
 
   /** The forgetting factor for the record accepted last. */
   public double lambda() { return lambda; }
+
+  /**
+   * Whether the record accepted last comes {@value #MAX_HALVINGS} half-lives or more after the
+   * clock: the data before it is forgotten entirely and the model restarts from its prior
+   * ({@link #lambda()} is then 1, for the fresh model).
+   */
+  public boolean forgetsAll() { return forgetsAll; }
 
   /** Jumps accepted since the state began. */
   public long jumps() { return jumps; }

@@ -78,7 +78,8 @@ class StreamClockTest {
     assertEquals(StreamClock.Verdict.REJECTED, c.accept(back + HOUR));
     assertEquals(StreamClock.Verdict.JUMPED, c.accept(back + 2 * HOUR));
     assertEquals(back + 2 * HOUR, c.nowMillis());
-    assertEquals(StreamClock.MIN_LAMBDA, c.lambda(), "170 half-lives: floored");
+    assertTrue(c.forgetsAll(), "170 half-lives: everything before is forgotten");
+    assertEquals(1.0, c.lambda(), "for the model restarted from its prior");
     assertEquals(1, c.jumps());
     assertEquals(StreamClock.Verdict.ACCEPTED, c.accept(back + 3 * HOUR));
     assertEquals(0.5, c.lambda());
@@ -112,11 +113,15 @@ class StreamClockTest {
     c.accept(0);
     c.accept(63);
     assertEquals(0x1p-63, c.lambda());
+    assertTrue(!c.forgetsAll());
     c.accept(63 + 64);
-    assertEquals(StreamClock.MIN_LAMBDA, c.lambda());
+    assertTrue(c.forgetsAll());
+    assertEquals(1.0, c.lambda());
+    c.accept(63 + 64 + 1);
+    assertTrue(!c.forgetsAll());
+    assertEquals(0.5, c.lambda());
     c.accept(Long.MAX_VALUE / 8);
-    assertEquals(StreamClock.MIN_LAMBDA, c.lambda());
-    assertTrue(c.lambda() > 0);
+    assertTrue(c.forgetsAll());
   }
 
   @Test void settingsOutOfRangeNameTheKey() {
@@ -160,7 +165,7 @@ class StreamClockTest {
         assertEquals(ref.now, c.nowMillis(), "trial " + trial + " record " + i);
         if (v != StreamClock.Verdict.REJECTED) {
           assertTrue(c.lambda() > 0 && c.lambda() <= 1, "lambda " + c.lambda());
-          assertTrue(c.lambda() >= StreamClock.MIN_LAMBDA);
+          assertTrue(c.lambda() > StreamClock.MIN_LAMBDA);
         }
       }
       StreamClock copy = new StreamClock(a, k, 1.0, HOUR);
