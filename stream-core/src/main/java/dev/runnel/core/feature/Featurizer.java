@@ -755,8 +755,8 @@ public final class Featurizer {
       if (!memoFilled[e] || memoAngle[e] != bits) {
         for (int k = 1; k <= w / 2; k++) {
           double a = base * k;
-          m[e * w + 2 * k - 2] = Math.sin(a);
-          m[e * w + 2 * k - 1] = Math.cos(a);
+          m[e * w + 2 * k - 2] = StrictMath.sin(a);
+          m[e * w + 2 * k - 1] = StrictMath.cos(a);
         }
         memoAngle[e] = bits;
         memoFilled[e] = true;
