@@ -26,16 +26,25 @@ import java.util.Arrays;
  *
  * <p>Order of work for a record that carries its target (test, then train):
  * <ol>
- *   <li>decode; on bad input a reject, and nothing else changes;</li>
- *   <li>featurize with learning: vocabulary expiry and admission and scaler changes reach the
- *       model first (as layout events), so the row is encoded in the model's current basis;</li>
+ *   <li>decode, pick the event time (the one "event time missing" check) and check the fields;
+ *       on bad input a reject, and nothing else changes;</li>
+ *   <li>the {@link StreamClock} decides on the time: a jump it does not (yet) accept is a
+ *       {@code time_jump} reject, and nothing but the clock's pending run changes;</li>
+ *   <li>if the clock entered a later snapshot period, the snapshot of the period that ended is
+ *       published now, without this record (periods are half-open);</li>
+ *   <li>featurize with learning: vocabulary expiry (by the clock) and admission and scaler
+ *       changes reach the model first (as layout events), so the row is encoded in the model's
+ *       current basis;</li>
  *   <li>predict with the model as it was before this record's target (a priori), with the
- *       interval;</li>
- *   <li>update the model (forgetting by the record factor or the event-time half-life);</li>
- *   <li>update the metrics with the a priori error.</li>
+ *       interval; {@code warming_up} (no value) while the model has no weights or no noise
+ *       estimate;</li>
+ *   <li>update the model, forgetting by the clock's factor (after 64 half-lives or more the model
+ *       restarts from its prior instead);</li>
+ *   <li>update the metrics with the a priori error of a {@code scored} record; publish; a
+ *       snapshot every N training records comes after the N-th.</li>
  * </ol>
- * A record without the target is a forecast request: it is encoded read-only and scored, and
- * changes no state at all.
+ * A record without the target is a forecast request: it is encoded read-only and scored at its
+ * own time, and changes no state at all (not even the clock).
  */
 public final class PipelineStep {
 
