@@ -80,7 +80,7 @@ public class DecodeBenchmark {
     }
     long t = record.eventTimeMillis();
     if (featurizer.hasTarget(record)) {
-      featurizer.learnAndEncode(record, t, row);
+      featurizer.learnAndEncode(record, t, t, row);
     } else {
       featurizer.encode(record, t, row);
     }

@@ -80,7 +80,7 @@ public final class MemoryBenchmark {
       int len = encode(buf, r.nextInt(distinct), r.nextDouble(), r.nextDouble());
       if (decoder.decode(buf, 0, len, rec) == null && f.check(rec) == null) {
         if (row.length < f.maxDimension()) row = new double[f.maxDimension() + 8];
-        f.learnAndEncode(rec, i, row);
+        f.learnAndEncode(rec, i, i, row);
       }
       if ((i + 1) % 1_000_000 == 0) {
         System.gc();

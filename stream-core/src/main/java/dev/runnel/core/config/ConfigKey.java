@@ -107,6 +107,12 @@ public final class ConfigKey<T> {
         (s, n, k) -> s.durationMillis(n), List.of());
   }
 
+  /** An ISO 8601 duration with a default span; {@code defaultText} is that span as written in the docs (e.g. {@code P1D}). */
+  static ConfigKey<Long> duration(String scope, String name, long defaultMillis, String defaultText) {
+    return new ConfigKey<>(scope, name, "ISO 8601 duration", defaultMillis, defaultText, ConfigLoader.DURATION_ALLOWED,
+        (s, n, k) -> s.has(n) ? s.durationMillis(n) : k.defaultValue, List.of());
+  }
+
   /**
    * A key the loader reads by hand (a mapping, a list, a required text, a value with special words),
    * listed here so it is accepted, suggested and documented like every other key.

@@ -63,6 +63,9 @@ public final class ConfigKeys {
   public static final ConfigKey<Double> MAX_ABS_VALUE = add(ConfigKey.number("input.limits", "max_abs_value", LIMITS.maxAbsValue(), 0, true, Double.MAX_VALUE, false, "use a number greater than 0, e.g. 1.0e12"));
   public static final ConfigKey<Integer> MIN_YEAR = add(ConfigKey.wholeInt("input.limits", "min_year", LIMITS.minYear(), 1, 9999));
   public static final ConfigKey<Integer> MAX_YEAR = add(ConfigKey.wholeInt("input.limits", "max_year", LIMITS.maxYear(), 1, 9999));
+  public static final ConfigKey<?> CLOCK_SECTION = add(ConfigKey.structured("input", "clock", "mapping", "all defaults"));
+  public static final ConfigKey<Long> CLOCK_MAX_AHEAD = add(ConfigKey.duration("input.clock", "max_ahead", PipelineConfig.Clock.DEFAULTS.maxAheadMillis(), "P1D"));
+  public static final ConfigKey<Integer> CLOCK_CONFIRM_RECORDS = add(ConfigKey.wholeInt("input.clock", "confirm_records", PipelineConfig.Clock.DEFAULTS.confirmRecords(), 1, 1000));
 
   // ---- features: kind onehot ----
   public static final ConfigKey<?> ONEHOT_FIELD = add(ConfigKey.structured("features.onehot", "field", "text", "required"));

@@ -386,7 +386,10 @@ public final class ConfigLoader {
             "use a year from min_year (" + minYear + ") to 9999");
       }
       RecordLimits limits = new RecordLimits(maxText, maxBytes, maxAbs, minYear, maxYear);
-      return new PipelineConfig.Input(topic, schema, eventTime, zone, limits);
+      Section c = sectionOrEmpty(in, "clock");
+      c.allowScope("input.clock");
+      PipelineConfig.Clock clock = new PipelineConfig.Clock(ConfigKeys.CLOCK_MAX_AHEAD.read(c), ConfigKeys.CLOCK_CONFIRM_RECORDS.read(c));
+      return new PipelineConfig.Input(topic, schema, eventTime, zone, limits, clock);
     }
 
     private static List<String> fieldsOfType(RecordSchema s, FieldType a, FieldType b) {

@@ -46,7 +46,7 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    */
   public PipelineConfig withNameAndTopic(String newName, String newTopic) {
     return new PipelineConfig(newName,
-        new Input(Optional.of(newTopic), input.schema(), input.eventTime(), input.timeZone(), input.limits()),
+        new Input(Optional.of(newTopic), input.schema(), input.eventTime(), input.timeZone(), input.limits(), input.clock()),
         target, features, model, outputs, kafka, web, sourceName, drift, warnings);
   }
 
@@ -59,9 +59,28 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    * @param topic the input topic, if given
    * @param eventTime where the event time is read, if anywhere
    * @param timeZone zone for calendar features
+   * @param clock {@code input.clock}: the event-time policy
    */
   public record Input(Optional<String> topic, RecordSchema schema, Optional<EventTime> eventTime, ZoneId timeZone,
-                      RecordLimits limits) { }
+                      RecordLimits limits, Clock clock) {
+    /** An input with the default {@code input.clock}. */
+    public Input(Optional<String> topic, RecordSchema schema, Optional<EventTime> eventTime, ZoneId timeZone,
+                 RecordLimits limits) {
+      this(topic, schema, eventTime, timeZone, limits, Clock.DEFAULTS);
+    }
+  }
+
+  /**
+   * {@code input.clock}: how far a training record may jump ahead of the stream clock, and how
+   * many consecutive agreeing records confirm a larger jump (docs/model.md, "The stream clock").
+   *
+   * @param maxAheadMillis {@code max_ahead}, at least 1 ms
+   * @param confirmRecords {@code confirm_records}, at least 1
+   */
+  public record Clock(long maxAheadMillis, int confirmRecords) {
+    /** The defaults: one day ahead, three records to confirm a jump. */
+    public static final Clock DEFAULTS = new Clock(86_400_000L, 3);
+  }
 
   /** {@code input.event_time}: the field that holds the event time and its format. */
   public record EventTime(String field, TimeFormat format) { }

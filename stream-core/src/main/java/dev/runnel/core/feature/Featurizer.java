@@ -42,8 +42,8 @@ import java.util.List;
  */
 public final class Featurizer {
 
-  /** Checkpoint format written by {@link #writeTo}. */
-  public static final int FORMAT_VERSION = 1;
+  /** Checkpoint format written by {@link #writeTo}; 2 no longer carries a stream time (the step's clock does). */
+  public static final int FORMAT_VERSION = 2;
 
   /** One column of the layout. */
   static final class Column {
@@ -101,13 +101,11 @@ public final class Featurizer {
   private final int[] requiredSlots;
   private final int maxDimension;
   private final int targetSlot;
-  private final int eventTimeSlot;
   private Column[] columns;
   private int dimension;
   private long layoutVersion;
   private LayoutListener listener = LayoutListener.NONE;
   private long trainingRecords;
-  private long streamTimeMillis = Long.MIN_VALUE;
   private String detail = "";
 
   /** Builds the featurizer for {@code config} with the schema it declares. */
@@ -127,7 +125,6 @@ public final class Featurizer {
     this.schema = schema;
     this.constantTerm = config.model().constantTerm();
     this.targetSlot = schema.slot(config.target());
-    this.eventTimeSlot = config.input().eventTime().map(e -> schema.slot(e.field())).orElse(-1);
     List<FeatureConfig> fcs = config.features();
     features = new Feature[fcs.size()];
     long max = constantTerm ? 1 : 0;
@@ -221,8 +218,6 @@ public final class Featurizer {
   /** Training records seen by {@link #learnAndEncode}. */
   public long trainingRecords() { return trainingRecords; }
 
-  /** Largest event time passed to {@link #learnAndEncode}; {@code Long.MIN_VALUE} before any. */
-  public long streamTimeMillis() { return streamTimeMillis; }
 
   /** The configuration this featurizer was built from. */
   public PipelineConfig config() { return config; }
@@ -275,19 +270,15 @@ public final class Featurizer {
   public RejectReason check(EventRecord r) { return check(r, false); }
 
   /**
-   * Checks that every input the features need is present and valid: the event-time field when
-   * one is configured, each feature's field, each transform's domain; and the target when
-   * {@code requireTarget}. Reads state only.
+   * Checks that every input the features need is present and valid: each feature's field, each
+   * transform's domain; and the target when {@code requireTarget}. (Whether the event time is
+   * present is the pipeline step's one check: it picks the time.) Reads state only.
    *
    * @param r a decoded record. Not modified.
    * @return null when the record can be featurized, else the reason ({@link #lastDetail()} says more)
    */
   public RejectReason check(EventRecord r, boolean requireTarget) {
     detail = "";
-    if (eventTimeSlot >= 0 && !r.hasEventTime()) {
-      detail = "field " + schema.name(eventTimeSlot) + " (the event time): missing";
-      return RejectReason.MISSING_FIELD;
-    }
     if (!plainlyValid(r)) {
       for (Feature f : features) {
         RejectReason why = f.check(r, this);
@@ -343,14 +334,16 @@ public final class Featurizer {
    *
    * @param r a checked record. Not modified.
    * @param eventTimeMillis the record's event time (from the record or the transport)
+   * @param clockMillis the stream clock after this record (the pipeline step's
+   *     {@code StreamClock}; at least {@code eventTimeMillis} unless the record is late): levels
+   *     expire by it
    * @param out receives the row in {@code out[0 .. dimension())} with the layout after this call;
    *     length at least {@link #maxDimension()} is always enough. Modified.
    */
-  public void learnAndEncode(EventRecord r, long eventTimeMillis, double[] out) {
+  public void learnAndEncode(EventRecord r, long eventTimeMillis, long clockMillis, double[] out) {
     trainingRecords++;
-    if (eventTimeMillis > streamTimeMillis) streamTimeMillis = eventTimeMillis;
     OneHot[] hs = oneHots;
-    for (int i = 0; i < hs.length; i++) hs[i].touchAndExpire(r, eventTimeMillis, this);
+    for (int i = 0; i < hs.length; i++) hs[i].touchAndExpire(r, eventTimeMillis, clockMillis, this);
     for (int i = 0; i < hs.length; i++) hs[i].admit(r, eventTimeMillis, this);
     Feature[] fs = scaled;
     for (int i = 0; i < fs.length; i++) fs[i].learnScalers(r, this);
@@ -439,7 +432,6 @@ public final class Featurizer {
     }
     out.writeBoolean(constantTerm);
     out.writeLong(trainingRecords);
-    out.writeLong(streamTimeMillis);
     out.writeLong(layoutVersion);
     for (Feature f : features) f.writeState(out);
     int first = firstDynamicColumn();
@@ -523,13 +515,15 @@ public final class Featurizer {
    * @throws IOException on a truncated or inconsistent checkpoint
    * @throws IllegalStateException if this featurizer has already seen records
    * @throws IllegalArgumentException if the checkpoint comes from a different configuration or format
+   * @return the stream time a format-1 state carried (the largest training time), for the pipeline
+   *     step's clock; {@code Long.MIN_VALUE} for the current format, which carries none
    */
-  public void readFrom(DataInput in) throws IOException {
+  public long readFrom(DataInput in) throws IOException {
     if (trainingRecords != 0 || dimension != firstDynamicColumn()) {
       throw new IllegalStateException("readFrom needs a fresh featurizer; this one has seen " + trainingRecords + " records");
     }
     int version = in.readInt();
-    if (version != FORMAT_VERSION) {
+    if (version != FORMAT_VERSION && version != 1) {
       throw new IllegalArgumentException("checkpoint format " + version + " is not supported; this build reads format " + FORMAT_VERSION);
     }
     int n = in.readInt();
@@ -543,7 +537,7 @@ public final class Featurizer {
     }
     if (in.readBoolean() != constantTerm) throw new IllegalArgumentException("checkpoint differs in model.constant_term");
     trainingRecords = in.readLong();
-    streamTimeMillis = in.readLong();
+    long legacyTime = version == 1 ? in.readLong() : Long.MIN_VALUE;
     long version2 = in.readLong();
     for (Feature f : features) f.readState(in);
     int dynamic = in.readInt();
@@ -575,6 +569,7 @@ public final class Featurizer {
       }
     }
     layoutVersion = version2;
+    return legacyTime;
   }
 
   // ---------------------------------------------------------------- features
@@ -595,7 +590,7 @@ public final class Featurizer {
 
     abstract RejectReason check(EventRecord r, Featurizer f);
 
-    void touchAndExpire(EventRecord r, long t, Featurizer f) { }
+    void touchAndExpire(EventRecord r, long t, long clockMillis, Featurizer f) { }
 
     void admit(EventRecord r, long t, Featurizer f) { }
 
@@ -663,10 +658,10 @@ public final class Featurizer {
       return r.present(slot) ? null : missing(f, f.schema, slot);
     }
 
-    @Override void touchAndExpire(EventRecord r, long t, Featurizer f) {
+    @Override void touchAndExpire(EventRecord r, long t, long clockMillis, Featurizer f) {
       current = vocabulary.touch(keyChars(r), 0, keyLength(r), t, f.trainingRecords);
       RollingVocabulary.Level gone;
-      while ((gone = vocabulary.expireOne(f.streamTimeMillis, f.trainingRecords, current)) != null) {
+      while ((gone = vocabulary.expireOne(clockMillis, f.trainingRecords, current)) != null) {
         Column c = gone.column;
         gone.column = null;
         f.removeColumn(c);
@@ -760,8 +755,8 @@ public final class Featurizer {
       if (!memoFilled[e] || memoAngle[e] != bits) {
         for (int k = 1; k <= w / 2; k++) {
           double a = base * k;
-          m[e * w + 2 * k - 2] = Math.sin(a);
-          m[e * w + 2 * k - 1] = Math.cos(a);
+          m[e * w + 2 * k - 2] = StrictMath.sin(a);
+          m[e * w + 2 * k - 1] = StrictMath.cos(a);
         }
         memoAngle[e] = bits;
         memoFilled[e] = true;

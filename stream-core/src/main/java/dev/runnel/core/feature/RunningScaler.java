@@ -67,7 +67,7 @@ public final class RunningScaler {
     this.scaling = scaling;
     this.transform = transform;
     this.exponent = exponent;
-    this.decay = weightingHalfLifeRecords == 0 ? 1.0 : Math.pow(2.0, -1.0 / weightingHalfLifeRecords);
+    this.decay = weightingHalfLifeRecords == 0 ? 1.0 : StrictMath.pow(2.0, -1.0 / weightingHalfLifeRecords);
     this.clip = clip;
   }
 
@@ -81,12 +81,12 @@ public final class RunningScaler {
   public double transformed(double raw) {
     double t;
     switch (transform) {
-      case LOG1P: t = raw > -1.0 ? Math.log1p(raw) : Double.NaN; break;
+      case LOG1P: t = raw > -1.0 ? StrictMath.log1p(raw) : Double.NaN; break;
       case SQRT: t = raw >= 0.0 ? Math.sqrt(raw) : Double.NaN; break;
       case POWER:
         if (raw < 0 && exponent != Math.rint(exponent)) t = Double.NaN;
         else if (raw == 0 && exponent < 0) t = Double.NaN;
-        else t = Math.pow(raw, exponent);
+        else t = StrictMath.pow(raw, exponent);
         break;
       case NONE: default: t = raw;
     }

@@ -45,7 +45,7 @@ public final class NormalQuantile {
   private static double lowerHalf(double p) {
     double x;
     if (p < P_LOW) {
-      double q = Math.sqrt(-2 * Math.log(p));
+      double q = Math.sqrt(-2 * StrictMath.log(p));
       x = (((((C[0] * q + C[1]) * q + C[2]) * q + C[3]) * q + C[4]) * q + C[5])
           / ((((D[0] * q + D[1]) * q + D[2]) * q + D[3]) * q + 1);
     } else {
@@ -56,7 +56,7 @@ public final class NormalQuantile {
     }
     // One Halley step on f(x) = Phi(x) - p, f' = phi, f'' = -x phi.
     double e = cdf(x) - p;
-    double u = e * SQRT_2PI * Math.exp(0.5 * x * x);
+    double u = e * SQRT_2PI * StrictMath.exp(0.5 * x * x);
     return x - u / (1 + 0.5 * x * u);
   }
 
@@ -69,7 +69,7 @@ public final class NormalQuantile {
    */
   static double cdf(double x) {
     double t = Math.abs(x);
-    double phi = Math.exp(-0.5 * t * t) / SQRT_2PI;
+    double phi = StrictMath.exp(-0.5 * t * t) / SQRT_2PI;
     double tail; // Phi(-t)
     if (t <= 2.5) {
       double term = t;

@@ -26,16 +26,25 @@ import java.util.Arrays;
  *
  * <p>Order of work for a record that carries its target (test, then train):
  * <ol>
- *   <li>decode; on bad input a reject, and nothing else changes;</li>
- *   <li>featurize with learning: vocabulary expiry and admission and scaler changes reach the
- *       model first (as layout events), so the row is encoded in the model's current basis;</li>
+ *   <li>decode, pick the event time (the one "event time missing" check) and check the fields;
+ *       on bad input a reject, and nothing else changes;</li>
+ *   <li>the {@link StreamClock} decides on the time: a jump it does not (yet) accept is a
+ *       {@code time_jump} reject, and nothing but the clock's pending run changes;</li>
+ *   <li>if the clock entered a later snapshot period, the snapshot of the period that ended is
+ *       published now, without this record (periods are half-open);</li>
+ *   <li>featurize with learning: vocabulary expiry (by the clock) and admission and scaler
+ *       changes reach the model first (as layout events), so the row is encoded in the model's
+ *       current basis;</li>
  *   <li>predict with the model as it was before this record's target (a priori), with the
- *       interval;</li>
- *   <li>update the model (forgetting by the record factor or the event-time half-life);</li>
- *   <li>update the metrics with the a priori error.</li>
+ *       interval; {@code warming_up} (no value) while the model has no weights or no noise
+ *       estimate;</li>
+ *   <li>update the model, forgetting by the clock's factor (after 64 half-lives or more the model
+ *       restarts from its prior instead);</li>
+ *   <li>update the metrics with the a priori error of a {@code scored} record; publish; a
+ *       snapshot every N training records comes after the N-th.</li>
  * </ol>
- * A record without the target is a forecast request: it is encoded read-only and scored, and
- * changes no state at all.
+ * A record without the target is a forecast request: it is encoded read-only and scored at its
+ * own time, and changes no state at all (not even the clock).
  */
 public final class PipelineStep {
 
@@ -52,7 +61,7 @@ public final class PipelineStep {
   }
 
   /** Version of the checkpoint layout written by {@link #checkpoint()}. */
-  public static final int CHECKPOINT_VERSION = 2;
+  public static final int CHECKPOINT_VERSION = 3;
   private static final int CHECKPOINT_MAGIC = 0x524E4C43; // "RNLC"
 
   private final PipelineConfig config;
@@ -62,7 +71,8 @@ public final class PipelineStep {
   private RlsModel model;
   private final PrequentialMetrics metrics;
   private final DriftMonitor drift;
-  private final Forgetting forgetting;
+  /** The stream's one clock: admission of event times, forgetting, expiry, snapshot periods. */
+  private final StreamClock clock;
   private final Prediction prediction = new Prediction();
   private final int targetSlot;
   private final long configFingerprint;
@@ -74,11 +84,13 @@ public final class PipelineStep {
   private long trained;
   private long forecasts;
   private long warmingUp;
+  private long modelRestarts;
   private long rejected;
   private final long[] rejectCounts = new long[RejectReason.values().length];
-  private long lastEventTimeMillis = Long.MIN_VALUE;
   private long trainedAtLastSnapshot;
   private long periodOfLastSnapshot = Long.MIN_VALUE;
+  /** Set only while a due snapshot is handed to the sink: the time it is stamped with. */
+  private long snapshotStampMillis = Long.MIN_VALUE;
   private long snapshotsTaken;
 
   /**
@@ -97,7 +109,8 @@ public final class PipelineStep {
     this.metrics = new PrequentialMetrics(config.outputs().metricsHalfLifeRecords());
     this.drift = new DriftMonitor(config.drift());
     PipelineConfig.Model m = config.model();
-    this.forgetting = new Forgetting(m.forgettingFactor(), m.forgettingHalfLifeMillis());
+    PipelineConfig.Clock c = in.clock();
+    this.clock = new StreamClock(c.maxAheadMillis(), c.confirmRecords(), m.forgettingFactor(), m.forgettingHalfLifeMillis());
     this.targetSlot = config.targetSlot();
     this.row = new double[Math.max(8, featurizer.maxDimension())];
     this.configFingerprint = fingerprint(config);
@@ -124,7 +137,6 @@ public final class PipelineStep {
    * @param sink receives the outcome
    */
   public void process(byte[] buf, int off, int len, long fallbackTimeMillis, long partition, long offset, Sink sink) {
-    records++;
     RejectReason reason = decoder.decode(buf, off, len, record);
     if (reason != null) {
       reject(reason, decoder.lastDetail(), sink);
@@ -138,7 +150,6 @@ public final class PipelineStep {
    * sources that are not JSON). Counts it as one record.
    */
   public void processRecord(long fallbackTimeMillis, long partition, long offset, Sink sink) {
-    records++;
     processDecoded(fallbackTimeMillis, partition, offset, sink);
   }
 
@@ -148,11 +159,12 @@ public final class PipelineStep {
   }
 
   private void processDecoded(long fallbackTimeMillis, long partition, long offset, Sink sink) {
+    // the one "event time missing" check: the configured field, else the transport's time
     long t;
     if (config.input().eventTime().isPresent()) {
       if (!record.hasEventTime()) {
         reject(RejectReason.MISSING_FIELD,
-            "field " + config.input().eventTime().get().field() + ": the event time is missing", sink);
+            "field " + config.input().eventTime().get().field() + " (the event time): missing", sink);
         return;
       }
       t = record.eventTimeMillis();
@@ -165,6 +177,23 @@ public final class PipelineStep {
       reject(reason, featurizer.lastDetail(), sink);
       return;
     }
+    if (hasTarget) {
+      // the stream clock decides whether this time may move event time (docs/model.md)
+      StreamClock.Verdict verdict = clock.accept(t);
+      if (verdict == StreamClock.Verdict.REJECTED) {
+        reject(RejectReason.TIME_JUMP, clock.lastDetail(), sink);
+        return;
+      }
+      // periods are half-open [start, end): the record that opens a period first closes the last
+      periodSnapshotBefore(verdict, sink);
+      if (clock.forgetsAll()) {
+        // 64 half-lives or more since the clock: what came before weighs under 2^-64 of this
+        // record; the model starts again from its prior over the current columns
+        model = new RlsModel(featurizer.dimension(), modelSettings(config));
+        featurizer.setListener(model);
+        modelRestarts++;
+      }
+    }
     double y = hasTarget ? record.number(targetSlot) : Double.NaN;
     ensureRow();
     Prediction p = prediction;
@@ -173,48 +202,50 @@ public final class PipelineStep {
     p.sourceOffset = offset;
     p.actual = y;
     if (hasTarget) {
-      featurizer.learnAndEncode(record, t, row);
+      featurizer.learnAndEncode(record, t, clock.nowMillis(), row);
     } else {
       featurizer.encode(record, t, row);
     }
     p.layoutVersion = featurizer.layoutVersion();
     double half = Double.NaN;
     boolean ready = model.ready();
-    p.status = !ready ? Prediction.Status.WARMING_UP
+    double noiseBefore = model.noiseSd();
+    // warming up: no weights yet (diffuse start) or no noise estimate yet (the first record), so
+    // neither a point value nor an interval can be given honestly
+    boolean warm = ready && !Double.isNaN(noiseBefore);
+    p.status = !warm ? Prediction.Status.WARMING_UP
         : hasTarget ? Prediction.Status.SCORED : Prediction.Status.FORECAST;
     p.predicted = Double.NaN;
     if (hasTarget) {
       // the prediction and its interval are the a priori ones (the model before this record's
       // target, noise sd before this record); the update gives the prediction and the leverage
       // from its own rotations, so no triangular solve is needed
-      double noiseBefore = model.noiseSd();
-      double lambda = forgetting.lambdaFor(t);
-      if (!model.update(row, y, lambda, aPriori)) {
+      if (!model.update(row, y, clock.lambda(), aPriori)) {
         reject(RejectReason.MODEL_REFUSED,
             "the update would have made the model's state non-finite; the model is unchanged", sink);
         return;
       }
-      if (ready) {
+      if (warm) {
         p.predicted = aPriori[1];
         half = model.settings().intervalZ() * noiseBefore * Math.sqrt(1.0 + aPriori[0]);
       }
-    } else if (ready) {
+    } else if (warm) {
       // a forecast request: prediction and leverage from one forward substitution
       model.forecast(row, aPriori);
       p.predicted = aPriori[1];
-      half = model.settings().intervalZ() * model.noiseSd() * Math.sqrt(1.0 + aPriori[0]);
+      half = model.settings().intervalZ() * noiseBefore * Math.sqrt(1.0 + aPriori[0]);
     }
     if (Double.isNaN(half)) {
-      // warming up, or no noise estimate yet: an interval cannot be given honestly
       p.low = Double.NaN;
       p.high = Double.NaN;
     } else {
       p.low = p.predicted - half;
       p.high = p.predicted + half;
     }
+    records++;
     if (hasTarget) {
       trained++;
-      if (p.status == Prediction.Status.SCORED && !Double.isNaN(p.low)) {
+      if (p.status == Prediction.Status.SCORED) {
         metrics.add(y - p.predicted, p.covered());
         // the a priori error and its predictive sd s·√(1 + xᵀPx) = half-width / z
         drift.observeError(y - p.predicted, half / model.settings().intervalZ(), model.noiseSd(), t, trained);
@@ -225,37 +256,44 @@ public final class PipelineStep {
     if (p.status == Prediction.Status.WARMING_UP) {
       warmingUp++;
     }
-    if (t > lastEventTimeMillis) {
-      lastEventTimeMillis = t;
-    }
     sink.prediction(p, record);
-    if (hasTarget && snapshotIsDue(t)) {
-      observeSnapshotForDrift();
-      sink.snapshotDue();
+    if (hasTarget) {
+      PipelineConfig.Outputs o = config.outputs();
+      if (o.snapshotEveryRecords() > 0 && trained - trainedAtLastSnapshot >= o.snapshotEveryRecords()) {
+        publishSnapshot(clock.nowMillis(), sink);
+      }
     }
   }
 
-  private boolean snapshotIsDue(long t) {
-    PipelineConfig.Outputs o = config.outputs();
-    boolean due = false;
-    if (o.snapshotEveryRecords() > 0 && trained - trainedAtLastSnapshot >= o.snapshotEveryRecords()) {
-      due = true;
+  /**
+   * Called for an accepted training record after the clock took its time and before anything
+   * else changed: when the clock entered a later snapshot period, the snapshot of the period
+   * that ended is published now, stamped with that period's end, without this record.
+   */
+  private void periodSnapshotBefore(StreamClock.Verdict verdict, Sink sink) {
+    long every = config.outputs().snapshotEveryMillis();
+    if (every <= 0) {
+      return;
     }
-    if (o.snapshotEveryMillis() > 0) {
-      long period = Math.floorDiv(t, o.snapshotEveryMillis());
-      if (periodOfLastSnapshot == Long.MIN_VALUE) {
-        periodOfLastSnapshot = period;
-      } else if (period > periodOfLastSnapshot) {
-        due = true;
-      }
+    long period = Math.floorDiv(clock.nowMillis(), every);
+    if (periodOfLastSnapshot == Long.MIN_VALUE || (period < periodOfLastSnapshot && verdict == StreamClock.Verdict.JUMPED)) {
+      periodOfLastSnapshot = period; // the first record, or a provisional clock moved back
+    } else if (period > periodOfLastSnapshot) {
+      long end = (periodOfLastSnapshot + 1) * every;
+      periodOfLastSnapshot = period;
+      publishSnapshot(end, sink);
     }
-    if (due) {
-      trainedAtLastSnapshot = trained;
-      if (o.snapshotEveryMillis() > 0) {
-        periodOfLastSnapshot = Math.floorDiv(t, o.snapshotEveryMillis());
-      }
+  }
+
+  private void publishSnapshot(long stampMillis, Sink sink) {
+    trainedAtLastSnapshot = trained;
+    snapshotStampMillis = stampMillis;
+    try {
+      observeSnapshotForDrift();
+      sink.snapshotDue();
+    } finally {
+      snapshotStampMillis = Long.MIN_VALUE;
     }
-    return due;
   }
 
   /** Cold path: the weight alarms and baselines move on once per published snapshot. */
@@ -271,11 +309,12 @@ public final class PipelineStep {
       raw[j] = s.ready() ? c.rawWeight() : Double.NaN;
       se[j] = c.rawStandardError();
     }
-    drift.observeSnapshot(snapshotsTaken, lastEventTimeMillis, trained, names, raw, se, n);
+    drift.observeSnapshot(snapshotsTaken, snapshotTimeMillis(), trained, names, raw, se, n);
     snapshotsTaken++;
   }
 
   private void reject(RejectReason reason, String detail, Sink sink) {
+    records++;
     rejected++;
     rejectCounts[reason.ordinal()]++;
     sink.reject(reason, detail);
@@ -321,11 +360,25 @@ public final class PipelineStep {
   /** Rejected records. */
   public long rejected() { return rejected; }
 
+  /** Times the model restarted from its prior after a step of 64 half-lives or more (since this step was made or restored). */
+  public long modelRestarts() { return modelRestarts; }
+
   /** Rejected records with this reason. */
   public long rejected(RejectReason reason) { return rejectCounts[reason.ordinal()]; }
 
-  /** The latest event time seen, or {@code Long.MIN_VALUE} before the first record. */
-  public long lastEventTimeMillis() { return lastEventTimeMillis; }
+  /** The stream clock's time (docs/model.md), or {@code Long.MIN_VALUE} before the first training record. */
+  public long lastEventTimeMillis() { return clock.nowMillis(); }
+
+  /** The stream clock (read only between records). */
+  public StreamClock clock() { return clock; }
+
+  /**
+   * The event time a snapshot built now carries: inside {@link Sink#snapshotDue()} for a
+   * period, the end of the period it closes; otherwise the clock's time.
+   */
+  public long snapshotTimeMillis() {
+    return snapshotStampMillis != Long.MIN_VALUE ? snapshotStampMillis : clock.nowMillis();
+  }
 
   /**
    * Builds a coefficient snapshot of the current state (allocates; O(p³)). Its index, alarms and
@@ -359,10 +412,9 @@ public final class PipelineStep {
       for (long c : rejectCounts) {
         out.writeLong(c);
       }
-      out.writeLong(lastEventTimeMillis);
       out.writeLong(trainedAtLastSnapshot);
       out.writeLong(periodOfLastSnapshot);
-      out.writeLong(forgetting.clockMillis());
+      clock.writeTo(out);
       metrics.writeTo(out);
       featurizer.writeTo(out);
       model.writeTo(out);
@@ -379,7 +431,8 @@ public final class PipelineStep {
    * Replaces the whole state with a checkpoint's.
    *
    * @param checkpoint bytes from {@link #checkpoint()}. Not modified.
-   * A version 1 checkpoint (before drift alarms) is read with a fresh drift state.
+   * A version 1 checkpoint (before drift alarms) is read with a fresh drift state; versions 1 and
+   * 2 (before the one stream clock) give the clock their largest training time, with no jump pending.
    *
    * @throws IllegalArgumentException if the bytes are not a checkpoint, are of an unknown version,
    *     or were written under a configuration whose features or model differ
@@ -391,7 +444,7 @@ public final class PipelineStep {
         throw new IllegalArgumentException("not a Runnel pipeline checkpoint");
       }
       int version = in.readInt();
-      if (version != CHECKPOINT_VERSION && version != 1) {
+      if (version < 1 || version > CHECKPOINT_VERSION) {
         throw new IllegalArgumentException("checkpoint format version " + version
             + " is not supported; this Runnel reads version " + CHECKPOINT_VERSION);
       }
@@ -412,12 +465,24 @@ public final class PipelineStep {
           rejectCounts[i] = c;
         }
       }
-      lastEventTimeMillis = in.readLong();
+      long legacyForgettingClock = Long.MIN_VALUE;
+      if (version < 3) {
+        in.readLong(); // the latest event time seen, now the clock's
+      }
       trainedAtLastSnapshot = in.readLong();
       periodOfLastSnapshot = in.readLong();
-      forgetting.setClockMillis(in.readLong());
+      if (version < 3) {
+        legacyForgettingClock = in.readLong();
+      } else {
+        clock.readFrom(in);
+      }
       metrics.readFrom(in);
-      featurizer.readFrom(in);
+      long legacyStreamTime = featurizer.readFrom(in);
+      if (version < 3) {
+        // versions 1 and 2 kept three times; the featurizer's (largest training time) is the
+        // clock's, and equals the forgetting clock when forgetting is by half-life
+        clock.restoreLegacy(legacyStreamTime != Long.MIN_VALUE ? legacyStreamTime : legacyForgettingClock, trained);
+      }
       model = RlsModel.readFrom(in);
       featurizer.setListener(model);
       if (version >= 2) {

@@ -14,7 +14,11 @@ public final class Prediction {
     SCORED("scored"),
     /** The record had no target: a forecast request, scored only. */
     FORECAST("forecast"),
-    /** The model has not yet seen enough data to give weights (diffuse start); no point value. */
+    /**
+     * No honest prediction yet: the model has no weights (diffuse start) or no noise estimate to
+     * give an interval with (the first training record, also after a restart from the prior); no
+     * point value, not counted in the metrics. A record with its target is still learned from.
+     */
     WARMING_UP("warming_up");
 
     private final String id;

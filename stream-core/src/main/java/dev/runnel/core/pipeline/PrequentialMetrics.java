@@ -39,7 +39,7 @@ public final class PrequentialMetrics {
       throw new IllegalArgumentException(
           "outputs.metrics_half_life_records must be a positive number, got " + halfLifeRecords);
     }
-    this.decay = Math.pow(2.0, -1.0 / halfLifeRecords);
+    this.decay = StrictMath.pow(2.0, -1.0 / halfLifeRecords);
   }
 
   /**

@@ -19,7 +19,8 @@ import java.util.List;
  * {@code w₀ − Σ w_j m_j / s_j}; its standard error uses the full covariance,
  * {@code se(c) = σ √(cᵀ (RᵀR)⁻¹ c)} with {@code c = e₀ − Σ (m_j/s_j) e_j}.
  *
- * @param eventTimeMillis latest event time seen
+ * @param eventTimeMillis the stream clock's time; for a snapshot of an event-time period, the end of
+ *     that period (periods are half-open: it holds the records before this time)
  * @param records records handed in, including rejected ones
  * @param trained records the model learned from
  * @param forecasts records scored without a target

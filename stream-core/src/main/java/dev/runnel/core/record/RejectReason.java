@@ -24,7 +24,12 @@ public enum RejectReason {
   /** The whole record is larger than the configured bound. */
   RECORD_TOO_LARGE("record_too_large"),
   /** The model refused the update because a state would have become non-finite. */
-  MODEL_REFUSED("model_refused");
+  MODEL_REFUSED("model_refused"),
+  /**
+   * The event time is more than {@code input.clock.max_ahead} from the stream clock and no run of
+   * {@code input.clock.confirm_records} agreeing records has confirmed it yet (docs/model.md).
+   */
+  TIME_JUMP("time_jump");
 
   private final String id;
 

@@ -26,7 +26,7 @@ class CrossFeatureTest {
     r.setText(0, hub);
     r.setFlag(1, holiday);
     r.setNumber(2, 1.0);
-    f.learnAndEncode(r, t, row);
+    f.learnAndEncode(r, t, t, row);
     assertEquals(f.columnNames(), l.names, "listener follows the layout");
   }
 
@@ -42,8 +42,8 @@ class CrossFeatureTest {
         "add 11 holiday=(other)*hub=A", "add 12 holiday=true", "add 13 holiday=true*hub=(other)", "add 14 holiday=true*hub=A"),
         l.events);
     // common practice: sin(pi/2) = 1, cos(pi/2) = 0 (to rounding)
-    assertEquals(Math.sin(Math.PI / 2), at("hub=A*hour_of_day.sin1"), 0.0);
-    assertEquals(Math.cos(Math.PI / 2), at("hub=A*hour_of_day.cos1"), 0.0);
+    assertEquals(StrictMath.sin(Math.PI / 2), at("hub=A*hour_of_day.sin1"), 0.0);
+    assertEquals(StrictMath.cos(Math.PI / 2), at("hub=A*hour_of_day.cos1"), 0.0);
     assertEquals(0.0, at("hub=(other)*hour_of_day.sin1"));
     assertEquals(1.0, at("holiday=true*hub=A"));
     assertEquals(0.0, at("holiday=(other)*hub=A"));

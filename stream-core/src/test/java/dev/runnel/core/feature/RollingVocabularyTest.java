@@ -19,6 +19,7 @@ class RollingVocabularyTest {
     final RecordingListener l;
     final EventRecord r;
     final double[] row;
+    long clock = Long.MIN_VALUE;
 
     Rig(String onehotOptions) {
       f = new Featurizer(TestConfigs.parse("name: v\ninput:\n  fields: {hub: text, y: number}\ntarget: y\n"
@@ -35,7 +36,8 @@ class RollingVocabularyTest {
       r.setText(0, hub);
       r.setNumber(1, 1.0);
       assertNull(f.check(r, true));
-      f.learnAndEncode(r, t, row);
+      clock = Math.max(clock, t); // the pipeline step's clock for in-order and late records
+      f.learnAndEncode(r, t, clock, row);
       assertEquals(f.columnNames(), l.names, "listener follows the layout");
       return hot();
     }
@@ -173,14 +175,14 @@ class RollingVocabularyTest {
           g.r.clear();
           g.r.setText(0, "hot-" + (i / 2));
           g.r.setNumber(1, 1.0);
-          g.f.learnAndEncode(g.r, i, g.row);
+          g.f.learnAndEncode(g.r, i, i, g.row);
         }
       }
       for (int i = 0; i < 1_000_000; i++) {
         g.r.clear();
         g.r.setText(0, "level-" + i);
         g.r.setNumber(1, 1.0);
-        g.f.learnAndEncode(g.r, i, g.row);
+        g.f.learnAndEncode(g.r, i, i, g.row);
       }
       RollingVocabulary v = g.f.vocabulary("hub");
       assertEquals(1000, v.size());

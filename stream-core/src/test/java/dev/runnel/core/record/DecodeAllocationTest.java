@@ -105,7 +105,7 @@ class DecodeAllocationTest {
     assertNull(d.decode(b, 0, b.length, r));
     if (f.check(r) != null) return;
     if (f.hasTarget(r)) {
-      f.learnAndEncode(r, r.eventTimeMillis(), row);
+      f.learnAndEncode(r, r.eventTimeMillis(), r.eventTimeMillis(), row);
     } else {
       f.encode(r, r.eventTimeMillis(), row);
     }

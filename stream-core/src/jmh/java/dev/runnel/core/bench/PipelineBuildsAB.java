@@ -1,0 +1,163 @@
+package dev.runnel.core.bench;
+
+import java.lang.management.ManagementFactory;
+import java.lang.management.ThreadMXBean;
+import java.lang.reflect.Method;
+import java.lang.reflect.Proxy;
+import java.net.URL;
+import java.net.URLClassLoader;
+import java.nio.charset.StandardCharsets;
+import java.nio.file.Files;
+import java.nio.file.Path;
+import java.nio.file.StandardOpenOption;
+import java.time.Instant;
+import java.util.Arrays;
+import java.util.List;
+import java.util.Locale;
+
+/**
+ * Paired A/B of {@code PipelineStep.process} between two builds of stream-core, in one JVM, the
+ * way {@link ModelBuildsAB} does it for the model: each build's {@code dev.runnel.core} classes
+ * are loaded by a child-first class loader of their own (Jackson and the rest come from this
+ * jar), and the two run in alternating slices of 0.5 s of thread CPU time, the order flipped
+ * every slice. The result is the median over slices of B's rate divided by A's rate in the same
+ * pair, with the quartiles. The feed is cycled (at each wrap the event time steps back, which
+ * the step treats as late records); the sink counts callbacks through a proxy, the same cost for
+ * both builds.
+ *
+ * <pre>{@code
+ * java -cp stream-core/target/benchmarks.jar dev.runnel.core.bench.PipelineBuildsAB \
+ *     --a /tmp/base/stream-core/target/classes --b stream-core/target/classes
+ * }</pre>
+ * Options: {@code --a PATH}, {@code --b PATH} (class folders or jars holding
+ * {@code dev.runnel.core}), {@code --config FILE} (the demo configuration), {@code --records FILE}
+ * (the demo sample), {@code --slices N} (16), {@code --label TEXT}, {@code --append FILE}.
+ */
+public final class PipelineBuildsAB {
+
+  private PipelineBuildsAB() { }
+
+  public static void main(String[] args) throws Throwable {
+    String a = null;
+    String b = null;
+    Path config = BenchData.root().resolve("demo-data/src/main/resources/dev/runnel/demo/quillmarsh.yaml");
+    Path records = BenchData.root().resolve("demo-data/samples/quillmarsh-small.jsonl");
+    int slices = 16;
+    String label = "demo";
+    Path append = null;
+    for (int i = 0; i < args.length; i++) {
+      switch (args[i]) {
+        case "--a" -> a = args[++i];
+        case "--b" -> b = args[++i];
+        case "--config" -> config = Path.of(args[++i]);
+        case "--records" -> records = Path.of(args[++i]);
+        case "--slices" -> slices = Integer.parseInt(args[++i]);
+        case "--label" -> label = args[++i];
+        case "--append" -> append = Path.of(args[++i]);
+        default -> throw new IllegalArgumentException("unknown option " + args[i]
+            + "; allowed: --a PATH, --b PATH, --config FILE, --records FILE, --slices N, --label TEXT, --append FILE");
+      }
+    }
+    if (a == null || b == null) {
+      throw new IllegalArgumentException("--a PATH and --b PATH are required (class folders or jars of the two builds)");
+    }
+    String yaml = Files.readString(config);
+    byte[][] recs = Files.readAllLines(records).stream().filter(l -> !l.isBlank())
+        .map(l -> l.getBytes(StandardCharsets.UTF_8)).toArray(byte[][]::new);
+    Runnable[] run = {driver(a, yaml, recs), driver(b, yaml, recs)};
+    for (int w = 0; w < 300; w++) { // warm-up: both compiled, 300,000 records each
+      run[0].run();
+      run[1].run();
+    }
+    ThreadMXBean threads = ManagementFactory.getThreadMXBean();
+    double[][] rate = new double[2][slices];
+    double[] ratio = new double[slices];
+    for (int s = 0; s < slices; s++) {
+      for (int k = 0; k < 2; k++) {
+        int v = s % 2 == 0 ? k : 1 - k;
+        long c0 = threads.getCurrentThreadCpuTime();
+        long done = 0;
+        while (threads.getCurrentThreadCpuTime() - c0 < 500_000_000L) {
+          run[v].run();
+          done += 1000;
+        }
+        rate[v][s] = done / ((threads.getCurrentThreadCpuTime() - c0) * 1e-9);
+      }
+      ratio[s] = rate[1][s] / rate[0][s];
+    }
+    Arrays.sort(rate[0]);
+    Arrays.sort(rate[1]);
+    Arrays.sort(ratio);
+    String line = String.format(Locale.ROOT,
+        "%s %s slices=%d: A median %,.0f records/s, B median %,.0f; B/A paired median %.3f [quartiles %.3f, %.3f] (A=%s, B=%s)",
+        Instant.now(), label, slices, rate[0][slices / 2], rate[1][slices / 2], ratio[slices / 2],
+        ratio[slices / 4], ratio[(3 * slices) / 4], a, b);
+    System.out.println(line);
+    System.out.printf(Locale.ROOT, "callbacks (both builds): %,d predictions, %,d rejects, %,d snapshots%n", CALLS[0], CALLS[1], CALLS[2]);
+    if (append != null) {
+      Files.writeString(append, line + "\n", StandardCharsets.UTF_8, StandardOpenOption.CREATE, StandardOpenOption.APPEND);
+    }
+  }
+
+  /** Callbacks seen, both builds together: predictions, rejects, snapshots (printed as a check). */
+  static final long[] CALLS = new long[3];
+
+  /** Loads {@code dev.runnel.core} from its own path first, everything else from the parent. */
+  private static final class ChildFirst extends URLClassLoader {
+    ChildFirst(URL url, ClassLoader parent) { super(new URL[] {url}, parent); }
+
+    @Override protected Class<?> loadClass(String name, boolean resolve) throws ClassNotFoundException {
+      if (!name.startsWith("dev.runnel.core.") || name.startsWith("dev.runnel.core.bench.")) {
+        return super.loadClass(name, resolve);
+      }
+      synchronized (getClassLoadingLock(name)) {
+        Class<?> c = findLoadedClass(name);
+        if (c == null) {
+          c = findClass(name);
+        }
+        if (resolve) {
+          resolveClass(c);
+        }
+        return c;
+      }
+    }
+  }
+
+  /** 1,000 records through a pipeline step of one build per call. */
+  private static Runnable driver(String path, String yaml, byte[][] recs) throws Exception {
+    ClassLoader cl = new ChildFirst(Path.of(path).toUri().toURL(), PipelineBuildsAB.class.getClassLoader());
+    Class<?> loader = cl.loadClass("dev.runnel.core.config.ConfigLoader");
+    Object cfg = loader.getMethod("parse", String.class, String.class).invoke(null, yaml, "ab.yaml");
+    Class<?> stepClass = cl.loadClass("dev.runnel.core.pipeline.PipelineStep");
+    Object step = stepClass.getConstructor(cfg.getClass()).newInstance(cfg);
+    Class<?> sinkClass = cl.loadClass("dev.runnel.core.pipeline.PipelineStep$Sink");
+    Object sink = Proxy.newProxyInstance(cl, new Class<?>[] {sinkClass}, (proxy, m, margs) -> {
+      switch (m.getName()) {
+        case "prediction" -> CALLS[0]++;
+        case "reject" -> CALLS[1]++;
+        default -> CALLS[2]++;
+      }
+      return null;
+    });
+    Method process = stepClass.getMethod("process", byte[].class, int.class, int.class, long.class, long.class, long.class, sinkClass);
+    java.lang.invoke.MethodHandle h = java.lang.invoke.MethodHandles.publicLookup().unreflect(process).bindTo(step)
+        .asType(java.lang.invoke.MethodType.methodType(void.class, byte[].class, int.class, int.class, long.class, long.class, long.class, Object.class));
+    Object s = sink;
+    int[] i = {0};
+    return () -> {
+      try {
+        for (int k = 0; k < 1000; k++) {
+          byte[] r = recs[i[0]];
+          h.invokeExact(r, 0, r.length, 0L, 0L, (long) i[0], s);
+          if (++i[0] == recs.length) {
+            i[0] = 0;
+          }
+        }
+      } catch (RuntimeException e) {
+        throw e;
+      } catch (Throwable e) {
+        throw new IllegalStateException(e);
+      }
+    };
+  }
+}
