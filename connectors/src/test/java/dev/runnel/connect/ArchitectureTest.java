@@ -39,6 +39,7 @@ class ArchitectureTest {
     rank(2, "dev.runnel.core.feature", "dev.runnel.core.drift");
     rank(3, "dev.runnel.core.pipeline");
     rank(4, "dev.runnel.core.evaluate");
+    rank(5, "dev.runnel.connect.text");
     rank(10, "dev.runnel.connect.file", "dev.runnel.connect.broker", "dev.runnel.connect.kafka");
     rank(11, "dev.runnel.connect.pipeline", "dev.runnel.connect.replay", "dev.runnel.connect.report",
         "dev.runnel.connect.web", "dev.runnel.connect.drift");

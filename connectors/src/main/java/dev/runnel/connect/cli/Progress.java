@@ -1,5 +1,6 @@
 package dev.runnel.connect.cli;
 
+import dev.runnel.connect.text.TerminalText;
 import java.io.PrintStream;
 
 /**
@@ -70,7 +71,7 @@ final class Progress {
       }
     }
     if (extra != null && !extra.isEmpty()) {
-      sb.append("  ").append(extra);
+      sb.append("  ").append(TerminalText.safe(extra));
     }
     int width = sb.length();
     for (int i = width; i < lastWidth; i++) {

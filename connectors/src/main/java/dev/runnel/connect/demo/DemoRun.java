@@ -6,6 +6,7 @@ import dev.runnel.connect.broker.EmbeddedBroker;
 import dev.runnel.connect.kafka.ExactlyOnceRunner;
 import dev.runnel.connect.kafka.RunnerCounters;
 import dev.runnel.connect.kafka.RunnerSettings;
+import dev.runnel.connect.text.TerminalText;
 import dev.runnel.connect.pipeline.PipelineProcessor;
 import dev.runnel.connect.web.LiveState;
 import dev.runnel.connect.web.WebView;
@@ -340,7 +341,7 @@ public final class DemoRun {
           sb.append("  moved most: ").append(biggestMoves(previous, latest, 2));
         }
       }
-      out.println(sb);
+      out.println(TerminalText.safe(sb));
     }
 
     /** The columns whose weight moved most between two snapshots, in standard errors. */

@@ -1,6 +1,7 @@
 package dev.runnel.connect.demo;
 
 import com.fasterxml.jackson.databind.JsonNode;
+import dev.runnel.connect.text.TerminalText;
 import dev.runnel.demo.ChangeSchedule;
 import dev.runnel.demo.GroundTruth;
 import dev.runnel.demo.Settings;
@@ -157,8 +158,15 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     return null;
   }
 
-  /** Prints the summary as a short report. */
+  /** Prints the summary as a short report (control characters from the data escaped, see {@link TerminalText}). */
   public void print(PrintStream out) {
+    java.io.StringWriter text = new java.io.StringWriter();
+    printRaw(new java.io.PrintWriter(text));
+    out.print(TerminalText.lines(text.toString().replace("\r\n", "\n")));
+    out.flush();
+  }
+
+  private void printRaw(java.io.PrintWriter out) {
     ChangeSchedule sch = ChangeSchedule.of(settings);
     String tariff = ChangeSchedule.localTime(settings, sch.tariffChangeHour()).toString();
     String opening = ChangeSchedule.localTime(settings, sch.openingHour()).toString();
@@ -192,5 +200,6 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
             + "90%% interval coverage %.1f%%%n",
         finalMae, GroundTruth.NOISE_SD, GroundTruth.NOISE_SD * Math.sqrt(2 / Math.PI), 100 * finalCoverage);
     out.println("Forecasts are estimates: read the interval, and distrust a fresh hub's numbers until it has history.");
+    out.flush();
   }
 }

@@ -1,6 +1,7 @@
 package dev.runnel.connect.drift;
 
 import com.fasterxml.jackson.databind.JsonNode;
+import dev.runnel.connect.text.TerminalText;
 import java.time.Instant;
 import java.time.format.DateTimeParseException;
 import java.util.ArrayList;
@@ -93,7 +94,8 @@ public final class DriftTable {
    * Takes the next snapshot.
    *
    * @param s a snapshot. Not modified.
-   * @return the line to print, or null when it is outside {@code --from}/{@code --to}
+   * @return the line to print (control characters from the data escaped, see {@link TerminalText}),
+   *     or null when it is outside {@code --from}/{@code --to}
    */
   public String take(JsonNode s) {
     int part = s.path("partition").asInt();
@@ -185,7 +187,8 @@ public final class DriftTable {
       }
       sb.setLength(sb.length() - 1);
     }
-    return sb.toString();
+    // names and levels come from the data: no control character reaches the terminal
+    return TerminalText.safe(sb);
   }
 
   private static Instant timeOf(JsonNode s) {

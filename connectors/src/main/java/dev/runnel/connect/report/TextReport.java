@@ -1,5 +1,6 @@
 package dev.runnel.connect.report;
 
+import dev.runnel.connect.text.TerminalText;
 import dev.runnel.core.evaluate.BacktestResult;
 import dev.runnel.core.evaluate.DieboldMariano;
 import dev.runnel.core.evaluate.Metrics;
@@ -20,7 +21,7 @@ public final class TextReport {
     return vs;
   }
 
-  /** The report as text, lines ending in \n. */
+  /** The report as text, lines ending in \n; labels and levels from the data have their control characters escaped. */
   public static String render(BacktestResult r) {
     StringBuilder sb = new StringBuilder(4096);
     int w = 8;
@@ -78,7 +79,7 @@ public final class TextReport {
         sb.append("  ").append(c.absoluteVerdict()).append('\n');
       }
     }
-    return sb.toString();
+    return TerminalText.lines(sb);
   }
 
   private static void segmentTable(StringBuilder sb, BacktestResult r) {

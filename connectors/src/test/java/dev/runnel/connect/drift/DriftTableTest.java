@@ -57,4 +57,17 @@ class DriftTableTest {
     IllegalArgumentException e = assertThrows(IllegalArgumentException.class, () -> new DriftTable("yesterday", 3, null, null));
     assertTrue(e.getMessage().startsWith("--baseline: \"yesterday\" is not allowed"), e.getMessage());
   }
+
+  @Test
+  void controlCharactersPlantedInALevelAreEscaped() throws Exception {
+    // issue #14 item 8: a category level carrying ESC [ 2 J (clear screen) reached the terminal as is
+    String level = "hub=QM\\u001b[2J\\u001b[H"; // JSON escapes: the decoded level holds two ESC characters
+    JsonNode s = JSON.readTree("{\"partition\":0,\"index\":1,\"event_time\":\"2026-02-01T00:00:00Z\",\"ready\":true,"
+        + "\"columns\":[{\"name\":\"" + level + "\",\"raw_weight\":1.0,\"raw_std_error\":0.1,\"moved_se\":5.0}],"
+        + "\"alarms\":[{\"kind\":\"weight\",\"column\":\"" + level + "\",\"direction\":\"up\"}]}");
+    String line = new DriftTable("pipeline", 1, null, null).take(s);
+    assertTrue(line.indexOf('\u001b') < 0, line);
+    assertTrue(line.contains("hub=QM\\x1B[2J\\x1B[H 1.000 (+5.0)"), line);
+    assertTrue(line.endsWith("ALARM hub=QM\\x1B[2J\\x1B[H up"), line);
+  }
 }
