@@ -46,4 +46,24 @@ class ReplayCliTest {
     assertEquals(1, firstPrediction.path("source").path("offset").asLong(), "offset = line number: " + firstPrediction);
     assertTrue(r[2].contains("; " + snaps.size() + " snapshots"), r[2]);
   }
+
+  @Test
+  void driftReadsTheCoefficientFileOfAReplay(@TempDir Path dir) throws Exception {
+    String[] r = CliCapture.run("replay", "--config", CONFIG, "--source", SAMPLE, "--out", dir.toString(), "--quiet");
+    assertEquals("0", r[0], r[1]);
+    int snaps = Files.readAllLines(dir.resolve("coefficients.jsonl")).size();
+    String[] d = CliCapture.run("drift", "--file", dir.resolve("coefficients.jsonl").toString(), "--baseline", "first");
+    assertEquals("0", d[0], d[1]);
+    List<String> printed = d[2].lines().toList();
+    assertEquals(1 + snaps, printed.size(), "a header and one line per snapshot: " + d[2]);
+    assertTrue(printed.get(2).startsWith("1 "), printed.get(2));
+    // the last line is the end-of-file snapshot, with its own index
+    assertTrue(printed.get(snaps).startsWith((snaps - 1) + " "), printed.get(snaps));
+
+    String[] both = CliCapture.run("drift", "--file", dir.resolve("coefficients.jsonl").toString(), "--pipeline", "x");
+    assertEquals("2", both[0]);
+    assertTrue(both[1].contains("--file reads snapshots from a file; leave out --pipeline"), both[1]);
+    String[] none = CliCapture.run("drift", "--file", dir.resolve("nothing.jsonl").toString());
+    assertTrue(none[1].contains("--file " + dir.resolve("nothing.jsonl") + ": no such file"), none[1]);
+  }
 }
