@@ -39,10 +39,22 @@ public final class RecordCommand implements Callable<Integer> {
           + "$${ENV} resolved) and the bootstrap servers, as for run and backtest.")
   Path config;
 
-  @Option(names = "--start-offset", paramLabel = "N") Long startOffset;
-  @Option(names = "--start-time", paramLabel = "ISO") String startTime;
-  @Option(names = "--end-offset", paramLabel = "N") Long endOffset;
-  @Option(names = "--end-time", paramLabel = "ISO") String endTime;
+  @Option(names = "--start-offset", paramLabel = "N",
+      description = "First offset to record in every partition (default: each partition's first).")
+  Long startOffset;
+
+  @Option(names = "--start-time", paramLabel = "ISO",
+      description = "Record from the first record with a Kafka timestamp at or after this time, ISO 8601 with an "
+          + "offset, e.g. 2026-02-01T00:00Z (instead of --start-offset).")
+  String startTime;
+
+  @Option(names = "--end-offset", paramLabel = "N",
+      description = "Stop before this offset in every partition (default: the end of the topic when recording starts).")
+  Long endOffset;
+
+  @Option(names = "--end-time", paramLabel = "ISO",
+      description = "Stop before the first record with a Kafka timestamp at or after this time (instead of --end-offset).")
+  String endTime;
 
   @Option(names = "--quiet", description = "No progress line.")
   boolean quiet;
@@ -57,7 +69,7 @@ public final class RecordCommand implements Callable<Integer> {
     if (out.getParent() != null) {
       Files.createDirectories(out.getParent());
     }
-    try (TopicSource src = new TopicSource(cluster.bootstrapServers(), cluster.clientProperties(), topic, range);
+    try (TopicSource src = new TopicSource(cluster.bootstrapServers(), cluster.clientProperties(), topic, range, "--topic");
          OutputStream o = new BufferedOutputStream(Files.newOutputStream(out), 1 << 16)) {
       Recording.writeHeader(o, topic, src.partitionCount());
       StringBuilder scratch = new StringBuilder(256);
