@@ -1,5 +1,6 @@
 package dev.runnel.connect.cli;
 
+import dev.runnel.connect.launch.Progress;
 import dev.runnel.connect.replay.FileSource;
 import dev.runnel.connect.report.HtmlReport;
 import dev.runnel.connect.report.JsonReport;

@@ -1,5 +1,6 @@
 package dev.runnel.connect.cli;
 
+import dev.runnel.connect.launch.Progress;
 import dev.runnel.connect.file.Recording;
 import dev.runnel.connect.replay.TopicRange;
 import dev.runnel.connect.replay.TopicSource;

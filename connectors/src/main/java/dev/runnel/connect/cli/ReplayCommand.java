@@ -1,5 +1,6 @@
 package dev.runnel.connect.cli;
 
+import dev.runnel.connect.launch.Progress;
 import dev.runnel.connect.replay.FileReplay;
 import dev.runnel.connect.text.TerminalText;
 import dev.runnel.core.config.ConfigLoader;
