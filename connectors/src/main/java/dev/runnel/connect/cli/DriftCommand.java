@@ -29,7 +29,7 @@ import picocli.CommandLine.Option;
 @Command(name = "drift", mixinStandardHelpOptions = true,
     description = {"Read <name>.coefficients (committed records only, no consumer group), or a replay's "
         + "coefficients.jsonl with --file, and print one line per "
-        + "snapshot: time, index, noise sd, recent prequential MAE and RMSE, the weights that moved most since the "
+        + "snapshot: time, index, input partition, noise sd, recent prequential MAE and RMSE, the weights that moved most since the "
         + "baseline in standard errors ((w - w_b) / sqrt(se^2 + se_b^2), raw units), and the raised alarms.",
         "Reads to the current end and stops, or keeps following with --follow."})
 public final class DriftCommand implements Callable<Integer> {
@@ -54,7 +54,7 @@ public final class DriftCommand implements Callable<Integer> {
   Path config;
 
   @Option(names = "--baseline", defaultValue = "pipeline", paramLabel = "WHICH",
-      description = "pipeline (the snapshot's own moved_se against drift.baseline), first, previous, a snapshot "
+      description = "pipeline (the snapshot's own drift_score against drift.baseline), first, previous, a snapshot "
           + "index or an ISO 8601 time (the first snapshot at or after it) (default: ${DEFAULT-VALUE}).")
   String baseline;
 

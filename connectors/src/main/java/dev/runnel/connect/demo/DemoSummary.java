@@ -30,7 +30,7 @@ import java.util.TreeMap;
  * @param normalMae mean absolute error of scored predictions outside them, after the first day
  * @param finalMae prequential MAE over the fading window in the last snapshot
  * @param finalCoverage interval coverage over the fading window in the last snapshot
- * @param forecasts forecast predictions (records without a target)
+ * @param forecasts predictions for records without a target (status no_target: hours ahead in the demo)
  * @param tariffAlarmAt first drift alarm (error level up, or the price weight) within two days of the tariff change, or null
  * @param tariffAlarm what that alarm was
  * @param fahrenheitAlarmAt first drift alarm (error level up, or the temperature weight) from the °F hours to a day after, or null
@@ -118,7 +118,7 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     Instant warm = ChangeSchedule.localTime(settings, 24).toInstant();
     for (JsonNode p : predictions) {
       String status = p.path("status").asText();
-      if (status.equals("forecast")) {
+      if (status.equals("no_target")) {
         forecasts++;
         continue;
       }
@@ -173,7 +173,7 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     String closing = ChangeSchedule.localTime(settings, sch.closingHour()).toString();
     out.println();
     out.println("== What the model found in the Quillmarsh feed (invented data) ==");
-    out.printf(Locale.ROOT, "records in %,d; predictions out %,d (%,d forecasts ahead); rejects %s%n",
+    out.printf(Locale.ROOT, "records in %,d; predictions out %,d (%,d of them for hours ahead, with no actual yet); rejects %s%n",
         records, predictions, forecasts, rejectsByReason);
     out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "planned change", "ground truth", "model", "found?");
     out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "tariff change (" + tariff.substring(0, 10) + ")",

@@ -16,7 +16,7 @@ import java.util.Map;
  * moved most since the baseline in standard errors, and the raised alarms. One thread.
  *
  * <p>The score is the pipeline's own: {@code (w − w_b) / √(se² + se_b²)} on raw-unit weights.
- * With the baseline {@code pipeline}, the snapshot's own {@code moved_se} (against the configured
+ * With the baseline {@code pipeline}, the snapshot's own {@code drift_score} (against the configured
  * {@code drift.baseline}) is shown as published.
  */
 public final class DriftTable {
@@ -81,8 +81,8 @@ public final class DriftTable {
 
   /** The column header. */
   public static String header() {
-    return String.format(Locale.ROOT, "%-5s %-17s %3s %8s %8s %8s  %s", "snap", "event time (UTC)", "prt", "noise_sd",
-        "rec_MAE", "rec_RMSE", "moved most since the baseline (raw units, score in standard errors) | alarms");
+    return String.format(Locale.ROOT, "%-5s %-17s %4s %8s %10s %11s  %s", "snap", "event time (UTC)", "part", "noise_sd",
+        "recent_MAE", "recent_RMSE", "moved most since the baseline (raw units, score in standard errors) | alarms");
   }
 
   /** Whether a snapshot is past {@code --to} (a follower can stop). */
@@ -113,7 +113,7 @@ public final class DriftTable {
       case "previous" -> prev;
       default -> chosen.get(part);
     };
-    StringBuilder sb = new StringBuilder(String.format(Locale.ROOT, "%-5d %-17s %3d %8s %8s %8s  ",
+    StringBuilder sb = new StringBuilder(String.format(Locale.ROOT, "%-5d %-17s %4d %8s %10s %11s  ",
         s.path("index").asLong(-1), shortTime(s.path("event_time").asText("")), part, num(s.path("noise_sd")),
         num(s.path("metrics").path("recent").path("mae")), num(s.path("metrics").path("recent").path("rmse"))));
     List<double[]> scores = new ArrayList<>();
@@ -129,10 +129,10 @@ public final class DriftTable {
       double score;
       double w0;
       if (baseline.equals("pipeline")) {
-        if (!c.path("moved_se").isNumber()) {
+        if (!c.path("drift_score").isNumber()) {
           continue;
         }
-        score = c.path("moved_se").asDouble();
+        score = c.path("drift_score").asDouble();
         w0 = Double.NaN;
       } else {
         JsonNode b = before.get(name);
