@@ -35,6 +35,9 @@ import picocli.CommandLine.Option;
         "Writes a table to the terminal, backtest.json and backtest.html (self-contained, SVG plots) to --out."})
 public final class BacktestCommand implements Callable<Integer> {
 
+  @picocli.CommandLine.Spec
+  picocli.CommandLine.Model.CommandSpec spec;
+
   @Option(names = "--source", required = true, paramLabel = "TOPIC|FILE",
       description = "A topic name, or a JSON Lines file (plain, or a recording made by `runnel record`).")
   String source;
@@ -78,9 +81,14 @@ public final class BacktestCommand implements Callable<Integer> {
       description = "HAC lag of the Diebold–Mariano test; -1 = floor(4(n/100)^(2/9)) (default: ${DEFAULT-VALUE}).")
   int lag;
 
-  @Option(names = "--horizon", paramLabel = "H", defaultValue = "1",
-      description = "Forecast horizon h for the test's correction (default: ${DEFAULT-VALUE}: one-step prequential errors).")
-  int horizon;
+  @Option(names = "--dm-steps", paramLabel = "H", defaultValue = "1",
+      description = "How many steps ahead the compared errors are, h: sets the test's small-sample correction and its "
+          + "least HAC lag, h - 1 (default: ${DEFAULT-VALUE}: one-step prequential errors).")
+  int dmSteps;
+
+  /** The old name of --dm-steps: it set only the test, never a forecast horizon. */
+  @Option(names = "--horizon", paramLabel = "H", hidden = true)
+  Integer oldHorizon;
 
   @Option(names = "--alpha", paramLabel = "A", defaultValue = "0.05", description = "Significance level of the verdicts (default: ${DEFAULT-VALUE}).")
   double alpha;
@@ -99,12 +107,25 @@ public final class BacktestCommand implements Callable<Integer> {
           + "number of processors and at most 8).")
   Integer threads;
 
-  @Option(names = "--read-only", description = "Benchmark: read the source once without running any configuration, "
-      + "and print the reading rate (the ceiling a backtest can reach).")
+  @Option(names = "--reading-speed", description = "Measure the reading speed: read the source once without running "
+      + "any configuration, and print the reading rate (the ceiling a backtest can reach).")
   boolean readOnly;
+
+  /** The old name of --reading-speed. */
+  @Option(names = "--read-only", hidden = true)
+  boolean oldReadOnly;
 
   @Override
   public Integer call() throws Exception {
+    if (oldHorizon != null) {
+      spec.commandLine().getErr().println("runnel backtest: --horizon is deprecated and will get another meaning; it only ever set the "
+          + "Diebold-Mariano test's steps: use --dm-steps " + oldHorizon);
+      dmSteps = oldHorizon;
+    }
+    if (oldReadOnly) {
+      spec.commandLine().getErr().println("runnel backtest: --read-only is deprecated; use --reading-speed");
+      readOnly = true;
+    }
     List<Backtest.Variant> variants = new ArrayList<>();
     for (Path c : configs) {
       PipelineConfig cfg = ConfigLoader.load(c);
@@ -117,7 +138,7 @@ public final class BacktestCommand implements Callable<Integer> {
     } catch (DateTimeParseException e) {
       throw new IllegalArgumentException("--period " + period + ": not an ISO 8601 duration; use e.g. P1D or PT6H");
     }
-    Backtest bt = new Backtest(variants, new Backtest.Options(segmentBy, periodMillis, weights, lag, horizon, alpha));
+    Backtest bt = new Backtest(variants, new Backtest.Options(segmentBy, periodMillis, weights, lag, dmSteps, alpha));
     if (threads != null && threads < 1) {
       throw new IllegalArgumentException("--threads " + threads + ": must be at least 1 (1 = no worker threads)");
     }

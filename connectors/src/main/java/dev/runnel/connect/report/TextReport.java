@@ -64,8 +64,9 @@ public final class TextReport {
     if (!r.comparisons().isEmpty()) {
       sb.append(String.format(Locale.ROOT, "%nDiebold–Mariano tests (two-sided; HAC variance, Newey–West Bartlett kernel; "
           + "p from Student t with the Harvey–Leybourne–Newbold correction)%n"));
-      String f2 = "%-" + (2 * w + 4) + "s %-8s %8s %5s %10s %11s %10s%n";
-      sb.append(String.format(Locale.ROOT, f2, "pair", "loss", "n", "lag", "mean diff", "DM*", "p"));
+      sb.append(String.format(Locale.ROOT, "loss difference = first's loss − second's: below zero, the first did better%n"));
+      String f2 = "%-" + (2 * w + 4) + "s %-8s %8s %7s %13s %11s %10s%n";
+      sb.append(String.format(Locale.ROOT, f2, "first vs second", "loss", "n", "HAC lag", "mean diff.", "statistic", "p"));
       for (BacktestResult.Comparison c : r.comparisons()) {
         for (DieboldMariano.Result t : List.of(c.squared(), c.absolute())) {
           sb.append(String.format(Locale.ROOT, f2, c.a() + " vs " + c.b(), t.loss().id(),

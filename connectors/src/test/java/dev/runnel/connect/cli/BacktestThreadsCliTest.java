@@ -59,4 +59,28 @@ class BacktestThreadsCliTest {
     String load = CliCapture.run("load", "--help")[2];
     assertTrue(load.contains("--config=FILE") && load.contains("${ENV}"), load);
   }
+
+  @Test
+  void theReportReadsNaturally(@TempDir Path dir) throws Exception {
+    String[] r = backtest(dir.resolve("r"), "1");
+    assertEquals("0", r[0], r[1]);
+    String html = Files.readString(dir.resolve("r/backtest.html"));
+    // the last date label of a time axis is anchored at its end (it was centred on the plot's edge and clipped)
+    assertTrue(html.matches("(?s).*text-anchor=\"end\">\\d{4}-\\d\\d-\\d\\d</text>.*"), "an end-anchored date label");
+    assertTrue(html.contains("<svg") && html.contains("class=\"hours\"") && html.contains("<title>23 h, no-weather: RMSE"),
+        "the per-hour RMSE as bars");
+    assertTrue(html.contains("below zero, the first did better"), "the sign in words");
+    assertTrue(!html.contains("DM*") && !r[2].contains("DM*"), "no DM / DM* shorthand");
+    assertTrue(r[2].contains("loss difference = first's loss − second's: below zero, the first did better"), r[2]);
+  }
+
+  @Test
+  void oldOptionNamesStillWorkAndSaySo(@TempDir Path dir) {
+    String[] r = CliCapture.run("backtest", "--source", SAMPLE, "--config", "../docs/examples/with-weather.yaml",
+        "--out", dir.toString(), "--quiet", "--read-only", "--horizon", "2");
+    assertEquals("0", r[0], r[1]);
+    assertTrue(r[2].contains("no configuration run"), r[2]);
+    assertTrue(r[1].contains("--read-only is deprecated; use --reading-speed"), r[1]);
+    assertTrue(r[1].contains("--horizon is deprecated") && r[1].contains("use --dm-steps 2"), r[1]);
+  }
 }
