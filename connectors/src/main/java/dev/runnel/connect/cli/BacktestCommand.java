@@ -1,14 +1,15 @@
 package dev.runnel.connect.cli;
 
+import dev.runnel.connect.broker.EmbeddedBroker;
 import dev.runnel.connect.launch.Progress;
-import dev.runnel.connect.replay.FileSource;
-import dev.runnel.connect.report.HtmlReport;
-import dev.runnel.connect.report.JsonReport;
 import dev.runnel.connect.replay.ReplayDriver;
-import dev.runnel.connect.report.TextReport;
+import dev.runnel.connect.replay.ReplaySource;
 import dev.runnel.connect.replay.TopicRange;
 import dev.runnel.connect.replay.TopicSource;
-import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.report.HtmlReport;
+import dev.runnel.connect.report.JsonReport;
+import dev.runnel.connect.report.TextReport;
+import dev.runnel.connect.text.TerminalText;
 import dev.runnel.core.config.ConfigLoader;
 import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.evaluate.Backtest;
@@ -25,6 +26,7 @@ import java.util.List;
 import java.util.Map;
 import java.util.concurrent.Callable;
 import picocli.CommandLine.Command;
+import picocli.CommandLine.Mixin;
 import picocli.CommandLine.Option;
 
 /** Replays a recorded topic or a JSON Lines file through several configurations side by side. */
@@ -46,13 +48,9 @@ public final class BacktestCommand implements Callable<Integer> {
       description = "A pipeline configuration (YAML); repeat for each configuration to compare. Labels are the file names.")
   List<Path> configs;
 
-  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT",
-      description = "Kafka cluster for a topic source (default: kafka.bootstrap_servers of the first configuration, "
-          + "else the embedded broker with its data folder).")
-  String bootstrap;
-
-  @Option(names = "--data-dir", paramLabel = "DIR", description = "Data folder of the embedded broker (overrides kafka.embedded.data_dir).")
-  Path dataDir;
+  @Mixin Options.Cluster cluster;
+  @Mixin Options.BrokerData brokerData;
+  @Mixin Options.Quiet quiet;
 
   @Option(names = "--start-offset", paramLabel = "N", description = "First offset to read in every partition.")
   Long startOffset;
@@ -97,8 +95,6 @@ public final class BacktestCommand implements Callable<Integer> {
       description = "Folder for backtest.json and backtest.html (default: ${DEFAULT-VALUE}).")
   Path out;
 
-  @Option(names = "--quiet", description = "No progress line.")
-  boolean quiet;
 
   @Option(names = "--threads", paramLabel = "N",
       description = "Worker threads that run the configurations while the source is read: 1 = none (read and run "
@@ -118,8 +114,8 @@ public final class BacktestCommand implements Callable<Integer> {
   @Override
   public Integer call() throws Exception {
     if (oldHorizon != null) {
-      spec.commandLine().getErr().println("runnel backtest: --horizon is deprecated and will get another meaning; it only ever set the "
-          + "Diebold-Mariano test's steps: use --dm-steps " + oldHorizon);
+      spec.commandLine().getErr().println("runnel backtest: --horizon is deprecated and will get another meaning; it only "
+          + "ever set the Diebold-Mariano test's steps: use --dm-steps " + oldHorizon);
       dmSteps = oldHorizon;
     }
     if (oldReadOnly) {
@@ -143,9 +139,7 @@ public final class BacktestCommand implements Callable<Integer> {
       throw new IllegalArgumentException("--threads " + threads + ": must be at least 1 (1 = no worker threads)");
     }
     int workers = Math.min(variants.size(), threads != null ? threads : ReplayDriver.defaultThreads(variants.size()));
-    Path file = Path.of(source);
-    boolean isFile = Files.exists(file) || source.endsWith(".jsonl") || source.endsWith(".json");
-    Progress progress = new Progress(System.err, "records", 0, quiet);
+    Progress progress = new Progress(System.err, "records", 0, quiet.quiet);
     long t0 = System.nanoTime();
     Map<String, Object> run = new LinkedHashMap<>();
     run.put("source", source);
@@ -154,35 +148,26 @@ public final class BacktestCommand implements Callable<Integer> {
       names.add(c.toString());
     }
     run.put("configurations", names);
-    EmbeddedBroker broker = null;
+    TopicRange range = new TopicRange(startOffset, instant("--start-time", startTime), endOffset,
+        instant("--end-time", endTime));
+    PipelineConfig first = variants.get(0).config();
+    EmbeddedBroker[] broker = {null};
     long n;
-    try {
-      if (isFile) {
-        if (startOffset != null || startTime != null || endOffset != null || endTime != null) {
-          throw new IllegalArgumentException("--start-*/--end-* apply to a topic source; " + source + " is a file");
-        }
-        FileSource fs = new FileSource(file);
-        n = readOnly ? fs.read((b, o, l, ts, p, off) -> { }, null) : ReplayDriver.run(bt, fs, workers, (recs, done, total) -> progress.update(recs,
-            () -> String.format("%.0f%% of the file", 100.0 * done / Math.max(1, total))));
-      } else {
-        TopicRange range = new TopicRange(startOffset, instant("--start-time", startTime), endOffset,
-            instant("--end-time", endTime));
-        PipelineConfig first = variants.get(0).config();
-        String servers = bootstrap;
-        if (servers == null || servers.isBlank()) {
-          broker = Launch.brokerIfNeeded(first, dataDir, System.err);
-          servers = broker != null ? broker.bootstrapServers() : first.kafka().bootstrapServers();
-        }
-        run.put("bootstrap_servers", servers);
-        try (TopicSource ts = new TopicSource(servers, first.kafka().clientProperties(), source, range)) {
-          n = readOnly ? ts.read((b, o, l, t, p, off) -> { }, null) : ReplayDriver.run(bt, ts, workers, (recs, done, all) -> progress.update(recs,
-              () -> String.format("%.1f%% done  %s", 100.0 * done / Math.max(1, all), left(recs, all, t0))));
-        }
-        run.put("range", range.toString());
+    try (ReplaySource src = ReplaySource.resolve(source, range, topic -> {
+      String servers = cluster.bootstrapServers;
+      if (servers == null || servers.isBlank()) {
+        broker[0] = Launch.brokerIfNeeded(first, brokerData.dataDir, System.err);
+        servers = broker[0] != null ? broker[0].bootstrapServers() : first.kafka().bootstrapServers();
       }
+      run.put("bootstrap_servers", servers);
+      return new TopicSource(servers, first.kafka().clientProperties(), topic, range);
+    })) {
+      n = readOnly ? src.readOnly() : src.replay(bt, workers, (recs, done, total) -> progress.update(recs,
+          () -> src.progress(done, total) + left(done, total, t0)));
+      src.describe(run);
     } finally {
-      if (broker != null) {
-        broker.stop();
+      if (broker[0] != null) {
+        broker[0].stop();
       }
     }
     double secs = (System.nanoTime() - t0) / 1e9;
@@ -198,18 +183,19 @@ public final class BacktestCommand implements Callable<Integer> {
     System.out.print(TextReport.render(r));
     System.out.printf("%nreplayed %,d records through %d configuration(s) %s in %.1f s (%,.0f records/s)%n", n,
         variants.size(), workers == 1 ? "on one thread" : "on " + workers + " worker threads", secs, n / Math.max(1e-9, secs));
-    System.out.printf("report: %s and %s%n", out.resolve("backtest.json").toAbsolutePath(),
-        out.resolve("backtest.html").toAbsolutePath());
+    System.out.printf("report: %s and %s%n", TerminalText.safe(out.resolve("backtest.json").toAbsolutePath().toString()),
+        TerminalText.safe(out.resolve("backtest.html").toAbsolutePath().toString()));
     return 0;
   }
 
+  /** "  m:ss left" from the share done so far, or nothing before there is a rate. */
   private static String left(long done, long total, long t0) {
     double secs = (System.nanoTime() - t0) / 1e9;
-    if (done == 0 || secs <= 0) {
+    if (done <= 0 || secs <= 0 || done >= total) {
       return "";
     }
     long left = (long) ((total - done) / (done / secs));
-    return String.format("%d:%02d left", left / 60, left % 60);
+    return String.format(java.util.Locale.ROOT, "  %d:%02d left", left / 60, left % 60);
   }
 
   static Instant instant(String option, String text) {
