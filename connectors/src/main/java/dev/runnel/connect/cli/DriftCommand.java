@@ -23,6 +23,7 @@ import org.apache.kafka.common.PartitionInfo;
 import org.apache.kafka.common.TopicPartition;
 import org.apache.kafka.common.serialization.ByteArrayDeserializer;
 import picocli.CommandLine.Command;
+import picocli.CommandLine.Mixin;
 import picocli.CommandLine.Option;
 
 /** Follows a pipeline's coefficient snapshots and prints, per snapshot, the weights that moved most since a baseline. */
@@ -31,7 +32,8 @@ import picocli.CommandLine.Option;
         + "coefficients.jsonl with --file, and print one line per "
         + "snapshot: time, index, input partition, noise sd, recent prequential MAE and RMSE, the weights that moved most since the "
         + "baseline in standard errors ((w - w_b) / sqrt(se^2 + se_b^2), raw units), and the raised alarms.",
-        "Reads to the current end and stops, or keeps following with --follow."})
+        "Reads to the current end and stops, or keeps following with --follow. With --config, the pipeline name "
+            + "comes from the configuration too."})
 public final class DriftCommand implements Callable<Integer> {
 
   @Option(names = "--pipeline", paramLabel = "NAME", description = "Pipeline name: reads NAME.coefficients.")
@@ -45,13 +47,8 @@ public final class DriftCommand implements Callable<Integer> {
           + "writes (instead of --pipeline or --topic; no Kafka).")
   Path file;
 
-  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT",
-      description = "Kafka bootstrap servers (or take kafka.bootstrap_servers from --config).")
-  String bootstrap;
-
-  @Option(names = "--config", paramLabel = "FILE",
-      description = "Pipeline configuration: gives the pipeline name, the bootstrap servers and client properties.")
-  Path config;
+  @Mixin Options.Cluster cluster;
+  @Mixin Options.ClientFile clientFile;
 
   @Option(names = "--baseline", defaultValue = "pipeline", paramLabel = "WHICH",
       description = "pipeline (the snapshot's own drift_score against drift.baseline), first, previous, a snapshot "
@@ -78,7 +75,7 @@ public final class DriftCommand implements Callable<Integer> {
         from == null ? null : DriftTable.Point.parse(from, "--from"),
         to == null ? null : DriftTable.Point.parse(to, "--to"));
     if (file != null) {
-      if (pipeline != null || topic != null || config != null || bootstrap != null) {
+      if (pipeline != null || topic != null || clientFile.config != null || cluster.bootstrapServers != null) {
         throw new IllegalArgumentException("--file reads snapshots from a file; leave out --pipeline, --topic, --config "
             + "and --bootstrap-servers (they name a Kafka topic)");
       }
@@ -89,9 +86,9 @@ public final class DriftCommand implements Callable<Integer> {
     }
     Map<String, String> props = Map.of();
     String name = pipeline;
-    String servers = bootstrap;
-    if (config != null) {
-      PipelineConfig cfg = ConfigLoader.load(config);
+    String servers = cluster.bootstrapServers;
+    if (clientFile.config != null) {
+      PipelineConfig cfg = ConfigLoader.load(clientFile.config);
       props = cfg.kafka().clientProperties();
       if (name == null) {
         name = cfg.name();

@@ -12,6 +12,7 @@ import java.io.PrintStream;
 import java.nio.file.Path;
 import java.util.concurrent.Callable;
 import picocli.CommandLine.Command;
+import picocli.CommandLine.Mixin;
 import picocli.CommandLine.Option;
 
 /**
@@ -22,8 +23,8 @@ import picocli.CommandLine.Option;
     description = "Run one pipeline configuration over a JSON Lines file (no Kafka) and write its outputs to files.")
 public final class ReplayCommand implements Callable<Integer> {
 
-  @Option(names = "--config", required = true, paramLabel = "FILE", description = "Pipeline configuration (YAML).")
-  Path config;
+  @Mixin Options.PipelineFile pipeline;
+  @Mixin Options.Quiet quiet;
 
   @Option(names = "--source", required = true, paramLabel = "FILE", description = "Input records, one JSON object per line.")
   Path source;
@@ -32,13 +33,11 @@ public final class ReplayCommand implements Callable<Integer> {
       description = "Folder for predictions.jsonl, coefficients.jsonl, rejects.jsonl (default: ${DEFAULT-VALUE}).")
   Path out;
 
-  @Option(names = "--quiet", description = "No progress line.")
-  boolean quiet;
 
   @Override
   public Integer call() throws IOException {
-    PipelineConfig cfg = ConfigLoader.load(config);
-    Progress progress = new Progress(System.err, "records", 0, quiet);
+    PipelineConfig cfg = ConfigLoader.load(pipeline.config);
+    Progress progress = new Progress(System.err, "records", 0, quiet.quiet);
     PipelineStep step = FileReplay.run(cfg, source, out, (records, done, size) -> progress.update(records,
         () -> String.format("%.0f%% of the file", 100.0 * done / Math.max(1, size))));
     progress.finish(step.records(), "");
