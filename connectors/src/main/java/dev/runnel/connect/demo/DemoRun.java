@@ -302,7 +302,7 @@ public final class DemoRun {
           "published %,d/%,d (%.0f%%)  processed %,d  %,.0f records/s", produced, total,
           100.0 * produced / Math.max(1, total), consumed, consumed / secs));
       if (latest != null) {
-        sb.append(String.format(Locale.ROOT, "  | model at %s: recent MAE %.2f",
+        sb.append(String.format(Locale.ROOT, "  | latest snapshot %s: recent MAE %.2f",
             latest.path("event_time").asText("?").replace(":00Z", "Z"),
             latest.path("metrics").path("recent").path("mae").asDouble(Double.NaN)));
         if (previous != null) {
