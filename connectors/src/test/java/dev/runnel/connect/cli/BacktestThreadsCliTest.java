@@ -83,4 +83,20 @@ class BacktestThreadsCliTest {
     assertTrue(r[1].contains("--read-only is deprecated; use --reading-speed"), r[1]);
     assertTrue(r[1].contains("--horizon is deprecated") && r[1].contains("use --dm-steps 2"), r[1]);
   }
+
+  @Test
+  void aPlantedEscapeSequenceInASegmentLevelIsPrintedEscaped(@TempDir Path dir) throws Exception {
+    // issue #14 item 8 for the backtest's table: levels of --segment-by come from the data
+    java.util.List<String> lines = new java.util.ArrayList<>();
+    for (String l : Files.readAllLines(Path.of(SAMPLE))) {
+      lines.add(l.replace("\"weather\":\"snow\"", "\"weather\":\"snow\\u001b[2J\""));
+    }
+    Path planted = dir.resolve("planted.jsonl");
+    Files.write(planted, lines);
+    String[] r = CliCapture.run("backtest", "--source", planted.toString(), "--config", "../docs/examples/with-weather.yaml",
+        "--segment-by", "weather", "--out", dir.resolve("out").toString(), "--quiet");
+    assertEquals("0", r[0], r[1]);
+    assertTrue(r[2].indexOf('\u001b') < 0, "no ESC reaches the terminal");
+    assertTrue(r[2].contains("snow\\x1B[2J"), r[2]);
+  }
 }
