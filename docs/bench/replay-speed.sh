@@ -2,7 +2,7 @@
 # Replay speed, one command: reading alone vs a backtest of two configurations (docs/backtesting.md,
 # "Replay speed"). Makes ~10^6 invented demo records, starts an embedded broker on a fresh data folder,
 # loads them into a one-partition topic, then runs in turn, RUNS times each (fresh JVM each time):
-#   backtest --read-only            (read the topic, no configuration: the ceiling)
+#   backtest --reading-speed        (read the topic, no configuration: the ceiling)
 #   backtest --threads 1            (two configurations on the reading thread: the sequential path)
 #   backtest                        (two configurations, default threads: one worker per configuration)
 # and writes a Markdown table of the rates and medians to docs/bench/replay-speed.md (and stdout).
@@ -69,7 +69,7 @@ workers="?"
 for run in $(seq "$RUNS"); do
   for mode in read-only threads-1 default; do
     case "$mode" in
-      read-only) opts=(--read-only) ;;
+      read-only) opts=(--reading-speed) ;;
       threads-1) opts=(--threads 1 --out "$WORK/out-threads-1") ;;
       default)   opts=(--out "$WORK/out-default") ;;
     esac
@@ -116,7 +116,7 @@ git diff --quiet HEAD -- stream-core connectors demo-data 2>/dev/null || commit=
   echo
   echo "| run | records/s ($RUNS runs) | median | share of the reading rate |"
   echo "|---|---|---|---|"
-  row read-only '`backtest --read-only` (read the topic, no configuration)'
+  row read-only '`backtest --reading-speed` (read the topic, no configuration)'
   row threads-1 '`backtest --threads 1`, two configurations on the reading thread (sequential)'
   row default '`backtest`, two configurations, default threads (one worker per configuration)'
   echo

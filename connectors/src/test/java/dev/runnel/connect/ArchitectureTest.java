@@ -39,11 +39,13 @@ class ArchitectureTest {
     rank(2, "dev.runnel.core.feature", "dev.runnel.core.drift");
     rank(3, "dev.runnel.core.pipeline");
     rank(4, "dev.runnel.core.evaluate");
+    rank(5, "dev.runnel.connect.text");
     rank(10, "dev.runnel.connect.file", "dev.runnel.connect.broker", "dev.runnel.connect.kafka");
     rank(11, "dev.runnel.connect.pipeline", "dev.runnel.connect.replay", "dev.runnel.connect.report",
         "dev.runnel.connect.web", "dev.runnel.connect.drift");
-    rank(12, "dev.runnel.connect.recording", "dev.runnel.connect.demo");
-    rank(13, "dev.runnel.connect.cli");
+    rank(12, "dev.runnel.connect.recording", "dev.runnel.connect.launch");
+    rank(13, "dev.runnel.connect.demo");
+    rank(14, "dev.runnel.connect.cli");
   }
 
   private static void rank(int r, String... packages) {

@@ -1,13 +1,15 @@
 package dev.runnel.connect.cli;
 
-import dev.runnel.connect.replay.FileSource;
-import dev.runnel.connect.report.HtmlReport;
-import dev.runnel.connect.report.JsonReport;
+import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.launch.Progress;
 import dev.runnel.connect.replay.ReplayDriver;
-import dev.runnel.connect.report.TextReport;
+import dev.runnel.connect.replay.ReplaySource;
 import dev.runnel.connect.replay.TopicRange;
 import dev.runnel.connect.replay.TopicSource;
-import dev.runnel.connect.broker.EmbeddedBroker;
+import dev.runnel.connect.report.HtmlReport;
+import dev.runnel.connect.report.JsonReport;
+import dev.runnel.connect.report.TextReport;
+import dev.runnel.connect.text.TerminalText;
 import dev.runnel.core.config.ConfigLoader;
 import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.evaluate.Backtest;
@@ -24,6 +26,7 @@ import java.util.List;
 import java.util.Map;
 import java.util.concurrent.Callable;
 import picocli.CommandLine.Command;
+import picocli.CommandLine.Mixin;
 import picocli.CommandLine.Option;
 
 /** Replays a recorded topic or a JSON Lines file through several configurations side by side. */
@@ -34,6 +37,9 @@ import picocli.CommandLine.Option;
         "Writes a table to the terminal, backtest.json and backtest.html (self-contained, SVG plots) to --out."})
 public final class BacktestCommand implements Callable<Integer> {
 
+  @picocli.CommandLine.Spec
+  picocli.CommandLine.Model.CommandSpec spec;
+
   @Option(names = "--source", required = true, paramLabel = "TOPIC|FILE",
       description = "A topic name, or a JSON Lines file (plain, or a recording made by `runnel record`).")
   String source;
@@ -42,13 +48,9 @@ public final class BacktestCommand implements Callable<Integer> {
       description = "A pipeline configuration (YAML); repeat for each configuration to compare. Labels are the file names.")
   List<Path> configs;
 
-  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT",
-      description = "Kafka cluster for a topic source (default: kafka.bootstrap_servers of the first configuration, "
-          + "else the embedded broker with its data folder).")
-  String bootstrap;
-
-  @Option(names = "--data-dir", paramLabel = "DIR", description = "Data folder of the embedded broker (overrides kafka.embedded.data_dir).")
-  Path dataDir;
+  @Mixin Options.Cluster cluster;
+  @Mixin Options.BrokerData brokerData;
+  @Mixin Options.Quiet quiet;
 
   @Option(names = "--start-offset", paramLabel = "N", description = "First offset to read in every partition.")
   Long startOffset;
@@ -77,9 +79,14 @@ public final class BacktestCommand implements Callable<Integer> {
       description = "HAC lag of the Diebold–Mariano test; -1 = floor(4(n/100)^(2/9)) (default: ${DEFAULT-VALUE}).")
   int lag;
 
-  @Option(names = "--horizon", paramLabel = "H", defaultValue = "1",
-      description = "Forecast horizon h for the test's correction (default: ${DEFAULT-VALUE}: one-step prequential errors).")
-  int horizon;
+  @Option(names = "--dm-steps", paramLabel = "H", defaultValue = "1",
+      description = "How many steps ahead the compared errors are, h: sets the test's small-sample correction and its "
+          + "least HAC lag, h - 1 (default: ${DEFAULT-VALUE}: one-step prequential errors).")
+  int dmSteps;
+
+  /** The old name of --dm-steps: it set only the test, never a forecast horizon. */
+  @Option(names = "--horizon", paramLabel = "H", hidden = true)
+  Integer oldHorizon;
 
   @Option(names = "--alpha", paramLabel = "A", defaultValue = "0.05", description = "Significance level of the verdicts (default: ${DEFAULT-VALUE}).")
   double alpha;
@@ -88,8 +95,6 @@ public final class BacktestCommand implements Callable<Integer> {
       description = "Folder for backtest.json and backtest.html (default: ${DEFAULT-VALUE}).")
   Path out;
 
-  @Option(names = "--quiet", description = "No progress line.")
-  boolean quiet;
 
   @Option(names = "--threads", paramLabel = "N",
       description = "Worker threads that run the configurations while the source is read: 1 = none (read and run "
@@ -98,12 +103,25 @@ public final class BacktestCommand implements Callable<Integer> {
           + "number of processors and at most 8).")
   Integer threads;
 
-  @Option(names = "--read-only", description = "Benchmark: read the source once without running any configuration, "
-      + "and print the reading rate (the ceiling a backtest can reach).")
+  @Option(names = "--reading-speed", description = "Measure the reading speed: read the source once without running "
+      + "any configuration, and print the reading rate (the ceiling a backtest can reach).")
   boolean readOnly;
+
+  /** The old name of --reading-speed. */
+  @Option(names = "--read-only", hidden = true)
+  boolean oldReadOnly;
 
   @Override
   public Integer call() throws Exception {
+    if (oldHorizon != null) {
+      spec.commandLine().getErr().println("runnel backtest: --horizon is deprecated and will get another meaning; it only "
+          + "ever set the Diebold-Mariano test's steps: use --dm-steps " + oldHorizon);
+      dmSteps = oldHorizon;
+    }
+    if (oldReadOnly) {
+      spec.commandLine().getErr().println("runnel backtest: --read-only is deprecated; use --reading-speed");
+      readOnly = true;
+    }
     List<Backtest.Variant> variants = new ArrayList<>();
     for (Path c : configs) {
       PipelineConfig cfg = Launch.warn(ConfigLoader.load(c), System.err);
@@ -116,14 +134,12 @@ public final class BacktestCommand implements Callable<Integer> {
     } catch (DateTimeParseException e) {
       throw new IllegalArgumentException("--period " + period + ": not an ISO 8601 duration; use e.g. P1D or PT6H");
     }
-    Backtest bt = new Backtest(variants, new Backtest.Options(segmentBy, periodMillis, weights, lag, horizon, alpha));
+    Backtest bt = new Backtest(variants, new Backtest.Options(segmentBy, periodMillis, weights, lag, dmSteps, alpha));
     if (threads != null && threads < 1) {
       throw new IllegalArgumentException("--threads " + threads + ": must be at least 1 (1 = no worker threads)");
     }
     int workers = Math.min(variants.size(), threads != null ? threads : ReplayDriver.defaultThreads(variants.size()));
-    Path file = Path.of(source);
-    boolean isFile = Files.exists(file) || source.endsWith(".jsonl") || source.endsWith(".json");
-    Progress progress = new Progress(System.err, "records", 0, quiet);
+    Progress progress = new Progress(System.err, "records", 0, quiet.quiet);
     long t0 = System.nanoTime();
     Map<String, Object> run = new LinkedHashMap<>();
     run.put("source", source);
@@ -132,35 +148,26 @@ public final class BacktestCommand implements Callable<Integer> {
       names.add(c.toString());
     }
     run.put("configurations", names);
-    EmbeddedBroker broker = null;
+    TopicRange range = new TopicRange(startOffset, instant("--start-time", startTime), endOffset,
+        instant("--end-time", endTime));
+    PipelineConfig first = variants.get(0).config();
+    EmbeddedBroker[] broker = {null};
     long n;
-    try {
-      if (isFile) {
-        if (startOffset != null || startTime != null || endOffset != null || endTime != null) {
-          throw new IllegalArgumentException("--start-*/--end-* apply to a topic source; " + source + " is a file");
-        }
-        FileSource fs = new FileSource(file);
-        n = readOnly ? fs.read((b, o, l, ts, p, off) -> { }, null) : ReplayDriver.run(bt, fs, workers, (recs, done, total) -> progress.update(recs,
-            () -> String.format("%.0f%% of the file", 100.0 * done / Math.max(1, total))));
-      } else {
-        TopicRange range = new TopicRange(startOffset, instant("--start-time", startTime), endOffset,
-            instant("--end-time", endTime));
-        PipelineConfig first = variants.get(0).config();
-        String servers = bootstrap;
-        if (servers == null || servers.isBlank()) {
-          broker = Launch.brokerIfNeeded(first, dataDir, System.err);
-          servers = broker != null ? broker.bootstrapServers() : first.kafka().bootstrapServers();
-        }
-        run.put("bootstrap_servers", servers);
-        try (TopicSource ts = new TopicSource(servers, first.kafka().clientProperties(), source, range)) {
-          n = readOnly ? ts.read((b, o, l, t, p, off) -> { }, null) : ReplayDriver.run(bt, ts, workers, (recs, done, all) -> progress.update(recs,
-              () -> String.format("%.1f%% done  %s", 100.0 * done / Math.max(1, all), left(recs, all, t0))));
-        }
-        run.put("range", range.toString());
+    try (ReplaySource src = ReplaySource.resolve(source, range, topic -> {
+      String servers = cluster.bootstrapServers;
+      if (servers == null || servers.isBlank()) {
+        broker[0] = Launch.brokerIfNeeded(first, brokerData.dataDir, System.err);
+        servers = broker[0] != null ? broker[0].bootstrapServers() : first.kafka().bootstrapServers();
       }
+      run.put("bootstrap_servers", servers);
+      return new TopicSource(servers, first.kafka().clientProperties(), topic, range);
+    })) {
+      n = readOnly ? src.readOnly() : src.replay(bt, workers, (recs, done, total) -> progress.update(recs,
+          () -> src.progress(done, total) + left(done, total, t0)));
+      src.describe(run);
     } finally {
-      if (broker != null) {
-        broker.stop();
+      if (broker[0] != null) {
+        broker[0].stop();
       }
     }
     double secs = (System.nanoTime() - t0) / 1e9;
@@ -176,18 +183,19 @@ public final class BacktestCommand implements Callable<Integer> {
     System.out.print(TextReport.render(r));
     System.out.printf("%nreplayed %,d records through %d configuration(s) %s in %.1f s (%,.0f records/s)%n", n,
         variants.size(), workers == 1 ? "on one thread" : "on " + workers + " worker threads", secs, n / Math.max(1e-9, secs));
-    System.out.printf("report: %s and %s%n", out.resolve("backtest.json").toAbsolutePath(),
-        out.resolve("backtest.html").toAbsolutePath());
+    System.out.printf("report: %s and %s%n", TerminalText.safe(out.resolve("backtest.json").toAbsolutePath().toString()),
+        TerminalText.safe(out.resolve("backtest.html").toAbsolutePath().toString()));
     return 0;
   }
 
+  /** "  m:ss left" from the share done so far, or nothing before there is a rate. */
   private static String left(long done, long total, long t0) {
     double secs = (System.nanoTime() - t0) / 1e9;
-    if (done == 0 || secs <= 0) {
+    if (done <= 0 || secs <= 0 || done >= total) {
       return "";
     }
     long left = (long) ((total - done) / (done / secs));
-    return String.format("%d:%02d left", left / 60, left % 60);
+    return String.format(java.util.Locale.ROOT, "  %d:%02d left", left / 60, left % 60);
   }
 
   static Instant instant(String option, String text) {

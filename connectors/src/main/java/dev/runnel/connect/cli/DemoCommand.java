@@ -5,13 +5,15 @@ import dev.runnel.connect.demo.DemoSummary;
 import java.nio.file.Path;
 import java.util.concurrent.Callable;
 import picocli.CommandLine.Command;
+import picocli.CommandLine.Mixin;
 import picocli.CommandLine.Option;
 
 /** The one-command demo on the embedded broker. */
 @Command(name = "demo", mixinStandardHelpOptions = true,
     description = {"Start the embedded Kafka broker, publish the invented Quillmarsh Charging feed to it, run the "
         + "pipeline on it exactly once, show live progress, and end with what the model found.",
-        "Repeated runs use new topics (run numbers); the broker's data folder is kept unless --fresh."})
+        "Repeated runs use new topics (run numbers); the broker's data folder is kept unless --fresh.",
+        "With --bootstrap-servers, uses that cluster instead of starting the embedded broker."})
 public final class DemoCommand implements Callable<Integer> {
 
   @Option(names = "--days", defaultValue = "42", paramLabel = "N",
@@ -32,12 +34,8 @@ public final class DemoCommand implements Callable<Integer> {
   @Option(names = "--fresh", description = "Delete the data folder first.")
   boolean fresh;
 
-  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT",
-      description = "Use this Kafka cluster instead of starting the embedded broker.")
-  String bootstrap;
-
-  @Option(names = "--quiet", description = "No live progress; only the summary.")
-  boolean quiet;
+  @Mixin Options.Cluster cluster;
+  @Mixin Options.Quiet quiet;
 
   @Option(names = "--web-port", defaultValue = "8642", paramLabel = "PORT",
       description = "Port of the live web view on 127.0.0.1; a taken port falls back to a free one; 0 = any free port (default: ${DEFAULT-VALUE}).")
@@ -52,7 +50,7 @@ public final class DemoCommand implements Callable<Integer> {
 
   @Override
   public Integer call() throws Exception {
-    DemoSummary s = DemoRun.run(new DemoRun.Options(dataDir, fresh, days, seed, rate, quiet, bootstrap,
+    DemoSummary s = DemoRun.run(new DemoRun.Options(dataDir, fresh, days, seed, rate, quiet.quiet, cluster.bootstrapServers,
         noWeb ? -1 : webPort, linger),
         System.out, System.err);
     return s.tariffChangeFound() ? 0 : 1;

@@ -5,8 +5,11 @@ import com.fasterxml.jackson.databind.ObjectMapper;
 import dev.runnel.connect.drift.DriftTable;
 import dev.runnel.core.config.ConfigLoader;
 import dev.runnel.core.config.PipelineConfig;
+import java.io.BufferedReader;
 import java.io.IOException;
 import java.io.PrintStream;
+import java.nio.charset.StandardCharsets;
+import java.nio.file.Files;
 import java.nio.file.Path;
 import java.time.Duration;
 import java.util.ArrayList;
@@ -20,14 +23,17 @@ import org.apache.kafka.common.PartitionInfo;
 import org.apache.kafka.common.TopicPartition;
 import org.apache.kafka.common.serialization.ByteArrayDeserializer;
 import picocli.CommandLine.Command;
+import picocli.CommandLine.Mixin;
 import picocli.CommandLine.Option;
 
 /** Follows a pipeline's coefficient snapshots and prints, per snapshot, the weights that moved most since a baseline. */
 @Command(name = "drift", mixinStandardHelpOptions = true,
-    description = {"Read <name>.coefficients (committed records only, no consumer group) and print one line per "
-        + "snapshot: time, index, noise sd, recent prequential MAE and RMSE, the weights that moved most since the "
+    description = {"Read <name>.coefficients (committed records only, no consumer group), or a replay's "
+        + "coefficients.jsonl with --file, and print one line per "
+        + "snapshot: time, index, input partition, noise sd, recent prequential MAE and RMSE, the weights that moved most since the "
         + "baseline in standard errors ((w - w_b) / sqrt(se^2 + se_b^2), raw units), and the raised alarms.",
-        "Reads to the current end and stops, or keeps following with --follow."})
+        "Reads to the current end and stops, or keeps following with --follow. With --config, the pipeline name "
+            + "comes from the configuration too."})
 public final class DriftCommand implements Callable<Integer> {
 
   @Option(names = "--pipeline", paramLabel = "NAME", description = "Pipeline name: reads NAME.coefficients.")
@@ -36,16 +42,16 @@ public final class DriftCommand implements Callable<Integer> {
   @Option(names = "--topic", paramLabel = "TOPIC", description = "The coefficients topic itself (instead of --pipeline).")
   String topic;
 
-  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT",
-      description = "Kafka bootstrap servers (or take kafka.bootstrap_servers from --config).")
-  String bootstrap;
+  @Option(names = "--file", paramLabel = "FILE",
+      description = "A file of snapshots, one JSON object per line, such as the coefficients.jsonl that `runnel replay` "
+          + "writes (instead of --pipeline or --topic; no Kafka).")
+  Path file;
 
-  @Option(names = "--config", paramLabel = "FILE",
-      description = "Pipeline configuration: gives the pipeline name, the bootstrap servers and client properties.")
-  Path config;
+  @Mixin Options.Cluster cluster;
+  @Mixin Options.ClientFile clientFile;
 
   @Option(names = "--baseline", defaultValue = "pipeline", paramLabel = "WHICH",
-      description = "pipeline (the snapshot's own moved_se against drift.baseline), first, previous, a snapshot "
+      description = "pipeline (the snapshot's own drift_score against drift.baseline), first, previous, a snapshot "
           + "index or an ISO 8601 time (the first snapshot at or after it) (default: ${DEFAULT-VALUE}).")
   String baseline;
 
@@ -65,11 +71,24 @@ public final class DriftCommand implements Callable<Integer> {
 
   @Override
   public Integer call() throws Exception {
+    DriftTable table = new DriftTable(baseline, top,
+        from == null ? null : DriftTable.Point.parse(from, "--from"),
+        to == null ? null : DriftTable.Point.parse(to, "--to"));
+    if (file != null) {
+      if (pipeline != null || topic != null || clientFile.config != null || cluster.bootstrapServers != null) {
+        throw new IllegalArgumentException("--file reads snapshots from a file; leave out --pipeline, --topic, --config "
+            + "and --bootstrap-servers (they name a Kafka topic)");
+      }
+      if (follow) {
+        throw new IllegalArgumentException("--follow: a file is read to its end once; leave it out with --file");
+      }
+      return printFile(file, table, System.out);
+    }
     Map<String, String> props = Map.of();
     String name = pipeline;
-    String servers = bootstrap;
-    if (config != null) {
-      PipelineConfig cfg = ConfigLoader.load(config);
+    String servers = cluster.bootstrapServers;
+    if (clientFile.config != null) {
+      PipelineConfig cfg = ConfigLoader.load(clientFile.config);
       props = cfg.kafka().clientProperties();
       if (name == null) {
         name = cfg.name();
@@ -79,17 +98,58 @@ public final class DriftCommand implements Callable<Integer> {
       }
     }
     if ((name == null) == (topic == null)) {
-      throw new IllegalArgumentException("give exactly one of --pipeline NAME (or --config FILE) and --topic TOPIC");
+      throw new IllegalArgumentException("give exactly one of --pipeline NAME (or --config FILE), --topic TOPIC and --file FILE");
     }
     if (servers == null || servers.isBlank()) {
       throw new IllegalArgumentException("--bootstrap-servers: missing; give the cluster (for the embedded broker, the"
           + " address that run or broker printed, e.g. --bootstrap-servers 127.0.0.1:9092)");
     }
     String t = topic != null ? topic : name + ".coefficients";
-    DriftTable table = new DriftTable(baseline, top,
-        from == null ? null : DriftTable.Point.parse(from, "--from"),
-        to == null ? null : DriftTable.Point.parse(to, "--to"));
     return print(servers, props, t, table, follow, System.out);
+  }
+
+  /**
+   * Reads a file of snapshots (JSON Lines) and prints the table; package-private for tests.
+   *
+   * @return 0, or 1 when no line was printed
+   */
+  static int printFile(Path file, DriftTable table, PrintStream out) throws IOException {
+    if (!Files.isRegularFile(file)) {
+      throw new IllegalArgumentException("--file " + file + ": no such file; give a coefficients.jsonl written by "
+          + "`runnel replay` (its --out folder)");
+    }
+    out.println(DriftTable.header());
+    int lines = 0;
+    long lineNo = 0;
+    try (BufferedReader in = Files.newBufferedReader(file, StandardCharsets.UTF_8)) {
+      for (String l = in.readLine(); l != null; l = in.readLine()) {
+        lineNo++;
+        if (l.isBlank()) {
+          continue;
+        }
+        JsonNode s;
+        try {
+          s = JSON.readTree(l);
+        } catch (IOException e) {
+          out.println("(line " + lineNo + ": not a snapshot, skipped)");
+          continue;
+        }
+        if (!s.isObject() || !s.has("columns")) {
+          out.println("(line " + lineNo + ": not a snapshot, skipped)");
+          continue;
+        }
+        String line = table.take(s);
+        if (line != null) {
+          out.println(line);
+          lines++;
+        }
+        if (table.pastEnd(s)) {
+          break;
+        }
+      }
+    }
+    out.flush();
+    return lines == 0 ? 1 : 0;
   }
 
   /** Reads the topic and prints the table; package-private for tests. */

@@ -1,13 +1,12 @@
 package dev.runnel.connect.cli;
 
 import dev.runnel.connect.broker.EmbeddedBroker;
-import dev.runnel.connect.kafka.RunnerSettings;
 import dev.runnel.core.config.PipelineConfig;
 import java.io.IOException;
 import java.io.PrintStream;
 import java.nio.file.Path;
 
-/** Shared steps of the verbs that run a pipeline: the broker to use and the runner's settings. */
+/** Shared steps of the verbs that read or write a cluster: the broker to use, the servers and client properties. */
 final class Launch {
 
   private Launch() { }
@@ -72,16 +71,5 @@ final class Launch {
       servers = fallback;
     }
     return new Cluster(servers, props);
-  }
-
-  /** The runner settings a configuration asks for. */
-  static RunnerSettings runnerSettings(PipelineConfig cfg, String bootstrap, String instanceId) {
-    String topic = cfg.input().topic().orElseThrow(() -> new IllegalArgumentException(
-        "input.topic: missing; name the Kafka topic to consume, e.g. input: {topic: " + cfg.name() + ".events}"));
-    long records = Math.min(Integer.MAX_VALUE, Math.max(1, cfg.kafka().commitIntervalRecords()));
-    return RunnerSettings.of(cfg.name(), topic, bootstrap)
-        .withClientProperties(cfg.kafka().clientProperties())
-        .withCommitInterval(Math.max(1, cfg.kafka().commitIntervalMs()), (int) records)
-        .withInstanceId(instanceId);
   }
 }

@@ -1,5 +1,6 @@
 package dev.runnel.connect.cli;
 
+import dev.runnel.connect.text.TerminalText;
 import picocli.CommandLine;
 import picocli.CommandLine.Command;
 
@@ -40,7 +41,7 @@ public final class Main implements Runnable {
     CommandLine cl = new CommandLine(new Main());
     cl.setExecutionExceptionHandler((ex, cmd, parse) -> {
       // user-facing failures carry a message that names the key or field and the fix
-      cmd.getErr().println("runnel " + cmd.getCommandName() + ": " + messageOf(ex));
+      cmd.getErr().println("runnel " + cmd.getCommandName() + ": " + TerminalText.safe(messageOf(ex)));
       if (System.getenv("RUNNEL_DEBUG") != null) {
         ex.printStackTrace(cmd.getErr());
       }

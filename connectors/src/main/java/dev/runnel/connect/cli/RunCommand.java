@@ -1,15 +1,14 @@
 package dev.runnel.connect.cli;
 
-import dev.runnel.connect.broker.EmbeddedBroker;
-import dev.runnel.connect.kafka.ExactlyOnceRunner;
 import dev.runnel.connect.kafka.RunnerCounters;
-import dev.runnel.connect.kafka.RunnerSettings;
-import dev.runnel.connect.pipeline.PipelineProcessor;
+import dev.runnel.connect.launch.LivePipeline;
+import dev.runnel.connect.launch.Progress;
+import dev.runnel.connect.text.TerminalText;
 import dev.runnel.core.config.ConfigLoader;
 import dev.runnel.core.config.PipelineConfig;
-import java.nio.file.Path;
 import java.util.concurrent.Callable;
 import picocli.CommandLine.Command;
+import picocli.CommandLine.Mixin;
 import picocli.CommandLine.Option;
 
 /** The main job: consume the input topic, run the pipeline per partition, publish exactly once. */
@@ -17,26 +16,17 @@ import picocli.CommandLine.Option;
     description = {"Consume the configured input topic and run the pipeline on every partition, publishing "
         + "<name>.predictions, <name>.coefficients, <name>.rejects and <name>.state exactly once.",
         "Without kafka.bootstrap_servers in the configuration, starts the embedded broker.",
-        "Stops cleanly on Ctrl-C / SIGTERM (the open transaction is committed, never half)."})
+        "Stops cleanly on Ctrl-C / SIGTERM (the open transaction is committed, never half) and prints what it did."})
 public final class RunCommand implements Callable<Integer> {
 
-  @Option(names = "--config", required = true, paramLabel = "FILE", description = "Pipeline configuration (YAML).")
-  Path config;
-
-  @Option(names = "--bootstrap-servers", paramLabel = "HOST:PORT",
-      description = "Overrides kafka.bootstrap_servers from the configuration.")
-  String bootstrap;
+  @Mixin Options.PipelineFile pipeline;
+  @Mixin Options.Cluster cluster;
+  @Mixin Options.BrokerData brokerData;
+  @Mixin Options.Quiet quiet;
 
   @Option(names = "--instance-id", paramLabel = "ID", defaultValue = "0",
       description = "Stable id of this instance, unique among the instances of one pipeline (default: ${DEFAULT-VALUE}).")
   String instanceId;
-
-  @Option(names = "--data-dir", paramLabel = "DIR",
-      description = "Data folder of the embedded broker (overrides kafka.embedded.data_dir).")
-  Path dataDir;
-
-  @Option(names = "--quiet", description = "No progress line.")
-  boolean quiet;
 
   @Option(names = "--web-port", paramLabel = "PORT",
       description = "Port of the live web view (overrides web.port; 0 = any free port).")
@@ -47,51 +37,20 @@ public final class RunCommand implements Callable<Integer> {
 
   @Override
   public Integer call() throws Exception {
-    PipelineConfig cfg = Launch.warn(ConfigLoader.load(config), System.err);
-    EmbeddedBroker broker = null;
-    String servers = bootstrap;
-    if (servers == null || servers.isBlank()) {
-      broker = Launch.brokerIfNeeded(cfg, dataDir, System.err);
-      servers = broker != null ? broker.bootstrapServers() : cfg.kafka().bootstrapServers();
-    }
-    RunnerSettings settings = Launch.runnerSettings(cfg, servers, instanceId);
-    ExactlyOnceRunner runner = new ExactlyOnceRunner(settings, PipelineProcessor.factory(cfg));
-    if (broker != null) {
-      broker.detachShutdownHook(); // our stopper below commits first, then stops the broker
-    }
-    EmbeddedBroker b = broker;
-    Thread stopper = new Thread(() -> {
-      runner.close();
-      if (b != null) {
-        b.stop();
-      }
-    }, "runnel-stop");
-    Runtime.getRuntime().addShutdownHook(stopper);
-    Thread work = new Thread(runner, "runnel-runner");
-    work.start();
-    System.err.printf("runnel: pipeline %s consuming %s from %s (group %s); Ctrl-C to stop%n",
-        cfg.name(), settings.inputTopic(), servers, settings.groupId());
-    dev.runnel.connect.web.LiveState live = null;
-    dev.runnel.connect.web.WebView web = null;
-    if (cfg.web().enabled() && !noWeb) {
-      live = new dev.runnel.connect.web.LiveState(cfg.name(), servers, cfg.kafka().clientProperties(), runner::counters).start();
-      web = dev.runnel.connect.web.WebView.start(cfg.web().bind(), webPort != null ? webPort : cfg.web().port(), false, live);
-      System.err.println("runnel: live view at " + web.url());
-    }
-    Progress progress = new Progress(System.err, "records", 0, quiet);
-    while (work.isAlive()) {
-      work.join(500);
-      RunnerCounters c = runner.counters();
-      progress.update(c.recordsIn(), () -> String.format("%,d rejects  %,d commits", c.rejects(), c.commits()));
-    }
-    if (web != null) {
-      web.close();
-      live.close();
-    }
-    RunnerCounters c = runner.counters();
-    progress.finish(c.recordsIn(), String.format("%,d rejects  %,d commits", c.rejects(), c.commits()));
-    if (runner.failure() != null) {
-      System.err.println("runnel run: " + runner.failure());
+    PipelineConfig cfg = Launch.warn(ConfigLoader.load(pipeline.config), System.err);
+    LivePipeline p = LivePipeline.connect(cfg, new LivePipeline.Options(cluster.bootstrapServers, brokerData.dataDir, -1,
+        instanceId, webPort, !noWeb, false, "runnel"), System.err);
+    p.stopOnShutdown();
+    p.startRunner();
+    System.err.println("runnel: Ctrl-C to stop");
+    Progress progress = new Progress(System.err, "records", 0, quiet.quiet);
+    p.awaitWithProgress(progress);
+    p.close();
+    RunnerCounters c = p.runner().counters();
+    progress.finish(c.recordsIn(), LivePipeline.progressExtra(c));
+    System.err.print(p.summary());
+    if (p.runner().failure() != null) {
+      System.err.println("runnel run: " + TerminalText.safe(String.valueOf(p.runner().failure())));
       return 2;
     }
     return 0;

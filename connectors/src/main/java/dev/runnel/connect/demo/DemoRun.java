@@ -2,13 +2,10 @@ package dev.runnel.connect.demo;
 
 import com.fasterxml.jackson.databind.JsonNode;
 import com.fasterxml.jackson.databind.ObjectMapper;
-import dev.runnel.connect.broker.EmbeddedBroker;
 import dev.runnel.connect.kafka.ExactlyOnceRunner;
 import dev.runnel.connect.kafka.RunnerCounters;
-import dev.runnel.connect.kafka.RunnerSettings;
-import dev.runnel.connect.pipeline.PipelineProcessor;
-import dev.runnel.connect.web.LiveState;
-import dev.runnel.connect.web.WebView;
+import dev.runnel.connect.launch.LivePipeline;
+import dev.runnel.connect.text.TerminalText;
 import dev.runnel.core.config.ConfigLoader;
 import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.demo.GeneratedRecord;
@@ -121,37 +118,20 @@ public final class DemoRun {
     QuillmarshGenerator gen = new QuillmarshGenerator(settings);
     long total = gen.countRecords();
 
-    EmbeddedBroker broker = null;
-    String bootstrap = o.bootstrap();
-    LiveState liveState = null;
-    WebView web = null;
-    try {
-      if (bootstrap == null) {
-        broker = new EmbeddedBroker(o.dataDir().resolve("broker"));
-        err.printf("demo: starting the embedded Kafka broker (data in %s)...%n", broker.folder());
-        broker.start();
-        bootstrap = broker.bootstrapServers();
-      }
+    LivePipeline.Options lo = new LivePipeline.Options(o.bootstrap(), o.dataDir().resolve("broker"), 0, "0",
+        o.webPort() < 0 ? null : o.webPort(), o.webPort() >= 0, true, "demo");
+    try (LivePipeline pipeline = LivePipeline.connect(cfg, lo, err)) {
+      String bootstrap = pipeline.bootstrapServers();
       err.printf(Locale.ROOT, "demo: run %d, pipeline %s, input topic %s on %s; %,d records of invented data (%d days)%n",
           runNo, name, topic, bootstrap, total, o.days());
       createTopic(bootstrap, topic);
-      RunnerSettings rs = RunnerSettings.of(name, topic, bootstrap)
-          .withCommitInterval(Math.max(1, cfg.kafka().commitIntervalMs()),
-              (int) Math.min(Integer.MAX_VALUE, Math.max(1, cfg.kafka().commitIntervalRecords())));
-      ExactlyOnceRunner runner = new ExactlyOnceRunner(rs, PipelineProcessor.factory(cfg));
-      Thread work = new Thread(runner, "demo-runner");
-      work.start();
-      if (o.webPort() >= 0 && cfg.web().enabled()) {
-        liveState = new LiveState(name, bootstrap, Map.of(), runner::counters).start();
-        web = WebView.start(cfg.web().bind(), o.webPort(), true, liveState);
-        err.println("demo: live view at " + web.url());
-      }
+      pipeline.startRunner();
+      ExactlyOnceRunner runner = pipeline.runner();
       AtomicLong produced = new AtomicLong();
       AtomicReference<Throwable> produceFailure = new AtomicReference<>();
-      String bs = bootstrap;
       Thread feeder = new Thread(() -> {
         try {
-          publish(bs, topic, gen, o.rate(), produced);
+          publish(bootstrap, topic, gen, o.rate(), produced);
         } catch (Throwable t) {
           produceFailure.set(t);
         }
@@ -172,14 +152,13 @@ public final class DemoRun {
           if (!feeder.isAlive() && c.recordsIn() >= total) {
             break;
           }
-          if (!work.isAlive()) {
+          if (!pipeline.running()) {
             throw new IllegalStateException("the pipeline stopped before the feed was consumed");
           }
         }
       } finally {
         live.close();
-        runner.close();
-        work.join(60_000);
+        pipeline.stopRunner();
       }
       List<JsonNode> snapshots = readJson(bootstrap, name + ".coefficients");
       List<JsonNode> predictions = readJson(bootstrap, name + ".predictions");
@@ -188,22 +167,12 @@ public final class DemoRun {
       DemoSummary summary = DemoSummary.of(settings, total, snapshots, predictions, rejects);
       summary.print(out);
       out.printf("The topics stay in %s: replay them with a later backtest, or start fresh with --fresh.%n",
-          broker == null ? bootstrap : broker.folder());
-      if (web != null && o.lingerSeconds() > 0) {
-        out.printf("The live view stays at %s for %d s (Ctrl-C to end sooner).%n", web.url(), o.lingerSeconds());
+          pipeline.broker() == null ? bootstrap : pipeline.broker().folder());
+      if (pipeline.webUrl() != null && o.lingerSeconds() > 0) {
+        out.printf("The live view stays at %s for %d s (Ctrl-C to end sooner).%n", pipeline.webUrl(), o.lingerSeconds());
         Thread.sleep(o.lingerSeconds() * 1000L);
       }
       return summary;
-    } finally {
-      if (web != null) {
-        web.close();
-      }
-      if (liveState != null) {
-        liveState.close();
-      }
-      if (broker != null) {
-        broker.stop();
-      }
     }
   }
 
@@ -333,14 +302,14 @@ public final class DemoRun {
           "published %,d/%,d (%.0f%%)  processed %,d  %,.0f records/s", produced, total,
           100.0 * produced / Math.max(1, total), consumed, consumed / secs));
       if (latest != null) {
-        sb.append(String.format(Locale.ROOT, "  | model at %s: recent MAE %.2f",
+        sb.append(String.format(Locale.ROOT, "  | latest snapshot %s: recent MAE %.2f",
             latest.path("event_time").asText("?").replace(":00Z", "Z"),
             latest.path("metrics").path("recent").path("mae").asDouble(Double.NaN)));
         if (previous != null) {
           sb.append("  moved most: ").append(biggestMoves(previous, latest, 2));
         }
       }
-      out.println(sb);
+      out.println(TerminalText.safe(sb));
     }
 
     /** The columns whose weight moved most between two snapshots, in standard errors. */

@@ -1,6 +1,7 @@
 package dev.runnel.connect.demo;
 
 import com.fasterxml.jackson.databind.JsonNode;
+import dev.runnel.connect.text.TerminalText;
 import dev.runnel.demo.ChangeSchedule;
 import dev.runnel.demo.GroundTruth;
 import dev.runnel.demo.Settings;
@@ -29,7 +30,7 @@ import java.util.TreeMap;
  * @param normalMae mean absolute error of scored predictions outside them, after the first day
  * @param finalMae prequential MAE over the fading window in the last snapshot
  * @param finalCoverage interval coverage over the fading window in the last snapshot
- * @param forecasts forecast predictions (records without a target)
+ * @param forecasts predictions for records without a target (status no_target: hours ahead in the demo)
  * @param tariffAlarmAt first drift alarm (error level up, or the price weight) within two days of the tariff change, or null
  * @param tariffAlarm what that alarm was
  * @param fahrenheitAlarmAt first drift alarm (error level up, or the temperature weight) from the °F hours to a day after, or null
@@ -117,7 +118,7 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     Instant warm = ChangeSchedule.localTime(settings, 24).toInstant();
     for (JsonNode p : predictions) {
       String status = p.path("status").asText();
-      if (status.equals("forecast")) {
+      if (status.equals("no_target")) {
         forecasts++;
         continue;
       }
@@ -157,15 +158,22 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     return null;
   }
 
-  /** Prints the summary as a short report. */
+  /** Prints the summary as a short report (control characters from the data escaped, see {@link TerminalText}). */
   public void print(PrintStream out) {
+    java.io.StringWriter text = new java.io.StringWriter();
+    printRaw(new java.io.PrintWriter(text));
+    out.print(TerminalText.lines(text.toString().replace("\r\n", "\n")));
+    out.flush();
+  }
+
+  private void printRaw(java.io.PrintWriter out) {
     ChangeSchedule sch = ChangeSchedule.of(settings);
     String tariff = ChangeSchedule.localTime(settings, sch.tariffChangeHour()).toString();
     String opening = ChangeSchedule.localTime(settings, sch.openingHour()).toString();
     String closing = ChangeSchedule.localTime(settings, sch.closingHour()).toString();
     out.println();
     out.println("== What the model found in the Quillmarsh feed (invented data) ==");
-    out.printf(Locale.ROOT, "records in %,d; predictions out %,d (%,d forecasts ahead); rejects %s%n",
+    out.printf(Locale.ROOT, "records in %,d; predictions out %,d (%,d of them for hours ahead, with no actual yet); rejects %s%n",
         records, predictions, forecasts, rejectsByReason);
     out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "planned change", "ground truth", "model", "found?");
     out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "tariff change (" + tariff.substring(0, 10) + ")",
@@ -192,5 +200,6 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
             + "90%% interval coverage %.1f%%%n",
         finalMae, GroundTruth.NOISE_SD, GroundTruth.NOISE_SD * Math.sqrt(2 / Math.PI), 100 * finalCoverage);
     out.println("Forecasts are estimates: read the interval, and distrust a fresh hub's numbers until it has history.");
+    out.flush();
   }
 }

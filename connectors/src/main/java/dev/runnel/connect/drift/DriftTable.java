@@ -1,6 +1,7 @@
 package dev.runnel.connect.drift;
 
 import com.fasterxml.jackson.databind.JsonNode;
+import dev.runnel.connect.text.TerminalText;
 import java.time.Instant;
 import java.time.format.DateTimeParseException;
 import java.util.ArrayList;
@@ -15,7 +16,7 @@ import java.util.Map;
  * moved most since the baseline in standard errors, and the raised alarms. One thread.
  *
  * <p>The score is the pipeline's own: {@code (w − w_b) / √(se² + se_b²)} on raw-unit weights.
- * With the baseline {@code pipeline}, the snapshot's own {@code moved_se} (against the configured
+ * With the baseline {@code pipeline}, the snapshot's own {@code drift_score} (against the configured
  * {@code drift.baseline}) is shown as published.
  */
 public final class DriftTable {
@@ -80,8 +81,8 @@ public final class DriftTable {
 
   /** The column header. */
   public static String header() {
-    return String.format(Locale.ROOT, "%-5s %-17s %3s %8s %8s %8s  %s", "snap", "event time (UTC)", "prt", "noise_sd",
-        "rec_MAE", "rec_RMSE", "moved most since the baseline (raw units, score in standard errors) | alarms");
+    return String.format(Locale.ROOT, "%-5s %-17s %4s %8s %10s %11s  %s", "snap", "event time (UTC)", "part", "noise_sd",
+        "recent_MAE", "recent_RMSE", "moved most since the baseline (raw units, score in standard errors) | alarms");
   }
 
   /** Whether a snapshot is past {@code --to} (a follower can stop). */
@@ -93,7 +94,8 @@ public final class DriftTable {
    * Takes the next snapshot.
    *
    * @param s a snapshot. Not modified.
-   * @return the line to print, or null when it is outside {@code --from}/{@code --to}
+   * @return the line to print (control characters from the data escaped, see {@link TerminalText}),
+   *     or null when it is outside {@code --from}/{@code --to}
    */
   public String take(JsonNode s) {
     int part = s.path("partition").asInt();
@@ -111,7 +113,7 @@ public final class DriftTable {
       case "previous" -> prev;
       default -> chosen.get(part);
     };
-    StringBuilder sb = new StringBuilder(String.format(Locale.ROOT, "%-5d %-17s %3d %8s %8s %8s  ",
+    StringBuilder sb = new StringBuilder(String.format(Locale.ROOT, "%-5d %-17s %4d %8s %10s %11s  ",
         s.path("index").asLong(-1), shortTime(s.path("event_time").asText("")), part, num(s.path("noise_sd")),
         num(s.path("metrics").path("recent").path("mae")), num(s.path("metrics").path("recent").path("rmse"))));
     List<double[]> scores = new ArrayList<>();
@@ -127,10 +129,10 @@ public final class DriftTable {
       double score;
       double w0;
       if (baseline.equals("pipeline")) {
-        if (!c.path("moved_se").isNumber()) {
+        if (!c.path("drift_score").isNumber()) {
           continue;
         }
-        score = c.path("moved_se").asDouble();
+        score = c.path("drift_score").asDouble();
         w0 = Double.NaN;
       } else {
         JsonNode b = before.get(name);
@@ -185,7 +187,8 @@ public final class DriftTable {
       }
       sb.setLength(sb.length() - 1);
     }
-    return sb.toString();
+    // names and levels come from the data: no control character reaches the terminal
+    return TerminalText.safe(sb);
   }
 
   private static Instant timeOf(JsonNode s) {

@@ -39,10 +39,28 @@ public final class TopicSource implements AutoCloseable {
    * @param clientProperties extra client properties (security); may be empty. Not modified.
    * @param topic the topic
    * @param range the part to read
-   * @throws IllegalArgumentException if the topic does not exist or the range holds no record
+   * @throws IllegalArgumentException if the topic does not exist or the range holds no record; the
+   *     message names {@code --source} (the backtest's option, which also takes a file)
    */
   public TopicSource(String bootstrap, Map<String, String> clientProperties, String topic, TopicRange range) {
+    this(bootstrap, clientProperties, topic, range, null);
+  }
+
+  /**
+   * Connects and resolves the range to offsets; messages name {@code topicOption}.
+   *
+   * @param bootstrap bootstrap servers
+   * @param clientProperties extra client properties (security); may be empty. Not modified.
+   * @param topic the topic
+   * @param range the part to read
+   * @param topicOption the option that named the topic, e.g. {@code --topic}; null for the
+   *     backtest's {@code --source} (a topic or a file)
+   * @throws IllegalArgumentException if the topic does not exist or the range holds no record
+   */
+  public TopicSource(String bootstrap, Map<String, String> clientProperties, String topic, TopicRange range,
+                     String topicOption) {
     this.topic = topic;
+    String option = topicOption == null ? "--source" : topicOption;
     Properties p = dev.runnel.connect.kafka.ClientConfig.groupLessReader(bootstrap, clientProperties, "runnel-backtest");
     p.put(ConsumerConfig.ALLOW_AUTO_CREATE_TOPICS_CONFIG, "false");
     p.put(ConsumerConfig.MAX_POLL_RECORDS_CONFIG, "10000");
@@ -55,8 +73,9 @@ public final class TopicSource implements AutoCloseable {
       Map<String, List<PartitionInfo>> topics = consumer.listTopics(Duration.ofSeconds(30));
       List<PartitionInfo> infos = topics.get(topic);
       if (infos == null || infos.isEmpty()) {
-        throw new IllegalArgumentException("--source " + topic + ": no such topic at " + bootstrap
-            + " (and no such file); name an existing topic or a JSON Lines file");
+        throw new IllegalArgumentException(option + " " + topic + ": no such topic at " + bootstrap
+            + (topicOption == null ? " (and no such file); name an existing topic or a JSON Lines file"
+                : "; name an existing topic"));
       }
       for (PartitionInfo i : infos) {
         partitions.add(new TopicPartition(topic, i.partition()));
@@ -95,8 +114,11 @@ public final class TopicSource implements AutoCloseable {
         sum += e - s;
       }
       if (sum == 0) {
-        throw new IllegalArgumentException("--source " + topic + ": the range holds no record (offsets per partition: "
-            + describe(first, last) + "); widen --start-*/--end-* or check the topic");
+        boolean whole = range.equals(TopicRange.ALL);
+        throw new IllegalArgumentException(option + " " + topic + (whole ? ": the topic holds no record"
+            : ": the range holds no record") + " (offsets per partition: " + describe(first, last) + "); "
+            + (whole ? "publish or load records first, or check the topic's name"
+                : "widen --start-offset/--start-time/--end-offset/--end-time or check the topic"));
       }
       this.total = sum;
     } catch (RuntimeException e) {

@@ -71,8 +71,9 @@ public final class HtmlReport {
         verdict(sb, c.squared(), c.squaredVerdict(), r.alpha());
         verdict(sb, c.absolute(), c.absoluteVerdict(), r.alpha());
       }
-      sb.append("<table><tr><th>pair</th><th>loss</th><th>n</th><th>HAC lag</th><th>mean loss difference</th>"
-          + "<th>DM</th><th>p (normal)</th><th>DM*</th><th>p (t, n−1)</th></tr>\n");
+      sb.append("<table><tr><th>pair (first vs second)</th><th>loss</th><th>n</th><th>HAC lag</th>"
+          + "<th>mean loss, first − second</th><th>statistic</th><th>p (normal)</th><th>corrected statistic</th>"
+          + "<th>p (t, n−1)</th></tr>\n");
       for (BacktestResult.Comparison c : r.comparisons()) {
         for (DieboldMariano.Result t : List.of(c.squared(), c.absolute())) {
           sb.append("<tr><td>").append(esc(c.a() + " vs " + c.b())).append("</td><td>").append(t.loss().id())
@@ -82,8 +83,9 @@ public final class HtmlReport {
         }
       }
       sb.append("</table>\n<p class=\"meta\">Diebold &amp; Mariano (1995), long-run variance by the Newey &amp; West (1987) "
-          + "Bartlett kernel, lag floor(4(n/100)^(2/9)) unless set; DM* applies the Harvey, Leybourne &amp; Newbold (1997) "
-          + "correction and is compared with Student's t with n − 1 degrees of freedom. Negative: the first has the lower loss.</p>\n");
+          + "Bartlett kernel, lag floor(4(n/100)^(2/9)) unless set; the corrected statistic applies the Harvey, Leybourne &amp; Newbold (1997) "
+          + "correction and is compared with Student's t with n − 1 degrees of freedom. The difference is the first configuration's "
+          + "loss minus the second's: below zero, the first did better (its loss is smaller); above zero, the second did.</p>\n");
     }
     sb.append("<h2>RMSE over time</h2>\n");
     overTime(sb, r);
@@ -96,7 +98,9 @@ public final class HtmlReport {
       sb.append("<h2>Per ").append(esc(r.segmentField())).append("</h2>\n");
       segments(sb, r);
     }
-    sb.append("<h2>Per local hour of day (RMSE)</h2>\n<table><tr><th>hour</th>");
+    sb.append("<h2>Per local hour of day (RMSE)</h2>\n");
+    hours(sb, r);
+    sb.append("<details><summary>the numbers</summary>\n<table><tr><th>hour</th>");
     for (BacktestResult.VariantResult v : r.variants()) {
       sb.append("<th>").append(esc(v.label())).append("</th>");
     }
@@ -108,7 +112,7 @@ public final class HtmlReport {
       }
       sb.append("</tr>\n");
     }
-    sb.append("</table>\n<p class=\"meta\">Written by runnel backtest.</p>\n</body></html>\n");
+    sb.append("</table>\n</details>\n<p class=\"meta\">Written by runnel backtest.</p>\n</body></html>\n");
     return sb.toString();
   }
 
@@ -154,7 +158,7 @@ public final class HtmlReport {
       sb.append("<p>No scored records.</p>\n");
       return;
     }
-    Frame f = new Frame(x0, x1 == x0 ? x0 + 1 : x1, 0, y1 == 0 ? 1 : y1 * 1.08);
+    Frame f = new Frame(x0, x1 == x0 ? x0 + 1 : x1, 0, y1 == 0 ? 1 : y1);
     f.open(sb, "RMSE", true);
     for (int i = 0; i < r.variants().size(); i++) {
       StringBuilder pts = new StringBuilder();
@@ -225,6 +229,91 @@ public final class HtmlReport {
     sb.append("</svg>\n");
   }
 
+  /** RMSE per local hour of day as grouped bars, one colour per configuration. */
+  private static void hours(StringBuilder sb, BacktestResult r) {
+    double top = 0;
+    for (BacktestResult.VariantResult v : r.variants()) {
+      for (int h = 0; h < 24; h++) {
+        double x = v.byHour().get(h).rmse();
+        if (Double.isFinite(x)) {
+          top = Math.max(top, x);
+        }
+      }
+    }
+    if (top == 0) {
+      sb.append("<p>No scored records.</p>\n");
+      return;
+    }
+    double[] ticks = niceTicks(0, top, 4);
+    double y1 = ticks[ticks.length - 1];
+    double plotH = H - MT - MB;
+    double slot = (W - ML - MR) / 24.0;
+    int n = r.variants().size();
+    double bar = Math.max(1, (slot * 0.8) / n);
+    sb.append(String.format(Locale.ROOT, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%d\" height=\"%d\" viewBox=\"0 0 %d %d\" "
+        + "class=\"hours\">%n", W, H, W, H));
+    for (double t : ticks) {
+      double yy = MT + (y1 - t) / y1 * plotH;
+      sb.append(String.format(Locale.ROOT, "<line x1=\"%d\" y1=\"%.1f\" x2=\"%d\" y2=\"%.1f\" stroke=\"#eee\"/>"
+          + "<text x=\"%d\" y=\"%.1f\" text-anchor=\"end\">%s</text>%n", ML, yy, W - MR, yy, ML - 6, yy + 4, tickLabel(t, ticks)));
+    }
+    for (int h = 0; h < 24; h++) {
+      double x0 = ML + h * slot + slot * 0.1;
+      for (int i = 0; i < n; i++) {
+        double v = r.variants().get(i).byHour().get(h).rmse();
+        if (!Double.isFinite(v)) {
+          continue;
+        }
+        double hh = v / y1 * plotH;
+        sb.append(String.format(Locale.ROOT, "<rect x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" height=\"%.1f\" fill=\"%s\">"
+            + "<title>%02d h, %s: RMSE %s</title></rect>%n", x0 + i * bar, MT + plotH - hh, bar, hh, colour(i), h,
+            esc(r.variants().get(i).label()), TextReport.num(v)));
+      }
+      sb.append(String.format(Locale.ROOT, "<text x=\"%.1f\" y=\"%d\" text-anchor=\"middle\">%02d</text>%n",
+          ML + (h + 0.5) * slot, H - MB + 16, h));
+    }
+    sb.append(String.format(Locale.ROOT, "<line x1=\"%d\" y1=\"%d\" x2=\"%d\" y2=\"%d\" stroke=\"#999\"/>%n", ML, H - MB, W - MR, H - MB));
+    sb.append(String.format(Locale.ROOT, "<text x=\"12\" y=\"%d\" transform=\"rotate(-90 12 %d)\" text-anchor=\"middle\">RMSE</text>%n",
+        (H - MB + MT) / 2, (H - MB + MT) / 2));
+    sb.append(String.format(Locale.ROOT, "<text x=\"%d\" y=\"%d\" text-anchor=\"end\">local hour of day</text>%n", W - MR, H - 4));
+    sb.append("</svg>\n");
+  }
+
+  /**
+   * Round tick values covering [lo, hi]: the step is 1, 2 or 5 times a power of ten, the smallest
+   * such that about {@code target} steps span the range (the "nice numbers" rule, common practice),
+   * and the first and last ticks are multiples of the step at or beyond lo and hi.
+   * Package-private for tests.
+   *
+   * @return ascending ticks, at least two
+   */
+  static double[] niceTicks(double lo, double hi, int target) {
+    if (!(hi > lo)) {
+      hi = lo + (lo == 0 ? 1 : Math.abs(lo));
+    }
+    double raw = (hi - lo) / target;
+    double power = Math.pow(10, Math.floor(Math.log10(raw)));
+    double f = raw / power;
+    double step = (f <= 1 ? 1 : f <= 2 ? 2 : f <= 5 ? 5 : 10) * power;
+    long first = (long) Math.floor(lo / step + 1e-9);
+    long last = (long) Math.ceil(hi / step - 1e-9);
+    double[] t = new double[(int) (last - first + 1)];
+    for (int i = 0; i < t.length; i++) {
+      t[i] = (first + i) * step;
+      if (Math.abs(t[i]) < step * 1e-9) {
+        t[i] = 0; // no "-0"
+      }
+    }
+    return t;
+  }
+
+  /** A tick's label with just the decimals the step needs. */
+  static String tickLabel(double v, double[] ticks) {
+    double step = ticks.length > 1 ? ticks[1] - ticks[0] : 1;
+    int decimals = Math.max(0, (int) -Math.floor(Math.log10(step) + 1e-9));
+    return String.format(Locale.ROOT, "%." + decimals + "f", v);
+  }
+
   private static void segments(StringBuilder sb, BacktestResult r) {
     List<String> levels = new ArrayList<>();
     for (BacktestResult.VariantResult v : r.variants()) {
@@ -271,12 +360,15 @@ public final class HtmlReport {
     final double x1;
     final double y0;
     final double y1;
+    final double[] ticks;
 
+    /** A frame whose y range is widened to round ticks ({@link #niceTicks}) around [y0, y1]. */
     Frame(double x0, double x1, double y0, double y1) {
       this.x0 = x0;
       this.x1 = x1;
-      this.y0 = y0;
-      this.y1 = y1;
+      this.ticks = niceTicks(y0, y1, 4);
+      this.y0 = ticks[0];
+      this.y1 = ticks[ticks.length - 1];
     }
 
     double x(double t) {
@@ -292,11 +384,10 @@ public final class HtmlReport {
           W, H, W, H));
       sb.append(String.format(Locale.ROOT, "<line x1=\"%d\" y1=\"%d\" x2=\"%d\" y2=\"%d\" stroke=\"#999\"/>%n", ML, H - MB, W - MR, H - MB));
       sb.append(String.format(Locale.ROOT, "<line x1=\"%d\" y1=\"%d\" x2=\"%d\" y2=\"%d\" stroke=\"#999\"/>%n", ML, MT, ML, H - MB));
-      for (int k = 0; k <= 4; k++) {
-        double v = y0 + (y1 - y0) * k / 4;
+      for (double v : ticks) {
         double yy = y(v);
         sb.append(String.format(Locale.ROOT, "<line x1=\"%d\" y1=\"%.1f\" x2=\"%d\" y2=\"%.1f\" stroke=\"#eee\"/>"
-            + "<text x=\"%d\" y=\"%.1f\" text-anchor=\"end\">%s</text>%n", ML, yy, W - MR, yy, ML - 6, yy + 4, TextReport.num(v)));
+            + "<text x=\"%d\" y=\"%.1f\" text-anchor=\"end\">%s</text>%n", ML, yy, W - MR, yy, ML - 6, yy + 4, tickLabel(v, ticks)));
       }
       if (y0 < 0 && y1 > 0) {
         sb.append(String.format(Locale.ROOT, "<line x1=\"%d\" y1=\"%.1f\" x2=\"%d\" y2=\"%.1f\" stroke=\"#bbb\" stroke-dasharray=\"4 3\"/>%n",
@@ -305,7 +396,10 @@ public final class HtmlReport {
       for (int k = 0; k <= 5; k++) {
         double t = x0 + (x1 - x0) * k / 5;
         String label = Instant.ofEpochMilli((long) t).toString().substring(0, 10);
-        sb.append(String.format(Locale.ROOT, "<text x=\"%.1f\" y=\"%d\" text-anchor=\"middle\">%s</text>%n", x(t), H - MB + 16, label));
+        // the first and last labels are anchored inside the plot, so neither is clipped at the edge
+        String anchor = k == 0 ? "start" : k == 5 ? "end" : "middle";
+        sb.append(String.format(Locale.ROOT, "<text x=\"%.1f\" y=\"%d\" text-anchor=\"%s\">%s</text>%n", x(t), H - MB + 16,
+            anchor, label));
       }
       sb.append(String.format(Locale.ROOT, "<text x=\"12\" y=\"%d\" transform=\"rotate(-90 12 %d)\" text-anchor=\"middle\">%s</text>%n",
           (H - MB + MT) / 2, (H - MB + MT) / 2, esc(yLabel + (localTime ? " (per period, local time)" : ""))));

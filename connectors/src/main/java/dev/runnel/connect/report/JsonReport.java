@@ -18,7 +18,7 @@ import java.util.TreeMap;
 public final class JsonReport {
 
   /** Version of the document's layout. */
-  public static final int FORMAT_VERSION = 1;
+  public static final int FORMAT_VERSION = 2;
 
   private JsonReport() { }
 
@@ -64,7 +64,7 @@ public final class JsonReport {
         g.writeStringField("pipeline", v.pipelineName());
         g.writeNumberField("records", v.records());
         g.writeNumberField("scored", v.scored());
-        g.writeNumberField("forecasts", v.forecasts());
+        g.writeNumberField("no_target_records", v.forecasts());
         g.writeNumberField("warming_up", v.warmingUp());
         g.writeNumberField("rejected", v.rejected());
         g.writeObjectFieldStart("rejects_by_reason");
@@ -136,7 +136,7 @@ public final class JsonReport {
   private static void test(JsonGenerator g, String name, DieboldMariano.Result t, String verdict) throws IOException {
     g.writeObjectFieldStart(name);
     g.writeNumberField("lag", t.lag());
-    g.writeNumberField("horizon", t.horizon());
+    g.writeNumberField("dm_steps", t.horizon());
     g.writeFieldName("mean_loss_a");
     num(g, t.meanLossA());
     g.writeFieldName("mean_loss_b");
@@ -145,11 +145,11 @@ public final class JsonReport {
     num(g, t.meanDifference());
     g.writeFieldName("long_run_variance");
     num(g, t.longRunVariance());
-    g.writeFieldName("dm");
+    g.writeFieldName("statistic");
     num(g, t.statistic());
     g.writeFieldName("p_normal");
     num(g, t.pValue());
-    g.writeFieldName("dm_corrected");
+    g.writeFieldName("statistic_corrected");
     num(g, t.correctedStatistic());
     g.writeFieldName("p");
     num(g, t.correctedPValue());

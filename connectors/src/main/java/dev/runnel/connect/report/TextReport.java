@@ -1,5 +1,6 @@
 package dev.runnel.connect.report;
 
+import dev.runnel.connect.text.TerminalText;
 import dev.runnel.core.evaluate.BacktestResult;
 import dev.runnel.core.evaluate.DieboldMariano;
 import dev.runnel.core.evaluate.Metrics;
@@ -20,7 +21,7 @@ public final class TextReport {
     return vs;
   }
 
-  /** The report as text, lines ending in \n. */
+  /** The report as text, lines ending in \n; labels and levels from the data have their control characters escaped. */
   public static String render(BacktestResult r) {
     StringBuilder sb = new StringBuilder(4096);
     int w = 8;
@@ -63,8 +64,9 @@ public final class TextReport {
     if (!r.comparisons().isEmpty()) {
       sb.append(String.format(Locale.ROOT, "%nDiebold–Mariano tests (two-sided; HAC variance, Newey–West Bartlett kernel; "
           + "p from Student t with the Harvey–Leybourne–Newbold correction)%n"));
-      String f2 = "%-" + (2 * w + 4) + "s %-8s %8s %5s %10s %11s %10s%n";
-      sb.append(String.format(Locale.ROOT, f2, "pair", "loss", "n", "lag", "mean diff", "DM*", "p"));
+      sb.append(String.format(Locale.ROOT, "loss difference = first's loss − second's: below zero, the first did better%n"));
+      String f2 = "%-" + (2 * w + 4) + "s %-8s %8s %7s %13s %11s %10s%n";
+      sb.append(String.format(Locale.ROOT, f2, "first vs second", "loss", "n", "HAC lag", "mean diff.", "statistic", "p"));
       for (BacktestResult.Comparison c : r.comparisons()) {
         for (DieboldMariano.Result t : List.of(c.squared(), c.absolute())) {
           sb.append(String.format(Locale.ROOT, f2, c.a() + " vs " + c.b(), t.loss().id(),
@@ -78,7 +80,7 @@ public final class TextReport {
         sb.append("  ").append(c.absoluteVerdict()).append('\n');
       }
     }
-    return sb.toString();
+    return TerminalText.lines(sb);
   }
 
   private static void segmentTable(StringBuilder sb, BacktestResult r) {

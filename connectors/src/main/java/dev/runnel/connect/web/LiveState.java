@@ -215,7 +215,7 @@ public final class LiveState implements AutoCloseable {
   /** The document served at {@code /api/state} (see docs/formats.md). */
   public synchronized ObjectNode stateJson() {
     ObjectNode root = F.objectNode();
-    root.put("format", 1);
+    root.put("format", 2);
     root.put("pipeline", pipeline);
     root.put("bootstrap_servers", bootstrap);
     root.put("generated_at", Instant.now().toString());
@@ -234,9 +234,9 @@ public final class LiveState implements AutoCloseable {
       tp.put("aborts", c.aborts());
       tp.put("records_per_second", Math.round(recordsPerSecond * 10) / 10.0);
       if (c.lag() >= 0) {
-        tp.put("lag", c.lag());
+        tp.put("records_behind", c.lag());
       } else {
-        tp.putNull("lag");
+        tp.putNull("records_behind");
       }
       if (c.lastCommitEpochMillis() > 0) {
         tp.put("last_commit", Instant.ofEpochMilli(c.lastCommitEpochMillis()).toString());
@@ -286,8 +286,8 @@ public final class LiveState implements AutoCloseable {
     }
     if (latest != null) {
       ObjectNode l = root.putObject("latest");
-      for (String k : List.of("index", "partition", "event_time", "records", "trained", "rejected", "layout_version",
-          "ready", "noise_sd", "effective_sample_size", "metrics", "vocabularies", "scalers", "alarms", "drift")) {
+      for (String k : List.of("index", "partition", "event_time", "records", "trained", "rejected", "columns_version",
+          "ready", "noise_sd", "effective_sample_size", "metrics", "vocabularies", "standardization", "alarms", "drift")) {
         if (latest.has(k)) {
           l.set(k, latest.get(k));
         }
@@ -298,7 +298,7 @@ public final class LiveState implements AutoCloseable {
         o.set("name", c.path("name"));
         o.set("raw_weight", c.path("raw_weight"));
         o.set("raw_std_error", c.path("raw_std_error"));
-        o.set("moved_se", c.path("moved_se"));
+        o.set("drift_score", c.path("drift_score"));
       }
     } else {
       root.putNull("latest");
@@ -312,7 +312,7 @@ public final class LiveState implements AutoCloseable {
   }
 
   /**
-   * The weights drawn: those with a raised alarm first, then the largest |moved_se|, then the
+   * The weights drawn: those with a raised alarm first, then the largest |drift_score|, then the
    * largest |weight/se|, up to {@link #SHOWN_WEIGHTS}; the constant is left out (its scale dwarfs the rest).
    */
   private List<String> shownColumns() {
@@ -343,7 +343,7 @@ public final class LiveState implements AutoCloseable {
   }
 
   private static double score(JsonNode c) {
-    double moved = Math.abs(c.path("moved_se").asDouble(0));
+    double moved = Math.abs(c.path("drift_score").asDouble(0));
     double se = c.path("raw_std_error").asDouble(Double.NaN);
     double t = se > 0 ? Math.abs(c.path("raw_weight").asDouble() / se) : 0;
     // moved weights first (scaled up so any real move beats a merely large weight), then significance

@@ -59,4 +59,44 @@ class BacktestThreadsCliTest {
     String load = CliCapture.run("load", "--help")[2];
     assertTrue(load.contains("--config=FILE") && load.contains("${ENV}"), load);
   }
+
+  @Test
+  void theReportReadsNaturally(@TempDir Path dir) throws Exception {
+    String[] r = backtest(dir.resolve("r"), "1");
+    assertEquals("0", r[0], r[1]);
+    String html = Files.readString(dir.resolve("r/backtest.html"));
+    // the last date label of a time axis is anchored at its end (it was centred on the plot's edge and clipped)
+    assertTrue(html.matches("(?s).*text-anchor=\"end\">\\d{4}-\\d\\d-\\d\\d</text>.*"), "an end-anchored date label");
+    assertTrue(html.contains("<svg") && html.contains("class=\"hours\"") && html.contains("<title>23 h, no-weather: RMSE"),
+        "the per-hour RMSE as bars");
+    assertTrue(html.contains("below zero, the first did better"), "the sign in words");
+    assertTrue(!html.contains("DM*") && !r[2].contains("DM*"), "no DM / DM* shorthand");
+    assertTrue(r[2].contains("loss difference = first's loss − second's: below zero, the first did better"), r[2]);
+  }
+
+  @Test
+  void oldOptionNamesStillWorkAndSaySo(@TempDir Path dir) {
+    String[] r = CliCapture.run("backtest", "--source", SAMPLE, "--config", "../docs/examples/with-weather.yaml",
+        "--out", dir.toString(), "--quiet", "--read-only", "--horizon", "2");
+    assertEquals("0", r[0], r[1]);
+    assertTrue(r[2].contains("no configuration run"), r[2]);
+    assertTrue(r[1].contains("--read-only is deprecated; use --reading-speed"), r[1]);
+    assertTrue(r[1].contains("--horizon is deprecated") && r[1].contains("use --dm-steps 2"), r[1]);
+  }
+
+  @Test
+  void aPlantedEscapeSequenceInASegmentLevelIsPrintedEscaped(@TempDir Path dir) throws Exception {
+    // issue #14 item 8 for the backtest's table: levels of --segment-by come from the data
+    java.util.List<String> lines = new java.util.ArrayList<>();
+    for (String l : Files.readAllLines(Path.of(SAMPLE))) {
+      lines.add(l.replace("\"weather\":\"snow\"", "\"weather\":\"snow\\u001b[2J\""));
+    }
+    Path planted = dir.resolve("planted.jsonl");
+    Files.write(planted, lines);
+    String[] r = CliCapture.run("backtest", "--source", planted.toString(), "--config", "../docs/examples/with-weather.yaml",
+        "--segment-by", "weather", "--out", dir.resolve("out").toString(), "--quiet");
+    assertEquals("0", r[0], r[1]);
+    assertTrue(r[2].indexOf('\u001b') < 0, "no ESC reaches the terminal");
+    assertTrue(r[2].contains("snow\\x1B[2J"), r[2]);
+  }
 }

@@ -91,4 +91,25 @@ class RecordLoadClientPropertiesTest {
     assertEquals("0", rec[0], rec[1]);
     assertEquals(301, Files.readAllLines(out).size(), "a header line and the 300 records");
   }
+
+  @Test
+  void record_onAnEmptyRange_namesItsOwnOptions(TestBroker broker, @TempDir Path dir) throws IOException {
+    // before: "--source ...: the range holds no record": --source is the backtest's option, record has none
+    String bs = broker.bootstrapServers();
+    Path file = sampleCopy(dir, 5);
+    String[] load = CliCapture.run("load", "--bootstrap-servers", bs, "--source", file.toString(), "--topic", "rec-empty-range");
+    assertEquals("0", load[0], load[1]);
+    Path out = dir.resolve("rec.jsonl");
+    String[] past = CliCapture.run("record", "--bootstrap-servers", bs, "--topic", "rec-empty-range", "--start-offset", "9",
+        "--out", out.toString(), "--quiet");
+    assertEquals("2", past[0], past[1]);
+    assertEquals("runnel record: --topic rec-empty-range: the range holds no record (offsets per partition: 0: 0..5); "
+        + "widen --start-offset/--start-time/--end-offset/--end-time or check the topic", past[1].trim());
+    String[] missing = CliCapture.run("record", "--bootstrap-servers", bs, "--topic", "rec-no-such-topic",
+        "--out", out.toString(), "--quiet");
+    assertEquals("runnel record: --topic rec-no-such-topic: no such topic at " + bs + "; name an existing topic",
+        missing[1].trim());
+    String help = CliCapture.run("record", "--help")[2];
+    assertTrue(help.contains("--start-time=ISO") && help.contains("Stop before this offset in every partition"), help);
+  }
 }

@@ -20,8 +20,8 @@ class DriftTableTest {
     String t = Instant.parse("2026-02-01T00:00:00Z").plusSeconds(3600L * index).toString();
     return JSON.readTree(String.format(Locale.ROOT, "{\"partition\":0,\"index\":%d,\"event_time\":\"%s\",\"ready\":true,"
         + "\"noise_sd\":1.5,\"metrics\":{\"recent\":{\"mae\":1.2,\"rmse\":1.6}},"
-        + "\"columns\":[{\"name\":\"a\",\"raw_weight\":%s,\"raw_std_error\":%s,\"moved_se\":0.5},"
-        + "{\"name\":\"b\",\"raw_weight\":%s,\"raw_std_error\":%s,\"moved_se\":-7.25}],\"alarms\":[%s]}",
+        + "\"columns\":[{\"name\":\"a\",\"raw_weight\":%s,\"raw_std_error\":%s,\"drift_score\":0.5},"
+        + "{\"name\":\"b\",\"raw_weight\":%s,\"raw_std_error\":%s,\"drift_score\":-7.25}],\"alarms\":[%s]}",
         index, t, wa, sea, wb, seb, alarms));
   }
 
@@ -40,7 +40,7 @@ class DriftTableTest {
     String line = t.take(snap(3, 1, 0.1, 2, 0.1,
         "{\"kind\":\"weight\",\"column\":\"b\",\"direction\":\"down\"},"
             + "{\"kind\":\"error_level\",\"direction\":\"up\",\"fired_at\":\"2026-02-01T02:17:00Z\"}"));
-    assertTrue(line.startsWith("3     2026-02-01T03:00Z   0    1.500    1.200    1.600  b 2.000 (-7.3)"), line);
+    assertTrue(line.startsWith("3     2026-02-01T03:00Z    0    1.500      1.200       1.600  b 2.000 (-7.3)"), line);
     assertTrue(line.endsWith("| ALARM b down; error level up at 2026-02-01T02:17Z"), line);
   }
 
@@ -56,5 +56,18 @@ class DriftTableTest {
     assertNull(t.take(snap(4, 1, 0.1, 1, 0.1, "")), "after --to");
     IllegalArgumentException e = assertThrows(IllegalArgumentException.class, () -> new DriftTable("yesterday", 3, null, null));
     assertTrue(e.getMessage().startsWith("--baseline: \"yesterday\" is not allowed"), e.getMessage());
+  }
+
+  @Test
+  void controlCharactersPlantedInALevelAreEscaped() throws Exception {
+    // issue #14 item 8: a category level carrying ESC [ 2 J (clear screen) reached the terminal as is
+    String level = "hub=QM\\u001b[2J\\u001b[H"; // JSON escapes: the decoded level holds two ESC characters
+    JsonNode s = JSON.readTree("{\"partition\":0,\"index\":1,\"event_time\":\"2026-02-01T00:00:00Z\",\"ready\":true,"
+        + "\"columns\":[{\"name\":\"" + level + "\",\"raw_weight\":1.0,\"raw_std_error\":0.1,\"drift_score\":5.0}],"
+        + "\"alarms\":[{\"kind\":\"weight\",\"column\":\"" + level + "\",\"direction\":\"up\"}]}");
+    String line = new DriftTable("pipeline", 1, null, null).take(s);
+    assertTrue(line.indexOf('\u001b') < 0, line);
+    assertTrue(line.contains("hub=QM\\x1B[2J\\x1B[H 1.000 (+5.0)"), line);
+    assertTrue(line.endsWith("ALARM hub=QM\\x1B[2J\\x1B[H up"), line);
   }
 }

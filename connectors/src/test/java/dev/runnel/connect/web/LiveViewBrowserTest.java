@@ -119,6 +119,11 @@ class LiveViewBrowserTest {
       assertTrue(s.path("latest").path("vocabularies").size() == 2, "hub and weather vocabularies");
       assertTrue(s.path("latest").path("drift").path("error_test").asText().equals("page_hinkley"));
       assertTrue(s.path("throughput").path("records_in").asLong() >= lines.size());
+      // format 2 names (docs/formats.md): the page reads these
+      assertEquals(2, s.path("format").asInt());
+      assertTrue(s.path("throughput").has("records_behind"), s.path("throughput").toString());
+      assertTrue(s.path("latest").path("standardization").size() > 0, "running means and spreads");
+      assertTrue(s.path("latest").path("vocabularies").get(0).has("below_min_count"));
       HttpResponse<String> page = http.send(HttpRequest.newBuilder(URI.create(web.url())).build(),
           HttpResponse.BodyHandlers.ofString());
       assertTrue(page.body().contains("<svg") || page.body().contains("createElementNS"), "the page draws SVG");

@@ -68,7 +68,7 @@ public final class Backtest {
         throw new IllegalArgumentException("--dm-lag must be -1 (automatic) or at least 0, got " + lag);
       }
       if (horizon < 1) {
-        throw new IllegalArgumentException("--horizon must be at least 1, got " + horizon);
+        throw new IllegalArgumentException("--dm-steps must be at least 1, got " + horizon);
       }
       if (!(alpha > 0 && alpha < 1)) {
         throw new IllegalArgumentException("--alpha must be in (0, 1), got " + alpha);

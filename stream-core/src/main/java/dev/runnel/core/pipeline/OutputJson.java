@@ -33,7 +33,7 @@ import java.util.Arrays;
 public final class OutputJson {
 
   /** Version of the published record layouts. */
-  public static final int FORMAT_VERSION = 1;
+  public static final int FORMAT_VERSION = 2;
   /** Raw bytes of a rejected record are truncated to this many bytes on the rejects output. */
   public static final int MAX_RAW_BYTES = 4096;
 
@@ -57,7 +57,7 @@ public final class OutputJson {
   private static final SerializedString K_LEVEL = new SerializedString("level");
   private static final SerializedString K_ACTUAL = new SerializedString("actual");
   private static final SerializedString K_ERROR = new SerializedString("error");
-  private static final SerializedString K_LAYOUT_VERSION = new SerializedString("layout_version");
+  private static final SerializedString K_COLUMNS_VERSION = new SerializedString("columns_version");
   private static final SerializedString[] STATUS_TEXT;
 
   static {
@@ -149,7 +149,7 @@ public final class OutputJson {
       g.writeNumber(intervalLevel);
       number(g, K_ACTUAL, p.actual());
       number(g, K_ERROR, p.error());
-      g.writeFieldName(K_LAYOUT_VERSION);
+      g.writeFieldName(K_COLUMNS_VERSION);
       g.writeNumber(p.layoutVersion());
       g.writeEndObject();
       byte[] bytes = finish(g);
@@ -217,9 +217,9 @@ public final class OutputJson {
           : Instant.ofEpochMilli(s.eventTimeMillis()).toString());
       g.writeNumberField("records", s.records());
       g.writeNumberField("trained", s.trained());
-      g.writeNumberField("forecasts", s.forecasts());
+      g.writeNumberField("no_target_records", s.forecasts());
       g.writeNumberField("rejected", s.rejected());
-      g.writeNumberField("layout_version", s.layoutVersion());
+      g.writeNumberField("columns_version", s.layoutVersion());
       g.writeBooleanField("ready", s.ready());
       number(g, "noise_sd", s.noiseSd());
       number(g, "residual_sd", s.residualSd());
@@ -250,7 +250,7 @@ public final class OutputJson {
         number(g, "raw_std_error", c.rawStandardError());
         number(g, "centre", c.centre());
         number(g, "scale", c.scale());
-        number(g, "moved_se", c.movedSe());
+        number(g, "drift_score", c.movedSe());
         g.writeEndObject();
       }
       g.writeEndArray();
@@ -261,7 +261,7 @@ public final class OutputJson {
         g.writeStringField("feature", v.feature());
         g.writeStringField("field", v.field());
         g.writeNumberField("other_count", v.otherCount());
-        g.writeNumberField("candidates", v.candidates());
+        g.writeNumberField("below_min_count", v.candidates());
         g.writeArrayFieldStart("levels");
         for (Featurizer.LevelSnapshot l : v.levels()) {
           g.writeStartObject();
@@ -276,7 +276,7 @@ public final class OutputJson {
         g.writeEndObject();
       }
       g.writeEndArray();
-      g.writeArrayFieldStart("scalers");
+      g.writeArrayFieldStart("standardization");
       for (Featurizer.ScalerSnapshot sc : s.scalers()) {
         g.writeStartObject();
         g.writeStringField("column", sc.column());

@@ -389,6 +389,16 @@ public final class PipelineStep {
     return Snapshot.of(this);
   }
 
+  /**
+   * Takes one snapshot now, outside the schedule, with the next index (its weight alarms and
+   * drift scores are computed as for a due one): for the end of a finite stream, such as a file
+   * replay, whose last records came after the latest due snapshot. The schedule of due snapshots
+   * is not changed. Cold path; then {@link #snapshot()} is the snapshot taken.
+   */
+  public void takeSnapshotNow() {
+    observeSnapshotForDrift();
+  }
+
   // ------------------------------------------------------------------ checkpoints
 
   /**

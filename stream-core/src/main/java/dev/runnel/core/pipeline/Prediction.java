@@ -12,8 +12,8 @@ public final class Prediction {
   public enum Status {
     /** The record carried its target: scored a priori, then learned from. */
     SCORED("scored"),
-    /** The record had no target: a forecast request, scored only. */
-    FORECAST("forecast"),
+    /** The record had no target (a request for a prediction): predicted only, the model is unchanged. Id {@code no_target} (format 2; {@code forecast} in format 1). */
+    FORECAST("no_target"),
     /**
      * No honest prediction yet: the model has no weights (diffuse start) or no noise estimate to
      * give an interval with (the first training record, also after a restart from the prior); no

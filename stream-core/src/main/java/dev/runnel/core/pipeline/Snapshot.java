@@ -46,7 +46,7 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
                        List<DriftAlarm> alarms, DriftStatus drift) {
 
   /** Version of the snapshot's published layout (see docs/formats.md). */
-  public static final int FORMAT_VERSION = 1;
+  public static final int FORMAT_VERSION = 2;
 
   public Snapshot {
     columns = List.copyOf(columns);

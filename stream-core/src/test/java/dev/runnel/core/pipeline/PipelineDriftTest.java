@@ -133,8 +133,8 @@ class PipelineDriftTest {
       JsonNode last = o.snapshots().get(99);
       double maxMoved = 0;
       for (JsonNode c : last.path("columns")) {
-        assertTrue(c.path("moved_se").isNumber(), c.toString());
-        maxMoved = Math.max(maxMoved, Math.abs(c.path("moved_se").asDouble()));
+        assertTrue(c.path("drift_score").isNumber(), c.toString());
+        maxMoved = Math.max(maxMoved, Math.abs(c.path("drift_score").asDouble()));
       }
       assertTrue(maxMoved < 4, "largest score at the last snapshot " + maxMoved);
       assertEquals(99, last.path("index").asLong());

@@ -86,7 +86,7 @@ class SnapshotPeriodAndStatusTest {
     assertTrue(Double.isNaN(predicted.get(0)) && Double.isNaN(low.get(0)), "no value and no interval while warming up");
     assertEquals(1, step.warmingUp());
     for (int i = 1; i < statuses.size(); i++) {
-      assertTrue(statuses.get(i).equals("scored") || statuses.get(i).equals("forecast"), i + ": " + statuses.get(i));
+      assertTrue(statuses.get(i).equals("scored") || statuses.get(i).equals("no_target"), i + ": " + statuses.get(i));
       assertTrue(!Double.isNaN(low.get(i)), "an interval from the second record on");
     }
     long scored = statuses.stream().filter("scored"::equals).count();

@@ -1,0 +1,98 @@
+package dev.runnel.connect.launch;
+
+import com.fasterxml.jackson.databind.JsonNode;
+import com.fasterxml.jackson.databind.ObjectMapper;
+import dev.runnel.connect.kafka.Emitter;
+import dev.runnel.connect.kafka.PartitionProcessor;
+import dev.runnel.connect.kafka.ProcessorFactory;
+import java.io.IOException;
+import java.util.Map;
+import java.util.TreeMap;
+import java.util.concurrent.ConcurrentHashMap;
+import java.util.concurrent.atomic.AtomicLong;
+import java.util.concurrent.atomic.LongAdder;
+
+/**
+ * Counts what a running pipeline sends, by kind: predictions, snapshots, rejects by reason. It
+ * wraps the processors of a {@link ProcessorFactory} and sees each output as it is handed to the
+ * runner, so, like the runner's own counters, it includes work of transactions that were later
+ * aborted and replayed. Written by the runner's thread, read by any.
+ */
+public final class OutputTally {
+
+  private static final ObjectMapper JSON = new ObjectMapper();
+
+  private final LongAdder predictions = new LongAdder();
+  private final LongAdder snapshots = new LongAdder();
+  private final Map<String, AtomicLong> rejects = new ConcurrentHashMap<>();
+
+  /** A factory whose processors count their outputs here. */
+  public ProcessorFactory wrap(ProcessorFactory inner) {
+    return tp -> new Counting(inner.create(tp));
+  }
+
+  /** Predictions sent. */
+  public long predictions() {
+    return predictions.sum();
+  }
+
+  /** Coefficient snapshots sent. */
+  public long snapshots() {
+    return snapshots.sum();
+  }
+
+  /** Rejects sent, by reason id (sorted). */
+  public Map<String, Long> rejectsByReason() {
+    Map<String, Long> m = new TreeMap<>();
+    rejects.forEach((k, v) -> m.put(k, v.get()));
+    return m;
+  }
+
+  /** The reason id inside a reject record, or "unknown" (rare path: rejects are few). */
+  static String reasonOf(byte[] value) {
+    try {
+      JsonNode n = JSON.readTree(value);
+      String r = n.path("reason").asText("");
+      return r.isEmpty() ? "unknown" : r;
+    } catch (IOException e) {
+      return "unknown";
+    }
+  }
+
+  private final class Counting implements PartitionProcessor, Emitter {
+    private final PartitionProcessor inner;
+    private Emitter out;
+
+    Counting(PartitionProcessor inner) {
+      this.inner = inner;
+    }
+
+    @Override public void restore(byte[] checkpointOrNull) {
+      inner.restore(checkpointOrNull);
+    }
+
+    @Override public void process(long offset, long timestampMillis, byte[] key, byte[] value, Emitter out) {
+      this.out = out;
+      inner.process(offset, timestampMillis, key, value, this);
+    }
+
+    @Override public byte[] checkpoint() {
+      return inner.checkpoint();
+    }
+
+    @Override public void prediction(byte[] key, byte[] value) {
+      predictions.increment();
+      out.prediction(key, value);
+    }
+
+    @Override public void snapshot(byte[] key, byte[] value) {
+      snapshots.increment();
+      out.snapshot(key, value);
+    }
+
+    @Override public void reject(byte[] key, byte[] value) {
+      rejects.computeIfAbsent(reasonOf(value), k -> new AtomicLong()).incrementAndGet();
+      out.reject(key, value);
+    }
+  }
+}

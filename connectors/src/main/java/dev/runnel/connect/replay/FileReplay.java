@@ -1,0 +1,104 @@
+package dev.runnel.connect.replay;
+
+import dev.runnel.connect.file.JsonLinesReader;
+import dev.runnel.core.config.PipelineConfig;
+import dev.runnel.core.pipeline.OutputJson;
+import dev.runnel.core.pipeline.PipelineStep;
+import dev.runnel.core.pipeline.Prediction;
+import dev.runnel.core.record.EventRecord;
+import dev.runnel.core.record.RejectReason;
+import java.io.BufferedOutputStream;
+import java.io.IOException;
+import java.io.OutputStream;
+import java.io.UncheckedIOException;
+import java.nio.file.Files;
+import java.nio.file.Path;
+
+/**
+ * One configuration over one JSON Lines file, exactly as the live pipeline would run it on one
+ * input partition, with the outputs written to files: {@code predictions.jsonl},
+ * {@code coefficients.jsonl} and {@code rejects.jsonl}, each record in the layout of the topic of
+ * the same name (docs/formats.md). The file is partition {@value #PARTITION}; a record's offset is
+ * its line number. No Kafka.
+ *
+ * <p>Snapshots: every snapshot that becomes due is written as it does; when records came after
+ * the last due one (or none became due), one more is taken at the end of the file with the next
+ * index, so the last line of {@code coefficients.jsonl} is the final state and indices only rise.
+ */
+public final class FileReplay {
+
+  /** The partition a file stands for (as in {@link FileSource} and docs/formats.md). */
+  public static final int PARTITION = 0;
+
+  private FileReplay() { }
+
+  /** Told how far the pass is: records handed in so far, bytes read of the file's size. */
+  @FunctionalInterface
+  public interface Listener {
+    void progress(long records, long bytesDone, long bytesTotal);
+  }
+
+  /**
+   * Runs the file through a new pipeline step.
+   *
+   * @param config the configuration. Not modified.
+   * @param source the JSON Lines file
+   * @param out the folder for the three output files (created if missing)
+   * @param listener told after each record; may be null
+   * @return the step at the end of the file (counters, metrics, model)
+   * @throws IllegalArgumentException if {@code source} is not a file
+   */
+  public static PipelineStep run(PipelineConfig config, Path source, Path out, Listener listener) throws IOException {
+    if (!Files.isRegularFile(source)) {
+      throw new IllegalArgumentException("--source " + source + ": no such file; give a JSON Lines file");
+    }
+    Files.createDirectories(out);
+    PipelineStep step = new PipelineStep(config);
+    OutputJson json = new OutputJson(config.name(), config.model().intervalLevel());
+    long size = Files.size(source);
+    try (OutputStream preds = open(out.resolve("predictions.jsonl"));
+         OutputStream snaps = open(out.resolve("coefficients.jsonl"));
+         OutputStream rejects = open(out.resolve("rejects.jsonl"))) {
+      long[] bytesDone = {0};
+      long[] recordsAtLastSnapshot = {-1};
+      JsonLinesReader.read(source, (buf, off, len, line) -> {
+        bytesDone[0] += len + 1;
+        step.process(buf, off, len, 0L, PARTITION, line, new PipelineStep.Sink() {
+          @Override public void prediction(Prediction p, EventRecord r) {
+            write(preds, json.prediction(p, r));
+          }
+
+          @Override public void reject(RejectReason reason, String detail) {
+            write(rejects, json.reject(reason, detail, PARTITION, line, buf, off, len));
+          }
+
+          @Override public void snapshotDue() {
+            write(snaps, json.snapshot(step.snapshot(), PARTITION));
+            recordsAtLastSnapshot[0] = step.records();
+          }
+        });
+        if (listener != null) {
+          listener.progress(step.records(), bytesDone[0], size);
+        }
+      });
+      if (step.records() != recordsAtLastSnapshot[0]) {
+        step.takeSnapshotNow();
+        write(snaps, json.snapshot(step.snapshot(), PARTITION));
+      }
+    }
+    return step;
+  }
+
+  private static OutputStream open(Path p) throws IOException {
+    return new BufferedOutputStream(Files.newOutputStream(p), 1 << 16);
+  }
+
+  private static void write(OutputStream out, byte[] bytes) {
+    try {
+      out.write(bytes);
+      out.write('\n');
+    } catch (IOException e) {
+      throw new UncheckedIOException(e);
+    }
+  }
+}
