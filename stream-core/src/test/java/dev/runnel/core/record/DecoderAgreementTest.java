@@ -324,6 +324,15 @@ class DecoderAgreementTest {
       "12345678901234567890", "0.30000000000000004", "7258118399.999", "7258118400", "01", "1.", "+5"};
     List<String> numbers = new ArrayList<>(List.of(fixed));
     for (int k = 0; k < 400; k++) numbers.add(randomNumber(r));
+    // plausible times in both units, and each unit's numbers near where the other unit's begin
+    for (int k = 0; k < 200; k++) {
+      long ms = 94_694_400_000L + (long) (r.nextDouble() * 7.0e12);
+      numbers.add(Long.toString(ms));
+      numbers.add(Long.toString(ms / 1000));
+      numbers.add((ms / 1000) + "." + r.nextInt(1000));
+      numbers.add(Long.toString(94_694_400_000L + r.nextInt(2001) - 1000));
+      numbers.add(Long.toString(7_258_118_400L + r.nextInt(2001) - 1000));
+    }
     for (String n : numbers) {
       seconds.check("{\"ts\":" + n + ",\"y\":1}");
       millis.check("{\"ts\":" + n + "}");
