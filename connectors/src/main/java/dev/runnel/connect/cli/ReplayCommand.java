@@ -56,16 +56,29 @@ public final class ReplayCommand implements Callable<Integer> {
          OutputStream snaps = new BufferedOutputStream(Files.newOutputStream(out.resolve("coefficients.jsonl")), 1 << 16);
          OutputStream rejects = new BufferedOutputStream(Files.newOutputStream(out.resolve("rejects.jsonl")), 1 << 16)) {
       long[] bytesDone = {0};
-      JsonLinesReader.read(source, (buf, off, len, line) -> {
-        bytesDone[0] += len + 1;
-        step.process(buf, off, len, 0L, -1, line, new PipelineStep.Sink() {
-          @Override public void prediction(Prediction p, EventRecord r) { write(preds, json.prediction(p, r)); }
-          @Override public void reject(RejectReason reason, String detail) {
-            write(rejects, json.reject(reason, detail, -1, line, buf, off, len));
-          }
-          @Override public void snapshotDue() { write(snaps, json.snapshot(step.snapshot(), -1)); }
-        });
-        progress.update(step.records(), () -> String.format("%.0f%% of the file", 100.0 * bytesDone[0] / Math.max(1, size)));
+      // a line longer than max_record_bytes is rejected from its first bytes; the rest is never held
+      JsonLinesReader reader = new JsonLinesReader(cfg.input().limits().maxRecordBytes());
+      reader.readAll(source, new JsonLinesReader.LineHandler() {
+        @Override public void line(byte[] buf, int off, int len, long line) {
+          bytesDone[0] += len + 1;
+          step.process(buf, off, len, 0L, -1, line, sink(buf, off, len, line));
+          progress.update(step.records(), () -> String.format("%.0f%% of the file", 100.0 * bytesDone[0] / Math.max(1, size)));
+        }
+
+        @Override public void tooLong(byte[] buf, int off, int prefixLen, long lineBytes, long line) {
+          bytesDone[0] += lineBytes + 1;
+          step.processTooLarge(lineBytes, sink(buf, off, prefixLen, line));
+        }
+
+        private PipelineStep.Sink sink(byte[] buf, int off, int len, long line) {
+          return new PipelineStep.Sink() {
+            @Override public void prediction(Prediction p, EventRecord r) { write(preds, json.prediction(p, r)); }
+            @Override public void reject(RejectReason reason, String detail) {
+              write(rejects, json.reject(reason, detail, -1, line, buf, off, len));
+            }
+            @Override public void snapshotDue() { write(snaps, json.snapshot(step.snapshot(), -1)); }
+          };
+        }
       });
       write(snaps, json.snapshot(step.snapshot(), -1));
     }

@@ -114,6 +114,18 @@ public final class JsonRecordDecoder {
   }
 
   /**
+   * The outcome for a record of {@code recordBytes} bytes that its source did not hold whole (a
+   * line read only in part): {@code RECORD_TOO_LARGE}, with the same detail as {@link #decode}
+   * gives for a record of that size.
+   *
+   * @param recordBytes the record's whole size, above {@code max_record_bytes}
+   */
+  public RejectReason tooLarge(long recordBytes) {
+    detail = "record is " + recordBytes + " bytes; the limit is " + limits.maxRecordBytes();
+    return RejectReason.RECORD_TOO_LARGE;
+  }
+
+  /**
    * Decodes with a new Jackson parser for the record: the reference for {@link #decode}, which
    * gives the same outcome, detail and fields for every input (package-private for tests).
    */
@@ -124,10 +136,7 @@ public final class JsonRecordDecoder {
       java.util.Arrays.fill(seenInRecord, 0);
       recordStamp = 1;
     }
-    if (len > limits.maxRecordBytes()) {
-      detail = "record is " + len + " bytes; the limit is " + limits.maxRecordBytes();
-      return RejectReason.RECORD_TOO_LARGE;
-    }
+    if (len > limits.maxRecordBytes()) return tooLarge(len);
     try (JsonParser p = factory.createParser(buf, off, len)) {
       JsonToken t = p.nextToken();
       if (t != JsonToken.START_OBJECT) {
