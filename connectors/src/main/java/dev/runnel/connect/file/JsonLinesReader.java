@@ -155,8 +155,8 @@ public final class JsonLinesReader {
         handed += r[2];
       } else {
         if (end - start > keep) {
-          // no line break among more than the limit's bytes and a carriage return: keep the
-          // prefix, skip the rest
+          // more than limit + 1 bytes and no line break: too long even without a trailing CR;
+          // keep the prefix, skip the rest
           last = buf[end - 1];
           skipped = end - start - keep;
           System.arraycopy(buf, start, buf, 0, keep);

@@ -32,8 +32,9 @@ public final class EventTimes {
   /**
    * 1973-01-01T00:00Z in epoch millis. An event time given in epoch milliseconds that lands in
    * [1970-01-01, 1973-01-01) is taken for seconds written where milliseconds were expected: today's
-   * epoch seconds (about 1.8e9) read as milliseconds land in January 1970. No feed Runnel serves
-   * has real data from those three years (common practice for telling the units apart).
+   * epoch seconds (about 1.8e9) read as milliseconds land in January 1970. Telling the units apart
+   * by magnitude is common practice; the year 1973 is this project's choice (a feed with real data
+   * from 1970 to 1972 in epoch milliseconds cannot be read).
    */
   public static final long EPOCH_MILLIS_PLAUSIBLE_FROM = 94_694_400_000L;
 

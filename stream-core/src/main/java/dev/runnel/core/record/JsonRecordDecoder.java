@@ -22,7 +22,6 @@ import java.io.IOException;
  * and "the last wins" would let a later copy of the target overrule the first.
  *
  * <p>Checks, in the order met: record size ({@code RECORD_TOO_LARGE}); JSON syntax, a root that is
- * not an object, anything after the object ({@code MALFORMED_JSON}); per declared field the JSON
  * not an object, anything after the object ({@code MALFORMED_JSON}); per declared field, when its
  * name is met, a second occurrence ({@code DUPLICATE_FIELD}); then the JSON
  * type ({@code WRONG_TYPE}, also for objects and arrays); NaN, Infinity and numbers that overflow
