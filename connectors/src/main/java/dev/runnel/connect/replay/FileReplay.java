@@ -61,24 +61,42 @@ public final class FileReplay {
          OutputStream rejects = open(out.resolve("rejects.jsonl"))) {
       long[] bytesDone = {0};
       long[] recordsAtLastSnapshot = {-1};
-      JsonLinesReader.read(source, (buf, off, len, line) -> {
-        bytesDone[0] += len + 1;
-        step.process(buf, off, len, 0L, PARTITION, line, new PipelineStep.Sink() {
-          @Override public void prediction(Prediction p, EventRecord r) {
-            write(preds, json.prediction(p, r));
-          }
+      // a line longer than max_record_bytes is rejected from its first bytes; the rest is never held
+      JsonLinesReader reader = new JsonLinesReader(config.input().limits().maxRecordBytes());
+      reader.readAll(source, new JsonLinesReader.LineHandler() {
+        @Override public void line(byte[] buf, int off, int len, long line) {
+          bytesDone[0] += len + 1;
+          step.process(buf, off, len, 0L, PARTITION, line, sink(buf, off, len, line));
+          progress();
+        }
 
-          @Override public void reject(RejectReason reason, String detail) {
-            write(rejects, json.reject(reason, detail, PARTITION, line, buf, off, len));
-          }
+        @Override public void tooLong(byte[] buf, int off, int prefixLen, long lineBytes, long line) {
+          bytesDone[0] += lineBytes + 1;
+          step.processTooLarge(lineBytes, sink(buf, off, prefixLen, line));
+          progress();
+        }
 
-          @Override public void snapshotDue() {
-            write(snaps, json.snapshot(step.snapshot(), PARTITION));
-            recordsAtLastSnapshot[0] = step.records();
+        private void progress() {
+          if (listener != null) {
+            listener.progress(step.records(), bytesDone[0], size);
           }
-        });
-        if (listener != null) {
-          listener.progress(step.records(), bytesDone[0], size);
+        }
+
+        private PipelineStep.Sink sink(byte[] buf, int off, int len, long line) {
+          return new PipelineStep.Sink() {
+            @Override public void prediction(Prediction p, EventRecord r) {
+              write(preds, json.prediction(p, r));
+            }
+
+            @Override public void reject(RejectReason reason, String detail) {
+              write(rejects, json.reject(reason, detail, PARTITION, line, buf, off, len));
+            }
+
+            @Override public void snapshotDue() {
+              write(snaps, json.snapshot(step.snapshot(), PARTITION));
+              recordsAtLastSnapshot[0] = step.records();
+            }
+          };
         }
       });
       if (step.records() != recordsAtLastSnapshot[0]) {

@@ -146,6 +146,19 @@ public final class PipelineStep {
   }
 
   /**
+   * Counts a record its source could not hold whole because it is larger than
+   * {@code input.limits.max_record_bytes} (a file line read only in part): a
+   * {@code RECORD_TOO_LARGE} reject with its size; nothing else changes.
+   *
+   * @param recordBytes the record's whole size in bytes
+   */
+  public void processTooLarge(long recordBytes, Sink sink) {
+    records++;
+    RejectReason reason = decoder.tooLarge(recordBytes);
+    reject(reason, decoder.lastDetail(), sink);
+  }
+
+  /**
    * Processes a record already decoded into {@link #record()} by the caller (used by tests and by
    * sources that are not JSON). Counts it as one record.
    */

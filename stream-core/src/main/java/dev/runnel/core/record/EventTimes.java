@@ -21,10 +21,44 @@ public final class EventTimes {
   public static final long INVALID = Long.MIN_VALUE;
   /** Milliseconds per day. */
   public static final long MILLIS_PER_DAY = 86_400_000L;
-  /** Largest accepted |epoch millis| for epoch inputs (about year 5138), so later arithmetic cannot overflow. */
-  public static final long MAX_ABS_EPOCH_MILLIS = 100_000_000_000_000L;
+  /**
+   * Largest |epoch millis| read from an epoch number (about the year 318,857), so later arithmetic
+   * cannot overflow. Far past any accepted year on purpose: today's epoch milliseconds read as
+   * seconds (about 1.8e15 ms) must still come out as a time, so that the decoder can say they look
+   * like milliseconds ({@link #looksLikeOtherUnit}) instead of "not a time".
+   */
+  public static final long MAX_ABS_EPOCH_MILLIS = 10_000_000_000_000_000L;
+
+  /**
+   * 1973-01-01T00:00Z in epoch millis. An event time given in epoch milliseconds that lands in
+   * [1970-01-01, 1973-01-01) is taken for seconds written where milliseconds were expected: today's
+   * epoch seconds (about 1.8e9) read as milliseconds land in January 1970. Telling the units apart
+   * by magnitude is common practice; the year 1973 is this project's choice (a feed with real data
+   * from 1970 to 1972 in epoch milliseconds cannot be read).
+   */
+  public static final long EPOCH_MILLIS_PLAUSIBLE_FROM = 94_694_400_000L;
 
   private EventTimes() { }
+
+  /**
+   * Whether an event time read from an epoch number looks written in the other unit: with
+   * {@code EPOCH_MILLIS}, it lands in [1970, 1973) ({@link #EPOCH_MILLIS_PLAUSIBLE_FROM}); with
+   * {@code EPOCH_SECONDS}, it lands at or after {@code endMillis} while the same number read as
+   * milliseconds lands in [{@code minMillis}, {@code endMillis}) and not before 1973. Always false
+   * for ISO 8601.
+   *
+   * @param ms the time as read in {@code format}, in epoch millis (not {@link #INVALID})
+   * @param minMillis first accepted instant (min_year)
+   * @param endMillis first instant past the accepted range (max_year + 1)
+   */
+  public static boolean looksLikeOtherUnit(long ms, TimeFormat format, long minMillis, long endMillis) {
+    if (format == TimeFormat.EPOCH_MILLIS) return ms >= 0 && ms < EPOCH_MILLIS_PLAUSIBLE_FROM;
+    if (format == TimeFormat.EPOCH_SECONDS && ms >= endMillis) {
+      long asMillis = Math.floorDiv(ms, 1000L);
+      return asMillis >= Math.max(minMillis, EPOCH_MILLIS_PLAUSIBLE_FROM) && asMillis < endMillis;
+    }
+    return false;
+  }
 
   /** Parses ISO 8601 text with an offset. @return epoch millis or {@link #INVALID} */
   public static long parseIso8601(CharSequence s) {

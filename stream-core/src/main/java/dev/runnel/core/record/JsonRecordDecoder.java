@@ -16,17 +16,23 @@ import java.io.IOException;
  * <p>Outcomes: {@link #decode} returns {@code null} when the record was decoded, or the
  * {@link RejectReason} of the first problem found; {@link #lastDetail()} then says what it was,
  * e.g. {@code field temperature_c: expected a number, got a string}. Undeclared fields are skipped
- * whatever they hold. A declared field that is JSON {@code null} is left absent, like a missing
- * one: the caller decides what is required. When a field occurs twice, the last value wins.
+ * whatever they hold (a repeated undeclared name too). A declared field that is JSON {@code null}
+ * is left absent, like a missing one: the caller decides what is required. A declared field that
+ * occurs twice, even as {@code null}, is {@code DUPLICATE_FIELD}: which value was meant is unknown,
+ * and "the last wins" would let a later copy of the target overrule the first.
  *
  * <p>Checks, in the order met: record size ({@code RECORD_TOO_LARGE}); JSON syntax, a root that is
- * not an object, anything after the object ({@code MALFORMED_JSON}); per declared field the JSON
+ * not an object, anything after the object ({@code MALFORMED_JSON}); per declared field, when its
+ * name is met, a second occurrence ({@code DUPLICATE_FIELD}); then the JSON
  * type ({@code WRONG_TYPE}, also for objects and arrays); NaN, Infinity and numbers that overflow
- * a double ({@code NOT_FINITE}); magnitude above {@code max_abs_value} ({@code OUT_OF_RANGE});
- * strings longer than {@code max_text_length} ({@code TOO_LONG}); time text that does not parse or
- * is longer than {@link #MAX_TIME_CHARS}
- * ({@code BAD_TIME}) or lies outside [{@code min_year}, {@code max_year}] in UTC
- * ({@code ABSURD_TIME}).
+ * a double ({@code NOT_FINITE}); magnitude above {@code max_abs_value} ({@code OUT_OF_RANGE}; not
+ * for the event-time field, which its time range bounds instead);
+ * strings longer than {@code max_text_length} ({@code TOO_LONG}); text holding an unpaired UTF-16
+ * surrogate, escaped ({@code "\ud800"}) or encoded ({@code NOT_UNICODE}); time text that does not
+ * parse or is longer than {@link #MAX_TIME_CHARS}
+ * ({@code BAD_TIME}); an epoch event time that looks written in the other unit
+ * ({@code WRONG_TIME_UNIT}, see {@link EventTimes#looksLikeOtherUnit}); a time outside
+ * [{@code min_year}, {@code max_year}] in UTC ({@code ABSURD_TIME}).
  *
  * <p>TIME fields take ISO 8601 text, except the event-time field when its format is an epoch
  * format: it then takes a number or numeric text. A NUMBER field configured as event time keeps
@@ -47,6 +53,10 @@ public final class JsonRecordDecoder {
   /** The allocation-free reader of plainly valid records; null when the schema's names rule it out. */
   private final StrictJsonReader strict;
   private String detail = "";
+  /** Per slot the number of the last record whose Jackson decoding met the slot's name (duplicates). */
+  private final int[] seenInRecord;
+  /** Number of the record being decoded by Jackson; {@link #seenInRecord} is cleared when it wraps. */
+  private int recordStamp;
 
   /**
    * @param schema declared fields. Not modified.
@@ -76,6 +86,7 @@ public final class JsonRecordDecoder {
     this.endTime = limits.endTimeMillis();
     this.factory = JsonFactory.builder().enable(JsonReadFeature.ALLOW_NON_NUMERIC_NUMBERS).build();
     this.strict = StrictJsonReader.create(schema, limits, eventTimeSlot, this.eventTimeFormat);
+    this.seenInRecord = new int[schema.size()];
   }
 
   /** A decoder without an event-time field. */
@@ -102,16 +113,29 @@ public final class JsonRecordDecoder {
   }
 
   /**
+   * The outcome for a record of {@code recordBytes} bytes that its source did not hold whole (a
+   * line read only in part): {@code RECORD_TOO_LARGE}, with the same detail as {@link #decode}
+   * gives for a record of that size.
+   *
+   * @param recordBytes the record's whole size, above {@code max_record_bytes}
+   */
+  public RejectReason tooLarge(long recordBytes) {
+    detail = "record is " + recordBytes + " bytes; the limit is " + limits.maxRecordBytes();
+    return RejectReason.RECORD_TOO_LARGE;
+  }
+
+  /**
    * Decodes with a new Jackson parser for the record: the reference for {@link #decode}, which
    * gives the same outcome, detail and fields for every input (package-private for tests).
    */
   RejectReason decodeWithJackson(byte[] buf, int off, int len, EventRecord out) {
     out.clear();
     detail = "";
-    if (len > limits.maxRecordBytes()) {
-      detail = "record is " + len + " bytes; the limit is " + limits.maxRecordBytes();
-      return RejectReason.RECORD_TOO_LARGE;
+    if (++recordStamp == 0) {
+      java.util.Arrays.fill(seenInRecord, 0);
+      recordStamp = 1;
     }
+    if (len > limits.maxRecordBytes()) return tooLarge(len);
     try (JsonParser p = factory.createParser(buf, off, len)) {
       JsonToken t = p.nextToken();
       if (t != JsonToken.START_OBJECT) {
@@ -135,6 +159,11 @@ public final class JsonRecordDecoder {
           p.skipChildren();
           continue;
         }
+        if (seenInRecord[slot] == recordStamp) {
+          detail = "field " + schema.name(slot) + " occurs more than once; a record must give each field once";
+          return RejectReason.DUPLICATE_FIELD;
+        }
+        seenInRecord[slot] = recordStamp;
         if (t == JsonToken.VALUE_NULL) {
           out.setAbsent(slot);
           continue;
@@ -170,7 +199,7 @@ public final class JsonRecordDecoder {
           detail = "field " + schema.name(slot) + ": " + p.getText() + " is not a finite number";
           return RejectReason.NOT_FINITE;
         }
-        if (Math.abs(v) > limits.maxAbsValue()) {
+        if (Math.abs(v) > limits.maxAbsValue() && slot != eventTimeSlot) {
           detail = "field " + schema.name(slot) + ": " + v + " exceeds the limit of " + limits.maxAbsValue() + " in magnitude";
           return RejectReason.OUT_OF_RANGE;
         }
@@ -186,6 +215,13 @@ public final class JsonRecordDecoder {
         if (n > limits.maxTextLength()) {
           detail = "field " + schema.name(slot) + ": text of " + n + " chars exceeds the limit of " + limits.maxTextLength();
           return RejectReason.TOO_LONG;
+        }
+        int bad = unpairedSurrogateAt(p.getTextCharacters(), p.getTextOffset(), n);
+        if (bad >= 0) {
+          detail = "field " + schema.name(slot) + ": text holds an unpaired surrogate U+"
+              + Integer.toHexString(p.getTextCharacters()[p.getTextOffset() + bad]).toUpperCase(java.util.Locale.ROOT)
+              + " at char " + bad + "; it is not Unicode text";
+          return RejectReason.NOT_UNICODE;
         }
         out.setText(slot, p.getText());
         return null;
@@ -291,6 +327,15 @@ public final class JsonRecordDecoder {
       detail = "field " + schema.name(slot) + ": " + out.number(slot) + " is not a time in " + eventTimeFormat.word();
       return RejectReason.BAD_TIME;
     }
+    if (slot == eventTimeSlot && eventTimeFormat != TimeFormat.ISO8601
+        && EventTimes.looksLikeOtherUnit(ms, eventTimeFormat, minTime, endTime)) {
+      boolean millis = eventTimeFormat == TimeFormat.EPOCH_MILLIS;
+      detail = "field " + schema.name(slot) + ": read as " + eventTimeFormat.word() + " it is "
+          + java.time.Instant.ofEpochMilli(ms) + (millis ? ", before 1973" : ", after max_year " + limits.maxYear())
+          + "; it looks like epoch " + (millis ? "seconds" : "milliseconds") + ": if the feed writes "
+          + (millis ? "seconds" : "milliseconds") + ", set input.event_time.format to " + (millis ? "epoch_seconds" : "epoch_millis");
+      return RejectReason.WRONG_TIME_UNIT;
+    }
     if (ms < minTime || ms >= endTime) {
       detail = "field " + schema.name(slot) + ": " + java.time.Instant.ofEpochMilli(ms) + " is outside the years "
           + limits.minYear() + " to " + limits.maxYear();
@@ -299,6 +344,24 @@ public final class JsonRecordDecoder {
     if (store) out.setTimeMillis(slot, ms);
     if (slot == eventTimeSlot) out.setEventTimeMillis(ms);
     return null;
+  }
+
+  /**
+   * The index (from {@code off}) of the first UTF-16 surrogate in {@code c[off .. off+n)} that is
+   * not half of a high-low pair, or -1 when the text is well-formed. @param c not modified.
+   */
+  static int unpairedSurrogateAt(char[] c, int off, int n) {
+    int end = off + n;
+    for (int i = off; i < end; i++) {
+      char ch = c[i];
+      if (ch < Character.MIN_SURROGATE || ch > Character.MAX_SURROGATE) continue;
+      if (Character.isHighSurrogate(ch) && i + 1 < end && Character.isLowSurrogate(c[i + 1])) {
+        i++;
+        continue;
+      }
+      return i - off;
+    }
+    return -1;
   }
 
   private RejectReason wrongType(JsonParser p, JsonToken t, int slot, String expected) {

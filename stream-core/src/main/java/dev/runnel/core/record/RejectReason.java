@@ -2,7 +2,8 @@ package dev.runnel.core.record;
 
 /**
  * Why a record was not used. Each reason has a stable id that appears on the rejects output;
- * ids never change meaning once published.
+ * ids never change meaning once published. New reasons are added at the end: checkpoints keep the
+ * per-reason counters in this order.
  */
 public enum RejectReason {
   /** The bytes are not one JSON object. */
@@ -29,7 +30,17 @@ public enum RejectReason {
    * The event time is more than {@code input.clock.max_ahead} from the stream clock and no run of
    * {@code input.clock.confirm_records} agreeing records has confirmed it yet (docs/model.md).
    */
-  TIME_JUMP("time_jump");
+  TIME_JUMP("time_jump"),
+  /** A declared field occurs more than once in the record (which value is meant is unknown). */
+  DUPLICATE_FIELD("duplicate_field"),
+  /** A declared text holds an unpaired UTF-16 surrogate (escaped or encoded): it is not Unicode text. */
+  NOT_UNICODE("not_unicode"),
+  /**
+   * An epoch event time looks written in the other unit: epoch_millis that lands before 1973
+   * (seconds, most likely), or epoch_seconds that lands after {@code max_year} while its value read
+   * as milliseconds would be accepted. The fix is the key {@code input.event_time.format}.
+   */
+  WRONG_TIME_UNIT("wrong_time_unit");
 
   private final String id;
 

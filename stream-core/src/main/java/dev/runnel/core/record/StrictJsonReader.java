@@ -14,7 +14,10 @@ package dev.runnel.core.record;
  *
  * <p>Implementation notes: it accepts a strict subset of JSON (RFC 8259): whitespace is space, tab,
  * CR or LF; strings are well-formed UTF-8 (Unicode Table 3-7: no overlong forms, no surrogates, at
- * most U+10FFFF) without control characters, with the escapes {@code \" \\ \/ \b \f \n \r \t \\uXXXX};
+ * most U+10FFFF) without control characters, with the escapes {@code \" \\ \/ \b \f \n \r \t \\uXXXX}
+ * where a surrogate escape in a declared text must be the high half of an escaped pair (a lone one
+ * goes to Jackson);
+ * each declared field at most once (a repeat goes to Jackson, which rejects it);
  * numbers follow the JSON grammar (no leading zeros, no leading plus, digits after a point and in
  * an exponent) and have at most {@value #MAX_NUMBER_CHARS} chars; field names have at most
  * {@value #MAX_NAME_BYTES} bytes and no escapes; skipped values nest at most {@value #MAX_DEPTH}
@@ -109,6 +112,12 @@ final class StrictJsonReader {
   private final char[] scratch = new char[Math.max(MAX_NUMBER_CHARS, JsonRecordDecoder.MAX_TIME_CHARS)];
   /** Chars decoded by the last {@link #readString}. */
   private int stringLength;
+  /** Per slot the number of the last record that held it (a repeat is a duplicate field). */
+  private final int[] seenInRecord;
+  /** Number of the record being read; {@link #seenInRecord} is cleared when it wraps. */
+  private int recordStamp;
+  /** Whether the event-time field is in epoch milliseconds (its times before 1973 go to Jackson). */
+  private final boolean eventTimeMillis;
 
   private StrictJsonReader(RecordSchema schema, RecordLimits limits, int eventTimeSlot, TimeFormat eventTimeFormat, byte[][] names) {
     int n = schema.size();
@@ -121,6 +130,8 @@ final class StrictJsonReader {
     this.maxTextLength = limits.maxTextLength();
     this.maxAbsValue = limits.maxAbsValue();
     this.nameBytes = names;
+    this.eventTimeMillis = eventTimeSlot >= 0 && eventTimeFormat == TimeFormat.EPOCH_MILLIS;
+    seenInRecord = new int[n];
     kinds = new byte[n];
     isoTime = new boolean[n];
     guessable = new boolean[n];
@@ -226,6 +237,12 @@ final class StrictJsonReader {
    */
   boolean read(byte[] b, int off, int len, EventRecord out) {
     out.clear();
+    int stamp = ++recordStamp;
+    if (stamp == 0) {
+      java.util.Arrays.fill(seenInRecord, 0);
+      stamp = recordStamp = 1;
+    }
+    int[] seen = seenInRecord;
     int end = off + len;
     int i = skipWs(b, off, end);
     if (i >= end || b[i] != '{') return false;
@@ -280,6 +297,8 @@ final class StrictJsonReader {
         if (slot < 0) {
           i = skipValue(b, i, end, 1);
         } else {
+          if (seen[slot] == stamp) return false;
+          seen[slot] = stamp;
           i = readValue(b, i, end, slot, out);
           after = slot + 1;
         }
@@ -370,17 +389,17 @@ final class StrictJsonReader {
           // finite; and |v| <= m (a division by 10^k >= 1, correctly rounded), so the check of the
           // magnitude waits for the division only when m itself exceeds the limit
           v = decimal;
-          if (decimalDigits > maxAbsValue && Math.abs(v) > maxAbsValue) return FAIL;
+          if (decimalDigits > maxAbsValue && Math.abs(v) > maxAbsValue && slot != eventTimeSlot) return FAIL;
         } else {
           e = numberEnd(b, i, end);
           if (e < 0) return FAIL;
           v = numberValue(b, i, e);
-          if (Double.isNaN(v) || Double.isInfinite(v) || Math.abs(v) > maxAbsValue) return FAIL;
+          if (Double.isNaN(v) || Double.isInfinite(v) || (Math.abs(v) > maxAbsValue && slot != eventTimeSlot)) return FAIL;
         }
         out.setNumber(slot, v);
         if (slot == eventTimeSlot) {
           long ms = EventTimes.fromEpochNumber(v, eventTimeFormat);
-          if (!acceptedTime(ms)) return FAIL;
+          if (!acceptedTime(ms) || (eventTimeMillis && ms < EventTimes.EPOCH_MILLIS_PLAUSIBLE_FROM)) return FAIL;
           out.setEventTimeMillis(ms);
         }
         return e;
@@ -438,7 +457,7 @@ final class StrictJsonReader {
         } else {
           return FAIL;
         }
-        if (!acceptedTime(ms)) return FAIL;
+        if (!acceptedTime(ms) || (epoch && eventTimeMillis && ms < EventTimes.EPOCH_MILLIS_PLAUSIBLE_FROM)) return FAIL;
         out.setTimeMillis(slot, ms);
         if (slot == eventTimeSlot) out.setEventTimeMillis(ms);
         return e;
@@ -794,6 +813,23 @@ final class StrictJsonReader {
               int d = hex(b[i + k]);
               if (d < 0) return FAIL;
               v = (v << 4) | d;
+            }
+            if ((v & 0xF800) == 0xD800) {
+              // a surrogate is text only as a high one escaped right before a low one; anything
+              // else (a lone one) goes to Jackson, and the decoder rejects it
+              if (v >= 0xDC00 || end - i < 12 || b[i + 6] != '\\' || b[i + 7] != 'u') return FAIL;
+              int w = 0;
+              for (int k = 8; k < 12; k++) {
+                int d = hex(b[i + k]);
+                if (d < 0) return FAIL;
+                w = (w << 4) | d;
+              }
+              if (w < 0xDC00 || w > 0xDFFF) return FAIL;
+              if (n + 2 > limit) return FULL;
+              dst[n++] = (char) v;
+              dst[n++] = (char) w;
+              i += 12;
+              continue;
             }
             ch = (char) v;
             i += 4;

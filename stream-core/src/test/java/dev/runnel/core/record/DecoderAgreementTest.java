@@ -324,6 +324,15 @@ class DecoderAgreementTest {
       "12345678901234567890", "0.30000000000000004", "7258118399.999", "7258118400", "01", "1.", "+5"};
     List<String> numbers = new ArrayList<>(List.of(fixed));
     for (int k = 0; k < 400; k++) numbers.add(randomNumber(r));
+    // plausible times in both units, and each unit's numbers near where the other unit's begin
+    for (int k = 0; k < 200; k++) {
+      long ms = 94_694_400_000L + (long) (r.nextDouble() * 7.0e12);
+      numbers.add(Long.toString(ms));
+      numbers.add(Long.toString(ms / 1000));
+      numbers.add((ms / 1000) + "." + r.nextInt(1000));
+      numbers.add(Long.toString(94_694_400_000L + r.nextInt(2001) - 1000));
+      numbers.add(Long.toString(7_258_118_400L + r.nextInt(2001) - 1000));
+    }
     for (String n : numbers) {
       seconds.check("{\"ts\":" + n + ",\"y\":1}");
       millis.check("{\"ts\":" + n + "}");
@@ -367,6 +376,110 @@ class DecoderAgreementTest {
     }
     assertTrue(p.decoded > 2_000 && p.rejected > 5_000, p.decoded + " decoded, " + p.rejected + " rejected");
     assertTrue(p.fastDecoded > p.decoded / 2, p.fastDecoded + " of " + p.decoded + " decoded by the fast path alone");
+  }
+
+  /**
+   * Records made only of declared names with valid values, names often repeated (sometimes as an
+   * escaped spelling of the same name): both paths agree, and a record is {@code duplicate_field}
+   * exactly when Jackson's own duplicate detection ({@code StreamReadFeature.STRICT_DUPLICATE_DETECTION},
+   * the reference here) finds a repeated name, and decoded otherwise.
+   */
+  @Test void duplicateNames_agreeWithJacksonsDuplicateDetection() throws IOException {
+    Random r = new Random(606);
+    RecordSchema schema = demoSchema();
+    Pair p = new Pair(schema, RecordLimits.DEFAULTS, "observed_at", TimeFormat.ISO8601);
+    com.fasterxml.jackson.core.JsonFactory strictFactory = com.fasterxml.jackson.core.JsonFactory.builder()
+        .enable(com.fasterxml.jackson.core.StreamReadFeature.STRICT_DUPLICATE_DETECTION).build();
+    String[] spelled = {"kind", "hub", "observed_at", "weather", "temperature_c", "price_per_kwh", "sessions", "holiday", "h\\u00e9"};
+    int dups = 0;
+    for (int k = 0; k < 4000; k++) {
+      StringBuilder s = new StringBuilder("{");
+      int n = 1 + r.nextInt(6);
+      for (int i = 0; i < n; i++) {
+        int slot = r.nextInt(4) == 0 ? r.nextInt(2) : r.nextInt(schema.size());
+        String name = r.nextInt(6) == 0 ? spelled[slot] : r.nextInt(8) == 0 ? escapeOneChar(schema.name(slot), r) : schema.name(slot);
+        if (i > 0) s.append(',');
+        s.append('"').append(name).append("\":").append(validValue(schema.type(slot), r));
+      }
+      String json = s.append('}').toString();
+      boolean jacksonDup = false;
+      try (com.fasterxml.jackson.core.JsonParser jp = strictFactory.createParser(json.getBytes(StandardCharsets.UTF_8))) {
+        while (jp.nextToken() != null) { }
+      } catch (com.fasterxml.jackson.core.JsonParseException e) {
+        assertTrue(e.getOriginalMessage().startsWith("Duplicate field"), e.getOriginalMessage());
+        jacksonDup = true;
+      }
+      RejectReason got = p.check(json);
+      assertEquals(jacksonDup ? RejectReason.DUPLICATE_FIELD : null, got, json);
+      if (jacksonDup) dups++;
+    }
+    assertTrue(dups > 1000 && p.decoded > 1000, dups + " duplicates, " + p.decoded + " decoded");
+  }
+
+  private static String escapeOneChar(String name, Random r) {
+    int at = r.nextInt(name.length());
+    return name.substring(0, at) + String.format(java.util.Locale.ROOT, "\\u%04x", (int) name.charAt(at)) + name.substring(at + 1);
+  }
+
+  private static String validValue(FieldType t, Random r) {
+    if (r.nextInt(8) == 0) return "null";
+    switch (t) {
+      case NUMBER: return Integer.toString(r.nextInt(2000) - 1000);
+      case FLAG: return r.nextBoolean() ? "true" : "false";
+      case TIME: return "\"2026-03-" + (10 + r.nextInt(19)) + "T1" + r.nextInt(10) + ":00:00Z\"";
+      default: return "\"" + (char) ('a' + r.nextInt(26)) + r.nextInt(100) + "\"";
+    }
+  }
+
+  /**
+   * Texts with surrogates: pairs (escaped or as UTF-8) and unpaired ones (escaped; as UTF-8 bytes
+   * they are not UTF-8 and Jackson refuses them). Both paths agree; a declared text is
+   * {@code not_unicode} exactly when the text Jackson's tree reader gives is not well-formed
+   * UTF-16, judged by the JDK's UTF-8 encoder ({@code CharsetEncoder.canEncode}, the reference),
+   * and an undeclared one never matters.
+   */
+  @Test void surrogates_agreeAndOnlyWellFormedTextsAreAccepted() throws IOException {
+    Random r = new Random(707);
+    RecordSchema schema = demoSchema();
+    Pair p = new Pair(schema, RecordLimits.DEFAULTS, "observed_at", TimeFormat.ISO8601);
+    com.fasterxml.jackson.databind.ObjectMapper tree = new com.fasterxml.jackson.databind.ObjectMapper();
+    java.nio.charset.CharsetEncoder utf8 = StandardCharsets.UTF_8.newEncoder();
+    int lone = 0;
+    int pairs = 0;
+    for (int k = 0; k < 6000; k++) {
+      StringBuilder t = new StringBuilder();
+      int n = 1 + r.nextInt(6);
+      for (int i = 0; i < n; i++) {
+        switch (r.nextInt(5)) {
+          case 0: t.append((char) (0xD800 + r.nextInt(0x400))); break;
+          case 1: t.append((char) (0xDC00 + r.nextInt(0x400))); break;
+          case 2: t.appendCodePoint(0x10000 + r.nextInt(0x100000)); break;
+          default: t.append((char) ('a' + r.nextInt(26))); break;
+        }
+      }
+      String text = t.toString();
+      String lit = jsonString(text, r);
+      // jsonString escapes unpaired surrogates and, at random, one half of a pair: its output is then
+      // not what UTF-8 can carry; write each char of such a string escaped instead
+      if (!utf8.canEncode(lit)) lit = escapeAll(text);
+      boolean wellFormed = utf8.canEncode(text);
+      String field = r.nextInt(5) == 0 ? "x" : "hub";
+      String json = "{\"" + field + "\":" + lit + "}";
+      String parsed = tree.readTree(json).get(field).textValue();
+      assertEquals(text, parsed, "Jackson reads the literal back");
+      RejectReason got = p.check(json);
+      RejectReason want = field.equals("hub") && !wellFormed ? RejectReason.NOT_UNICODE
+          : field.equals("hub") && text.length() > RecordLimits.DEFAULTS.maxTextLength() ? RejectReason.TOO_LONG : null;
+      assertEquals(want, got, json);
+      if (!wellFormed) lone++; else if (text.codePoints().anyMatch(c -> c >= 0x10000)) pairs++;
+    }
+    assertTrue(lone > 1000 && pairs > 300, lone + " with a lone surrogate, " + pairs + " with pairs only");
+  }
+
+  private static String escapeAll(String s) {
+    StringBuilder b = new StringBuilder("\"");
+    for (int i = 0; i < s.length(); i++) b.append(String.format(java.util.Locale.ROOT, "\\u%04x", (int) s.charAt(i)));
+    return b.append('"').toString();
   }
 
   static byte[] insert(byte[] b, int at, byte v) {
