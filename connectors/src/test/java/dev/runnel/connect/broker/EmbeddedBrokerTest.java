@@ -24,6 +24,8 @@ class EmbeddedBrokerTest {
     KafkaTestSupport.createTopic(broker.bootstrapServers(), topic, 1);
     Map<String, Object> cfg = KafkaTestSupport.producerConfig(broker.bootstrapServers());
     cfg.put(ProducerConfig.TRANSACTIONAL_ID_CONFIG, "broker-tx-check");
+    cfg.put(ProducerConfig.ENABLE_IDEMPOTENCE_CONFIG, true); // transactions need it; the test helpers turn it off
+    cfg.put(ProducerConfig.MAX_IN_FLIGHT_REQUESTS_PER_CONNECTION, 5);
     try (KafkaProducer<byte[], byte[]> p = new KafkaProducer<>(cfg)) {
       p.initTransactions();
       p.beginTransaction();
