@@ -61,9 +61,6 @@ public final class QuillmarshGenerator {
     this.schedule = ChangeSchedule.of(settings);
   }
 
-  /** The settings. */
-  public Settings settings() { return settings; }
-
   /** Where the planned changes fall. */
   public ChangeSchedule schedule() { return schedule; }
 

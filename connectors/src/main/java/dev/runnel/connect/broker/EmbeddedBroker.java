@@ -196,12 +196,6 @@ public final class EmbeddedBroker implements AutoCloseable {
     forget();
   }
 
-  /** {@link #stop()} then {@link #start()}, on the same ports when they are free. */
-  public synchronized void restart() throws IOException {
-    stop();
-    start();
-  }
-
   /** Same as {@link #stop()}. */
   @Override public void close() { stop(); }
 
@@ -486,10 +480,5 @@ public final class EmbeddedBroker implements AutoCloseable {
         // not a file entry; the child cannot use it either
       }
     }
-  }
-
-  /** For diagnostics: the entries {@link #childClasspath()} would use. */
-  static List<String> childClasspathEntries() throws IOException {
-    return Collections.unmodifiableList(List.of(childClasspath().split(java.io.File.pathSeparator)));
   }
 }

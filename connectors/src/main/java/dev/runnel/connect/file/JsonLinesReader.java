@@ -84,11 +84,6 @@ public final class JsonLinesReader {
     return new JsonLinesReader(DEFAULT_MAX_LINE_BYTES).readAll(file, handler);
   }
 
-  /** Reads every line of {@code in} (not closed) with lines cut at {@link #DEFAULT_MAX_LINE_BYTES}. */
-  public static long read(InputStream in, LineHandler handler) throws IOException {
-    return new JsonLinesReader(DEFAULT_MAX_LINE_BYTES).readAll(in, handler);
-  }
-
   /** Reads every line of {@code file}. @return the number of non-empty lines handed on */
   public long readAll(Path file, LineHandler handler) throws IOException {
     try (InputStream in = Files.newInputStream(file)) {

@@ -89,11 +89,6 @@ public final class Progress {
     out.println();
   }
 
-  /** The seconds since this display was made. */
-  public double elapsedSeconds() {
-    return (clock.getAsLong() - startNanos) / 1e9;
-  }
-
   private void sample(long done, long now) {
     if (done != lastDone) {
       lastDone = done;

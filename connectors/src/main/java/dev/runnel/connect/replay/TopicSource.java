@@ -207,11 +207,6 @@ public final class TopicSource implements AutoCloseable {
     return n;
   }
 
-  /** The topic name. */
-  public String topic() {
-    return topic;
-  }
-
   @Override
   public void close() {
     consumer.close();

@@ -189,17 +189,6 @@ public final class Distributions {
     return Math.exp(-x + a * Math.log(x) - lnGammaA) * h;
   }
 
-  /** I_x(a, b), the regularized incomplete beta function, for x in [0, 1]. */
-  static double regularizedBeta(double x, double a, double b) {
-    if (x <= 0) {
-      return 0.0;
-    }
-    if (x >= 1) {
-      return 1.0;
-    }
-    return regularizedBeta(x, 1.0 - x, Math.log(x), Math.log1p(-x), a, b);
-  }
-
   /** I_x(a, b) given x, y = 1 − x and their logarithms, each computed accurately by the caller. */
   private static double regularizedBeta(double x, double y, double lnX, double lnY, double a, double b) {
     double lnFront = a * lnX + b * lnY - lnBeta(a, b);

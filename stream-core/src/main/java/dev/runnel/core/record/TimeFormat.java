@@ -15,12 +15,4 @@ public enum TimeFormat {
 
   /** The word used in the configuration. */
   public String word() { return word; }
-
-  /** The format named by a configuration word, or {@code null}. */
-  public static TimeFormat ofWord(String word) {
-    for (TimeFormat f : values()) {
-      if (f.word.equals(word)) return f;
-    }
-    return null;
-  }
 }
