@@ -68,7 +68,10 @@ import org.slf4j.LoggerFactory;
  * without a rebalance; a clean {@link #close()} leaves the group so the others take over at once.
  *
  * <p>Errors: a fenced producer or group instance (another instance with the same id), authorization
- * failures, a record too large for its topic and a processor that throws stop the runner ({@link #failure()}).
+ * failures, a record too large for its topic, and a processor that throws while being restored or
+ * checkpointed stop the runner ({@link #failure()}). A processor that throws on one record does not: the
+ * record is set aside as a {@code processing_failed} reject and the partition goes on without it
+ * (see {@link PartitionProcessor}).
  * Any other Kafka error inside a transaction aborts it, rewinds every partition to its last committed offset
  * and rebuilds its processor from the last committed checkpoint (kept in memory); when the abort itself fails
  * (e.g. {@code InvalidProducerEpochException} after the coordinator timed the transaction out) a new producer
@@ -86,6 +89,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private static final long BACKOFF_MS = 2000;
   private static final long CLOSE_COMMIT_TIMEOUT_MS = 30_000;
   private static final long STATE_VISIBLE_TIMEOUT_MS = 60_000;
+  private static final int MAX_FAILURE_MESSAGE_CHARS = 1000;
   private static final Set<String> FORCED = Set.of(ConsumerConfig.ISOLATION_LEVEL_CONFIG, ConsumerConfig.ENABLE_AUTO_COMMIT_CONFIG,
       ProducerConfig.TRANSACTIONAL_ID_CONFIG, ProducerConfig.ENABLE_IDEMPOTENCE_CONFIG, "key.serializer", "value.serializer",
       "key.deserializer", "value.deserializer", ConsumerConfig.GROUP_ID_CONFIG, ConsumerConfig.BOOTSTRAP_SERVERS_CONFIG);
@@ -106,6 +110,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private volatile long rejects;
   private volatile long commits;
   private volatile long aborts;
+  private volatile long processingFailures;
   private volatile long lastCommitMillis;
   private volatile long lag = -1;
 
@@ -151,6 +156,8 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     /** What the transaction being committed carries for this partition, until its outcome is known. */
     long pendingNext = -1;
     byte[] pendingCheckpoint;
+    /** Offsets (not yet committed past) whose processing threw, with what was thrown; see {@link #setAsideAndRewind}. */
+    final java.util.TreeMap<Long, String> setAside = new java.util.TreeMap<>();
 
     Slot(TopicPartition tp) {
       this.tp = tp;
@@ -217,7 +224,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
 
   /** Current counters (a snapshot). */
   public RunnerCounters counters() {
-    return new RunnerCounters(recordsIn, outputsOut, rejects, commits, aborts, lastCommitMillis, lag);
+    return new RunnerCounters(recordsIn, outputsOut, rejects, commits, aborts, lastCommitMillis, lag, processingFailures);
   }
 
   /** Why the runner stopped on its own, or null if it did not (yet). */
@@ -313,13 +320,18 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       beginIfNeeded();
       for (int i = 0; i < recs.size(); i++) {
         ConsumerRecord<byte[], byte[]> r = recs.get(i);
-        try {
-          s.proc.process(r.offset(), r.timestamp(), r.key(), r.value(), s);
-        } catch (KafkaException e) {
-          throw e;
-        } catch (RuntimeException e) {
-          throw new FatalException("the processor of " + tp + " threw at offset " + r.offset() + " (processors must emit a reject"
-              + " for bad input instead): " + e, e);
+        String setAside = s.setAside.isEmpty() ? null : s.setAside.get(r.offset());
+        if (setAside != null) {
+          s.proc.processingFailed(r.offset(), r.timestamp(), r.key(), r.value(), setAside, s);
+        } else {
+          try {
+            s.proc.process(r.offset(), r.timestamp(), r.key(), r.value(), s);
+          } catch (KafkaException e) {
+            throw e;
+          } catch (RuntimeException | StackOverflowError e) {
+            setAsideAndRewind(s, r.offset(), e);
+            return; // every partition was rewound: the rest of this batch is fetched again
+          }
         }
         s.next = r.offset() + 1;
         s.touched = true;
@@ -327,6 +339,28 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
         recordsInTx++;
       }
     }
+  }
+
+  /**
+   * A record whose processing threw: remembered as set aside, then the open transaction is aborted and
+   * every partition rewound to its last commit, so the replay rebuilds each state from the committed
+   * checkpoint and, at this offset, emits a {@code processing_failed} reject instead of processing the
+   * record. The state is then exactly that of the stream without the record, and its outputs are
+   * committed once. Set-aside offsets are kept until a commit passes them; a restart finds the record
+   * again by the same throw.
+   */
+  private void setAsideAndRewind(Slot s, long offset, Throwable e) {
+    String message = e.getClass().getName() + ": " + e.getMessage();
+    if (message.length() > MAX_FAILURE_MESSAGE_CHARS) message = message.substring(0, MAX_FAILURE_MESSAGE_CHARS) + "...";
+    s.setAside.put(offset, message);
+    processingFailures++;
+    LOG.warn("runner {}: processing {} offset {} threw ({}); the record goes to {} as processing_failed and the partition"
+        + " continues without it (the open transaction is aborted and replayed from the last commit)",
+        settings.name(), s.tp, offset, message, settings.rejectsTopic(), e);
+    int before = consecutiveAborts;
+    consecutiveAborts = 0; // a set-aside record is no broker trouble: no back-off
+    abortAndRewind(new KafkaException("record " + s.tp + " offset " + offset + " set aside"));
+    consecutiveAborts = before;
   }
 
   private void beginIfNeeded() {
@@ -386,6 +420,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       s.committedNext = s.next;
       s.committedCheckpoint = e.getValue();
       s.touched = false;
+      if (!s.setAside.isEmpty()) s.setAside.headMap(s.committedNext).clear();
       s.pendingNext = -1;
       s.pendingCheckpoint = null;
     }

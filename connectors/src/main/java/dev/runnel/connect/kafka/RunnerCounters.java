@@ -11,6 +11,8 @@ package dev.runnel.connect.kafka;
  * @param aborts transactions aborted (each followed by a rewind to the last commit)
  * @param lastCommitEpochMillis wall-clock time of the last commit, 0 before the first
  * @param lag records behind the end of the assigned input partitions at the last commit, -1 if unknown
+ * @param processingFailures records whose processing threw and that were set aside as {@code processing_failed}
+ *     rejects (each also caused one abort)
  */
 public record RunnerCounters(long recordsIn, long outputsOut, long rejects, long commits, long aborts,
-    long lastCommitEpochMillis, long lag) {}
+    long lastCommitEpochMillis, long lag, long processingFailures) {}

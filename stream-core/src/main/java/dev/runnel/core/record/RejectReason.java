@@ -24,7 +24,12 @@ public enum RejectReason {
   /** The whole record is larger than the configured bound. */
   RECORD_TOO_LARGE("record_too_large"),
   /** The model refused the update because a state would have become non-finite. */
-  MODEL_REFUSED("model_refused");
+  MODEL_REFUSED("model_refused"),
+  /**
+   * Processing the record threw (a defect, not a data rule): the runner or replay set the record
+   * aside and went on with the state it had before the record. Written by connectors, never by the step.
+   */
+  PROCESSING_FAILED("processing_failed");
 
   private final String id;
 
