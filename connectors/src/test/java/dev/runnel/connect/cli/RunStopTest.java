@@ -6,9 +6,6 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 import dev.runnel.connect.broker.EmbeddedBroker;
 import dev.runnel.connect.testing.EmbeddedKafkaExtension;
 import dev.runnel.connect.testing.KafkaTestSupport;
-import java.io.BufferedReader;
-import java.io.InputStreamReader;
-import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import java.nio.file.Paths;
@@ -39,37 +36,27 @@ class RunStopTest {
     KafkaTestSupport.produce(broker.bootstrapServers(), "stop-test.in",
         List.of(List.of("{\"kind\":\"actual\",\"hub\":\"QM-01\",\"observed_at\":\"2026-01-05T10:00:00+01:00\",\"weather\":\"rain\","
             + "\"temperature_c\":4.1,\"price_per_kwh\":0.31,\"sessions\":30.5}")));
-    Path java = Paths.get(System.getProperty("java.home"), "bin", "java");
-    Process p = new ProcessBuilder(java.toString(), "-Dorg.slf4j.simpleLogger.logFile=System.err", "-cp", System.getProperty("java.class.path"),
-        Main.class.getName(),
-        "run", "--config", cfg.toString(), "--bootstrap-servers", broker.bootstrapServers(), "--no-web", "--quiet")
-        .redirectErrorStream(true).start();
-    StringBuilder out = new StringBuilder();
-    try (BufferedReader r = new BufferedReader(new InputStreamReader(p.getInputStream(), StandardCharsets.UTF_8))) {
-      Thread reader = new Thread(() -> r.lines().forEach(l -> {
-        synchronized (out) {
-          out.append(l).append('\n');
-        }
-      }));
-      reader.setDaemon(true);
-      reader.start();
-      KafkaTestSupport.await("the runner committed the record", java.time.Duration.ofSeconds(90), () -> {
-        synchronized (out) {
-          return out.toString().contains("assigned");
+    Path javaBin = Paths.get(System.getProperty("java.home"), "bin", "java");
+    Path log = dir.resolve("run.log");
+    Process p = new ProcessBuilder(javaBin.toString(), "-Dorg.slf4j.simpleLogger.logFile=System.err", "-cp", System.getProperty("java.class.path"),
+        Main.class.getName(), "run", "--config", cfg.toString(), "--bootstrap-servers", broker.bootstrapServers(), "--no-web", "--quiet")
+        .redirectErrorStream(true).redirectOutput(log.toFile()).start();
+    try {
+      KafkaTestSupport.await("the runner has its partition", java.time.Duration.ofSeconds(90), () -> {
+        try {
+          return Files.readString(log).contains("assigned");
+        } catch (java.io.IOException e) {
+          return false;
         }
       });
       Thread.sleep(1500); // the first commit (commit interval 1 s)
       p.destroy(); // SIGTERM
       assertTrue(p.waitFor(90, TimeUnit.SECONDS), "run stopped after SIGTERM");
-      reader.join(5000);
     } finally {
       p.destroyForcibly();
     }
-    String text;
-    synchronized (out) {
-      text = out.toString();
-    }
+    String text = Files.readString(log);
     assertEquals(0, p.exitValue(), "exit code after a clean SIGTERM stop; output:\n" + text);
-    assertTrue(text.contains("runner stop-test stopped"), text);
+    assertTrue(text.contains("runner stop-test stopped"), "exit " + p.exitValue() + ":\n" + text);
   }
 }
