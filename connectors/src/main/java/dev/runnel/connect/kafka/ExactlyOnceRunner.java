@@ -224,7 +224,8 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
 
   /** Current counters (a snapshot). */
   public RunnerCounters counters() {
-    return new RunnerCounters(recordsIn, outputsOut, rejects, commits, aborts, lastCommitMillis, lag, processingFailures);
+    return new RunnerCounters(recordsIn, outputsOut, rejects, commits, aborts, lastCommitMillis, lag, processingFailures,
+        brokerAwaySinceMillis);
   }
 
   /** Why the runner stopped on its own, or null if it did not (yet). */
@@ -284,9 +285,11 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   // ------------------------------------------------------------------ main loop
 
   private void loop() {
+    lastConnectedMillis = System.currentTimeMillis();
     while (!closing) {
       ConsumerRecords<byte[], byte[]> batch;
       try {
+        watchBroker();
         batch = consumer.poll(Duration.ofMillis(200));
       } catch (WakeupException e) {
         if (closing) return;
@@ -309,6 +312,68 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
         handle(e);
       }
     }
+  }
+
+  // ------------------------------------------------------------------ broker reachability
+
+  /** The consumer's open connections (metric {@code consumer-metrics/connection-count}); null until found. */
+  private org.apache.kafka.common.Metric connectionCount;
+  private long lastConnectedMillis;
+  private long nextBrokerCheckMillis;
+  /** When the broker was last seen before it went away; 0 while it is reachable. */
+  private volatile long brokerAwaySinceMillis;
+  private long nextAwayReportMillis;
+
+  /**
+   * Says, once, when the consumer has had no connection to the cluster for {@value #AWAY_REPORT_MS} ms (the
+   * clients' own reconnect warnings are turned off in simplelogger.properties: they come several times a
+   * second per client), then once a minute, and says when it is back. Checked at most once a second.
+   */
+  private void watchBroker() {
+    long now = System.currentTimeMillis();
+    if (now < nextBrokerCheckMillis) return;
+    nextBrokerCheckMillis = now + 1000;
+    if (connectionCount == null) {
+      for (Map.Entry<org.apache.kafka.common.MetricName, ? extends org.apache.kafka.common.Metric> e : consumer.metrics().entrySet()) {
+        if (e.getKey().name().equals("connection-count") && e.getKey().group().equals("consumer-metrics")) connectionCount = e.getValue();
+      }
+      if (connectionCount == null) return;
+    }
+    Object v = connectionCount.metricValue();
+    boolean connected = v instanceof Number n && n.doubleValue() > 0;
+    if (connected) {
+      lastConnectedMillis = now;
+      if (brokerAwaySinceMillis != 0) {
+        LOG.info("broker at {} reachable again after {}; resuming", settings.bootstrapServers(), span(now - brokerAwaySinceMillis));
+        brokerAwaySinceMillis = 0;
+      }
+    } else if (brokerAwaySinceMillis == 0) {
+      if (now - lastConnectedMillis >= AWAY_REPORT_MS) {
+        brokerAwaySinceMillis = lastConnectedMillis;
+        nextAwayReportMillis = now + 60_000;
+        LOG.warn("broker at {} not reachable for {}; the clients keep reconnecting (at most 1 s apart); nothing is lost,"
+            + " outputs resume when it is back", settings.bootstrapServers(), span(now - lastConnectedMillis));
+      }
+    } else if (now >= nextAwayReportMillis) {
+      nextAwayReportMillis = now + 60_000;
+      LOG.warn("broker at {} still not reachable ({} so far)", settings.bootstrapServers(), span(now - brokerAwaySinceMillis));
+    }
+  }
+
+  private static final long AWAY_REPORT_MS = 5000;
+
+  private static String span(long ms) {
+    long s = ms / 1000;
+    return s < 120 ? s + " s" : s < 7200 ? (s / 60) + " min " + (s % 60) + " s" : (s / 3600) + " h " + (s % 3600 / 60) + " min";
+  }
+
+  /** True if the error (or a cause) says the cluster could not be reached in time. */
+  private static boolean unreachable(Throwable e) {
+    for (Throwable t = e; t != null; t = t.getCause()) {
+      if (t instanceof TimeoutException || t instanceof org.apache.kafka.common.errors.NetworkException) return true;
+      if (t.getCause() == t) break;
+    }
+    return false;
   }
 
   private void process(ConsumerRecords<byte[], byte[]> batch) {
@@ -496,9 +561,11 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   }
 
   private void abortAndRewind(Exception cause) {
-    if (cause instanceof TimeoutException) {
-      LOG.warn("broker at {} not reachable ({}); aborting the open transaction and rewinding {} partition(s) to the last commit",
-          settings.bootstrapServers(), cause.getMessage(), slots.size());
+    if (unreachable(cause)) {
+      // e.g. after a long outage only "Cannot execute transactional method because we are in an error state",
+      // caused by the sends that expired while the broker was away
+      LOG.warn("broker at {} not reachable in time ({}); the open transaction is aborted and {} partition(s) rewound to the last"
+          + " commit; they are processed again once it is back", settings.bootstrapServers(), rootMessage(cause), slots.size());
     } else {
       LOG.warn("runner {}: transaction aborted after {}; rewinding {} partition(s) to the last commit", settings.name(), cause.toString(),
           slots.size());
@@ -528,6 +595,12 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     // back off when aborts follow each other without a commit in between, so a persistent problem does not spin
     consecutiveAborts++;
     if (consecutiveAborts > 1) sleep(Math.min(BACKOFF_MS, 50L << Math.min(consecutiveAborts, 6)));
+  }
+
+  private static String rootMessage(Throwable e) {
+    Throwable t = e;
+    while (t.getCause() != null && t.getCause() != t) t = t.getCause();
+    return t.getClass().getSimpleName() + ": " + t.getMessage();
   }
 
   /**

@@ -13,6 +13,8 @@ package dev.runnel.connect.kafka;
  * @param lag records behind the end of the assigned input partitions at the last commit, -1 if unknown
  * @param processingFailures records whose processing threw and that were set aside as {@code processing_failed}
  *     rejects (each also caused one abort)
+ * @param brokerAwaySinceEpochMillis wall-clock time the runner last had a connection before the cluster became
+ *     unreachable (reported after 5 s without one), 0 while it is reachable
  */
 public record RunnerCounters(long recordsIn, long outputsOut, long rejects, long commits, long aborts,
-    long lastCommitEpochMillis, long lag, long processingFailures) {}
+    long lastCommitEpochMillis, long lag, long processingFailures, long brokerAwaySinceEpochMillis) {}
