@@ -290,6 +290,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       ConsumerRecords<byte[], byte[]> batch;
       try {
         watchBroker();
+        watchOthers();
         batch = consumer.poll(Duration.ofMillis(200));
       } catch (WakeupException e) {
         if (closing) return;
@@ -365,6 +366,90 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private static String span(long ms) {
     long s = ms / 1000;
     return s < 120 ? s + " s" : s < 7200 ? (s / 60) + " min " + (s % 60) + " s" : (s / 3600) + " h " + (s % 3600 / 60) + " min";
+  }
+
+  // ------------------------------------------------------------------ partitions of other members
+
+  private static final long OTHERS_CHECK_MS = 5000;
+  private static final long DEFAULT_SESSION_TIMEOUT_MS = 45_000; // the classic consumer's default (ConsumerConfig)
+  private long nextOthersCheckMillis;
+  /** Per input partition not assigned here: {committed offset last seen, when it was first seen at that offset}. */
+  private final Map<TopicPartition, long[]> othersSeen = new HashMap<>();
+  private volatile String waitingReport;
+
+  /** The warning about other members' partitions that wait, while they wait; null otherwise (for tests). */
+  String waitingReport() { return waitingReport; }
+
+  /** How long a partition of another member may show waiting records without a commit before it is reported. */
+  private long stallReportMs() { return Math.max(10_000, 3 * settings.commitIntervalMs()); }
+
+  private long sessionTimeoutMs() {
+    Object v = ClientConfig.forClient(settings.clientProperties(), ClientConfig.Kind.CONSUMER, env).get(ConsumerConfig.SESSION_TIMEOUT_MS_CONFIG);
+    try {
+      return v == null ? DEFAULT_SESSION_TIMEOUT_MS : Long.parseLong(v.toString().trim());
+    } catch (NumberFormatException e) {
+      return DEFAULT_SESSION_TIMEOUT_MS;
+    }
+  }
+
+  /**
+   * When one instance of a group dies without leaving it (a crash, SIGKILL, a lost machine), the group
+   * coordinator waits {@code session.timeout.ms} without a heartbeat before it hands that member's
+   * partitions to the others; with static membership ({@code group.instance.id}) even a clean restart
+   * keeps them parked until then, which is what lets a restarted instance take them back without a
+   * rebalance. Meanwhile their records wait. Every {@value #OTHERS_CHECK_MS} ms this compares, for the
+   * input partitions not assigned here, the group's committed offsets with the end offsets, and says once
+   * which partitions have records waiting without a commit, why, and for how long at most; and says
+   * when they move again.
+   */
+  private void watchOthers() {
+    long now = System.currentTimeMillis();
+    if (now < nextOthersCheckMillis || brokerAwaySinceMillis != 0) return;
+    nextOthersCheckMillis = now + OTHERS_CHECK_MS;
+    List<TopicPartition> stalled = new ArrayList<>();
+    long waiting = 0;
+    try {
+      Set<TopicPartition> others = new HashSet<>();
+      for (org.apache.kafka.common.PartitionInfo pi : consumer.partitionsFor(settings.inputTopic(), Duration.ofSeconds(5))) {
+        TopicPartition tp = new TopicPartition(pi.topic(), pi.partition());
+        if (!slots.containsKey(tp)) others.add(tp);
+      }
+      othersSeen.keySet().retainAll(others);
+      if (!others.isEmpty()) {
+        Map<TopicPartition, OffsetAndMetadata> committed = consumer.committed(others, Duration.ofSeconds(5));
+        Map<TopicPartition, Long> end = consumer.endOffsets(others, Duration.ofSeconds(5));
+        for (TopicPartition tp : others) {
+          OffsetAndMetadata om = committed.get(tp);
+          long c = om == null ? -1 : om.offset();
+          long e = end.getOrDefault(tp, 0L);
+          long[] seen = othersSeen.get(tp);
+          if (seen == null || seen[0] != c) {
+            othersSeen.put(tp, new long[] {c, now});
+          } else if (e > Math.max(c, 0) && now - seen[1] >= stallReportMs()) {
+            stalled.add(tp);
+            waiting += e - Math.max(c, 0);
+          }
+        }
+      }
+    } catch (TimeoutException e) {
+      return; // the broker watch reports an unreachable cluster
+    }
+    stalled.sort(java.util.Comparator.comparingInt(TopicPartition::partition));
+    if (!stalled.isEmpty() && waitingReport == null) {
+      long since = now;
+      for (TopicPartition tp : stalled) since = Math.min(since, othersSeen.get(tp)[1]);
+      String msg = "runner " + settings.name() + ": partitions " + stalled + " have " + waiting + " records waiting and no commit for "
+          + span(now - since) + "; they are not assigned here: their instance probably stopped without leaving group " + settings.groupId()
+          + " (a crash, or a kill). The group hands them over after session.timeout.ms=" + sessionTimeoutMs() + " ms without a"
+          + " heartbeat from it; restarting that instance with the same instance id takes them back sooner, without a rebalance"
+          + " (static membership). A shorter session.timeout.ms (kafka.client_properties) moves them sooner but hands partitions"
+          + " over during a slow restart too.";
+      waitingReport = msg;
+      LOG.warn(msg);
+    } else if (stalled.isEmpty() && waitingReport != null) {
+      waitingReport = null;
+      LOG.info("runner {}: the partitions that were waiting are moving again", settings.name());
+    }
   }
 
   /** True if the error (or a cause) says the cluster could not be reached in time. */
