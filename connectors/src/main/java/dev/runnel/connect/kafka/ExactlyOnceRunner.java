@@ -392,47 +392,86 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     }
   }
 
+  /** Admin client for {@link #watchOthers}; made when another member has partitions, closed with the runner. */
+  private Admin othersAdmin;
+  private org.apache.kafka.common.KafkaFuture<Map<TopicPartition, OffsetAndMetadata>> othersCommitted;
+  private org.apache.kafka.common.KafkaFuture<Map<TopicPartition, org.apache.kafka.clients.admin.ListOffsetsResult.ListOffsetsResultInfo>> othersEnd;
+  private Set<TopicPartition> othersAsked;
+
   /**
    * When one instance of a group dies without leaving it (a crash, SIGKILL, a lost machine), the group
    * coordinator waits {@code session.timeout.ms} without a heartbeat before it hands that member's
-   * partitions to the others; with static membership ({@code group.instance.id}) even a clean restart
-   * keeps them parked until then, which is what lets a restarted instance take them back without a
-   * rebalance. Meanwhile their records wait. Every {@value #OTHERS_CHECK_MS} ms this compares, for the
-   * input partitions not assigned here, the group's committed offsets with the end offsets, and says once
-   * which partitions have records waiting without a commit, why, and for how long at most; and says
-   * when they move again.
+   * partitions to the others (with static membership, {@code group.instance.id}, an instance that comes
+   * back with the same id before then gets them back without a rebalance). Meanwhile their records wait.
+   * Every {@value #OTHERS_CHECK_MS} ms this asks, for the input partitions not assigned here, for the
+   * group's last committed offsets (not waiting for a pending transaction of the dead member) and the end
+   * offsets, without blocking the run loop (the answer is read at the next check), and says once which
+   * partitions have records waiting without a commit, why, and for how long at most; and says when they
+   * move again.
    */
   private void watchOthers() {
     long now = System.currentTimeMillis();
     if (now < nextOthersCheckMillis || brokerAwaySinceMillis != 0) return;
     nextOthersCheckMillis = now + OTHERS_CHECK_MS;
-    List<TopicPartition> stalled = new ArrayList<>();
-    long waiting = 0;
+    if (othersCommitted != null) {
+      if (!othersCommitted.isDone() || !othersEnd.isDone()) return; // still asking
+      Map<TopicPartition, OffsetAndMetadata> committed;
+      Map<TopicPartition, org.apache.kafka.clients.admin.ListOffsetsResult.ListOffsetsResultInfo> end;
+      try {
+        committed = othersCommitted.get();
+        end = othersEnd.get();
+      } catch (java.util.concurrent.ExecutionException | InterruptedException e) {
+        if (e instanceof InterruptedException) Thread.currentThread().interrupt();
+        committed = null;
+        end = null;
+      }
+      Set<TopicPartition> asked = othersAsked;
+      othersCommitted = null;
+      othersEnd = null;
+      if (committed != null) judgeOthers(asked, committed, end, now);
+    }
+    Set<TopicPartition> others = new HashSet<>();
     try {
-      Set<TopicPartition> others = new HashSet<>();
-      for (org.apache.kafka.common.PartitionInfo pi : consumer.partitionsFor(settings.inputTopic(), Duration.ofSeconds(5))) {
+      for (org.apache.kafka.common.PartitionInfo pi : consumer.partitionsFor(settings.inputTopic(), Duration.ofMillis(500))) {
         TopicPartition tp = new TopicPartition(pi.topic(), pi.partition());
         if (!slots.containsKey(tp)) others.add(tp);
       }
-      othersSeen.keySet().retainAll(others);
-      if (!others.isEmpty()) {
-        Map<TopicPartition, OffsetAndMetadata> committed = consumer.committed(others, Duration.ofSeconds(5));
-        Map<TopicPartition, Long> end = consumer.endOffsets(others, Duration.ofSeconds(5));
-        for (TopicPartition tp : others) {
-          OffsetAndMetadata om = committed.get(tp);
-          long c = om == null ? -1 : om.offset();
-          long e = end.getOrDefault(tp, 0L);
-          long[] seen = othersSeen.get(tp);
-          if (seen == null || seen[0] != c) {
-            othersSeen.put(tp, new long[] {c, now});
-          } else if (e > Math.max(c, 0) && now - seen[1] >= stallReportMs()) {
-            stalled.add(tp);
-            waiting += e - Math.max(c, 0);
-          }
-        }
-      }
     } catch (TimeoutException e) {
-      return; // the broker watch reports an unreachable cluster
+      return;
+    }
+    othersSeen.keySet().retainAll(others);
+    if (others.isEmpty()) {
+      if (waitingReport != null) {
+        waitingReport = null;
+        LOG.info("runner {}: the partitions that were waiting are moving again", settings.name());
+      }
+      return;
+    }
+    if (othersAdmin == null) othersAdmin = Admin.create(adminConfig());
+    Map<TopicPartition, org.apache.kafka.clients.admin.OffsetSpec> latest = new HashMap<>();
+    for (TopicPartition tp : others) latest.put(tp, org.apache.kafka.clients.admin.OffsetSpec.latest());
+    othersAsked = others;
+    othersCommitted = othersAdmin.listConsumerGroupOffsets(settings.groupId(),
+        new org.apache.kafka.clients.admin.ListConsumerGroupOffsetsOptions().requireStable(false)).partitionsToOffsetAndMetadata();
+    othersEnd = othersAdmin.listOffsets(latest).all();
+  }
+
+  private void judgeOthers(Set<TopicPartition> asked, Map<TopicPartition, OffsetAndMetadata> committed,
+      Map<TopicPartition, org.apache.kafka.clients.admin.ListOffsetsResult.ListOffsetsResultInfo> end, long now) {
+    List<TopicPartition> stalled = new ArrayList<>();
+    long waiting = 0;
+    for (TopicPartition tp : asked) {
+      if (slots.containsKey(tp)) continue; // ours by now
+      OffsetAndMetadata om = committed.get(tp);
+      long c = om == null ? -1 : om.offset();
+      long e = end.get(tp) == null ? 0 : end.get(tp).offset();
+      long[] seen = othersSeen.get(tp);
+      if (seen == null || seen[0] != c) {
+        othersSeen.put(tp, new long[] {c, now});
+      } else if (e > Math.max(c, 0) && now - seen[1] >= stallReportMs()) {
+        stalled.add(tp);
+        waiting += e - Math.max(c, 0);
+      }
     }
     stalled.sort(java.util.Comparator.comparingInt(TopicPartition::partition));
     if (!stalled.isEmpty() && waitingReport == null) {
@@ -774,13 +813,17 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     }
   }
 
-  private void setUpTopics() {
+  private Map<String, Object> adminConfig() {
     Map<String, Object> cfg = new HashMap<>(ClientConfig.forClient(settings.clientProperties(), ClientConfig.Kind.ADMIN, env));
     cfg.put(AdminClientConfig.BOOTSTRAP_SERVERS_CONFIG, settings.bootstrapServers());
     cfg.putIfAbsent(AdminClientConfig.CLIENT_ID_CONFIG, "runnel-" + settings.name() + "-" + settings.instanceId() + "-admin");
     cfg.putIfAbsent(AdminClientConfig.DEFAULT_API_TIMEOUT_MS_CONFIG, 10_000);
     cfg.putIfAbsent(AdminClientConfig.REQUEST_TIMEOUT_MS_CONFIG, 5_000);
-    try (Admin admin = Admin.create(cfg)) {
+    return cfg;
+  }
+
+  private void setUpTopics() {
+    try (Admin admin = Admin.create(adminConfig())) {
       while (!closing) {
         try {
           layout = TopicSetup.ensure(admin, settings);
@@ -833,6 +876,10 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     if (stateReader != null) {
       stateReader.close(CloseOptions.timeout(Duration.ofSeconds(5)));
       stateReader = null;
+    }
+    if (othersAdmin != null) {
+      othersAdmin.close(Duration.ofSeconds(5));
+      othersAdmin = null;
     }
     if (producer != null) {
       try {

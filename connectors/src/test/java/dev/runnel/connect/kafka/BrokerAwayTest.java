@@ -6,21 +6,34 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 import dev.runnel.connect.broker.EmbeddedBroker;
 import dev.runnel.connect.testing.EmbeddedKafkaExtension;
 import dev.runnel.connect.testing.KafkaTestSupport;
+import java.nio.file.Path;
+import java.nio.file.Paths;
 import java.time.Duration;
 import java.util.List;
 import org.apache.kafka.clients.admin.Admin;
 import org.junit.jupiter.api.Test;
-import org.junit.jupiter.api.extension.ExtendWith;
 
 /**
  * The runner notices by itself when the cluster is gone (the clients' own reconnect warnings are turned off)
  * and when it is back, and then goes on exactly once. The state is read from the counters, where the
- * runner's log line reads it from.
+ * runner's log line reads it from. A broker of its own (killed and restarted here), so that the shared
+ * one of the other tests is not restarted once more.
  */
-@ExtendWith(EmbeddedKafkaExtension.class)
 class BrokerAwayTest {
 
-  @Test void theRunnerSaysWhenTheBrokerIsAwayAndWhenItIsBack(EmbeddedBroker broker) throws Exception {
+  @Test void theRunnerSaysWhenTheBrokerIsAwayAndWhenItIsBack() throws Exception {
+    Path dir = Paths.get("target", "embedded-kafka", "away").toAbsolutePath();
+    EmbeddedKafkaExtension.deleteTree(dir);
+    EmbeddedBroker broker = new EmbeddedBroker(dir);
+    broker.start();
+    try {
+      run(broker);
+    } finally {
+      broker.stop();
+    }
+  }
+
+  private static void run(EmbeddedBroker broker) throws Exception {
     String bs = broker.bootstrapServers();
     String topic = "away-in";
     KafkaTestSupport.createTopic(bs, topic, 1);
