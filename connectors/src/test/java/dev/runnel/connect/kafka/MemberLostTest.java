@@ -53,6 +53,15 @@ class MemberLostTest {
       cmd.add(e.getKey() + "=" + e.getValue());
     }
     Process other = new ProcessBuilder(cmd).redirectErrorStream(true).redirectOutput(log.toFile()).start();
+    try {
+      run(bs, check, first, second, props, log, other);
+    } finally {
+      other.destroyForcibly(); // never leave the child running when an assertion fails
+    }
+  }
+
+  private static void run(String bs, ExactlyOnceCheck check, List<List<String>> first, List<List<String>> second,
+      Map<String, String> props, Path log, Process other) throws Exception {
     KafkaTestSupport.await("the other instance has the partitions", Duration.ofSeconds(60), () -> assignments(log) >= 1);
     RunnerSettings s = RunnerSettings.of(NAME, TOPIC, bs).withClientProperties(props).withCommitInterval(200, 1000);
     ExactlyOnceRunner survivor = new ExactlyOnceRunner(s, new SumProcessorFactory());
