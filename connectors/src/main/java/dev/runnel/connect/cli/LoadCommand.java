@@ -11,7 +11,8 @@ import picocli.CommandLine.Option;
 @Command(name = "load", mixinStandardHelpOptions = true,
     description = {"Publish a JSON Lines file to a topic: a plain file one record per line; a recording (from "
         + "`runnel record`) with its partitions, keys and timestamps kept.",
-        "Creates the topic when missing (as many partitions as the recording had, else --partitions).",
+        "Creates the topic when missing (as many partitions as the recording had, else --partitions), keeping its records"
+            + " for good (retention.ms=-1: recorded timestamps are old); refuses an existing topic whose retention would delete them.",
         "The cluster: --bootstrap-servers, else kafka.bootstrap_servers of --config, else " + RecordCommand.DEFAULT_SERVERS
             + " (e.g. a `runnel broker`). Client properties with a producer. or admin. prefix go to that client only."})
 public final class LoadCommand implements Callable<Integer> {

@@ -1,5 +1,6 @@
 package dev.runnel.connect.cli;
 
+import dev.runnel.connect.kafka.ExactlyOnceRunner;
 import dev.runnel.connect.kafka.RunnerCounters;
 import dev.runnel.connect.launch.LivePipeline;
 import dev.runnel.connect.launch.Progress;
@@ -16,7 +17,8 @@ import picocli.CommandLine.Option;
     description = {"Consume the configured input topic and run the pipeline on every partition, publishing "
         + "<name>.predictions, <name>.coefficients, <name>.rejects and <name>.state exactly once.",
         "Without kafka.bootstrap_servers in the configuration, starts the embedded broker.",
-        "Stops cleanly on Ctrl-C / SIGTERM (the open transaction is committed, never half) and prints what it did."})
+        "Stops cleanly on Ctrl-C / SIGTERM (the open transaction is committed, never half) and exits with 0;"
+            + " 2 when the runner stopped on an error."})
 public final class RunCommand implements Callable<Integer> {
 
   @Mixin Options.PipelineFile pipeline;
@@ -42,6 +44,7 @@ public final class RunCommand implements Callable<Integer> {
         instanceId, webPort, !noWeb, false, "runnel"), System.err);
     p.stopOnShutdown();
     p.startRunner();
+    stopOnSignals(p.runner()); // a clean stop on SIGTERM / Ctrl-C ends with exit code 0, not 143
     System.err.println("runnel: Ctrl-C to stop");
     Progress progress = new Progress(System.err, "records", 0, quiet.quiet);
     p.awaitWithProgress(progress);
@@ -54,5 +57,31 @@ public final class RunCommand implements Callable<Integer> {
       return 2;
     }
     return 0;
+  }
+
+  /**
+   * SIGTERM and SIGINT stop the runner cleanly (the open transaction committed) and {@code run} then exits
+   * with 0, as after any clean stop; without this handler the JVM's own exit on a signal gives 143 or 130
+   * although nothing went wrong. A second signal while stopping exits at once with the signal's usual code.
+   *
+   * @return false when the signal handlers cannot be installed (the shutdown hook then stops the runner)
+   */
+  private static boolean stopOnSignals(ExactlyOnceRunner runner) {
+    java.util.concurrent.atomic.AtomicBoolean stopping = new java.util.concurrent.atomic.AtomicBoolean();
+    try {
+      for (String name : new String[] {"TERM", "INT"}) {
+        sun.misc.Signal.handle(new sun.misc.Signal(name), sig -> {
+          if (!stopping.compareAndSet(false, true)) {
+            Runtime.getRuntime().halt(128 + sig.getNumber());
+          }
+          Thread t = new Thread(runner::close, "runnel-stop-signal");
+          t.setDaemon(true);
+          t.start();
+        });
+      }
+      return true;
+    } catch (IllegalArgumentException | UnsupportedOperationException | LinkageError e) {
+      return false;
+    }
   }
 }

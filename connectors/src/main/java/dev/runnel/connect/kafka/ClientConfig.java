@@ -6,6 +6,9 @@ import java.util.TreeMap;
 import java.util.function.UnaryOperator;
 import java.util.regex.Matcher;
 import java.util.regex.Pattern;
+import org.apache.kafka.common.config.SaslConfigs;
+import org.apache.kafka.common.config.types.Password;
+import org.apache.kafka.common.security.JaasContext;
 
 /**
  * Kafka client property handling: {@code ${ENV}} resolution, per-client prefixes and masking of secrets
@@ -25,7 +28,8 @@ public final class ClientConfig {
    * for {@code kind} (prefix removed; they win). Values have {@code ${VAR}} replaced from {@code env}.
    * @param props user properties. Not modified.
    * @param env environment lookup (e.g. {@code System::getenv})
-   * @throws IllegalArgumentException if a referenced variable is not set (names the key and the variable, never the value)
+   * @throws IllegalArgumentException if a referenced variable is not set (names the key and the variable, never the value),
+   *     or a {@code sasl.jaas.config} value is malformed (names the key, never the value)
    */
   public static Map<String, Object> forClient(Map<String, String> props, Kind kind, UnaryOperator<String> env) {
     Map<String, Object> out = new TreeMap<>();
@@ -75,7 +79,27 @@ public final class ClientConfig {
       m.appendReplacement(sb, Matcher.quoteReplacement(v));
     }
     m.appendTail(sb);
-    return sb.toString();
+    String resolved = sb.toString();
+    if (key.equals(SaslConfigs.SASL_JAAS_CONFIG) || key.endsWith("." + SaslConfigs.SASL_JAAS_CONFIG)) checkJaas(key, resolved);
+    return resolved;
+  }
+
+  private static final Pattern QUOTED = Pattern.compile("'[^']*'");
+
+  /**
+   * Parses a JAAS configuration as the Kafka clients will (one login module, ending with ';'), so a
+   * malformed one is reported by key at start instead of as a stack trace when a client is built.
+   * The parser's words between quotes may be parts of the value (a password): they are masked.
+   */
+  private static void checkJaas(String key, String value) {
+    try {
+      JaasContext.loadClientContext(Map.of(SaslConfigs.SASL_JAAS_CONFIG, new Password(value)));
+    } catch (IllegalArgumentException e) {
+      String why = e.getMessage() == null ? "cannot be parsed" : QUOTED.matcher(e.getMessage()).replaceAll("'****'");
+      throw new IllegalArgumentException("client property " + key + " (kafka.client_properties) is not a valid JAAS configuration: " + why
+          + "; write one login module as <class> required <key>=\"<value>\" ... ending with ';', e.g."
+          + " org.apache.kafka.common.security.scram.ScramLoginModule required username=\"runnel\" password=\"${KAFKA_PASSWORD}\";");
+    }
   }
 
   /** True if a key names a secret (contains password, secret, jaas, token, ...): its value is never logged. */

@@ -68,7 +68,10 @@ import org.slf4j.LoggerFactory;
  * without a rebalance; a clean {@link #close()} leaves the group so the others take over at once.
  *
  * <p>Errors: a fenced producer or group instance (another instance with the same id), authorization
- * failures, a record too large for its topic and a processor that throws stop the runner ({@link #failure()}).
+ * failures, a record too large for its topic, and a processor that throws while being restored or
+ * checkpointed stop the runner ({@link #failure()}). A processor that throws on one record does not: the
+ * record is set aside as a {@code processing_failed} reject and the partition goes on without it
+ * (see {@link PartitionProcessor}).
  * Any other Kafka error inside a transaction aborts it, rewinds every partition to its last committed offset
  * and rebuilds its processor from the last committed checkpoint (kept in memory); when the abort itself fails
  * (e.g. {@code InvalidProducerEpochException} after the coordinator timed the transaction out) a new producer
@@ -86,6 +89,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private static final long BACKOFF_MS = 2000;
   private static final long CLOSE_COMMIT_TIMEOUT_MS = 30_000;
   private static final long STATE_VISIBLE_TIMEOUT_MS = 60_000;
+  private static final int MAX_FAILURE_MESSAGE_CHARS = 1000;
   private static final Set<String> FORCED = Set.of(ConsumerConfig.ISOLATION_LEVEL_CONFIG, ConsumerConfig.ENABLE_AUTO_COMMIT_CONFIG,
       ProducerConfig.TRANSACTIONAL_ID_CONFIG, ProducerConfig.ENABLE_IDEMPOTENCE_CONFIG, "key.serializer", "value.serializer",
       "key.deserializer", "value.deserializer", ConsumerConfig.GROUP_ID_CONFIG, ConsumerConfig.BOOTSTRAP_SERVERS_CONFIG);
@@ -106,6 +110,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private volatile long rejects;
   private volatile long commits;
   private volatile long aborts;
+  private volatile long processingFailures;
   private volatile long lastCommitMillis;
   private volatile long lag = -1;
 
@@ -151,6 +156,8 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     /** What the transaction being committed carries for this partition, until its outcome is known. */
     long pendingNext = -1;
     byte[] pendingCheckpoint;
+    /** Offsets (not yet committed past) whose processing threw, with what was thrown; see {@link #setAsideAndRewind}. */
+    final java.util.TreeMap<Long, String> setAside = new java.util.TreeMap<>();
 
     Slot(TopicPartition tp) {
       this.tp = tp;
@@ -217,7 +224,8 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
 
   /** Current counters (a snapshot). */
   public RunnerCounters counters() {
-    return new RunnerCounters(recordsIn, outputsOut, rejects, commits, aborts, lastCommitMillis, lag);
+    return new RunnerCounters(recordsIn, outputsOut, rejects, commits, aborts, lastCommitMillis, lag, processingFailures,
+        brokerAwaySinceMillis);
   }
 
   /** Why the runner stopped on its own, or null if it did not (yet). */
@@ -277,9 +285,12 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   // ------------------------------------------------------------------ main loop
 
   private void loop() {
+    lastConnectedMillis = System.currentTimeMillis();
     while (!closing) {
       ConsumerRecords<byte[], byte[]> batch;
       try {
+        watchBroker();
+        watchOthers();
         batch = consumer.poll(Duration.ofMillis(200));
       } catch (WakeupException e) {
         if (closing) return;
@@ -304,6 +315,191 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     }
   }
 
+  // ------------------------------------------------------------------ broker reachability
+
+  /** The consumer's open connections (metric {@code consumer-metrics/connection-count}); null until found. */
+  private org.apache.kafka.common.Metric connectionCount;
+  private long lastConnectedMillis;
+  private long nextBrokerCheckMillis;
+  /** When the broker was last seen before it went away; 0 while it is reachable. */
+  private volatile long brokerAwaySinceMillis;
+  private long nextAwayReportMillis;
+
+  /**
+   * Says, once, when the consumer has had no connection to the cluster for {@value #AWAY_REPORT_MS} ms (the
+   * clients' own reconnect warnings are turned off in simplelogger.properties: they come several times a
+   * second per client), then once a minute, and says when it is back. Checked at most once a second.
+   */
+  private void watchBroker() {
+    long now = System.currentTimeMillis();
+    if (now < nextBrokerCheckMillis) return;
+    nextBrokerCheckMillis = now + 1000;
+    if (connectionCount == null) {
+      for (Map.Entry<org.apache.kafka.common.MetricName, ? extends org.apache.kafka.common.Metric> e : consumer.metrics().entrySet()) {
+        if (e.getKey().name().equals("connection-count") && e.getKey().group().equals("consumer-metrics")) connectionCount = e.getValue();
+      }
+      if (connectionCount == null) return;
+    }
+    Object v = connectionCount.metricValue();
+    boolean connected = v instanceof Number n && n.doubleValue() > 0;
+    if (connected) {
+      lastConnectedMillis = now;
+      if (brokerAwaySinceMillis != 0) {
+        LOG.info("broker at {} reachable again after {}; resuming", settings.bootstrapServers(), span(now - brokerAwaySinceMillis));
+        brokerAwaySinceMillis = 0;
+      }
+    } else if (brokerAwaySinceMillis == 0) {
+      if (now - lastConnectedMillis >= AWAY_REPORT_MS) {
+        brokerAwaySinceMillis = lastConnectedMillis;
+        nextAwayReportMillis = now + 60_000;
+        LOG.warn("broker at {} not reachable for {}; the clients keep reconnecting (at most 1 s apart); nothing is lost,"
+            + " outputs resume when it is back", settings.bootstrapServers(), span(now - lastConnectedMillis));
+      }
+    } else if (now >= nextAwayReportMillis) {
+      nextAwayReportMillis = now + 60_000;
+      LOG.warn("broker at {} still not reachable ({} so far)", settings.bootstrapServers(), span(now - brokerAwaySinceMillis));
+    }
+  }
+
+  private static final long AWAY_REPORT_MS = 5000;
+
+  private static String span(long ms) {
+    long s = ms / 1000;
+    return s < 120 ? s + " s" : s < 7200 ? (s / 60) + " min " + (s % 60) + " s" : (s / 3600) + " h " + (s % 3600 / 60) + " min";
+  }
+
+  // ------------------------------------------------------------------ partitions of other members
+
+  private static final long OTHERS_CHECK_MS = 5000;
+  private static final long DEFAULT_SESSION_TIMEOUT_MS = 45_000; // the classic consumer's default (ConsumerConfig)
+  private long nextOthersCheckMillis;
+  /** Per input partition not assigned here: {committed offset last seen, when it was first seen at that offset}. */
+  private final Map<TopicPartition, long[]> othersSeen = new HashMap<>();
+  private volatile String waitingReport;
+
+  /** The warning about other members' partitions that wait, while they wait; null otherwise (for tests). */
+  String waitingReport() { return waitingReport; }
+
+  /** How long a partition of another member may show waiting records without a commit before it is reported. */
+  private long stallReportMs() { return Math.max(10_000, 3 * settings.commitIntervalMs()); }
+
+  private long sessionTimeoutMs() {
+    Object v = ClientConfig.forClient(settings.clientProperties(), ClientConfig.Kind.CONSUMER, env).get(ConsumerConfig.SESSION_TIMEOUT_MS_CONFIG);
+    try {
+      return v == null ? DEFAULT_SESSION_TIMEOUT_MS : Long.parseLong(v.toString().trim());
+    } catch (NumberFormatException e) {
+      return DEFAULT_SESSION_TIMEOUT_MS;
+    }
+  }
+
+  /** Admin client for {@link #watchOthers}; made when another member has partitions, closed with the runner. */
+  private Admin othersAdmin;
+  private org.apache.kafka.common.KafkaFuture<Map<TopicPartition, OffsetAndMetadata>> othersCommitted;
+  private org.apache.kafka.common.KafkaFuture<Map<TopicPartition, org.apache.kafka.clients.admin.ListOffsetsResult.ListOffsetsResultInfo>> othersEnd;
+  private Set<TopicPartition> othersAsked;
+
+  /**
+   * When one instance of a group dies without leaving it (a crash, SIGKILL, a lost machine), the group
+   * coordinator waits {@code session.timeout.ms} without a heartbeat before it hands that member's
+   * partitions to the others (with static membership, {@code group.instance.id}, an instance that comes
+   * back with the same id before then gets them back without a rebalance). Meanwhile their records wait.
+   * Every {@value #OTHERS_CHECK_MS} ms this asks, for the input partitions not assigned here, for the
+   * group's last committed offsets (not waiting for a pending transaction of the dead member) and the end
+   * offsets, without blocking the run loop (the answer is read at the next check), and says once which
+   * partitions have records waiting without a commit, why, and for how long at most; and says when they
+   * move again.
+   */
+  private void watchOthers() {
+    long now = System.currentTimeMillis();
+    if (now < nextOthersCheckMillis || brokerAwaySinceMillis != 0) return;
+    nextOthersCheckMillis = now + OTHERS_CHECK_MS;
+    if (othersCommitted != null) {
+      if (!othersCommitted.isDone() || !othersEnd.isDone()) return; // still asking
+      Map<TopicPartition, OffsetAndMetadata> committed;
+      Map<TopicPartition, org.apache.kafka.clients.admin.ListOffsetsResult.ListOffsetsResultInfo> end;
+      try {
+        committed = othersCommitted.get();
+        end = othersEnd.get();
+      } catch (java.util.concurrent.ExecutionException | InterruptedException e) {
+        if (e instanceof InterruptedException) Thread.currentThread().interrupt();
+        committed = null;
+        end = null;
+      }
+      Set<TopicPartition> asked = othersAsked;
+      othersCommitted = null;
+      othersEnd = null;
+      if (committed != null) judgeOthers(asked, committed, end, now);
+    }
+    Set<TopicPartition> others = new HashSet<>();
+    try {
+      for (org.apache.kafka.common.PartitionInfo pi : consumer.partitionsFor(settings.inputTopic(), Duration.ofMillis(500))) {
+        TopicPartition tp = new TopicPartition(pi.topic(), pi.partition());
+        if (!slots.containsKey(tp)) others.add(tp);
+      }
+    } catch (TimeoutException e) {
+      return;
+    }
+    othersSeen.keySet().retainAll(others);
+    if (others.isEmpty()) {
+      if (waitingReport != null) {
+        waitingReport = null;
+        LOG.info("runner {}: the partitions that were waiting are moving again", settings.name());
+      }
+      return;
+    }
+    if (othersAdmin == null) othersAdmin = Admin.create(adminConfig());
+    Map<TopicPartition, org.apache.kafka.clients.admin.OffsetSpec> latest = new HashMap<>();
+    for (TopicPartition tp : others) latest.put(tp, org.apache.kafka.clients.admin.OffsetSpec.latest());
+    othersAsked = others;
+    othersCommitted = othersAdmin.listConsumerGroupOffsets(settings.groupId(),
+        new org.apache.kafka.clients.admin.ListConsumerGroupOffsetsOptions().requireStable(false)).partitionsToOffsetAndMetadata();
+    othersEnd = othersAdmin.listOffsets(latest).all();
+  }
+
+  private void judgeOthers(Set<TopicPartition> asked, Map<TopicPartition, OffsetAndMetadata> committed,
+      Map<TopicPartition, org.apache.kafka.clients.admin.ListOffsetsResult.ListOffsetsResultInfo> end, long now) {
+    List<TopicPartition> stalled = new ArrayList<>();
+    long waiting = 0;
+    for (TopicPartition tp : asked) {
+      if (slots.containsKey(tp)) continue; // ours by now
+      OffsetAndMetadata om = committed.get(tp);
+      long c = om == null ? -1 : om.offset();
+      long e = end.get(tp) == null ? 0 : end.get(tp).offset();
+      long[] seen = othersSeen.get(tp);
+      if (seen == null || seen[0] != c) {
+        othersSeen.put(tp, new long[] {c, now});
+      } else if (e > Math.max(c, 0) && now - seen[1] >= stallReportMs()) {
+        stalled.add(tp);
+        waiting += e - Math.max(c, 0);
+      }
+    }
+    stalled.sort(java.util.Comparator.comparingInt(TopicPartition::partition));
+    if (!stalled.isEmpty() && waitingReport == null) {
+      long since = now;
+      for (TopicPartition tp : stalled) since = Math.min(since, othersSeen.get(tp)[1]);
+      String msg = "runner " + settings.name() + ": partitions " + stalled + " have " + waiting + " records waiting and no commit for "
+          + span(now - since) + "; they are not assigned here: their instance probably stopped without leaving group " + settings.groupId()
+          + " (a crash, or a kill). The group hands them over after session.timeout.ms=" + sessionTimeoutMs() + " ms without a"
+          + " heartbeat from it; restarting that instance with the same instance id takes them back sooner, without a rebalance"
+          + " (static membership). A shorter session.timeout.ms (kafka.client_properties) moves them sooner but hands partitions"
+          + " over during a slow restart too.";
+      waitingReport = msg;
+      LOG.warn(msg);
+    } else if (stalled.isEmpty() && waitingReport != null) {
+      waitingReport = null;
+      LOG.info("runner {}: the partitions that were waiting are moving again", settings.name());
+    }
+  }
+
+  /** True if the error (or a cause) says the cluster could not be reached in time. */
+  private static boolean unreachable(Throwable e) {
+    for (Throwable t = e; t != null; t = t.getCause()) {
+      if (t instanceof TimeoutException || t instanceof org.apache.kafka.common.errors.NetworkException) return true;
+      if (t.getCause() == t) break;
+    }
+    return false;
+  }
+
   private void process(ConsumerRecords<byte[], byte[]> batch) {
     for (TopicPartition tp : batch.partitions()) {
       Slot s = slots.get(tp);
@@ -313,13 +509,18 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       beginIfNeeded();
       for (int i = 0; i < recs.size(); i++) {
         ConsumerRecord<byte[], byte[]> r = recs.get(i);
-        try {
-          s.proc.process(r.offset(), r.timestamp(), r.key(), r.value(), s);
-        } catch (KafkaException e) {
-          throw e;
-        } catch (RuntimeException e) {
-          throw new FatalException("the processor of " + tp + " threw at offset " + r.offset() + " (processors must emit a reject"
-              + " for bad input instead): " + e, e);
+        String setAside = s.setAside.isEmpty() ? null : s.setAside.get(r.offset());
+        if (setAside != null) {
+          s.proc.processingFailed(r.offset(), r.timestamp(), r.key(), r.value(), setAside, s);
+        } else {
+          try {
+            s.proc.process(r.offset(), r.timestamp(), r.key(), r.value(), s);
+          } catch (KafkaException e) {
+            throw e;
+          } catch (RuntimeException | StackOverflowError e) {
+            setAsideAndRewind(s, r.offset(), e);
+            return; // every partition was rewound: the rest of this batch is fetched again
+          }
         }
         s.next = r.offset() + 1;
         s.touched = true;
@@ -327,6 +528,28 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
         recordsInTx++;
       }
     }
+  }
+
+  /**
+   * A record whose processing threw: remembered as set aside, then the open transaction is aborted and
+   * every partition rewound to its last commit, so the replay rebuilds each state from the committed
+   * checkpoint and, at this offset, emits a {@code processing_failed} reject instead of processing the
+   * record. The state is then exactly that of the stream without the record, and its outputs are
+   * committed once. Set-aside offsets are kept until a commit passes them; a restart finds the record
+   * again by the same throw.
+   */
+  private void setAsideAndRewind(Slot s, long offset, Throwable e) {
+    String message = e.getClass().getName() + ": " + e.getMessage();
+    if (message.length() > MAX_FAILURE_MESSAGE_CHARS) message = message.substring(0, MAX_FAILURE_MESSAGE_CHARS) + "...";
+    s.setAside.put(offset, message);
+    processingFailures++;
+    LOG.warn("runner {}: processing {} offset {} threw ({}); the record goes to {} as processing_failed and the partition"
+        + " continues without it (the open transaction is aborted and replayed from the last commit)",
+        settings.name(), s.tp, offset, message, settings.rejectsTopic(), e);
+    int before = consecutiveAborts;
+    consecutiveAborts = 0; // a set-aside record is no broker trouble: no back-off
+    abortAndRewind(new KafkaException("record " + s.tp + " offset " + offset + " set aside"));
+    consecutiveAborts = before;
   }
 
   private void beginIfNeeded() {
@@ -386,6 +609,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       s.committedNext = s.next;
       s.committedCheckpoint = e.getValue();
       s.touched = false;
+      if (!s.setAside.isEmpty()) s.setAside.headMap(s.committedNext).clear();
       s.pendingNext = -1;
       s.pendingCheckpoint = null;
     }
@@ -461,9 +685,11 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   }
 
   private void abortAndRewind(Exception cause) {
-    if (cause instanceof TimeoutException) {
-      LOG.warn("broker at {} not reachable ({}); aborting the open transaction and rewinding {} partition(s) to the last commit",
-          settings.bootstrapServers(), cause.getMessage(), slots.size());
+    if (unreachable(cause)) {
+      // e.g. after a long outage only "Cannot execute transactional method because we are in an error state",
+      // caused by the sends that expired while the broker was away
+      LOG.warn("broker at {} not reachable in time ({}); the open transaction is aborted and {} partition(s) rewound to the last"
+          + " commit; they are processed again once it is back", settings.bootstrapServers(), rootMessage(cause), slots.size());
     } else {
       LOG.warn("runner {}: transaction aborted after {}; rewinding {} partition(s) to the last commit", settings.name(), cause.toString(),
           slots.size());
@@ -493,6 +719,12 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     // back off when aborts follow each other without a commit in between, so a persistent problem does not spin
     consecutiveAborts++;
     if (consecutiveAborts > 1) sleep(Math.min(BACKOFF_MS, 50L << Math.min(consecutiveAborts, 6)));
+  }
+
+  private static String rootMessage(Throwable e) {
+    Throwable t = e;
+    while (t.getCause() != null && t.getCause() != t) t = t.getCause();
+    return t.getClass().getSimpleName() + ": " + t.getMessage();
   }
 
   /**
@@ -581,13 +813,17 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     }
   }
 
-  private void setUpTopics() {
+  private Map<String, Object> adminConfig() {
     Map<String, Object> cfg = new HashMap<>(ClientConfig.forClient(settings.clientProperties(), ClientConfig.Kind.ADMIN, env));
     cfg.put(AdminClientConfig.BOOTSTRAP_SERVERS_CONFIG, settings.bootstrapServers());
     cfg.putIfAbsent(AdminClientConfig.CLIENT_ID_CONFIG, "runnel-" + settings.name() + "-" + settings.instanceId() + "-admin");
     cfg.putIfAbsent(AdminClientConfig.DEFAULT_API_TIMEOUT_MS_CONFIG, 10_000);
     cfg.putIfAbsent(AdminClientConfig.REQUEST_TIMEOUT_MS_CONFIG, 5_000);
-    try (Admin admin = Admin.create(cfg)) {
+    return cfg;
+  }
+
+  private void setUpTopics() {
+    try (Admin admin = Admin.create(adminConfig())) {
       while (!closing) {
         try {
           layout = TopicSetup.ensure(admin, settings);
@@ -640,6 +876,10 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     if (stateReader != null) {
       stateReader.close(CloseOptions.timeout(Duration.ofSeconds(5)));
       stateReader = null;
+    }
+    if (othersAdmin != null) {
+      othersAdmin.close(Duration.ofSeconds(5));
+      othersAdmin = null;
     }
     if (producer != null) {
       try {

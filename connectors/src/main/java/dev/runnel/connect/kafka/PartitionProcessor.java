@@ -16,6 +16,11 @@ package dev.runnel.connect.kafka;
  *   <li>When a transaction is aborted, or the partition moves to another instance, this instance is
  *       dropped and never called again; a new one is created and restored from the last committed
  *       checkpoint.</li>
+ *   <li>When {@link #process} throws (a defect, not bad input: bad input is a reject), the record is set
+ *       aside: the runner aborts the open transaction, restores fresh processors from the last committed
+ *       checkpoints and replays; at the set-aside offset it calls {@link #processingFailed} instead of
+ *       {@link #process}. So {@link #process} must be deterministic: the same records after the same
+ *       {@link #restore} give the same state.</li>
  * </ul>
  */
 public interface PartitionProcessor {
@@ -28,6 +33,32 @@ public interface PartitionProcessor {
    * @param value record value, may be null. Not modified; valid only during the call.
    */
   void process(long offset, long timestampMillis, byte[] key, byte[] value, Emitter out);
+
+  /**
+   * Emits the reject for a record whose {@link #process} threw, in its place; must not change the state.
+   * The default writes a small JSON object with reason {@code processing_failed}, the message
+   * and the offset; processors with their own reject format override it.
+   *
+   * @param message what was thrown (class and message), never null
+   * @param key record key, may be null. Not modified.
+   * @param value record value, may be null. Not modified.
+   */
+  default void processingFailed(long offset, long timestampMillis, byte[] key, byte[] value, String message, Emitter out) {
+    StringBuilder b = new StringBuilder(96 + message.length());
+    b.append("{\"reason\":\"processing_failed\",\"detail\":\"");
+    for (int i = 0; i < message.length(); i++) {
+      char c = message.charAt(i);
+      if (c == '"' || c == '\\') {
+        b.append('\\').append(c);
+      } else if (c < 0x20 || c == 0x7f || Character.isSurrogate(c)) {
+        b.append(String.format(java.util.Locale.ROOT, "\\u%04x", (int) c));
+      } else {
+        b.append(c);
+      }
+    }
+    b.append("\",\"offset\":").append(offset).append('}');
+    out.reject(key, b.toString().getBytes(java.nio.charset.StandardCharsets.UTF_8));
+  }
 
   /** The whole state as bytes, called inside the transaction at each commit (only for partitions touched since the last commit). */
   byte[] checkpoint();

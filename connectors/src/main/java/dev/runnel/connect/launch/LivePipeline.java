@@ -66,6 +66,9 @@ public final class LivePipeline implements AutoCloseable {
    * @param err where the lines for the person go (usually System.err)
    */
   public static LivePipeline connect(PipelineConfig config, Options options, PrintStream err) throws IOException {
+    if (options.web() && config.web().enabled()) {
+      WebView.bindAddress(config.web().bind(), 0); // a web.bind that does not resolve: said before anything starts
+    }
     String servers = options.bootstrapServers();
     if (servers == null || servers.isBlank()) {
       servers = config.kafka().bootstrapServers();
@@ -118,7 +121,7 @@ public final class LivePipeline implements AutoCloseable {
     if (options.web() && config.web().enabled()) {
       live = new LiveState(config.name(), servers, config.kafka().clientProperties(), runner::counters).start();
       web = WebView.start(config.web().bind(), options.webPort() != null ? options.webPort() : config.web().port(),
-          options.webPortFallback(), live);
+          options.webPortFallback(), config.web().allowedHosts(), live);
       err.println(options.prefix() + ": live view at " + web.url());
     }
     return this;

@@ -63,6 +63,13 @@ public final class PipelineProcessor implements PartitionProcessor {
     step.process(v, 0, v.length, timestampMillis, partition, offset, sink);
   }
 
+  /** The reject for a record whose processing threw, in the format of every reject; the step is not touched. */
+  @Override
+  public void processingFailed(long offset, long timestampMillis, byte[] key, byte[] value, String message, Emitter out) {
+    byte[] v = value == null ? EMPTY : value;
+    out.reject(key, json.reject(RejectReason.PROCESSING_FAILED, message, partition, offset, v, 0, v.length));
+  }
+
   @Override
   public byte[] checkpoint() {
     return step.checkpoint();

@@ -4,12 +4,18 @@ import dev.runnel.core.evaluate.Backtest;
 import java.io.IOException;
 import java.util.ArrayList;
 import java.util.List;
+import java.util.concurrent.atomic.AtomicIntegerArray;
 import java.util.function.LongSupplier;
+import org.slf4j.Logger;
+import org.slf4j.LoggerFactory;
 
 /**
  * Feeds a source through a {@link Backtest} in one pass, reporting progress now and then: on the
  * calling thread alone ({@code threads} = 1, the sequential path), or with one reader and worker
- * threads that run the configurations ({@link ParallelReplay}). Both give the same bits.
+ * threads that run the configurations ({@link ParallelReplay}). Both give the same bits. A record on
+ * which a configuration's step throws does not stop the replay: it becomes a {@code processing_failed}
+ * reject of that configuration and the source is replayed again without it (at most
+ * {@value #MAX_SET_ASIDE} such records per configuration).
  */
 public final class ReplayDriver {
 
@@ -18,6 +24,8 @@ public final class ReplayDriver {
   public interface ProgressListener {
     void progress(long records, long done, long total);
   }
+
+  private static final Logger LOG = LoggerFactory.getLogger(ReplayDriver.class);
 
   /** Highest default thread count, whatever the processor count (the reader needs a core too). */
   static final int MAX_DEFAULT_THREADS = 8;
@@ -58,9 +66,64 @@ public final class ReplayDriver {
    */
   public static long run(Backtest bt, FileSource src, int threads, ProgressListener listener) throws IOException {
     long[] bytes = {0};
-    long n = replay(labels(bt), bt::acceptFor, h -> src.read(h, bytes), () -> bytes[0], src.sizeBytes(), threads, listener);
+    long n = passes(bt, sink -> replay(labels(bt), sink, h -> src.read(h, bytes), () -> bytes[0], src.sizeBytes(), threads, listener));
     bt.countRecords(n);
     return n;
+  }
+
+  /** Most records set aside per configuration in one replay; past it the replay stops (each costs a pass). */
+  static final int MAX_SET_ASIDE = 20;
+
+  /** One pass over the source with the given sink. */
+  @FunctionalInterface
+  interface Pass {
+    long run(ParallelReplay.VariantSink sink) throws IOException;
+  }
+
+  /**
+   * Runs passes until one finds no record that throws. A record on which a configuration's step
+   * throws (a defect, not bad input: bad input is a reject) is set aside for that configuration
+   * ({@link Backtest#setAside}): the configuration is not fed again in this pass, and after the pass
+   * everything is replayed from the start with that record logged as a {@code processing_failed}
+   * reject instead, so every state and metric is exactly that of the stream without the record.
+   */
+  static long passes(Backtest bt, Pass pass) throws IOException {
+    return passes(bt, bt::acceptFor, pass);
+  }
+
+  /** As {@link #passes(Backtest, Pass)}; {@code step} runs one configuration on one record (tests wrap {@code bt::acceptFor}). */
+  static long passes(Backtest bt, ParallelReplay.VariantSink step, Pass pass) throws IOException {
+    List<String> labels = labels(bt);
+    while (true) {
+      AtomicIntegerArray threw = new AtomicIntegerArray(labels.size());
+      long n = pass.run((v, buf, off, len, ts, p, o) -> {
+        if (threw.get(v) != 0) {
+          return;
+        }
+        try {
+          step.accept(v, buf, off, len, ts, p, o);
+        } catch (RuntimeException | StackOverflowError e) {
+          if (bt.setAsideCount(v) >= MAX_SET_ASIDE) {
+            LOG.error("configuration {}: {} records already set aside as processing_failed; stopping the replay (a defect that"
+                + " hits most records is not a poison record)", labels.get(v), MAX_SET_ASIDE);
+            throw e;
+          }
+          threw.set(v, 1);
+          String message = e.getClass().getName() + ": " + e.getMessage();
+          bt.setAside(v, p, o, message);
+          LOG.warn("configuration {} threw on the record at partition {}, offset {} ({}); it becomes a processing_failed reject"
+              + " and the replay starts again without it", labels.get(v), p, o, message);
+        }
+      });
+      boolean again = false;
+      for (int v = 0; v < labels.size(); v++) {
+        again |= threw.get(v) != 0;
+      }
+      if (!again) {
+        return n;
+      }
+      bt.reset();
+    }
   }
 
   /**
@@ -74,7 +137,7 @@ public final class ReplayDriver {
    */
   public static long run(Backtest bt, TopicSource src, int threads, ProgressListener listener) {
     try {
-      long n = replay(labels(bt), bt::acceptFor, h -> src.read(h, null), null, src.expectedRecords(), threads, listener);
+      long n = passes(bt, sink -> replay(labels(bt), sink, h -> src.read(h, null), null, src.expectedRecords(), threads, listener));
       bt.countRecords(n);
       return n;
     } catch (IOException e) {

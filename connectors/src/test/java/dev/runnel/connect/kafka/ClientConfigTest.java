@@ -35,6 +35,23 @@ class ClientConfigTest {
     assertTrue(e.getMessage().contains("ssl.keystore.password") && e.getMessage().contains("NOT_SET_ANYWHERE"), e.getMessage());
   }
 
+  @Test void aMalformedJaasConfigurationNamesTheKeyAndNoPartOfTheValue() {
+    // without the closing quote of username the parser reads the password as a key and names it
+    // (message of kafka-clients 4.4.0 JaasConfig: "Value not specified for key '...' in JAAS config")
+    String bad = "org.apache.kafka.common.security.plain.PlainLoginModule required username=\"svc password=\"${KAFKA_PASS}\";";
+    IllegalArgumentException e = assertThrows(IllegalArgumentException.class,
+        () -> ClientConfig.forClient(Map.of("producer.sasl.jaas.config", bad), ClientConfig.Kind.PRODUCER, ENV::get));
+    assertTrue(e.getMessage().startsWith("client property producer.sasl.jaas.config (kafka.client_properties) is not a valid JAAS"
+        + " configuration: Value not specified for key '****' in JAAS config; write one login module"), e.getMessage());
+    assertFalse(e.getMessage().contains("s3cr3t"), e.getMessage());
+    IllegalArgumentException noSemicolon = assertThrows(IllegalArgumentException.class, () -> new ExactlyOnceRunner(
+        RunnerSettings.of("jaas", "in", "127.0.0.1:9").withClientProperties(Map.of("sasl.jaas.config",
+            "org.apache.kafka.common.security.plain.PlainLoginModule required username=\"svc\" password=\"x\"")),
+        tp -> null, ENV::get));
+    assertTrue(noSemicolon.getMessage().contains("sasl.jaas.config") && noSemicolon.getMessage().contains("not terminated by semi-colon"),
+        noSemicolon.getMessage());
+  }
+
   @Test void secretsAreMaskedWhenPrinted() {
     String printed = ClientConfig.masked(Map.of("sasl.jaas.config", "x password=\"s3cr3t-value\"", "ssl.truststore.password", "s3cr3t-value",
         "sasl.oauthbearer.token.endpoint.url", "https://example.invalid/token", "client.id", "visible"));

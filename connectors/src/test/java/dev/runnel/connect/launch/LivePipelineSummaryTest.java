@@ -58,7 +58,7 @@ class LivePipelineSummaryTest {
     assertEquals(Map.of("malformed_json", 1L, "wrong_type", 2L), tally.rejectsByReason());
 
     // 8 records in 4 s: 2 a second; 3,725 s = 1:02:05
-    String text = LivePipeline.summary("quillmarsh", new RunnerCounters(8, 8, 3, 2, 1, 1L, 0), tally, 4);
+    String text = LivePipeline.summary("quillmarsh", new RunnerCounters(8, 8, 3, 2, 1, 1L, 0, 0, 0), tally, 4);
     assertEquals(String.join("\n",
         "pipeline quillmarsh ran 0:00:04",
         "  records in     8 (2 a second on average)",
@@ -67,7 +67,7 @@ class LivePipelineSummaryTest {
         "  rejects        3: malformed_json 1, wrong_type 2",
         "  transactions   2 committed, 1 aborted (their records were processed again)",
         "  behind         0 records at the last commit", ""), text.replace(System.lineSeparator(), "\n"));
-    String longRun = LivePipeline.summary("q", new RunnerCounters(0, 0, 0, 0, 0, 0, -1), new OutputTally(), 3725);
+    String longRun = LivePipeline.summary("q", new RunnerCounters(0, 0, 0, 0, 0, 0, -1, 0, 0), new OutputTally(), 3725);
     assertEquals("pipeline q ran 1:02:05", longRun.lines().findFirst().orElseThrow());
   }
 }

@@ -142,8 +142,9 @@ public final class ConfigKeys {
 
   // ---- web ----
   public static final ConfigKey<Boolean> WEB_ENABLED = add(ConfigKey.flag("web", "enabled", true));
-  public static final ConfigKey<String> WEB_BIND = add(ConfigKey.text("web", "bind", "127.0.0.1", "use an address to listen on, e.g. 127.0.0.1"));
+  public static final ConfigKey<String> WEB_BIND = add(ConfigKey.text("web", "bind", "127.0.0.1", "use an IP address of this machine (127.0.0.1, ::1, 0.0.0.0 for all) or its host name"));
   public static final ConfigKey<Integer> WEB_PORT = add(ConfigKey.wholeInt("web", "port", 8642, 0, 65535));
+  public static final ConfigKey<?> WEB_ALLOWED_HOSTS = add(ConfigKey.structured("web", "allowed_hosts", "list", "[]"));
 
   /** Every key, in the order docs/configuration.md lists them. */
   public static List<ConfigKey<?>> all() { return Collections.unmodifiableList(ALL); }

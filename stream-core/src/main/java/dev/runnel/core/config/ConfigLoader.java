@@ -129,6 +129,29 @@ public final class ConfigLoader {
     return new ConfigException(path, path + ": " + render(value) + " is not allowed; " + allowed);
   }
 
+  /** An IPv4 or IPv6 literal, or a host name by the syntax of RFC 1123 (labels of letters, digits and '-'). */
+  static boolean isAddressOrHostName(String v) {
+    if (v == null || v.isEmpty() || v.length() > 253) return false;
+    if (v.indexOf(':') >= 0) {
+      // IPv6 literal: hex digits and ':' (a trailing dotted IPv4 part allowed); the socket layer checks the rest
+      return v.chars().allMatch(c -> Character.digit(c, 16) >= 0 || c == ':' || c == '.') && v.chars().filter(c -> c == ':').count() >= 2;
+    }
+    for (String label : v.split("\\.", -1)) {
+      if (label.isEmpty() || label.length() > 63 || label.startsWith("-") || label.endsWith("-")) return false;
+      for (int i = 0; i < label.length(); i++) {
+        char c = label.charAt(i);
+        if (!(c >= 'a' && c <= 'z' || c >= 'A' && c <= 'Z' || c >= '0' && c <= '9' || c == '-')) return false;
+      }
+    }
+    if (v.matches("[0-9.]+")) {
+      // all digits: must be a dotted quad of 0..255
+      String[] parts = v.split("\\.");
+      if (parts.length != 4) return false;
+      for (String part : parts) if (part.length() > 3 || Integer.parseInt(part) > 255) return false;
+    }
+    return true;
+  }
+
   static ConfigException missing(String path, String hint) {
     return new ConfigException(path, path + ": missing; " + hint);
   }
@@ -650,8 +673,24 @@ public final class ConfigLoader {
       w.allowScope("web");
       boolean enabled = ConfigKeys.WEB_ENABLED.read(w);
       String bind = ConfigKeys.WEB_BIND.read(w);
+      if (!isAddressOrHostName(bind)) {
+        throw notAllowed(w.p("bind"), w.get("bind"), "use an IP address of this machine (127.0.0.1, ::1, 0.0.0.0 for all) or its host name");
+      }
       int port = ConfigKeys.WEB_PORT.read(w);
-      return new PipelineConfig.Web(enabled, bind, port);
+      List<String> hosts = new ArrayList<>();
+      if (w.has("allowed_hosts")) {
+        JsonNode list = w.get("allowed_hosts");
+        String hint = "use a list of host names or addresses the page is opened by, e.g. [runnel.example.internal, 10.0.0.5]";
+        if (!list.isArray()) throw notAllowed(w.p("allowed_hosts"), list, hint);
+        for (int i = 0; i < list.size(); i++) {
+          JsonNode h = list.get(i);
+          String v = h.isTextual() ? h.asText().toLowerCase(java.util.Locale.ROOT) : "";
+          if (v.startsWith("[") && v.endsWith("]")) v = v.substring(1, v.length() - 1);
+          if (!isAddressOrHostName(v)) throw notAllowed(w.p("allowed_hosts") + "[" + i + "]", h, hint);
+          hosts.add(v);
+        }
+      }
+      return new PipelineConfig.Web(enabled, bind, port, hosts);
     }
   }
 }

@@ -131,8 +131,18 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
   /** {@code kafka.embedded}: where the embedded broker keeps its data and its port (0 = any free port). */
   public record Embedded(String dataDir, int port) { }
 
-  /** The {@code web} section. */
-  public record Web(boolean enabled, String bind, int port) { }
+  /**
+   * The {@code web} section.
+   *
+   * @param allowedHosts host names a request's {@code Host} header may name besides the loopback
+   *     names ({@code localhost}, {@code 127.0.0.1}, {@code ::1}); lower case; copied
+   */
+  public record Web(boolean enabled, String bind, int port, java.util.List<String> allowedHosts) {
+    public Web { allowedHosts = java.util.List.copyOf(allowedHosts); }
+
+    /** No host names beyond the loopback ones. */
+    public Web(boolean enabled, String bind, int port) { this(enabled, bind, port, java.util.List.of()); }
+  }
 
   /**
    * The {@code drift} section: alarms computed in the pipeline and carried in the snapshots.

@@ -151,6 +151,41 @@ public final class Backtest {
     states[variant].accept(buf, off, len, fallbackTimeMillis, partition, offset);
   }
 
+  /**
+   * Marks one record of one variant as set aside: its step threw on it (a defect, not bad input).
+   * From now on that record is not handed to the variant's step but logged as a
+   * {@code processing_failed} reject. Call {@link #reset()} and replay the stream again to get the
+   * state of the stream without the record (the step that threw may have been left half updated).
+   *
+   * @param message what was thrown; not used in the result beyond the count
+   */
+  public void setAside(int variant, int partition, long offset, String message) {
+    states[variant].setAside.put(new RecordId(partition, offset), message);
+  }
+
+  /** Whether {@link #setAside} was called for this record of this variant. */
+  public boolean isSetAside(int variant, int partition, long offset) {
+    return states[variant].setAside.containsKey(new RecordId(partition, offset));
+  }
+
+  /** Records set aside for a variant ({@link #setAside}). */
+  public int setAsideCount(int variant) {
+    return states[variant].setAside.size();
+  }
+
+  /** Forgets everything replayed so far (steps, logs, counts) but keeps the set-aside records, for a new pass. */
+  public void reset() {
+    records = 0;
+    for (VariantState s : states) {
+      s.lanes = new Lane[1];
+      s.records = 0;
+      s.levelIds.clear();
+      s.levels.clear();
+    }
+  }
+
+  private record RecordId(int partition, long offset) {}
+
   /** Records handed to {@link #accept} (or counted by {@link #countRecords}). */
   public long records() {
     return records;
@@ -236,6 +271,7 @@ public final class Backtest {
     long records;
     final Map<String, Integer> levelIds = new HashMap<>();
     final List<String> levels = new ArrayList<>();
+    final Map<RecordId, String> setAside = new HashMap<>();
 
     VariantState(Variant variant, int segmentSlot, List<String> weightNames) {
       this.variant = variant;
@@ -270,6 +306,10 @@ public final class Backtest {
         lanes[partition] = lane;
       }
       records++;
+      if (!setAside.isEmpty() && setAside.containsKey(new RecordId(partition, offset))) {
+        lane.setAside(fallback);
+        return;
+      }
       lane.process(buf, off, len, fallback, offset);
     }
 
@@ -321,6 +361,9 @@ public final class Backtest {
         for (RejectReason r : RejectReason.values()) {
           reasons[r.ordinal()] += st.rejected(r);
         }
+        rec += lane.setAside;
+        rejected += lane.setAside;
+        reasons[RejectReason.PROCESSING_FAILED.ordinal()] += lane.setAside;
         Metrics.Accumulator bucket = null;
         long bucketKey = Long.MIN_VALUE;
         for (int k = 0; k < lane.size; k++) {
@@ -405,6 +448,8 @@ public final class Backtest {
     int[] segments = new int[1024];
     byte[] covered = new byte[1024];
     int size;
+    /** Records set aside in this lane ({@link Backtest#setAside}). */
+    long setAside;
     // filled by the sink during one process call
     private double pendingError;
     private long pendingTime;
@@ -420,12 +465,26 @@ public final class Backtest {
       this.step = new PipelineStep(owner.variant.config());
     }
 
+    /** A record set aside: logged like a reject, the step not touched. */
+    void setAside(long fallback) {
+      setAside++;
+      pendingError = Double.NaN;
+      pendingTime = fallback;
+      pendingSegment = -1;
+      pendingCovered = false;
+      log();
+    }
+
     void process(byte[] buf, int off, int len, long fallback, long offset) {
       pendingError = Double.NaN;
       pendingTime = fallback;
       pendingSegment = -1;
       pendingCovered = false;
       step.process(buf, off, len, fallback, partition, offset, this);
+      log();
+    }
+
+    private void log() {
       if (size == errors.length) {
         int n = size * 2;
         errors = Arrays.copyOf(errors, n);

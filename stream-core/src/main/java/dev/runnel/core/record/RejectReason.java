@@ -40,7 +40,12 @@ public enum RejectReason {
    * (seconds, most likely), or epoch_seconds that lands after {@code max_year} while its value read
    * as milliseconds would be accepted. The fix is the key {@code input.event_time.format}.
    */
-  WRONG_TIME_UNIT("wrong_time_unit");
+  WRONG_TIME_UNIT("wrong_time_unit"),
+  /**
+   * Processing the record threw (a defect, not a data rule): the runner or replay set the record
+   * aside and went on with the state it had before the record. Written by connectors, never by the step.
+   */
+  PROCESSING_FAILED("processing_failed");
 
   private final String id;
 
