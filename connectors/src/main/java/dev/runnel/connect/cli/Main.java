@@ -1,5 +1,6 @@
 package dev.runnel.connect.cli;
 
+import dev.runnel.connect.launch.SharedTerminal;
 import dev.runnel.connect.text.TerminalText;
 import picocli.CommandLine;
 import picocli.CommandLine.Command;
@@ -33,6 +34,7 @@ public final class Main implements Runnable {
 
   /** Entry point. */
   public static void main(String[] args) {
+    SharedTerminal.install(); // log lines and messages never glued onto a progress line
     System.exit(commandLine().execute(args));
   }
 

@@ -86,7 +86,11 @@ public final class Progress {
       return;
     }
     draw(line(done, extra, clock.getAsLong(), true));
-    out.println();
+    if (out instanceof SharedTerminal t) {
+      t.endProgress();
+    } else {
+      out.println();
+    }
   }
 
   private void sample(long done, long now) {
@@ -158,7 +162,11 @@ public final class Progress {
       sb.append(' ');
     }
     lastWidth = text.length();
-    out.print(sb);
-    out.flush();
+    if (out instanceof SharedTerminal t) {
+      t.drawProgress(sb); // a line someone else writes meanwhile starts below this one, not glued to it
+    } else {
+      out.print(sb);
+      out.flush();
+    }
   }
 }
