@@ -21,12 +21,12 @@ import java.util.regex.Pattern;
  * The corpus of bad and awkward input records ({@code src/test/resources/corpus/input-kinds.jsonl})
  * and the feeds it is mixed into: the recorded demo sample under the demo configuration, with its
  * event time written in ISO 8601 (as recorded), epoch milliseconds or epoch seconds. The connectors
- * module keeps a copy of this reader for its Kafka run (CorpusOnKafkaTest); keep the two in step.
+ * module's Kafka run (CorpusOnKafkaTest) uses this class too, from stream-core's test jar.
  */
 public final class InputCorpus {
 
-  /** The corpus, from the stream-core folder (tests run there). */
-  public static final Path FILE = Path.of("src", "test", "resources", "corpus", "input-kinds.jsonl");
+  /** The corpus, from a module's folder (tests run there: stream-core's or connectors'). */
+  public static final Path FILE = Path.of("..", "stream-core", "src", "test", "resources", "corpus", "input-kinds.jsonl");
   /** The demo configuration and its recorded sample (invented data). */
   public static final Path DEMO_CONFIG = Path.of("..", "demo-data", "src", "main", "resources", "dev", "runnel", "demo", "quillmarsh.yaml");
   public static final Path SAMPLE = Path.of("..", "demo-data", "samples", "quillmarsh-small.jsonl");
