@@ -114,6 +114,8 @@ final class CrossFeature extends Feature {
 
   @Override RejectReason check(EventRecord r) { return null; }
 
+  @Override boolean readsRow() { return true; }
+
   @Override void write(EventRecord r, long t, double[] out, boolean training) {
     // a one-hot's active part holds 1.0 and 1.0 * v == v exactly, so each cell is the product of
     // its parts' entries, whatever the kinds

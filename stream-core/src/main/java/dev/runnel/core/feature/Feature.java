@@ -112,10 +112,13 @@ abstract class Feature {
   /** Training, phase 3: every scaler takes the record's value; a moved one re-bases its column. */
   void learnScalers(EventRecord r) { }
 
+  /** Whether {@link #write} reads other features' entries of the row (then it runs after every kind that does not). */
+  boolean readsRow() { return false; }
+
   /**
    * Phase 4 (training) or the only phase (scoring): writes this feature's columns of the row.
-   * Every other entry of {@code out} is left as it is; a cross reads its parts' entries, which
-   * come before it.
+   * Every other entry of {@code out} is left as it is; a kind that reads other features' entries
+   * (a cross, its parts') says {@link #readsRow}.
    */
   abstract void write(EventRecord r, long t, double[] out, boolean training);
 
