@@ -1,4 +1,5 @@
 #!/bin/sh
+# Results in docs/bench/feature-split-jmh.txt are of the first (one-loop) version of the split, 13:32-13:35 UTC.
 # JMH before/after of the one-file-per-feature-kind split (docs/performance.md): DecodeBenchmark
 # (decode + featurize, ns per line) and PipelineStepBenchmark (demo, records/s), each build's own
 # benchmarks.jar in its own JVM, alternated four times, the first build flipped every round
