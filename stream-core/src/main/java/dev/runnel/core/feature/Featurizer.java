@@ -2,18 +2,14 @@ package dev.runnel.core.feature;
 
 import dev.runnel.core.config.FeatureConfig;
 import dev.runnel.core.config.PipelineConfig;
-import dev.runnel.core.config.Scaling;
-import dev.runnel.core.config.Transform;
 import dev.runnel.core.layout.LayoutListener;
 import dev.runnel.core.record.EventRecord;
-import dev.runnel.core.record.FieldType;
 import dev.runnel.core.record.RecordSchema;
 import dev.runnel.core.record.RejectReason;
 import java.io.DataInput;
 import java.io.DataOutput;
 import java.io.IOException;
 import java.util.ArrayList;
-import java.util.Arrays;
 import java.util.List;
 
 /**
@@ -36,6 +32,11 @@ import java.util.List;
  * ({@code columnRebased}); (4) the row is encoded with the new state. Scoring ({@link #encode})
  * reads state only; a level that is not admitted encodes as "other".
  *
+ * <p>Structure: each feature kind is a package-private class of its own ({@code OneHotFeature},
+ * {@code CyclicFeature}, ...), built from its configuration record by {@code Feature.build}; the
+ * columns, the layout version and the listener live in {@code Columns}, which the kinds write to.
+ * The featurizer only runs the list of kinds, phase by phase, and frames the checkpoint.
+ *
  * <p>Allocation: once warm and with a stable layout, the training and scoring paths allocate
  * nothing (a level is looked up by the chars of the record's text, without a {@code String};
  * admission creates one entry and its key).
@@ -44,18 +45,6 @@ public final class Featurizer {
 
   /** Checkpoint format written by {@link #writeTo}; 2 no longer carries a stream time (the step's clock does). */
   public static final int FORMAT_VERSION = 2;
-
-  /** One column of the layout. */
-  static final class Column {
-    int index;
-    final String name;
-    final RunningScaler scaler;
-
-    Column(String name, RunningScaler scaler) {
-      this.name = name;
-      this.scaler = scaler;
-    }
-  }
 
   /**
    * Snapshot of one vocabulary (cold path).
@@ -82,29 +71,31 @@ public final class Featurizer {
                                double mean, double sd, double centre, double scale) { }
 
   private final PipelineConfig config;
-  private final RecordSchema schema;
   private final boolean constantTerm;
+  /** Every feature, in the order of the {@code features} list. */
   private final Feature[] features;
   /**
-   * The features by kind, each in the order of {@link #features}: the per-record loops call
-   * only the features that have work in that phase, and each call site sees one class (or two),
-   * so the calls are direct. Writes go kind by kind with the crosses last: a feature writes only
-   * its own columns, and a cross reads those of its parts, which come before it.
+   * The features grouped by kind for writing the row: kinds in order of first appearance in the
+   * list, except that kinds which read other features' entries (a cross) come after all others;
+   * within a kind, list order. The first {@value #WRITE_SITES} groups are each written from a call
+   * site of their own, so the JIT sees one kind per site and calls it directly (one loop over
+   * every kind would call through a table, measured about 3 % slower for the featurizer alone,
+   * docs/performance.md).
    */
-  private final OneHot[] oneHots;
-  private final Feature[] scaled;
-  private final Cyclic[] cyclics;
-  private final Numeric[] numerics;
-  private final Polynomial[] polynomials;
-  private final Cross[] crosses;
+  private final Feature[][] writeGroups;
+  private static final int WRITE_SITES = 5;
+  /**
+   * The features that take part in each training phase, in list order: the per-record loops call
+   * only those (so a call site mostly sees one or two kinds).
+   */
+  private final Feature[] admitting;
+  private final Feature[] scaling;
+  /** The features whose values have a domain (see {@link #plainlyValid}). */
+  private final Feature[] domainChecked;
   /** The slots every feature reads, which a record must hold (see {@link #plainlyValid}). */
   private final int[] requiredSlots;
-  private final int maxDimension;
   private final int targetSlot;
-  private Column[] columns;
-  private int dimension;
-  private long layoutVersion;
-  private LayoutListener listener = LayoutListener.NONE;
+  private final Columns columns;
   private long trainingRecords;
   private String detail = "";
 
@@ -122,98 +113,80 @@ public final class Featurizer {
       throw new IllegalArgumentException("schema " + schema + " differs from the configuration's " + config.input().schema());
     }
     this.config = config;
-    this.schema = schema;
     this.constantTerm = config.model().constantTerm();
     this.targetSlot = schema.slot(config.target());
     List<FeatureConfig> fcs = config.features();
     features = new Feature[fcs.size()];
     long max = constantTerm ? 1 : 0;
     for (int i = 0; i < features.length; i++) {
-      FeatureConfig fc = fcs.get(i);
-      Feature f;
-      if (fc instanceof FeatureConfig.OneHot o) f = new OneHot(o, schema);
-      else if (fc instanceof FeatureConfig.Cyclic c) f = new Cyclic(c, schema, config);
-      else if (fc instanceof FeatureConfig.Numeric n) f = new Numeric(n, schema);
-      else if (fc instanceof FeatureConfig.Polynomial p) f = new Polynomial(p, schema);
-      else if (fc instanceof FeatureConfig.Cross x) f = new Cross(x, find(features, i, x.of().get(0)), find(features, i, x.of().get(1)));
-      else throw new IllegalArgumentException("features[" + i + "]: kind " + fc.kind() + " is not available in this version");
-      features[i] = f;
-      max += f.maxColumns();
+      features[i] = Feature.build(fcs.get(i), i, features, config, schema);
+      max += features[i].maxColumns();
     }
-    oneHots = Arrays.stream(features).filter(f -> f instanceof OneHot).toArray(OneHot[]::new);
-    scaled = Arrays.stream(features).filter(f -> f instanceof Numeric || f instanceof Polynomial).toArray(Feature[]::new);
-    cyclics = Arrays.stream(features).filter(f -> f instanceof Cyclic).toArray(Cyclic[]::new);
-    numerics = Arrays.stream(features).filter(f -> f instanceof Numeric).toArray(Numeric[]::new);
-    polynomials = Arrays.stream(features).filter(f -> f instanceof Polynomial).toArray(Polynomial[]::new);
-    crosses = Arrays.stream(features).filter(f -> f instanceof Cross).toArray(Cross[]::new);
-    requiredSlots = Arrays.stream(features).mapToInt(Featurizer::requiredSlot).filter(s -> s >= 0).toArray();
+    List<Feature> a = new ArrayList<>();
+    List<Feature> s = new ArrayList<>();
+    List<Feature> d = new ArrayList<>();
+    List<Integer> slots = new ArrayList<>();
+    for (Feature f : features) {
+      if (f.admits()) a.add(f);
+      if (f.scales()) s.add(f);
+      if (f.checksDomain()) d.add(f);
+      if (f.requiredSlot() >= 0) slots.add(f.requiredSlot());
+    }
+    admitting = a.toArray(new Feature[0]);
+    scaling = s.toArray(new Feature[0]);
+    domainChecked = d.toArray(new Feature[0]);
+    requiredSlots = slots.stream().mapToInt(Integer::intValue).toArray();
+    writeGroups = groupByKind(features);
     if (max > Integer.MAX_VALUE - 8) throw new IllegalArgumentException("the layout could grow to " + max + " columns; lower max_levels");
-    maxDimension = (int) max;
-    columns = new Column[Math.min(maxDimension, 64)];
-    if (constantTerm) append(new Column("constant", null));
-    for (Feature f : features) f.createFixedColumns(this);
-    layoutVersion = 0;
+    columns = new Columns((int) max, constantTerm);
+    if (constantTerm) columns.append(new Column("constant", null, null));
+    for (Feature f : features) f.attach(columns);
   }
 
-  /** The slot a feature requires to be present, or -1 when it requires none. */
-  private static int requiredSlot(Feature f) {
-    if (f instanceof OneHot o) return o.slot;
-    if (f instanceof Cyclic c) return c.slot;
-    if (f instanceof Numeric n) return n.slot;
-    if (f instanceof Polynomial p) return p.slot;
-    return -1;
-  }
-
-  private static Feature find(Feature[] built, int before, String name) {
-    for (int k = 0; k < before; k++) {
-      if (built[k].name.equals(name)) {
-        if (!(built[k] instanceof OneHot) && !(built[k] instanceof Cyclic)) {
-          throw new IllegalArgumentException("a cross takes onehot or cyclic features; " + name + " is " + built[k].kind());
-        }
-        return built[k];
-      }
-    }
-    throw new IllegalArgumentException("a cross must name features declared before it; " + name + " is not one");
+  private static Feature[][] groupByKind(Feature[] features) {
+    java.util.LinkedHashMap<Class<?>, List<Feature>> plain = new java.util.LinkedHashMap<>();
+    java.util.LinkedHashMap<Class<?>, List<Feature>> readers = new java.util.LinkedHashMap<>();
+    for (Feature f : features) (f.readsRow() ? readers : plain).computeIfAbsent(f.getClass(), k -> new ArrayList<>()).add(f);
+    List<Feature[]> out = new ArrayList<>();
+    for (List<Feature> g : plain.values()) out.add(g.toArray(new Feature[0]));
+    for (List<Feature> g : readers.values()) out.add(g.toArray(new Feature[0]));
+    return out.toArray(new Feature[0][]);
   }
 
   // ---------------------------------------------------------------- layout
 
   /** Current number of columns. */
-  public int dimension() { return dimension; }
+  public int dimension() { return columns.dimension(); }
 
   /** Upper bound of {@link #dimension()} for any input: size output arrays with it. */
-  public int maxDimension() { return maxDimension; }
+  public int maxDimension() { return columns.maxDimension(); }
 
   /** Incremented on every column added or removed (not on re-basing). 0 after construction. */
-  public long layoutVersion() { return layoutVersion; }
+  public long layoutVersion() { return columns.layoutVersion(); }
 
   /** Name of column {@code column}, e.g. {@code hub=H07}. */
-  public String columnName(int column) { return col(column).name; }
+  public String columnName(int column) { return columns.get(column).name; }
 
   /** Names of all columns in order (a copy; cold path). */
-  public List<String> columnNames() {
-    List<String> out = new ArrayList<>(dimension);
-    for (int i = 0; i < dimension; i++) out.add(columns[i].name);
-    return out;
-  }
+  public List<String> columnNames() { return columns.names(); }
 
   /** Whether column 0 is the constant term. */
   public boolean hasConstantTerm() { return constantTerm; }
 
   /** The centre {@code m} of a scaled column; 0 for other columns. */
   public double centre(int column) {
-    Column c = col(column);
+    Column c = columns.get(column);
     return c.scaler == null ? 0.0 : c.scaler.centre();
   }
 
   /** The scale {@code s} of a scaled column; 1 for other columns. */
   public double scale(int column) {
-    Column c = col(column);
+    Column c = columns.get(column);
     return c.scaler == null ? 1.0 : c.scaler.scale();
   }
 
   /** Sets who hears about layout changes; {@code null} means {@link LayoutListener#NONE}. */
-  public void setListener(LayoutListener listener) { this.listener = listener == null ? LayoutListener.NONE : listener; }
+  public void setListener(LayoutListener listener) { columns.setListener(listener); }
 
   /** Training records seen by {@link #learnAndEncode}. */
   public long trainingRecords() { return trainingRecords; }
@@ -221,45 +194,6 @@ public final class Featurizer {
 
   /** The configuration this featurizer was built from. */
   public PipelineConfig config() { return config; }
-
-  private Column col(int column) {
-    if (column < 0 || column >= dimension) {
-      throw new IndexOutOfBoundsException("column " + column + " is outside 0.." + (dimension - 1));
-    }
-    return columns[column];
-  }
-
-  Column addColumn(String name, RunningScaler scaler) {
-    Column c = append(new Column(name, scaler));
-    layoutVersion++;
-    listener.columnAdded(c.index, name, scaler == null); // only scaled columns are ever re-based
-    return c;
-  }
-
-  private Column append(Column c) {
-    if (dimension == columns.length) columns = Arrays.copyOf(columns, Math.min(maxDimension, Math.max(8, dimension * 2)));
-    c.index = dimension;
-    columns[dimension++] = c;
-    return c;
-  }
-
-  void removeColumn(Column c) {
-    int at = c.index;
-    for (int i = at + 1; i < dimension; i++) {
-      Column m = columns[i];
-      m.index = i - 1;
-      columns[i - 1] = m;
-    }
-    columns[--dimension] = null;
-    c.index = -1;
-    layoutVersion++;
-    listener.columnRemoved(at);
-  }
-
-  void rebase(Column c) {
-    RunningScaler s = c.scaler;
-    listener.columnRebased(c.index, s.lastScale(), constantTerm ? s.lastShift() : 0.0);
-  }
 
   // ---------------------------------------------------------------- records
 
@@ -281,8 +215,11 @@ public final class Featurizer {
     detail = "";
     if (!plainlyValid(r)) {
       for (Feature f : features) {
-        RejectReason why = f.check(r, this);
-        if (why != null) return why;
+        RejectReason why = f.check(r);
+        if (why != null) {
+          detail = f.detail;
+          return why;
+        }
       }
     }
     if (requireTarget) {
@@ -300,8 +237,8 @@ public final class Featurizer {
 
   /**
    * Whether every feature's check passes, tested without calling each feature: every field a
-   * feature reads is present, each numeric value is in its transform's domain, each polynomial's
-   * highest power is finite. When false, the features' own checks in order find the first problem
+   * feature reads is present, and each value with a domain (a transform's, a polynomial's finite
+   * highest power) is in it. When false, the features' own checks in order find the first problem
    * and its detail.
    */
   private boolean plainlyValid(EventRecord r) {
@@ -309,13 +246,9 @@ public final class Featurizer {
     for (int i = 0; i < slots.length; i++) {
       if (!r.present(slots[i])) return false;
     }
-    Numeric[] ns = numerics;
-    for (int i = 0; i < ns.length; i++) {
-      if (!ns[i].scaler.accepts(r.number(ns[i].slot))) return false;
-    }
-    Polynomial[] ps = polynomials;
-    for (int i = 0; i < ps.length; i++) {
-      if (ps[i].check(r, this) != null) return false;
+    Feature[] ds = domainChecked;
+    for (int i = 0; i < ds.length; i++) {
+      if (!ds[i].inDomain(r)) return false;
     }
     return true;
   }
@@ -325,8 +258,6 @@ public final class Featurizer {
 
   /** The record's target value; meaningful when {@link #hasTarget}. */
   public double target(EventRecord r) { return r.number(targetSlot); }
-
-  void setDetail(String d) { detail = d; }
 
   /**
    * Training path: learns from the record, reporting layout changes, then encodes it.
@@ -341,12 +272,12 @@ public final class Featurizer {
    *     length at least {@link #maxDimension()} is always enough. Modified.
    */
   public void learnAndEncode(EventRecord r, long eventTimeMillis, long clockMillis, double[] out) {
-    trainingRecords++;
-    OneHot[] hs = oneHots;
-    for (int i = 0; i < hs.length; i++) hs[i].touchAndExpire(r, eventTimeMillis, clockMillis, this);
-    for (int i = 0; i < hs.length; i++) hs[i].admit(r, eventTimeMillis, this);
-    Feature[] fs = scaled;
-    for (int i = 0; i < fs.length; i++) fs[i].learnScalers(r, this);
+    long n = ++trainingRecords;
+    Feature[] as = admitting;
+    for (int i = 0; i < as.length; i++) as[i].touchAndExpire(r, eventTimeMillis, clockMillis, n);
+    for (int i = 0; i < as.length; i++) as[i].admit(r, eventTimeMillis, n);
+    Feature[] ss = scaling;
+    for (int i = 0; i < ss.length; i++) ss[i].learnScalers(r);
     write(r, eventTimeMillis, out, true);
   }
 
@@ -362,19 +293,36 @@ public final class Featurizer {
   }
 
   private void write(EventRecord r, long t, double[] out, boolean training) {
-    int n = dimension;
+    int n = columns.dimension();
     for (int i = 0; i < n; i++) out[i] = 0.0;
     if (constantTerm) out[0] = 1.0;
-    OneHot[] hs = oneHots;
-    for (int i = 0; i < hs.length; i++) hs[i].write(r, t, out, training);
-    Cyclic[] cs = cyclics;
-    for (int i = 0; i < cs.length; i++) cs[i].write(r, t, out, training);
-    Numeric[] ns = numerics;
-    for (int i = 0; i < ns.length; i++) ns[i].write(r, t, out, training);
-    Polynomial[] ps = polynomials;
-    for (int i = 0; i < ps.length; i++) ps[i].write(r, t, out, training);
-    Cross[] xs = crosses;
-    for (int i = 0; i < xs.length; i++) xs[i].write(r, t, out, training);
+    Feature[][] g = writeGroups;
+    int kinds = g.length;
+    // WRITE_SITES copies of one loop: a call site per kind (see writeGroups)
+    if (kinds > 0) {
+      Feature[] fs = g[0];
+      for (int i = 0; i < fs.length; i++) fs[i].write(r, t, out, training);
+    }
+    if (kinds > 1) {
+      Feature[] fs = g[1];
+      for (int i = 0; i < fs.length; i++) fs[i].write(r, t, out, training);
+    }
+    if (kinds > 2) {
+      Feature[] fs = g[2];
+      for (int i = 0; i < fs.length; i++) fs[i].write(r, t, out, training);
+    }
+    if (kinds > 3) {
+      Feature[] fs = g[3];
+      for (int i = 0; i < fs.length; i++) fs[i].write(r, t, out, training);
+    }
+    if (kinds > 4) {
+      Feature[] fs = g[4];
+      for (int i = 0; i < fs.length; i++) fs[i].write(r, t, out, training);
+    }
+    for (int k = WRITE_SITES; k < kinds; k++) {
+      Feature[] fs = g[k];
+      for (int i = 0; i < fs.length; i++) fs[i].write(r, t, out, training);
+    }
   }
 
   // ---------------------------------------------------------------- snapshots
@@ -383,14 +331,8 @@ public final class Featurizer {
   public List<VocabularySnapshot> vocabularies() {
     List<VocabularySnapshot> out = new ArrayList<>();
     for (Feature f : features) {
-      if (f instanceof OneHot o) {
-        List<LevelSnapshot> ls = new ArrayList<>();
-        for (RollingVocabulary.Level l : o.vocabulary.levelsInOrder()) {
-          ls.add(new LevelSnapshot(l.key, l.column.index, l.count, l.firstSeenMillis, l.lastSeenMillis, l.lastSeenRecord));
-        }
-        out.add(new VocabularySnapshot(o.name, o.cfg.field(), o.other.index, o.vocabulary.otherCount(), ls,
-            o.vocabulary.candidateCount()));
-      }
+      VocabularySnapshot v = f.vocabularySnapshot();
+      if (v != null) out.add(v);
     }
     return out;
   }
@@ -398,10 +340,11 @@ public final class Featurizer {
   /** The state of every scaled column, in column order (a copy; cold path). */
   public List<ScalerSnapshot> scalers() {
     List<ScalerSnapshot> out = new ArrayList<>();
-    for (int i = 0; i < dimension; i++) {
-      RunningScaler s = columns[i].scaler;
+    for (int i = 0; i < columns.dimension(); i++) {
+      Column c = columns.get(i);
+      RunningScaler s = c.scaler;
       if (s != null) {
-        out.add(new ScalerSnapshot(columns[i].name, i, s.scaling().word(), s.transform().word(), s.count(), s.weightSum(),
+        out.add(new ScalerSnapshot(c.name, i, s.scaling().word(), s.transform().word(), s.count(), s.weightSum(),
             s.mean(), s.sd(), s.centre(), s.scale()));
       }
     }
@@ -410,7 +353,7 @@ public final class Featurizer {
 
   /** The vocabulary of one-hot feature {@code featureName}, or null (for tests and tools). */
   public RollingVocabulary vocabulary(String featureName) {
-    for (Feature f : features) if (f instanceof OneHot o && o.name.equals(featureName)) return o.vocabulary;
+    for (Feature f : features) if (f.name.equals(featureName) && f.vocabulary() != null) return f.vocabulary();
     return null;
   }
 
@@ -420,6 +363,12 @@ public final class Featurizer {
    * Writes the whole state: counters, vocabularies, scalers and the column order. Restoring it
    * with {@link #readFrom} into a fresh featurizer of the same configuration continues with the
    * same rows and layout events, bit for bit.
+   *
+   * <p>Format 2: the format, the features' names and kinds, the constant term, the training
+   * records and the layout version; each feature's state; then the dynamic columns (those after
+   * the fixed ones) in layout order, each as its owner's position and the owner's id of it (a
+   * level's key; a cell's two parts, each as owner position, part kind and id); then the dimension.
+   *
    * @param out receives the state. Modified.
    * @throws IOException from {@code out}
    */
@@ -432,73 +381,31 @@ public final class Featurizer {
     }
     out.writeBoolean(constantTerm);
     out.writeLong(trainingRecords);
-    out.writeLong(layoutVersion);
+    out.writeLong(columns.layoutVersion());
     for (Feature f : features) f.writeState(out);
     int first = firstDynamicColumn();
-    java.util.IdentityHashMap<Column, int[]> owners = new java.util.IdentityHashMap<>();
-    java.util.IdentityHashMap<Column, String> levelKeys = new java.util.IdentityHashMap<>();
-    java.util.IdentityHashMap<Column, Column[]> cellParts = new java.util.IdentityHashMap<>();
-    for (int k = 0; k < features.length; k++) {
-      if (features[k] instanceof OneHot o) {
-        owners.put(o.other, new int[] {k, PART_OTHER});
-        for (RollingVocabulary.Level l : o.vocabulary.levelsInOrder()) {
-          owners.put(l.column, new int[] {k, PART_LEVEL});
-          levelKeys.put(l.column, l.key);
-        }
-      } else if (features[k] instanceof Cyclic c) {
-        for (int j = 0; j < c.cols.length; j++) owners.put(c.cols[j], new int[] {k, PART_CYCLIC, j});
-      } else if (features[k] instanceof Cross x) {
-        x.collectCells(k, owners, cellParts);
-      }
-    }
+    int dimension = columns.dimension();
     out.writeInt(dimension - first);
     for (int i = first; i < dimension; i++) {
-      Column c = columns[i];
-      int[] owner = owners.get(c);
-      if (owner == null || owner[1] == PART_OTHER || owner[1] == PART_CYCLIC) {
+      Column c = columns.get(i);
+      if (c.owner == null || !c.owner.isDynamic(c)) {
         throw new IllegalStateException("column " + i + " (" + c.name + ") is not a dynamic column");
       }
-      out.writeInt(owner[0]);
-      if (owner[1] == PART_LEVEL) {
-        RollingVocabulary.writeString(out, levelKeys.get(c));
-      } else {
-        Column[] parts = cellParts.get(c);
-        writePart(out, owners.get(parts[0]), levelKeys.get(parts[0]));
-        writePart(out, owners.get(parts[1]), levelKeys.get(parts[1]));
-      }
+      out.writeInt(c.owner.position);
+      c.owner.writeDynamicColumn(c, out);
     }
     out.writeInt(dimension);
   }
 
-  private static final int PART_OTHER = 0;
-  private static final int PART_LEVEL = 1;
-  private static final int PART_CYCLIC = 2;
-  private static final int PART_CELL = 3;
-
-  private static void writePart(DataOutput out, int[] owner, String levelKey) throws IOException {
-    out.writeInt(owner[0]);
-    out.writeByte(owner[1]);
-    if (owner[1] == PART_LEVEL) RollingVocabulary.writeString(out, levelKey);
-    if (owner[1] == PART_CYCLIC) out.writeInt(owner[2]);
-  }
-
+  /** Reads a part's id as {@link Feature#writePartId} wrote it. */
   private Column readPart(DataInput in) throws IOException {
     int k = in.readInt();
     int kind = in.readByte();
     if (k < 0 || k >= features.length) throw new IOException("corrupt checkpoint: part owner " + k);
     Feature f = features[k];
-    if (kind == PART_OTHER && f instanceof OneHot o) return o.other;
-    if (kind == PART_LEVEL && f instanceof OneHot o) {
-      RollingVocabulary.Level l = o.vocabulary.find(RollingVocabulary.readString(in));
-      if (l == null || l.column == null) throw new IOException("corrupt checkpoint: unknown level of " + o.name);
-      return l.column;
-    }
-    if (kind == PART_CYCLIC && f instanceof Cyclic c) {
-      int j = in.readInt();
-      if (j < 0 || j >= c.cols.length) throw new IOException("corrupt checkpoint: cyclic part " + j);
-      return c.cols[j];
-    }
-    throw new IOException("corrupt checkpoint: part kind " + kind + " of " + f.name);
+    Column c = f.crossable() ? f.readPart(kind, in) : null;
+    if (c == null) throw new IOException("corrupt checkpoint: part kind " + kind + " of " + f.name);
+    return c;
   }
 
   private int firstDynamicColumn() {
@@ -519,7 +426,7 @@ public final class Featurizer {
    *     step's clock; {@code Long.MIN_VALUE} for the current format, which carries none
    */
   public long readFrom(DataInput in) throws IOException {
-    if (trainingRecords != 0 || dimension != firstDynamicColumn()) {
+    if (trainingRecords != 0 || columns.dimension() != firstDynamicColumn()) {
       throw new IllegalStateException("readFrom needs a fresh featurizer; this one has seen " + trainingRecords + " records");
     }
     int version = in.readInt();
@@ -538,479 +445,19 @@ public final class Featurizer {
     if (in.readBoolean() != constantTerm) throw new IllegalArgumentException("checkpoint differs in model.constant_term");
     trainingRecords = in.readLong();
     long legacyTime = version == 1 ? in.readLong() : Long.MIN_VALUE;
-    long version2 = in.readLong();
+    long layoutVersion = in.readLong();
     for (Feature f : features) f.readState(in);
     int dynamic = in.readInt();
-    if (dynamic < 0 || dynamic > maxDimension) throw new IOException("corrupt checkpoint: " + dynamic + " level columns");
+    if (dynamic < 0 || dynamic > columns.maxDimension()) throw new IOException("corrupt checkpoint: " + dynamic + " level columns");
     for (int i = 0; i < dynamic; i++) {
       int owner = in.readInt();
       if (owner < 0 || owner >= features.length) throw new IOException("corrupt checkpoint: column owner " + owner);
-      if (features[owner] instanceof OneHot o) {
-        String key = RollingVocabulary.readString(in);
-        RollingVocabulary.Level l = o.vocabulary.find(key);
-        if (l == null || l.column != null) throw new IOException("corrupt checkpoint: level " + key + " of " + o.name);
-        l.column = append(new Column(o.levelColumnName(key), null));
-        o.parts.add(l.column);
-      } else if (features[owner] instanceof Cross x) {
-        Column a = readPart(in);
-        Column b = readPart(in);
-        x.restoreCell(a, b, this);
-      } else {
-        throw new IOException("corrupt checkpoint: column owner " + owner + " has no dynamic columns");
-      }
+      features[owner].restoreDynamicColumn(in, this::readPart);
     }
     int dim = in.readInt();
-    if (dim != dimension) throw new IOException("corrupt checkpoint: dimension " + dim + ", rebuilt " + dimension);
-    for (Feature f : features) {
-      if (f instanceof OneHot o) {
-        for (RollingVocabulary.Level l : o.vocabulary.levelsInOrder()) {
-          if (l.column == null) throw new IOException("corrupt checkpoint: level " + l.key + " of " + o.name + " has no column");
-        }
-      }
-    }
-    layoutVersion = version2;
+    if (dim != columns.dimension()) throw new IOException("corrupt checkpoint: dimension " + dim + ", rebuilt " + columns.dimension());
+    for (Feature f : features) f.checkRestored();
+    columns.restoreLayoutVersion(layoutVersion);
     return legacyTime;
-  }
-
-  // ---------------------------------------------------------------- features
-
-  /** One feature function. */
-  private abstract static class Feature {
-    final String name;
-
-    Feature(String name) { this.name = name; }
-
-    abstract String kind();
-
-    abstract int maxColumns();
-
-    abstract int fixedColumns();
-
-    abstract void createFixedColumns(Featurizer f);
-
-    abstract RejectReason check(EventRecord r, Featurizer f);
-
-    void touchAndExpire(EventRecord r, long t, long clockMillis, Featurizer f) { }
-
-    void admit(EventRecord r, long t, Featurizer f) { }
-
-    void learnScalers(EventRecord r, Featurizer f) { }
-
-    abstract void write(EventRecord r, long t, double[] out, boolean training);
-
-    void writeState(DataOutput out) throws IOException { }
-
-    void readState(DataInput in) throws IOException { }
-  }
-
-  private static RejectReason missing(Featurizer f, RecordSchema s, int slot) {
-    f.setDetail("field " + s.name(slot) + ": missing");
-    return RejectReason.MISSING_FIELD;
-  }
-
-  private static final class OneHot extends Feature {
-    final FeatureConfig.OneHot cfg;
-    final int slot;
-    final boolean flag;
-    final RollingVocabulary vocabulary;
-    Column other;
-    /** The "(other)" column, then the level columns in layout order: the parts a cross multiplies. */
-    final ArrayList<Column> parts = new ArrayList<>();
-    final ArrayList<Cross> dependents = new ArrayList<>();
-    /** The column set to 1 by the last write. */
-    Column written;
-    private RollingVocabulary.Level current;
-
-    OneHot(FeatureConfig.OneHot cfg, RecordSchema s) {
-      super(cfg.name());
-      this.cfg = cfg;
-      this.slot = s.slot(cfg.field());
-      this.flag = s.type(slot) == FieldType.FLAG;
-      this.vocabulary = new RollingVocabulary(cfg.maxLevels(), cfg.minCount(), cfg.expireAfterMillis(), cfg.expireAfterRecords());
-    }
-
-    @Override String kind() { return cfg.kind(); }
-    @Override int maxColumns() { return cfg.maxLevels() + 1; }
-    @Override int fixedColumns() { return 1; }
-
-    @Override void createFixedColumns(Featurizer f) {
-      other = f.append(new Column(name + "=(other)", null));
-      parts.add(other);
-    }
-
-    String levelColumnName(String key) { return name + "=" + key; }
-
-    private static final char[] TRUE = {'t', 'r', 'u', 'e'};
-    private static final char[] FALSE = {'f', 'a', 'l', 's', 'e'};
-
-    /** The chars of the record's level: the text buffer, or "true"/"false" for a flag. */
-    private char[] keyChars(EventRecord r) {
-      if (flag) return r.flag(slot) ? TRUE : FALSE;
-      return r.textChars(slot);
-    }
-
-    private int keyLength(EventRecord r) {
-      if (flag) return r.flag(slot) ? 4 : 5;
-      return r.textLength(slot);
-    }
-
-    @Override RejectReason check(EventRecord r, Featurizer f) {
-      return r.present(slot) ? null : missing(f, f.schema, slot);
-    }
-
-    @Override void touchAndExpire(EventRecord r, long t, long clockMillis, Featurizer f) {
-      current = vocabulary.touch(keyChars(r), 0, keyLength(r), t, f.trainingRecords);
-      RollingVocabulary.Level gone;
-      while ((gone = vocabulary.expireOne(clockMillis, f.trainingRecords, current)) != null) {
-        Column c = gone.column;
-        gone.column = null;
-        f.removeColumn(c);
-        parts.remove(c);
-        for (int i = 0; i < dependents.size(); i++) dependents.get(i).partRemoved(this, c, f);
-      }
-    }
-
-    @Override void admit(EventRecord r, long t, Featurizer f) {
-      if (current != null) return;
-      RollingVocabulary.Level l = vocabulary.sight(keyChars(r), 0, keyLength(r), t, f.trainingRecords);
-      if (l != null) {
-        l.column = f.addColumn(levelColumnName(l.key), null);
-        current = l;
-        parts.add(l.column);
-        for (int i = 0; i < dependents.size(); i++) dependents.get(i).partAdded(this, l.column, f);
-      }
-    }
-
-    @Override void write(EventRecord r, long t, double[] out, boolean training) {
-      RollingVocabulary.Level l = training ? current : vocabulary.find(keyChars(r), 0, keyLength(r));
-      written = l != null ? l.column : other;
-      out[written.index] = 1.0;
-      if (training) current = null;
-    }
-
-    @Override void writeState(DataOutput out) throws IOException { vocabulary.writeTo(out); }
-
-    @Override void readState(DataInput in) throws IOException { vocabulary.readFrom(in); }
-  }
-
-  private static final class Cyclic extends Feature {
-    final FeatureConfig.Cyclic cfg;
-    final int slot;
-    final LocalCalendar calendar;
-    final Column[] cols;
-
-    Cyclic(FeatureConfig.Cyclic cfg, RecordSchema s, PipelineConfig pc) {
-      super(cfg.name());
-      this.cfg = cfg;
-      this.slot = cfg.field() == null ? -1 : s.slot(cfg.field());
-      this.calendar = new LocalCalendar(pc.input().timeZone());
-      this.cols = new Column[2 * cfg.harmonics()];
-      this.memo = new double[MEMO * cols.length];
-    }
-
-    @Override String kind() { return cfg.kind(); }
-    @Override int maxColumns() { return cols.length; }
-    @Override int fixedColumns() { return cols.length; }
-
-    @Override void createFixedColumns(Featurizer f) {
-      for (int k = 1; k <= cfg.harmonics(); k++) {
-        cols[2 * k - 2] = f.append(new Column(name + ".sin" + k, null));
-        cols[2 * k - 1] = f.append(new Column(name + ".cos" + k, null));
-      }
-    }
-
-    @Override RejectReason check(EventRecord r, Featurizer f) {
-      return slot < 0 || r.present(slot) ? null : missing(f, f.schema, slot);
-    }
-
-    /** Position in the cycle as a fraction of the period, in [0, 1). */
-    double phase(long t) {
-      switch (cfg.cycle()) {
-        case HOUR_OF_DAY: return calendar.dayFraction(t);
-        case DAY_OF_WEEK: return (calendar.isoDayOfWeek(t) - 1) / 7.0;
-        case DAY_OF_YEAR: default: return (calendar.dayOfYear(t) - 1) / (double) calendar.daysInYear(t);
-      }
-    }
-
-    /**
-     * Remembered encodings: slot {@code e} holds the angle {@code memoAngle[e]} (its bits; valid
-     * when {@code memoFilled[e]}) and its sines and cosines {@code memo[e * cols.length ..]}, in
-     * column order. A stream has few distinct positions in a cycle (24 hours of hourly data, 7
-     * days), so most records find theirs here instead of computing {@code cols.length} sines and
-     * cosines; the values are those the same computation gave, so the row is the same bit for bit.
-     * Direct-mapped by the angle's bits, {@value #MEMO} slots.
-     */
-    private static final int MEMO = 64;
-    private final long[] memoAngle = new long[MEMO];
-    private final boolean[] memoFilled = new boolean[MEMO];
-    private final double[] memo;
-
-    @Override void write(EventRecord r, long t, double[] out, boolean training) {
-      long time = slot < 0 ? t : r.timeMillis(slot);
-      double base = 2.0 * Math.PI * phase(time);
-      long bits = Double.doubleToRawLongBits(base);
-      int e = (int) ((bits * 0x9E3779B97F4A7C15L) >>> 58);
-      int w = cols.length;
-      double[] m = memo;
-      if (!memoFilled[e] || memoAngle[e] != bits) {
-        for (int k = 1; k <= w / 2; k++) {
-          double a = base * k;
-          m[e * w + 2 * k - 2] = StrictMath.sin(a);
-          m[e * w + 2 * k - 1] = StrictMath.cos(a);
-        }
-        memoAngle[e] = bits;
-        memoFilled[e] = true;
-      }
-      Column[] c = cols;
-      for (int j = 0; j < w; j++) out[c[j].index] = m[e * w + j];
-    }
-  }
-
-  private static final class Numeric extends Feature {
-    final FeatureConfig.Numeric cfg;
-    final int slot;
-    final RunningScaler scaler;
-    Column column;
-    private double value;
-
-    Numeric(FeatureConfig.Numeric cfg, RecordSchema s) {
-      super(cfg.name());
-      this.cfg = cfg;
-      this.slot = s.slot(cfg.field());
-      this.scaler = new RunningScaler(cfg.scaling(), cfg.transform(), cfg.exponent(), cfg.weightingHalfLifeRecords(), cfg.clip());
-    }
-
-    @Override String kind() { return cfg.kind(); }
-    @Override int maxColumns() { return 1; }
-    @Override int fixedColumns() { return 1; }
-
-    @Override void createFixedColumns(Featurizer f) {
-      column = f.append(new Column(name, cfg.scaling() == Scaling.NONE ? null : scaler));
-    }
-
-    @Override RejectReason check(EventRecord r, Featurizer f) {
-      if (!r.present(slot)) return missing(f, f.schema, slot);
-      double v = r.number(slot);
-      if (!scaler.accepts(v)) {
-        f.setDetail("field " + cfg.field() + ": " + v + " is outside the transform's domain (" + scaler.domain() + ")");
-        return RejectReason.OUT_OF_RANGE;
-      }
-      return null;
-    }
-
-    @Override void learnScalers(EventRecord r, Featurizer f) {
-      value = scaler.transformed(r.number(slot));
-      if (scaler.observe(value) && column.scaler != null) f.rebase(column);
-    }
-
-    @Override void write(EventRecord r, long t, double[] out, boolean training) {
-      double v = training ? value : scaler.transformed(r.number(slot));
-      out[column.index] = scaler.encode(v);
-    }
-
-    @Override void writeState(DataOutput out) throws IOException { scaler.writeTo(out); }
-
-    @Override void readState(DataInput in) throws IOException { scaler.readFrom(in); }
-  }
-
-  private static final class Polynomial extends Feature {
-    final FeatureConfig.Polynomial cfg;
-    final int slot;
-    final RunningScaler[] scalers;
-    final Column[] cols;
-    private final double[] powers;
-
-    Polynomial(FeatureConfig.Polynomial cfg, RecordSchema s) {
-      super(cfg.name());
-      this.cfg = cfg;
-      this.slot = s.slot(cfg.field());
-      int d = cfg.degree();
-      scalers = new RunningScaler[d];
-      for (int k = 0; k < d; k++) {
-        scalers[k] = new RunningScaler(cfg.scaling(), Transform.NONE, 1.0, cfg.weightingHalfLifeRecords(), cfg.clip());
-      }
-      cols = new Column[d];
-      powers = new double[d];
-    }
-
-    @Override String kind() { return cfg.kind(); }
-    @Override int maxColumns() { return cols.length; }
-    @Override int fixedColumns() { return cols.length; }
-
-    @Override void createFixedColumns(Featurizer f) {
-      for (int k = 0; k < cols.length; k++) {
-        cols[k] = f.append(new Column(name + "^" + (k + 1), cfg.scaling() == Scaling.NONE ? null : scalers[k]));
-      }
-    }
-
-    private static boolean fill(double x, double[] p) {
-      double v = x;
-      for (int k = 0; k < p.length; k++) {
-        p[k] = v;
-        v *= x;
-      }
-      return Double.isFinite(p[p.length - 1]);
-    }
-
-    @Override RejectReason check(EventRecord r, Featurizer f) {
-      if (!r.present(slot)) return missing(f, f.schema, slot);
-      double x = r.number(slot);
-      double p = x;
-      for (int k = 1; k < cols.length; k++) p *= x;
-      if (!Double.isFinite(p)) {
-        f.setDetail("field " + cfg.field() + ": " + x + "^" + cols.length + " is not finite");
-        return RejectReason.OUT_OF_RANGE;
-      }
-      return null;
-    }
-
-    @Override void learnScalers(EventRecord r, Featurizer f) {
-      fill(r.number(slot), powers);
-      for (int k = 0; k < cols.length; k++) {
-        if (scalers[k].observe(powers[k]) && cols[k].scaler != null) f.rebase(cols[k]);
-      }
-    }
-
-    @Override void write(EventRecord r, long t, double[] out, boolean training) {
-      if (!training) fill(r.number(slot), powers);
-      for (int k = 0; k < cols.length; k++) out[cols[k].index] = scalers[k].encode(powers[k]);
-    }
-
-    @Override void writeState(DataOutput out) throws IOException {
-      for (RunningScaler s : scalers) s.writeTo(out);
-    }
-
-    @Override void readState(DataInput in) throws IOException {
-      for (RunningScaler s : scalers) s.readFrom(in);
-    }
-  }
-
-  /**
-   * Products of the columns of two earlier one-hot or cyclic features. A cell column
-   * {@code <a column>*<b column>} exists for every pair of parts; a one-hot's parts are its
-   * "(other)" column and its level columns, so cells come and go with the levels (right after the
-   * level's own column event). Those columns are unscaled, so no re-basing is needed.
-   */
-  private static final class Cross extends Feature {
-    final FeatureConfig.Cross cfg;
-    final Feature a;
-    final Feature b;
-    private final java.util.IdentityHashMap<Column, java.util.IdentityHashMap<Column, Column>> cells = new java.util.IdentityHashMap<>();
-
-    Cross(FeatureConfig.Cross cfg, Feature a, Feature b) {
-      super(cfg.name());
-      this.cfg = cfg;
-      this.a = a;
-      this.b = b;
-      if (a instanceof OneHot o) o.dependents.add(this);
-      if (b instanceof OneHot o) o.dependents.add(this);
-    }
-
-    @Override String kind() { return cfg.kind(); }
-
-    private static int maxParts(Feature f) {
-      return f instanceof OneHot o ? o.cfg.maxLevels() + 1 : ((Cyclic) f).cols.length;
-    }
-
-    private static List<Column> partsOf(Feature f) {
-      return f instanceof OneHot o ? o.parts : Arrays.asList(((Cyclic) f).cols);
-    }
-
-    @Override int maxColumns() {
-      long n = (long) maxParts(a) * maxParts(b);
-      return n > Integer.MAX_VALUE / 2 ? Integer.MAX_VALUE / 2 : (int) n;
-    }
-
-    @Override int fixedColumns() {
-      return (a instanceof OneHot ? 1 : ((Cyclic) a).cols.length) * (b instanceof OneHot ? 1 : ((Cyclic) b).cols.length);
-    }
-
-    @Override void createFixedColumns(Featurizer f) {
-      List<Column> pa = partsOf(a);
-      List<Column> pb = partsOf(b);
-      for (int i = 0; i < pa.size(); i++) {
-        for (int j = 0; j < pb.size(); j++) put(pa.get(i), pb.get(j), f.append(new Column(pa.get(i).name + "*" + pb.get(j).name, null)));
-      }
-    }
-
-    private void put(Column pa, Column pb, Column cell) {
-      cells.computeIfAbsent(pa, k -> new java.util.IdentityHashMap<>()).put(pb, cell);
-    }
-
-    void restoreCell(Column pa, Column pb, Featurizer f) throws IOException {
-      java.util.IdentityHashMap<Column, Column> row = cells.get(pa);
-      if (row != null && row.containsKey(pb)) throw new IOException("corrupt checkpoint: cell " + pa.name + "*" + pb.name + " twice");
-      put(pa, pb, f.append(new Column(pa.name + "*" + pb.name, null)));
-    }
-
-    void partAdded(Feature side, Column part, Featurizer f) {
-      if (side == a) {
-        List<Column> pb = partsOf(b);
-        for (int j = 0; j < pb.size(); j++) {
-          Column q = pb.get(j);
-          put(part, q, f.addColumn(part.name + "*" + q.name, null));
-        }
-      } else {
-        List<Column> pa = partsOf(a);
-        for (int i = 0; i < pa.size(); i++) {
-          Column q = pa.get(i);
-          put(q, part, f.addColumn(q.name + "*" + part.name, null));
-        }
-      }
-    }
-
-    void partRemoved(Feature side, Column part, Featurizer f) {
-      if (side == a) {
-        java.util.IdentityHashMap<Column, Column> row = cells.remove(part);
-        if (row == null) return;
-        List<Column> pb = partsOf(b);
-        for (int j = 0; j < pb.size(); j++) {
-          Column cell = row.get(pb.get(j));
-          if (cell != null) f.removeColumn(cell);
-        }
-      } else {
-        List<Column> pa = partsOf(a);
-        for (int i = 0; i < pa.size(); i++) {
-          java.util.IdentityHashMap<Column, Column> row = cells.get(pa.get(i));
-          Column cell = row == null ? null : row.remove(part);
-          if (cell != null) f.removeColumn(cell);
-        }
-      }
-    }
-
-    void collectCells(int k, java.util.IdentityHashMap<Column, int[]> owners, java.util.IdentityHashMap<Column, Column[]> cellParts) {
-      for (java.util.Map.Entry<Column, java.util.IdentityHashMap<Column, Column>> e : cells.entrySet()) {
-        for (java.util.Map.Entry<Column, Column> g : e.getValue().entrySet()) {
-          owners.put(g.getValue(), new int[] {k, PART_CELL});
-          cellParts.put(g.getValue(), new Column[] {e.getKey(), g.getKey()});
-        }
-      }
-    }
-
-    @Override RejectReason check(EventRecord r, Featurizer f) { return null; }
-
-    @Override void write(EventRecord r, long t, double[] out, boolean training) {
-      if (a instanceof OneHot oa) {
-        java.util.IdentityHashMap<Column, Column> row = cells.get(oa.written);
-        if (b instanceof OneHot ob) {
-          out[row.get(ob.written).index] = 1.0;
-        } else {
-          Column[] cb = ((Cyclic) b).cols;
-          for (int j = 0; j < cb.length; j++) out[row.get(cb[j]).index] = out[cb[j].index];
-        }
-      } else {
-        Column[] ca = ((Cyclic) a).cols;
-        for (int i = 0; i < ca.length; i++) {
-          java.util.IdentityHashMap<Column, Column> row = cells.get(ca[i]);
-          double va = out[ca[i].index];
-          if (b instanceof OneHot ob) {
-            out[row.get(ob.written).index] = va;
-          } else {
-            Column[] cb = ((Cyclic) b).cols;
-            for (int j = 0; j < cb.length; j++) out[row.get(cb[j]).index] = va * out[cb[j].index];
-          }
-        }
-      }
-    }
   }
 }

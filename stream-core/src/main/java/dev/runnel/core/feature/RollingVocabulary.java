@@ -9,7 +9,8 @@ import java.util.List;
 
 /**
  * The admitted levels of one categorical field, with admission, expiry and a cap. One writer thread.
- * It knows nothing of columns: the featurizer turns its answers into layout changes.
+ * It makes no columns: the one-hot feature that owns it turns its answers into layout changes
+ * and keeps each level's column in the level.
  *
  * <p>Admission: a level not admitted yet is admitted at its {@code minCount}-th sighting in a
  * training record, if fewer than {@code maxLevels} levels are admitted; otherwise the record
@@ -33,8 +34,8 @@ import java.util.List;
  * level or a candidate, whose key {@code String} is then made once.
  *
  * <p>Outside this package the vocabulary is read-only: its mutators ({@code touch},
- * {@code expireOne}, {@code sight}) are driven by the {@link Featurizer}, which turns their
- * answers into layout events.
+ * {@code expireOne}, {@code sight}) are driven by the one-hot feature that owns it, which turns
+ * their answers into layout events.
  */
 public final class RollingVocabulary {
 
@@ -47,8 +48,8 @@ public final class RollingVocabulary {
     long lastSeenRecord;
     Level prev;
     Level next;
-    /** The featurizer's column for this level; managed by the featurizer. */
-    Featurizer.Column column;
+    /** The column of this level; managed by the one-hot feature that owns the vocabulary. */
+    Column column;
 
     Level(String key) { this.key = key; }
 

@@ -1,0 +1,200 @@
+package dev.runnel.core.feature;
+
+import static org.junit.jupiter.api.Assertions.assertArrayEquals;
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import dev.runnel.core.config.ConfigLoader;
+import dev.runnel.core.config.PipelineConfig;
+import dev.runnel.core.pipeline.OutputJson;
+import dev.runnel.core.pipeline.PipelineStep;
+import dev.runnel.core.pipeline.Prediction;
+import dev.runnel.core.record.EventRecord;
+import dev.runnel.core.record.RejectReason;
+import java.io.ByteArrayOutputStream;
+import java.io.DataOutputStream;
+import java.io.IOException;
+import java.io.UncheckedIOException;
+import java.nio.charset.StandardCharsets;
+import java.nio.file.Files;
+import java.nio.file.Path;
+import java.security.MessageDigest;
+import java.security.NoSuchAlgorithmException;
+import java.util.HexFormat;
+import java.util.List;
+import org.junit.jupiter.api.Test;
+
+/**
+ * The featurizer gives the same bits as the build before the one-file-per-kind split (issue 16):
+ * a run of the committed demo sample (invented data) through the whole {@link PipelineStep} gives
+ * byte-identical outputs (predictions, snapshots and rejects as {@link OutputJson} writes them),
+ * featurizer state and checkpoint, under the demo configuration and under a configuration that
+ * uses every feature kind and option the demo leaves out (polynomial, cross, transforms, a time
+ * field, admission after several sightings, expiry by records).
+ *
+ * <p>How the expected digests were produced: this class was run unchanged against the build before
+ * the split (commit 2a32cd2, in a separate worktree), and the SHA-256 values it reported are the
+ * constants below. They are not computed by the code under test. A change that moves any number,
+ * column or byte (a new feature default, another rounding, a new checkpoint field) makes this test
+ * fail; such a change must be deliberate, and whoever makes it updates the constants here and says
+ * why in the commit.
+ */
+class DemoRunSameBitsTest {
+
+  static final Path DEMO_CONFIG = Path.of("..", "demo-data", "src", "main", "resources", "dev", "runnel", "demo", "quillmarsh.yaml");
+  static final Path DEMO_SAMPLE = Path.of("..", "demo-data", "samples", "quillmarsh-small.jsonl");
+
+  /** Every kind and option that the demo configuration leaves out, on the demo sample's fields. */
+  static final String EVERY_KIND = """
+      name: every-kind
+      input:
+        fields:
+          kind: text
+          hub: text
+          observed_at: time
+          weather: text
+          temperature_c: number
+          price_per_kwh: number
+          sessions: number
+        event_time: {field: observed_at, format: iso8601}
+        time_zone: Europe/Amsterdam
+      target: sessions
+      features:
+        - {kind: onehot, field: hub, max_levels: 9, min_count: 3, expire_after_records: 60}
+        - {kind: onehot, field: weather, max_levels: 3, expire_after: PT30H}
+        - {kind: cyclic, cycle: hour_of_day, harmonics: 2}
+        - {kind: cyclic, cycle: day_of_year, field: observed_at}
+        - {kind: numeric, field: temperature_c, transform: power, exponent: 2, scaling: scale, clip: 3}
+        - {kind: numeric, field: price_per_kwh, transform: log1p, weighting_half_life_records: 300}
+        - {kind: polynomial, name: temperature_poly, field: temperature_c, degree: 3, weighting_half_life_records: 500}
+        - {kind: cross, of: [weather, hour_of_day]}
+        - {kind: cross, of: [hub, weather]}
+        - {kind: cross, of: [hour_of_day, day_of_year]}
+      model:
+        prior_variance: 50
+        forgetting: {half_life: P3D}
+        interval_level: 0.8
+      outputs:
+        snapshot_every: PT12H
+      """;
+
+  // SHA-256 of the build before the split (commit 2a32cd2); see the class comment.
+  static final String DEMO_OUTPUTS = "f90d519605dfe3de48f92a267dc4ebe3c2959280be57f9bfb6be32377ca2c420";
+  static final String DEMO_FEATURIZER = "78248e35187681e87252a9ba6f3089baeeb9155f02afcb2c670d60c47ba223a2";
+  static final String DEMO_CHECKPOINT = "c982293185a8acfe0cb4c03914c34c8dffd5718270a8f15d79ab0f4da88062f6";
+  static final String EVERY_KIND_OUTPUTS = "083496af84010fecf5d744f09fa193c384a98dde0cd5d7b63d6963cb3deedee3";
+  static final String EVERY_KIND_FEATURIZER = "e91d85ba284ab6418caf811b4331da81bde5d97b90b10effafa6401b009068a4";
+  static final String EVERY_KIND_CHECKPOINT = "e8d6bb10052bb8882d10fe535960c165dfb74b81d4b14fa04be59b2923917903";
+
+  /** One run: every output line, in order, then the state at the end. */
+  static final class Run implements PipelineStep.Sink {
+    final PipelineStep step;
+    final OutputJson json;
+    final MessageDigest outputs = sha256();
+    int predictions;
+    int snapshots;
+    int rejects;
+
+    Run(PipelineConfig cfg) {
+      step = new PipelineStep(cfg);
+      json = new OutputJson(cfg.name(), cfg.model().intervalLevel());
+    }
+
+    Run feed(List<String> lines, int from, int to) {
+      for (int i = from; i < to; i++) {
+        byte[] b = lines.get(i).getBytes(StandardCharsets.UTF_8);
+        step.process(b, 0, b.length, 0L, 0, i, this);
+      }
+      return this;
+    }
+
+    @Override public void prediction(Prediction p, EventRecord r) {
+      predictions++;
+      line('p', json.prediction(p, r));
+    }
+
+    @Override public void reject(RejectReason reason, String detail) {
+      rejects++;
+      line('r', (reason.id() + ": " + detail).getBytes(StandardCharsets.UTF_8));
+    }
+
+    @Override public void snapshotDue() {
+      snapshots++;
+      line('s', json.snapshot(step.snapshot(), 0));
+    }
+
+    private void line(char kind, byte[] b) {
+      outputs.update((byte) kind);
+      outputs.update(b);
+      outputs.update((byte) '\n');
+    }
+
+    String featurizerState() {
+      try {
+        ByteArrayOutputStream b = new ByteArrayOutputStream();
+        DataOutputStream out = new DataOutputStream(b);
+        step.featurizer().writeTo(out);
+        out.flush();
+        return hex(sha256().digest(b.toByteArray()));
+      } catch (IOException e) {
+        throw new UncheckedIOException(e);
+      }
+    }
+  }
+
+  static MessageDigest sha256() {
+    try {
+      return MessageDigest.getInstance("SHA-256");
+    } catch (NoSuchAlgorithmException e) {
+      throw new IllegalStateException(e);
+    }
+  }
+
+  static String hex(byte[] b) { return HexFormat.of().formatHex(b); }
+
+  static List<String> demoLines() throws IOException {
+    return Files.readAllLines(DEMO_SAMPLE, StandardCharsets.UTF_8);
+  }
+
+  private static void assertSameBits(PipelineConfig cfg, String outputs, String featurizer, String checkpoint) throws IOException {
+    List<String> lines = demoLines();
+    Run run = new Run(cfg).feed(lines, 0, lines.size());
+    // the run is not trivial: it trains, scores, rejects (the sample's corrupt lines) and snapshots
+    assertTrue(run.predictions > 5000 && run.rejects > 0 && run.snapshots > 10,
+        run.predictions + " predictions, " + run.rejects + " rejects, " + run.snapshots + " snapshots");
+    assertTrue(run.step.featurizer().layoutVersion() > 0, "levels were admitted");
+    String got = "outputs " + hex(run.outputs.digest()) + "\nfeaturizer " + run.featurizerState()
+        + "\ncheckpoint " + hex(sha256().digest(run.step.checkpoint()));
+    assertEquals("outputs " + outputs + "\nfeaturizer " + featurizer + "\ncheckpoint " + checkpoint, got,
+        cfg.name() + ": the run's bits differ from the build before the split (see the class comment)");
+  }
+
+  @Test void demoConfiguration_onTheDemoSample_givesTheBitsOfTheBuildBeforeTheSplit() throws IOException {
+    PipelineConfig cfg = ConfigLoader.parse(Files.readString(DEMO_CONFIG), "quillmarsh.yaml");
+    assertSameBits(cfg, DEMO_OUTPUTS, DEMO_FEATURIZER, DEMO_CHECKPOINT);
+  }
+
+  @Test void everyFeatureKind_onTheDemoSample_givesTheBitsOfTheBuildBeforeTheSplit() throws IOException {
+    assertSameBits(ConfigLoader.parse(EVERY_KIND, "every-kind.yaml"), EVERY_KIND_OUTPUTS, EVERY_KIND_FEATURIZER, EVERY_KIND_CHECKPOINT);
+  }
+
+  /** A checkpoint taken mid-run, with level and cross columns in it, restores and continues bit for bit. */
+  @Test void everyFeatureKind_restoredMidRun_continuesBitForBit() throws IOException {
+    PipelineConfig cfg = ConfigLoader.parse(EVERY_KIND, "every-kind.yaml");
+    List<String> lines = demoLines();
+    int half = lines.size() / 2;
+    Run whole = new Run(cfg).feed(lines, 0, half);
+    byte[] mid = whole.step.checkpoint();
+    Run restored = new Run(cfg);
+    restored.step.restore(mid);
+    assertArrayEquals(mid, restored.step.checkpoint(), "a restored step writes the checkpoint it read");
+    assertTrue(restored.step.featurizer().columnNames().stream().anyMatch(n -> n.startsWith("hub=QM") && n.contains("*weather=")),
+        "the checkpoint holds cells of level columns: " + restored.step.featurizer().columnNames());
+    whole.outputs.reset();
+    whole.feed(lines, half, lines.size());
+    restored.feed(lines, half, lines.size());
+    assertTrue(restored.predictions > 2500, restored.predictions + " predictions after the restore");
+    assertEquals(hex(whole.outputs.digest()), hex(restored.outputs.digest()), "the outputs after the restore");
+    assertArrayEquals(whole.step.checkpoint(), restored.step.checkpoint(), "the state at the end");
+  }
+}
