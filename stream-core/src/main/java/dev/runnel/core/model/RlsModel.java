@@ -1096,6 +1096,12 @@ public final class RlsModel implements LayoutListener {
         z[k] = -z[k];
       }
     }
+    if (rm[0][0] == 0.0) {
+      // The column had no information (diffuse, no row has touched it): row 0 then holds
+      // information about the other columns alone, which dropping it would lose. Rotate it into
+      // the trailing rows instead, as a data row with target z_0.
+      foldIntoTrailingRows(rm);
+    }
     // drop row 0 and column 0: row i + 1 becomes row i, shifted one column left
     final double[] first = rm[0];
     for (int i = 0; i < p - 1; i++) {
@@ -1124,6 +1130,38 @@ public final class RlsModel implements LayoutListener {
     p--;
     factorChanged();
     ready = !settings.diffuse() || fullRank();
+  }
+
+  /**
+   * Rotates row 0 of {@code [R | z]} (zero at column 0) into rows {@code 1..p-1}, each a Givens
+   * rotation as in {@link #update}; what is left of its target is a residual of the objective.
+   */
+  private void foldIntoTrailingRows(double[][] rm) {
+    final double[] v = rm[0];
+    double yv = z[0];
+    for (int i = 1; i < p; i++) {
+      final double vi = v[i];
+      if (vi == 0.0) {
+        continue;
+      }
+      final double[] row = rm[i];
+      final double h = StrictMath.hypot(row[i], vi);
+      final double cs = row[i] / h;
+      final double sn = vi / h;
+      row[i] = h;
+      v[i] = 0.0;
+      for (int j = i + 1; j < p; j++) {
+        final double a = row[j];
+        final double b = v[j];
+        row[j] = cs * a + sn * b;
+        v[j] = cs * b - sn * a;
+      }
+      final double zi = z[i];
+      z[i] = cs * zi + sn * yv;
+      yv = cs * yv - sn * zi;
+    }
+    final double e = yv * scale;
+    rho2 += e * e;
   }
 
   /**

@@ -342,6 +342,24 @@ class RebaseLayoutReferenceTest {
       diff = Math.max(diff, Math.abs(theta[j] - rj));
     }
     assertTrue(diff <= 1e-8 * norm, when + ": max |theta - reference| " + diff + " vs max |ref| " + norm);
+    // the minimum of the objective (data and prior rows) and the effective sample size (the data rows' weights)
+    double rho2 = 0.0;
+    double nEff = 0.0;
+    for (Row r : ref.rows) {
+      double e = r.y;
+      for (int j = 0; j < ref.ids; j++) {
+        e -= r.a[j] * t[j];
+      }
+      rho2 += r.weight * e * e;
+      nEff += r.owner < 0 ? r.weight : 0.0;
+    }
+    close(rho2, model.weightedResidualSumOfSquares(), 1e-7, when + " rho^2");
+    close(nEff, model.effectiveSampleSize(), 1e-12, when + " effective sample size");
+    if (nEff > ref.live.size()) {
+      close(Math.sqrt(rho2 / (nEff - ref.live.size())), model.residualSd(), 1e-7, when + " residual sd");
+    } else {
+      assertTrue(Double.isNaN(model.residualSd()), when + ": no residual sd with n_eff " + nEff);
+    }
     double[][] c = ref.covariance();
     double[] cov = model.unscaledCovariance();
     int p = ref.live.size();
