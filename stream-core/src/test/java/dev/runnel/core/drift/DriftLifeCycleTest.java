@@ -185,7 +185,7 @@ class DriftLifeCycleTest {
       }
     }
     // snapshot 3: the baseline is snapshot 0 (3 back): a moved by (3 − 0)/√2
-    snap(m, 3, names, new double[] {3.0, 1.0, 1.0}, new double[] {1.0, 1.0, 0.0});
+    snap(m, 3, names, new double[] {3.0, 1.0, 2.0}, new double[] {1.0, 1.0, 0.0});
     assertEquals(3.0 / Math.sqrt(2.0), m.moved("a"), 1e-15);
     assertTrue(Double.isNaN(m.moved("c")), "a column without a standard error is not scored");
     // snapshot 4: baseline snapshot 1 (a = 1, se 1; b = 1, se 0.75). b: (6 − 1)/√(1 + 0.5625) = 5/1.25 = 4 exactly: not above k
@@ -235,14 +235,19 @@ class DriftLifeCycleTest {
   }
 
   /** A monitor with alarms of both kinds, history, scores and a half-way error test. */
-  static DriftMonitor busy(PipelineConfig.Drift s, int snapshots, double shift) {
+  static DriftMonitor busy(PipelineConfig.Drift s, int snapshots, double shift, String... names) {
     DriftMonitor m = new DriftMonitor(s);
-    String[] names = {"a", "b"};
     for (int i = 0; i < snapshots; i++) {
       for (int r = 0; r < 20; r++) {
         m.observeError(r < 12 ? 0.5 + shift : 8.0, 1.0, 1.0, i * 100L + r, i * 20L + r);
       }
-      snap(m, i, names, new double[] {i * shift, 1.0 + i}, new double[] {1.0, 0.1});
+      double[] w = new double[names.length];
+      double[] se = new double[names.length];
+      for (int j = 0; j < names.length; j++) {
+        w[j] = j == 0 ? i * shift : j + i;
+        se[j] = j == 0 ? 1.0 : 0.1;
+      }
+      snap(m, i, names, w, se);
     }
     return m;
   }
@@ -251,8 +256,8 @@ class DriftLifeCycleTest {
   void aRestoreReplacesEveryPartOfTheState_evenInAMonitorThatHadItsOwn() throws IOException {
     for (DriftBaseline baseline : DriftBaseline.values()) {
       PipelineConfig.Drift s = new PipelineConfig.Drift(4.0, baseline, 3, ErrorTest.PAGE_HINKLEY, 0.1, 3.0, W, HOLD);
-      DriftMonitor saved = busy(s, 1, 0.0);
-      DriftMonitor other = busy(s, 6, 5.0); // more history, its own alarms and scores
+      DriftMonitor saved = busy(s, 1, 0.0, "a", "b");
+      DriftMonitor other = busy(s, 6, 5.0, "a", "b", "c"); // more history, another column, its own alarms and scores
       byte[] want = bytes(saved);
       assertFalse(java.util.Arrays.equals(want, bytes(other)));
       other.readFrom(new DataInputStream(new ByteArrayInputStream(want)));
