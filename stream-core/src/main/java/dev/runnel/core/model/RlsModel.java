@@ -3,6 +3,7 @@ package dev.runnel.core.model;
 import dev.runnel.core.layout.LayoutListener;
 import java.io.DataInput;
 import java.io.DataOutput;
+import java.io.EOFException;
 import java.io.IOException;
 import java.util.Arrays;
 
@@ -1414,6 +1415,29 @@ public final class RlsModel implements LayoutListener {
    * @throws IOException from {@code in}, or if the bytes are not a model of a known version
    */
   public static RlsModel readFrom(DataInput in) throws IOException {
+    try {
+      return read(in);
+    } catch (EOFException e) {
+      throw new EOFException("model checkpoint is truncated");
+    }
+  }
+
+  /** A value read from a checkpoint: refused unless finite and at least {@code min}. */
+  private static double checked(double v, double min, String what) throws IOException {
+    if (!(v >= min && v < Double.POSITIVE_INFINITY)) {
+      throw new IOException("corrupt model checkpoint: " + what + " " + v);
+    }
+    return v;
+  }
+
+  private static long checkedCount(long v, String what) throws IOException {
+    if (v < 0) {
+      throw new IOException("corrupt model checkpoint: " + what + " " + v);
+    }
+    return v;
+  }
+
+  private static RlsModel read(DataInput in) throws IOException {
     int magic = in.readInt();
     if (magic != MAGIC) {
       throw new IOException("not a model checkpoint: magic 0x" + Integer.toHexString(magic));
@@ -1441,23 +1465,25 @@ public final class RlsModel implements LayoutListener {
       throw new IOException("corrupt model checkpoint: factor scale " + m.scale);
     }
     for (int i = 0; i < p; i++) {
-      for (int j = i; j < p; j++) {
-        m.r[i][j] = in.readDouble();
+      // pivots are positive with a prior and never negative; every entry is finite
+      checked(m.r[i][i] = in.readDouble(), s.diffuse() ? 0.0 : Double.MIN_VALUE, "pivot " + i);
+      for (int j = i + 1; j < p; j++) {
+        checked(m.r[i][j] = in.readDouble(), -Double.MAX_VALUE, "factor entry (" + i + ", " + j + ")");
       }
     }
     for (int j = 0; j < p; j++) {
-      m.z[j] = in.readDouble();
+      m.z[j] = checked(in.readDouble(), -Double.MAX_VALUE, "z_" + j);
       m.theta[j] = in.readDouble();
-      m.priorAtRefresh[j] = in.readDouble();
-      m.logDecayAtRefresh[j] = in.readDouble();
+      m.priorAtRefresh[j] = checked(in.readDouble(), 0.0, "prior information of column " + j);
+      m.logDecayAtRefresh[j] = checked(in.readDouble(), -Double.MAX_VALUE, "log-decay at the refresh of column " + j);
     }
-    m.logDecay = in.readDouble();
-    m.refreshCounter = in.readLong();
-    m.rho2 = in.readDouble();
-    m.nEff = in.readDouble();
-    m.noiseSum = in.readDouble();
-    m.noiseWeight = in.readDouble();
-    m.updates = in.readLong();
+    m.logDecay = checked(in.readDouble(), -Double.MAX_VALUE, "log-decay");
+    m.refreshCounter = checkedCount(in.readLong(), "refresh counter");
+    m.rho2 = checked(in.readDouble(), 0.0, "rho^2");
+    m.nEff = checked(in.readDouble(), 0.0, "effective sample size");
+    m.noiseSum = checked(in.readDouble(), 0.0, "noise sum");
+    m.noiseWeight = checked(in.readDouble(), 0.0, "noise weight");
+    m.updates = checkedCount(in.readLong(), "update count");
     m.ready = in.readBoolean();
     if (version >= 3) {
       int front = in.readInt();
