@@ -123,6 +123,28 @@ class ModelCheckpointTest {
   }
 
   @Test
+  void aPendingRebasing_theSmallestDimension_andAnAllLevelLayout_roundTrip() throws IOException {
+    RlsModel m = sample();
+    RlsModel untouched = sample();
+    m.columnRebased(2, 2.0, 0.5); // pending until the state is written
+    RlsModel r = read(bytes(m));
+    // the same record in the new basis: entry 2 becomes (x_2 - 0.5) / 2
+    double[] rebased = {1, 0.5, (-2 - 0.5) / 2.0, 1};
+    double want = untouched.predict(PROBE);
+    assertEquals(want, r.predict(rebased), 1e-12 * Math.abs(want));
+    RlsModel one = new RlsModel(1, ModelSettings.defaults());
+    one.update(new double[] {1}, 2.0, 0.9);
+    assertArrayEquals(bytes(one), bytes(read(bytes(one))), "p = 1, the constant alone");
+    RlsModel levels = new RlsModel(0, ModelSettings.defaults().withConstantTerm(false));
+    levels.columnAdded(0, "a", true);
+    levels.columnAdded(1, "b", true);
+    levels.update(new double[] {1, 0}, 2.0, 0.9);
+    byte[] b = bytes(levels);
+    assertEquals(2, ByteBuffer.wrap(b).getInt(b.length - 12), "every column in the leading block");
+    assertArrayEquals(b, bytes(read(b)));
+  }
+
+  @Test
   void aDiffuseModelWithAnUnidentifiedColumn_isReadBack() throws IOException {
     RlsModel m = new RlsModel(2, ModelSettings.defaults().withPriorVariance(ModelSettings.DIFFUSE));
     m.update(new double[] {1, 0}, 1.0, 1.0);

@@ -58,6 +58,61 @@ class ModelEdgesTest {
     m.weights(w);
     assertTrue(Double.isNaN(w[0]), when + ": weights NaN");
     assertTrue(Double.isNaN(m.unscaledCovariance()[0]), when + ": covariance NaN");
+    double[] se = new double[8];
+    m.standardErrors(se);
+    assertTrue(Double.isNaN(se[0]), when + ": standard errors NaN");
+  }
+
+  @Test
+  void noColumnsAtAll_updatesWithTheGuardAndStaysReadyDiffuse() {
+    RlsModel guarded = new RlsModel(0, ModelSettings.defaults().withConstantTerm(false));
+    assertTrue(guarded.update(new double[0], 1.0, 0.99), "no column to refresh");
+    RlsModel diffuse = new RlsModel(0, DIFFUSE.withConstantTerm(false));
+    assertTrue(diffuse.update(new double[0], 1.0, 1.0));
+    assertTrue(diffuse.ready(), "nothing to identify");
+  }
+
+  @Test
+  void aPivotBelowTheReadyTolerance_isRankDeficient() {
+    // pivots 1e6 and 1e-8: 1e-8 < READY_TOLERANCE (1e-13) x 1e6 = 1e-7, numerically rank deficient
+    RlsModel m = new RlsModel(2, DIFFUSE.withConstantTerm(false));
+    assertTrue(m.update(new double[] {1e6, 0}, 1.0, 1.0));
+    assertTrue(m.update(new double[] {0, 1e-8}, 1.0, 1.0));
+    assertNotReady(m, "a pivot of 1e-14 of the largest");
+    assertTrue(m.update(new double[] {0, 1.0}, 1.0, 1.0));
+    assertTrue(m.ready(), "a pivot of 1e-6 of the largest");
+  }
+
+  /**
+   * Without a constant term the first column after the leading block can be removed: the model
+   * with a level in the leading block and the model with it in layout order agree afterwards.
+   */
+  @Test
+  void withoutAConstant_removingTheFirstColumnAfterTheLeadingBlock() {
+    ModelSettings s = ModelSettings.defaults().withConstantTerm(false);
+    RlsModel front = new RlsModel(2, s);
+    RlsModel plain = new RlsModel(2, s);
+    front.columnAdded(2, "level", true);
+    plain.columnAdded(2, "level", false);
+    java.util.Random rnd = new java.util.Random(9);
+    double[] x = new double[4];
+    for (int i = 0; i < 60; i++) {
+      if (i == 30) {
+        front.columnRemoved(0);
+        plain.columnRemoved(0);
+        front.columnAdded(2, "level2", true);
+        plain.columnAdded(2, "level2", false);
+      }
+      x[0] = rnd.nextGaussian();
+      x[1] = rnd.nextInt(2);
+      x[2] = 1 - x[1];
+      double y = 2 * x[0] + x[1] + rnd.nextGaussian() * 0.1;
+      assertTrue(front.update(x, y, 0.99));
+      assertTrue(plain.update(x, y, 0.99));
+      double[] probe = {0.5, 1, 0, 0};
+      assertEquals(plain.predict(probe), front.predict(probe), 1e-9, "record " + i);
+      assertEquals(plain.leverage(probe), front.leverage(probe), 1e-9, "record " + i);
+    }
   }
 
   @Test

@@ -248,7 +248,12 @@ class RebaseLayoutReferenceTest {
 
   void addColumn(boolean oneHot) {
     ref.addColumn(oneHot);
-    model.columnAdded(model.dimension(), "c" + ref.ids, oneHot);
+    reported.clear();
+    int index = model.dimension();
+    model.columnAdded(index, "c" + ref.ids, oneHot);
+    assertEquals(1, reported.size(), "a new column's prior row is reported");
+    assertEquals(index, reported.get(0)[0]);
+    assertEquals(ref.priorInfo, reported.get(0)[1]);
   }
 
   void removeColumn(int k) {
@@ -331,6 +336,27 @@ class RebaseLayoutReferenceTest {
   }
 
   void checkWeights(String when) {
+    // the cold paths first, so each of them must apply a pending re-basing itself
+    int p = ref.live.size();
+    double[][] c = ref.covariance();
+    double[] cov = model.unscaledCovariance();
+    for (int i = 0; i < p; i++) {
+      for (int j = 0; j < p; j++) {
+        close(c[i][j], cov[i * p + j], 1e-7, when + " covariance (" + i + ", " + j + ")");
+      }
+    }
+    double[] info = model.informationMatrix();
+    for (int i = 0; i < p; i++) { // the information is the inverse of the covariance
+      for (int j = 0; j < p; j++) {
+        double s = 0.0;
+        double norm = 0.0;
+        for (int k = 0; k < p; k++) {
+          s += info[i * p + k] * c[k][j];
+          norm += Math.abs(info[i * p + k] * c[k][j]);
+        }
+        assertEquals(i == j ? 1.0 : 0.0, s, 1e-7 * norm, when + " information x covariance (" + i + ", " + j + ")");
+      }
+    }
     double[] t = ref.solution();
     double[] theta = new double[32];
     model.weights(theta);
@@ -355,18 +381,16 @@ class RebaseLayoutReferenceTest {
     }
     close(rho2, model.weightedResidualSumOfSquares(), 1e-7, when + " rho^2");
     close(nEff, model.effectiveSampleSize(), 1e-12, when + " effective sample size");
+    double[] se = new double[32];
+    model.standardErrors(se);
     if (nEff > ref.live.size()) {
-      close(Math.sqrt(rho2 / (nEff - ref.live.size())), model.residualSd(), 1e-7, when + " residual sd");
-    } else {
-      assertTrue(Double.isNaN(model.residualSd()), when + ": no residual sd with n_eff " + nEff);
-    }
-    double[][] c = ref.covariance();
-    double[] cov = model.unscaledCovariance();
-    int p = ref.live.size();
-    for (int i = 0; i < p; i++) {
+      double sd = Math.sqrt(rho2 / (nEff - ref.live.size()));
+      close(sd, model.residualSd(), 1e-7, when + " residual sd");
       for (int j = 0; j < p; j++) {
-        close(c[i][j], cov[i * p + j], 1e-7, when + " covariance (" + i + ", " + j + ")");
+        close(sd * Math.sqrt(c[j][j]), se[j], 1e-7, when + " standard error " + j);
       }
+    } else {
+      assertTrue(Double.isNaN(model.residualSd()) && Double.isNaN(se[0]), when + ": no residual sd with n_eff " + nEff);
     }
   }
 
@@ -431,10 +455,11 @@ class RebaseLayoutReferenceTest {
             rebaseSome();
             checkForecasts("step " + step + " mixed");
           }
-          default -> { // a re-basing alone, forecast straight away
+          default -> { // a re-basing alone: the cold paths straight away, then a forecast
+            rebaseSome();
+            checkWeights("step " + step + " re-base");
             rebaseSome();
             checkForecasts("step " + step + " re-base");
-            checkWeights("step " + step + " re-base");
           }
         }
       }
@@ -446,6 +471,30 @@ class RebaseLayoutReferenceTest {
     checkWeights("end");
     assertTrue(ref.ids >= 12 && checks >= 60, "the stream exercised the layout: " + ref.ids + " columns, " + checks
         + " checks");
+  }
+
+  /**
+   * Forgetting so fast ({@code lambda^p} below 1e-12) that a refresh is capped at 1e12 times the
+   * prior information: the model's refresh rows against the test's own booking (the weights are
+   * not compared: the rows' weights span hundreds of orders of magnitude).
+   */
+  @org.junit.jupiter.api.Test
+  void veryFastForgetting_capsTheRefresh() {
+    start(true, 5);
+    int capped = 0;
+    for (int step = 0; step < 30; step++) {
+      double[] x = record(1.0);
+      double y = truth(x);
+      reported.clear();
+      ref.update(x, y, 1e-3);
+      assertTrue(model.update(x, y, 1e-3));
+      assertEquals(ref.booked.size(), reported.size(), "refresh rows at step " + step);
+      for (int i = 0; i < reported.size(); i++) {
+        close(ref.booked.get(i)[1], reported.get(i)[1], 1e-9, "refresh information at step " + step);
+        capped += ref.booked.get(i)[1] > 0.99 * ref.priorInfo * RlsModel.MAX_REFRESH_BOOST ? 1 : 0;
+      }
+    }
+    assertTrue(capped >= 10, "capped refreshes: " + capped);
   }
 
   /**
