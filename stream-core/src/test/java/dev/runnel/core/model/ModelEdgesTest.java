@@ -64,6 +64,29 @@ class ModelEdgesTest {
   }
 
   @Test
+  void settingsAtTheirLimits() {
+    ModelSettings d = ModelSettings.defaults();
+    for (double bad : new double[] {0.0, -1.0, Double.NaN}) {
+      assertThrows(IllegalArgumentException.class, () -> d.withPriorVariance(bad));
+      assertThrows(IllegalArgumentException.class, () -> d.withNoiseHalfLifeRecords(bad));
+      IllegalArgumentException e = assertThrows(IllegalArgumentException.class, () -> d.withIntervalZ(bad));
+      assertTrue(e.getMessage().startsWith("intervalZ: " + bad + " is not allowed"), e.getMessage());
+    }
+    assertThrows(IllegalArgumentException.class, () -> d.withIntervalZ(Double.POSITIVE_INFINITY));
+    assertEquals(Double.POSITIVE_INFINITY, d.withNoiseHalfLifeRecords(Double.POSITIVE_INFINITY).noiseHalfLifeRecords());
+    assertEquals(Double.MIN_VALUE, d.withIntervalZ(Double.MIN_VALUE).intervalZ());
+    for (double bad : new double[] {0.0, 1.0, -0.1, Double.NaN}) {
+      IllegalArgumentException e = assertThrows(IllegalArgumentException.class, () -> ModelSettings.zForLevel(bad));
+      assertTrue(e.getMessage().contains("model.interval_level"), e.getMessage());
+    }
+    for (double bad : new double[] {0.0, 1.0, Double.NaN}) {
+      assertThrows(IllegalArgumentException.class, () -> NormalQuantile.inverseCdf(bad));
+    }
+    assertEquals(0.0, NormalQuantile.inverseCdf(0.5), "the median is +0.0, not -0.0");
+    assertEquals(Double.doubleToRawLongBits(0.0), Double.doubleToRawLongBits(NormalQuantile.inverseCdf(0.5)));
+  }
+
+  @Test
   void noColumnsAtAll_updatesWithTheGuardAndStaysReadyDiffuse() {
     RlsModel guarded = new RlsModel(0, ModelSettings.defaults().withConstantTerm(false));
     assertTrue(guarded.update(new double[0], 1.0, 0.99), "no column to refresh");
