@@ -141,6 +141,8 @@ class VocabularyOrderTest {
     assertEquals(v.otherCount(), r.otherCount());
     assertEquals(v.candidateCount(), r.candidateCount());
     assertEquals(java.util.Arrays.toString(b), java.util.Arrays.toString(bytes(r)));
+    RollingVocabulary empty = new RollingVocabulary(4, 2, 0, 0);
+    assertEquals(0, read(bytes(empty)).size(), "an empty vocabulary (no other count either) reads back");
     IllegalStateException e = assertThrows(IllegalStateException.class, () -> r.readFrom(new DataInputStream(new ByteArrayInputStream(b))));
     assertTrue(e.getMessage().contains("fresh"), e.getMessage());
   }
