@@ -394,6 +394,38 @@ class RebaseLayoutReferenceTest {
     }
   }
 
+  /** One of the model's readers, called first after a re-basing, against the reference. */
+  void firstAfterRebase(int which, String when) {
+    int p = ref.live.size();
+    double[][] c = ref.covariance();
+    switch (which) {
+      case 0 -> {
+        double[] x = record(1.0);
+        close(ref.leverage(x), model.leverage(x), 1e-8, when + " leverage first");
+      }
+      case 1 -> {
+        double[] info = model.informationMatrix();
+        for (int i = 0; i < p; i++) {
+          double s = 0.0;
+          double norm = 0.0;
+          for (int k = 0; k < p; k++) {
+            s += info[i * p + k] * c[k][i];
+            norm += Math.abs(info[i * p + k] * c[k][i]);
+          }
+          assertEquals(1.0, s, 1e-7 * norm, when + " information first (" + i + ")");
+        }
+      }
+      default -> {
+        double[] se = new double[32];
+        model.standardErrors(se);
+        double sd = model.residualSd();
+        for (int j = 0; j < p; j++) {
+          close(sd * Math.sqrt(c[j][j]), se[j], 1e-7, when + " standard error " + j + " first");
+        }
+      }
+    }
+  }
+
   void update() {
     double[] x = record(1.0);
     double y = truth(x);
@@ -455,7 +487,11 @@ class RebaseLayoutReferenceTest {
             rebaseSome();
             checkForecasts("step " + step + " mixed");
           }
-          default -> { // a re-basing alone: the cold paths straight away, then a forecast
+          default -> { // a re-basing alone, then each reader first in turn: each must apply it itself
+            for (int first = 0; first < 3; first++) {
+              rebaseSome();
+              firstAfterRebase(first, "step " + step + " re-base");
+            }
             rebaseSome();
             checkWeights("step " + step + " re-base");
             rebaseSome();
