@@ -102,6 +102,9 @@ class ModelEdgesTest {
     assertTrue(m.update(new double[] {1e6, 0}, 1.0, 1.0));
     assertTrue(m.update(new double[] {0, 1e-8}, 1.0, 1.0));
     assertNotReady(m, "a pivot of 1e-14 of the largest");
+    m.columnAdded(2, "c", false);
+    m.columnRemoved(2);
+    assertNotReady(m, "still, after a removal");
     assertTrue(m.update(new double[] {0, 1.0}, 1.0, 1.0));
     assertTrue(m.ready(), "a pivot of 1e-6 of the largest");
   }
@@ -123,6 +126,8 @@ class ModelEdgesTest {
       if (i == 30) {
         front.columnRemoved(0);
         plain.columnRemoved(0);
+      }
+      if (i == 35) { // after some updates with one column fewer
         front.columnAdded(2, "level2", true);
         plain.columnAdded(2, "level2", false);
       }

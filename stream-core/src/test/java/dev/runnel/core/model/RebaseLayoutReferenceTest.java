@@ -450,6 +450,12 @@ class RebaseLayoutReferenceTest {
         addColumn(false);
         checkForecasts("step " + step + " after append");
       }
+      if (step == 15) { // weights and pivots in use, then a level into the leading block (no re-basing before)
+        checkWeights("step 15 before a level");
+        checkForecasts("step 15 before a level");
+        addColumn(true);
+        checkForecasts("step 15 after a level");
+      }
       if (step >= 20 && step % 6 == 0) {
         int p = model.dimension();
         switch ((step / 6) % 5) {
