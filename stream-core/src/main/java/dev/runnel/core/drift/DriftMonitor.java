@@ -5,6 +5,7 @@ import dev.runnel.core.config.ErrorTest;
 import dev.runnel.core.config.PipelineConfig;
 import java.io.DataInput;
 import java.io.DataOutput;
+import java.io.EOFException;
 import java.io.IOException;
 import java.util.ArrayDeque;
 import java.util.ArrayList;
@@ -251,18 +252,31 @@ public final class DriftMonitor {
     }
   }
 
-  /** Reads a state written by {@link #writeTo}; the settings come from the configuration. */
+  /**
+   * Reads a state written by {@link #writeTo}; the settings come from the configuration.
+   *
+   * @throws IOException if the state is cut short or a count, kind or direction is not one
+   *     {@link #writeTo} writes
+   */
   public void readFrom(DataInput in) throws IOException {
-    weightFired = in.readLong();
-    errorFired = in.readLong();
+    try {
+      read(in);
+    } catch (EOFException e) {
+      throw new EOFException("drift checkpoint is truncated");
+    }
+  }
+
+  private void read(DataInput in) throws IOException {
+    weightFired = count(in.readLong(), "weight alarms fired");
+    errorFired = count(in.readLong(), "error alarms fired");
     refNoiseSd = in.readDouble();
-    sinceRestart = in.readLong();
+    sinceRestart = count(in.readLong(), "records since the error test restarted");
     if (in.readBoolean()) {
       // the test's parameters come from the configuration; a saved test is skipped when it is now off
       (test != null ? test : new PageHinkley(0, 1, 1)).readFrom(in);
     }
     history.clear();
-    int h = in.readInt();
+    int h = (int) count(in.readInt(), "history snapshots");
     for (int i = 0; i < h; i++) {
       history.addLast(readMap(in));
     }
@@ -272,21 +286,36 @@ public final class DriftMonitor {
     first.clear();
     first.putAll(readMap(in));
     weightAlarms.clear();
-    int wa = in.readInt();
+    int wa = (int) count(in.readInt(), "weight alarms");
     for (int i = 0; i < wa; i++) {
       DriftAlarm a = readAlarm(in);
+      if (!DriftAlarm.WEIGHT.equals(a.kind())) {
+        throw new IOException("corrupt drift checkpoint: a weight alarm of kind " + a.kind());
+      }
       weightAlarms.put(a.column(), a);
     }
     errorAlarms.clear();
-    int ea = in.readInt();
+    int ea = (int) count(in.readInt(), "error alarms");
     for (int i = 0; i < ea; i++) {
-      errorAlarms.add(readAlarm(in));
+      DriftAlarm a = readAlarm(in);
+      if (!DriftAlarm.ERROR_LEVEL.equals(a.kind())) {
+        throw new IOException("corrupt drift checkpoint: an error-level alarm of kind " + a.kind());
+      }
+      errorAlarms.add(a);
     }
     moved.clear();
-    int mv = in.readInt();
+    int mv = (int) count(in.readInt(), "scores");
     for (int i = 0; i < mv; i++) {
       moved.put(in.readUTF(), in.readDouble());
     }
+  }
+
+  /** A count read from a checkpoint: refused when negative. */
+  static long count(long n, String what) throws IOException {
+    if (n < 0) {
+      throw new IOException("corrupt drift checkpoint: " + what + " " + n);
+    }
+    return n;
   }
 
   private static void writeMap(DataOutput out, Map<String, double[]> m) throws IOException {
@@ -299,7 +328,7 @@ public final class DriftMonitor {
   }
 
   private static LinkedHashMap<String, double[]> readMap(DataInput in) throws IOException {
-    int n = in.readInt();
+    int n = (int) count(in.readInt(), "weights in a baseline");
     LinkedHashMap<String, double[]> m = new LinkedHashMap<>();
     for (int i = 0; i < n; i++) {
       String k = in.readUTF();
@@ -327,7 +356,14 @@ public final class DriftMonitor {
   private static DriftAlarm readAlarm(DataInput in) throws IOException {
     String kind = in.readUTF();
     String column = in.readBoolean() ? in.readUTF() : null;
-    return new DriftAlarm(kind, column, in.readUTF(), in.readLong(), in.readLong(), in.readLong(), in.readDouble(),
+    if (DriftAlarm.WEIGHT.equals(kind) && column == null) {
+      throw new IOException("corrupt drift checkpoint: a weight alarm without a column");
+    }
+    String direction = in.readUTF();
+    if (!direction.equals("up") && !direction.equals("down")) {
+      throw new IOException("corrupt drift checkpoint: alarm direction \"" + direction + "\"");
+    }
+    return new DriftAlarm(kind, column, direction, in.readLong(), in.readLong(), in.readLong(), in.readDouble(),
         in.readDouble(), in.readDouble(), in.readDouble());
   }
 }

@@ -151,7 +151,7 @@ public final class PageHinkley {
 
   /** Reads a state written by {@link #writeTo}. */
   public void readFrom(DataInput in) throws IOException {
-    count = in.readLong();
+    count = DriftMonitor.count(in.readLong(), "error test values");
     mean = in.readDouble();
     up = in.readDouble();
     upMin = in.readDouble();

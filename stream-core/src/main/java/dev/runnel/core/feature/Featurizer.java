@@ -8,6 +8,7 @@ import dev.runnel.core.record.RecordSchema;
 import dev.runnel.core.record.RejectReason;
 import java.io.DataInput;
 import java.io.DataOutput;
+import java.io.EOFException;
 import java.io.IOException;
 import java.util.ArrayList;
 import java.util.List;
@@ -429,6 +430,14 @@ public final class Featurizer {
     if (trainingRecords != 0 || columns.dimension() != firstDynamicColumn()) {
       throw new IllegalStateException("readFrom needs a fresh featurizer; this one has seen " + trainingRecords + " records");
     }
+    try {
+      read(in);
+    } catch (EOFException e) {
+      throw new EOFException("feature checkpoint is truncated");
+    }
+  }
+
+  private void read(DataInput in) throws IOException {
     int version = in.readInt();
     if (version != FORMAT_VERSION && version != 1) {
       throw new IllegalArgumentException("checkpoint format " + version + " is not supported; this build reads format " + FORMAT_VERSION);

@@ -308,6 +308,7 @@ public final class RollingVocabulary {
   void readFrom(DataInput in) throws IOException {
     if (head != null || cHead != null) throw new IllegalStateException("restore needs a fresh vocabulary");
     otherCount = in.readLong();
+    if (otherCount < 0) throw new IOException("corrupt checkpoint: other count " + otherCount);
     int n = in.readInt();
     if (n < 0 || n > maxLevels) throw new IOException("corrupt checkpoint: " + n + " levels for max_levels " + maxLevels);
     for (int i = 0; i < n; i++) {
@@ -316,6 +317,7 @@ public final class RollingVocabulary {
       l.firstSeenMillis = in.readLong();
       l.lastSeenMillis = in.readLong();
       l.lastSeenRecord = in.readLong();
+      if (l.count < 0) throw new IOException("corrupt checkpoint: level " + l.key + " count " + l.count);
       if (levels.get(l.key) != null) throw new IOException("corrupt checkpoint: level " + l.key + " twice");
       levels.put(l.key, l);
       append(l);
@@ -325,6 +327,7 @@ public final class RollingVocabulary {
     for (int i = 0; i < m; i++) {
       Candidate c = new Candidate(readString(in));
       c.count = in.readLong();
+      if (c.count < 0) throw new IOException("corrupt checkpoint: candidate " + c.key + " count " + c.count);
       if (candidates.get(c.key) != null) throw new IOException("corrupt checkpoint: candidate " + c.key + " twice");
       candidates.put(c.key, c);
       appendCandidate(c);

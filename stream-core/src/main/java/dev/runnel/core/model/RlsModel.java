@@ -3,6 +3,7 @@ package dev.runnel.core.model;
 import dev.runnel.core.layout.LayoutListener;
 import java.io.DataInput;
 import java.io.DataOutput;
+import java.io.EOFException;
 import java.io.IOException;
 import java.util.Arrays;
 
@@ -1096,6 +1097,12 @@ public final class RlsModel implements LayoutListener {
         z[k] = -z[k];
       }
     }
+    if (rm[0][0] == 0.0) {
+      // The column had no information (diffuse, no row has touched it): row 0 then holds
+      // information about the other columns alone, which dropping it would lose. Rotate it into
+      // the trailing rows instead, as a data row with target z_0.
+      foldIntoTrailingRows(rm);
+    }
     // drop row 0 and column 0: row i + 1 becomes row i, shifted one column left
     final double[] first = rm[0];
     for (int i = 0; i < p - 1; i++) {
@@ -1124,6 +1131,38 @@ public final class RlsModel implements LayoutListener {
     p--;
     factorChanged();
     ready = !settings.diffuse() || fullRank();
+  }
+
+  /**
+   * Rotates row 0 of {@code [R | z]} (zero at column 0) into rows {@code 1..p-1}, each a Givens
+   * rotation as in {@link #update}; what is left of its target is a residual of the objective.
+   */
+  private void foldIntoTrailingRows(double[][] rm) {
+    final double[] v = rm[0];
+    double yv = z[0];
+    for (int i = 1; i < p; i++) {
+      final double vi = v[i];
+      if (vi == 0.0) {
+        continue;
+      }
+      final double[] row = rm[i];
+      final double h = StrictMath.hypot(row[i], vi);
+      final double cs = row[i] / h;
+      final double sn = vi / h;
+      row[i] = h;
+      v[i] = 0.0;
+      for (int j = i + 1; j < p; j++) {
+        final double a = row[j];
+        final double b = v[j];
+        row[j] = cs * a + sn * b;
+        v[j] = cs * b - sn * a;
+      }
+      final double zi = z[i];
+      z[i] = cs * zi + sn * yv;
+      yv = cs * yv - sn * zi;
+    }
+    final double e = yv * scale;
+    rho2 += e * e;
   }
 
   /**
@@ -1376,6 +1415,29 @@ public final class RlsModel implements LayoutListener {
    * @throws IOException from {@code in}, or if the bytes are not a model of a known version
    */
   public static RlsModel readFrom(DataInput in) throws IOException {
+    try {
+      return read(in);
+    } catch (EOFException e) {
+      throw new EOFException("model checkpoint is truncated");
+    }
+  }
+
+  /** A value read from a checkpoint: refused unless finite and at least {@code min}. */
+  private static double checked(double v, double min, String what) throws IOException {
+    if (!(v >= min && v < Double.POSITIVE_INFINITY)) {
+      throw new IOException("corrupt model checkpoint: " + what + " " + v);
+    }
+    return v;
+  }
+
+  private static long checkedCount(long v, String what) throws IOException {
+    if (v < 0) {
+      throw new IOException("corrupt model checkpoint: " + what + " " + v);
+    }
+    return v;
+  }
+
+  private static RlsModel read(DataInput in) throws IOException {
     int magic = in.readInt();
     if (magic != MAGIC) {
       throw new IOException("not a model checkpoint: magic 0x" + Integer.toHexString(magic));
@@ -1403,23 +1465,25 @@ public final class RlsModel implements LayoutListener {
       throw new IOException("corrupt model checkpoint: factor scale " + m.scale);
     }
     for (int i = 0; i < p; i++) {
-      for (int j = i; j < p; j++) {
-        m.r[i][j] = in.readDouble();
+      // pivots are positive with a prior and never negative; every entry is finite
+      checked(m.r[i][i] = in.readDouble(), s.diffuse() ? 0.0 : Double.MIN_VALUE, "pivot " + i);
+      for (int j = i + 1; j < p; j++) {
+        checked(m.r[i][j] = in.readDouble(), -Double.MAX_VALUE, "factor entry (" + i + ", " + j + ")");
       }
     }
     for (int j = 0; j < p; j++) {
-      m.z[j] = in.readDouble();
+      m.z[j] = checked(in.readDouble(), -Double.MAX_VALUE, "z_" + j);
       m.theta[j] = in.readDouble();
-      m.priorAtRefresh[j] = in.readDouble();
-      m.logDecayAtRefresh[j] = in.readDouble();
+      m.priorAtRefresh[j] = checked(in.readDouble(), 0.0, "prior information of column " + j);
+      m.logDecayAtRefresh[j] = checked(in.readDouble(), -Double.MAX_VALUE, "log-decay at the refresh of column " + j);
     }
-    m.logDecay = in.readDouble();
-    m.refreshCounter = in.readLong();
-    m.rho2 = in.readDouble();
-    m.nEff = in.readDouble();
-    m.noiseSum = in.readDouble();
-    m.noiseWeight = in.readDouble();
-    m.updates = in.readLong();
+    m.logDecay = checked(in.readDouble(), -Double.MAX_VALUE, "log-decay");
+    m.refreshCounter = checkedCount(in.readLong(), "refresh counter");
+    m.rho2 = checked(in.readDouble(), 0.0, "rho^2");
+    m.nEff = checked(in.readDouble(), 0.0, "effective sample size");
+    m.noiseSum = checked(in.readDouble(), 0.0, "noise sum");
+    m.noiseWeight = checked(in.readDouble(), 0.0, "noise weight");
+    m.updates = checkedCount(in.readLong(), "update count");
     m.ready = in.readBoolean();
     if (version >= 3) {
       int front = in.readInt();

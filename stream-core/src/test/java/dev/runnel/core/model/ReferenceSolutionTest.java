@@ -9,6 +9,7 @@ import java.util.Random;
 import org.ejml.data.DMatrixRMaj;
 import org.ejml.dense.row.factory.LinearSolverFactory_DDRM;
 import org.ejml.interfaces.linsol.LinearSolverDense;
+import org.junit.jupiter.api.Tag;
 import org.junit.jupiter.params.ParameterizedTest;
 import org.junit.jupiter.params.provider.ValueSource;
 
@@ -58,6 +59,8 @@ class ReferenceSolutionTest {
     return r.a;
   }
 
+  // "slow" (6 s): mutation runs leave it out; RebaseLayoutReferenceTest checks the same in a short stream
+  @Tag("slow")
   @ParameterizedTest(name = "windup guard {0}")
   @ValueSource(booleans = {true, false})
   void weightsEqualWeightedRidgeSolutionAtEveryStep(boolean guard) {
