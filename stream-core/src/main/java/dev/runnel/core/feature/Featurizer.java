@@ -431,13 +431,13 @@ public final class Featurizer {
       throw new IllegalStateException("readFrom needs a fresh featurizer; this one has seen " + trainingRecords + " records");
     }
     try {
-      read(in);
+      return read(in);
     } catch (EOFException e) {
       throw new EOFException("feature checkpoint is truncated");
     }
   }
 
-  private void read(DataInput in) throws IOException {
+  private long read(DataInput in) throws IOException {
     int version = in.readInt();
     if (version != FORMAT_VERSION && version != 1) {
       throw new IllegalArgumentException("checkpoint format " + version + " is not supported; this build reads format " + FORMAT_VERSION);

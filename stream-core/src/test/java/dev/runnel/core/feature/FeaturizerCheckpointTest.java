@@ -41,7 +41,7 @@ class FeaturizerCheckpointTest {
     for (int n = 0; n < 400; n++) {
       long t = stream.next(r);
       assertNull(a.check(r, true), a.lastDetail());
-      a.learnAndEncode(r, t, row);
+      a.learnAndEncode(r, t, t, row);
     }
     return bytes(a);
   }
