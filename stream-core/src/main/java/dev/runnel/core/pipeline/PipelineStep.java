@@ -45,6 +45,13 @@ import java.util.Arrays;
  * </ol>
  * A record without the target is a forecast request: it is encoded read-only and scored at its
  * own time, and changes no state at all (not even the clock).
+ *
+ * <p>With {@code input.forecast} (docs/forecasting.md) a record also has an entity (its entity
+ * fields, required) and a target time (its target-time field, else its event time); the calendar
+ * features read the target time, the clock still reads the event time. A forecast request that got
+ * a value is remembered in the bounded {@link PendingForecasts} (the one state it changes); an
+ * accepted actual, once learned from, settles every forecast pending for its (entity, target time)
+ * through {@link Sink#settled}, before its own prediction.
  */
 public final class PipelineStep {
 
