@@ -147,6 +147,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     final int predPart;
     final int coefPart;
     final int rejPart;
+    final int settledPart;
     final int statePart;
     PartitionProcessor proc;
     long committedNext;
@@ -165,6 +166,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       this.predPart = tp.partition() % layout.predictionsPartitions();
       this.coefPart = tp.partition() % layout.coefficientsPartitions();
       this.rejPart = tp.partition() % layout.rejectsPartitions();
+      this.settledPart = tp.partition() % layout.settledPartitions();
       this.statePart = tp.partition() % layout.statePartitions();
     }
 
@@ -182,6 +184,11 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       producer.send(new ProducerRecord<>(settings.rejectsTopic(), rejPart, key, value), sendCallback);
       outputsOut++;
       rejects++;
+    }
+
+    @Override public void settled(byte[] key, byte[] value) {
+      producer.send(new ProducerRecord<>(settings.settledTopic(), settledPart, key, value), sendCallback);
+      outputsOut++;
     }
   }
 
@@ -673,7 +680,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     }
     if (t instanceof AuthorizationException || t instanceof AuthenticationException) {
       return "not allowed by the cluster at " + settings.bootstrapServers() + ": " + t.getMessage()
-          + " (needs READ on " + settings.inputTopic() + " and group " + settings.groupId() + ", WRITE on the four output topics,"
+          + " (needs READ on " + settings.inputTopic() + " and group " + settings.groupId() + ", WRITE on the five output topics,"
           + " WRITE/DESCRIBE on transactional id " + settings.transactionalId() + "). Stopping.";
     }
     if (t instanceof org.apache.kafka.common.errors.RecordTooLargeException) {

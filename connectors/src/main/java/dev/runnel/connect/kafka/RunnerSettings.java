@@ -7,7 +7,7 @@ import java.util.regex.Pattern;
 /**
  * Settings of one {@link ExactlyOnceRunner}. Immutable; checked at construction.
  *
- * @param name pipeline name; output topics are {@code <name>.predictions}, {@code .coefficients}, {@code .rejects}, {@code .state}
+ * @param name pipeline name; output topics are {@code <name>.predictions}, {@code .coefficients}, {@code .rejects}, {@code .settled}, {@code .state}
  * @param inputTopic the topic to consume
  * @param bootstrapServers {@code host:port[,host:port]}
  * @param clientProperties Kafka client settings applied to consumer, producer and admin (a key prefixed
@@ -84,6 +84,8 @@ public record RunnerSettings(String name, String inputTopic, String bootstrapSer
   public String coefficientsTopic() { return name + ".coefficients"; }
   public String rejectsTopic() { return name + ".rejects"; }
   public String stateTopic() { return name + ".state"; }
+  /** Settled forecasts (docs/forecasting.md); created with the others, empty without {@code input.forecast}. */
+  public String settledTopic() { return name + ".settled"; }
   public String transactionalId() { return transactionalIdPrefix + "-" + name + "-" + instanceId; }
   public String groupInstanceId() { return name + "-" + instanceId; }
 }

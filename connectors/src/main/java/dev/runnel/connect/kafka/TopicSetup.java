@@ -17,7 +17,7 @@ import org.apache.kafka.common.errors.UnknownTopicOrPartitionException;
 /**
  * Creates a pipeline's missing output topics. Existing topics are used as they are.
  *
- * <p>Settings: predictions, coefficients, rejects and state get the input's partition count, replication
+ * <p>Settings: predictions, coefficients, rejects, settled and state get the input's partition count, replication
  * min(3, brokers). State is compacted ({@code cleanup.policy=compact}), {@code max.message.bytes} 16 MiB,
  * {@code compression.type=lz4}, {@code min.compaction.lag.ms=0}.
  */
@@ -28,12 +28,12 @@ public final class TopicSetup {
 
   private TopicSetup() {}
 
-  /** Partition counts of the input and the four output topics, after creation. */
+  /** Partition counts of the input and the five output topics, after creation. */
   public record Layout(int inputPartitions, int predictionsPartitions, int coefficientsPartitions, int rejectsPartitions,
-      int statePartitions) {}
+      int statePartitions, int settledPartitions) {}
 
   /**
-   * Makes sure the four output topics exist.
+   * Makes sure the five output topics exist.
    * @throws IllegalStateException if the input topic does not exist, or a topic cannot be created (the
    *     message names the topic and the settings to create it with by hand)
    * @throws org.apache.kafka.common.errors.TimeoutException if the cluster does not answer in time (retriable)
@@ -54,6 +54,7 @@ public final class TopicSetup {
     wanted.add(new NewTopic(s.predictionsTopic(), inputParts, rf));
     wanted.add(new NewTopic(s.coefficientsTopic(), inputParts, rf));
     wanted.add(new NewTopic(s.rejectsTopic(), inputParts, rf));
+    wanted.add(new NewTopic(s.settledTopic(), inputParts, rf));
     wanted.add(new NewTopic(s.stateTopic(), inputParts, rf).configs(stateConfig));
     java.util.Set<String> existing = get(admin.listTopics().names());
     for (NewTopic t : wanted) {
@@ -76,7 +77,7 @@ public final class TopicSetup {
     Map<String, Integer> counts = new HashMap<>();
     for (NewTopic t : wanted) counts.put(t.name(), describeSoon(admin, t.name()).partitions().size());
     return new Layout(inputParts, counts.get(s.predictionsTopic()), counts.get(s.coefficientsTopic()), counts.get(s.rejectsTopic()),
-        counts.get(s.stateTopic()));
+        counts.get(s.stateTopic()), counts.get(s.settledTopic()));
   }
 
   /** Describes a topic, allowing a few seconds for a just-created topic to appear in the metadata. */

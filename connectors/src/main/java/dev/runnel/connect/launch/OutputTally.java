@@ -13,7 +13,8 @@ import java.util.concurrent.atomic.AtomicLong;
 import java.util.concurrent.atomic.LongAdder;
 
 /**
- * Counts what a running pipeline sends, by kind: predictions, snapshots, rejects by reason. It
+ * Counts what a running pipeline sends, by kind: predictions, snapshots, rejects by reason,
+ * settled forecasts. It
  * wraps the processors of a {@link ProcessorFactory} and sees each output as it is handed to the
  * runner, so, like the runner's own counters, it includes work of transactions that were later
  * aborted and replayed. Written by the runner's thread, read by any.
@@ -24,6 +25,7 @@ public final class OutputTally {
 
   private final LongAdder predictions = new LongAdder();
   private final LongAdder snapshots = new LongAdder();
+  private final LongAdder settled = new LongAdder();
   private final Map<String, AtomicLong> rejects = new ConcurrentHashMap<>();
 
   /** A factory whose processors count their outputs here. */
@@ -39,6 +41,11 @@ public final class OutputTally {
   /** Coefficient snapshots sent. */
   public long snapshots() {
     return snapshots.sum();
+  }
+
+  /** Settled forecasts sent (docs/forecasting.md). */
+  public long settled() {
+    return settled.sum();
   }
 
   /** Rejects sent, by reason id (sorted). */
@@ -93,6 +100,11 @@ public final class OutputTally {
     @Override public void reject(byte[] key, byte[] value) {
       rejects.computeIfAbsent(reasonOf(value), k -> new AtomicLong()).incrementAndGet();
       out.reject(key, value);
+    }
+
+    @Override public void settled(byte[] key, byte[] value) {
+      settled.increment();
+      out.settled(key, value);
     }
   }
 }

@@ -7,6 +7,7 @@ import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.pipeline.OutputJson;
 import dev.runnel.core.pipeline.PipelineStep;
 import dev.runnel.core.pipeline.Prediction;
+import dev.runnel.core.pipeline.SettledForecast;
 import dev.runnel.core.record.EventRecord;
 import dev.runnel.core.record.RejectReason;
 import java.nio.charset.StandardCharsets;
@@ -15,7 +16,7 @@ import org.apache.kafka.common.TopicPartition;
 /**
  * Runs the stream-core {@link PipelineStep} for one input partition inside the exactly-once
  * runner: each Kafka record becomes a prediction or a reject (and now and then a coefficient
- * snapshot), and the step's checkpoint is the partition's state. Nothing here computes: every
+ * snapshot; with {@code input.forecast}, an actual also settles the forecasts pending for it), and the step's checkpoint is the partition's state. Nothing here computes: every
  * number comes from stream-core, so a replay of the same records gives the same bits.
  */
 public final class PipelineProcessor implements PartitionProcessor {
@@ -103,6 +104,11 @@ public final class PipelineProcessor implements PartitionProcessor {
     @Override
     public void snapshotDue() {
       out.snapshot(partitionKey, json.snapshot(step.snapshot(), partition));
+    }
+
+    @Override
+    public void settled(SettledForecast s, EventRecord record) {
+      out.settled(key, json.settled(s, record));
     }
   }
 }

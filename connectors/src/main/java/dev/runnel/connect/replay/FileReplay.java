@@ -5,6 +5,7 @@ import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.pipeline.OutputJson;
 import dev.runnel.core.pipeline.PipelineStep;
 import dev.runnel.core.pipeline.Prediction;
+import dev.runnel.core.pipeline.SettledForecast;
 import dev.runnel.core.record.EventRecord;
 import dev.runnel.core.record.RejectReason;
 import java.io.BufferedOutputStream;
@@ -18,7 +19,8 @@ import java.nio.file.Path;
  * One configuration over one JSON Lines file, exactly as the live pipeline would run it on one
  * input partition, with the outputs written to files: {@code predictions.jsonl},
  * {@code coefficients.jsonl} and {@code rejects.jsonl}, each record in the layout of the topic of
- * the same name (docs/formats.md). The file is partition {@value #PARTITION}; a record's offset is
+ * the same name (docs/formats.md), and, with {@code input.forecast}, {@code settled.jsonl}: one
+ * settled forecast a line (docs/forecasting.md). The file is partition {@value #PARTITION}; a record's offset is
  * its line number. No Kafka.
  *
  * <p>Snapshots: every snapshot that becomes due is written as it does; when records came after
@@ -43,7 +45,8 @@ public final class FileReplay {
    *
    * @param config the configuration. Not modified.
    * @param source the JSON Lines file
-   * @param out the folder for the three output files (created if missing)
+   * @param out the folder for the output files (created if missing): three, and {@code settled.jsonl}
+   *     with {@code input.forecast}
    * @param listener told after each record; may be null
    * @return the step at the end of the file (counters, metrics, model)
    * @throws IllegalArgumentException if {@code source} is not a file
@@ -58,7 +61,8 @@ public final class FileReplay {
     long size = Files.size(source);
     try (OutputStream preds = open(out.resolve("predictions.jsonl"));
          OutputStream snaps = open(out.resolve("coefficients.jsonl"));
-         OutputStream rejects = open(out.resolve("rejects.jsonl"))) {
+         OutputStream rejects = open(out.resolve("rejects.jsonl"));
+         OutputStream settled = config.input().forecast().enabled() ? open(out.resolve("settled.jsonl")) : OutputStream.nullOutputStream()) {
       long[] bytesDone = {0};
       long[] recordsAtLastSnapshot = {-1};
       // a line longer than max_record_bytes is rejected from its first bytes; the rest is never held
@@ -95,6 +99,10 @@ public final class FileReplay {
             @Override public void snapshotDue() {
               write(snaps, json.snapshot(step.snapshot(), PARTITION));
               recordsAtLastSnapshot[0] = step.records();
+            }
+
+            @Override public void settled(SettledForecast s, EventRecord r) {
+              write(settled, json.settled(s, r));
             }
           };
         }

@@ -39,6 +39,12 @@ import org.junit.jupiter.api.extension.ExtendWith;
  * exactly the outputs of one uninterrupted stream-core run over the same records — the same
  * bytes per input offset, none missing, none twice — and the final committed state equals that
  * run's checkpoint bit for bit.
+ *
+ * <p>The demo configuration runs with {@code input.forecast} (entity {@code hub}; the demo's
+ * records carry no target-time field, so a request's target time is its event time and the actual
+ * of the same hub and hour settles it): {@code <name>.settled} holds exactly the uninterrupted
+ * run's settled forecasts, in order, each once, although the pending forecasts crossed the kills
+ * in the checkpoints.
  */
 @ExtendWith(EmbeddedKafkaExtension.class)
 class PipelineCrashTest {
@@ -52,6 +58,9 @@ class PipelineCrashTest {
       yaml = new String(in.readAllBytes(), StandardCharsets.UTF_8);
     }
     yaml = yaml.replace("name: quillmarsh\n", "name: " + NAME + "\n")
+        .replace("    sessions: number\n", "    sessions: number\n    hour_start: time\n")
+        .replace("  event_time: {field: observed_at, format: iso8601}\n", "  event_time: {field: observed_at, format: iso8601}\n"
+            + "  forecast:\n    entity_fields: [hub]\n    target_time_field: hour_start\n")
         .replace("topic: quillmarsh.sessions", "topic: " + TOPIC)
         .replace("bootstrap_servers: \"\"", "bootstrap_servers: \"" + bootstrap + "\"")
         .replace("commit_interval_ms: 500", "commit_interval_ms: 200")
@@ -132,6 +141,7 @@ class PipelineCrashTest {
     PipelineStep step = new PipelineStep(cfg);
     OutputJson json = new OutputJson(cfg.name(), cfg.model().intervalLevel());
     List<byte[]> expected = new ArrayList<>();
+    List<byte[]> expectedSettled = new ArrayList<>();
     long offset = 0;
     for (String line : lines) {
       byte[] b = line.getBytes(StandardCharsets.UTF_8);
@@ -142,7 +152,14 @@ class PipelineCrashTest {
           expected.add(json.reject(reason, detail, 0, off, b, 0, b.length));
         }
         @Override public void snapshotDue() { }
+        @Override public void settled(dev.runnel.core.pipeline.SettledForecast s, EventRecord r) { expectedSettled.add(json.settled(s, r)); }
       });
+    }
+    assertTrue(cfg.input().forecast().enabled() && expectedSettled.size() > 1000, "forecasts settled: " + expectedSettled.size());
+    List<ConsumerRecord<byte[], byte[]>> settled = KafkaTestSupport.readAll(bs, NAME + ".settled");
+    assertEquals(expectedSettled.size(), settled.size(), "each forecast settled exactly once");
+    for (int i = 0; i < settled.size(); i++) {
+      assertArrayEquals(expectedSettled.get(i), settled.get(i).value(), "settled forecast " + i);
     }
     ObjectMapper m = new ObjectMapper();
     byte[][] got = new byte[(int) total][];

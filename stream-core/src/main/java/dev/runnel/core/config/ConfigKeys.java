@@ -66,6 +66,11 @@ public final class ConfigKeys {
   public static final ConfigKey<?> CLOCK_SECTION = add(ConfigKey.structured("input", "clock", "mapping", "all defaults"));
   public static final ConfigKey<Long> CLOCK_MAX_AHEAD = add(ConfigKey.duration("input.clock", "max_ahead", PipelineConfig.Clock.DEFAULTS.maxAheadMillis(), "P1D"));
   public static final ConfigKey<Integer> CLOCK_CONFIRM_RECORDS = add(ConfigKey.wholeInt("input.clock", "confirm_records", PipelineConfig.Clock.DEFAULTS.confirmRecords(), 1, 1000));
+  public static final ConfigKey<?> FORECAST_SECTION = add(ConfigKey.structured("input", "forecast", "mapping", "absent"));
+  public static final ConfigKey<?> FORECAST_ENTITY_FIELDS = add(ConfigKey.structured("input.forecast", "entity_fields", "list of texts", "required"));
+  public static final ConfigKey<?> FORECAST_TARGET_TIME_FIELD = add(ConfigKey.structured("input.forecast", "target_time_field", "text", "required"));
+  public static final ConfigKey<Integer> FORECAST_MAX_PENDING = add(ConfigKey.wholeInt("input.forecast", "max_pending", PipelineConfig.Forecast.DEFAULT_MAX_PENDING, 1, 10_000_000));
+  public static final ConfigKey<Long> FORECAST_MAX_ACTUAL_DELAY = add(ConfigKey.duration("input.forecast", "max_actual_delay", PipelineConfig.Forecast.DEFAULT_MAX_ACTUAL_DELAY_MILLIS, "P7D"));
 
   // ---- features: kind onehot ----
   public static final ConfigKey<?> ONEHOT_FIELD = add(ConfigKey.structured("features.onehot", "field", "text", "required"));

@@ -412,7 +412,39 @@ public final class ConfigLoader {
       Section c = sectionOrEmpty(in, "clock");
       c.allowScope("input.clock");
       PipelineConfig.Clock clock = new PipelineConfig.Clock(ConfigKeys.CLOCK_MAX_AHEAD.read(c), ConfigKeys.CLOCK_CONFIRM_RECORDS.read(c));
-      return new PipelineConfig.Input(topic, schema, eventTime, zone, limits, clock);
+      PipelineConfig.Forecast forecast = PipelineConfig.Forecast.NONE;
+      if (in.has("forecast")) {
+        forecast = forecast(in.section("forecast"), schema, eventTime);
+      }
+      return new PipelineConfig.Input(topic, schema, eventTime, zone, limits, clock, forecast);
+    }
+
+    private PipelineConfig.Forecast forecast(Section f, RecordSchema schema, Optional<PipelineConfig.EventTime> eventTime) {
+      f.allowScope("input.forecast");
+      List<String> texts = fieldsOfType(schema, FieldType.TEXT, null);
+      String entityAllowed = "use a list of declared text fields that identify what a forecast is for, e.g. entity_fields: [hub]; declared: "
+          + listOr(texts, "(none; declare one under input.fields as hub: text)");
+      if (!f.has("entity_fields")) throw missing(f.p("entity_fields"), entityAllowed);
+      JsonNode list = f.get("entity_fields");
+      if (!list.isArray() || list.size() == 0) throw notAllowed(f.p("entity_fields"), list, entityAllowed);
+      List<String> entity = new ArrayList<>();
+      for (int i = 0; i < list.size(); i++) {
+        JsonNode e = list.get(i);
+        String name = e.isTextual() ? e.asText() : null;
+        if (name == null || !texts.contains(name) || entity.contains(name)) {
+          throw notAllowed(f.p("entity_fields") + "[" + i + "]", e, entityAllowed + (name != null && entity.contains(name) ? " (each once)" : ""));
+        }
+        entity.add(name);
+      }
+      List<String> times = fieldsOfType(schema, FieldType.TIME, null);
+      eventTime.ifPresent(et -> times.remove(et.field()));
+      String timeAllowed = "name a declared time field other than the event time, the time whose value a record forecasts"
+          + " or reports, e.g. target_time_field: hour_start; declared: " + listOr(times, "(none; declare one under input.fields as hour_start: time)");
+      String target = f.requiredText("target_time_field", timeAllowed, timeAllowed);
+      if (!times.contains(target)) throw notAllowed(f.p("target_time_field"), f.get("target_time_field"), timeAllowed);
+      int max = ConfigKeys.FORECAST_MAX_PENDING.read(f);
+      long delay = ConfigKeys.FORECAST_MAX_ACTUAL_DELAY.read(f);
+      return new PipelineConfig.Forecast(entity, target, max, delay);
     }
 
     private static List<String> fieldsOfType(RecordSchema s, FieldType a, FieldType b) {

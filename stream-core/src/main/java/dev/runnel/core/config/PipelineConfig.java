@@ -46,7 +46,7 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    */
   public PipelineConfig withNameAndTopic(String newName, String newTopic) {
     return new PipelineConfig(newName,
-        new Input(Optional.of(newTopic), input.schema(), input.eventTime(), input.timeZone(), input.limits(), input.clock()),
+        new Input(Optional.of(newTopic), input.schema(), input.eventTime(), input.timeZone(), input.limits(), input.clock(), input.forecast()),
         target, features, model, outputs, kafka, web, sourceName, drift, warnings);
   }
 
@@ -60,9 +60,17 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    * @param eventTime where the event time is read, if anywhere
    * @param timeZone zone for calendar features
    * @param clock {@code input.clock}: the event-time policy
+   * @param forecast {@code input.forecast}: the entity and target time of forecasts, and the bounds
+   *     of the pending forecasts ({@link Forecast#NONE} when absent: target time = event time)
    */
   public record Input(Optional<String> topic, RecordSchema schema, Optional<EventTime> eventTime, ZoneId timeZone,
-                      RecordLimits limits, Clock clock) {
+                      RecordLimits limits, Clock clock, Forecast forecast) {
+    /** An input without {@code input.forecast}. */
+    public Input(Optional<String> topic, RecordSchema schema, Optional<EventTime> eventTime, ZoneId timeZone,
+                 RecordLimits limits, Clock clock) {
+      this(topic, schema, eventTime, timeZone, limits, clock, Forecast.NONE);
+    }
+
     /** An input with the default {@code input.clock}. */
     public Input(Optional<String> topic, RecordSchema schema, Optional<EventTime> eventTime, ZoneId timeZone,
                  RecordLimits limits) {
@@ -80,6 +88,32 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
   public record Clock(long maxAheadMillis, int confirmRecords) {
     /** The defaults: one day ahead, three records to confirm a jump. */
     public static final Clock DEFAULTS = new Clock(86_400_000L, 3);
+  }
+
+  /**
+   * {@code input.forecast}: which fields identify the entity a forecast is for, which field holds
+   * the target time (the time whose value is forecast, as distinct from the event time, when the
+   * record was issued or arrived), and the bounds of the pending forecasts (docs/forecasting.md).
+   *
+   * @param entityFields {@code entity_fields}: declared text fields, at least one when enabled; empty when absent
+   * @param targetTimeField {@code target_time_field}: a declared time field; null when absent
+   * @param maxPending {@code max_pending}: most forecasts remembered until their actual arrives
+   * @param maxActualDelayMillis {@code max_actual_delay}: how long past its target time a forecast waits for its actual
+   */
+  public record Forecast(List<String> entityFields, String targetTimeField, int maxPending, long maxActualDelayMillis) {
+    /** The defaults of the bounds. */
+    public static final int DEFAULT_MAX_PENDING = 100_000;
+    public static final long DEFAULT_MAX_ACTUAL_DELAY_MILLIS = 7 * 86_400_000L;
+    /** No {@code input.forecast}: the target time is the event time and nothing is remembered. */
+    public static final Forecast NONE = new Forecast(List.of(), null, DEFAULT_MAX_PENDING, DEFAULT_MAX_ACTUAL_DELAY_MILLIS);
+
+    /** Copies the list. */
+    public Forecast {
+      entityFields = List.copyOf(entityFields);
+    }
+
+    /** Whether {@code input.forecast} is given. */
+    public boolean enabled() { return targetTimeField != null; }
   }
 
   /** {@code input.event_time}: the field that holds the event time and its format. */

@@ -58,6 +58,10 @@ public final class OutputJson {
   private static final SerializedString K_ACTUAL = new SerializedString("actual");
   private static final SerializedString K_ERROR = new SerializedString("error");
   private static final SerializedString K_COLUMNS_VERSION = new SerializedString("columns_version");
+  private static final SerializedString K_ISSUE_TIME = new SerializedString("issue_time");
+  private static final SerializedString K_TARGET_TIME = new SerializedString("target_time");
+  private static final SerializedString K_HORIZON_MS = new SerializedString("horizon_ms");
+  private static final SerializedString K_TARGET_PASSED = new SerializedString("target_passed");
   private static final SerializedString[] STATUS_TEXT;
 
   static {
@@ -119,6 +123,17 @@ public final class OutputJson {
       } else {
         g.writeString(Instant.ofEpochMilli(p.eventTimeMillis()).toString());
       }
+      if (p.stamped()) {
+        // input.forecast: the issue time (the event time), the target time and the horizon
+        writeTime(g, K_ISSUE_TIME, p.issueTimeMillis());
+        writeTime(g, K_TARGET_TIME, p.targetTimeMillis());
+        g.writeFieldName(K_HORIZON_MS);
+        g.writeNumber(p.horizonMillis());
+        if (Double.isNaN(p.actual())) {
+          g.writeFieldName(K_TARGET_PASSED);
+          g.writeBoolean(p.targetPassed());
+        }
+      }
       RecordSchema schema = record.schema();
       SerializedString[] names = fieldNames(schema);
       g.writeFieldName(K_FIELDS);
@@ -162,6 +177,85 @@ public final class OutputJson {
         generator = null;
       }
     }
+  }
+
+  /**
+   * One settled forecast (docs/formats.md, "Settled forecasts"): the entity, the issue and target
+   * times, the horizon, the forecast and its interval as issued, the actual, the error, whether the
+   * interval held it, and where the request and the actual came from.
+   *
+   * @param s the settled forecast. Not modified.
+   * @param record the actual's record, whose entity fields are the forecast's. Not modified.
+   * @return new bytes
+   */
+  public byte[] settled(SettledForecast s, EventRecord record) {
+    boolean done = false;
+    try {
+      JsonGenerator g = start();
+      g.writeStartObject();
+      g.writeFieldName(K_FORMAT);
+      g.writeNumber(FORMAT_VERSION);
+      g.writeFieldName(K_PIPELINE);
+      g.writeString(pipelineText);
+      RecordSchema schema = record.schema();
+      SerializedString[] names = fieldNames(schema);
+      g.writeObjectFieldStart("entity");
+      for (int slot : s.entitySlots) {
+        g.writeFieldName(names[slot]);
+        g.writeString(record.textChars(slot), 0, record.textLength(slot));
+      }
+      g.writeEndObject();
+      writeTime(g, K_ISSUE_TIME, s.issueTimeMillis());
+      writeTime(g, K_TARGET_TIME, s.targetTimeMillis());
+      g.writeFieldName(K_HORIZON_MS);
+      g.writeNumber(s.horizonMillis());
+      number(g, "forecast", s.forecast());
+      number(g, K_LOW, s.low());
+      number(g, K_HIGH, s.high());
+      g.writeFieldName(K_LEVEL);
+      g.writeNumber(intervalLevel);
+      number(g, K_ACTUAL, s.actual());
+      number(g, K_ERROR, s.error());
+      g.writeBooleanField("covered", s.covered());
+      g.writeFieldName("request");
+      writeSourceObject(g, s.requestPartition(), s.requestOffset());
+      g.writeFieldName("actual_source");
+      writeSourceObject(g, s.actualPartition(), s.actualOffset());
+      g.writeEndObject();
+      byte[] bytes = finish(g);
+      done = true;
+      return bytes;
+    } catch (IOException e) {
+      throw new UncheckedIOException(e);
+    } finally {
+      if (!done) {
+        generator = null;
+      }
+    }
+  }
+
+  private void writeTime(JsonGenerator g, SerializedString name, long millis) throws IOException {
+    g.writeFieldName(name);
+    int tn = instantChars(millis, timeChars);
+    if (tn > 0) {
+      g.writeString(timeChars, 0, tn);
+    } else {
+      g.writeString(Instant.ofEpochMilli(millis).toString());
+    }
+  }
+
+  /** A source as an object (empty when neither is known). */
+  private static void writeSourceObject(JsonGenerator g, long partition, long offset) throws IOException {
+    g.writeStartObject();
+    if (partition >= 0) {
+      g.writeFieldName(K_PARTITION);
+      g.writeNumber(partition);
+    }
+    if (offset >= 0) {
+      g.writeFieldName(K_OFFSET);
+      g.writeNumber(offset);
+    }
+    g.writeEndObject();
   }
 
   /**

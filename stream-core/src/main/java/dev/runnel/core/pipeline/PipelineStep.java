@@ -45,6 +45,13 @@ import java.util.Arrays;
  * </ol>
  * A record without the target is a forecast request: it is encoded read-only and scored at its
  * own time, and changes no state at all (not even the clock).
+ *
+ * <p>With {@code input.forecast} (docs/forecasting.md) a record also has an entity (its entity
+ * fields, required) and a target time (its target-time field, else its event time); the calendar
+ * features read the target time, the clock still reads the event time. A forecast request that got
+ * a value is remembered in the bounded {@link PendingForecasts} (the one state it changes); an
+ * accepted actual, once learned from, settles every forecast pending for its (entity, target time)
+ * through {@link Sink#settled}, before its own prediction.
  */
 public final class PipelineStep {
 
@@ -58,10 +65,21 @@ public final class PipelineStep {
 
     /** A coefficient snapshot became due after this record. */
     void snapshotDue();
+
+    /**
+     * A pending forecast settled by this record's actual ({@code input.forecast}, docs/forecasting.md):
+     * called once per forecast, in the order they were issued, before this record's own
+     * {@link #prediction}. The entity is this record's entity fields. Does nothing unless overridden.
+     */
+    default void settled(SettledForecast settled, EventRecord record) { }
   }
 
-  /** Version of the checkpoint layout written by {@link #checkpoint()}. */
-  public static final int CHECKPOINT_VERSION = 3;
+  /**
+   * Latest version of the checkpoint layout: 4 adds the pending forecasts. A step without
+   * {@code input.forecast} has none and still writes version 3, byte for byte as before.
+   */
+  public static final int CHECKPOINT_VERSION = 4;
+  private static final int CHECKPOINT_VERSION_WITHOUT_FORECASTS = 3;
   private static final int CHECKPOINT_MAGIC = 0x524E4C43; // "RNLC"
 
   private final PipelineConfig config;
@@ -76,6 +94,14 @@ public final class PipelineStep {
   private final Prediction prediction = new Prediction();
   private final int targetSlot;
   private final long configFingerprint;
+  /** {@code input.forecast}: null when absent (target time = event time, nothing remembered). */
+  private final PendingForecasts pending;
+  private final int[] entitySlots;
+  private final int targetTimeSlot;
+  /** The entity text of this record: each entity field's length (two chars) then its chars. */
+  private char[] entityKey = new char[64];
+  private int entityKeyLength;
+  private final SettledForecast settledForecast = new SettledForecast();
   private double[] row;
   /** The model's a-priori leverage (element 0) and prediction (element 1) for this record. */
   private final double[] aPriori = new double[2];
@@ -114,6 +140,20 @@ public final class PipelineStep {
     this.targetSlot = config.targetSlot();
     this.row = new double[Math.max(8, featurizer.maxDimension())];
     this.configFingerprint = fingerprint(config);
+    PipelineConfig.Forecast fc = in.forecast();
+    if (fc.enabled()) {
+      this.pending = new PendingForecasts(fc.maxPending(), fc.maxActualDelayMillis());
+      this.entitySlots = new int[fc.entityFields().size()];
+      for (int i = 0; i < entitySlots.length; i++) {
+        entitySlots[i] = in.schema().slot(fc.entityFields().get(i));
+      }
+      this.targetTimeSlot = in.schema().slot(fc.targetTimeField());
+      this.settledForecast.entitySlots = entitySlots;
+    } else {
+      this.pending = null;
+      this.entitySlots = new int[0];
+      this.targetTimeSlot = -1;
+    }
   }
 
   /** The model settings a configuration asks for. */
@@ -190,6 +230,16 @@ public final class PipelineStep {
       reject(reason, featurizer.lastDetail(), sink);
       return;
     }
+    // the time whose value is forecast or reported: the target-time field, else the event time
+    long target = t;
+    if (pending != null) {
+      if (!entityKey(sink)) {
+        return;
+      }
+      if (record.present(targetTimeSlot)) {
+        target = record.timeMillis(targetTimeSlot);
+      }
+    }
     if (hasTarget) {
       // the stream clock decides whether this time may move event time (docs/model.md)
       StreamClock.Verdict verdict = clock.accept(t);
@@ -214,10 +264,14 @@ public final class PipelineStep {
     p.sourcePartition = partition;
     p.sourceOffset = offset;
     p.actual = y;
+    p.stamped = pending != null;
+    p.targetTimeMillis = target;
+    p.targetPassed = !hasTarget && pending != null && clock.nowMillis() != Long.MIN_VALUE && target <= clock.nowMillis();
+    // calendar features describe the target time (the event time when no target-time field is configured)
     if (hasTarget) {
-      featurizer.learnAndEncode(record, t, clock.nowMillis(), row);
+      featurizer.learnAndEncode(record, target, clock.nowMillis(), row);
     } else {
-      featurizer.encode(record, t, row);
+      featurizer.encode(record, target, row);
     }
     p.layoutVersion = featurizer.layoutVersion();
     double half = Double.NaN;
@@ -268,6 +322,15 @@ public final class PipelineStep {
     }
     if (p.status == Prediction.Status.WARMING_UP) {
       warmingUp++;
+    }
+    if (pending != null) {
+      if (hasTarget) {
+        settle(target, y, partition, offset, sink);
+      } else if (p.status == Prediction.Status.FORECAST) {
+        pending.add(entityKey, entityKeyLength, target, t, p.predicted, p.low, p.high, partition, offset, clock.nowMillis());
+      } else {
+        pending.expireFront(clock.nowMillis());
+      }
     }
     sink.prediction(p, record);
     if (hasTarget) {
@@ -326,6 +389,52 @@ public final class PipelineStep {
     snapshotsTaken++;
   }
 
+  /**
+   * Builds this record's entity text from its entity fields (each as its length in two chars, then
+   * its chars, so no two field lists give the same text); a missing field is a reject.
+   *
+   * @return false when the record was rejected
+   */
+  private boolean entityKey(Sink sink) {
+    int n = 0;
+    for (int slot : entitySlots) {
+      int len = record.present(slot) ? record.textLength(slot) : -1;
+      if (len < 0) {
+        reject(RejectReason.MISSING_FIELD, "field " + config.input().schema().name(slot)
+            + " (an entity field, input.forecast.entity_fields): missing", sink);
+        return false;
+      }
+      if (entityKey.length < n + 2 + len) {
+        entityKey = Arrays.copyOf(entityKey, Math.max(entityKey.length * 2, n + 2 + len));
+      }
+      entityKey[n++] = (char) (len >>> 16);
+      entityKey[n++] = (char) len;
+      System.arraycopy(record.textChars(slot), 0, entityKey, n, len);
+      n += len;
+    }
+    entityKeyLength = n;
+    return true;
+  }
+
+  /** Hands every forecast pending for this record's (entity, target time) to the sink, settled by {@code actual}. */
+  private void settle(long target, double actual, long partition, long offset, Sink sink) {
+    int n = pending.take(entityKey, entityKeyLength, target, clock.nowMillis());
+    SettledForecast s = settledForecast;
+    for (int i = 0; i < n; i++) {
+      s.issueTimeMillis = pending.takenIssueMillis(i);
+      s.targetTimeMillis = target;
+      s.forecast = pending.takenForecast(i);
+      s.low = pending.takenLow(i);
+      s.high = pending.takenHigh(i);
+      s.actual = actual;
+      s.requestPartition = pending.takenPartition(i);
+      s.requestOffset = pending.takenOffset(i);
+      s.actualPartition = partition;
+      s.actualOffset = offset;
+      sink.settled(s, record);
+    }
+  }
+
   private void reject(RejectReason reason, String detail, Sink sink) {
     records++;
     rejected++;
@@ -382,6 +491,27 @@ public final class PipelineStep {
   /** The stream clock's time (docs/model.md), or {@code Long.MIN_VALUE} before the first training record. */
   public long lastEventTimeMillis() { return clock.nowMillis(); }
 
+  /** Whether {@code input.forecast} is configured: forecasts are remembered and settled. */
+  public boolean remembersForecasts() { return pending != null; }
+
+  /** Forecasts pending now (0 without {@code input.forecast}). */
+  public int pendingForecasts() { return pending != null ? pending.size() : 0; }
+
+  /** Forecasts remembered until their actual, since the state began. */
+  public long rememberedForecasts() { return pending != null ? pending.remembered() : 0; }
+
+  /** Forecasts settled by their actual, since the state began. */
+  public long settledForecasts() { return pending != null ? pending.settled() : 0; }
+
+  /** Forecasts dropped by {@code input.forecast.max_pending} (the one issued first), since the state began. */
+  public long droppedForecastsFull() { return pending != null ? pending.droppedFull() : 0; }
+
+  /**
+   * Forecasts dropped by {@code input.forecast.max_actual_delay} (their actual did not come in time,
+   * or the request's target time was already that far behind the clock), since the state began.
+   */
+  public long droppedForecastsExpired() { return pending != null ? pending.droppedExpired() : 0; }
+
   /** The stream clock (read only between records). */
   public StreamClock clock() { return clock; }
 
@@ -424,7 +554,7 @@ public final class PipelineStep {
       ByteArrayOutputStream bytes = new ByteArrayOutputStream(4096);
       DataOutputStream out = new DataOutputStream(bytes);
       out.writeInt(CHECKPOINT_MAGIC);
-      out.writeInt(CHECKPOINT_VERSION);
+      out.writeInt(pending != null ? CHECKPOINT_VERSION : CHECKPOINT_VERSION_WITHOUT_FORECASTS);
       out.writeLong(configFingerprint);
       out.writeLong(records);
       out.writeLong(trained);
@@ -443,6 +573,9 @@ public final class PipelineStep {
       model.writeTo(out);
       out.writeLong(snapshotsTaken);
       drift.writeTo(out);
+      if (pending != null) {
+        pending.writeTo(out);
+      }
       out.flush();
       return bytes.toByteArray();
     } catch (IOException e) {
@@ -455,7 +588,8 @@ public final class PipelineStep {
    *
    * @param checkpoint bytes from {@link #checkpoint()}. Not modified.
    * A version 1 checkpoint (before drift alarms) is read with a fresh drift state; versions 1 and
-   * 2 (before the one stream clock) give the clock their largest training time, with no jump pending.
+   * 2 (before the one stream clock) give the clock their largest training time, with no jump pending;
+   * versions 1 to 3 (before forecasts were remembered) restore with no forecast pending.
    *
    * @throws IllegalArgumentException if the bytes are not a checkpoint, are of an unknown version,
    *     or were written under a configuration whose features or model differ
@@ -511,6 +645,15 @@ public final class PipelineStep {
       if (version >= 2) {
         snapshotsTaken = in.readLong();
         drift.readFrom(in);
+      }
+      if (version >= 4) {
+        if (pending == null) {
+          throw new IllegalArgumentException("the checkpoint holds pending forecasts (it was written with input.forecast);"
+              + " keep input.forecast in the configuration, or start a new pipeline name (or reset its state) without it");
+        }
+        pending.readFrom(in);
+      } else if (pending != null) {
+        pending.clear();
       }
       ensureRow();
     } catch (IOException e) {

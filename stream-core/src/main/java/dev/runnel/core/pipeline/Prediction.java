@@ -37,10 +37,35 @@ public final class Prediction {
   long layoutVersion;
   long sourcePartition = -1;
   long sourceOffset = -1;
+  /** Whether {@code input.forecast} is configured, so the times below are published. */
+  boolean stamped;
+  long targetTimeMillis;
+  boolean targetPassed;
 
   public Status status() { return status; }
 
   public long eventTimeMillis() { return eventTimeMillis; }
+
+  /**
+   * Whether the pipeline has {@code input.forecast}: then the prediction carries an issue time
+   * (its event time), a target time and a horizon on the output.
+   */
+  public boolean stamped() { return stamped; }
+
+  /** When the prediction was issued: the event time. */
+  public long issueTimeMillis() { return eventTimeMillis; }
+
+  /** The time whose value is predicted: the target-time field, else the event time. */
+  public long targetTimeMillis() { return targetTimeMillis; }
+
+  /** Target time minus issue time, in milliseconds. */
+  public long horizonMillis() { return targetTimeMillis - eventTimeMillis; }
+
+  /**
+   * For a record without its target: whether its target time was at or behind the stream clock
+   * when it was issued (the actual may already have come, or come late). False for a record with its target.
+   */
+  public boolean targetPassed() { return targetPassed; }
 
   /** The point prediction; NaN while warming up. */
   public double predicted() { return predicted; }

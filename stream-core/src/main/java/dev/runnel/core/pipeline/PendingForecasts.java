@@ -1,0 +1,443 @@
+package dev.runnel.core.pipeline;
+
+import java.io.DataInput;
+import java.io.DataOutput;
+import java.io.IOException;
+import java.util.Arrays;
+
+/**
+ * Forecasts issued ahead and not yet settled, keyed by (entity, target time): the step remembers a
+ * forecast request's value here and takes every forecast for a key out when its actual arrives
+ * (docs/forecasting.md). Bounded by count ({@code input.forecast.max_pending}: the forecast issued
+ * first is dropped) and by event-time age ({@code input.forecast.max_actual_delay}: a forecast whose
+ * target time lies more than that behind the stream clock is dropped); both drops are counted.
+ *
+ * <p>Layout: a pool of entries on primitive arrays (grown by doubling up to the count bound, then
+ * never again), a linear-probing hash table of entry ids on the 64-bit hash of the entity text and
+ * the target time (the entity text is kept per entry, so a collision is resolved exactly), and a
+ * doubly linked list of the entries in the order they were issued (which entry the count bound
+ * drops, and which the age bound looks at first). Once warm an add or a take allocates nothing and
+ * costs O(1) expected; deletion shifts the probe run back (no tombstones).
+ *
+ * <p>The age bound is applied to the first-issued entry on every call ({@link #expireFront}), and
+ * exactly to the key taken: a forecast whose actual arrives later than the bound is dropped, not
+ * settled. An expired entry behind a younger one waits in memory until it reaches the front, its
+ * actual arrives, or the count bound drops it, so memory is bounded by the count bound alone.
+ *
+ * <p>Deterministic: no hash order reaches an output (the forecasts for one key are taken in the
+ * order they were issued). One thread.
+ */
+final class PendingForecasts {
+
+  private static final int NONE = -1;
+
+  private final int maxPending;
+  private final long maxDelayMillis;
+
+  private int capacity;
+  private long[] hash;
+  private long[] target;
+  private long[] issue;
+  private long[] partition;
+  private long[] offset;
+  private long[] seq;
+  private double[] forecast;
+  private double[] low;
+  private double[] high;
+  private char[][] key;
+  private int[] keyLength;
+  private int[] prev;
+  private int[] next;
+  private int[] free;
+  private int freeTop;
+  private int first = NONE;
+  private int last = NONE;
+  private int size;
+  private int[] table;
+  private int mask;
+  private long nextSeq;
+
+  /** The entries the last {@link #take} returned, freed at the next mutating call. */
+  private int[] taken = new int[8];
+  private int takenToFree;
+
+  private long remembered;
+  private long settled;
+  private long droppedFull;
+  private long droppedExpired;
+
+  /**
+   * @param maxPending the count bound, at least 1
+   * @param maxDelayMillis the age bound: how long past its target time a forecast waits, at least 1 ms
+   */
+  PendingForecasts(int maxPending, long maxDelayMillis) {
+    this.maxPending = maxPending;
+    this.maxDelayMillis = maxDelayMillis;
+    allocate(Math.min(maxPending, 64));
+  }
+
+  private void allocate(int cap) {
+    capacity = cap;
+    hash = new long[cap];
+    target = new long[cap];
+    issue = new long[cap];
+    partition = new long[cap];
+    offset = new long[cap];
+    seq = new long[cap];
+    forecast = new double[cap];
+    low = new double[cap];
+    high = new double[cap];
+    key = new char[cap][];
+    keyLength = new int[cap];
+    prev = new int[cap];
+    next = new int[cap];
+    free = new int[cap];
+    for (int i = 0; i < cap; i++) {
+      free[i] = cap - 1 - i;
+    }
+    freeTop = cap;
+    int t = Integer.highestOneBit(cap) << 2;
+    table = new int[t];
+    Arrays.fill(table, NONE);
+    mask = t - 1;
+  }
+
+  /** Doubles the pool (not beyond the count bound) and the table; cold. */
+  private void grow() {
+    int cap = (int) Math.min((long) capacity * 2, maxPending);
+    int old = capacity;
+    hash = Arrays.copyOf(hash, cap);
+    target = Arrays.copyOf(target, cap);
+    issue = Arrays.copyOf(issue, cap);
+    partition = Arrays.copyOf(partition, cap);
+    offset = Arrays.copyOf(offset, cap);
+    seq = Arrays.copyOf(seq, cap);
+    forecast = Arrays.copyOf(forecast, cap);
+    low = Arrays.copyOf(low, cap);
+    high = Arrays.copyOf(high, cap);
+    key = Arrays.copyOf(key, cap);
+    keyLength = Arrays.copyOf(keyLength, cap);
+    prev = Arrays.copyOf(prev, cap);
+    next = Arrays.copyOf(next, cap);
+    // called only when no entry is free: the new ids are the free ones, the lowest taken first
+    free = new int[cap];
+    int top = 0;
+    for (int i = cap - 1; i >= old; i--) {
+      free[top++] = i;
+    }
+    freeTop = top;
+    capacity = cap;
+    int t = Integer.highestOneBit(cap) << 2;
+    table = new int[t];
+    Arrays.fill(table, NONE);
+    mask = t - 1;
+    for (int e = first; e != NONE; e = next[e]) {
+      tableInsert(e);
+    }
+  }
+
+  /** The 64-bit hash of an entity text and a target time (FNV-1a over the chars, then a finalizing mix). */
+  static long hash(char[] k, int n, long targetMillis) {
+    long h = 0xcbf29ce484222325L;
+    for (int i = 0; i < n; i++) {
+      h ^= k[i];
+      h *= 0x100000001b3L;
+    }
+    h ^= targetMillis * 0x9E3779B97F4A7C15L;
+    h ^= h >>> 33;
+    h *= 0xff51afd7ed558ccdL;
+    h ^= h >>> 33;
+    h *= 0xc4ceb9fe1a85ec53L;
+    h ^= h >>> 33;
+    return h;
+  }
+
+  private boolean expired(long targetMillis, long nowMillis) {
+    return nowMillis != Long.MIN_VALUE && nowMillis - targetMillis > maxDelayMillis;
+  }
+
+  /** Frees what the last take returned. */
+  private void recycle() {
+    for (int i = 0; i < takenToFree; i++) {
+      free[freeTop++] = taken[i];
+    }
+    takenToFree = 0;
+  }
+
+  /** Drops first-issued forecasts whose target time is more than the age bound behind {@code nowMillis}. */
+  void expireFront(long nowMillis) {
+    recycle();
+    while (first != NONE && expired(target[first], nowMillis)) {
+      int e = first;
+      unlink(e);
+      tableRemove(e);
+      free[freeTop++] = e;
+      droppedExpired++;
+    }
+  }
+
+  /**
+   * Remembers one forecast, unless its target time is already more than the age bound behind the
+   * clock (then it is counted as dropped). When full, the forecast issued first is dropped.
+   *
+   * @param k the entity text. Not modified (copied).
+   * @return whether it was remembered
+   */
+  boolean add(char[] k, int n, long targetMillis, long issueMillis, double value, double lo, double hi,
+              long sourcePartition, long sourceOffset, long nowMillis) {
+    expireFront(nowMillis);
+    if (expired(targetMillis, nowMillis)) {
+      droppedExpired++;
+      return false;
+    }
+    if (size == maxPending) {
+      int e = first;
+      unlink(e);
+      tableRemove(e);
+      free[freeTop++] = e;
+      droppedFull++;
+    } else if (freeTop == 0) {
+      grow();
+    }
+    int e = free[--freeTop];
+    hash[e] = hash(k, n, targetMillis);
+    target[e] = targetMillis;
+    issue[e] = issueMillis;
+    forecast[e] = value;
+    low[e] = lo;
+    high[e] = hi;
+    partition[e] = sourcePartition;
+    offset[e] = sourceOffset;
+    seq[e] = nextSeq++;
+    if (key[e] == null || key[e].length < n) {
+      key[e] = new char[Math.max(n, 16)];
+    }
+    System.arraycopy(k, 0, key[e], 0, n);
+    keyLength[e] = n;
+    prev[e] = last;
+    next[e] = NONE;
+    if (last != NONE) {
+      next[last] = e;
+    } else {
+      first = e;
+    }
+    last = e;
+    size++;
+    tableInsert(e);
+    remembered++;
+    return true;
+  }
+
+  /**
+   * Takes out every forecast pending for (entity, target time), in the order they were issued.
+   * Read them with the {@code taken*} methods until the next call. When the target time is already
+   * more than the age bound behind the clock they are dropped (counted) instead, and 0 is returned.
+   *
+   * @param k the entity text. Not modified.
+   * @return how many were taken
+   */
+  int take(char[] k, int n, long targetMillis, long nowMillis) {
+    expireFront(nowMillis);
+    long h = hash(k, n, targetMillis);
+    int found = 0;
+    for (int i = (int) h & mask; table[i] != NONE; i = (i + 1) & mask) {
+      int e = table[i];
+      if (hash[e] == h && target[e] == targetMillis && sameKey(e, k, n)) {
+        if (found == taken.length) {
+          taken = Arrays.copyOf(taken, found * 2);
+        }
+        taken[found++] = e;
+      }
+    }
+    // in the order issued (insertion sort on the sequence numbers; a handful per key)
+    for (int i = 1; i < found; i++) {
+      int e = taken[i];
+      int j = i - 1;
+      while (j >= 0 && seq[taken[j]] > seq[e]) {
+        taken[j + 1] = taken[j];
+        j--;
+      }
+      taken[j + 1] = e;
+    }
+    for (int i = 0; i < found; i++) {
+      int e = taken[i];
+      unlink(e);
+      tableRemove(e);
+    }
+    takenToFree = found;
+    if (found > 0 && expired(targetMillis, nowMillis)) {
+      droppedExpired += found;
+      return 0;
+    }
+    settled += found;
+    return found;
+  }
+
+  private boolean sameKey(int e, char[] k, int n) {
+    if (keyLength[e] != n) {
+      return false;
+    }
+    char[] a = key[e];
+    for (int i = 0; i < n; i++) {
+      if (a[i] != k[i]) {
+        return false;
+      }
+    }
+    return true;
+  }
+
+  private void unlink(int e) {
+    int p = prev[e];
+    int q = next[e];
+    if (p != NONE) {
+      next[p] = q;
+    } else {
+      first = q;
+    }
+    if (q != NONE) {
+      prev[q] = p;
+    } else {
+      last = p;
+    }
+    size--;
+  }
+
+  private void tableInsert(int e) {
+    int i = (int) hash[e] & mask;
+    while (table[i] != NONE) {
+      i = (i + 1) & mask;
+    }
+    table[i] = e;
+  }
+
+  /** Removes entry {@code e} from the table and shifts the rest of its probe run back. */
+  private void tableRemove(int e) {
+    int i = (int) hash[e] & mask;
+    while (table[i] != e) {
+      i = (i + 1) & mask;
+    }
+    table[i] = NONE;
+    int j = i;
+    while (true) {
+      j = (j + 1) & mask;
+      int f = table[j];
+      if (f == NONE) {
+        return;
+      }
+      int home = (int) hash[f] & mask;
+      boolean stays = i <= j ? (i < home && home <= j) : (i < home || home <= j);
+      if (!stays) {
+        table[i] = f;
+        table[j] = NONE;
+        i = j;
+      }
+    }
+  }
+
+  long takenIssueMillis(int i) { return issue[taken[i]]; }
+
+  double takenForecast(int i) { return forecast[taken[i]]; }
+
+  double takenLow(int i) { return low[taken[i]]; }
+
+  double takenHigh(int i) { return high[taken[i]]; }
+
+  long takenPartition(int i) { return partition[taken[i]]; }
+
+  long takenOffset(int i) { return offset[taken[i]]; }
+
+  /** Forecasts pending now. */
+  int size() { return size; }
+
+  /** Forecasts remembered since the state began. */
+  long remembered() { return remembered; }
+
+  /** Forecasts settled by their actual since the state began. */
+  long settled() { return settled; }
+
+  /** Forecasts dropped by the count bound. */
+  long droppedFull() { return droppedFull; }
+
+  /** Forecasts dropped by the age bound (including requests whose target time was already too old). */
+  long droppedExpired() { return droppedExpired; }
+
+  /** Writes the counters and the pending forecasts in the order issued. @param out modified */
+  void writeTo(DataOutput out) throws IOException {
+    out.writeLong(remembered);
+    out.writeLong(settled);
+    out.writeLong(droppedFull);
+    out.writeLong(droppedExpired);
+    out.writeLong(nextSeq);
+    out.writeInt(size);
+    for (int e = first; e != NONE; e = next[e]) {
+      out.writeInt(keyLength[e]);
+      for (int i = 0; i < keyLength[e]; i++) {
+        out.writeChar(key[e][i]);
+      }
+      out.writeLong(target[e]);
+      out.writeLong(issue[e]);
+      out.writeDouble(forecast[e]);
+      out.writeDouble(low[e]);
+      out.writeDouble(high[e]);
+      out.writeLong(partition[e]);
+      out.writeLong(offset[e]);
+      out.writeLong(seq[e]);
+    }
+  }
+
+  /** Forgets everything: no forecast pending, counters at zero. */
+  void clear() {
+    allocate(Math.min(maxPending, 64));
+    first = NONE;
+    last = NONE;
+    size = 0;
+    takenToFree = 0;
+    remembered = 0;
+    settled = 0;
+    droppedFull = 0;
+    droppedExpired = 0;
+    nextSeq = 0;
+  }
+
+  /** Replaces the state with what {@link #writeTo} wrote. */
+  void readFrom(DataInput in) throws IOException {
+    clear();
+    long rem = in.readLong();
+    long set = in.readLong();
+    long full = in.readLong();
+    long exp = in.readLong();
+    long sq = in.readLong();
+    int n = in.readInt();
+    if (n < 0 || n > maxPending) {
+      throw new IOException(n + " pending forecasts in the checkpoint, more than input.forecast.max_pending (" + maxPending + ")");
+    }
+    char[] k = new char[16];
+    for (int r = 0; r < n; r++) {
+      int len = in.readInt();
+      if (len < 0 || len > 1 << 26) {
+        throw new IOException("a pending forecast's entity of " + len + " characters");
+      }
+      if (k.length < len) {
+        k = new char[len];
+      }
+      for (int i = 0; i < len; i++) {
+        k[i] = in.readChar();
+      }
+      long t = in.readLong();
+      long is = in.readLong();
+      double f = in.readDouble();
+      double lo = in.readDouble();
+      double hi = in.readDouble();
+      long p = in.readLong();
+      long o = in.readLong();
+      long s = in.readLong();
+      add(k, len, t, is, f, lo, hi, p, o, Long.MIN_VALUE);
+      seq[last] = s;
+    }
+    remembered = rem;
+    settled = set;
+    droppedFull = full;
+    droppedExpired = exp;
+    nextSeq = sq;
+  }
+}
