@@ -1,12 +1,9 @@
 package dev.runnel.core.bench;
 
-import java.lang.management.ManagementFactory;
-import java.lang.management.ThreadMXBean;
 import java.lang.reflect.Method;
 import java.net.URL;
 import java.net.URLClassLoader;
 import java.nio.file.Path;
-import java.util.Arrays;
 import java.util.List;
 import java.util.Locale;
 import java.util.Optional;
@@ -42,32 +39,10 @@ public final class DecodeBuildsAB {
     }
     if (a == null || b == null) throw new IllegalArgumentException("--a JAR and --b JAR are required (benchmarks jars of the two builds)");
     Runnable[] run = {driver(a), driver(b)};
-    for (int w = 0; w < 400; w++) {
-      run[0].run();
-      run[1].run();
-    }
-    ThreadMXBean threads = ManagementFactory.getThreadMXBean();
-    double[][] rate = new double[2][slices];
-    double[] ratio = new double[slices];
-    for (int s = 0; s < slices; s++) {
-      for (int k = 0; k < 2; k++) {
-        int v = s % 2 == 0 ? k : 1 - k;
-        long c0 = threads.getCurrentThreadCpuTime();
-        long done = 0;
-        while (threads.getCurrentThreadCpuTime() - c0 < 500_000_000L) {
-          run[v].run();
-          done += LINES;
-        }
-        rate[v][s] = done / ((threads.getCurrentThreadCpuTime() - c0) * 1e-9);
-      }
-      ratio[s] = rate[1][s] / rate[0][s];
-    }
-    Arrays.sort(rate[0]);
-    Arrays.sort(rate[1]);
-    Arrays.sort(ratio);
+    PairedSlices.Result r = PairedSlices.measure(run, LINES, 400, slices);
     System.out.println(String.format(Locale.ROOT,
         "decode, demo sample, slices=%d: A median %.1f ns/line, B median %.1f ns/line; B/A rate paired median %.3f [quartiles %.3f, %.3f] (A=%s, B=%s)",
-        slices, 1e9 / rate[0][slices / 2], 1e9 / rate[1][slices / 2], ratio[slices / 2], ratio[slices / 4], ratio[(3 * slices) / 4], a, b));
+        slices, 1e9 / r.medianA(), 1e9 / r.medianB(), r.medianRatio(), r.lowerQuartileRatio(), r.upperQuartileRatio(), a, b));
   }
 
   /** Lines decoded per call. */

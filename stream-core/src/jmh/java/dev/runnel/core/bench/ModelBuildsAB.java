@@ -2,8 +2,6 @@ package dev.runnel.core.bench;
 
 import java.lang.invoke.MethodHandle;
 import java.lang.invoke.MethodHandles;
-import java.lang.management.ManagementFactory;
-import java.lang.management.ThreadMXBean;
 import java.lang.reflect.Constructor;
 import java.lang.reflect.Method;
 import java.net.URL;
@@ -13,7 +11,6 @@ import java.nio.file.Files;
 import java.nio.file.Path;
 import java.nio.file.StandardOpenOption;
 import java.time.Instant;
-import java.util.Arrays;
 import java.util.Locale;
 
 /**
@@ -66,33 +63,11 @@ public final class ModelBuildsAB {
     double[] ys = new double[N];
     double[][] rows = BenchData.denseRows(p, N, 7, ys);
     Runnable[] run = {driver(a, p, guard, rows, ys), driver(b, p, guard, rows, ys)};
-    for (int w = 0; w < 3000; w++) { // warm-up: both compiled
-      run[0].run();
-      run[1].run();
-    }
-    ThreadMXBean threads = ManagementFactory.getThreadMXBean();
-    double[][] rate = new double[2][slices];
-    double[] ratio = new double[slices];
-    for (int s = 0; s < slices; s++) {
-      for (int k = 0; k < 2; k++) {
-        int v = s % 2 == 0 ? k : 1 - k;
-        long c0 = threads.getCurrentThreadCpuTime();
-        long done = 0;
-        while (threads.getCurrentThreadCpuTime() - c0 < 500_000_000L) {
-          run[v].run();
-          done += 1000;
-        }
-        rate[v][s] = done / ((threads.getCurrentThreadCpuTime() - c0) * 1e-9);
-      }
-      ratio[s] = rate[1][s] / rate[0][s];
-    }
-    Arrays.sort(rate[0]);
-    Arrays.sort(rate[1]);
-    Arrays.sort(ratio);
+    PairedSlices.Result r = PairedSlices.measure(run, 1000, 3000, slices);
     String line = String.format(Locale.ROOT,
         "%s p=%d guard=%b slices=%d: A median %,.0f updates/s, B median %,.0f; B/A paired median %.3f [quartiles %.3f, %.3f] (A=%s, B=%s)",
-        Instant.now(), p, guard, slices, rate[0][slices / 2], rate[1][slices / 2], ratio[slices / 2],
-        ratio[slices / 4], ratio[(3 * slices) / 4], a, b);
+        Instant.now(), p, guard, slices, r.medianA(), r.medianB(), r.medianRatio(),
+        r.lowerQuartileRatio(), r.upperQuartileRatio(), a, b);
     System.out.println(line);
     if (append != null) {
       Files.writeString(append, line + "\n", StandardCharsets.UTF_8, StandardOpenOption.CREATE, StandardOpenOption.APPEND);

@@ -1,7 +1,5 @@
 package dev.runnel.core.bench;
 
-import java.lang.management.ManagementFactory;
-import java.lang.management.ThreadMXBean;
 import java.lang.reflect.Method;
 import java.lang.reflect.Proxy;
 import java.net.URL;
@@ -11,7 +9,6 @@ import java.nio.file.Files;
 import java.nio.file.Path;
 import java.nio.file.StandardOpenOption;
 import java.time.Instant;
-import java.util.Arrays;
 import java.util.List;
 import java.util.Locale;
 
@@ -65,33 +62,11 @@ public final class PipelineBuildsAB {
     byte[][] recs = Files.readAllLines(records).stream().filter(l -> !l.isBlank())
         .map(l -> l.getBytes(StandardCharsets.UTF_8)).toArray(byte[][]::new);
     Runnable[] run = {driver(a, yaml, recs), driver(b, yaml, recs)};
-    for (int w = 0; w < 300; w++) { // warm-up: both compiled, 300,000 records each
-      run[0].run();
-      run[1].run();
-    }
-    ThreadMXBean threads = ManagementFactory.getThreadMXBean();
-    double[][] rate = new double[2][slices];
-    double[] ratio = new double[slices];
-    for (int s = 0; s < slices; s++) {
-      for (int k = 0; k < 2; k++) {
-        int v = s % 2 == 0 ? k : 1 - k;
-        long c0 = threads.getCurrentThreadCpuTime();
-        long done = 0;
-        while (threads.getCurrentThreadCpuTime() - c0 < 500_000_000L) {
-          run[v].run();
-          done += 1000;
-        }
-        rate[v][s] = done / ((threads.getCurrentThreadCpuTime() - c0) * 1e-9);
-      }
-      ratio[s] = rate[1][s] / rate[0][s];
-    }
-    Arrays.sort(rate[0]);
-    Arrays.sort(rate[1]);
-    Arrays.sort(ratio);
+    PairedSlices.Result r = PairedSlices.measure(run, 1000, 300, slices);
     String line = String.format(Locale.ROOT,
         "%s %s slices=%d: A median %,.0f records/s, B median %,.0f; B/A paired median %.3f [quartiles %.3f, %.3f] (A=%s, B=%s)",
-        Instant.now(), label, slices, rate[0][slices / 2], rate[1][slices / 2], ratio[slices / 2],
-        ratio[slices / 4], ratio[(3 * slices) / 4], a, b);
+        Instant.now(), label, slices, r.medianA(), r.medianB(), r.medianRatio(),
+        r.lowerQuartileRatio(), r.upperQuartileRatio(), a, b);
     System.out.println(line);
     System.out.printf(Locale.ROOT, "callbacks (both builds): %,d predictions, %,d rejects, %,d snapshots%n", CALLS[0], CALLS[1], CALLS[2]);
     if (append != null) {
