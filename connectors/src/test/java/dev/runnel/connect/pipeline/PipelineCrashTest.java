@@ -101,7 +101,7 @@ class PipelineCrashTest {
     try (Admin admin = KafkaTestSupport.admin(bs)) {
       Process p = startRunner(config, 0);
       for (int k = 0; k < 3; k++) {
-        final long threshold = k == 0 ? killAt[0] : Math.max(killAt[k], committedAtKill[k - 1] + 3_000);
+        final long threshold = k == 0 ? killAt[0] : Math.min(total, Math.max(killAt[k], committedAtKill[k - 1] + 3_000));
         final Process running = p;
         KafkaTestSupport.await("committed offsets reaching " + threshold, Duration.ofSeconds(180), () -> {
           if (!running.isAlive()) {
