@@ -29,6 +29,7 @@ class CrashRecoveryTest {
     Path log = Paths.get("target", "crash-runner-" + run + ".log").toAbsolutePath();
     List<String> cmd = new ArrayList<>(List.of(Paths.get(System.getProperty("java.home"), "bin", "java").toString(),
         "-Xmx256m", "-XX:+UseSerialGC", "-Dorg.slf4j.simpleLogger.logFile=" + log,
+        "-Drunnel.test.recordsPerMilli=20", // about 20,000 records/s, so the kills land mid-stream (SumProcessor)
         "-cp", EmbeddedBroker.childClasspath(), RunnerMain.class.getName(),
         "--bootstrap", bootstrap, "--name", NAME, "--topic", TOPIC, "--factory", SumProcessorFactory.class.getName(),
         "--commit-interval-ms", "200", "--commit-interval-records", "1500", "--instance-id", "0"));

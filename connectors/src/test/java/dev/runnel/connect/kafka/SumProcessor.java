@@ -10,6 +10,13 @@ import java.nio.charset.StandardCharsets;
  */
 public final class SumProcessor implements PartitionProcessor {
   public static final int SNAPSHOT_EVERY = 1000;
+  /**
+   * Records between pauses of 1 ms, from the system property {@code runnel.test.recordsPerMilli}
+   * (unset: no pause). The crash test runs its child runner at about that many records per
+   * millisecond so that its kills land mid-stream: unthrottled, a runner on an idle machine finished
+   * the whole input before the last kill.
+   */
+  private static final int RECORDS_PER_PAUSE = Integer.getInteger("runnel.test.recordsPerMilli", 0);
   private final int partition;
   private long sum;
   private long count;
@@ -34,6 +41,13 @@ public final class SumProcessor implements PartitionProcessor {
     } catch (RuntimeException e) {
       out.reject(key, ("{\"partition\":" + partition + ",\"offset\":" + offset + ",\"reason\":\"not_a_number\"}").getBytes(StandardCharsets.UTF_8));
       return;
+    }
+    if (RECORDS_PER_PAUSE > 0 && count % RECORDS_PER_PAUSE == 0) {
+      try {
+        Thread.sleep(1);
+      } catch (InterruptedException e) {
+        Thread.currentThread().interrupt();
+      }
     }
     out.prediction(key, ("{\"partition\":" + partition + ",\"offset\":" + offset + ",\"sum_before\":" + sum + "}").getBytes(StandardCharsets.UTF_8));
     sum += v;
