@@ -71,6 +71,9 @@ public final class ConfigKeys {
   public static final ConfigKey<?> FORECAST_TARGET_TIME_FIELD = add(ConfigKey.structured("input.forecast", "target_time_field", "text", "required"));
   public static final ConfigKey<Integer> FORECAST_MAX_PENDING = add(ConfigKey.wholeInt("input.forecast", "max_pending", PipelineConfig.Forecast.DEFAULT_MAX_PENDING, 1, 10_000_000));
   public static final ConfigKey<Long> FORECAST_MAX_ACTUAL_DELAY = add(ConfigKey.duration("input.forecast", "max_actual_delay", PipelineConfig.Forecast.DEFAULT_MAX_ACTUAL_DELAY_MILLIS, "P7D"));
+  public static final ConfigKey<?> FORECAST_MAX_ACTUAL_LAG = add(ConfigKey.structured("input.forecast", "max_actual_lag", "ISO 8601 duration", "max_actual_delay"));
+  public static final ConfigKey<Integer> FORECAST_MAX_LEARNED_ACTUALS = add(ConfigKey.wholeInt("input.forecast", "max_learned_actuals", PipelineConfig.Forecast.DEFAULT_MAX_LEARNED_ACTUALS, 0, 10_000_000));
+  public static final ConfigKey<Correction> FORECAST_CORRECTIONS = add(ConfigKey.choice("input.forecast", "corrections", PipelineConfig.Forecast.DEFAULT_CORRECTIONS, Correction.values(), Correction::word));
 
   // ---- features: kind onehot ----
   public static final ConfigKey<?> ONEHOT_FIELD = add(ConfigKey.structured("features.onehot", "field", "text", "required"));

@@ -444,7 +444,21 @@ public final class ConfigLoader {
       if (!times.contains(target)) throw notAllowed(f.p("target_time_field"), f.get("target_time_field"), timeAllowed);
       int max = ConfigKeys.FORECAST_MAX_PENDING.read(f);
       long delay = ConfigKeys.FORECAST_MAX_ACTUAL_DELAY.read(f);
-      return new PipelineConfig.Forecast(entity, target, max, delay);
+      long lag = delay;
+      if (f.has("max_actual_lag")) {
+        lag = f.durationMillis("max_actual_lag");
+        if (lag < delay) {
+          throw notAllowed(f.p("max_actual_lag"), f.get("max_actual_lag"), "use a span at least as long as input.forecast.max_actual_delay ("
+              + Duration.ofMillis(delay) + "): a forecast never waits for an actual that would be rejected as too late");
+        }
+      }
+      int learned = ConfigKeys.FORECAST_MAX_LEARNED_ACTUALS.read(f);
+      Correction corrections = ConfigKeys.FORECAST_CORRECTIONS.read(f);
+      if (corrections == Correction.REPLACE && learned == 0) {
+        throw notAllowed(f.p("corrections"), f.get("corrections"), "corrections: replace needs the memory of learned actuals;"
+            + " set input.forecast.max_learned_actuals above 0, or use reject or learn_as_new");
+      }
+      return new PipelineConfig.Forecast(entity, target, max, delay, lag, learned, corrections);
     }
 
     private static List<String> fieldsOfType(RecordSchema s, FieldType a, FieldType b) {

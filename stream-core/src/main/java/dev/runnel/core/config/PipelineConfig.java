@@ -99,13 +99,22 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    * @param targetTimeField {@code target_time_field}: a declared time field; null when absent
    * @param maxPending {@code max_pending}: most forecasts remembered until their actual arrives
    * @param maxActualDelayMillis {@code max_actual_delay}: how long past its target time a forecast waits for its actual
+   * @param maxActualLagMillis {@code max_actual_lag}: an actual whose target time is further than this behind
+   *     the stream clock is rejected ({@code actual_too_late}); at least {@code maxActualDelayMillis}
+   * @param maxLearnedActuals {@code max_learned_actuals}: most (entity, target time) keys remembered as
+   *     learned, to reject a repeated actual and to find a correction; 0: none (every actual is learned)
+   * @param corrections {@code corrections}: what a second actual with a different value does
    */
-  public record Forecast(List<String> entityFields, String targetTimeField, int maxPending, long maxActualDelayMillis) {
+  public record Forecast(List<String> entityFields, String targetTimeField, int maxPending, long maxActualDelayMillis,
+                         long maxActualLagMillis, int maxLearnedActuals, Correction corrections) {
     /** The defaults of the bounds. */
     public static final int DEFAULT_MAX_PENDING = 100_000;
     public static final long DEFAULT_MAX_ACTUAL_DELAY_MILLIS = 7 * 86_400_000L;
+    public static final int DEFAULT_MAX_LEARNED_ACTUALS = 100_000;
+    public static final Correction DEFAULT_CORRECTIONS = Correction.REJECT;
     /** No {@code input.forecast}: the target time is the event time and nothing is remembered. */
-    public static final Forecast NONE = new Forecast(List.of(), null, DEFAULT_MAX_PENDING, DEFAULT_MAX_ACTUAL_DELAY_MILLIS);
+    public static final Forecast NONE = new Forecast(List.of(), null, DEFAULT_MAX_PENDING, DEFAULT_MAX_ACTUAL_DELAY_MILLIS,
+        DEFAULT_MAX_ACTUAL_DELAY_MILLIS, DEFAULT_MAX_LEARNED_ACTUALS, DEFAULT_CORRECTIONS);
 
     /** Copies the list. */
     public Forecast {

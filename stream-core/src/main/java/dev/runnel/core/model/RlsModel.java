@@ -727,6 +727,112 @@ public final class RlsModel implements LayoutListener {
   }
 
   /**
+   * Removes one data row's information exactly (a downdate: a rank-one update with negative
+   * weight): afterwards the model holds the minimizer of the same problem without the row
+   * {@code sqrt(weight) [x | y]}, where {@code weight} is what forgetting has left of the row since
+   * it was learned ({@code 1} with no forgetting) and {@code x} is the row in today's basis and
+   * layout. The information loses {@code weight x x^T}, the weighted residual sum of squares the
+   * row's share, and the effective sample size {@code weight}. Not undone: the noise estimate (an
+   * average of a-priori errors), the count of updates and the windup guard's bookkeeping.
+   *
+   * <p>Method (the classic Cholesky downdate of an augmented factor, common practice): with the
+   * stored factor {@code r}, solve {@code r^T a = u} for the row {@code u} in stored units; the
+   * downdate exists when {@code |a| < 1}; Givens rotations from the last row up turn
+   * {@code [a; sqrt(1 - |a|^2)]} into the last unit vector, and the same rotations applied to
+   * {@code [r; 0]} leave the downdated factor above the row {@code u^T}; applied to
+   * {@code [z; zeta]} with {@code zeta = (y_u - a^T z) / sqrt(1 - |a|^2)} they leave the
+   * downdated {@code z} above {@code y_u}, and the residual sum of squares falls by
+   * {@code zeta^2}. Pivots are kept positive (a row and its {@code z} entry change sign together).
+   * {@code O(p^2)}; allocates nothing.
+   *
+   * @param x the row in layout order. Not modified.
+   * @param y its target
+   * @param weight the row's weight now, in (0, 1]
+   * @return false, with the model unchanged, if the row is not finite or removing it would leave
+   *     the information not positive definite (to a margin of 1e-12): the row was not (all) in it
+   * @throws IllegalArgumentException if {@code weight} is not in (0, 1] or {@code x} is too short
+   */
+  public boolean downdate(double[] x, double y, double weight) {
+    if (!(weight > 0 && weight <= 1)) {
+      throw new IllegalArgumentException("weight must be in (0, 1], got " + weight);
+    }
+    checkLength(x);
+    if (!acceptable(x, y)) {
+      return false;
+    }
+    applyRebases();
+    final int n = p;
+    final double[][] rm = r;
+    final double f = Math.sqrt(weight) / scale;
+    final double[] u = work;
+    gather(x, u);
+    for (int k = 0; k < n; k++) {
+      u[k] *= f;
+    }
+    final double yu = y * f;
+    // forward substitution r^T a = u (column i of r above the diagonal, read down the rows)
+    final double[] a = work2;
+    double norm2 = 0.0;
+    for (int i = 0; i < n; i++) {
+      double t = u[i];
+      for (int k = 0; k < i; k++) {
+        t -= rm[k][i] * a[k];
+      }
+      double d = rm[i][i];
+      if (!(d > 0 && d < Double.POSITIVE_INFINITY)) {
+        return false;
+      }
+      a[i] = t / d;
+      norm2 += a[i] * a[i];
+    }
+    if (!(norm2 < 1.0 - 1e-12)) {
+      return false;
+    }
+    double alpha = Math.sqrt(1.0 - norm2);
+    double az = 0.0;
+    for (int i = 0; i < n; i++) {
+      az += a[i] * z[i];
+    }
+    final double zeta0 = (yu - az) / alpha;
+    double zeta = zeta0;
+    final double[] v = work3; // the row below the factor, filled by the rotations
+    for (int k = 0; k < n; k++) {
+      v[k] = 0.0;
+    }
+    for (int i = n - 1; i >= 0; i--) {
+      final double ai = a[i];
+      final double h = StrictMath.hypot(ai, alpha);
+      final double cs = alpha / h;
+      final double sn = ai / h;
+      alpha = h;
+      final double[] row = rm[i];
+      for (int j = i; j < n; j++) {
+        final double rij = row[j];
+        final double vj = v[j];
+        row[j] = cs * rij - sn * vj;
+        v[j] = sn * rij + cs * vj;
+      }
+      final double zi = z[i];
+      z[i] = cs * zi - sn * zeta;
+      zeta = sn * zi + cs * zeta;
+      if (row[i] < 0.0) {
+        for (int j = i; j < n; j++) {
+          row[j] = -row[j];
+        }
+        z[i] = -z[i];
+      }
+    }
+    factorChanged();
+    final double e = zeta0 * scale;
+    rho2 = Math.max(0.0, rho2 - e * e);
+    nEff = Math.max(0.0, nEff - weight);
+    if (settings.diffuse()) {
+      ready = fullRank();
+    }
+    return true;
+  }
+
+  /**
    * The data row's rotations of rows {@code [from, to)}, the rows before the refresh row (all of
    * them without the guard): the expressions of {@link #update}'s combined loop without the
    * refresh's tests, so the bits are the same. {@code acc} carries {@code yw, g, q, zMax} and the

@@ -217,6 +217,10 @@ public final class OutputJson {
       number(g, K_ACTUAL, s.actual());
       number(g, K_ERROR, s.error());
       g.writeBooleanField("covered", s.covered());
+      if (s.correction()) {
+        g.writeBooleanField("correction", true);
+        number(g, "replaced_actual", s.replacedActual());
+      }
       g.writeFieldName("request");
       writeSourceObject(g, s.requestPartition(), s.requestOffset());
       g.writeFieldName("actual_source");

@@ -1,5 +1,6 @@
 package dev.runnel.core.pipeline;
 
+import dev.runnel.core.config.Correction;
 import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.drift.DriftMonitor;
 import dev.runnel.core.feature.Featurizer;
@@ -75,12 +76,19 @@ public final class PipelineStep {
   }
 
   /**
-   * Latest version of the checkpoint layout: 4 adds the pending forecasts. A step without
+   * Latest version of the checkpoint layout: 4 adds the pending forecasts, 5 the memory of learned
+   * actuals (and, for {@code corrections: replace}, what removing one needs). A step without
    * {@code input.forecast} has none and still writes version 3, byte for byte as before.
    */
-  public static final int CHECKPOINT_VERSION = 4;
+  public static final int CHECKPOINT_VERSION = 5;
   private static final int CHECKPOINT_VERSION_WITHOUT_FORECASTS = 3;
   private static final int CHECKPOINT_MAGIC = 0x524E4C43; // "RNLC"
+  /**
+   * How many per-reason counters every checkpoint holds: the 15 that checkpoints held before the
+   * reasons for actuals were added (the 15th was then {@code processing_failed}, which the step never
+   * counts, so it was always 0); the counters after them are written once one of them is counted.
+   */
+  private static final int LEGACY_REJECT_COUNTS = 15;
 
   private final PipelineConfig config;
   private final JsonRecordDecoder decoder;
@@ -102,6 +110,25 @@ public final class PipelineStep {
   private char[] entityKey = new char[64];
   private int entityKeyLength;
   private final SettledForecast settledForecast = new SettledForecast();
+  /** {@code input.forecast.max_actual_lag}: an actual further behind the clock is rejected. */
+  private final long maxActualLagMillis;
+  /** The (entity, target time) keys learned, with their values; null without input.forecast or with max_learned_actuals: 0. */
+  private final LearnedActuals learned;
+  private final Correction corrections;
+  /** {@code corrections: replace} only (else null): column ids and bases, settled forecasts kept for re-settling. */
+  private final ColumnBases bases;
+  private final PendingForecasts settledKept;
+  /** {@code corrections: replace}: the sum of log(lambda) over every update since the state began, and model restarts. */
+  private double logDecay;
+  private long generation;
+  private long replacedActuals;
+  private long resettledForecasts;
+  /** Scratch: the replaced observation's row in today's layout. */
+  private double[] oldRow = new double[8];
+  private String correctionDetail = "";
+  /** Scratch: the forecasts taken for re-settling, copied out (issue, partition, offset; forecast, low, high). */
+  private long[] keptLongs = new long[24];
+  private double[] keptDoubles = new double[24];
   private double[] row;
   /** The model's a-priori leverage (element 0) and prediction (element 1) for this record. */
   private final double[] aPriori = new double[2];
@@ -149,11 +176,37 @@ public final class PipelineStep {
       }
       this.targetTimeSlot = in.schema().slot(fc.targetTimeField());
       this.settledForecast.entitySlots = entitySlots;
+      this.maxActualLagMillis = fc.maxActualLagMillis();
+      this.corrections = fc.corrections();
+      boolean replace = fc.maxLearnedActuals() > 0 && fc.corrections() == Correction.REPLACE;
+      this.learned = fc.maxLearnedActuals() > 0 ? new LearnedActuals(fc.maxLearnedActuals(), fc.maxActualLagMillis(), replace) : null;
+      if (replace) {
+        this.bases = new ColumnBases(featurizer.dimension());
+        this.settledKept = new PendingForecasts(fc.maxPending(), fc.maxActualLagMillis());
+        featurizer.setListener(listener());
+      } else {
+        this.bases = null;
+        this.settledKept = null;
+      }
     } else {
       this.pending = null;
       this.entitySlots = new int[0];
       this.targetTimeSlot = -1;
+      this.maxActualLagMillis = Long.MAX_VALUE;
+      this.learned = null;
+      this.corrections = Correction.REJECT;
+      this.bases = null;
+      this.settledKept = null;
     }
+  }
+
+  /** What the featurizer reports layout changes to: the model, through the column bases when they are kept. */
+  private dev.runnel.core.layout.LayoutListener listener() {
+    if (bases == null) {
+      return model;
+    }
+    bases.forwardTo(model);
+    return bases;
   }
 
   /** The model settings a configuration asks for. */
@@ -240,6 +293,39 @@ public final class PipelineStep {
         target = record.timeMillis(targetTimeSlot);
       }
     }
+    // an actual with input.forecast: too late, a repeat, or a correction (docs/forecasting.md)
+    int known = -1;
+    if (hasTarget && pending != null) {
+      long now = clock.nowMillis();
+      if (now != Long.MIN_VALUE && now - target > maxActualLagMillis) {
+        reject(RejectReason.ACTUAL_TOO_LATE, "target time " + java.time.Instant.ofEpochMilli(target) + " is "
+            + java.time.Duration.ofMillis(now - target) + " behind the stream clock " + java.time.Instant.ofEpochMilli(now)
+            + ", more than input.forecast.max_actual_lag (" + java.time.Duration.ofMillis(maxActualLagMillis) + ")", sink);
+        return;
+      }
+      if (learned != null) {
+        known = learned.find(entityKey, entityKeyLength, target, now);
+        if (known >= 0) {
+          double before = learned.value(known);
+          double y = record.number(targetSlot);
+          if (before == y) {
+            reject(RejectReason.REPEATED_ACTUAL, "an actual for this entity and target time "
+                + java.time.Instant.ofEpochMilli(target) + " was already learned with the same value " + y, sink);
+            return;
+          }
+          if (corrections == Correction.REJECT) {
+            reject(RejectReason.CORRECTED_ACTUAL, "an actual for this entity and target time "
+                + java.time.Instant.ofEpochMilli(target) + " was already learned with the value " + before + ", not " + y
+                + " (input.forecast.corrections: reject keeps the first; replace or learn_as_new take corrections)", sink);
+            return;
+          }
+          if (corrections == Correction.REPLACE && !oldRowToday(known)) {
+            reject(RejectReason.CORRECTED_ACTUAL, correctionDetail, sink);
+            return;
+          }
+        }
+      }
+    }
     if (hasTarget) {
       // the stream clock decides whether this time may move event time (docs/model.md)
       StreamClock.Verdict verdict = clock.accept(t);
@@ -253,11 +339,19 @@ public final class PipelineStep {
         // 64 half-lives or more since the clock: what came before weighs under 2^-64 of this
         // record; the model starts again from its prior over the current columns
         model = new RlsModel(featurizer.dimension(), modelSettings(config));
-        featurizer.setListener(model);
+        featurizer.setListener(listener());
         modelRestarts++;
+        generation++;
       }
     }
     double y = hasTarget ? record.number(targetSlot) : Double.NaN;
+    double replaced = Double.NaN;
+    if (known >= 0 && corrections == Correction.REPLACE) {
+      replaced = learned.value(known);
+      if (!removeOld(known, sink)) {
+        return;
+      }
+    }
     ensureRow();
     Prediction p = prediction;
     p.eventTimeMillis = t;
@@ -292,6 +386,9 @@ public final class PipelineStep {
             "the update would have made the model's state non-finite; the model is unchanged", sink);
         return;
       }
+      if (bases != null && clock.lambda() != 1.0) {
+        logDecay += StrictMath.log(clock.lambda());
+      }
       if (warm) {
         p.predicted = aPriori[1];
         half = model.settings().intervalZ() * noiseBefore * Math.sqrt(1.0 + aPriori[0]);
@@ -323,8 +420,14 @@ public final class PipelineStep {
     if (p.status == Prediction.Status.WARMING_UP) {
       warmingUp++;
     }
+    if (hasTarget && learned != null) {
+      remember(known, target, y);
+    }
     if (pending != null) {
       if (hasTarget) {
+        if (!Double.isNaN(replaced)) {
+          resettle(target, y, replaced, partition, offset, sink);
+        }
         settle(target, y, partition, offset, sink);
       } else if (p.status == Prediction.Status.FORECAST) {
         pending.add(entityKey, entityKeyLength, target, t, p.predicted, p.low, p.high, partition, offset, clock.nowMillis());
@@ -431,7 +534,116 @@ public final class PipelineStep {
       s.requestOffset = pending.takenOffset(i);
       s.actualPartition = partition;
       s.actualOffset = offset;
+      s.correction = false;
+      s.replacedActual = Double.NaN;
       sink.settled(s, record);
+    }
+    if (settledKept != null) {
+      // kept until their target time is max_actual_lag behind the clock, to be settled again by a correction
+      for (int i = 0; i < n; i++) {
+        settledKept.add(entityKey, entityKeyLength, target, pending.takenIssueMillis(i), pending.takenForecast(i),
+            pending.takenLow(i), pending.takenHigh(i), pending.takenPartition(i), pending.takenOffset(i), clock.nowMillis());
+      }
+    }
+  }
+
+  /**
+   * A correction under {@code corrections: replace}: every forecast settled earlier by the replaced
+   * actual is settled again, against the corrected one, marked as a correction; they stay kept
+   * for a later correction.
+   */
+  private void resettle(long target, double actual, double replacedActual, long partition, long offset, Sink sink) {
+    int n = settledKept.take(entityKey, entityKeyLength, target, clock.nowMillis());
+    if (keptLongs.length < 3 * n) {
+      keptLongs = new long[3 * n];
+      keptDoubles = new double[3 * n];
+    }
+    SettledForecast s = settledForecast;
+    for (int i = 0; i < n; i++) {
+      // copied out: the entries taken are reused by the next add
+      keptLongs[3 * i] = settledKept.takenIssueMillis(i);
+      keptLongs[3 * i + 1] = settledKept.takenPartition(i);
+      keptLongs[3 * i + 2] = settledKept.takenOffset(i);
+      keptDoubles[3 * i] = settledKept.takenForecast(i);
+      keptDoubles[3 * i + 1] = settledKept.takenLow(i);
+      keptDoubles[3 * i + 2] = settledKept.takenHigh(i);
+    }
+    for (int i = 0; i < n; i++) {
+      s.issueTimeMillis = keptLongs[3 * i];
+      s.targetTimeMillis = target;
+      s.forecast = keptDoubles[3 * i];
+      s.low = keptDoubles[3 * i + 1];
+      s.high = keptDoubles[3 * i + 2];
+      s.actual = actual;
+      s.requestPartition = keptLongs[3 * i + 1];
+      s.requestOffset = keptLongs[3 * i + 2];
+      s.actualPartition = partition;
+      s.actualOffset = offset;
+      s.correction = true;
+      s.replacedActual = replacedActual;
+      sink.settled(s, record);
+      resettledForecasts++;
+    }
+    for (int i = 0; i < n; i++) {
+      settledKept.add(entityKey, entityKeyLength, target, keptLongs[3 * i], keptDoubles[3 * i], keptDoubles[3 * i + 1],
+          keptDoubles[3 * i + 2], keptLongs[3 * i + 1], keptLongs[3 * i + 2], clock.nowMillis());
+    }
+  }
+
+  /**
+   * Writes the observation learned for entry {@code e} in today's layout into {@link #oldRow}
+   * (corrections: replace). False, with {@link #correctionDetail} saying why, when a column it used
+   * has been removed since (its information was marginalized, so it cannot be taken out exactly).
+   */
+  private boolean oldRowToday(int e) {
+    int d = featurizer.dimension();
+    if (oldRow.length < d) {
+      oldRow = new double[Math.max(d, oldRow.length * 2)];
+    }
+    Arrays.fill(oldRow, 0, d, 0.0);
+    if (learned.generation(e) != generation) {
+      return true; // the model restarted since: nothing of the old observation is left in it
+    }
+    for (int i = 0; i < learned.rowLength(e); i++) {
+      int j = bases.indexOf(learned.rowId(e, i));
+      if (j < 0) {
+        correctionDetail = "an actual for this entity and target time was already learned with the value " + learned.value(e)
+            + ", and a column its row used has expired since, so its information cannot be removed exactly;"
+            + " the first value stays (input.forecast.corrections: replace)";
+        return false;
+      }
+      oldRow[j] = bases.toToday(j, learned.rowValue(e, i));
+    }
+    return true;
+  }
+
+  /** Removes the observation learned for entry {@code e} from the model (its row in {@link #oldRow}). */
+  private boolean removeOld(int e, Sink sink) {
+    if (learned.generation(e) != generation) {
+      replacedActuals++;
+      return true; // forgotten entirely by the restart
+    }
+    double w = StrictMath.exp(logDecay - learned.logDecay(e));
+    if (w > 0.0 && !model.downdate(oldRow, learned.value(e), Math.min(1.0, w))) {
+      reject(RejectReason.CORRECTED_ACTUAL, "an actual for this entity and target time was already learned with the value "
+          + learned.value(e) + ", and the model could not remove it exactly (too little information left beside it);"
+          + " the first value stays (input.forecast.corrections: replace)", sink);
+      return false;
+    }
+    replacedActuals++;
+    return true;
+  }
+
+  /** After an actual was learned: its key and value go into the memory (with its row for replace). */
+  private void remember(int known, long target, double y) {
+    int e = known;
+    if (e < 0) {
+      e = learned.add(entityKey, entityKeyLength, target, y, clock.nowMillis());
+    } else {
+      learned.setValue(e, y);
+    }
+    if (bases != null) {
+      learned.keepRow(e, row, featurizer.dimension(), bases, logDecay, generation);
     }
   }
 
@@ -512,6 +724,18 @@ public final class PipelineStep {
    */
   public long droppedForecastsExpired() { return pending != null ? pending.droppedExpired() : 0; }
 
+  /** Keys (entity, target time) remembered as learned now (0 without the memory). */
+  public int learnedActuals() { return learned != null ? learned.size() : 0; }
+
+  /** Learned keys forgotten by {@code input.forecast.max_learned_actuals} while an actual for them could still come. */
+  public long learnedActualsForgottenEarly() { return learned != null ? learned.forgottenEarly() : 0; }
+
+  /** Actuals whose earlier value was removed from the model and replaced ({@code corrections: replace}). */
+  public long replacedActuals() { return replacedActuals; }
+
+  /** Settled forecasts published again against a corrected actual ({@code corrections: replace}). */
+  public long resettledForecasts() { return resettledForecasts; }
+
   /** The stream clock (read only between records). */
   public StreamClock clock() { return clock; }
 
@@ -561,9 +785,18 @@ public final class PipelineStep {
       out.writeLong(forecasts);
       out.writeLong(warmingUp);
       out.writeLong(rejected);
-      out.writeInt(rejectCounts.length);
-      for (long c : rejectCounts) {
-        out.writeLong(c);
+      // the counters of the first reasons always, later ones only once counted (so a checkpoint
+      // that never met a newer reason keeps the bytes it had before that reason existed)
+      int counted = LEGACY_REJECT_COUNTS;
+      for (int i = rejectCounts.length - 1; i >= counted; i--) {
+        if (rejectCounts[i] != 0) {
+          counted = i + 1;
+          break;
+        }
+      }
+      out.writeInt(counted);
+      for (int i = 0; i < counted; i++) {
+        out.writeLong(rejectCounts[i]);
       }
       out.writeLong(trainedAtLastSnapshot);
       out.writeLong(periodOfLastSnapshot);
@@ -575,6 +808,19 @@ public final class PipelineStep {
       drift.writeTo(out);
       if (pending != null) {
         pending.writeTo(out);
+        out.writeBoolean(learned != null);
+        if (learned != null) {
+          learned.writeTo(out);
+        }
+        out.writeBoolean(bases != null);
+        if (bases != null) {
+          bases.writeTo(out);
+          out.writeDouble(logDecay);
+          out.writeLong(generation);
+          out.writeLong(replacedActuals);
+          out.writeLong(resettledForecasts);
+          settledKept.writeTo(out);
+        }
       }
       out.flush();
       return bytes.toByteArray();
@@ -616,6 +862,7 @@ public final class PipelineStep {
       warmingUp = in.readLong();
       rejected = in.readLong();
       int n = in.readInt();
+      Arrays.fill(rejectCounts, 0L);
       for (int i = 0; i < n; i++) {
         long c = in.readLong();
         if (i < rejectCounts.length) {
@@ -641,7 +888,7 @@ public final class PipelineStep {
         clock.restoreLegacy(legacyStreamTime != Long.MIN_VALUE ? legacyStreamTime : legacyForgettingClock, trained);
       }
       model = RlsModel.readFrom(in);
-      featurizer.setListener(model);
+      featurizer.setListener(listener());
       if (version >= 2) {
         snapshotsTaken = in.readLong();
         drift.readFrom(in);
@@ -655,9 +902,60 @@ public final class PipelineStep {
       } else if (pending != null) {
         pending.clear();
       }
+      if (pending != null) {
+        readLearned(version, in);
+      }
       ensureRow();
     } catch (IOException e) {
       throw new IllegalArgumentException("the checkpoint is truncated or corrupt: " + e.getMessage(), e);
+    }
+  }
+
+  /**
+   * The memory of learned actuals (version 5; before it, empty): refused when the checkpoint was
+   * written with a memory of another kind than the configuration asks for.
+   */
+  private void readLearned(int version, DataInputStream in) throws IOException {
+    logDecay = 0.0;
+    generation = 0;
+    replacedActuals = 0;
+    resettledForecasts = 0;
+    if (learned != null) {
+      learned.clear();
+    }
+    if (settledKept != null) {
+      settledKept.clear();
+    }
+    if (bases != null) {
+      // before version 5 the columns had no ids: number them afresh from today's layout
+      ColumnBases fresh = new ColumnBases(featurizer.dimension());
+      java.io.ByteArrayOutputStream b = new java.io.ByteArrayOutputStream();
+      fresh.writeTo(new DataOutputStream(b));
+      bases.readFrom(new DataInputStream(new ByteArrayInputStream(b.toByteArray())), featurizer.dimension());
+    }
+    if (version < 5) {
+      return;
+    }
+    boolean hasLearned = in.readBoolean();
+    if (hasLearned != (learned != null)) {
+      throw new IllegalArgumentException("the checkpoint was written " + (hasLearned ? "with" : "without")
+          + " a memory of learned actuals (input.forecast.max_learned_actuals); keep that setting, or start a new pipeline name (or reset its state)");
+    }
+    if (learned != null) {
+      learned.readFrom(in);
+    }
+    boolean hasBases = in.readBoolean();
+    if (hasBases != (bases != null)) {
+      throw new IllegalArgumentException("the checkpoint was written " + (hasBases ? "with" : "without")
+          + " input.forecast.corrections: replace; keep that setting, or start a new pipeline name (or reset its state)");
+    }
+    if (bases != null) {
+      bases.readFrom(in, featurizer.dimension());
+      logDecay = in.readDouble();
+      generation = in.readLong();
+      replacedActuals = in.readLong();
+      resettledForecasts = in.readLong();
+      settledKept.readFrom(in);
     }
   }
 

@@ -18,6 +18,8 @@ public final class SettledForecast {
   long requestOffset;
   long actualPartition;
   long actualOffset;
+  boolean correction;
+  double replacedActual = Double.NaN;
   /** The slots of the entity fields in the record's schema (set once by the step). Not modified. */
   int[] entitySlots = new int[0];
 
@@ -59,4 +61,13 @@ public final class SettledForecast {
 
   /** The actual's source offset (or line number), or -1. */
   public long actualOffset() { return actualOffset; }
+
+  /**
+   * Whether this forecast was settled before and is settled again against a corrected actual
+   * ({@code input.forecast.corrections: replace}).
+   */
+  public boolean correction() { return correction; }
+
+  /** For a correction, the actual it replaced; NaN otherwise. */
+  public double replacedActual() { return replacedActual; }
 }

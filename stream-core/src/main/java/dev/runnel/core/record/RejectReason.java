@@ -42,6 +42,21 @@ public enum RejectReason {
    */
   WRONG_TIME_UNIT("wrong_time_unit"),
   /**
+   * An actual whose target time is more than {@code input.forecast.max_actual_lag} behind the
+   * stream clock (docs/forecasting.md): too late to learn from or to settle anything.
+   */
+  ACTUAL_TOO_LATE("actual_too_late"),
+  /**
+   * An actual for an (entity, target time) already learned, with the same value: a repeat (a
+   * replayed or duplicated feed), not learned twice (docs/forecasting.md).
+   */
+  REPEATED_ACTUAL("repeated_actual"),
+  /**
+   * An actual for an (entity, target time) already learned, with another value, under
+   * {@code input.forecast.corrections: reject}: the value learned first stays (docs/forecasting.md).
+   */
+  CORRECTED_ACTUAL("corrected_actual"),
+  /**
    * Processing the record threw (a defect, not a data rule): the runner or replay set the record
    * aside and went on with the state it had before the record. Written by connectors, never by the step.
    */

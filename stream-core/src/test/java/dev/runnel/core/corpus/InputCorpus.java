@@ -30,8 +30,12 @@ public final class InputCorpus {
   /** The demo configuration and its recorded sample (invented data). */
   public static final Path DEMO_CONFIG = Path.of("..", "demo-data", "src", "main", "resources", "dev", "runnel", "demo", "quillmarsh.yaml");
   public static final Path SAMPLE = Path.of("..", "demo-data", "samples", "quillmarsh-small.jsonl");
-  /** The feeds, by the word of their event-time format. */
-  public static final List<String> FEEDS = List.of("iso8601", "epoch_millis", "epoch_seconds");
+  /**
+   * The feeds, by the word of their event-time format; {@code forecast} is the ISO 8601 feed under the
+   * demo configuration with {@code input.forecast} (entity {@code hub}, target time {@code hour_start},
+   * a field the sample leaves out, so each sample record's target time is its event time).
+   */
+  public static final List<String> FEEDS = List.of("iso8601", "epoch_millis", "epoch_seconds", "forecast");
 
   /** One kind: its name, expected outcome ("accepted" or a reason id), feed, record template and note. */
   public record Kind(String kind, String expected, String feed, byte[] template, String note) { }
@@ -57,6 +61,13 @@ public final class InputCorpus {
     String yaml = Files.readString(DEMO_CONFIG);
     String from = "format: iso8601";
     if (!yaml.contains(from)) throw new IllegalStateException("the demo configuration no longer says " + from);
+    if (feed.equals("forecast")) {
+      String fields = "    sessions: number\n";
+      String time = "  event_time: {field: observed_at, format: iso8601}\n";
+      if (!yaml.contains(fields) || !yaml.contains(time)) throw new IllegalStateException("the demo configuration's fields changed");
+      return yaml.replace(fields, fields + "    hour_start: time\n")
+          .replace(time, time + "  forecast: {entity_fields: [hub], target_time_field: hour_start}\n");
+    }
     return yaml.replace(from, "format: " + feed);
   }
 
@@ -86,7 +97,7 @@ public final class InputCorpus {
             last = ms;
             lastIso = m.group(1);
           }
-          if (!feed.equals("iso8601")) out = l.substring(0, m.start()) + "\"observed_at\":" + epoch(ms, feed) + l.substring(m.end());
+          if (feed.startsWith("epoch")) out = l.substring(0, m.start()) + "\"observed_at\":" + epoch(ms, feed) + l.substring(m.end());
         } catch (java.time.format.DateTimeParseException e) {
           // a corrupt line of the sample: kept as it is
         }
@@ -108,7 +119,7 @@ public final class InputCorpus {
    */
   public static byte[] expand(Kind kind, long ms, String iso) {
     String s = new String(kind.template(), StandardCharsets.ISO_8859_1); // templates are ASCII
-    String time = kind.feed().equals("iso8601") ? "\"" + iso + "\"" : epoch(ms, kind.feed());
+    String time = kind.feed().startsWith("epoch") ? epoch(ms, kind.feed()) : "\"" + iso + "\"";
     s = s.replace("{{time}}", time)
         .replace("{{time_offset}}", "\"" + OFFSET_TIME.format(OffsetDateTime.ofInstant(Instant.ofEpochMilli(ms), ZoneOffset.ofHoursMinutes(5, 30))) + "\"")
         .replace("{{millis}}", Long.toString(ms))

@@ -183,9 +183,11 @@ class PipelineForecastTest {
     assertTrue(c.settled.get(0).forecast() != c.settled.get(1).forecast(), "the three forecasts differ (temperatures differ)");
     assertEquals(2, step.pendingForecasts(), "B at the target and A an hour later still wait");
     assertEquals(3, step.settledForecasts());
-    // a second actual for (A, target) finds nothing pending
+    // a second actual for (A, target) with another value is a correction: rejected by default, settles nothing
     c.feed(line("A", target + 2 * H, target, 12, 30.0));
     assertEquals(3, c.settled.size());
+    assertEquals(1, c.rejects.size());
+    assertTrue(c.rejects.get(0).startsWith("corrected_actual: "), c.rejects.get(0));
     // the actual for B settles B's one forecast
     c.feed(line("B", target + H, target, 12, 25.0));
     assertEquals(4, c.settled.size());
@@ -220,12 +222,14 @@ class PipelineForecastTest {
     assertTrue(c.predictionAt(oldOffset)[1] == c.predictionAt(oldOffset)[1], "still scored (a value)");
     assertEquals(1, step.pendingForecasts(), "only the recent one is remembered");
     assertEquals(1, step.droppedForecastsExpired(), "the old one is dropped and counted");
-    c.feed(line("C", now + H, old, 9, 20.0)); // a very late actual: learned, settles nothing
+    c.feed(line("C", now + H, old, 9, 20.0)); // a very late actual: past max_actual_lag (= max_actual_delay), rejected
     assertEquals(0, c.settled.size());
+    assertEquals(1, c.rejects.size());
+    assertTrue(c.rejects.get(0).startsWith("actual_too_late: "), c.rejects.get(0));
     c.feed(line("C", now + H, recent, 9, 21.0)); // a late actual for the recent one
     assertEquals(1, c.settled.size());
     assertEquals(recent - now, c.settled.get(0).horizon(), "a negative horizon: issued after its target time");
-    assertTrue(c.rejects.isEmpty(), c.rejects.toString());
+    assertEquals(1, c.rejects.size(), c.rejects.toString());
   }
 
   @Test
@@ -332,7 +336,7 @@ class PipelineForecastTest {
       ByteArrayOutputStream got = new ByteArrayOutputStream();
       got.writeBytes(run(first, feed, 0, split));
       byte[] checkpoint = first.checkpoint();
-      assertEquals(PipelineStep.CHECKPOINT_VERSION, java.nio.ByteBuffer.wrap(checkpoint, 4, 4).getInt(), "version 4 with input.forecast");
+      assertEquals(PipelineStep.CHECKPOINT_VERSION, java.nio.ByteBuffer.wrap(checkpoint, 4, 4).getInt(), "the latest version with input.forecast");
       assertTrue(first.pendingForecasts() > 0, "forecasts pending at the split");
       PipelineStep second = new PipelineStep(cfg);
       second.restore(checkpoint);
