@@ -779,6 +779,10 @@ public final class RlsModel implements LayoutListener {
         t -= rm[k][i] * a[k];
       }
       double d = rm[i][i];
+      if (d == 0.0 && t == 0.0) {
+        a[i] = 0.0; // a column without information (diffuse start) that the row does not touch either
+        continue;
+      }
       if (!(d > 0 && d < Double.POSITIVE_INFINITY)) {
         return false;
       }
