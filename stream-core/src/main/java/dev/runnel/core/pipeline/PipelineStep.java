@@ -52,7 +52,13 @@ import java.util.Arrays;
  * features read the target time, the clock still reads the event time. A forecast request that got
  * a value is remembered in the bounded {@link PendingForecasts} (the one state it changes); an
  * accepted actual, once learned from, settles every forecast pending for its (entity, target time)
- * through {@link Sink#settled}, before its own prediction.
+ * through {@link Sink#settled}, before its own prediction. Before the clock sees an actual, it is
+ * rejected when its target time is more than {@code max_actual_lag} behind the clock
+ * ({@code actual_too_late}), or when the bounded {@link LearnedActuals} memory already learned its
+ * (entity, target time): with the same value ({@code repeated_actual}), or with another value under
+ * {@code corrections: reject} ({@code corrected_actual}); under {@code replace} the first value is
+ * removed from the model by {@link RlsModel#downdate} (its row kept in column ids and first bases,
+ * {@link ColumnBases}) after the clock took the record, and the forecasts it settled are settled again.
  */
 public final class PipelineStep {
 

@@ -211,22 +211,22 @@ class PipelineForecastTest {
     warm(c, rnd, 96); // clock at T0 + 96 h; max_actual_delay P2D
     long now = step.clock().nowMillis();
     assertEquals(T0 + 96 * H, now);
-    long recent = now - 5 * H; // past, within two days: its actual may still come (late)
+    long recent = now - 5 * H; // past, within two days: its actual may still come (late); hub D, whose hours warm() left out
     long old = now - 50 * H; // more than two days behind the clock: its actual would be too late
     long recentOffset = c.offset;
-    c.feed(line("C", now, recent, 9, null));
+    c.feed(line("D", now, recent, 9, null));
     long oldOffset = c.offset;
-    c.feed(line("C", now, old, 9, null));
+    c.feed(line("D", now, old, 9, null));
     assertEquals(1.0, c.predictionAt(recentOffset)[4], "marked target_passed");
     assertEquals(1.0, c.predictionAt(oldOffset)[4], "marked target_passed");
     assertTrue(c.predictionAt(oldOffset)[1] == c.predictionAt(oldOffset)[1], "still scored (a value)");
     assertEquals(1, step.pendingForecasts(), "only the recent one is remembered");
     assertEquals(1, step.droppedForecastsExpired(), "the old one is dropped and counted");
-    c.feed(line("C", now + H, old, 9, 20.0)); // a very late actual: past max_actual_lag (= max_actual_delay), rejected
+    c.feed(line("D", now + H, old, 9, 20.0)); // a very late actual: past max_actual_lag (= max_actual_delay), rejected
     assertEquals(0, c.settled.size());
     assertEquals(1, c.rejects.size());
     assertTrue(c.rejects.get(0).startsWith("actual_too_late: "), c.rejects.get(0));
-    c.feed(line("C", now + H, recent, 9, 21.0)); // a late actual for the recent one
+    c.feed(line("D", now + H, recent, 9, 21.0)); // a late actual for the recent one
     assertEquals(1, c.settled.size());
     assertEquals(recent - now, c.settled.get(0).horizon(), "a negative horizon: issued after its target time");
     assertEquals(1, c.rejects.size(), c.rejects.toString());
