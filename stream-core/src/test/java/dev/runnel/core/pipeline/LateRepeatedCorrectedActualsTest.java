@@ -341,4 +341,33 @@ class LateRepeatedCorrectedActualsTest {
       }
     }
   }
+
+  /**
+   * A version 4 checkpoint (pending forecasts, no memory) restores with an empty memory. Made from a
+   * version 5 one without the memory, whose trailer is then two bytes (no memory, no replace state):
+   * cut them and write version 4, which is the layout version 4 had.
+   */
+  @Test
+  void aVersion4CheckpointRestoresWithAnEmptyMemory() {
+    PipelineStep without = new PipelineStep(config("    max_learned_actuals: 0\n", null));
+    Collector c = new Collector(without);
+    warm(c, new Random(81), 30);
+    c.feed(line("A", T0 + 30 * H, T0 + 40 * H, 9, null)); // a pending forecast
+    byte[] v5 = without.checkpoint();
+    assertEquals(0, v5[v5.length - 1]);
+    assertEquals(0, v5[v5.length - 2]);
+    byte[] v4 = java.util.Arrays.copyOf(v5, v5.length - 2);
+    java.nio.ByteBuffer.wrap(v4).putInt(4, 4);
+    PipelineStep step = new PipelineStep(config("", null));
+    step.restore(v4);
+    assertEquals(without.trained(), step.trained());
+    assertEquals(1, step.pendingForecasts());
+    assertEquals(0, step.learnedActuals());
+    // the memory starts from here: an actual learned before the checkpoint is learned again, once
+    Collector d = new Collector(step);
+    d.feed(line("A", T0 + 30 * H, T0 + 29 * H, 9, 20.0));
+    d.feed(line("A", T0 + 30 * H, T0 + 29 * H, 9, 20.0));
+    assertEquals(without.trained() + 1, step.trained());
+    assertTrue(lastReject(d).startsWith("repeated_actual: "), lastReject(d));
+  }
 }
