@@ -71,6 +71,8 @@ public final class ConfigKeys {
   public static final ConfigKey<?> FORECAST_TARGET_TIME_FIELD = add(ConfigKey.structured("input.forecast", "target_time_field", "text", "required"));
   public static final ConfigKey<Integer> FORECAST_MAX_PENDING = add(ConfigKey.wholeInt("input.forecast", "max_pending", PipelineConfig.Forecast.DEFAULT_MAX_PENDING, 1, 10_000_000));
   public static final ConfigKey<Long> FORECAST_MAX_ACTUAL_DELAY = add(ConfigKey.duration("input.forecast", "max_actual_delay", PipelineConfig.Forecast.DEFAULT_MAX_ACTUAL_DELAY_MILLIS, "P7D"));
+  public static final ConfigKey<?> FORECAST_HORIZON_BUCKETS = add(ConfigKey.structured("input.forecast", "horizon_buckets", "list of ISO 8601 durations", "[PT1H, PT6H, P1D, P7D]"));
+  public static final ConfigKey<Integer> FORECAST_MAX_METRIC_ENTITIES = add(ConfigKey.wholeInt("input.forecast", "max_metric_entities", PipelineConfig.Forecast.DEFAULT_MAX_METRIC_ENTITIES, 0, 100_000));
 
   // ---- features: kind onehot ----
   public static final ConfigKey<?> ONEHOT_FIELD = add(ConfigKey.structured("features.onehot", "field", "text", "required"));

@@ -99,17 +99,36 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    * @param targetTimeField {@code target_time_field}: a declared time field; null when absent
    * @param maxPending {@code max_pending}: most forecasts remembered until their actual arrives
    * @param maxActualDelayMillis {@code max_actual_delay}: how long past its target time a forecast waits for its actual
+   * @param horizonBucketsMillis {@code horizon_buckets}: the upper bounds of the horizon buckets of the
+   *     settled-forecast metrics, in milliseconds, strictly increasing, each at least 1 ms (a last,
+   *     open bucket holds the horizons beyond the largest)
+   * @param maxMetricEntities {@code max_metric_entities}: most entities with their own per-horizon
+   *     metrics (0: the overall table only)
    */
-  public record Forecast(List<String> entityFields, String targetTimeField, int maxPending, long maxActualDelayMillis) {
+  public record Forecast(List<String> entityFields, String targetTimeField, int maxPending, long maxActualDelayMillis,
+                         List<Long> horizonBucketsMillis, int maxMetricEntities) {
     /** The defaults of the bounds. */
     public static final int DEFAULT_MAX_PENDING = 100_000;
     public static final long DEFAULT_MAX_ACTUAL_DELAY_MILLIS = 7 * 86_400_000L;
+    /** The default horizon buckets: up to 1 hour, 6 hours, 1 day, 7 days (and beyond). */
+    public static final List<Long> DEFAULT_HORIZON_BUCKETS_MILLIS = List.of(3_600_000L, 21_600_000L, 86_400_000L, 604_800_000L);
+    /** The default of {@code max_metric_entities}. */
+    public static final int DEFAULT_MAX_METRIC_ENTITIES = 100;
+    /** Most horizon buckets a configuration may list. */
+    public static final int MAX_HORIZON_BUCKETS = 16;
     /** No {@code input.forecast}: the target time is the event time and nothing is remembered. */
     public static final Forecast NONE = new Forecast(List.of(), null, DEFAULT_MAX_PENDING, DEFAULT_MAX_ACTUAL_DELAY_MILLIS);
 
-    /** Copies the list. */
+    /** Copies the lists. */
     public Forecast {
       entityFields = List.copyOf(entityFields);
+      horizonBucketsMillis = List.copyOf(horizonBucketsMillis);
+    }
+
+    /** With the default horizon buckets and entity cap. */
+    public Forecast(List<String> entityFields, String targetTimeField, int maxPending, long maxActualDelayMillis) {
+      this(entityFields, targetTimeField, maxPending, maxActualDelayMillis, DEFAULT_HORIZON_BUCKETS_MILLIS,
+          DEFAULT_MAX_METRIC_ENTITIES);
     }
 
     /** Whether {@code input.forecast} is given. */

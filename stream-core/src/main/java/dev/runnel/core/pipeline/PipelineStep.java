@@ -75,10 +75,11 @@ public final class PipelineStep {
   }
 
   /**
-   * Latest version of the checkpoint layout: 4 adds the pending forecasts. A step without
-   * {@code input.forecast} has none and still writes version 3, byte for byte as before.
+   * Latest version of the checkpoint layout: 4 adds the pending forecasts, 5 the error metrics of
+   * settled forecasts by horizon. A step without {@code input.forecast} has neither and still writes
+   * version 3, byte for byte as before.
    */
-  public static final int CHECKPOINT_VERSION = 4;
+  public static final int CHECKPOINT_VERSION = 5;
   private static final int CHECKPOINT_VERSION_WITHOUT_FORECASTS = 3;
   private static final int CHECKPOINT_MAGIC = 0x524E4C43; // "RNLC"
 
@@ -96,6 +97,8 @@ public final class PipelineStep {
   private final long configFingerprint;
   /** {@code input.forecast}: null when absent (target time = event time, nothing remembered). */
   private final PendingForecasts pending;
+  /** The settled forecasts' errors by horizon bucket; null without {@code input.forecast}. */
+  private final HorizonMetrics horizonMetrics;
   private final int[] entitySlots;
   private final int targetTimeSlot;
   /** The entity text of this record: each entity field's length (two chars) then its chars. */
@@ -149,8 +152,14 @@ public final class PipelineStep {
       }
       this.targetTimeSlot = in.schema().slot(fc.targetTimeField());
       this.settledForecast.entitySlots = entitySlots;
+      long[] bounds = new long[fc.horizonBucketsMillis().size()];
+      for (int i = 0; i < bounds.length; i++) {
+        bounds[i] = fc.horizonBucketsMillis().get(i);
+      }
+      this.horizonMetrics = new HorizonMetrics(bounds, config.outputs().metricsHalfLifeRecords(), fc.maxMetricEntities());
     } else {
       this.pending = null;
+      this.horizonMetrics = null;
       this.entitySlots = new int[0];
       this.targetTimeSlot = -1;
     }
@@ -419,6 +428,10 @@ public final class PipelineStep {
   /** Hands every forecast pending for this record's (entity, target time) to the sink, settled by {@code actual}. */
   private void settle(long target, double actual, long partition, long offset, Sink sink) {
     int n = pending.take(entityKey, entityKeyLength, target, clock.nowMillis());
+    if (n == 0) {
+      return;
+    }
+    int entity = horizonMetrics.entity(entityKey, entityKeyLength);
     SettledForecast s = settledForecast;
     for (int i = 0; i < n; i++) {
       s.issueTimeMillis = pending.takenIssueMillis(i);
@@ -431,6 +444,7 @@ public final class PipelineStep {
       s.requestOffset = pending.takenOffset(i);
       s.actualPartition = partition;
       s.actualOffset = offset;
+      horizonMetrics.add(entity, s.horizonMillis(), s.error(), s.covered());
       sink.settled(s, record);
     }
   }
@@ -512,6 +526,9 @@ public final class PipelineStep {
    */
   public long droppedForecastsExpired() { return pending != null ? pending.droppedExpired() : 0; }
 
+  /** The settled forecasts' errors by horizon bucket, or null without {@code input.forecast}. */
+  HorizonMetrics horizonMetrics() { return horizonMetrics; }
+
   /** The stream clock (read only between records). */
   public StreamClock clock() { return clock; }
 
@@ -575,6 +592,7 @@ public final class PipelineStep {
       drift.writeTo(out);
       if (pending != null) {
         pending.writeTo(out);
+        horizonMetrics.writeTo(out);
       }
       out.flush();
       return bytes.toByteArray();
@@ -589,7 +607,10 @@ public final class PipelineStep {
    * @param checkpoint bytes from {@link #checkpoint()}. Not modified.
    * A version 1 checkpoint (before drift alarms) is read with a fresh drift state; versions 1 and
    * 2 (before the one stream clock) give the clock their largest training time, with no jump pending;
-   * versions 1 to 3 (before forecasts were remembered) restore with no forecast pending.
+   * versions 1 to 3 (before forecasts were remembered) restore with no forecast pending; versions 1
+   * to 4 (before errors by horizon) restore with empty horizon tables. A version 5 checkpoint whose
+   * {@code input.forecast.horizon_buckets} differ from the configured ones restores with empty
+   * horizon tables (the rest of the state as written).
    *
    * @throws IllegalArgumentException if the bytes are not a checkpoint, are of an unknown version,
    *     or were written under a configuration whose features or model differ
@@ -652,8 +673,14 @@ public final class PipelineStep {
               + " keep input.forecast in the configuration, or start a new pipeline name (or reset its state) without it");
         }
         pending.readFrom(in);
+        if (version >= 5) {
+          horizonMetrics.readFrom(in);
+        } else {
+          horizonMetrics.clearAll();
+        }
       } else if (pending != null) {
         pending.clear();
+        horizonMetrics.clearAll();
       }
       ensureRow();
     } catch (IOException e) {
