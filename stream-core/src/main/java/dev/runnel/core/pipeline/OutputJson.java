@@ -406,7 +406,7 @@ public final class OutputJson {
    * "Coefficient snapshots"); written only with {@code input.forecast}.
    */
   private static void writeForecasting(JsonGenerator g, Snapshot.Forecasting f) throws IOException {
-    g.writeObjectFieldStart("forecasts");
+    g.writeObjectFieldStart("forecast_counts");
     g.writeNumberField("pending", f.pending());
     g.writeNumberField("remembered", f.remembered());
     g.writeNumberField("settled", f.settled());

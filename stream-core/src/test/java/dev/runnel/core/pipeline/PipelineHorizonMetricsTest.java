@@ -129,8 +129,8 @@ class PipelineHorizonMetricsTest {
 
     // the JSON carries the same numbers
     JsonNode j = JSON.readTree(c.json.snapshot(snap, 0));
-    assertEquals(settled.size(), j.path("forecasts").path("settled").asLong());
-    assertEquals(step.droppedForecastsExpired(), j.path("forecasts").path("dropped_expired").asLong());
+    assertEquals(settled.size(), j.path("forecast_counts").path("settled").asLong());
+    assertEquals(step.droppedForecastsExpired(), j.path("forecast_counts").path("dropped_expired").asLong());
     JsonNode hm = j.path("horizon_metrics");
     assertEquals(List.of("PT3H", "PT12H", "P1D"), List.of(hm.path("buckets").get(0).path("up_to").asText(),
         hm.path("buckets").get(1).path("up_to").asText(), hm.path("buckets").get(2).path("up_to").asText()));
@@ -155,7 +155,7 @@ class PipelineHorizonMetricsTest {
     }
     assertNull(step.snapshot().forecasting());
     JsonNode j = JSON.readTree(c.json.snapshot(step.snapshot(), 0));
-    assertFalse(j.has("forecasts") || j.has("horizon_metrics"), j.toString());
+    assertFalse(j.has("forecast_counts") || j.has("horizon_metrics"), j.toString());
   }
 
   @Test
