@@ -29,13 +29,13 @@ import org.junit.jupiter.api.Test;
  * thin buckets are marked, entities beyond the cap are said, and a snapshot without the table
  * prints nothing more.
  */
-class HorizonTableTest {
+public class HorizonTableTest {
 
   static final ObjectMapper JSON = new ObjectMapper();
   static final long H = 3_600_000L;
   static final long T0 = Instant.parse("2026-06-01T00:00:00Z").toEpochMilli();
 
-  static final String CONFIG = """
+  public static final String CONFIG = """
       name: horizon-table
       input:
         fields: {hub: text, temperature_c: number, sessions: number, issued_at: time, hour_start: time}
@@ -54,7 +54,7 @@ class HorizonTableTest {
       """;
 
   /** A step's latest snapshot as published, and the settled forecasts as (hub, horizon ms, error). */
-  record Run(JsonNode snapshot, List<Object[]> settled, PipelineStep step) { }
+  public record Run(JsonNode snapshot, List<Object[]> settled, PipelineStep step) { }
 
   static byte[] line(String hub, long issued, long hour, double temp, Double sessions) {
     return String.format(Locale.ROOT, "{\"hub\":\"%s\",\"issued_at\":\"%s\",\"hour_start\":\"%s\",\"temperature_c\":%s%s}",
@@ -62,7 +62,7 @@ class HorizonTableTest {
         sessions == null ? "" : ",\"sessions\":" + sessions).getBytes(StandardCharsets.UTF_8);
   }
 
-  static Run run(String config) throws Exception {
+  public static Run run(String config) throws Exception {
     PipelineConfig cfg = ConfigLoader.parse(config, "horizon-table.yaml");
     PipelineStep step = new PipelineStep(cfg);
     List<Object[]> settled = new ArrayList<>();
