@@ -31,7 +31,8 @@ import picocli.CommandLine.Option;
     description = {"Read <name>.coefficients (committed records only, no consumer group), or a replay's "
         + "coefficients.jsonl with --file, and print one line per "
         + "snapshot: time, index, input partition, noise sd, recent prequential MAE and RMSE, the weights that moved most since the "
-        + "baseline in standard errors ((w - w_b) / sqrt(se^2 + se_b^2), raw units), and the raised alarms.",
+        + "baseline in standard errors ((w - w_b) / sqrt(se^2 + se_b^2), raw units), and the raised alarms. For a pipeline "
+        + "with input.forecast, the errors of settled forecasts by horizon bucket follow each line (docs/forecasting.md).",
         "Reads to the current end and stops, or keeps following with --follow. With --config, the pipeline name "
             + "comes from the configuration too."})
 public final class DriftCommand implements Callable<Integer> {

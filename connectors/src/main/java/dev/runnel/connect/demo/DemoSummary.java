@@ -1,6 +1,7 @@
 package dev.runnel.connect.demo;
 
 import com.fasterxml.jackson.databind.JsonNode;
+import dev.runnel.connect.drift.HorizonTable;
 import dev.runnel.connect.text.TerminalText;
 import dev.runnel.demo.ChangeSchedule;
 import dev.runnel.demo.GroundTruth;
@@ -35,12 +36,15 @@ import java.util.TreeMap;
  * @param tariffAlarm what that alarm was
  * @param fahrenheitAlarmAt first drift alarm (error level up, or the temperature weight) from the °F hours to a day after, or null
  * @param fahrenheitAlarm what that alarm was
+ * @param horizons the last snapshot that carries the settled forecasts' errors by horizon (a pipeline
+ *     with {@code input.forecast}), or null
  */
 public record DemoSummary(long records, long predictions, Map<String, Long> rejectsByReason,
                           double priceBefore, double priceBeforeSe, double priceAfter, double priceAfterSe,
                           Instant openingSeen, Instant closingGone, double fahrenheitMae, double normalMae,
                           double finalMae, double finalCoverage, long forecasts, Settings settings,
-                          Instant tariffAlarmAt, String tariffAlarm, Instant fahrenheitAlarmAt, String fahrenheitAlarm) {
+                          Instant tariffAlarmAt, String tariffAlarm, Instant fahrenheitAlarmAt, String fahrenheitAlarm,
+                          JsonNode horizons) {
 
   /** Whether the tariff change was found: the price weight roughly doubled, each within 4 standard errors and 20% of the truth. */
   public boolean tariffChangeFound() {
@@ -69,7 +73,11 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     double finalMae = Double.NaN, finalCov = Double.NaN;
     Instant priceAlarm = null, fAlarm = null;
     String priceAlarmWhat = null, fAlarmWhat = null;
+    JsonNode horizons = null;
     for (JsonNode s : snapshots) {
+      if (HorizonTable.present(s)) {
+        horizons = s;
+      }
       for (JsonNode a : s.path("alarms")) {
         if (!a.path("fired_at").isTextual()) {
           continue;
@@ -141,7 +149,7 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     }
     return new DemoSummary(records, predictions.size(), byReason, pb, pbSe, pa, paSe, openingSeen, closingGone,
         fN == 0 ? Double.NaN : fSum / fN, nN == 0 ? Double.NaN : nSum / nN, finalMae, finalCov, forecasts, settings,
-        priceAlarm, priceAlarmWhat, fAlarm, fAlarmWhat);
+        priceAlarm, priceAlarmWhat, fAlarm, fAlarmWhat, horizons);
   }
 
   /** A time as local date and hour in the scenario's zone, like the ground truth's. */
@@ -199,6 +207,11 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     out.printf(Locale.ROOT, "recent prequential MAE %.2f (noise sd %.1f: a perfect model scores about %.2f); "
             + "90%% interval coverage %.1f%%%n",
         finalMae, GroundTruth.NOISE_SD, GroundTruth.NOISE_SD * Math.sqrt(2 / Math.PI), 100 * finalCoverage);
+    if (horizons != null) {
+      for (String l : HorizonTable.lines(horizons, "", 24)) {
+        out.println(l);
+      }
+    }
     out.println("Forecasts are estimates: read the interval, and distrust a fresh hub's numbers until it has history.");
     out.flush();
   }

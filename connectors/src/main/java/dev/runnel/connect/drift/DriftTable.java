@@ -13,7 +13,8 @@ import java.util.Map;
 /**
  * Turns coefficient snapshots (the JSON of {@code <name>.coefficients}, in offset order per
  * partition) into one compact line each: time, index, noise sd, prequential error, the weights that
- * moved most since the baseline in standard errors, and the raised alarms. One thread.
+ * moved most since the baseline in standard errors, and the raised alarms; for a pipeline with
+ * {@code input.forecast}, the settled forecasts' errors by horizon under it ({@link HorizonTable}). One thread.
  *
  * <p>The score is the pipeline's own: {@code (w − w_b) / √(se² + se_b²)} on raw-unit weights.
  * With the baseline {@code pipeline}, the snapshot's own {@code drift_score} (against the configured
@@ -188,7 +189,16 @@ public final class DriftTable {
       sb.setLength(sb.length() - 1);
     }
     // names and levels come from the data: no control character reaches the terminal
-    return TerminalText.safe(sb);
+    String line = TerminalText.safe(sb);
+    if (HorizonTable.present(s)) {
+      // with input.forecast: the settled forecasts' errors by horizon, overall, under the line
+      StringBuilder more = new StringBuilder(line);
+      for (String l : HorizonTable.lines(s, "      ", 0)) {
+        more.append('\n').append(TerminalText.safe(l));
+      }
+      return more.toString();
+    }
+    return line;
   }
 
   private static Instant timeOf(JsonNode s) {

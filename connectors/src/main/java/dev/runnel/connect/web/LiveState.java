@@ -287,7 +287,8 @@ public final class LiveState implements AutoCloseable {
     if (latest != null) {
       ObjectNode l = root.putObject("latest");
       for (String k : List.of("index", "partition", "event_time", "records", "trained", "rejected", "columns_version",
-          "ready", "noise_sd", "effective_sample_size", "metrics", "vocabularies", "standardization", "alarms", "drift")) {
+          "ready", "noise_sd", "effective_sample_size", "metrics", "forecast_counts", "horizon_metrics", "vocabularies",
+          "standardization", "alarms", "drift")) {
         if (latest.has(k)) {
           l.set(k, latest.get(k));
         }

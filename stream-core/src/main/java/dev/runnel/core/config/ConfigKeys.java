@@ -74,6 +74,8 @@ public final class ConfigKeys {
   public static final ConfigKey<?> FORECAST_MAX_ACTUAL_LAG = add(ConfigKey.structured("input.forecast", "max_actual_lag", "ISO 8601 duration", "max_actual_delay"));
   public static final ConfigKey<Integer> FORECAST_MAX_LEARNED_ACTUALS = add(ConfigKey.wholeInt("input.forecast", "max_learned_actuals", PipelineConfig.Forecast.DEFAULT_MAX_LEARNED_ACTUALS, 0, 10_000_000));
   public static final ConfigKey<Correction> FORECAST_CORRECTIONS = add(ConfigKey.choice("input.forecast", "corrections", PipelineConfig.Forecast.DEFAULT_CORRECTIONS, Correction.values(), Correction::word));
+  public static final ConfigKey<?> FORECAST_HORIZON_BUCKETS = add(ConfigKey.structured("input.forecast", "horizon_buckets", "list of ISO 8601 durations", "[PT1H, PT6H, P1D, P7D]"));
+  public static final ConfigKey<Integer> FORECAST_MAX_METRIC_ENTITIES = add(ConfigKey.wholeInt("input.forecast", "max_metric_entities", PipelineConfig.Forecast.DEFAULT_MAX_METRIC_ENTITIES, 0, 100_000));
 
   // ---- features: kind onehot ----
   public static final ConfigKey<?> ONEHOT_FIELD = add(ConfigKey.structured("features.onehot", "field", "text", "required"));

@@ -458,7 +458,39 @@ public final class ConfigLoader {
         throw notAllowed(f.p("corrections"), f.get("corrections"), "corrections: replace needs the memory of learned actuals;"
             + " set input.forecast.max_learned_actuals above 0, or use reject or learn_as_new");
       }
-      return new PipelineConfig.Forecast(entity, target, max, delay, lag, learned, corrections);
+      List<Long> buckets = horizonBuckets(f);
+      int entities = ConfigKeys.FORECAST_MAX_METRIC_ENTITIES.read(f);
+      return new PipelineConfig.Forecast(entity, target, max, delay, lag, learned, corrections, buckets, entities);
+    }
+
+    /**
+     * {@code input.forecast.horizon_buckets}: a non-empty list of ISO 8601 durations, each at least
+     * 1 ms, strictly increasing (each is the upper bound of one bucket); absent gives the default.
+     */
+    private static List<Long> horizonBuckets(Section f) {
+      if (!f.has("horizon_buckets")) return PipelineConfig.Forecast.DEFAULT_HORIZON_BUCKETS_MILLIS;
+      String allowed = "use a list of 1 to " + PipelineConfig.Forecast.MAX_HORIZON_BUCKETS + " ISO 8601 durations, each greater than 0 and larger"
+          + " than the one before, e.g. horizon_buckets: [PT1H, PT6H, P1D, P7D] (each is the upper bound of one bucket)";
+      JsonNode list = f.get("horizon_buckets");
+      if (!list.isArray() || list.size() == 0 || list.size() > PipelineConfig.Forecast.MAX_HORIZON_BUCKETS) throw notAllowed(f.p("horizon_buckets"), list, allowed);
+      List<Long> out = new ArrayList<>();
+      for (int i = 0; i < list.size(); i++) {
+        JsonNode e = list.get(i);
+        String path = f.p("horizon_buckets") + "[" + i + "]";
+        long ms;
+        try {
+          ms = e.isTextual() ? Duration.parse(e.asText()).toMillis() : 0L;
+        } catch (DateTimeParseException | ArithmeticException x) {
+          ms = 0L;
+        }
+        if (ms < 1) throw notAllowed(path, e, allowed);
+        if (!out.isEmpty() && ms <= out.get(out.size() - 1)) {
+          throw notAllowed(path, e, (ms == out.get(out.size() - 1) ? "it repeats the bucket before it; " : "it is not larger than the bucket before it; ")
+              + allowed);
+        }
+        out.add(ms);
+      }
+      return out;
     }
 
     private static List<String> fieldsOfType(RecordSchema s, FieldType a, FieldType b) {

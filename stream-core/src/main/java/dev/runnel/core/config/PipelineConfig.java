@@ -104,21 +104,41 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    * @param maxLearnedActuals {@code max_learned_actuals}: most (entity, target time) keys remembered as
    *     learned, to reject a repeated actual and to find a correction; 0: none (every actual is learned)
    * @param corrections {@code corrections}: what a second actual with a different value does
+   * @param horizonBucketsMillis {@code horizon_buckets}: the upper bounds of the horizon buckets of the
+   *     settled-forecast metrics, in milliseconds, strictly increasing, each at least 1 ms (a last,
+   *     open bucket holds the horizons beyond the largest)
+   * @param maxMetricEntities {@code max_metric_entities}: most entities with their own per-horizon
+   *     metrics (0: the overall table only)
    */
   public record Forecast(List<String> entityFields, String targetTimeField, int maxPending, long maxActualDelayMillis,
-                         long maxActualLagMillis, int maxLearnedActuals, Correction corrections) {
+                         long maxActualLagMillis, int maxLearnedActuals, Correction corrections,
+                         List<Long> horizonBucketsMillis, int maxMetricEntities) {
     /** The defaults of the bounds. */
     public static final int DEFAULT_MAX_PENDING = 100_000;
     public static final long DEFAULT_MAX_ACTUAL_DELAY_MILLIS = 7 * 86_400_000L;
     public static final int DEFAULT_MAX_LEARNED_ACTUALS = 100_000;
     public static final Correction DEFAULT_CORRECTIONS = Correction.REJECT;
+    /** The default horizon buckets: up to 1 hour, 6 hours, 1 day, 7 days (and beyond). */
+    public static final List<Long> DEFAULT_HORIZON_BUCKETS_MILLIS = List.of(3_600_000L, 21_600_000L, 86_400_000L, 604_800_000L);
+    /** The default of {@code max_metric_entities}. */
+    public static final int DEFAULT_MAX_METRIC_ENTITIES = 100;
+    /** Most horizon buckets a configuration may list. */
+    public static final int MAX_HORIZON_BUCKETS = 16;
     /** No {@code input.forecast}: the target time is the event time and nothing is remembered. */
     public static final Forecast NONE = new Forecast(List.of(), null, DEFAULT_MAX_PENDING, DEFAULT_MAX_ACTUAL_DELAY_MILLIS,
-        DEFAULT_MAX_ACTUAL_DELAY_MILLIS, DEFAULT_MAX_LEARNED_ACTUALS, DEFAULT_CORRECTIONS);
+        DEFAULT_MAX_ACTUAL_DELAY_MILLIS, DEFAULT_MAX_LEARNED_ACTUALS, DEFAULT_CORRECTIONS, DEFAULT_HORIZON_BUCKETS_MILLIS,
+        DEFAULT_MAX_METRIC_ENTITIES);
 
-    /** Copies the list. */
+    /** Copies the lists. */
     public Forecast {
       entityFields = List.copyOf(entityFields);
+      horizonBucketsMillis = List.copyOf(horizonBucketsMillis);
+    }
+
+    /** With the defaults of everything after the two bounds. */
+    public Forecast(List<String> entityFields, String targetTimeField, int maxPending, long maxActualDelayMillis) {
+      this(entityFields, targetTimeField, maxPending, maxActualDelayMillis, maxActualDelayMillis, DEFAULT_MAX_LEARNED_ACTUALS,
+          DEFAULT_CORRECTIONS, DEFAULT_HORIZON_BUCKETS_MILLIS, DEFAULT_MAX_METRIC_ENTITIES);
     }
 
     /** Whether {@code input.forecast} is given. */

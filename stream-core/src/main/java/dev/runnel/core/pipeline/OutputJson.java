@@ -19,6 +19,7 @@ import java.io.UncheckedIOException;
 import java.nio.charset.StandardCharsets;
 import java.time.Instant;
 import java.util.Arrays;
+import java.util.List;
 
 /**
  * Writes the published records — predictions, coefficient snapshots, rejects — as JSON bytes, in
@@ -338,6 +339,9 @@ public final class OutputJson {
       number(g, "coverage", m.recentCoverage());
       g.writeEndObject();
       g.writeEndObject();
+      if (s.forecasting() != null) {
+        writeForecasting(g, s.forecasting());
+      }
       g.writeArrayFieldStart("columns");
       for (Snapshot.Column c : s.columns()) {
         g.writeStartObject();
@@ -399,6 +403,86 @@ public final class OutputJson {
         generator = null;
       }
     }
+  }
+
+  /**
+   * The forecast counts and the settled forecasts' errors by horizon (docs/formats.md,
+   * "Coefficient snapshots"); written only with {@code input.forecast}.
+   */
+  private static void writeForecasting(JsonGenerator g, Snapshot.Forecasting f) throws IOException {
+    g.writeObjectFieldStart("forecast_counts");
+    g.writeNumberField("pending", f.pending());
+    g.writeNumberField("remembered", f.remembered());
+    g.writeNumberField("settled", f.settled());
+    g.writeNumberField("dropped_full", f.droppedFull());
+    g.writeNumberField("dropped_expired", f.droppedExpired());
+    g.writeEndObject();
+    g.writeObjectFieldStart("horizon_metrics");
+    g.writeArrayFieldStart("buckets");
+    writeHorizonBuckets(g, f.bucketBoundsMillis(), f.overall());
+    g.writeEndArray();
+    g.writeNumberField("max_entities", f.maxEntities());
+    g.writeNumberField("settled_not_kept", f.settledNotKept());
+    g.writeArrayFieldStart("entities");
+    for (Snapshot.EntityHorizons e : f.entities()) {
+      g.writeStartObject();
+      g.writeObjectFieldStart("entity");
+      for (int i = 0; i < f.entityFields().size() && i < e.entity().size(); i++) {
+        g.writeStringField(f.entityFields().get(i), e.entity().get(i));
+      }
+      g.writeEndObject();
+      g.writeArrayFieldStart("buckets");
+      writeHorizonBuckets(g, f.bucketBoundsMillis(), e.buckets());
+      g.writeEndArray();
+      g.writeEndObject();
+    }
+    g.writeEndArray();
+    g.writeEndObject();
+  }
+
+  private static void writeHorizonBuckets(JsonGenerator g, List<Long> bounds, List<Snapshot.Metrics> ms) throws IOException {
+    for (int b = 0; b < ms.size(); b++) {
+      Snapshot.Metrics m = ms.get(b);
+      g.writeStartObject();
+      long up = bounds.get(b);
+      if (up == Long.MAX_VALUE) {
+        g.writeNullField("up_to");
+        g.writeStringField("over", b > 0 ? isoDuration(bounds.get(b - 1)) : null);
+      } else {
+        g.writeStringField("up_to", isoDuration(up));
+      }
+      g.writeNumberField("count", m.count());
+      g.writeObjectFieldStart("overall");
+      number(g, "mae", m.mae());
+      number(g, "rmse", m.rmse());
+      number(g, "bias", m.bias());
+      number(g, "coverage", m.coverage());
+      g.writeEndObject();
+      g.writeObjectFieldStart("recent");
+      number(g, "mae", m.recentMae());
+      number(g, "rmse", m.recentRmse());
+      number(g, "bias", m.recentBias());
+      number(g, "coverage", m.recentCoverage());
+      g.writeEndObject();
+      g.writeEndObject();
+    }
+  }
+
+  /**
+   * A positive span as an ISO 8601 duration with days as the largest unit: {@code P1D},
+   * {@code PT6H}, {@code P1DT12H}, {@code PT0.5S}.
+   */
+  static String isoDuration(long millis) {
+    long days = millis / 86_400_000L;
+    long rest = millis % 86_400_000L;
+    StringBuilder sb = new StringBuilder("P");
+    if (days > 0) {
+      sb.append(days).append('D');
+    }
+    if (rest > 0 || days == 0) {
+      sb.append(java.time.Duration.ofMillis(rest).toString().substring(1));
+    }
+    return sb.toString();
   }
 
   private static void writeAlarms(JsonGenerator g, Snapshot s) throws IOException {

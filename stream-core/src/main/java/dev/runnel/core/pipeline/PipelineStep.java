@@ -83,10 +83,11 @@ public final class PipelineStep {
 
   /**
    * Latest version of the checkpoint layout: 4 adds the pending forecasts, 5 the memory of learned
-   * actuals (and, for {@code corrections: replace}, what removing one needs). A step without
-   * {@code input.forecast} has none and still writes version 3, byte for byte as before.
+   * actuals (and, for {@code corrections: replace}, what removing one needs), 6 the error metrics of
+   * settled forecasts by horizon. A step without {@code input.forecast} has none of these and still
+   * writes version 3, byte for byte as before.
    */
-  public static final int CHECKPOINT_VERSION = 5;
+  public static final int CHECKPOINT_VERSION = 6;
   private static final int CHECKPOINT_VERSION_WITHOUT_FORECASTS = 3;
   private static final int CHECKPOINT_MAGIC = 0x524E4C43; // "RNLC"
   /**
@@ -110,6 +111,8 @@ public final class PipelineStep {
   private final long configFingerprint;
   /** {@code input.forecast}: null when absent (target time = event time, nothing remembered). */
   private final PendingForecasts pending;
+  /** The settled forecasts' errors by horizon bucket; null without {@code input.forecast}. */
+  private final HorizonMetrics horizonMetrics;
   private final int[] entitySlots;
   private final int targetTimeSlot;
   /** The entity text of this record: each entity field's length (two chars) then its chars. */
@@ -194,8 +197,14 @@ public final class PipelineStep {
         this.bases = null;
         this.settledKept = null;
       }
+      long[] bounds = new long[fc.horizonBucketsMillis().size()];
+      for (int i = 0; i < bounds.length; i++) {
+        bounds[i] = fc.horizonBucketsMillis().get(i);
+      }
+      this.horizonMetrics = new HorizonMetrics(bounds, config.outputs().metricsHalfLifeRecords(), fc.maxMetricEntities());
     } else {
       this.pending = null;
+      this.horizonMetrics = null;
       this.entitySlots = new int[0];
       this.targetTimeSlot = -1;
       this.maxActualLagMillis = Long.MAX_VALUE;
@@ -528,6 +537,10 @@ public final class PipelineStep {
   /** Hands every forecast pending for this record's (entity, target time) to the sink, settled by {@code actual}. */
   private void settle(long target, double actual, long partition, long offset, Sink sink) {
     int n = pending.take(entityKey, entityKeyLength, target, clock.nowMillis());
+    if (n == 0) {
+      return;
+    }
+    int entity = horizonMetrics.entity(entityKey, entityKeyLength);
     SettledForecast s = settledForecast;
     for (int i = 0; i < n; i++) {
       s.issueTimeMillis = pending.takenIssueMillis(i);
@@ -542,6 +555,7 @@ public final class PipelineStep {
       s.actualOffset = offset;
       s.correction = false;
       s.replacedActual = Double.NaN;
+      horizonMetrics.add(entity, s.horizonMillis(), s.error(), s.covered());
       sink.settled(s, record);
     }
     if (settledKept != null) {
@@ -742,6 +756,9 @@ public final class PipelineStep {
   /** Settled forecasts published again against a corrected actual ({@code corrections: replace}). */
   public long resettledForecasts() { return resettledForecasts; }
 
+  /** The settled forecasts' errors by horizon bucket, or null without {@code input.forecast}. */
+  HorizonMetrics horizonMetrics() { return horizonMetrics; }
+
   /** The stream clock (read only between records). */
   public StreamClock clock() { return clock; }
 
@@ -827,6 +844,7 @@ public final class PipelineStep {
           out.writeLong(resettledForecasts);
           settledKept.writeTo(out);
         }
+        horizonMetrics.writeTo(out);
       }
       out.flush();
       return bytes.toByteArray();
@@ -841,7 +859,11 @@ public final class PipelineStep {
    * @param checkpoint bytes from {@link #checkpoint()}. Not modified.
    * A version 1 checkpoint (before drift alarms) is read with a fresh drift state; versions 1 and
    * 2 (before the one stream clock) give the clock their largest training time, with no jump pending;
-   * versions 1 to 3 (before forecasts were remembered) restore with no forecast pending.
+   * versions 1 to 3 (before forecasts were remembered) restore with no forecast pending; versions 1
+   * to 4 (before the memory of learned actuals) restore with an empty memory; versions 1 to 5 (before
+   * errors by horizon) restore with empty horizon tables. A version 6 checkpoint whose
+   * {@code input.forecast.horizon_buckets} differ from the configured ones restores with empty
+   * horizon tables (the rest of the state as written).
    *
    * @throws IllegalArgumentException if the bytes are not a checkpoint, are of an unknown version,
    *     or were written under a configuration whose features or model differ
@@ -910,6 +932,11 @@ public final class PipelineStep {
       }
       if (pending != null) {
         readLearned(version, in);
+        if (version >= 6) {
+          horizonMetrics.readFrom(in);
+        } else {
+          horizonMetrics.clearAll();
+        }
       }
       ensureRow();
     } catch (IOException e) {

@@ -37,13 +37,15 @@ import java.util.List;
  * @param index the snapshot's sequence number in this pipeline's state (0 for the first; -1 if none was due yet)
  * @param alarms the drift alarms raised at this snapshot
  * @param drift the drift monitor's status (null when not known)
+ * @param forecasting the forecast counts and the settled forecasts' errors by horizon; null without
+ *     {@code input.forecast}
  */
 public record Snapshot(long eventTimeMillis, long records, long trained, long forecasts, long rejected,
                        long layoutVersion, boolean ready, double noiseSd, double residualSd,
                        double effectiveSampleSize, List<Column> columns,
                        List<Featurizer.VocabularySnapshot> vocabularies,
                        List<Featurizer.ScalerSnapshot> scalers, Metrics metrics, long index,
-                       List<DriftAlarm> alarms, DriftStatus drift) {
+                       List<DriftAlarm> alarms, DriftStatus drift, Forecasting forecasting) {
 
   /** Version of the snapshot's published layout (see docs/formats.md). */
   public static final int FORMAT_VERSION = 2;
@@ -53,6 +55,17 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
     vocabularies = List.copyOf(vocabularies);
     scalers = List.copyOf(scalers);
     alarms = List.copyOf(alarms);
+  }
+
+  /** A snapshot without forecasting information. */
+  public Snapshot(long eventTimeMillis, long records, long trained, long forecasts, long rejected,
+                  long layoutVersion, boolean ready, double noiseSd, double residualSd,
+                  double effectiveSampleSize, List<Column> columns,
+                  List<Featurizer.VocabularySnapshot> vocabularies,
+                  List<Featurizer.ScalerSnapshot> scalers, Metrics metrics, long index,
+                  List<DriftAlarm> alarms, DriftStatus drift) {
+    this(eventTimeMillis, records, trained, forecasts, rejected, layoutVersion, ready, noiseSd, residualSd,
+        effectiveSampleSize, columns, vocabularies, scalers, metrics, index, alarms, drift, null);
   }
 
   /** A snapshot without drift information (index -1, no alarms). */
@@ -90,6 +103,85 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
   /** Prequential metrics: overall and over the fading window. */
   public record Metrics(long count, double mae, double rmse, double bias, double coverage,
                         double recentMae, double recentRmse, double recentBias, double recentCoverage) { }
+
+  /**
+   * The forecasts issued ahead ({@code input.forecast}, docs/forecasting.md): the step's counts and
+   * the errors of settled forecasts by horizon bucket, overall and per entity.
+   *
+   * @param pending forecasts waiting for their actual now
+   * @param remembered forecasts remembered since the state began
+   * @param settled forecasts settled by their actual since the state began
+   * @param droppedFull forecasts dropped by {@code max_pending}
+   * @param droppedExpired forecasts dropped by {@code max_actual_delay}
+   * @param bucketBoundsMillis each bucket's upper bound in ms, the last (open) bucket's {@code Long.MAX_VALUE}
+   * @param overall one entry per bucket, over every entity
+   * @param entityFields the names of the entity fields
+   * @param entities the kept entities, in the order they first settled a forecast
+   * @param maxEntities {@code max_metric_entities}
+   * @param settledNotKept settled forecasts of entities beyond the cap (in {@code overall} only)
+   */
+  public record Forecasting(int pending, long remembered, long settled, long droppedFull, long droppedExpired,
+                            List<Long> bucketBoundsMillis, List<Metrics> overall, List<String> entityFields,
+                            List<EntityHorizons> entities, int maxEntities, long settledNotKept) {
+    public Forecasting {
+      bucketBoundsMillis = List.copyOf(bucketBoundsMillis);
+      overall = List.copyOf(overall);
+      entityFields = List.copyOf(entityFields);
+      entities = List.copyOf(entities);
+    }
+  }
+
+  /**
+   * One entity's errors by horizon bucket.
+   *
+   * @param entity the entity fields' values, in the order of {@code entity_fields}
+   * @param buckets one entry per bucket
+   */
+  public record EntityHorizons(List<String> entity, List<Metrics> buckets) {
+    public EntityHorizons {
+      entity = List.copyOf(entity);
+      buckets = List.copyOf(buckets);
+    }
+  }
+
+  /** Cold path: the forecasting part of a snapshot, or null without {@code input.forecast}. */
+  private static Forecasting forecastingOf(PipelineStep step) {
+    HorizonMetrics h = step.horizonMetrics();
+    if (h == null) {
+      return null;
+    }
+    int nb = h.buckets();
+    List<Long> bounds = new ArrayList<>(nb);
+    List<Metrics> overall = new ArrayList<>(nb);
+    for (int b = 0; b < nb; b++) {
+      bounds.add(h.bound(b));
+      overall.add(h.metrics(-1, b));
+    }
+    List<EntityHorizons> entities = new ArrayList<>(h.entities());
+    for (int e = 0; e < h.entities(); e++) {
+      List<Metrics> per = new ArrayList<>(nb);
+      for (int b = 0; b < nb; b++) {
+        per.add(h.metrics(e, b));
+      }
+      entities.add(new EntityHorizons(entityValues(h.entityKey(e)), per));
+    }
+    return new Forecasting(step.pendingForecasts(), step.rememberedForecasts(), step.settledForecasts(),
+        step.droppedForecastsFull(), step.droppedForecastsExpired(), bounds, overall,
+        step.config().input().forecast().entityFields(), entities, h.maxEntities(), h.settledNotKept());
+  }
+
+  /** The values of an entity text as the step builds it: per field, its length in two chars, then its chars. */
+  static List<String> entityValues(char[] key) {
+    List<String> out = new ArrayList<>();
+    int i = 0;
+    while (i + 2 <= key.length) {
+      int len = (key[i] << 16) | key[i + 1];
+      i += 2;
+      out.add(new String(key, i, len));
+      i += len;
+    }
+    return out;
+  }
 
   /** The weight of the column with this name, or NaN if there is none. */
   public double weightOf(String name) {
@@ -163,6 +255,7 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
         pm.recentMae(), pm.recentRmse(), pm.recentBias(), pm.recentCoverage());
     return new Snapshot(step.lastEventTimeMillis(), step.records(), step.trained(), step.forecasts(),
         step.rejected(), f.layoutVersion(), m.ready(), m.noiseSd(), sigma, m.effectiveSampleSize(),
-        cols, f.vocabularies(), f.scalers(), metrics, step.snapshotsTaken() - 1, drift.alarms(), drift.status());
+        cols, f.vocabularies(), f.scalers(), metrics, step.snapshotsTaken() - 1, drift.alarms(), drift.status(),
+        forecastingOf(step));
   }
 }
