@@ -102,6 +102,9 @@ public final class PipelineStep {
   private char[] entityKey = new char[64];
   private int entityKeyLength;
   private final SettledForecast settledForecast = new SettledForecast();
+  /** Set only inside {@link #processRequest}: the target time it names. */
+  private boolean hasRequestTarget;
+  private long requestTargetMillis;
   private double[] row;
   /** The model's a-priori leverage (element 0) and prediction (element 1) for this record. */
   private final double[] aPriori = new double[2];
@@ -123,6 +126,20 @@ public final class PipelineStep {
    * @param config a checked configuration. Not modified.
    */
   public PipelineStep(PipelineConfig config) {
+    this(config, false);
+  }
+
+  /**
+   * A step that may remember forecasts even without {@code input.forecast} (for the backtest's
+   * simulated forecasts, docs/backtesting.md "Horizons"): then there is one series (no entity
+   * fields), the target time is the event time unless {@link #processRequest} names one, and the
+   * bounds are the defaults of {@code input.forecast}. With {@code input.forecast} it is the same
+   * as {@link #PipelineStep(PipelineConfig)}. Predictions are the same bits either way.
+   *
+   * @param config a checked configuration. Not modified.
+   * @param remembersForecasts remember forecasts and settle them even without {@code input.forecast}
+   */
+  public PipelineStep(PipelineConfig config, boolean remembersForecasts) {
     this.config = config;
     PipelineConfig.Input in = config.input();
     this.decoder = in.eventTime().isPresent()
@@ -141,13 +158,13 @@ public final class PipelineStep {
     this.row = new double[Math.max(8, featurizer.maxDimension())];
     this.configFingerprint = fingerprint(config);
     PipelineConfig.Forecast fc = in.forecast();
-    if (fc.enabled()) {
+    if (fc.enabled() || remembersForecasts) {
       this.pending = new PendingForecasts(fc.maxPending(), fc.maxActualDelayMillis());
       this.entitySlots = new int[fc.entityFields().size()];
       for (int i = 0; i < entitySlots.length; i++) {
         entitySlots[i] = in.schema().slot(fc.entityFields().get(i));
       }
-      this.targetTimeSlot = in.schema().slot(fc.targetTimeField());
+      this.targetTimeSlot = fc.enabled() ? in.schema().slot(fc.targetTimeField()) : -1;
       this.settledForecast.entitySlots = entitySlots;
     } else {
       this.pending = null;
@@ -206,6 +223,30 @@ public final class PipelineStep {
     processDecoded(fallbackTimeMillis, partition, offset, sink);
   }
 
+  /**
+   * Processes the record in {@link #record()} (filled by the caller) as a forecast request issued
+   * at {@code issueTimeMillis} for {@code targetTimeMillis}, whatever its own event time, target and
+   * target-time fields say: the target is cleared, the event time set to the issue time. Scored and
+   * remembered like any request; changes no other state. Used by the backtest to simulate a
+   * forecast issued ahead of an actual (docs/backtesting.md, "Horizons").
+   *
+   * @param partition source partition copied into the prediction and the pending forecast
+   * @param offset source offset copied likewise
+   */
+  public void processRequest(long issueTimeMillis, long targetTimeMillis, long partition, long offset, Sink sink) {
+    record.setAbsent(targetSlot);
+    if (config.input().eventTime().isPresent()) {
+      record.setEventTimeMillis(issueTimeMillis);
+    }
+    requestTargetMillis = targetTimeMillis;
+    hasRequestTarget = true;
+    try {
+      processDecoded(issueTimeMillis, partition, offset, sink);
+    } finally {
+      hasRequestTarget = false;
+    }
+  }
+
   /** The reusable record that {@link #processRecord} reads; fill it, then call that method. */
   public EventRecord record() {
     return record;
@@ -236,9 +277,12 @@ public final class PipelineStep {
       if (!entityKey(sink)) {
         return;
       }
-      if (record.present(targetTimeSlot)) {
+      if (targetTimeSlot >= 0 && record.present(targetTimeSlot)) {
         target = record.timeMillis(targetTimeSlot);
       }
+    }
+    if (hasRequestTarget) {
+      target = requestTargetMillis;
     }
     if (hasTarget) {
       // the stream clock decides whether this time may move event time (docs/model.md)
