@@ -723,7 +723,17 @@ public final class Backtest {
     final long[] synthRejectedBy = new long[RejectReason.values().length];
     /** The horizon index of the simulated request being run, or -1. */
     private int inRequest = -1;
+    private long requestOrigin;
+    private long requestIssue;
+    private long requestTarget;
     private boolean learned;
+    private double learnedActual;
+    /**
+     * Without {@code input.forecast} (no entity to join on): the simulated forecasts made and not yet
+     * settled, by the source offset of the actual they were made for; that actual settles them.
+     */
+    private final Map<Long, List<double[]>> outstanding;
+    private final boolean viaPending;
     private boolean finished;
     double[] errors = new double[1024];
     long[] times = new long[1024];
@@ -745,7 +755,9 @@ public final class Backtest {
       this.owner = owner;
       this.partition = partition;
       int nh = owner.horizons.length;
-      this.step = new PipelineStep(owner.variant.config(), nh > 0);
+      this.step = new PipelineStep(owner.variant.config());
+      this.viaPending = owner.variant.config().input().forecast().enabled();
+      this.outstanding = nh > 0 && !viaPending ? new HashMap<>() : null;
       this.simulated = nh > 0 ? new SimulatedForecasts(owner.horizons, owner.variant.config(), step, this) : null;
       this.logs = new HorizonLog[nh];
       for (int h = 0; h < nh; h++) {
@@ -791,12 +803,24 @@ public final class Backtest {
       } catch (RuntimeException e) {
         throw new RecordFailure(partition, offset, e);
       }
+      if (outstanding != null && !outstanding.isEmpty()) {
+        // without input.forecast: the forecasts made for this actual are settled by it once learned
+        List<double[]> made = outstanding.remove(offset);
+        if (made != null && learned) {
+          for (double[] m : made) {
+            logs[(int) m[0]].add(offset, (long) m[1], (long) m[2], m[3], m[4], m[5], learnedActual);
+          }
+        }
+      }
       return learned;
     }
 
     @Override
     public void request(int horizon, long issueMillis, long targetMillis, long originOffset) {
       inRequest = horizon;
+      requestOrigin = originOffset;
+      requestIssue = issueMillis;
+      requestTarget = targetMillis;
       try {
         step.processRequest(issueMillis, targetMillis, SIMULATED_PARTITION - horizon, originOffset, this);
       } catch (RuntimeException e) {
@@ -859,11 +883,17 @@ public final class Backtest {
           requestsWarming[inRequest]++;
         } else {
           requestsRemembered[inRequest]++;
+          if (outstanding != null) {
+            // times as doubles: exact below 2^53 ms (the year 287,000)
+            outstanding.computeIfAbsent(requestOrigin, o -> new ArrayList<>(2)).add(new double[] {inRequest,
+                requestIssue, requestTarget, p.predicted(), p.low(), p.high()});
+          }
         }
         return;
       }
       if (!Double.isNaN(p.actual())) {
         learned = true;
+        learnedActual = p.actual();
       }
       pendingTime = p.eventTimeMillis();
       if (p.status() == Prediction.Status.SCORED && !Double.isNaN(p.low()) && !Double.isNaN(p.actual())) {

@@ -126,20 +126,6 @@ public final class PipelineStep {
    * @param config a checked configuration. Not modified.
    */
   public PipelineStep(PipelineConfig config) {
-    this(config, false);
-  }
-
-  /**
-   * A step that may remember forecasts even without {@code input.forecast} (for the backtest's
-   * simulated forecasts, docs/backtesting.md "Horizons"): then there is one series (no entity
-   * fields), the target time is the event time unless {@link #processRequest} names one, and the
-   * bounds are the defaults of {@code input.forecast}. With {@code input.forecast} it is the same
-   * as {@link #PipelineStep(PipelineConfig)}. Predictions are the same bits either way.
-   *
-   * @param config a checked configuration. Not modified.
-   * @param remembersForecasts remember forecasts and settle them even without {@code input.forecast}
-   */
-  public PipelineStep(PipelineConfig config, boolean remembersForecasts) {
     this.config = config;
     PipelineConfig.Input in = config.input();
     this.decoder = in.eventTime().isPresent()
@@ -158,13 +144,13 @@ public final class PipelineStep {
     this.row = new double[Math.max(8, featurizer.maxDimension())];
     this.configFingerprint = fingerprint(config);
     PipelineConfig.Forecast fc = in.forecast();
-    if (fc.enabled() || remembersForecasts) {
+    if (fc.enabled()) {
       this.pending = new PendingForecasts(fc.maxPending(), fc.maxActualDelayMillis());
       this.entitySlots = new int[fc.entityFields().size()];
       for (int i = 0; i < entitySlots.length; i++) {
         entitySlots[i] = in.schema().slot(fc.entityFields().get(i));
       }
-      this.targetTimeSlot = fc.enabled() ? in.schema().slot(fc.targetTimeField()) : -1;
+      this.targetTimeSlot = in.schema().slot(fc.targetTimeField());
       this.settledForecast.entitySlots = entitySlots;
     } else {
       this.pending = null;
@@ -277,7 +263,7 @@ public final class PipelineStep {
       if (!entityKey(sink)) {
         return;
       }
-      if (targetTimeSlot >= 0 && record.present(targetTimeSlot)) {
+      if (record.present(targetTimeSlot)) {
         target = record.timeMillis(targetTimeSlot);
       }
     }

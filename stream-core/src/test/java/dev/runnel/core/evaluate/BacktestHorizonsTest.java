@@ -120,7 +120,7 @@ class BacktestHorizonsTest {
         double y = 10 + effect[k] + 3 * Math.sin(2 * Math.PI * (t % 24) / 24.0) + 0.5 * Double.parseDouble(xs)
             + rnd.nextGaussian();
         y = Double.parseDouble(String.format(Locale.ROOT, "%.4f", y));
-        long made = plain ? hour + k * 60_000L : hour + H + k * 5 * 60_000L;
+        long made = plain ? hour : hour + H + k * 5 * 60_000L; // plain: every hub at the same time
         out.add(new Rec(hubs[k], xs, y, made, plain ? made : hour, true, plain));
       }
       if (t % 29 == 7) {
@@ -162,7 +162,7 @@ class BacktestHorizonsTest {
         continue;
       }
       long issue = a.hour() - h;
-      PipelineStep step = new PipelineStep(cfg, !viaJson);
+      PipelineStep step = new PipelineStep(cfg);
       for (int j = 0; j < recs.size(); j++) {
         Rec r = recs.get(j);
         if (r.made() != Long.MIN_VALUE && r.made() > issue) {
