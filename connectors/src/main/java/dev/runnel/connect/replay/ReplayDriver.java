@@ -129,10 +129,12 @@ public final class ReplayDriver {
 
   /** Sets aside the record a configuration threw on: the one named by a {@link Backtest.RecordFailure}, else (p, o). */
   private static void setAside(Backtest bt, List<String> labels, AtomicIntegerArray threw, int v, int p, long o, Throwable e) {
+    Throwable cause = e;
     if (e instanceof Backtest.RecordFailure f) {
+      // the step ran a record it had held back (horizons): that record is the one to set aside
       p = f.partition();
       o = f.offset();
-      e = f.getCause();
+      cause = f.getCause();
     }
     if (p < 0) {
       // not a record's failure: a defect of the replay itself
@@ -150,7 +152,7 @@ public final class ReplayDriver {
       throw (Error) e;
     }
     threw.set(v, 1);
-    String message = e.getClass().getName() + ": " + e.getMessage();
+    String message = cause.getClass().getName() + ": " + cause.getMessage();
     bt.setAside(v, p, o, message);
     LOG.warn("configuration {} threw on the record at partition {}, offset {} ({}); it becomes a processing_failed reject"
         + " and the replay starts again without it", labels.get(v), p, o, message);

@@ -202,7 +202,11 @@ public final class Backtest {
   public record SettledSimulation(int partition, long originOffset, long issueTimeMillis, long targetTimeMillis,
                                   double forecast, double low, double high, double actual) { }
 
-  /** The simulated forecasts of one variant and horizon index that were settled, in partition and source order. */
+  /**
+   * The simulated forecasts of one variant and horizon index that were settled, in partition order
+   * and, within a partition, in the source order of the actual each was made for. Finishes the
+   * variant's pass first ({@link #finishFor}).
+   */
   public List<SettledSimulation> settledSimulations(int variant, int horizon) {
     finishFor(variant);
     List<SettledSimulation> out = new ArrayList<>();
