@@ -348,6 +348,67 @@ class BacktestHorizonsTest {
     }
   }
 
+  /** The stream with hub C's actuals of days 2 and 3 arriving 30 h after their hour, in event-time order. */
+  static List<Rec> lateStream(long seed) {
+    List<Rec> out = new ArrayList<>();
+    long last = Long.MIN_VALUE;
+    List<long[]> keys = new ArrayList<>();
+    List<Rec> base = stream(6, false, seed);
+    for (Rec r : base) {
+      long day = r.made() == Long.MIN_VALUE ? -1 : (r.hour() - T0) / (24 * H);
+      Rec x = r.actual() && r.hub().equals("C") && (day == 2 || day == 3)
+          ? new Rec(r.hub(), r.x(), r.y(), r.hour() + 30 * H, r.hour(), true, false) : r;
+      last = x.made() == Long.MIN_VALUE ? last : x.made();
+      keys.add(new long[] {last, keys.size()});
+      out.add(x);
+    }
+    List<Rec> sorted = new ArrayList<>();
+    keys.sort((p, q) -> p[0] != q[0] ? Long.compare(p[0], q[0]) : Long.compare(p[1], q[1]));
+    for (long[] k : keys) {
+      sorted.add(out.get((int) k[1]));
+    }
+    return sorted;
+  }
+
+  static PipelineConfig forecastConfig(String name, String maxActualDelay, int maxPending) {
+    return ConfigLoader.parse(String.format(Locale.ROOT, FORECAST_CONFIG, name, "  - {kind: onehot, field: hub, max_levels: 8}")
+        .replace("max_actual_delay: P2D", "max_actual_delay: " + maxActualDelay + "\n    max_pending: " + maxPending),
+        name + ".yaml");
+  }
+
+  @Test
+  void lateActuals_withinMaxActualDelay_areSimulatedFromTheIssueTime_beyondItNotSettled() {
+    List<Rec> recs = lateStream(15);
+    long actuals = recs.stream().filter(Rec::actual).count();
+    // P2D: the look-ahead is the largest horizon plus two days, so actuals 30 h late are simulated
+    // as if issued at T − h, bit for bit as the fresh-step reference
+    PipelineConfig wide = forecastConfig("wide", "P2D", 100_000);
+    BacktestResult r = run(List.of(new Backtest.Variant("wide", wide)), recs, HORIZONS).result();
+    for (int h = 0; h < HORIZONS.size(); h++) {
+      BacktestResult.HorizonVariant v = r.horizons().get(h).variants().get(0);
+      assertEquals(metrics(independent(wide, recs, HORIZONS.get(h))), v.metrics());
+      assertEquals(0, v.beyondLookahead() + v.notSettled() + v.notIssued(), v.toString());
+      assertEquals(actuals, v.metrics().count() + v.warmingUp(), v.toString());
+    }
+    // PT12H: an actual 30 h late settles nothing live, and nothing here either; every actual is
+    // counted once: settled, warming up, not settled, beyond the look-ahead or not issued
+    PipelineConfig narrow = forecastConfig("narrow", "PT12H", 100_000);
+    BacktestResult n = run(List.of(new Backtest.Variant("narrow", narrow)), recs, HORIZONS).result();
+    for (int h = 0; h < HORIZONS.size(); h++) {
+      BacktestResult.HorizonVariant v = n.horizons().get(h).variants().get(0);
+      BacktestResult.HorizonVariant w = r.horizons().get(h).variants().get(0);
+      assertEquals(48, v.beyondLookahead() + v.notSettled(), v.toString()); // hub C, days 2 and 3
+      assertEquals(w.metrics().count() - 48, v.metrics().count());
+      assertEquals(actuals, v.metrics().count() + v.warmingUp() + v.notSettled() + v.beyondLookahead() + v.notIssued());
+    }
+    // max_pending 5: the store drops the oldest forecasts, counted as not settled
+    PipelineConfig small = forecastConfig("small", "P2D", 5);
+    BacktestResult s = run(List.of(new Backtest.Variant("small", small)), recs, HORIZONS).result();
+    BacktestResult.HorizonVariant v = s.horizons().get(1).variants().get(0);
+    assertTrue(v.notSettled() > 100, v.toString());
+    assertEquals(actuals, v.metrics().count() + v.warmingUp() + v.notSettled() + v.beyondLookahead() + v.notIssued());
+  }
+
   @Test
   void options_refuseANonPositiveOrRepeatedHorizon() {
     IllegalArgumentException e = assertThrows(IllegalArgumentException.class,
