@@ -88,6 +88,12 @@ public final class BacktestCommand implements Callable<Integer> {
   @Option(names = "--horizon", paramLabel = "H", hidden = true)
   Integer oldHorizon;
 
+  @Option(names = "--horizons", paramLabel = "DURATION", split = ",",
+      description = "Simulate forecasts issued this long before each actual's target time, with only what was known "
+          + "then, and report every metric and the Diebold-Mariano tests per horizon: ISO 8601 durations, e.g. PT1H,P1D "
+          + "(docs/backtesting.md, \"Horizons\").")
+  List<String> horizons = new ArrayList<>();
+
   @Option(names = "--alpha", paramLabel = "A", defaultValue = "0.05", description = "Significance level of the verdicts (default: ${DEFAULT-VALUE}).")
   double alpha;
 
@@ -134,7 +140,8 @@ public final class BacktestCommand implements Callable<Integer> {
     } catch (DateTimeParseException e) {
       throw new IllegalArgumentException("--period " + period + ": not an ISO 8601 duration; use e.g. P1D or PT6H");
     }
-    Backtest bt = new Backtest(variants, new Backtest.Options(segmentBy, periodMillis, weights, lag, dmSteps, alpha));
+    Backtest bt = new Backtest(variants, new Backtest.Options(segmentBy, periodMillis, weights, lag, dmSteps, alpha,
+        horizonsMillis(horizons)));
     if (threads != null && threads < 1) {
       throw new IllegalArgumentException("--threads " + threads + ": must be at least 1 (1 = no worker threads)");
     }
@@ -186,6 +193,34 @@ public final class BacktestCommand implements Callable<Integer> {
     System.out.printf("report: %s and %s%n", TerminalText.safe(out.resolve("backtest.json").toAbsolutePath().toString()),
         TerminalText.safe(out.resolve("backtest.html").toAbsolutePath().toString()));
     return 0;
+  }
+
+  /**
+   * The --horizons values in milliseconds.
+   *
+   * @throws IllegalArgumentException naming the option, the bad value and the fix
+   */
+  static List<Long> horizonsMillis(List<String> texts) {
+    List<Long> out = new ArrayList<>();
+    for (String t : texts) {
+      String v = t.strip();
+      long ms;
+      try {
+        ms = Duration.parse(v).toMillis();
+      } catch (DateTimeParseException | ArithmeticException e) {
+        throw new IllegalArgumentException("--horizons " + t + ": not an ISO 8601 duration; use days, hours, minutes or"
+            + " seconds, e.g. --horizons PT1H,PT6H,P1D");
+      }
+      if (ms <= 0) {
+        throw new IllegalArgumentException("--horizons " + t + ": a horizon must be positive (a forecast is issued before"
+            + " its target time); use e.g. PT1H or P1D");
+      }
+      if (out.contains(ms)) {
+        throw new IllegalArgumentException("--horizons " + t + ": given twice (as " + ms + " ms); give each horizon once");
+      }
+      out.add(ms);
+    }
+    return out;
   }
 
   /** "  m:ss left" from the share done so far, or nothing before there is a rate. */

@@ -103,18 +103,19 @@ public final class ReplayDriver {
         try {
           step.accept(v, buf, off, len, ts, p, o);
         } catch (RuntimeException | StackOverflowError e) {
-          if (bt.setAsideCount(v) >= MAX_SET_ASIDE) {
-            LOG.error("configuration {}: {} records already set aside as processing_failed; stopping the replay (a defect that"
-                + " hits most records is not a poison record)", labels.get(v), MAX_SET_ASIDE);
-            throw e;
-          }
-          threw.set(v, 1);
-          String message = e.getClass().getName() + ": " + e.getMessage();
-          bt.setAside(v, p, o, message);
-          LOG.warn("configuration {} threw on the record at partition {}, offset {} ({}); it becomes a processing_failed reject"
-              + " and the replay starts again without it", labels.get(v), p, o, message);
+          setAside(bt, labels, threw, v, p, o, e);
         }
       });
+      // with horizons a configuration holds records back: run them now (they may throw too)
+      for (int v = 0; v < labels.size(); v++) {
+        if (threw.get(v) == 0) {
+          try {
+            bt.finishFor(v);
+          } catch (RuntimeException | StackOverflowError e) {
+            setAside(bt, labels, threw, v, -1, -1, e);
+          }
+        }
+      }
       boolean again = false;
       for (int v = 0; v < labels.size(); v++) {
         again |= threw.get(v) != 0;
@@ -124,6 +125,37 @@ public final class ReplayDriver {
       }
       bt.reset();
     }
+  }
+
+  /** Sets aside the record a configuration threw on: the one named by a {@link Backtest.RecordFailure}, else (p, o). */
+  private static void setAside(Backtest bt, List<String> labels, AtomicIntegerArray threw, int v, int p, long o, Throwable e) {
+    Throwable cause = e;
+    if (e instanceof Backtest.RecordFailure f) {
+      // the step ran a record it had held back (horizons): that record is the one to set aside
+      p = f.partition();
+      o = f.offset();
+      cause = f.getCause();
+    }
+    if (p < 0) {
+      // not a record's failure: a defect of the replay itself
+      if (e instanceof RuntimeException r) {
+        throw r;
+      }
+      throw (Error) e;
+    }
+    if (bt.setAsideCount(v) >= MAX_SET_ASIDE) {
+      LOG.error("configuration {}: {} records already set aside as processing_failed; stopping the replay (a defect that"
+          + " hits most records is not a poison record)", labels.get(v), MAX_SET_ASIDE);
+      if (e instanceof RuntimeException r) {
+        throw r;
+      }
+      throw (Error) e;
+    }
+    threw.set(v, 1);
+    String message = cause.getClass().getName() + ": " + cause.getMessage();
+    bt.setAside(v, p, o, message);
+    LOG.warn("configuration {} threw on the record at partition {}, offset {} ({}); it becomes a processing_failed reject"
+        + " and the replay starts again without it", labels.get(v), p, o, message);
   }
 
   /**

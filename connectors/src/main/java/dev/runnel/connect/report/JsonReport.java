@@ -129,8 +129,51 @@ public final class JsonReport {
         g.writeEndObject();
       }
       g.writeEndArray();
+      if (!r.horizons().isEmpty()) {
+        horizons(g, r);
+      }
       g.writeEndObject();
     }
+  }
+
+  /** The simulated forecasts by horizon (written only when --horizons was given). */
+  private static void horizons(JsonGenerator g, BacktestResult r) throws IOException {
+    g.writeArrayFieldStart("horizons");
+    for (BacktestResult.HorizonResult h : r.horizons()) {
+      g.writeStartObject();
+      g.writeStringField("horizon", java.time.Duration.ofMillis(h.horizonMillis()).toString());
+      g.writeNumberField("horizon_ms", h.horizonMillis());
+      g.writeArrayFieldStart("configurations");
+      for (BacktestResult.HorizonVariant v : h.variants()) {
+        g.writeStartObject();
+        g.writeStringField("label", v.label());
+        metricFields(g, v.metrics());
+        g.writeNumberField("warming_up", v.warmingUp());
+        g.writeNumberField("not_settled", v.notSettled());
+        g.writeNumberField("beyond_lookahead", v.beyondLookahead());
+        g.writeNumberField("not_issued", v.notIssued());
+        g.writeNumberField("lookahead_ms", v.lookaheadMillis());
+        g.writeNumberField("max_held_records", v.maxHeld());
+        g.writeEndObject();
+      }
+      g.writeEndArray();
+      g.writeArrayFieldStart("comparisons");
+      for (BacktestResult.HorizonComparison hc : h.comparisons()) {
+        BacktestResult.Comparison c = hc.comparison();
+        g.writeStartObject();
+        g.writeStringField("a", c.a());
+        g.writeStringField("b", c.b());
+        g.writeNumberField("n", c.n());
+        g.writeFieldName("step_ms");
+        num(g, hc.stepMillis());
+        test(g, "squared", c.squared(), c.squaredVerdict());
+        test(g, "absolute", c.absolute(), c.absoluteVerdict());
+        g.writeEndObject();
+      }
+      g.writeEndArray();
+      g.writeEndObject();
+    }
+    g.writeEndArray();
   }
 
   private static void test(JsonGenerator g, String name, DieboldMariano.Result t, String verdict) throws IOException {

@@ -80,7 +80,59 @@ public final class TextReport {
         sb.append("  ").append(c.absoluteVerdict()).append('\n');
       }
     }
+    if (!r.horizons().isEmpty()) {
+      horizonTables(sb, r, w);
+    }
     return TerminalText.lines(sb);
+  }
+
+  /** Errors and tests per horizon of the simulated forecasts. */
+  private static void horizonTables(StringBuilder sb, BacktestResult r, int w) {
+    sb.append(String.format(Locale.ROOT, "%nErrors by horizon: forecasts simulated h before each actual's target time,"
+        + " from what was known then%n"));
+    String fmt = "%-9s %-" + w + "s %10s %10s %10s %10s %9s %11s %10s%n";
+    sb.append(String.format(Locale.ROOT, fmt, "horizon", "config", "settled", "MAE", "RMSE", "bias", "coverage",
+        "not settled", "skipped"));
+    for (BacktestResult.HorizonResult h : r.horizons()) {
+      String hz = java.time.Duration.ofMillis(h.horizonMillis()).toString();
+      for (BacktestResult.HorizonVariant v : h.variants()) {
+        Metrics m = v.metrics();
+        sb.append(String.format(Locale.ROOT, fmt, hz, v.label(), String.format(Locale.ROOT, "%,d", m.count()),
+            num(m.mae()), num(m.rmse()), num(m.bias()), pct(m.coverage()),
+            String.format(Locale.ROOT, "%,d", v.notSettled() + v.warmingUp()),
+            String.format(Locale.ROOT, "%,d", v.beyondLookahead() + v.notIssued())));
+      }
+    }
+    boolean any = false;
+    for (BacktestResult.HorizonResult h : r.horizons()) {
+      any |= !h.comparisons().isEmpty();
+    }
+    if (!any) {
+      return;
+    }
+    sb.append(String.format(Locale.ROOT, "%nDiebold–Mariano tests by horizon (steps k = horizon / mean spacing of the"
+        + " compared series; HAC lag at least k − 1)%n"));
+    String f2 = "%-9s %-" + (2 * w + 4) + "s %-8s %8s %6s %7s %13s %11s %10s%n";
+    sb.append(String.format(Locale.ROOT, f2, "horizon", "first vs second", "loss", "n", "steps", "HAC lag", "mean diff.",
+        "statistic", "p"));
+    for (BacktestResult.HorizonResult h : r.horizons()) {
+      String hz = java.time.Duration.ofMillis(h.horizonMillis()).toString();
+      for (BacktestResult.HorizonComparison hc : h.comparisons()) {
+        BacktestResult.Comparison c = hc.comparison();
+        for (DieboldMariano.Result t : List.of(c.squared(), c.absolute())) {
+          sb.append(String.format(Locale.ROOT, f2, hz, c.a() + " vs " + c.b(), t.loss().id(),
+              String.format(Locale.ROOT, "%,d", t.n()), t.horizon(), t.lag(), num(t.meanDifference()),
+              num(t.correctedStatistic()), pValue(t.correctedPValue())));
+        }
+      }
+    }
+    sb.append('\n');
+    for (BacktestResult.HorizonResult h : r.horizons()) {
+      String hz = java.time.Duration.ofMillis(h.horizonMillis()).toString();
+      for (BacktestResult.HorizonComparison hc : h.comparisons()) {
+        sb.append("  ").append(hz).append(": ").append(hc.comparison().squaredVerdict()).append('\n');
+      }
+    }
   }
 
   private static void segmentTable(StringBuilder sb, BacktestResult r) {

@@ -1,6 +1,7 @@
 package dev.runnel.connect.replay;
 
 import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import dev.runnel.core.config.ConfigLoader;
 import dev.runnel.core.config.PipelineConfig;
@@ -33,8 +34,12 @@ class PoisonRecordReplayTest {
   Path dir;
 
   private static Backtest backtest(PipelineConfig cfg) {
+    return backtest(cfg, List.of());
+  }
+
+  private static Backtest backtest(PipelineConfig cfg, List<Long> horizons) {
     return new Backtest(List.of(new Backtest.Variant("throws", cfg), new Backtest.Variant("plain", cfg)),
-        new Backtest.Options("hub", 86_400_000L, List.of("price_per_kwh"), -1, 1, 0.05));
+        new Backtest.Options("hub", 86_400_000L, List.of("price_per_kwh"), -1, 1, 0.05).withHorizons(horizons));
   }
 
   private static Path write(Path file, List<String> lines) throws IOException {
@@ -55,6 +60,17 @@ class PoisonRecordReplayTest {
   @ParameterizedTest
   @ValueSource(ints = {1, 2})
   void aThrowingRecordBecomesARejectAndTheReplayGoesOnWithoutIt(int threads) throws IOException {
+    poisoned(threads, List.of());
+  }
+
+  /** With --horizons the records are held back before the step runs them: the same outcome, horizons included. */
+  @ParameterizedTest
+  @ValueSource(ints = {1, 2})
+  void withHorizons_aThrowingRecordBecomesARejectAndTheReplayGoesOnWithoutIt(int threads) throws IOException {
+    poisoned(threads, List.of(3_600_000L, 86_400_000L));
+  }
+
+  private void poisoned(int threads, List<Long> horizons) throws IOException {
     PipelineConfig cfg = ConfigLoader.parse(Files.readString(Path.of("../docs/examples/with-weather.yaml")), "with-weather.yaml");
     List<String> clean = new QuillmarshGenerator(Settings.defaults().withDays(20)).lines().toList();
     List<String> salted = new ArrayList<>(clean);
@@ -63,7 +79,7 @@ class PoisonRecordReplayTest {
     Path poisoned = write(dir.resolve("poisoned.jsonl"), salted);
     Path without = write(dir.resolve("without.jsonl"), clean);
 
-    Backtest bt = backtest(cfg);
+    Backtest bt = backtest(cfg, horizons);
     FileSource src = new FileSource(poisoned);
     long[] bytes = {0};
     ParallelReplay.VariantSink throwing = (v, buf, off, len, ts, p, o) -> {
@@ -79,9 +95,18 @@ class PoisonRecordReplayTest {
     assertEquals(0, bt.setAsideCount(1));
     BacktestResult got = bt.result();
 
-    Backtest reference = backtest(cfg);
+    Backtest reference = backtest(cfg, horizons);
     ReplayDriver.run(reference, new FileSource(without), 1, null);
-    BacktestResult.VariantResult want = reference.result().variant("throws");
+    BacktestResult wantAll = reference.result();
+    BacktestResult.VariantResult want = wantAll.variant("throws");
+    assertEquals(horizons.size(), got.horizons().size());
+    for (int h = 0; h < horizons.size(); h++) {
+      BacktestResult.HorizonVariant wh = wantAll.horizons().get(h).variants().get(0);
+      BacktestResult.HorizonVariant gh = got.horizons().get(h).variants().get(0);
+      assertTrue(wh.metrics().count() > 1000, wh.toString());
+      assertEquals(wh.metrics(), gh.metrics());
+      assertEquals(wh.warmingUp(), gh.warmingUp());
+    }
     BacktestResult.VariantResult thrown = got.variant("throws");
     assertSameModelOutcome(want, thrown);
     assertEquals(want.records() + 2, thrown.records(), "the set-aside records are counted as read");

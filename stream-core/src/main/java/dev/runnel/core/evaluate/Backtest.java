@@ -4,6 +4,7 @@ import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.feature.LocalCalendar;
 import dev.runnel.core.pipeline.PipelineStep;
 import dev.runnel.core.pipeline.Prediction;
+import dev.runnel.core.pipeline.SettledForecast;
 import dev.runnel.core.pipeline.Snapshot;
 import dev.runnel.core.record.EventRecord;
 import dev.runnel.core.record.FieldType;
@@ -56,11 +57,23 @@ public final class Backtest {
    * @param lag HAC lag for the Diebold–Mariano test, or -1 for {@link DieboldMariano#defaultLag}
    * @param horizon forecast horizon h for the test (1 for prequential one-step errors)
    * @param alpha significance level of the verdicts, in (0, 1)
+   * @param horizonsMillis forecast horizons to simulate (docs/backtesting.md, "Horizons"), each
+   *     positive and distinct, in milliseconds; empty for none
    */
   public record Options(String segmentField, long periodMillis, List<String> weights, int lag, int horizon,
-                        double alpha) {
+                        double alpha, List<Long> horizonsMillis) {
     public Options {
       weights = List.copyOf(weights);
+      horizonsMillis = List.copyOf(horizonsMillis);
+      for (int i = 0; i < horizonsMillis.size(); i++) {
+        long h = horizonsMillis.get(i);
+        if (h <= 0) {
+          throw new IllegalArgumentException("--horizons: " + h + " ms is not a horizon; give positive ISO 8601 durations, e.g. PT1H,P1D");
+        }
+        if (horizonsMillis.indexOf(h) != i) {
+          throw new IllegalArgumentException("--horizons: " + h + " ms is given twice; give each horizon once");
+        }
+      }
       if (periodMillis <= 0) {
         throw new IllegalArgumentException("--period must be positive, got " + periodMillis + " ms");
       }
@@ -75,9 +88,19 @@ public final class Backtest {
       }
     }
 
-    /** No segments, daily buckets, no paths, automatic lag, one-step, 5% level. */
+    /** Without horizons. */
+    public Options(String segmentField, long periodMillis, List<String> weights, int lag, int horizon, double alpha) {
+      this(segmentField, periodMillis, weights, lag, horizon, alpha, List.of());
+    }
+
+    /** No segments, daily buckets, no paths, automatic lag, one-step, 5% level, no horizons. */
     public static Options defaults() {
       return new Options(null, 86_400_000L, List.of(), -1, 1, 0.05);
+    }
+
+    /** The same options with these horizons (milliseconds). */
+    public Options withHorizons(List<Long> millis) {
+      return new Options(segmentField, periodMillis, weights, lag, horizon, alpha, millis);
     }
   }
 
@@ -116,8 +139,90 @@ public final class Backtest {
               + v.label() + " (its fields: " + schema.fields() + "); name a categorical (text) input field");
         }
       }
-      states[i] = new VariantState(v, slot, options.weights());
+      states[i] = new VariantState(v, slot, options.weights(), horizonArray(options));
     }
+  }
+
+  private static long[] horizonArray(Options o) {
+    long[] h = new long[o.horizonsMillis().size()];
+    for (int i = 0; i < h.length; i++) {
+      h[i] = o.horizonsMillis().get(i);
+    }
+    return h;
+  }
+
+  /**
+   * A configuration's step threw on a record it had held back (horizons): the exception of the
+   * record it was running, which may be an earlier one than the record just handed in.
+   */
+  public static final class RecordFailure extends RuntimeException {
+    private final int partition;
+    private final long offset;
+
+    RecordFailure(int partition, long offset, RuntimeException cause) {
+      super(cause.getClass().getName() + ": " + cause.getMessage() + " (at partition " + partition + ", offset " + offset + ")", cause);
+      this.partition = partition;
+      this.offset = offset;
+    }
+
+    /** The partition of the record the step threw on. */
+    public int partition() { return partition; }
+
+    /** The offset of the record the step threw on. */
+    public long offset() { return offset; }
+  }
+
+  /**
+   * Ends one variant's pass: with horizons, the records still held back are run now (and may throw
+   * {@link RecordFailure}). Without horizons it does nothing. Call it on the variant's thread after
+   * its last record; {@link #result()} calls it for variants not finished yet.
+   */
+  public void finishFor(int variant) {
+    for (Lane lane : states[variant].lanes) {
+      if (lane != null) {
+        lane.finish();
+      }
+    }
+  }
+
+  /** The horizons, in milliseconds, in the order given. */
+  public List<Long> horizonsMillis() {
+    return options.horizonsMillis();
+  }
+
+  /**
+   * One simulated forecast settled by its actual (for tests and inspection).
+   *
+   * @param partition source partition of the actual
+   * @param originOffset source offset of the actual whose request it was
+   * @param issueTimeMillis issue time (target − horizon)
+   * @param targetTimeMillis target time
+   * @param forecast point forecast; low, high its interval; actual the value that settled it
+   */
+  public record SettledSimulation(int partition, long originOffset, long issueTimeMillis, long targetTimeMillis,
+                                  double forecast, double low, double high, double actual) { }
+
+  /**
+   * The simulated forecasts of one variant and horizon index that were settled, in partition order
+   * and, within a partition, in the source order of the actual each was made for. Finishes the
+   * variant's pass first ({@link #finishFor}).
+   */
+  public List<SettledSimulation> settledSimulations(int variant, int horizon) {
+    finishFor(variant);
+    List<SettledSimulation> out = new ArrayList<>();
+    Lane[] lanes = states[variant].lanes;
+    for (int p = 0; p < lanes.length; p++) {
+      if (lanes[p] == null) {
+        continue;
+      }
+      HorizonLog log = lanes[p].logs[horizon];
+      int[] idx = log.sortedIndex();
+      for (int k : idx) {
+        out.add(new SettledSimulation(p, log.origin[k], log.issue[k], log.target[k], log.forecast[k], log.low[k],
+            log.high[k], log.actual[k]));
+      }
+    }
+    return out;
   }
 
   /** The variants, in the order given. */
@@ -203,6 +308,9 @@ public final class Backtest {
 
   /** Builds the report: metrics, segments, buckets, paths, pairwise tests. Allocates. */
   public BacktestResult result() {
+    for (int v = 0; v < states.length; v++) {
+      finishFor(v);
+    }
     List<BacktestResult.VariantResult> vrs = new ArrayList<>();
     for (VariantState s : states) {
       vrs.add(s.result(options));
@@ -218,7 +326,137 @@ public final class Backtest {
       partitions = Math.max(partitions, s.partitionCount());
     }
     return new BacktestResult(records, partitions, options.segmentField(), options.periodMillis(),
-        options.alpha(), vrs, cs);
+        options.alpha(), vrs, cs, horizonResults());
+  }
+
+  private List<BacktestResult.HorizonResult> horizonResults() {
+    List<BacktestResult.HorizonResult> out = new ArrayList<>();
+    long[] hs = horizonArray(options);
+    for (int h = 0; h < hs.length; h++) {
+      List<BacktestResult.HorizonVariant> hv = new ArrayList<>();
+      for (VariantState s : states) {
+        hv.add(s.horizonResult(h));
+      }
+      List<BacktestResult.HorizonComparison> hc = new ArrayList<>();
+      for (int i = 0; i < states.length; i++) {
+        for (int j = i + 1; j < states.length; j++) {
+          hc.add(compareAt(states[i], states[j], h, hs[h]));
+        }
+      }
+      out.add(new BacktestResult.HorizonResult(hs[h], hv, hc));
+    }
+    return out;
+  }
+
+  /**
+   * The Diebold–Mariano tests at one horizon: the simulated forecasts both variants settled for
+   * the same actual (partition and source offset), partitions concatenated in order, each in source
+   * order. The horizon in steps of this series is k = ⌈h / step⌉, with the step its mean spacing
+   * in target time, (latest − earliest target time) / (n − 1); k sets the test's small-sample
+   * correction and its least HAC lag k − 1 (forecasts less than h apart share unknowns, so their
+   * errors are correlated over k entries).
+   */
+  private BacktestResult.HorizonComparison compareAt(VariantState a, VariantState b, int h, long horizonMillis) {
+    int maxPartitions = Math.max(a.lanes.length, b.lanes.length);
+    int total = 0;
+    for (int p = 0; p < maxPartitions; p++) {
+      Lane la = a.lane(p);
+      Lane lb = b.lane(p);
+      if (la != null && lb != null) {
+        total += Math.min(la.logs[h].size, lb.logs[h].size);
+      }
+    }
+    double[] ea = new double[total];
+    double[] eb = new double[total];
+    long minT = Long.MAX_VALUE;
+    long maxT = Long.MIN_VALUE;
+    int n = 0;
+    for (int p = 0; p < maxPartitions; p++) {
+      Lane la = a.lane(p);
+      Lane lb = b.lane(p);
+      if (la == null || lb == null) {
+        continue;
+      }
+      HorizonLog x = la.logs[h];
+      HorizonLog y = lb.logs[h];
+      int[] ix = x.sortedIndex();
+      int[] iy = y.sortedIndex();
+      int i = 0;
+      int j = 0;
+      while (i < ix.length && j < iy.length) {
+        long ox = x.origin[ix[i]];
+        long oy = y.origin[iy[j]];
+        if (ox < oy) {
+          i++;
+        } else if (oy < ox) {
+          j++;
+        } else {
+          ea[n] = x.actual[ix[i]] - x.forecast[ix[i]];
+          eb[n] = y.actual[iy[j]] - y.forecast[iy[j]];
+          minT = Math.min(minT, x.target[ix[i]]);
+          maxT = Math.max(maxT, x.target[ix[i]]);
+          n++;
+          i++;
+          j++;
+        }
+      }
+    }
+    double step = n >= 2 && maxT > minT ? (double) (maxT - minT) / (n - 1) : Double.NaN;
+    int k = Double.isNaN(step) ? 1 : (int) Math.min(Integer.MAX_VALUE, Math.max(1L, (long) Math.ceil(horizonMillis / step)));
+    int lag = options.lag() >= 0 ? options.lag() : DieboldMariano.defaultLag(n, k);
+    DieboldMariano.Result sq = DieboldMariano.test(ea, eb, n, Loss.SQUARED, lag, k);
+    DieboldMariano.Result ab = DieboldMariano.test(ea, eb, n, Loss.ABSOLUTE, lag, k);
+    String la = a.variant.label();
+    String lb = b.variant.label();
+    return new BacktestResult.HorizonComparison(step, new BacktestResult.Comparison(la, lb, n, sq, ab,
+        sq.verdict(la, lb, options.alpha()), ab.verdict(la, lb, options.alpha())));
+  }
+
+  /** The settled simulated forecasts of one lane and horizon, in the order they settled. */
+  static final class HorizonLog {
+    long[] origin = new long[64];
+    long[] issue = new long[64];
+    long[] target = new long[64];
+    double[] forecast = new double[64];
+    double[] low = new double[64];
+    double[] high = new double[64];
+    double[] actual = new double[64];
+    int size;
+
+    void add(long o, long is, long t, double f, double lo, double hi, double a) {
+      if (size == origin.length) {
+        int n = size * 2;
+        origin = Arrays.copyOf(origin, n);
+        issue = Arrays.copyOf(issue, n);
+        target = Arrays.copyOf(target, n);
+        forecast = Arrays.copyOf(forecast, n);
+        low = Arrays.copyOf(low, n);
+        high = Arrays.copyOf(high, n);
+        actual = Arrays.copyOf(actual, n);
+      }
+      origin[size] = o;
+      issue[size] = is;
+      target[size] = t;
+      forecast[size] = f;
+      low[size] = lo;
+      high[size] = hi;
+      actual[size] = a;
+      size++;
+    }
+
+    /** Indices in the order of the actual that asked for each forecast (stable). */
+    int[] sortedIndex() {
+      Integer[] boxed = new Integer[size];
+      for (int i = 0; i < size; i++) {
+        boxed[i] = i;
+      }
+      Arrays.sort(boxed, (p, q) -> Long.compare(origin[p], origin[q]));
+      int[] out = new int[size];
+      for (int i = 0; i < size; i++) {
+        out[i] = boxed[i];
+      }
+      return out;
+    }
   }
 
   private BacktestResult.Comparison compare(VariantState a, VariantState b) {
@@ -272,11 +510,41 @@ public final class Backtest {
     final Map<String, Integer> levelIds = new HashMap<>();
     final List<String> levels = new ArrayList<>();
     final Map<RecordId, String> setAside = new HashMap<>();
+    final long[] horizons;
 
-    VariantState(Variant variant, int segmentSlot, List<String> weightNames) {
+    VariantState(Variant variant, int segmentSlot, List<String> weightNames, long[] horizons) {
       this.variant = variant;
       this.segmentSlot = segmentSlot;
       this.weightNames = weightNames;
+      this.horizons = horizons;
+    }
+
+    BacktestResult.HorizonVariant horizonResult(int h) {
+      Metrics.Accumulator acc = new Metrics.Accumulator();
+      long warming = 0;
+      long unsettled = 0;
+      long beyond = 0;
+      long notIssued = 0;
+      long lookahead = 0;
+      int held = 0;
+      for (Lane lane : lanes) {
+        if (lane == null) {
+          continue;
+        }
+        HorizonLog log = lane.logs[h];
+        for (int k : log.sortedIndex()) {
+          double e = log.actual[k] - log.forecast[k];
+          acc.add(e, log.actual[k] >= log.low[k] && log.actual[k] <= log.high[k]);
+        }
+        warming += lane.requestsWarming[h];
+        unsettled += lane.requestsRemembered[h] - log.size;
+        beyond += lane.simulated.beyondLookahead[h];
+        notIssued += lane.simulated.notBeforeActual[h] + lane.requestsRejected[h];
+        lookahead = lane.simulated.lookaheadMillis();
+        held = Math.max(held, lane.simulated.maxHeld());
+      }
+      return new BacktestResult.HorizonVariant(variant.label(), acc.metrics(), warming, unsettled, beyond, notIssued,
+          lookahead, held);
     }
 
     Lane lane(int p) {
@@ -307,7 +575,7 @@ public final class Backtest {
       }
       records++;
       if (!setAside.isEmpty() && setAside.containsKey(new RecordId(partition, offset))) {
-        lane.setAside(fallback);
+        lane.setAside(fallback, offset);
         return;
       }
       lane.process(buf, off, len, fallback, offset);
@@ -354,12 +622,13 @@ public final class Backtest {
           firstPartition = p;
         }
         PipelineStep st = lane.step;
-        rec += st.records();
-        forecasts += st.forecasts();
-        warming += st.warmingUp();
-        rejected += st.rejected();
+        // the simulated requests (horizons) are not records of the source: their counts come off
+        rec += st.records() - lane.synthRecords;
+        forecasts += st.forecasts() - lane.synthForecasts;
+        warming += st.warmingUp() - lane.synthWarming;
+        rejected += st.rejected() - lane.synthRejected;
         for (RejectReason r : RejectReason.values()) {
-          reasons[r.ordinal()] += st.rejected(r);
+          reasons[r.ordinal()] += st.rejected(r) - lane.synthRejectedBy[r.ordinal()];
         }
         rec += lane.setAside;
         rejected += lane.setAside;
@@ -439,10 +708,37 @@ public final class Backtest {
   }
 
   /** One (variant, partition): the live step and the log of its a priori errors, one entry per record. */
-  private static final class Lane implements PipelineStep.Sink {
+  private static final class Lane implements PipelineStep.Sink, SimulatedForecasts.Receiver {
+    /** A simulated request's source partition: this minus the horizon index (real ones are ≥ -1). */
+    static final long SIMULATED_PARTITION = -2;
     final VariantState owner;
     final PipelineStep step;
     final int partition;
+    /** With horizons: the look-ahead that merges simulated requests; else null. */
+    final SimulatedForecasts simulated;
+    final HorizonLog[] logs;
+    final long[] requestsRemembered;
+    final long[] requestsWarming;
+    final long[] requestsRejected;
+    long synthRecords;
+    long synthForecasts;
+    long synthWarming;
+    long synthRejected;
+    final long[] synthRejectedBy = new long[RejectReason.values().length];
+    /** The horizon index of the simulated request being run, or -1. */
+    private int inRequest = -1;
+    private long requestOrigin;
+    private long requestIssue;
+    private long requestTarget;
+    private boolean learned;
+    private double learnedActual;
+    /**
+     * Without {@code input.forecast} (no entity to join on): the simulated forecasts made and not yet
+     * settled, by the source offset of the actual they were made for; that actual settles them.
+     */
+    private final Map<Long, List<double[]>> outstanding;
+    private final boolean viaPending;
+    private boolean finished;
     double[] errors = new double[1024];
     long[] times = new long[1024];
     int[] segments = new int[1024];
@@ -462,11 +758,84 @@ public final class Backtest {
     Lane(VariantState owner, int partition) {
       this.owner = owner;
       this.partition = partition;
+      int nh = owner.horizons.length;
       this.step = new PipelineStep(owner.variant.config());
+      this.viaPending = owner.variant.config().input().forecast().enabled();
+      this.outstanding = nh > 0 && !viaPending ? new HashMap<>() : null;
+      this.simulated = nh > 0 ? new SimulatedForecasts(owner.horizons, owner.variant.config(), step, this) : null;
+      this.logs = new HorizonLog[nh];
+      for (int h = 0; h < nh; h++) {
+        logs[h] = new HorizonLog();
+      }
+      this.requestsRemembered = new long[nh];
+      this.requestsWarming = new long[nh];
+      this.requestsRejected = new long[nh];
+    }
+
+    void setAside(long fallback, long offset) {
+      if (simulated != null) {
+        simulated.offerSetAside(fallback, offset);
+      } else {
+        setAsideNow(fallback);
+      }
+    }
+
+    void process(byte[] buf, int off, int len, long fallback, long offset) {
+      if (simulated != null) {
+        simulated.offer(buf, off, len, fallback, offset);
+      } else {
+        processNow(buf, off, len, fallback, offset);
+      }
+    }
+
+    void finish() {
+      if (simulated != null && !finished) {
+        finished = true;
+        simulated.finish();
+      }
+    }
+
+    @Override
+    public boolean release(byte[] buf, int len, long fallback, long offset, boolean aside) {
+      if (aside) {
+        setAsideNow(fallback);
+        return false;
+      }
+      learned = false;
+      try {
+        processNow(buf, 0, len, fallback, offset);
+      } catch (RuntimeException e) {
+        throw new RecordFailure(partition, offset, e);
+      }
+      if (outstanding != null && !outstanding.isEmpty()) {
+        // without input.forecast: the forecasts made for this actual are settled by it once learned
+        List<double[]> made = outstanding.remove(offset);
+        if (made != null && learned) {
+          for (double[] m : made) {
+            logs[(int) m[0]].add(offset, (long) m[1], (long) m[2], m[3], m[4], m[5], learnedActual);
+          }
+        }
+      }
+      return learned;
+    }
+
+    @Override
+    public void request(int horizon, long issueMillis, long targetMillis, long originOffset) {
+      inRequest = horizon;
+      requestOrigin = originOffset;
+      requestIssue = issueMillis;
+      requestTarget = targetMillis;
+      try {
+        step.processRequest(issueMillis, targetMillis, SIMULATED_PARTITION - horizon, originOffset, this);
+      } catch (RuntimeException e) {
+        throw new RecordFailure(partition, originOffset, e);
+      } finally {
+        inRequest = -1;
+      }
     }
 
     /** A record set aside: logged like a reject, the step not touched. */
-    void setAside(long fallback) {
+    void setAsideNow(long fallback) {
       setAside++;
       pendingError = Double.NaN;
       pendingTime = fallback;
@@ -475,7 +844,7 @@ public final class Backtest {
       log();
     }
 
-    void process(byte[] buf, int off, int len, long fallback, long offset) {
+    void processNow(byte[] buf, int off, int len, long fallback, long offset) {
       pendingError = Double.NaN;
       pendingTime = fallback;
       pendingSegment = -1;
@@ -500,7 +869,36 @@ public final class Backtest {
     }
 
     @Override
+    public void settled(SettledForecast s, EventRecord record) {
+      long h = SIMULATED_PARTITION - s.requestPartition();
+      if (h >= 0 && h < logs.length) {
+        logs[(int) h].add(s.requestOffset(), s.issueTimeMillis(), s.targetTimeMillis(), s.forecast(), s.low(), s.high(),
+            s.actual());
+      }
+    }
+
+    @Override
     public void prediction(Prediction p, EventRecord record) {
+      if (inRequest >= 0) {
+        synthRecords++;
+        synthForecasts++;
+        if (p.status() == Prediction.Status.WARMING_UP) {
+          synthWarming++;
+          requestsWarming[inRequest]++;
+        } else {
+          requestsRemembered[inRequest]++;
+          if (outstanding != null) {
+            // times as doubles: exact below 2^53 ms (the year 287,000)
+            outstanding.computeIfAbsent(requestOrigin, o -> new ArrayList<>(2)).add(new double[] {inRequest,
+                requestIssue, requestTarget, p.predicted(), p.low(), p.high()});
+          }
+        }
+        return;
+      }
+      if (!Double.isNaN(p.actual())) {
+        learned = true;
+        learnedActual = p.actual();
+      }
       pendingTime = p.eventTimeMillis();
       if (p.status() == Prediction.Status.SCORED && !Double.isNaN(p.low()) && !Double.isNaN(p.actual())) {
         pendingError = p.error();
@@ -514,6 +912,12 @@ public final class Backtest {
 
     @Override
     public void reject(RejectReason reason, String detail) {
+      if (inRequest >= 0) {
+        synthRecords++;
+        synthRejected++;
+        synthRejectedBy[reason.ordinal()]++;
+        requestsRejected[inRequest]++;
+      }
       // counted by the step; the log entry stays NaN
     }
 

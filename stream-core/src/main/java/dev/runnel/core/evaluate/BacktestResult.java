@@ -15,14 +15,62 @@ import java.util.Map;
  * @param alpha significance level of the verdicts
  * @param variants one per configuration, in the order given
  * @param comparisons one per pair (i &lt; j), in order (0,1), (0,2), …, (1,2), …
+ * @param horizons one per simulated forecast horizon, in the order given (empty without horizons)
  */
 public record BacktestResult(long records, int partitions, String segmentField, long periodMillis, double alpha,
-                             List<VariantResult> variants, List<Comparison> comparisons) {
+                             List<VariantResult> variants, List<Comparison> comparisons, List<HorizonResult> horizons) {
 
   public BacktestResult {
     variants = List.copyOf(variants);
     comparisons = List.copyOf(comparisons);
+    horizons = List.copyOf(horizons);
   }
+
+  /** Without horizons. */
+  public BacktestResult(long records, int partitions, String segmentField, long periodMillis, double alpha,
+                        List<VariantResult> variants, List<Comparison> comparisons) {
+    this(records, partitions, segmentField, periodMillis, alpha, variants, comparisons, List.of());
+  }
+
+  /**
+   * The simulated forecasts of one horizon (docs/backtesting.md, "Horizons").
+   *
+   * @param horizonMillis the horizon h: each forecast was issued h before its actual's target time
+   * @param variants one per configuration, in the order given
+   * @param comparisons one per pair, in the order of {@link #comparisons()}
+   */
+  public record HorizonResult(long horizonMillis, List<HorizonVariant> variants, List<HorizonComparison> comparisons) {
+    public HorizonResult {
+      variants = List.copyOf(variants);
+      comparisons = List.copyOf(comparisons);
+    }
+  }
+
+  /**
+   * One configuration at one horizon.
+   *
+   * @param label the configuration's label
+   * @param metrics MAE, RMSE, bias, coverage of the settled simulated forecasts (count: how many settled)
+   * @param warmingUp requests made while the model was warming up (no forecast to settle)
+   * @param notSettled forecasts made but never settled (dropped by {@code input.forecast.max_pending},
+   *     or their actual came later than {@code max_actual_delay} or was rejected)
+   * @param beyondLookahead actuals whose issue time lay before a record already learned from (out of
+   *     order by more than the look-ahead): not simulated
+   * @param notIssued actuals whose issue time was not before their own event time, or whose request
+   *     the step rejected: not simulated
+   * @param lookaheadMillis the span of event time the records were held back for
+   * @param maxHeld the most records held back at once (per partition)
+   */
+  public record HorizonVariant(String label, Metrics metrics, long warmingUp, long notSettled, long beyondLookahead,
+                               long notIssued, long lookaheadMillis, int maxHeld) { }
+
+  /**
+   * The Diebold–Mariano tests of one pair at one horizon.
+   *
+   * @param stepMillis mean spacing in target time of the compared series (NaN with fewer than 2 or no spread)
+   * @param comparison the tests; their {@code horizon} is the horizon in steps, k = ⌈h / step⌉
+   */
+  public record HorizonComparison(double stepMillis, Comparison comparison) { }
 
   /**
    * One configuration's results.

@@ -138,6 +138,9 @@ public final class PipelineStep {
   /** Scratch: the forecasts taken for re-settling, copied out (issue, partition, offset; forecast, low, high). */
   private long[] keptLongs = new long[24];
   private double[] keptDoubles = new double[24];
+  /** Set only inside {@link #processRequest}: the target time it names. */
+  private boolean hasRequestTarget;
+  private long requestTargetMillis;
   private double[] row;
   /** The model's a-priori leverage (element 0) and prediction (element 1) for this record. */
   private final double[] aPriori = new double[2];
@@ -274,6 +277,30 @@ public final class PipelineStep {
     processDecoded(fallbackTimeMillis, partition, offset, sink);
   }
 
+  /**
+   * Processes the record in {@link #record()} (filled by the caller) as a forecast request issued
+   * at {@code issueTimeMillis} for {@code targetTimeMillis}, whatever its own event time, target and
+   * target-time fields say: the target is cleared, the event time set to the issue time. Scored and
+   * remembered like any request; changes no other state. Used by the backtest to simulate a
+   * forecast issued ahead of an actual (docs/backtesting.md, "Horizons").
+   *
+   * @param partition source partition copied into the prediction and the pending forecast
+   * @param offset source offset copied likewise
+   */
+  public void processRequest(long issueTimeMillis, long targetTimeMillis, long partition, long offset, Sink sink) {
+    record.setAbsent(targetSlot);
+    if (config.input().eventTime().isPresent()) {
+      record.setEventTimeMillis(issueTimeMillis);
+    }
+    requestTargetMillis = targetTimeMillis;
+    hasRequestTarget = true;
+    try {
+      processDecoded(issueTimeMillis, partition, offset, sink);
+    } finally {
+      hasRequestTarget = false;
+    }
+  }
+
   /** The reusable record that {@link #processRecord} reads; fill it, then call that method. */
   public EventRecord record() {
     return record;
@@ -307,6 +334,9 @@ public final class PipelineStep {
       if (record.present(targetTimeSlot)) {
         target = record.timeMillis(targetTimeSlot);
       }
+    }
+    if (hasRequestTarget) {
+      target = requestTargetMillis;
     }
     // an actual with input.forecast: too late, a repeat, or a correction (docs/forecasting.md)
     int known = -1;
