@@ -46,11 +46,13 @@ public final class DriftMonitor {
   private final LinkedHashMap<String, double[]> first = new LinkedHashMap<>();
   private final LinkedHashMap<String, DriftAlarm> weightAlarms = new LinkedHashMap<>();
   private final ArrayList<DriftAlarm> errorAlarms = new ArrayList<>();
+  private final ChangeAttribution attribution;
   private final LinkedHashMap<String, Double> moved = new LinkedHashMap<>();
   private long weightFired;
   private double refNoiseSd = Double.NaN;
   private long sinceRestart;
   private long errorFired;
+  private long changeFired;
 
   /**
    * @param settings the {@code drift} section. Not modified.
@@ -60,6 +62,7 @@ public final class DriftMonitor {
     this.test = settings.errorTest() == ErrorTest.PAGE_HINKLEY
         ? new PageHinkley(settings.errorAllowance(), settings.errorThreshold(), settings.errorWarmupRecords())
         : null;
+    this.attribution = new ChangeAttribution(settings.attributionRecords(), settings.attributionSe());
     this.historySize = switch (settings.baseline()) {
       case PREVIOUS_SNAPSHOT -> 1;
       case SNAPSHOTS_AGO -> settings.baselineSnapshots();
@@ -112,6 +115,58 @@ public final class DriftMonitor {
         eventTimeMillis, -1, trained, test.lastFireStatistic(), test.threshold(), test.lastFireMean(), Double.NaN));
     return true;
   }
+
+  /** The change attribution that follows an error-level alarm. */
+  public ChangeAttribution attribution() { return attribution; }
+
+  /**
+   * Opens the change attribution's window (call right after {@link #observeError} returned true).
+   * Cold path. See {@link ChangeAttribution#open}.
+   */
+  public void openAttribution(String[] names, double[] rawWeights, int dimension, double effectiveSampleSize,
+                              long layout, long trained) {
+    // the "before" estimate is the weight alarm's baseline snapshot where it has the column: the
+    // model's weights at the alarm have already taken in the records between the change and the
+    // alarm (and, with a design that moves over the day, spread the change over other columns)
+    Map<String, double[]> base = settings.baseline() == DriftBaseline.FIRST_READY_SNAPSHOT ? first : history.peekFirst();
+    double[] before = java.util.Arrays.copyOf(rawWeights, dimension);
+    if (base != null) {
+      for (int j = 0; j < dimension; j++) {
+        double[] b = base.get(names[j]);
+        if (b != null) {
+          before[j] = b[0];
+        }
+      }
+    }
+    attribution.open(names, before, dimension, effectiveSampleSize, layout, trained);
+  }
+
+  /**
+   * One trained record's raw-unit row while the attribution window is open (hot path while open,
+   * {@code O(p²)}); when the window closes, its named columns become changed-weight alarms, listed
+   * from the next snapshot on, largest score first.
+   *
+   * @param x raw-unit row. Not modified.
+   * @param y the target
+   * @param dimension the row's length
+   * @param layout the layout version
+   * @param eventTimeMillis the record's event time
+   * @param trained the pipeline's trained-record count including this record
+   */
+  public void observeTrained(double[] x, double y, int dimension, long layout, long eventTimeMillis, long trained) {
+    List<ChangeAttribution.Change> named = attribution.observe(x, y, dimension, layout);
+    if (named == null) {
+      return;
+    }
+    for (ChangeAttribution.Change c : named) {
+      changeFired++;
+      errorAlarms.add(new DriftAlarm(DriftAlarm.CHANGED_WEIGHT, c.column(), c.score() > 0 ? "up" : "down",
+          eventTimeMillis, -1, trained, Math.abs(c.score()), attribution.threshold(), c.before(), c.after()));
+    }
+  }
+
+  /** Changed-weight alarms fired since the start. */
+  public long changeAlarmsFired() { return changeFired; }
 
   /**
    * One snapshot's raw-unit weights and standard errors: evaluates the weight alarms, moves the
@@ -298,7 +353,7 @@ public final class DriftMonitor {
     int ea = (int) count(in.readInt(), "error alarms");
     for (int i = 0; i < ea; i++) {
       DriftAlarm a = readAlarm(in);
-      if (!DriftAlarm.ERROR_LEVEL.equals(a.kind())) {
+      if (!DriftAlarm.ERROR_LEVEL.equals(a.kind()) && !DriftAlarm.CHANGED_WEIGHT.equals(a.kind())) {
         throw new IOException("corrupt drift checkpoint: an error-level alarm of kind " + a.kind());
       }
       errorAlarms.add(a);
@@ -309,6 +364,30 @@ public final class DriftMonitor {
       moved.put(in.readUTF(), in.readDouble());
     }
   }
+
+  /** Writes the change attribution's state (checkpoint version 5 on). */
+  public void writeAttributionTo(DataOutput out) throws IOException {
+    out.writeLong(changeFired);
+    attribution.writeTo(out);
+  }
+
+  /** Reads a state written by {@link #writeAttributionTo}; {@code in == null} resets it (an older checkpoint). */
+  public void readAttributionFrom(DataInput in) throws IOException {
+    if (in == null) {
+      changeFired = 0;
+      attribution.reset();
+      return;
+    }
+    try {
+      changeFired = count(in.readLong(), "changed-weight alarms fired");
+      attribution.readFrom(in);
+    } catch (EOFException e) {
+      throw new EOFException("drift checkpoint is truncated");
+    }
+  }
+
+  /** Whether the attribution has state to write (a checkpoint without it keeps its former version). */
+  public boolean hasAttributionState() { return changeFired > 0 || attribution.hasState(); }
 
   /** A count read from a checkpoint: refused when negative. */
   static long count(long n, String what) throws IOException {

@@ -75,10 +75,14 @@ public final class PipelineStep {
   }
 
   /**
-   * Latest version of the checkpoint layout: 4 adds the pending forecasts. A step without
-   * {@code input.forecast} has none and still writes version 3, byte for byte as before.
+   * Latest version of the checkpoint layout: 4 adds the pending forecasts; 5 adds the change
+   * attribution (a flag for pending forecasts, then the attribution's window and latest result).
+   * A step writes 5 only once the attribution has state (an error-level alarm opened its window);
+   * before that, a step without {@code input.forecast} still writes version 3 and one with it
+   * version 4, byte for byte as before.
    */
-  public static final int CHECKPOINT_VERSION = 4;
+  public static final int CHECKPOINT_VERSION = 5;
+  private static final int CHECKPOINT_VERSION_WITH_FORECASTS = 4;
   private static final int CHECKPOINT_VERSION_WITHOUT_FORECASTS = 3;
   private static final int CHECKPOINT_MAGIC = 0x524E4C43; // "RNLC"
 
@@ -103,6 +107,8 @@ public final class PipelineStep {
   private int entityKeyLength;
   private final SettledForecast settledForecast = new SettledForecast();
   private double[] row;
+  /** The row in raw units, only while the change attribution's window is open. */
+  private double[] rawRow = new double[0];
   /** The model's a-priori leverage (element 0) and prediction (element 1) for this record. */
   private final double[] aPriori = new double[2];
 
@@ -312,10 +318,15 @@ public final class PipelineStep {
     records++;
     if (hasTarget) {
       trained++;
+      if (drift.attribution().isOpen()) {
+        observeForAttribution(y, t);
+      }
       if (p.status == Prediction.Status.SCORED) {
         metrics.add(y - p.predicted, p.covered());
         // the a priori error and its predictive sd s·√(1 + xᵀPx) = half-width / z
-        drift.observeError(y - p.predicted, half / model.settings().intervalZ(), model.noiseSd(), t, trained);
+        if (drift.observeError(y - p.predicted, half / model.settings().intervalZ(), model.noiseSd(), t, trained)) {
+          openAttribution();
+        }
       }
     } else {
       forecasts++;
@@ -370,6 +381,47 @@ public final class PipelineStep {
     } finally {
       snapshotStampMillis = Long.MIN_VALUE;
     }
+  }
+
+  /**
+   * While the change attribution's window is open: this record's row in raw units
+   * ({@code v = z·s + m} for a scaled column), O(p) plus the attribution's O(p²).
+   */
+  private void observeForAttribution(double y, long t) {
+    int n = featurizer.dimension();
+    if (rawRow.length < n) {
+      rawRow = new double[Math.max(n, row.length)];
+    }
+    boolean constant = featurizer.hasConstantTerm();
+    for (int j = 0; j < n; j++) {
+      rawRow[j] = row[j] * featurizer.scale(j) + (constant ? featurizer.centre(j) : 0.0);
+    }
+    drift.observeTrained(rawRow, y, n, featurizer.layoutVersion(), t, trained);
+  }
+
+  /** Rare path (an error-level alarm fired): the raw-unit weights now open the attribution's window. */
+  private void openAttribution() {
+    if (!model.ready() || !drift.attribution().enabled()) {
+      return;
+    }
+    int n = model.dimension();
+    double[] w = new double[n];
+    model.weights(w);
+    String[] names = new String[n];
+    double[] raw = new double[n];
+    boolean constant = featurizer.hasConstantTerm();
+    double c = constant ? w[0] : 0.0;
+    for (int j = 0; j < n; j++) {
+      names[j] = featurizer.columnName(j);
+      raw[j] = w[j] / featurizer.scale(j);
+      if (constant && j > 0) {
+        c -= w[j] * featurizer.centre(j) / featurizer.scale(j);
+      }
+    }
+    if (constant) {
+      raw[0] = c;
+    }
+    drift.openAttribution(names, raw, n, model.effectiveSampleSize(), featurizer.layoutVersion(), trained);
   }
 
   /** Cold path: the weight alarms and baselines move on once per published snapshot. */
@@ -554,7 +606,9 @@ public final class PipelineStep {
       ByteArrayOutputStream bytes = new ByteArrayOutputStream(4096);
       DataOutputStream out = new DataOutputStream(bytes);
       out.writeInt(CHECKPOINT_MAGIC);
-      out.writeInt(pending != null ? CHECKPOINT_VERSION : CHECKPOINT_VERSION_WITHOUT_FORECASTS);
+      boolean v5 = drift.hasAttributionState();
+      out.writeInt(v5 ? CHECKPOINT_VERSION : pending != null ? CHECKPOINT_VERSION_WITH_FORECASTS
+          : CHECKPOINT_VERSION_WITHOUT_FORECASTS);
       out.writeLong(configFingerprint);
       out.writeLong(records);
       out.writeLong(trained);
@@ -573,8 +627,14 @@ public final class PipelineStep {
       model.writeTo(out);
       out.writeLong(snapshotsTaken);
       drift.writeTo(out);
+      if (v5) {
+        out.writeBoolean(pending != null);
+      }
       if (pending != null) {
         pending.writeTo(out);
+      }
+      if (v5) {
+        drift.writeAttributionTo(out);
       }
       out.flush();
       return bytes.toByteArray();
@@ -646,7 +706,8 @@ public final class PipelineStep {
         snapshotsTaken = in.readLong();
         drift.readFrom(in);
       }
-      if (version >= 4) {
+      boolean hasPending = version == 4 || (version >= 5 && in.readBoolean());
+      if (hasPending) {
         if (pending == null) {
           throw new IllegalArgumentException("the checkpoint holds pending forecasts (it was written with input.forecast);"
               + " keep input.forecast in the configuration, or start a new pipeline name (or reset its state) without it");
@@ -655,6 +716,7 @@ public final class PipelineStep {
       } else if (pending != null) {
         pending.clear();
       }
+      drift.readAttributionFrom(version >= 5 ? in : null);
       ensureRow();
     } catch (IOException e) {
       throw new IllegalArgumentException("the checkpoint is truncated or corrupt: " + e.getMessage(), e);
