@@ -177,8 +177,16 @@ public final class DriftTable {
       sb.append("  | ALARM");
       for (JsonNode a : alarms) {
         sb.append(' ');
-        if (a.path("kind").asText().equals("weight")) {
+        String kind = a.path("kind").asText();
+        if (kind.equals("weight")) {
           sb.append(a.path("column").asText()).append(' ').append(a.path("direction").asText());
+        } else if (kind.equals("changed_weight")) {
+          // the column the before/after comparison named: weight before → after, z in standard errors
+          double z = a.path("score").asDouble(Double.NaN) * (a.path("direction").asText().equals("down") ? -1 : 1);
+          sb.append("CHANGED ").append(a.path("column").asText()).append(' ')
+              .append(sig(a.path("baseline_value").asDouble(Double.NaN))).append("→")
+              .append(sig(a.path("current_value").asDouble(Double.NaN)))
+              .append(String.format(Locale.ROOT, " (%+.1f)", z));
         } else {
           sb.append("error level ").append(a.path("direction").asText()).append(" at ")
               .append(shortTime(a.path("fired_at").asText("")));

@@ -45,6 +45,16 @@ class DriftTableTest {
   }
 
   @Test
+  void aChangedWeightAlarmShowsTheNamedColumnBeforeAfterAndItsScore() throws Exception {
+    DriftTable t = new DriftTable("pipeline", 1, null, null);
+    String line = t.take(snap(5, 1, 0.1, 2, 0.1,
+        "{\"kind\":\"error_level\",\"direction\":\"up\",\"fired_at\":\"2026-02-01T02:17:00Z\"},"
+            + "{\"kind\":\"changed_weight\",\"column\":\"price_per_kwh\",\"direction\":\"down\",\"score\":9.14,"
+            + "\"baseline_value\":-15.5,\"current_value\":-46.25}"));
+    assertTrue(line.endsWith("| ALARM error level up at 2026-02-01T02:17Z; CHANGED price_per_kwh -15.500→-46.250 (-9.1)"), line);
+  }
+
+  @Test
   void fromToAndAChosenBaselineByIndexAndTime() throws Exception {
     DriftTable t = new DriftTable("2", 1, DriftTable.Point.parse("2026-02-01T01:00:00Z", "--from"),
         DriftTable.Point.parse("3", "--to"));
