@@ -700,7 +700,10 @@ public final class ConfigLoader {
       int hold = ConfigKeys.ALARM_HOLD_SNAPSHOTS.read(d);
       int window = ConfigKeys.ATTRIBUTION_RECORDS.read(d);
       double named = ConfigKeys.ATTRIBUTION_SE.read(d);
-      return new PipelineConfig.Drift(k, baseline, back, test, delta, lambda, warm, hold, window, named);
+      int reset = ConfigKeys.RESET_TO_RECORDS.read(d);
+      int contrasts = ConfigKeys.CONTRAST_LEVELS.read(d);
+      return new PipelineConfig.Drift(k, baseline, back, test, delta, lambda, warm, hold, window, named, reset,
+          contrasts);
     }
 
     private PipelineConfig.Web web(Section w) {

@@ -53,6 +53,10 @@ public final class DriftMonitor {
   private long sinceRestart;
   private long errorFired;
   private long changeFired;
+  /** A covariance reset is due at the next update (an "up" alarm fired and drift.reset_to_records > 0). */
+  private boolean resetDue;
+  /** Updates left during which the noise estimate is held after a reset. */
+  private long noiseHoldLeft;
 
   /**
    * @param settings the {@code drift} section. Not modified.
@@ -108,6 +112,10 @@ public final class DriftMonitor {
       return false;
     }
     // rare path: an alarm fired; the next value freezes a new reference noise sd
+    if (d == PageHinkley.Direction.UP && settings.resetToRecords() > 0) {
+      resetDue = true;
+      noiseHoldLeft = settings.resetToRecords();
+    }
     refNoiseSd = Double.NaN;
     sinceRestart = 0;
     errorFired++;
@@ -163,6 +171,40 @@ public final class DriftMonitor {
       errorAlarms.add(new DriftAlarm(DriftAlarm.CHANGED_WEIGHT, c.column(), c.score() > 0 ? "up" : "down",
           eventTimeMillis, -1, trained, Math.abs(c.score()), attribution.threshold(), c.before(), c.after()));
     }
+  }
+
+  /**
+   * The forgetting factor for the next update: {@code lambda}, or, once after an "up" alarm when
+   * {@code drift.reset_to_records} is {@code m > 0}, {@code lambda · min(1, m / n_eff)}: the
+   * information is cut to about {@code m} records' worth (covariance resetting), and normal
+   * forgetting goes on from the next record.
+   *
+   * @param lambda the clock's forgetting factor for this record
+   * @param effectiveSampleSize the model's effective sample size before this update
+   */
+  public double forgettingFor(double lambda, double effectiveSampleSize) {
+    if (!resetDue) {
+      return lambda;
+    }
+    resetDue = false;
+    double m = settings.resetToRecords();
+    return effectiveSampleSize > m ? lambda * (m / effectiveSampleSize) : lambda;
+  }
+
+  /** Whether the next update should leave the noise estimate as it is (the model is catching up after a reset). */
+  public boolean noiseHeld() { return noiseHoldLeft > 0; }
+
+  /**
+   * After an update: counts the held updates down.
+   *
+   * @return true when the hold has just ended (the caller restarts the noise estimate)
+   */
+  public boolean afterUpdate() {
+    if (noiseHoldLeft <= 0) {
+      return false;
+    }
+    noiseHoldLeft--;
+    return noiseHoldLeft == 0;
   }
 
   /** Changed-weight alarms fired since the start. */
@@ -368,6 +410,8 @@ public final class DriftMonitor {
   /** Writes the change attribution's state (checkpoint version 5 on). */
   public void writeAttributionTo(DataOutput out) throws IOException {
     out.writeLong(changeFired);
+    out.writeBoolean(resetDue);
+    out.writeLong(noiseHoldLeft);
     attribution.writeTo(out);
   }
 
@@ -375,11 +419,15 @@ public final class DriftMonitor {
   public void readAttributionFrom(DataInput in) throws IOException {
     if (in == null) {
       changeFired = 0;
+      resetDue = false;
+      noiseHoldLeft = 0;
       attribution.reset();
       return;
     }
     try {
       changeFired = count(in.readLong(), "changed-weight alarms fired");
+      resetDue = in.readBoolean();
+      noiseHoldLeft = count(in.readLong(), "records the noise estimate is held");
       attribution.readFrom(in);
     } catch (EOFException e) {
       throw new EOFException("drift checkpoint is truncated");
@@ -387,7 +435,9 @@ public final class DriftMonitor {
   }
 
   /** Whether the attribution has state to write (a checkpoint without it keeps its former version). */
-  public boolean hasAttributionState() { return changeFired > 0 || attribution.hasState(); }
+  public boolean hasAttributionState() {
+    return changeFired > 0 || attribution.hasState() || resetDue || noiseHoldLeft > 0;
+  }
 
   /** A count read from a checkpoint: refused when negative. */
   static long count(long n, String what) throws IOException {

@@ -84,6 +84,8 @@ public final class PipelineStep {
   public static final int CHECKPOINT_VERSION = 5;
   private static final int CHECKPOINT_VERSION_WITH_FORECASTS = 4;
   private static final int CHECKPOINT_VERSION_WITHOUT_FORECASTS = 3;
+  /** The weight, in records, the noise estimate keeps when it restarts after a reset's hold. */
+  static final double NOISE_RESTART_RECORDS = 10.0;
   private static final int CHECKPOINT_MAGIC = 0x524E4C43; // "RNLC"
 
   private final PipelineConfig config;
@@ -293,10 +295,17 @@ public final class PipelineStep {
       // the prediction and its interval are the a priori ones (the model before this record's
       // target, noise sd before this record); the update gives the prediction and the leverage
       // from its own rotations, so no triangular solve is needed
-      if (!model.update(row, y, clock.lambda(), aPriori)) {
+      // after an "up" alarm with drift.reset_to_records: one update with a cut information, and
+      // the noise estimate held while the model catches up (off by default: no change)
+      boolean held = drift.noiseHeld();
+      model.holdNoise(held);
+      if (!model.update(row, y, drift.forgettingFor(clock.lambda(), model.effectiveSampleSize()), aPriori)) {
         reject(RejectReason.MODEL_REFUSED,
             "the update would have made the model's state non-finite; the model is unchanged", sink);
         return;
+      }
+      if (held && drift.afterUpdate()) {
+        model.restartNoise(NOISE_RESTART_RECORDS);
       }
       if (warm) {
         p.predicted = aPriori[1];
