@@ -172,6 +172,7 @@ public final class DriftTable {
       }
       sb.append(texts.get((int) scores.get(i)[1]));
     }
+    appendContrasts(sb, s.path("contrasts"));
     JsonNode alarms = s.path("alarms");
     if (alarms.size() > 0) {
       sb.append("  | ALARM");
@@ -197,6 +198,32 @@ public final class DriftTable {
     }
     // names and levels come from the data: no control character reaches the terminal
     return TerminalText.safe(sb);
+  }
+
+  /**
+   * Per one-hot feature with contrasts in the snapshot (drift.contrast_levels): the three levels
+   * furthest from the mean of the levels in standard errors, as {@code level effect±se}.
+   */
+  private static void appendContrasts(StringBuilder sb, JsonNode contrasts) {
+    for (JsonNode c : contrasts) {
+      List<JsonNode> levels = new ArrayList<>();
+      for (JsonNode l : c.path("levels")) {
+        if (l.path("effect").isNumber() && l.path("std_error").isNumber() && l.path("std_error").asDouble() > 0) {
+          levels.add(l);
+        }
+      }
+      if (levels.isEmpty()) {
+        continue;
+      }
+      levels.sort((a, b) -> Double.compare(Math.abs(b.path("effect").asDouble() / b.path("std_error").asDouble()),
+          Math.abs(a.path("effect").asDouble() / a.path("std_error").asDouble())));
+      sb.append("  | ").append(c.path("feature").asText()).append(" vs mean:");
+      for (int i = 0; i < Math.min(3, levels.size()); i++) {
+        JsonNode l = levels.get(i);
+        sb.append(i == 0 ? " " : ", ").append(l.path("level").asText()).append(' ')
+            .append(String.format(Locale.ROOT, "%+.3g±%.2g", l.path("effect").asDouble(), l.path("std_error").asDouble()));
+      }
+    }
   }
 
   private static Instant timeOf(JsonNode s) {

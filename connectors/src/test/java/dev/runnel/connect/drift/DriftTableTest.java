@@ -55,6 +55,19 @@ class DriftTableTest {
   }
 
   @Test
+  void contrastsShowTheLevelsFurthestFromTheMeanInStandardErrors() throws Exception {
+    JsonNode s = JSON.readTree("{\"partition\":0,\"index\":1,\"event_time\":\"2026-02-01T00:00:00Z\",\"ready\":true,"
+        + "\"columns\":[],\"alarms\":[],\"contrasts\":[{\"feature\":\"gate\",\"reference\":\"mean_of_levels\","
+        + "\"levels_total\":4,\"levels\":["
+        + "{\"level\":\"A\",\"effect\":0.5,\"std_error\":0.5},"    // z 1
+        + "{\"level\":\"B\",\"effect\":-1.2,\"std_error\":0.2},"   // z 6
+        + "{\"level\":\"C\",\"effect\":0.9,\"std_error\":0.3},"    // z 3
+        + "{\"level\":\"D\",\"effect\":-0.2,\"std_error\":0.1}]}]}"); // z 2
+    String line = new DriftTable("pipeline", 1, null, null).take(s);
+    assertTrue(line.endsWith("| gate vs mean: B -1.20±0.20, C +0.900±0.30, D -0.200±0.10"), line);
+  }
+
+  @Test
   void fromToAndAChosenBaselineByIndexAndTime() throws Exception {
     DriftTable t = new DriftTable("2", 1, DriftTable.Point.parse("2026-02-01T01:00:00Z", "--from"),
         DriftTable.Point.parse("3", "--to"));

@@ -28,7 +28,7 @@ import java.util.Random;
  *
  * <pre>
  * mvn -o -q -pl stream-core test-compile
- * java -cp "stream-core/target/test-classes:stream-core/target/classes:$(cat cp.txt)" dev.runnel.core.bench.ChangeRecoveryHarness 200 100
+ * java -cp "stream-core/target/test-classes:stream-core/target/classes:$(cat cp.txt)" dev.runnel.core.bench.ChangeRecoveryHarness 200 100 [DAILY_MAX]
  * </pre>
  * ({@code cp.txt} from {@code mvn -o -q -pl stream-core dependency:build-classpath -Dmdep.outputFile=../cp.txt}).
  */
@@ -68,6 +68,9 @@ public final class ChangeRecoveryHarness {
 
   record Feed(List<byte[]> lines, int changed) { }
 
+  /** Largest amplitude of a column's daily pattern, in its sd (the third argument; default 1). */
+  static double dailyMax = 1.0;
+
   static Feed feed(long seed, boolean change) {
     Random rnd = new Random(seed);
     double[] load = new double[P];
@@ -77,7 +80,7 @@ public final class ChangeRecoveryHarness {
     double[] daily = new double[P];
     double[] phase = new double[P];
     for (int j = 0; j < P; j++) {
-      daily[j] = rnd.nextDouble(); // a daily pattern of up to one sd (as a price that follows the hour)
+      daily[j] = dailyMax * rnd.nextDouble(); // a daily pattern (as a price that follows the hour)
       phase[j] = 2 * Math.PI * rnd.nextDouble();
       load[j] = 0.5 + 0.34 * rnd.nextDouble(); // pairwise correlation load_i·load_j in [0.25, 0.7]
       beta[j] = (rnd.nextBoolean() ? 1 : -1) * (0.5 + rnd.nextDouble());
@@ -182,6 +185,7 @@ public final class ChangeRecoveryHarness {
   public static void main(String[] args) {
     int trials = args.length > 0 ? Integer.parseInt(args[0]) : 200;
     int stationary = args.length > 1 ? Integer.parseInt(args[1]) : 100;
+    dailyMax = args.length > 2 ? Double.parseDouble(args[2]) : 1.0;
     int r = RESETS.length;
     double[][] rmseDay = new double[r][trials];
     double[][] rmseWeek = new double[r][trials];
@@ -255,7 +259,8 @@ public final class ChangeRecoveryHarness {
         }
       }
     }
-    System.out.printf(Locale.ROOT, "%d change trials (one weight of six correlated columns triples), %d stationary trials%n%n", trials, stationary);
+    System.out.printf(Locale.ROOT, "%d change trials (one weight of six correlated columns triples), %d stationary trials,"
+        + " daily patterns up to %.1f sd%n%n", trials, stationary, dailyMax);
     System.out.println("| naming | changed-weight alarm (new) | weight alarm (former) |");
     System.out.println("|---|---|---|");
     System.out.printf(Locale.ROOT, "| first named column is the changed one | %.1f %% | %.1f %% |%n", 100.0 * firstRight / trials, 100.0 * weightFirstRight / trials);
