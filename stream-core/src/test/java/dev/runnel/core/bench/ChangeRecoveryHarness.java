@@ -28,7 +28,7 @@ import java.util.Random;
  *
  * <pre>
  * mvn -o -q -pl stream-core test-compile
- * java -cp "stream-core/target/test-classes:stream-core/target/classes:$(cat cp.txt)" dev.runnel.core.bench.ChangeRecoveryHarness 200 100 [DAILY_MAX]
+ * java -cp "stream-core/target/test-classes:stream-core/target/classes:$(cat cp.txt)" dev.runnel.core.bench.ChangeRecoveryHarness 200 100 [DAILY_MAX [SNAPSHOT_RECORDS]]
  * </pre>
  * ({@code cp.txt} from {@code mvn -o -q -pl stream-core dependency:build-classpath -Dmdep.outputFile=../cp.txt}).
  */
@@ -39,6 +39,9 @@ public final class ChangeRecoveryHarness {
   static final int P = 6;
   static final int[] RESETS = {0, 50, 100, 200};
   static final String[] NAMES = {"x1", "x2", "x3", "x4", "x5", "x6"};
+
+  /** Records between snapshots (the fourth argument; default 144, a day); the weight alarm's baseline is 8 snapshots back. */
+  static int snapshotRecords = 144;
 
   static String config(int reset) {
     return """
@@ -60,10 +63,10 @@ public final class ChangeRecoveryHarness {
           forgetting: {half_life: P7D}
           interval_level: 0.9
         outputs:
-          snapshot_every_records: 144
+          snapshot_every_records: %d
         drift:
           reset_to_records: %d
-        """.formatted(reset);
+        """.formatted(snapshotRecords, reset);
   }
 
   record Feed(List<byte[]> lines, int changed) { }
@@ -186,6 +189,7 @@ public final class ChangeRecoveryHarness {
     int trials = args.length > 0 ? Integer.parseInt(args[0]) : 200;
     int stationary = args.length > 1 ? Integer.parseInt(args[1]) : 100;
     dailyMax = args.length > 2 ? Double.parseDouble(args[2]) : 1.0;
+    snapshotRecords = args.length > 3 ? Integer.parseInt(args[3]) : 144;
     int r = RESETS.length;
     double[][] rmseDay = new double[r][trials];
     double[][] rmseWeek = new double[r][trials];
@@ -260,7 +264,7 @@ public final class ChangeRecoveryHarness {
       }
     }
     System.out.printf(Locale.ROOT, "%d change trials (one weight of six correlated columns triples), %d stationary trials,"
-        + " daily patterns up to %.1f sd%n%n", trials, stationary, dailyMax);
+        + " daily patterns up to %.1f sd, a snapshot every %d records%n%n", trials, stationary, dailyMax, snapshotRecords);
     System.out.println("| naming | changed-weight alarm (new) | weight alarm (former) |");
     System.out.println("|---|---|---|");
     System.out.printf(Locale.ROOT, "| first named column is the changed one | %.1f %% | %.1f %% |%n", 100.0 * firstRight / trials, 100.0 * weightFirstRight / trials);
