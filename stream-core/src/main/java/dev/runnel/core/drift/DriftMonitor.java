@@ -53,6 +53,8 @@ public final class DriftMonitor {
   private long sinceRestart;
   private long errorFired;
   private long changeFired;
+  /** Whether the latest error-level alarm was "up" (read right after {@link #observeError} returned true; not state). */
+  private boolean lastErrorUp;
   /** A covariance reset is due at the next update (an "up" alarm fired and drift.reset_to_records > 0). */
   private boolean resetDue;
   /** Updates left during which the noise estimate is held after a reset. */
@@ -112,6 +114,7 @@ public final class DriftMonitor {
       return false;
     }
     // rare path: an alarm fired; the next value freezes a new reference noise sd
+    lastErrorUp = d == PageHinkley.Direction.UP;
     if (d == PageHinkley.Direction.UP && settings.resetToRecords() > 0) {
       resetDue = true;
       noiseHoldLeft = settings.resetToRecords();
@@ -206,6 +209,13 @@ public final class DriftMonitor {
     noiseHoldLeft--;
     return noiseHoldLeft == 0;
   }
+
+  /**
+   * Whether the error-level alarm that {@link #observeError} just reported was "up". Only an up
+   * alarm opens the change attribution: a down alarm usually means the model has caught up with
+   * an earlier change, and its baseline snapshot would then sit in the middle of that change.
+   */
+  public boolean lastErrorAlarmUp() { return lastErrorUp; }
 
   /** Changed-weight alarms fired since the start. */
   public long changeAlarmsFired() { return changeFired; }

@@ -333,7 +333,8 @@ public final class PipelineStep {
       if (p.status == Prediction.Status.SCORED) {
         metrics.add(y - p.predicted, p.covered());
         // the a priori error and its predictive sd s·√(1 + xᵀPx) = half-width / z
-        if (drift.observeError(y - p.predicted, half / model.settings().intervalZ(), model.noiseSd(), t, trained)) {
+        if (drift.observeError(y - p.predicted, half / model.settings().intervalZ(), model.noiseSd(), t, trained)
+            && drift.lastErrorAlarmUp()) {
           openAttribution();
         }
       }
