@@ -57,8 +57,16 @@ public final class DriftMonitor {
   private boolean lastErrorUp;
   /** A covariance reset is due at the next update (an "up" alarm fired and drift.reset_to_records > 0). */
   private boolean resetDue;
-  /** Updates left during which the noise estimate is held after a reset. */
+  /** Updates left during which the noise estimate is held after a reset (at most {@value #HOLD_LIMIT} × m). */
   private long noiseHoldLeft;
+  /** Held updates so far, and the moving mean of their squared standardized errors. */
+  private long heldCount;
+  private double heldLevel;
+
+  /** The noise estimate is held at most this many times {@code drift.reset_to_records} updates. */
+  static final int HOLD_LIMIT = 10;
+  /** The hold ends once the moving mean of squared standardized errors is below this (errors within √2 of the held noise sd). */
+  static final double CAUGHT_UP_LEVEL = 2.0;
 
   /**
    * @param settings the {@code drift} section. Not modified.
@@ -117,7 +125,9 @@ public final class DriftMonitor {
     lastErrorUp = d == PageHinkley.Direction.UP;
     if (d == PageHinkley.Direction.UP && settings.resetToRecords() > 0) {
       resetDue = true;
-      noiseHoldLeft = settings.resetToRecords();
+      noiseHoldLeft = (long) HOLD_LIMIT * settings.resetToRecords();
+      heldCount = 0;
+      heldLevel = 0.0;
     }
     refNoiseSd = Double.NaN;
     sinceRestart = 0;
@@ -198,15 +208,27 @@ public final class DriftMonitor {
   public boolean noiseHeld() { return noiseHoldLeft > 0; }
 
   /**
-   * After an update: counts the held updates down.
+   * After a held update: the model has caught up once, after at least {@code m} held updates, the
+   * moving mean (over about {@code m} updates) of the squared standardized a priori errors
+   * {@code z² = e² / (s² (1 + xᵀPx))}, with the held noise sd s, is below {@value #CAUGHT_UP_LEVEL};
+   * or after {@value #HOLD_LIMIT}·m updates in any case (the noise itself may have grown).
    *
+   * @param zSquared this record's squared standardized a priori error (NaN when not scored: not counted)
    * @return true when the hold has just ended (the caller restarts the noise estimate)
    */
-  public boolean afterUpdate() {
+  public boolean afterUpdate(double zSquared) {
     if (noiseHoldLeft <= 0) {
       return false;
     }
     noiseHoldLeft--;
+    int m = Math.max(1, settings.resetToRecords());
+    if (Double.isFinite(zSquared)) {
+      heldCount++;
+      heldLevel += (Math.min(zSquared, 100.0) - heldLevel) / Math.min(heldCount, m);
+    }
+    if (heldCount >= m && heldLevel < CAUGHT_UP_LEVEL) {
+      noiseHoldLeft = 0;
+    }
     return noiseHoldLeft == 0;
   }
 
@@ -422,6 +444,8 @@ public final class DriftMonitor {
     out.writeLong(changeFired);
     out.writeBoolean(resetDue);
     out.writeLong(noiseHoldLeft);
+    out.writeLong(heldCount);
+    out.writeDouble(heldLevel);
     attribution.writeTo(out);
   }
 
@@ -431,6 +455,8 @@ public final class DriftMonitor {
       changeFired = 0;
       resetDue = false;
       noiseHoldLeft = 0;
+      heldCount = 0;
+      heldLevel = 0.0;
       attribution.reset();
       return;
     }
@@ -438,6 +464,8 @@ public final class DriftMonitor {
       changeFired = count(in.readLong(), "changed-weight alarms fired");
       resetDue = in.readBoolean();
       noiseHoldLeft = count(in.readLong(), "records the noise estimate is held");
+      heldCount = count(in.readLong(), "held records");
+      heldLevel = in.readDouble();
       attribution.readFrom(in);
     } catch (EOFException e) {
       throw new EOFException("drift checkpoint is truncated");

@@ -304,7 +304,7 @@ public final class PipelineStep {
             "the update would have made the model's state non-finite; the model is unchanged", sink);
         return;
       }
-      if (held && drift.afterUpdate()) {
+      if (held && drift.afterUpdate(warm ? sq(y - aPriori[1]) / (noiseBefore * noiseBefore * (1.0 + aPriori[0])) : Double.NaN)) {
         model.restartNoise(NOISE_RESTART_RECORDS);
       }
       if (warm) {
@@ -433,6 +433,8 @@ public final class PipelineStep {
     }
     drift.openAttribution(names, raw, n, model.effectiveSampleSize(), featurizer.layoutVersion(), trained);
   }
+
+  private static double sq(double v) { return v * v; }
 
   /** Cold path: the weight alarms and baselines move on once per published snapshot. */
   private void observeSnapshotForDrift() {
