@@ -36,6 +36,9 @@ import java.util.TreeMap;
  * @param tariffAlarm what that alarm was
  * @param fahrenheitAlarmAt first drift alarm (error level up, or the temperature weight) from the °F hours to a day after, or null
  * @param fahrenheitAlarm what that alarm was
+ * @param tariffNamedAt first changed-weight alarm (the column the before/after comparison after an
+ *     error-level alarm named; docs/drift.md) within seven days of the tariff change, or null
+ * @param tariffNamed its column and score
  * @param horizons the last snapshot that carries the settled forecasts' errors by horizon (a pipeline
  *     with {@code input.forecast}), or null
  */
@@ -44,7 +47,7 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
                           Instant openingSeen, Instant closingGone, double fahrenheitMae, double normalMae,
                           double finalMae, double finalCoverage, long forecasts, Settings settings,
                           Instant tariffAlarmAt, String tariffAlarm, Instant fahrenheitAlarmAt, String fahrenheitAlarm,
-                          JsonNode horizons) {
+                          Instant tariffNamedAt, String tariffNamed, JsonNode horizons) {
 
   /** Whether the tariff change was found: the price weight roughly doubled, each within 4 standard errors and 20% of the truth. */
   public boolean tariffChangeFound() {
@@ -74,6 +77,8 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     Instant priceAlarm = null, fAlarm = null;
     String priceAlarmWhat = null, fAlarmWhat = null;
     JsonNode horizons = null;
+    Instant named = null;
+    String namedWhat = null;
     for (JsonNode s : snapshots) {
       if (HorizonTable.present(s)) {
         horizons = s;
@@ -88,6 +93,12 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
         String what = kind.equals("weight") ? col + " weight " + a.path("direction").asText()
             : "error level " + a.path("direction").asText();
         boolean errorUp = kind.equals("error_level") && a.path("direction").asText().equals("up");
+        if (kind.equals("changed_weight") && !at.isBefore(tariff) && at.isBefore(tariff.plus(java.time.Duration.ofDays(7)))
+            && (named == null || at.isBefore(named))) {
+          named = at;
+          namedWhat = String.format(Locale.ROOT, "%s %s (%.1f se)", col, a.path("direction").asText(),
+              a.path("score").asDouble(Double.NaN));
+        }
         if ((errorUp || col.equals("price_per_kwh")) && !at.isBefore(tariff)
             && at.isBefore(tariff.plus(java.time.Duration.ofDays(2))) && (priceAlarm == null || at.isBefore(priceAlarm))) {
           priceAlarm = at;
@@ -149,7 +160,7 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     }
     return new DemoSummary(records, predictions.size(), byReason, pb, pbSe, pa, paSe, openingSeen, closingGone,
         fN == 0 ? Double.NaN : fSum / fN, nN == 0 ? Double.NaN : nSum / nN, finalMae, finalCov, forecasts, settings,
-        priceAlarm, priceAlarmWhat, fAlarm, fAlarmWhat, horizons);
+        priceAlarm, priceAlarmWhat, fAlarm, fAlarmWhat, named, namedWhat, horizons);
   }
 
   /** A time as local date and hour in the scenario's zone, like the ground truth's. */
@@ -191,6 +202,8 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
         tariffChangeFound() ? "yes" : "NO");
     out.printf(Locale.ROOT, "%-34s %-26s %s%n", "", "", tariffAlarmAt == null ? "no drift alarm within 2 days"
         : "drift alarm " + local(tariffAlarmAt) + ": " + tariffAlarm);
+    out.printf(Locale.ROOT, "%-34s %-26s %s%n", "", "", tariffNamedAt == null ? "no column named within 7 days"
+        : "changed column named " + local(tariffNamedAt) + ": " + tariffNamed);
     out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "hub " + GroundTruth.HUBS.get(GroundTruth.OPENING_HUB).id() + " opens",
         opening.substring(0, 16), openingSeen == null ? "never admitted" : "column from " + local(openingSeen),
         openingSeen != null ? "yes" : "NO");

@@ -173,13 +173,22 @@ public final class DriftTable {
       }
       sb.append(texts.get((int) scores.get(i)[1]));
     }
+    appendContrasts(sb, s.path("contrasts"));
     JsonNode alarms = s.path("alarms");
     if (alarms.size() > 0) {
       sb.append("  | ALARM");
       for (JsonNode a : alarms) {
         sb.append(' ');
-        if (a.path("kind").asText().equals("weight")) {
+        String kind = a.path("kind").asText();
+        if (kind.equals("weight")) {
           sb.append(a.path("column").asText()).append(' ').append(a.path("direction").asText());
+        } else if (kind.equals("changed_weight")) {
+          // the column the before/after comparison named: weight before → after, z in standard errors
+          double z = a.path("score").asDouble(Double.NaN) * (a.path("direction").asText().equals("down") ? -1 : 1);
+          sb.append("CHANGED ").append(a.path("column").asText()).append(' ')
+              .append(sig(a.path("baseline_value").asDouble(Double.NaN))).append("→")
+              .append(sig(a.path("current_value").asDouble(Double.NaN)))
+              .append(String.format(Locale.ROOT, " (%+.1f)", z));
         } else {
           sb.append("error level ").append(a.path("direction").asText()).append(" at ")
               .append(shortTime(a.path("fired_at").asText("")));
@@ -199,6 +208,32 @@ public final class DriftTable {
       return more.toString();
     }
     return line;
+  }
+
+  /**
+   * Per one-hot feature with contrasts in the snapshot (drift.contrast_levels): the three levels
+   * furthest from the mean of the levels in standard errors, as {@code level effect±se}.
+   */
+  private static void appendContrasts(StringBuilder sb, JsonNode contrasts) {
+    for (JsonNode c : contrasts) {
+      List<JsonNode> levels = new ArrayList<>();
+      for (JsonNode l : c.path("levels")) {
+        if (l.path("effect").isNumber() && l.path("std_error").isNumber() && l.path("std_error").asDouble() > 0) {
+          levels.add(l);
+        }
+      }
+      if (levels.isEmpty()) {
+        continue;
+      }
+      levels.sort((a, b) -> Double.compare(Math.abs(b.path("effect").asDouble() / b.path("std_error").asDouble()),
+          Math.abs(a.path("effect").asDouble() / a.path("std_error").asDouble())));
+      sb.append("  | ").append(c.path("feature").asText()).append(" vs mean:");
+      for (int i = 0; i < Math.min(3, levels.size()); i++) {
+        JsonNode l = levels.get(i);
+        sb.append(i == 0 ? " " : ", ").append(l.path("level").asText()).append(' ')
+            .append(String.format(Locale.ROOT, "%+.3g±%.2g", l.path("effect").asDouble(), l.path("std_error").asDouble()));
+      }
+    }
   }
 
   private static Instant timeOf(JsonNode s) {

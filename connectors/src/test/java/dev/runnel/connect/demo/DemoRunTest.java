@@ -54,6 +54,9 @@ class DemoRunTest {
     assertEquals(s.records(), s.predictions() + 5, "one output per record");
     // the drift alarms carried in the snapshots see the tariff change (error level up, or the price weight)
     assertNotNull(s.tariffAlarmAt(), "a drift alarm within two days of the tariff change: " + printed);
+    // issue 17: the changed-weight alarm that follows names the price column first
+    assertNotNull(s.tariffNamed(), "a column named within 7 days of the tariff change: " + printed);
+    assertTrue(s.tariffNamed().startsWith("price_per_kwh "), "the named column: " + s.tariffNamed() + "\n" + printed);
     assertTrue(s.finalCoverage() > 0.8 && s.finalCoverage() < 0.97, "90% interval coverage near 90%: " + s.finalCoverage());
   }
 }

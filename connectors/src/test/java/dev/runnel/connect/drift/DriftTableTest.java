@@ -45,6 +45,29 @@ class DriftTableTest {
   }
 
   @Test
+  void aChangedWeightAlarmShowsTheNamedColumnBeforeAfterAndItsScore() throws Exception {
+    DriftTable t = new DriftTable("pipeline", 1, null, null);
+    String line = t.take(snap(5, 1, 0.1, 2, 0.1,
+        "{\"kind\":\"error_level\",\"direction\":\"up\",\"fired_at\":\"2026-02-01T02:17:00Z\"},"
+            + "{\"kind\":\"changed_weight\",\"column\":\"price_per_kwh\",\"direction\":\"down\",\"score\":9.14,"
+            + "\"baseline_value\":-15.5,\"current_value\":-46.25}"));
+    assertTrue(line.endsWith("| ALARM error level up at 2026-02-01T02:17Z; CHANGED price_per_kwh -15.500→-46.250 (-9.1)"), line);
+  }
+
+  @Test
+  void contrastsShowTheLevelsFurthestFromTheMeanInStandardErrors() throws Exception {
+    JsonNode s = JSON.readTree("{\"partition\":0,\"index\":1,\"event_time\":\"2026-02-01T00:00:00Z\",\"ready\":true,"
+        + "\"columns\":[],\"alarms\":[],\"contrasts\":[{\"feature\":\"gate\",\"reference\":\"mean_of_levels\","
+        + "\"levels_total\":4,\"levels\":["
+        + "{\"level\":\"A\",\"effect\":0.5,\"std_error\":0.5},"    // z 1
+        + "{\"level\":\"B\",\"effect\":-1.2,\"std_error\":0.2},"   // z 6
+        + "{\"level\":\"C\",\"effect\":0.9,\"std_error\":0.3},"    // z 3
+        + "{\"level\":\"D\",\"effect\":-0.2,\"std_error\":0.1}]}]}"); // z 2
+    String line = new DriftTable("pipeline", 1, null, null).take(s);
+    assertTrue(line.endsWith("| gate vs mean: B -1.20±0.20, C +0.900±0.30, D -0.200±0.10"), line);
+  }
+
+  @Test
   void fromToAndAChosenBaselineByIndexAndTime() throws Exception {
     DriftTable t = new DriftTable("2", 1, DriftTable.Point.parse("2026-02-01T01:00:00Z", "--from"),
         DriftTable.Point.parse("3", "--to"));

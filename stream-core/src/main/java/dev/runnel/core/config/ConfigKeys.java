@@ -149,6 +149,10 @@ public final class ConfigKeys {
   public static final ConfigKey<Double> ERROR_THRESHOLD = add(ConfigKey.number("drift", "error_threshold", DRIFT.errorThreshold(), 0, true, 1.0e9, false, "use a number greater than 0 (units of the absolute standardized error), e.g. 30"));
   public static final ConfigKey<Long> ERROR_WARMUP_RECORDS = add(ConfigKey.whole("drift", "error_warmup_records", DRIFT.errorWarmupRecords(), 1, 1_000_000_000));
   public static final ConfigKey<Integer> ALARM_HOLD_SNAPSHOTS = add(ConfigKey.wholeInt("drift", "alarm_hold_snapshots", DRIFT.alarmHoldSnapshots(), 1, 10_000));
+  public static final ConfigKey<Integer> ATTRIBUTION_RECORDS = add(ConfigKey.wholeInt("drift", "attribution_records", DRIFT.attributionRecords(), 0, 1_000_000));
+  public static final ConfigKey<Double> ATTRIBUTION_SE = add(ConfigKey.number("drift", "attribution_se", DRIFT.attributionSe(), 0, true, 1.0e6, false, "use a number of standard errors greater than 0, e.g. 4"));
+  public static final ConfigKey<Integer> RESET_TO_RECORDS = add(ConfigKey.wholeInt("drift", "reset_to_records", DRIFT.resetToRecords(), 0, 1_000_000));
+  public static final ConfigKey<Integer> CONTRAST_LEVELS = add(ConfigKey.wholeInt("drift", "contrast_levels", DRIFT.contrastLevels(), 0, 100));
 
   // ---- web ----
   public static final ConfigKey<Boolean> WEB_ENABLED = add(ConfigKey.flag("web", "enabled", true));

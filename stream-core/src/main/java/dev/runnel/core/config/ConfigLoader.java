@@ -744,7 +744,12 @@ public final class ConfigLoader {
       double lambda = ConfigKeys.ERROR_THRESHOLD.read(d);
       long warm = ConfigKeys.ERROR_WARMUP_RECORDS.read(d);
       int hold = ConfigKeys.ALARM_HOLD_SNAPSHOTS.read(d);
-      return new PipelineConfig.Drift(k, baseline, back, test, delta, lambda, warm, hold);
+      int window = ConfigKeys.ATTRIBUTION_RECORDS.read(d);
+      double named = ConfigKeys.ATTRIBUTION_SE.read(d);
+      int reset = ConfigKeys.RESET_TO_RECORDS.read(d);
+      int contrasts = ConfigKeys.CONTRAST_LEVELS.read(d);
+      return new PipelineConfig.Drift(k, baseline, back, test, delta, lambda, warm, hold, window, named, reset,
+          contrasts);
     }
 
     private PipelineConfig.Web web(Section w) {

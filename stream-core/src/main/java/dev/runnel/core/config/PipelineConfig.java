@@ -219,11 +219,29 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    * @param errorThreshold the Page–Hinkley threshold λ, same units
    * @param errorWarmupRecords scored records after a start or an alarm before the test may fire
    * @param alarmHoldSnapshots snapshots an error-level alarm stays listed after it fired
+   * @param attributionRecords records after an error-level alarm whose least-squares fit is compared
+   *     with the weights at the alarm, to name the changed columns; 0 = off
+   * @param attributionSe a column is named when its before/after difference exceeds this many
+   *     standard errors
+   * @param resetToRecords after an error-level "up" alarm the model's information is cut to this
+   *     many records' worth (covariance resetting) and the noise estimate is held for as many
+   *     records, then restarted; 0 = off
+   * @param contrastLevels per one-hot feature, snapshots carry the contrasts of this many of its
+   *     most recorded levels against the mean of its levels, with standard errors; 0 = none
    */
   public record Drift(double weightAlarmSe, DriftBaseline baseline, int baselineSnapshots, ErrorTest errorTest,
-                      double errorAllowance, double errorThreshold, long errorWarmupRecords, int alarmHoldSnapshots) {
+                      double errorAllowance, double errorThreshold, long errorWarmupRecords, int alarmHoldSnapshots,
+                      int attributionRecords, double attributionSe, int resetToRecords,
+                      int contrastLevels) {
     /** The defaults, as documented in docs/drift.md. */
     public static final Drift DEFAULTS = new Drift(4.0, DriftBaseline.SNAPSHOTS_AGO, 8, ErrorTest.PAGE_HINKLEY,
-        0.1, 30.0, 100, 4);
+        0.1, 30.0, 100, 4, 400, 4.0, 0, 0);
+
+    /** The section with the default change attribution. */
+    public Drift(double weightAlarmSe, DriftBaseline baseline, int baselineSnapshots, ErrorTest errorTest,
+                 double errorAllowance, double errorThreshold, long errorWarmupRecords, int alarmHoldSnapshots) {
+      this(weightAlarmSe, baseline, baselineSnapshots, errorTest, errorAllowance, errorThreshold, errorWarmupRecords,
+          alarmHoldSnapshots, 400, 4.0, 0, 0);
+    }
   }
 }

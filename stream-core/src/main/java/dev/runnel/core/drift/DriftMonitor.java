@@ -46,11 +46,27 @@ public final class DriftMonitor {
   private final LinkedHashMap<String, double[]> first = new LinkedHashMap<>();
   private final LinkedHashMap<String, DriftAlarm> weightAlarms = new LinkedHashMap<>();
   private final ArrayList<DriftAlarm> errorAlarms = new ArrayList<>();
+  private final ChangeAttribution attribution;
   private final LinkedHashMap<String, Double> moved = new LinkedHashMap<>();
   private long weightFired;
   private double refNoiseSd = Double.NaN;
   private long sinceRestart;
   private long errorFired;
+  private long changeFired;
+  /** Whether the latest error-level alarm was "up" (read right after {@link #observeError} returned true; not state). */
+  private boolean lastErrorUp;
+  /** A covariance reset is due at the next update (an "up" alarm fired and drift.reset_to_records > 0). */
+  private boolean resetDue;
+  /** Updates left during which the noise estimate is held after a reset (at most {@value #HOLD_LIMIT} × m). */
+  private long noiseHoldLeft;
+  /** Held updates so far, and the moving mean of their squared standardized errors. */
+  private long heldCount;
+  private double heldLevel;
+
+  /** The noise estimate is held at most this many times {@code drift.reset_to_records} updates. */
+  static final int HOLD_LIMIT = 10;
+  /** The hold ends once the moving mean of squared standardized errors is below this (errors within √2 of the held noise sd). */
+  static final double CAUGHT_UP_LEVEL = 2.0;
 
   /**
    * @param settings the {@code drift} section. Not modified.
@@ -60,6 +76,7 @@ public final class DriftMonitor {
     this.test = settings.errorTest() == ErrorTest.PAGE_HINKLEY
         ? new PageHinkley(settings.errorAllowance(), settings.errorThreshold(), settings.errorWarmupRecords())
         : null;
+    this.attribution = new ChangeAttribution(settings.attributionRecords(), settings.attributionSe());
     this.historySize = switch (settings.baseline()) {
       case PREVIOUS_SNAPSHOT -> 1;
       case SNAPSHOTS_AGO -> settings.baselineSnapshots();
@@ -105,6 +122,13 @@ public final class DriftMonitor {
       return false;
     }
     // rare path: an alarm fired; the next value freezes a new reference noise sd
+    lastErrorUp = d == PageHinkley.Direction.UP;
+    if (d == PageHinkley.Direction.UP && settings.resetToRecords() > 0) {
+      resetDue = true;
+      noiseHoldLeft = (long) HOLD_LIMIT * settings.resetToRecords();
+      heldCount = 0;
+      heldLevel = 0.0;
+    }
     refNoiseSd = Double.NaN;
     sinceRestart = 0;
     errorFired++;
@@ -112,6 +136,111 @@ public final class DriftMonitor {
         eventTimeMillis, -1, trained, test.lastFireStatistic(), test.threshold(), test.lastFireMean(), Double.NaN));
     return true;
   }
+
+  /** The change attribution that follows an error-level alarm. */
+  public ChangeAttribution attribution() { return attribution; }
+
+  /**
+   * Opens the change attribution's window (call right after {@link #observeError} returned true).
+   * Cold path. See {@link ChangeAttribution#open}.
+   */
+  public void openAttribution(String[] names, double[] rawWeights, int dimension, double effectiveSampleSize,
+                              long layout, long trained) {
+    // the "before" estimate is the weight alarm's baseline snapshot where it has the column: the
+    // model's weights at the alarm have already taken in the records between the change and the
+    // alarm (and, with a design that moves over the day, spread the change over other columns)
+    Map<String, double[]> base = settings.baseline() == DriftBaseline.FIRST_READY_SNAPSHOT ? first : history.peekFirst();
+    double[] before = java.util.Arrays.copyOf(rawWeights, dimension);
+    if (base != null) {
+      for (int j = 0; j < dimension; j++) {
+        double[] b = base.get(names[j]);
+        if (b != null) {
+          before[j] = b[0];
+        }
+      }
+    }
+    attribution.open(names, before, dimension, effectiveSampleSize, layout, trained);
+  }
+
+  /**
+   * One trained record's raw-unit row while the attribution window is open (hot path while open,
+   * {@code O(p²)}); when the window closes, its named columns become changed-weight alarms, listed
+   * from the next snapshot on, largest score first.
+   *
+   * @param x raw-unit row. Not modified.
+   * @param y the target
+   * @param dimension the row's length
+   * @param layout the layout version
+   * @param eventTimeMillis the record's event time
+   * @param trained the pipeline's trained-record count including this record
+   */
+  public void observeTrained(double[] x, double y, int dimension, long layout, long eventTimeMillis, long trained) {
+    List<ChangeAttribution.Change> named = attribution.observe(x, y, dimension, layout);
+    if (named == null) {
+      return;
+    }
+    for (ChangeAttribution.Change c : named) {
+      changeFired++;
+      errorAlarms.add(new DriftAlarm(DriftAlarm.CHANGED_WEIGHT, c.column(), c.score() > 0 ? "up" : "down",
+          eventTimeMillis, -1, trained, Math.abs(c.score()), attribution.threshold(), c.before(), c.after()));
+    }
+  }
+
+  /**
+   * The forgetting factor for the next update: {@code lambda}, or, once after an "up" alarm when
+   * {@code drift.reset_to_records} is {@code m > 0}, {@code lambda · min(1, m / n_eff)}: the
+   * information is cut to about {@code m} records' worth (covariance resetting), and normal
+   * forgetting goes on from the next record.
+   *
+   * @param lambda the clock's forgetting factor for this record
+   * @param effectiveSampleSize the model's effective sample size before this update
+   */
+  public double forgettingFor(double lambda, double effectiveSampleSize) {
+    if (!resetDue) {
+      return lambda;
+    }
+    resetDue = false;
+    double m = settings.resetToRecords();
+    return effectiveSampleSize > m ? lambda * (m / effectiveSampleSize) : lambda;
+  }
+
+  /** Whether the next update should leave the noise estimate as it is (the model is catching up after a reset). */
+  public boolean noiseHeld() { return noiseHoldLeft > 0; }
+
+  /**
+   * After a held update: the model has caught up once, after at least {@code m} held updates, the
+   * moving mean (over about {@code m} updates) of the squared standardized a priori errors
+   * {@code z² = e² / (s² (1 + xᵀPx))}, with the held noise sd s, is below {@value #CAUGHT_UP_LEVEL};
+   * or after {@value #HOLD_LIMIT}·m updates in any case (the noise itself may have grown).
+   *
+   * @param zSquared this record's squared standardized a priori error (NaN when not scored: not counted)
+   * @return true when the hold has just ended (the caller restarts the noise estimate)
+   */
+  public boolean afterUpdate(double zSquared) {
+    if (noiseHoldLeft <= 0) {
+      return false;
+    }
+    noiseHoldLeft--;
+    int m = Math.max(1, settings.resetToRecords());
+    if (Double.isFinite(zSquared)) {
+      heldCount++;
+      heldLevel += (Math.min(zSquared, 100.0) - heldLevel) / Math.min(heldCount, m);
+    }
+    if (heldCount >= m && heldLevel < CAUGHT_UP_LEVEL) {
+      noiseHoldLeft = 0;
+    }
+    return noiseHoldLeft == 0;
+  }
+
+  /**
+   * Whether the error-level alarm that {@link #observeError} just reported was "up". Only an up
+   * alarm opens the change attribution: a down alarm usually means the model has caught up with
+   * an earlier change, and its baseline snapshot would then sit in the middle of that change.
+   */
+  public boolean lastErrorAlarmUp() { return lastErrorUp; }
+
+  /** Changed-weight alarms fired since the start. */
+  public long changeAlarmsFired() { return changeFired; }
 
   /**
    * One snapshot's raw-unit weights and standard errors: evaluates the weight alarms, moves the
@@ -298,7 +427,7 @@ public final class DriftMonitor {
     int ea = (int) count(in.readInt(), "error alarms");
     for (int i = 0; i < ea; i++) {
       DriftAlarm a = readAlarm(in);
-      if (!DriftAlarm.ERROR_LEVEL.equals(a.kind())) {
+      if (!DriftAlarm.ERROR_LEVEL.equals(a.kind()) && !DriftAlarm.CHANGED_WEIGHT.equals(a.kind())) {
         throw new IOException("corrupt drift checkpoint: an error-level alarm of kind " + a.kind());
       }
       errorAlarms.add(a);
@@ -308,6 +437,44 @@ public final class DriftMonitor {
     for (int i = 0; i < mv; i++) {
       moved.put(in.readUTF(), in.readDouble());
     }
+  }
+
+  /** Writes the change attribution's state (checkpoint version 5 on). */
+  public void writeAttributionTo(DataOutput out) throws IOException {
+    out.writeLong(changeFired);
+    out.writeBoolean(resetDue);
+    out.writeLong(noiseHoldLeft);
+    out.writeLong(heldCount);
+    out.writeDouble(heldLevel);
+    attribution.writeTo(out);
+  }
+
+  /** Reads a state written by {@link #writeAttributionTo}; {@code in == null} resets it (an older checkpoint). */
+  public void readAttributionFrom(DataInput in) throws IOException {
+    if (in == null) {
+      changeFired = 0;
+      resetDue = false;
+      noiseHoldLeft = 0;
+      heldCount = 0;
+      heldLevel = 0.0;
+      attribution.reset();
+      return;
+    }
+    try {
+      changeFired = count(in.readLong(), "changed-weight alarms fired");
+      resetDue = in.readBoolean();
+      noiseHoldLeft = count(in.readLong(), "records the noise estimate is held");
+      heldCount = count(in.readLong(), "held records");
+      heldLevel = in.readDouble();
+      attribution.readFrom(in);
+    } catch (EOFException e) {
+      throw new EOFException("drift checkpoint is truncated");
+    }
+  }
+
+  /** Whether the attribution has state to write (a checkpoint without it keeps its former version). */
+  public boolean hasAttributionState() {
+    return changeFired > 0 || attribution.hasState() || resetDue || noiseHoldLeft > 0;
   }
 
   /** A count read from a checkpoint: refused when negative. */

@@ -162,6 +162,8 @@ public final class RlsModel implements LayoutListener {
   private double nEff;
   private double noiseSum;
   private double noiseWeight;
+  /** Set by the caller before an update; not part of the state (see {@link #holdNoise}). */
+  private boolean noiseHeld;
   private long updates;
   private boolean ready;
 
@@ -442,6 +444,31 @@ public final class RlsModel implements LayoutListener {
   }
 
   /**
+   * While held, updates leave the noise estimate as it is (their a priori errors are mostly the
+   * model catching up after a detected change, not noise). Not part of the state: the caller sets
+   * it before every update it wants held.
+   *
+   * @param held true to hold the noise estimate in the following updates
+   */
+  public void holdNoise(boolean held) {
+    noiseHeld = held;
+  }
+
+  /**
+   * Restarts the noise estimate with its present value as a prior worth {@code weight} records:
+   * the weight of the past errors is cut to {@code weight} (their mean kept), so the next errors
+   * move the estimate quickly. Nothing happens when the weight is already smaller.
+   *
+   * @param weight records' worth kept, greater than 0
+   */
+  public void restartNoise(double weight) {
+    if (weight > 0 && noiseWeight > weight) {
+      noiseSum *= weight / noiseWeight;
+      noiseWeight = weight;
+    }
+  }
+
+  /**
    * Half-width of the prediction interval, {@code intervalZ * noiseSd * sqrt(1 + leverage)}.
    *
    * @param x feature vector. Not modified.
@@ -705,7 +732,7 @@ public final class RlsModel implements LayoutListener {
     factorChanged();
     rho2 = rho2n;
     nEff = lambda * nEff + 1.0;
-    if (wasReady) {
+    if (wasReady && !noiseHeld) {
       noiseSum = noiseDecay * noiseSum + residual * residual;
       noiseWeight = noiseDecay * noiseWeight + 1.0;
     }

@@ -378,6 +378,44 @@ public final class OutputJson {
         g.writeEndObject();
       }
       g.writeEndArray();
+      if (!s.contrasts().isEmpty()) {
+        // only with drift.contrast_levels > 0: without it the snapshot's bytes are as before
+        g.writeArrayFieldStart("contrasts");
+        for (Snapshot.Contrasts c : s.contrasts()) {
+          g.writeStartObject();
+          g.writeStringField("feature", c.feature());
+          g.writeStringField("reference", "mean_of_levels");
+          g.writeNumberField("levels_total", c.levelsTotal());
+          g.writeArrayFieldStart("levels");
+          for (Snapshot.LevelContrast l : c.levels()) {
+            g.writeStartObject();
+            g.writeStringField("level", l.level());
+            g.writeStringField("column", l.column());
+            g.writeNumberField("count", l.count());
+            number(g, "effect", l.effect());
+            number(g, "std_error", l.standardError());
+            g.writeEndObject();
+          }
+          g.writeEndArray();
+          g.writeArrayFieldStart("covariance");
+          int k = c.levels().size();
+          for (int a = 0; a < k; a++) {
+            g.writeStartArray();
+            for (int b = 0; b < k; b++) {
+              double x = c.covariance()[a * k + b];
+              if (Double.isFinite(x)) {
+                g.writeNumber(x);
+              } else {
+                g.writeNull();
+              }
+            }
+            g.writeEndArray();
+          }
+          g.writeEndArray();
+          g.writeEndObject();
+        }
+        g.writeEndArray();
+      }
       g.writeArrayFieldStart("standardization");
       for (Featurizer.ScalerSnapshot sc : s.scalers()) {
         g.writeStartObject();

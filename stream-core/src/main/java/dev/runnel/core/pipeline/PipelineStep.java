@@ -84,11 +84,16 @@ public final class PipelineStep {
   /**
    * Latest version of the checkpoint layout: 4 adds the pending forecasts, 5 the memory of learned
    * actuals (and, for {@code corrections: replace}, what removing one needs), 6 the error metrics of
-   * settled forecasts by horizon. A step without {@code input.forecast} has none of these and still
-   * writes version 3, byte for byte as before.
+   * settled forecasts by horizon, 7 the change attribution (a flag for the forecast state, then the
+   * attribution's window and latest result). A step writes 7 only once the attribution has state (an
+   * error-level alarm opened its window); before that, a step without {@code input.forecast} still
+   * writes version 3, byte for byte as before, and one with it version 6.
    */
-  public static final int CHECKPOINT_VERSION = 6;
+  public static final int CHECKPOINT_VERSION = 7;
+  private static final int CHECKPOINT_VERSION_WITH_FORECASTS = 6;
   private static final int CHECKPOINT_VERSION_WITHOUT_FORECASTS = 3;
+  /** The weight, in records, the noise estimate keeps when it restarts after a reset's hold. */
+  static final double NOISE_RESTART_RECORDS = 10.0;
   private static final int CHECKPOINT_MAGIC = 0x524E4C43; // "RNLC"
   /**
    * How many per-reason counters every checkpoint holds: the 15 that checkpoints held before the
@@ -142,6 +147,8 @@ public final class PipelineStep {
   private boolean hasRequestTarget;
   private long requestTargetMillis;
   private double[] row;
+  /** The row in raw units, only while the change attribution's window is open. */
+  private double[] rawRow = new double[0];
   /** The model's a-priori leverage (element 0) and prediction (element 1) for this record. */
   private final double[] aPriori = new double[2];
 
@@ -426,13 +433,22 @@ public final class PipelineStep {
       // the prediction and its interval are the a priori ones (the model before this record's
       // target, noise sd before this record); the update gives the prediction and the leverage
       // from its own rotations, so no triangular solve is needed
-      if (!model.update(row, y, clock.lambda(), aPriori)) {
+      // after an "up" alarm with drift.reset_to_records: one update with a cut information, and
+      // the noise estimate held while the model catches up (off by default: no change)
+      boolean held = drift.noiseHeld();
+      model.holdNoise(held);
+      // the forgetting this update applies (the clock's, or a reset's cut): what corrections: replace decays by
+      double lambda = drift.forgettingFor(clock.lambda(), model.effectiveSampleSize());
+      if (!model.update(row, y, lambda, aPriori)) {
         reject(RejectReason.MODEL_REFUSED,
             "the update would have made the model's state non-finite; the model is unchanged", sink);
         return;
       }
-      if (bases != null && clock.lambda() != 1.0) {
-        logDecay += StrictMath.log(clock.lambda());
+      if (bases != null && lambda != 1.0) {
+        logDecay += StrictMath.log(lambda);
+      }
+      if (held && drift.afterUpdate(warm ? sq(y - aPriori[1]) / (noiseBefore * noiseBefore * (1.0 + aPriori[0])) : Double.NaN)) {
+        model.restartNoise(NOISE_RESTART_RECORDS);
       }
       if (warm) {
         p.predicted = aPriori[1];
@@ -454,10 +470,16 @@ public final class PipelineStep {
     records++;
     if (hasTarget) {
       trained++;
+      if (drift.attribution().isOpen()) {
+        observeForAttribution(y, t);
+      }
       if (p.status == Prediction.Status.SCORED) {
         metrics.add(y - p.predicted, p.covered());
         // the a priori error and its predictive sd s·√(1 + xᵀPx) = half-width / z
-        drift.observeError(y - p.predicted, half / model.settings().intervalZ(), model.noiseSd(), t, trained);
+        if (drift.observeError(y - p.predicted, half / model.settings().intervalZ(), model.noiseSd(), t, trained)
+            && drift.lastErrorAlarmUp()) {
+          openAttribution();
+        }
       }
     } else {
       forecasts++;
@@ -519,6 +541,49 @@ public final class PipelineStep {
       snapshotStampMillis = Long.MIN_VALUE;
     }
   }
+
+  /**
+   * While the change attribution's window is open: this record's row in raw units
+   * ({@code v = z·s + m} for a scaled column), O(p) plus the attribution's O(p²).
+   */
+  private void observeForAttribution(double y, long t) {
+    int n = featurizer.dimension();
+    if (rawRow.length < n) {
+      rawRow = new double[Math.max(n, row.length)];
+    }
+    boolean constant = featurizer.hasConstantTerm();
+    for (int j = 0; j < n; j++) {
+      rawRow[j] = row[j] * featurizer.scale(j) + (constant ? featurizer.centre(j) : 0.0);
+    }
+    drift.observeTrained(rawRow, y, n, featurizer.layoutVersion(), t, trained);
+  }
+
+  /** Rare path (an error-level alarm fired): the raw-unit weights now open the attribution's window. */
+  private void openAttribution() {
+    if (!model.ready() || !drift.attribution().enabled()) {
+      return;
+    }
+    int n = model.dimension();
+    double[] w = new double[n];
+    model.weights(w);
+    String[] names = new String[n];
+    double[] raw = new double[n];
+    boolean constant = featurizer.hasConstantTerm();
+    double c = constant ? w[0] : 0.0;
+    for (int j = 0; j < n; j++) {
+      names[j] = featurizer.columnName(j);
+      raw[j] = w[j] / featurizer.scale(j);
+      if (constant && j > 0) {
+        c -= w[j] * featurizer.centre(j) / featurizer.scale(j);
+      }
+    }
+    if (constant) {
+      raw[0] = c;
+    }
+    drift.openAttribution(names, raw, n, model.effectiveSampleSize(), featurizer.layoutVersion(), trained);
+  }
+
+  private static double sq(double v) { return v * v; }
 
   /** Cold path: the weight alarms and baselines move on once per published snapshot. */
   private void observeSnapshotForDrift() {
@@ -831,7 +896,9 @@ public final class PipelineStep {
       ByteArrayOutputStream bytes = new ByteArrayOutputStream(4096);
       DataOutputStream out = new DataOutputStream(bytes);
       out.writeInt(CHECKPOINT_MAGIC);
-      out.writeInt(pending != null ? CHECKPOINT_VERSION : CHECKPOINT_VERSION_WITHOUT_FORECASTS);
+      boolean v7 = drift.hasAttributionState();
+      out.writeInt(v7 ? CHECKPOINT_VERSION : pending != null ? CHECKPOINT_VERSION_WITH_FORECASTS
+          : CHECKPOINT_VERSION_WITHOUT_FORECASTS);
       out.writeLong(configFingerprint);
       out.writeLong(records);
       out.writeLong(trained);
@@ -859,6 +926,9 @@ public final class PipelineStep {
       model.writeTo(out);
       out.writeLong(snapshotsTaken);
       drift.writeTo(out);
+      if (v7) {
+        out.writeBoolean(pending != null);
+      }
       if (pending != null) {
         pending.writeTo(out);
         out.writeBoolean(learned != null);
@@ -875,6 +945,9 @@ public final class PipelineStep {
           settledKept.writeTo(out);
         }
         horizonMetrics.writeTo(out);
+      }
+      if (v7) {
+        drift.writeAttributionTo(out);
       }
       out.flush();
       return bytes.toByteArray();
@@ -951,7 +1024,8 @@ public final class PipelineStep {
         snapshotsTaken = in.readLong();
         drift.readFrom(in);
       }
-      if (version >= 4) {
+      boolean hasPending = (version >= 4 && version <= 6) || (version >= 7 && in.readBoolean());
+      if (hasPending) {
         if (pending == null) {
           throw new IllegalArgumentException("the checkpoint holds pending forecasts (it was written with input.forecast);"
               + " keep input.forecast in the configuration, or start a new pipeline name (or reset its state) without it");
@@ -960,14 +1034,16 @@ public final class PipelineStep {
       } else if (pending != null) {
         pending.clear();
       }
+      boolean fromPending = hasPending;
       if (pending != null) {
-        readLearned(version, in);
-        if (version >= 6) {
+        readLearned(fromPending ? version : 3, in);
+        if (fromPending && version >= 6) {
           horizonMetrics.readFrom(in);
         } else {
           horizonMetrics.clearAll();
         }
       }
+      drift.readAttributionFrom(version >= 7 ? in : null);
       ensureRow();
     } catch (IOException e) {
       throw new IllegalArgumentException("the checkpoint is truncated or corrupt: " + e.getMessage(), e);

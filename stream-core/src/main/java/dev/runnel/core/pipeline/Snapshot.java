@@ -39,13 +39,15 @@ import java.util.List;
  * @param drift the drift monitor's status (null when not known)
  * @param forecasting the forecast counts and the settled forecasts' errors by horizon; null without
  *     {@code input.forecast}
+ * @param contrasts per one-hot feature, its levels' effects against the mean of its levels with
+ *     standard errors (empty unless {@code drift.contrast_levels} &gt; 0)
  */
 public record Snapshot(long eventTimeMillis, long records, long trained, long forecasts, long rejected,
                        long layoutVersion, boolean ready, double noiseSd, double residualSd,
                        double effectiveSampleSize, List<Column> columns,
                        List<Featurizer.VocabularySnapshot> vocabularies,
                        List<Featurizer.ScalerSnapshot> scalers, Metrics metrics, long index,
-                       List<DriftAlarm> alarms, DriftStatus drift, Forecasting forecasting) {
+                       List<DriftAlarm> alarms, DriftStatus drift, Forecasting forecasting, List<Contrasts> contrasts) {
 
   /** Version of the snapshot's published layout (see docs/formats.md). */
   public static final int FORMAT_VERSION = 2;
@@ -55,9 +57,10 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
     vocabularies = List.copyOf(vocabularies);
     scalers = List.copyOf(scalers);
     alarms = List.copyOf(alarms);
+    contrasts = List.copyOf(contrasts);
   }
 
-  /** A snapshot without forecasting information. */
+  /** A snapshot without forecasting information or contrasts. */
   public Snapshot(long eventTimeMillis, long records, long trained, long forecasts, long rejected,
                   long layoutVersion, boolean ready, double noiseSd, double residualSd,
                   double effectiveSampleSize, List<Column> columns,
@@ -65,8 +68,38 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
                   List<Featurizer.ScalerSnapshot> scalers, Metrics metrics, long index,
                   List<DriftAlarm> alarms, DriftStatus drift) {
     this(eventTimeMillis, records, trained, forecasts, rejected, layoutVersion, ready, noiseSd, residualSd,
-        effectiveSampleSize, columns, vocabularies, scalers, metrics, index, alarms, drift, null);
+        effectiveSampleSize, columns, vocabularies, scalers, metrics, index, alarms, drift, null, List.of());
   }
+
+  /**
+   * One one-hot feature's contrasts: each shown level's raw-unit weight minus the mean of the
+   * raw-unit weights of all {@code levelsTotal} admitted levels, with standard errors from the
+   * model's covariance, {@code se(cᵀw) = σ √(cᵀ (RᵀR)⁻¹ c)} (σ the residual sd). Only differences
+   * between levels are identified when a constant term sits beside a full set of levels, and
+   * these are; a level's own weight and standard error are mostly the prior.
+   *
+   * @param feature the feature's name
+   * @param levelsTotal admitted levels (the mean is over all of them)
+   * @param levels the shown levels, the most recorded first (at most {@code drift.contrast_levels})
+   * @param covariance the shown contrasts' covariance, row-major {@code k × k}: the standard error
+   *     of level a minus level b is {@code √(V_aa + V_bb − 2 V_ab)}
+   */
+  public record Contrasts(String feature, int levelsTotal, List<LevelContrast> levels, double[] covariance) {
+    public Contrasts {
+      levels = List.copyOf(levels);
+      covariance = covariance.clone();
+    }
+
+    /** The standard error of the difference between shown levels {@code a} and {@code b} (indices into {@link #levels}). */
+    public double differenceStandardError(int a, int b) {
+      int k = levels.size();
+      double v = covariance[a * k + a] + covariance[b * k + b] - 2 * covariance[a * k + b];
+      return Math.sqrt(Math.max(0.0, v));
+    }
+  }
+
+  /** One level's effect against the mean of its feature's levels. */
+  public record LevelContrast(String level, String column, long count, double effect, double standardError) { }
 
   /** A snapshot without drift information (index -1, no alarms). */
   public Snapshot(long eventTimeMillis, long records, long trained, long forecasts, long rejected,
@@ -250,12 +283,81 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
           isConstant ? rawConstant : w[j] / sj,
           isConstant ? rawConstantSe : se[j] / sj, mj, sj, drift.moved(name)));
     }
+    List<Contrasts> contrasts = contrasts(f, m, w, sigma, step.config().drift().contrastLevels());
     PrequentialMetrics pm = step.metrics();
     Metrics metrics = new Metrics(pm.count(), pm.mae(), pm.rmse(), pm.bias(), pm.coverage(),
         pm.recentMae(), pm.recentRmse(), pm.recentBias(), pm.recentCoverage());
     return new Snapshot(step.lastEventTimeMillis(), step.records(), step.trained(), step.forecasts(),
         step.rejected(), f.layoutVersion(), m.ready(), m.noiseSd(), sigma, m.effectiveSampleSize(),
         cols, f.vocabularies(), f.scalers(), metrics, step.snapshotsTaken() - 1, drift.alarms(), drift.status(),
-        forecastingOf(step));
+        forecastingOf(step), contrasts);
+  }
+
+  /**
+   * The contrasts of every one-hot feature with at least two admitted levels: the {@code max}
+   * most recorded levels (ties in column order) against the mean of all its levels. O(p³) for the
+   * covariance, then O(p² k) per feature.
+   */
+  static List<Contrasts> contrasts(Featurizer f, RlsModel m, double[] w, double sigma, int max) {
+    if (max <= 0 || !m.ready() || !(sigma >= 0)) {
+      return List.of();
+    }
+    int p = m.dimension();
+    double[] cov = null;
+    List<Contrasts> out = new ArrayList<>();
+    for (Featurizer.VocabularySnapshot v : f.vocabularies()) {
+      int total = v.levels().size();
+      if (total < 2) {
+        continue;
+      }
+      if (cov == null) {
+        cov = m.unscaledCovariance();
+      }
+      List<Featurizer.LevelSnapshot> shown = new ArrayList<>(v.levels());
+      shown.sort((a, b) -> Long.compare(b.count(), a.count())); // stable: ties keep column order
+      if (shown.size() > max) {
+        shown = new ArrayList<>(shown.subList(0, max));
+      }
+      int k = shown.size();
+      // c_l = (e_l − (1/L) Σ e_level) / s, one per shown level, over the model's weights
+      double[][] c = new double[k][p];
+      for (int a = 0; a < k; a++) {
+        for (Featurizer.LevelSnapshot l : v.levels()) {
+          c[a][l.column()] -= 1.0 / total / f.scale(l.column());
+        }
+        int own = shown.get(a).column();
+        c[a][own] += 1.0 / f.scale(own);
+      }
+      double[][] pc = new double[k][p];
+      for (int a = 0; a < k; a++) {
+        for (int i = 0; i < p; i++) {
+          double sum = 0.0;
+          for (int j = 0; j < p; j++) {
+            sum += cov[i * p + j] * c[a][j];
+          }
+          pc[a][i] = sum;
+        }
+      }
+      double[] vcov = new double[k * k];
+      List<LevelContrast> levels = new ArrayList<>(k);
+      for (int a = 0; a < k; a++) {
+        for (int b = 0; b < k; b++) {
+          double sum = 0.0;
+          for (int i = 0; i < p; i++) {
+            sum += c[b][i] * pc[a][i];
+          }
+          vcov[a * k + b] = sigma * sigma * sum;
+        }
+        double effect = 0.0;
+        for (int i = 0; i < p; i++) {
+          effect += c[a][i] * w[i];
+        }
+        Featurizer.LevelSnapshot l = shown.get(a);
+        levels.add(new LevelContrast(l.level(), f.columnName(l.column()), l.count(), effect,
+            Math.sqrt(Math.max(0.0, vcov[a * k + a]))));
+      }
+      out.add(new Contrasts(v.feature(), total, levels, vcov));
+    }
+    return out;
   }
 }

@@ -85,7 +85,12 @@ class DemoRunSameBitsTest {
   static final String DEMO_CHECKPOINT = "0a51443407f801ab4177e97d689607d5abe48458cd8e6f650bb57fe625182f44";
   static final String EVERY_KIND_OUTPUTS = "dc237b6aa4e78430e7ad1eda9726f81e33e802ab90df1be84f0fa684f1e80998";
   static final String EVERY_KIND_FEATURIZER = "e91d85ba284ab6418caf811b4331da81bde5d97b90b10effafa6401b009068a4";
-  static final String EVERY_KIND_CHECKPOINT = "eaf9808dc9099588c58d6302f5bda7dccf49f3fe999741169d08440ecb2356ae";
+  // The every-kind checkpoint moved once, deliberately (issue 17, branch drift-attr): in this run an
+  // error-level alarm fires within the last drift.attribution_records (400) records, so the
+  // checkpoint carries the change attribution's open window (checkpoint version 7 since the merge with the memory of learned actuals and the horizon tables, which took 5 and 6; only the version number in the header differs from the branch's version 5). Outputs and
+  // featurizer state did not move; with drift.attribution_records = 0 the former digest
+  // eaf9808dc9099588c58d6302f5bda7dccf49f3fe999741169d08440ecb2356ae comes back (checked).
+  static final String EVERY_KIND_CHECKPOINT = "3d703ddd4caece1774eea1a593d830c82fa3a9a031b133c80d53750c49cc16d1";
 
   /** One run: every output line, in order, then the state at the end. */
   static final class Run implements PipelineStep.Sink {
