@@ -59,7 +59,7 @@ class ServiceOnKafkaTest {
     yaml = yaml.replace("name: quillmarsh", "name: " + name)
         .replace("topic: quillmarsh.sessions", "topic: " + name + ".in")
         .replace("bootstrap_servers: \"\"", "bootstrap_servers: \"" + bootstrap + "\"")
-        + "web:\n  port: 0\n  forecast_key_field: hub\n" + webExtra;
+        + "web:\n  port: 0\n" + (webExtra.contains("forecast_key_field") ? "" : "  forecast_key_field: hub\n") + webExtra;
     return ConfigLoader.parse(yaml, name + ".yaml");
   }
 
@@ -184,6 +184,52 @@ class ServiceOnKafkaTest {
       HttpResponse<String> after = get(http, base + "ready");
       assertEquals(503, after.statusCode(), after.body());
       assertEquals(200, get(http, base + "health").statusCode(), "stopped cleanly: alive");
+    }
+  }
+
+  @Test
+  void aKeyOfAPartitionHeldElsewhereIsAnsweredWithItsPartition(TestBroker broker) throws Exception {
+    String name = "service-two";
+    String bs = broker.bootstrapServers();
+    PipelineConfig cfg = config(name, bs, "");
+    KafkaTestSupport.createTopic(bs, name + ".in", 2);
+    List<String> lines = Files.readAllLines(Path.of("../demo-data/samples/quillmarsh-small.jsonl")).subList(0, 200);
+    KafkaTestSupport.produce(bs, name + ".in", List.of(lines, lines));
+    HttpClient http = HttpClient.newBuilder().connectTimeout(Duration.ofSeconds(10)).build();
+    PrintStream quiet = new PrintStream(new ByteArrayOutputStream(), true, StandardCharsets.UTF_8);
+    try (LivePipeline a = LivePipeline.connect(cfg, new LivePipeline.Options(bs, null, -1, "0", 0, true, false, "a"), quiet, null);
+         LivePipeline b = LivePipeline.connect(cfg, new LivePipeline.Options(bs, null, -1, "1", 0, true, false, "b"), quiet, null)) {
+      a.startRunner();
+      b.startRunner();
+      KafkaTestSupport.await("one partition each", Duration.ofSeconds(120), () -> {
+        if (a.runner().failure() != null || b.runner().failure() != null) {
+          throw new AssertionError(a.runner().failure() + " / " + b.runner().failure());
+        }
+        return a.runner().heldPartitions().size() == 1 && b.runner().heldPartitions().size() == 1
+            && a.runner().notReady() == null && b.runner().notReady() == null;
+      });
+      int heldByA = a.runner().heldPartitions().iterator().next().partition();
+      int checked = 0;
+      for (int i = 1; i <= 8; i++) {
+        String hub = "QM-0" + i;
+        int owner = LiveService.partitionOf(hub.getBytes(StandardCharsets.UTF_8), 2);
+        String req = "{\"kind\":\"forecast\",\"hub\":\"" + hub + "\",\"observed_at\":\"2026-03-25T10:00:00+01:00\","
+            + "\"weather\":\"clear\",\"temperature_c\":3.0,\"price_per_kwh\":0.2}";
+        HttpResponse<String> r = post(http, a.webUrl() + "forecast", req);
+        JsonNode n = JSON.readTree(r.body());
+        assertEquals(owner, n.path("partition").asInt(), r.body());
+        if (owner == heldByA) {
+          assertEquals(200, r.statusCode(), r.body());
+        } else {
+          assertEquals(421, r.statusCode(), r.body());
+          assertTrue(n.path("detail").asText().startsWith("partition " + owner + " of " + name + ".in is held by another instance"),
+              r.body());
+          HttpResponse<String> there = post(http, b.webUrl() + "forecast", req);
+          assertEquals(200, there.statusCode(), there.body());
+          checked++;
+        }
+      }
+      assertTrue(checked > 0, "some hub falls in the other partition");
     }
   }
 }
