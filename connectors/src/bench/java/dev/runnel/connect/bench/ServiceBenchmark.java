@@ -31,8 +31,9 @@ import org.HdrHistogram.Histogram;
  *   <li><b>throughput with and without requests</b>, in one run: while the runner works through the topic, the
  *       time is cut into {@code --window-ms} windows that alternate between no requests and
  *       {@code --rate} single-record {@code POST /forecast} requests a second (paced, from
- *       {@code --senders} threads); records processed per second are compared window by window (the first
- *       two windows are warm-up and left out);</li>
+ *       {@code --senders} threads, 8 by default); records processed per second are compared window by window,
+ *       each "on" window against the mean of the "off" windows beside it (the first {@code --skip-windows}, 6 by
+ *       default, are warm-up and left out);</li>
  *   <li><b>latency</b>: once the input is done, {@code --requests} single-record requests one after another
  *       over loopback (HTTP/1.1, one kept-alive connection), each timed from send to the whole answer read
  *       (HdrHistogram, microseconds), after {@code --warmup} untimed ones.</li>
@@ -52,7 +53,8 @@ public final class ServiceBenchmark {
   public static void main(String[] args) throws Exception {
     long records = 1_500_000;
     int rate = 1000;
-    int senders = 4;
+    int senders = 8;
+    int skip = 6;
     long windowMs = 2000;
     int requests = 20_000;
     int warmup = 5_000;
@@ -63,11 +65,12 @@ public final class ServiceBenchmark {
         case "--rate" -> rate = Integer.parseInt(args[++i]);
         case "--senders" -> senders = Integer.parseInt(args[++i]);
         case "--window-ms" -> windowMs = Long.parseLong(args[++i]);
+        case "--skip-windows" -> skip = Integer.parseInt(args[++i]);
         case "--requests" -> requests = Integer.parseInt(args[++i]);
         case "--warmup" -> warmup = Integer.parseInt(args[++i]);
         case "--out" -> out = Path.of(args[++i]);
         default -> throw new IllegalArgumentException("unknown option " + args[i]
-            + "; use --records N --rate R --senders N --window-ms MS --requests N --warmup N --out FILE");
+            + "; use --records N --rate R --senders N --window-ms MS --skip-windows N --requests N --warmup N --out FILE");
       }
     }
     Path folder = Files.createTempDirectory("runnel-service-bench");
@@ -130,7 +133,7 @@ public final class ServiceBenchmark {
         for (Thread t : threads) {
           t.join(5000);
         }
-        report.append(throughputTable(windows, rate, senders, windowMs, loaded, failed.get()));
+        report.append(throughputTable(windows, skip, rate, senders, windowMs, loaded, failed.get()));
         // latency, one request after another on one connection, the stream idle
         Histogram h = new Histogram(3_600_000_000L, 3);
         for (int i = 0; i < warmup + requests; i++) {
@@ -161,11 +164,12 @@ public final class ServiceBenchmark {
     }
   }
 
-  private static String throughputTable(List<double[]> windows, int rate, int senders, long windowMs, long loaded, long failed) {
+  private static String throughputTable(List<double[]> windows, int skip, int rate, int senders, long windowMs, long loaded,
+                                        long failed) {
     StringBuilder sb = new StringBuilder();
     sb.append(String.format(Locale.ROOT, "Stream throughput with and without %,d requests a second (%d senders), one run over %,d"
-        + " records, %,d ms windows alternating (the first two left out):%n%n| window | requests | requests/s | records/s |%n"
-        + "|---|---|---|---|%n", rate, senders, loaded, windowMs));
+        + " records, %,d ms windows alternating (the first %d are warm-up, left out):%n%n| window | requests | requests/s | records/s |%n"
+        + "|---|---|---|---|%n", rate, senders, loaded, windowMs, skip));
     double sumWith = 0;
     double sumWithout = 0;
     int nWith = 0;
@@ -174,14 +178,15 @@ public final class ServiceBenchmark {
     for (int i = 0; i < windows.size(); i++) {
       double[] w = windows.get(i);
       sb.append(String.format(Locale.ROOT, "| %d | %s | %,.0f | %,.0f |%n", i + 1, w[0] == 1 ? "on" : "off", w[2], w[1]));
-      if (i < 2) {
+      if (i < skip) {
         continue;
       }
       if (w[0] == 1) {
         sumWith += w[1];
         nWith++;
-        // paired with the window before it (off), for a ratio that follows the stream's own drift
-        ratios.add(w[1] / windows.get(i - 1)[1]);
+        // against the mean of the "off" windows on both sides, so a trend in the stream's own speed cancels
+        double off = i + 1 < windows.size() ? (windows.get(i - 1)[1] + windows.get(i + 1)[1]) / 2 : windows.get(i - 1)[1];
+        ratios.add(w[1] / off);
       } else {
         sumWithout += w[1];
         nWithout++;
@@ -190,9 +195,9 @@ public final class ServiceBenchmark {
     ratios.sort(Double::compare);
     double median = ratios.isEmpty() ? Double.NaN : ratios.get(ratios.size() / 2);
     sb.append(String.format(Locale.ROOT, "%nMean records/s without requests %,.0f (%d windows), with %,.0f (%d windows): %+.1f %%;"
-        + " median ratio of each \"on\" window to the \"off\" window before it %.3f. Failed requests: %d.%n",
+        + " median ratio of each \"on\" window to the mean of the \"off\" windows beside it %.3f (%d pairs). Failed requests: %d.%n",
         sumWithout / Math.max(1, nWithout), nWithout, sumWith / Math.max(1, nWith), nWith,
-        100 * ((sumWith / Math.max(1, nWith)) / (sumWithout / Math.max(1, nWithout)) - 1), median, failed));
+        100 * ((sumWith / Math.max(1, nWith)) / (sumWithout / Math.max(1, nWithout)) - 1), median, ratios.size(), failed));
     return sb.toString();
   }
 

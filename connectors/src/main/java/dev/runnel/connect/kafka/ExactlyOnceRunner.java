@@ -262,9 +262,9 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
    */
   public String notReady() {
     if (failure != null) return "the runner stopped: " + failure;
+    if (finished.getCount() == 0) return "the runner has stopped";
     if (closing) return "the runner is stopping";
     if (!started.get()) return "the runner has not started";
-    if (finished.getCount() == 0) return "the runner has stopped";
     if (!assignedOnce) return "waiting for the first partition assignment of group " + settings.groupId();
     if (restoring) return "restoring assigned partitions from " + settings.stateTopic();
     return null;
