@@ -55,6 +55,7 @@ public final class ServiceBenchmark {
     int rate = 1000;
     int senders = 8;
     int skip = 6;
+    boolean health = false;
     long windowMs = 2000;
     int requests = 20_000;
     int warmup = 5_000;
@@ -66,6 +67,7 @@ public final class ServiceBenchmark {
         case "--senders" -> senders = Integer.parseInt(args[++i]);
         case "--window-ms" -> windowMs = Long.parseLong(args[++i]);
         case "--skip-windows" -> skip = Integer.parseInt(args[++i]);
+        case "--load-health" -> health = true;
         case "--requests" -> requests = Integer.parseInt(args[++i]);
         case "--warmup" -> warmup = Integer.parseInt(args[++i]);
         case "--out" -> out = Path.of(args[++i]);
@@ -90,6 +92,9 @@ public final class ServiceBenchmark {
           quiet, null)) {
         live.startRunner();
         String url = live.webUrl() + "forecast";
+        // --load-health: the load is GET /health instead (no model, no lock): what the HTTP exchange alone costs
+        String loadUrl = live.webUrl() + (health ? "health" : "forecast");
+        boolean get = health;
         HttpClient http = HttpClient.newBuilder().version(HttpClient.Version.HTTP_1_1).build();
         while (live.runner().notReady() != null || live.runner().counters().recordsIn() == 0) {
           Thread.sleep(20);
@@ -103,7 +108,7 @@ public final class ServiceBenchmark {
         double perSender = (double) rate / senders;
         for (int s = 0; s < senders; s++) {
           int seed = s;
-          Thread t = new Thread(() -> send(http, url, bodies, seed, perSender, load, stop, sent, failed), "bench-sender-" + s);
+          Thread t = new Thread(() -> send(http, loadUrl, get, bodies, seed, perSender, load, stop, sent, failed), "bench-sender-" + s);
           t.setDaemon(true);
           t.start();
           threads.add(t);
@@ -202,7 +207,7 @@ public final class ServiceBenchmark {
   }
 
   /** Sends paced requests while {@code load} is set. */
-  private static void send(HttpClient http, String url, List<byte[]> bodies, int seed, double perSecond, AtomicBoolean load,
+  private static void send(HttpClient http, String url, boolean get, List<byte[]> bodies, int seed, double perSecond, AtomicBoolean load,
                            AtomicBoolean stop, AtomicLong sent, AtomicLong failed) {
     long gap = (long) (1e9 / perSecond);
     long next = System.nanoTime();
@@ -220,8 +225,9 @@ public final class ServiceBenchmark {
       }
       next += gap;
       try {
-        HttpResponse<Void> r = http.send(HttpRequest.newBuilder(URI.create(url))
-            .POST(HttpRequest.BodyPublishers.ofByteArray(bodies.get(i++ % bodies.size()))).build(), HttpResponse.BodyHandlers.discarding());
+        HttpRequest.Builder b = HttpRequest.newBuilder(URI.create(url));
+        HttpRequest req = get ? b.GET().build() : b.POST(HttpRequest.BodyPublishers.ofByteArray(bodies.get(i++ % bodies.size()))).build();
+        HttpResponse<Void> r = http.send(req, HttpResponse.BodyHandlers.discarding());
         if (r.statusCode() == 200) {
           sent.incrementAndGet();
         } else {

@@ -12,7 +12,10 @@ import dev.runnel.core.record.EventRecord;
 import dev.runnel.core.record.RejectReason;
 import dev.runnel.core.pipeline.RequestForecast;
 import java.nio.charset.StandardCharsets;
+import java.util.concurrent.ConcurrentLinkedQueue;
+import java.util.concurrent.locks.LockSupport;
 import java.util.concurrent.locks.ReentrantLock;
+import java.util.function.Supplier;
 import org.apache.kafka.common.TopicPartition;
 
 /**
@@ -21,12 +24,17 @@ import org.apache.kafka.common.TopicPartition;
  * snapshot; with {@code input.forecast}, an actual also settles the forecasts pending for it), and the step's checkpoint is the partition's state. Nothing here computes: every
  * number comes from stream-core, so a replay of the same records gives the same bits.
  *
- * <p>Reading from other threads ({@link #forecast}, {@link #stats}): the runner's thread holds this
- * processor's lock while it restores or processes one record, and a reader holds it while it reads, so
- * a reader sees the state after some whole record, never a half-updated model. A lock rather than
- * serving on the runner's thread between records: the runner's thread waits up to 200 ms in each poll
- * when the input is idle, and a request should not wait for that; uncontended, the lock costs two
- * atomic operations per record.
+ * <p>Reading from other threads ({@link #forecast}, {@link #stats}): one lock guards the state; the
+ * runner's thread holds it while it restores, processes one record or writes the checkpoint, and a
+ * reader runs only while it is held, so a reader sees the state after some whole record, never a
+ * half-updated model. A reader never waits in the lock's queue: it takes the lock when it is free (the
+ * runner is between records or idle in its poll), else it leaves its read in a queue that the runner's
+ * thread serves right after the record it is processing, and sleeps until then. Why: with readers
+ * queued on the lock, every release by the runner's thread woke a reader that then lost the lock to the
+ * runner's next record and slept again; at 1,000 requests a second that cost the stream a third of its
+ * throughput on the 2-core test machine (docs/performance.md). The runner's thread, finding the lock
+ * held by a reader (microseconds), spins instead of sleeping; uncontended the lock costs two atomic
+ * operations per record, and an empty queue one volatile read.
  */
 public final class PipelineProcessor implements PartitionProcessor {
 
@@ -38,6 +46,31 @@ public final class PipelineProcessor implements PartitionProcessor {
   private final byte[] partitionKey;
   private final StepSink sink = new StepSink();
   private final ReentrantLock lock = new ReentrantLock();
+  /** Reads left for the runner's thread to serve after its current record. */
+  private final ConcurrentLinkedQueue<Read<?>> queued = new ConcurrentLinkedQueue<>();
+
+  /** A read waiting for the state. */
+  private static final class Read<T> {
+    final Supplier<T> work;
+    final Thread waiter = Thread.currentThread();
+    volatile T result;
+    volatile RuntimeException failure;
+    volatile boolean done;
+
+    Read(Supplier<T> work) {
+      this.work = work;
+    }
+
+    void run() {
+      try {
+        result = work.get();
+      } catch (RuntimeException e) {
+        failure = e;
+      }
+      done = true;
+      LockSupport.unpark(waiter);
+    }
+  }
   private volatile boolean restored;
   /** Made on the first request; used under the lock only. */
   private RequestForecast requests;
@@ -68,12 +101,13 @@ public final class PipelineProcessor implements PartitionProcessor {
 
   @Override
   public void restore(byte[] checkpointOrNull) {
-    lock.lock();
+    acquire();
     try {
       if (checkpointOrNull != null) {
         step.restore(checkpointOrNull);
       }
       restored = true;
+      serveQueued();
     } finally {
       lock.unlock();
     }
@@ -102,20 +136,20 @@ public final class PipelineProcessor implements PartitionProcessor {
    * @param arrivalMillis the event time when the configuration names no time field
    */
   public Answer forecast(byte[] value, long arrivalMillis) {
-    lock.lock();
-    try {
-      if (requests == null) {
-        requests = new RequestForecast(step);
-        requestJson = new OutputJson(config.name(), config.model().intervalLevel());
-      }
-      RejectReason r = requests.forecast(value, 0, value.length, arrivalMillis, partition);
-      if (r != null) {
-        return new Answer(r, value.length == 0 ? "the record has no value" : requests.lastDetail(), null);
-      }
-      return new Answer(null, "", requestJson.prediction(requests.prediction(), requests.record()));
-    } finally {
-      lock.unlock();
+    return read(() -> answer(value, arrivalMillis));
+  }
+
+  /** One forecast; under the lock. */
+  private Answer answer(byte[] value, long arrivalMillis) {
+    if (requests == null) {
+      requests = new RequestForecast(step);
+      requestJson = new OutputJson(config.name(), config.model().intervalLevel());
     }
+    RejectReason r = requests.forecast(value, 0, value.length, arrivalMillis, partition);
+    if (r != null) {
+      return new Answer(r, value.length == 0 ? "the record has no value" : requests.lastDetail(), null);
+    }
+    return new Answer(null, "", requestJson.prediction(requests.prediction(), requests.record()));
   }
 
   /**
@@ -130,11 +164,60 @@ public final class PipelineProcessor implements PartitionProcessor {
 
   /** This partition's {@link Stats}; any thread. */
   public Stats stats() {
-    lock.lock();
-    try {
-      return new Stats(step.model().noiseSd(), step.metrics().recentMae(), step.drift().alarms().size(), step.records());
-    } finally {
-      lock.unlock();
+    return read(() -> new Stats(step.model().noiseSd(), step.metrics().recentMae(), step.drift().alarms().size(), step.records()));
+  }
+
+  /**
+   * Runs {@code work} on the state after a whole record: at once when the lock is free, else by the
+   * runner's thread after its current record (this thread sleeps meanwhile, and takes the lock itself
+   * should the runner's thread go idle first).
+   */
+  private <T> T read(Supplier<T> work) {
+    if (lock.tryLock()) {
+      try {
+        serveQueued();
+        return work.get();
+      } finally {
+        lock.unlock();
+      }
+    }
+    Read<T> r = new Read<>(work);
+    queued.add(r);
+    while (!r.done) {
+      LockSupport.parkNanos(r, 1_000_000);
+      if (!r.done && lock.tryLock()) {
+        try {
+          serveQueued();
+        } finally {
+          lock.unlock();
+        }
+      }
+    }
+    if (r.failure != null) {
+      throw r.failure;
+    }
+    return r.result;
+  }
+
+  /** Serves the reads left in the queue; under the lock. */
+  private void serveQueued() {
+    Read<?> r;
+    while ((r = queued.poll()) != null) {
+      r.run();
+    }
+  }
+
+  /**
+   * Takes the lock on the runner's thread: a reader holds it for microseconds, so spin rather than
+   * sleep (a sleeping runner's thread waits for the scheduler to run it again).
+   */
+  private void acquire() {
+    for (int spins = 0; !lock.tryLock(); spins++) {
+      if (spins > 100_000) {
+        lock.lock(); // a reader taken off its CPU while holding the lock: wait in the queue after all
+        return;
+      }
+      Thread.onSpinWait();
     }
   }
 
@@ -142,9 +225,12 @@ public final class PipelineProcessor implements PartitionProcessor {
   public void process(long offset, long timestampMillis, byte[] key, byte[] value, Emitter out) {
     byte[] v = value == null ? EMPTY : value;
     sink.bind(out, key, v, offset);
-    lock.lock();
+    acquire();
     try {
       step.process(v, 0, v.length, timestampMillis, partition, offset, sink);
+      if (!queued.isEmpty()) {
+        serveQueued();
+      }
     } finally {
       lock.unlock();
     }
@@ -159,7 +245,7 @@ public final class PipelineProcessor implements PartitionProcessor {
 
   @Override
   public byte[] checkpoint() {
-    lock.lock(); // writing the model applies its pending re-basing: not while a reader reads
+    acquire(); // writing the model applies its pending re-basing: not while a reader reads
     try {
       return step.checkpoint();
     } finally {
