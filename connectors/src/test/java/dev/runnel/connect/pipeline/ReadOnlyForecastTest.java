@@ -37,7 +37,7 @@ class ReadOnlyForecastTest {
   private static final TopicPartition TP = new TopicPartition("requests.in", 0);
 
   /** Every output and checkpoint of one run, in order, as one byte string. */
-  private static final class Recorder implements Emitter {
+  private static class Recorder implements Emitter {
     final ByteArrayOutputStream all = new ByteArrayOutputStream();
 
     private void add(char kind, byte[] value) {
@@ -185,5 +185,52 @@ class ReadOnlyForecastTest {
       assertEquals(n.path("reason").asText(), a.reason().id(), b);
       assertTrue(a.reason() != RejectReason.PROCESSING_FAILED);
     }
+  }
+
+  @Test
+  void aRequestDuringARecordSeesTheStateAfterThatWholeRecord() throws Exception {
+    PipelineConfig cfg = DemoRun.demoConfig();
+    List<byte[]> feed = feed();
+    PipelineProcessor busy = new PipelineProcessor(cfg, TP);
+    PipelineProcessor reference = new PipelineProcessor(cfg, TP);
+    busy.restore(null);
+    reference.restore(null);
+    Recorder sink = new Recorder();
+    int n = 2000;
+    for (int i = 0; i < n; i++) {
+      busy.process(i, 0L, null, feed.get(i), sink);
+      reference.process(i, 0L, null, feed.get(i), sink);
+    }
+    byte[] req = request(feed.get(n + 1));
+    // the next record's prediction is held up inside the record (the processor's lock is held), and a
+    // request is made meanwhile: it must wait, and then see the state after that record, never before or half
+    java.util.concurrent.CountDownLatch inside = new java.util.concurrent.CountDownLatch(1);
+    java.util.concurrent.CountDownLatch release = new java.util.concurrent.CountDownLatch(1);
+    Emitter blocking = new Recorder() {
+      @Override public void prediction(byte[] key, byte[] value) {
+        inside.countDown();
+        try {
+          release.await();
+        } catch (InterruptedException e) {
+          Thread.currentThread().interrupt();
+        }
+      }
+    };
+    Thread runner = new Thread(() -> busy.process(n, 0L, null, feed.get(n), blocking));
+    runner.start();
+    inside.await();
+    java.util.concurrent.CompletableFuture<PipelineProcessor.Answer> asked =
+        java.util.concurrent.CompletableFuture.supplyAsync(() -> busy.forecast(req, 0L));
+    Thread.sleep(50); // not a timing assertion: only gives the request time to be queued behind the record
+    assertTrue(!asked.isDone(), "the request waits for the record being processed");
+    release.countDown();
+    PipelineProcessor.Answer a = asked.get(60, java.util.concurrent.TimeUnit.SECONDS);
+    runner.join();
+    reference.process(n, 0L, null, feed.get(n), sink);
+    PipelineProcessor.Answer expected = reference.forecast(req, 0L);
+    assertNull(a.reason(), a.detail());
+    assertArrayEquals(expected.prediction(), a.prediction(), "the state after the whole record");
+    PipelineProcessor.Answer before = new PipelineProcessor(cfg, TP).forecast(req, 0L);
+    assertTrue(!java.util.Arrays.equals(before.prediction(), a.prediction()), "a fresh model answers differently");
   }
 }
