@@ -64,8 +64,9 @@ public final class PipelineProcessor implements PartitionProcessor {
     void run() {
       try {
         result = work.get();
-      } catch (RuntimeException e) {
-        failure = e;
+      } catch (RuntimeException | Error e) {
+        // a request's failure is the request's: the runner's thread, which may be serving it, goes on
+        failure = e instanceof RuntimeException re ? re : new IllegalStateException("a read of the state failed: " + e, e);
       }
       done = true;
       LockSupport.unpark(waiter);

@@ -305,6 +305,17 @@ public final class WebView implements AutoCloseable {
    */
   private void forecast(HttpExchange x) throws IOException {
     if (!admitted(x) || !served(x)) return;
+    try {
+      answerForecast(x);
+    } catch (RuntimeException e) {
+      // a defect, not bad input (that is a 400): said without the record, whose text may be anything
+      sendAny(x, 500, "text/plain; charset=utf-8", ("the forecast failed (" + e.getClass().getName() + "); the stream is not"
+          + " affected; see the log\n").getBytes(StandardCharsets.UTF_8));
+      org.slf4j.LoggerFactory.getLogger(WebView.class).warn("a forecast request failed", e);
+    }
+  }
+
+  private void answerForecast(HttpExchange x) throws IOException {
     if (!"POST".equals(x.getRequestMethod())) {
       x.getResponseHeaders().set("Allow", "POST");
       sendAny(x, 405, "text/plain; charset=utf-8", "only POST, with one JSON record or an array of them\n"
