@@ -4,6 +4,7 @@ import java.nio.charset.StandardCharsets;
 import java.time.Duration;
 import java.util.ArrayList;
 import java.util.Collection;
+import java.util.Collections;
 import java.util.HashMap;
 import java.util.HashSet;
 import java.util.LinkedHashMap;
@@ -113,6 +114,14 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   private volatile long processingFailures;
   private volatile long lastCommitMillis;
   private volatile long lag = -1;
+  /** Per held input partition, records behind its end at the last commit (an immutable map, replaced whole). */
+  private volatile Map<TopicPartition, Long> lagByPartition = Map.of();
+  /** The input partitions held and restored (an immutable set, replaced whole). */
+  private volatile Set<TopicPartition> held = Set.of();
+  private volatile boolean assignedOnce;
+  private volatile boolean restoring;
+  private volatile int inputPartitionCount = -1;
+  private volatile RunnerListener listener = RunnerListener.NONE;
 
   // owned by the run thread
   private KafkaConsumer<byte[], byte[]> consumer;
@@ -233,6 +242,32 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   public RunnerCounters counters() {
     return new RunnerCounters(recordsIn, outputsOut, rejects, commits, aborts, lastCommitMillis, lag, processingFailures,
         brokerAwaySinceMillis);
+  }
+
+  /** Sets who is told about commit and restore times; call before {@link #run()}. */
+  public void setListener(RunnerListener l) { this.listener = Objects.requireNonNull(l, "listener must not be null"); }
+
+  /** Per held input partition, the records behind its end at the last commit (partitions not yet measured left out). */
+  public Map<TopicPartition, Long> lagByPartition() { return lagByPartition; }
+
+  /** The input partitions this instance holds, each restored from its checkpoint. */
+  public Set<TopicPartition> heldPartitions() { return held; }
+
+  /** The input topic's partition count, -1 before the topics were set up. */
+  public int inputPartitionCount() { return inputPartitionCount; }
+
+  /**
+   * Null when the runner serves: it has had its first assignment from the group and restored every
+   * partition it holds; else why not, in words.
+   */
+  public String notReady() {
+    if (failure != null) return "the runner stopped: " + failure;
+    if (finished.getCount() == 0) return "the runner has stopped";
+    if (closing) return "the runner is stopping";
+    if (!started.get()) return "the runner has not started";
+    if (!assignedOnce) return "waiting for the first partition assignment of group " + settings.groupId();
+    if (restoring) return "restoring assigned partitions from " + settings.stateTopic();
+    return null;
   }
 
   /** Why the runner stopped on its own, or null if it did not (yet). */
@@ -573,6 +608,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
   /** Commits the open transaction with checkpoints and offsets of the touched partitions. */
   private void commit() {
     if (!txOpen) return;
+    long commitStart = System.nanoTime();
     Map<TopicPartition, OffsetAndMetadata> offsets = new HashMap<>();
     Map<TopicPartition, byte[]> checkpoints = new HashMap<>();
     for (Slot s : slots.values()) {
@@ -629,6 +665,13 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       total += l.getAsLong();
     }
     lag = total;
+    Map<TopicPartition, Long> perPartition = new LinkedHashMap<>();
+    for (TopicPartition tp : slots.keySet()) {
+      OptionalLong l = consumer.currentLag(tp);
+      if (l.isPresent()) perPartition.put(tp, l.getAsLong());
+    }
+    lagByPartition = Collections.unmodifiableMap(perPartition);
+    listener.committed(System.nanoTime() - commitStart);
   }
 
   /** Classifies an error: fatal ones stop the runner; the rest abort the transaction and rewind. */
@@ -834,6 +877,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       while (!closing) {
         try {
           layout = TopicSetup.ensure(admin, settings);
+          inputPartitionCount = layout.inputPartitions();
           return;
         } catch (TimeoutException e) {
           LOG.warn("broker at {} not reachable; retrying in {} s", settings.bootstrapServers(), BACKOFF_MS / 1000);
@@ -913,20 +957,39 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
         }
       }
       for (TopicPartition tp : partitions) slots.remove(tp);
+      heldChanged();
     }
 
     @Override public void onPartitionsLost(Collection<TopicPartition> partitions) {
       // another member may own them already: nothing of the open transaction may be committed
       if (txOpen) abortAndRewind(new KafkaException("partitions lost: " + partitions));
       for (TopicPartition tp : partitions) slots.remove(tp);
+      heldChanged();
     }
 
     @Override public void onPartitionsAssigned(Collection<TopicPartition> partitions) {
       List<TopicPartition> fresh = new ArrayList<>();
       for (TopicPartition tp : partitions) if (!slots.containsKey(tp)) fresh.add(tp);
-      if (fresh.isEmpty()) return;
-      assign(fresh);
+      if (!fresh.isEmpty()) {
+        restoring = true;
+        long start = System.nanoTime();
+        try {
+          assign(fresh);
+        } finally {
+          restoring = false;
+        }
+        listener.restored(fresh.size(), System.nanoTime() - start);
+      }
+      heldChanged();
+      assignedOnce = true;
     }
+  }
+
+  private void heldChanged() {
+    held = Collections.unmodifiableSet(new java.util.LinkedHashSet<>(slots.keySet()));
+    Map<TopicPartition, Long> lags = new LinkedHashMap<>(lagByPartition);
+    lags.keySet().retainAll(slots.keySet()); // a partition given away has no lag here any more
+    lagByPartition = Collections.unmodifiableMap(lags);
   }
 
   private void assign(List<TopicPartition> fresh) {

@@ -4,9 +4,10 @@ import dev.runnel.connect.broker.EmbeddedBroker;
 import dev.runnel.connect.kafka.ExactlyOnceRunner;
 import dev.runnel.connect.kafka.RunnerCounters;
 import dev.runnel.connect.kafka.RunnerSettings;
-import dev.runnel.connect.pipeline.PipelineProcessor;
 import dev.runnel.connect.text.TerminalText;
 import dev.runnel.connect.web.LiveState;
+import dev.runnel.connect.web.ServiceMetrics;
+import dev.runnel.connect.web.WebAccess;
 import dev.runnel.connect.web.WebView;
 import dev.runnel.core.config.PipelineConfig;
 import java.io.IOException;
@@ -46,13 +47,18 @@ public final class LivePipeline implements AutoCloseable {
   private final EmbeddedBroker broker;
   private final String servers;
   private final OutputTally tally = new OutputTally();
+  private final WebAccess access;
   private ExactlyOnceRunner runner;
+  private LiveService service;
+  private ServiceMetrics metrics;
   private Thread work;
   private LiveState live;
   private WebView web;
   private long startNanos;
 
-  private LivePipeline(PipelineConfig config, Options options, PrintStream err, EmbeddedBroker broker, String servers) {
+  private LivePipeline(PipelineConfig config, Options options, PrintStream err, EmbeddedBroker broker, String servers,
+                       WebAccess access) {
+    this.access = access;
     this.config = config;
     this.options = options;
     this.err = err;
@@ -66,8 +72,23 @@ public final class LivePipeline implements AutoCloseable {
    * @param err where the lines for the person go (usually System.err)
    */
   public static LivePipeline connect(PipelineConfig config, Options options, PrintStream err) throws IOException {
+    return connect(config, options, err, System.getenv(WebAccess.TOKEN_ENV));
+  }
+
+  /**
+   * As {@link #connect(PipelineConfig, Options, PrintStream)} with the value of {@value WebAccess#TOKEN_ENV} given
+   * (null: unset), for tests.
+   *
+   * @throws IllegalArgumentException for a web.bind that does not resolve, or that is not a loopback address
+   *     while no token is set; for an unreadable web.token_file; for a web.forecast_key_field that is no text field
+   */
+  public static LivePipeline connect(PipelineConfig config, Options options, PrintStream err, String tokenEnv) throws IOException {
+    WebAccess access = WebAccess.open();
     if (options.web() && config.web().enabled()) {
-      WebView.bindAddress(config.web().bind(), 0); // a web.bind that does not resolve: said before anything starts
+      // said before anything starts: a web.bind that does not resolve, or is open to others without a token
+      access = WebAccess.resolve(config.web().tokenFile(), tokenEnv);
+      access.checkBind(config.web().bind(), WebView.bindAddress(config.web().bind(), 0));
+      LiveService.keyField(config);
     }
     String servers = options.bootstrapServers();
     if (servers == null || servers.isBlank()) {
@@ -85,7 +106,7 @@ public final class LivePipeline implements AutoCloseable {
           TerminalText.safe(broker.logFile().toString()));
       servers = broker.bootstrapServers();
     }
-    return new LivePipeline(config, options, err, broker, servers);
+    return new LivePipeline(config, options, err, broker, servers, access);
   }
 
   /** The cluster's bootstrap servers. */
@@ -112,7 +133,12 @@ public final class LivePipeline implements AutoCloseable {
   /** Step two: starts the runner on its own thread, then the live view. */
   public LivePipeline startRunner() throws IOException {
     RunnerSettings settings = runnerSettings(config, servers, options.instanceId());
-    runner = new ExactlyOnceRunner(settings, tally.wrap(PipelineProcessor.factory(config)));
+    service = new LiveService(config, tally);
+    runner = new ExactlyOnceRunner(settings, tally.wrap(service.factory()));
+    service.attach(runner);
+    if (options.web() && config.web().enabled()) {
+      metrics = new ServiceMetrics(config.name(), service); // before the runner starts: it listens to commits and restores
+    }
     startNanos = System.nanoTime();
     work = new Thread(runner, options.prefix() + "-runner");
     work.start();
@@ -121,7 +147,7 @@ public final class LivePipeline implements AutoCloseable {
     if (options.web() && config.web().enabled()) {
       live = new LiveState(config.name(), servers, config.kafka().clientProperties(), runner::counters).start();
       web = WebView.start(config.web().bind(), options.webPort() != null ? options.webPort() : config.web().port(),
-          options.webPortFallback(), config.web().allowedHosts(), live);
+          options.webPortFallback(), config.web().allowedHosts(), live, access, service, metrics);
       err.println(options.prefix() + ": live view at " + web.url());
     }
     return this;
@@ -158,6 +184,11 @@ public final class LivePipeline implements AutoCloseable {
   /** The live view's address, or null without one. */
   public String webUrl() {
     return web == null ? null : web.url();
+  }
+
+  /** What the web server serves of this pipeline (after {@link #startRunner}). */
+  public LiveService service() {
+    return service;
   }
 
   /** The outputs counted so far. */

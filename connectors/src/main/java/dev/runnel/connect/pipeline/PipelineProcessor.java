@@ -10,7 +10,12 @@ import dev.runnel.core.pipeline.Prediction;
 import dev.runnel.core.pipeline.SettledForecast;
 import dev.runnel.core.record.EventRecord;
 import dev.runnel.core.record.RejectReason;
+import dev.runnel.core.pipeline.RequestForecast;
 import java.nio.charset.StandardCharsets;
+import java.util.concurrent.ConcurrentLinkedQueue;
+import java.util.concurrent.locks.LockSupport;
+import java.util.concurrent.locks.ReentrantLock;
+import java.util.function.Supplier;
 import org.apache.kafka.common.TopicPartition;
 
 /**
@@ -18,6 +23,18 @@ import org.apache.kafka.common.TopicPartition;
  * runner: each Kafka record becomes a prediction or a reject (and now and then a coefficient
  * snapshot; with {@code input.forecast}, an actual also settles the forecasts pending for it), and the step's checkpoint is the partition's state. Nothing here computes: every
  * number comes from stream-core, so a replay of the same records gives the same bits.
+ *
+ * <p>Reading from other threads ({@link #forecast}, {@link #stats}): one lock guards the state; the
+ * runner's thread holds it while it restores, processes one record or writes the checkpoint, and a
+ * reader runs only while it is held, so a reader sees the state after some whole record, never a
+ * half-updated model. A reader never waits in the lock's queue: it takes the lock when it is free (the
+ * runner is between records or idle in its poll), else it leaves its read in a queue that the runner's
+ * thread serves right after the record it is processing, and sleeps until then. Why: with readers
+ * queued on the lock, every release by the runner's thread woke a reader that then lost the lock to the
+ * runner's next record and slept again; at 1,000 requests a second that cost the stream a third of its
+ * throughput on the 2-core test machine (docs/performance.md). The runner's thread, finding the lock
+ * held by a reader (microseconds), spins instead of sleeping; uncontended the lock costs two atomic
+ * operations per record, and an empty queue one volatile read.
  */
 public final class PipelineProcessor implements PartitionProcessor {
 
@@ -28,12 +45,45 @@ public final class PipelineProcessor implements PartitionProcessor {
   private final int partition;
   private final byte[] partitionKey;
   private final StepSink sink = new StepSink();
+  private final ReentrantLock lock = new ReentrantLock();
+  /** Reads left for the runner's thread to serve after its current record. */
+  private final ConcurrentLinkedQueue<Read<?>> queued = new ConcurrentLinkedQueue<>();
+
+  /** A read waiting for the state. */
+  private static final class Read<T> {
+    final Supplier<T> work;
+    final Thread waiter = Thread.currentThread();
+    volatile T result;
+    volatile RuntimeException failure;
+    volatile boolean done;
+
+    Read(Supplier<T> work) {
+      this.work = work;
+    }
+
+    void run() {
+      try {
+        result = work.get();
+      } catch (RuntimeException | Error e) {
+        // a request's failure is the request's: the runner's thread, which may be serving it, goes on
+        failure = e instanceof RuntimeException re ? re : new IllegalStateException("a read of the state failed: " + e, e);
+      }
+      done = true;
+      LockSupport.unpark(waiter);
+    }
+  }
+  private volatile boolean restored;
+  /** Made on the first request; used under the lock only. */
+  private RequestForecast requests;
+  private OutputJson requestJson;
+  private final PipelineConfig config;
 
   /**
    * @param config the pipeline configuration. Not modified.
    * @param tp the input partition this processor serves
    */
   public PipelineProcessor(PipelineConfig config, TopicPartition tp) {
+    this.config = config;
     this.step = new PipelineStep(config);
     this.json = new OutputJson(config.name(), config.model().intervalLevel());
     this.partition = tp.partition();
@@ -52,8 +102,123 @@ public final class PipelineProcessor implements PartitionProcessor {
 
   @Override
   public void restore(byte[] checkpointOrNull) {
-    if (checkpointOrNull != null) {
-      step.restore(checkpointOrNull);
+    acquire();
+    try {
+      if (checkpointOrNull != null) {
+        step.restore(checkpointOrNull);
+      }
+      restored = true;
+      serveQueued();
+    } finally {
+      lock.unlock();
+    }
+  }
+
+  /** Whether {@link #restore} has run: before it, the state is not yet the partition's. */
+  public boolean restored() {
+    return restored;
+  }
+
+  /**
+   * The answer to one forecast request: the prediction record (the layout of {@code <name>.predictions},
+   * source offset -1), or the reason the stream would reject the record with.
+   *
+   * @param reason null when forecast
+   * @param detail what was wrong, "" when forecast
+   * @param prediction the prediction's JSON bytes, null when rejected
+   */
+  public record Answer(RejectReason reason, String detail, byte[] prediction) { }
+
+  /**
+   * Forecasts one record read-only from this partition's current model (docs/operations.md): nothing
+   * of the state changes. Any thread; waits for the record being processed, if any.
+   *
+   * @param value the record's JSON bytes. Not modified.
+   * @param arrivalMillis the event time when the configuration names no time field
+   */
+  public Answer forecast(byte[] value, long arrivalMillis) {
+    return read(() -> answer(value, arrivalMillis));
+  }
+
+  /** One forecast; under the lock. */
+  private Answer answer(byte[] value, long arrivalMillis) {
+    if (requests == null) {
+      requests = new RequestForecast(step);
+      requestJson = new OutputJson(config.name(), config.model().intervalLevel());
+    }
+    RejectReason r = requests.forecast(value, 0, value.length, arrivalMillis, partition);
+    if (r != null) {
+      return new Answer(r, value.length == 0 ? "the record has no value" : requests.lastDetail(), null);
+    }
+    return new Answer(null, "", requestJson.prediction(requests.prediction(), requests.record()));
+  }
+
+  /**
+   * What the metrics show of this partition's model, read after a whole record.
+   *
+   * @param noiseSd the model's noise standard deviation (NaN before the first estimate)
+   * @param recentMae the mean absolute a-priori error, recent records weighted most (NaN before the first)
+   * @param activeAlarms drift alarms raised now
+   * @param records records processed (rejects included)
+   */
+  public record Stats(double noiseSd, double recentMae, int activeAlarms, long records) { }
+
+  /** This partition's {@link Stats}; any thread. */
+  public Stats stats() {
+    return read(() -> new Stats(step.model().noiseSd(), step.metrics().recentMae(), step.drift().alarms().size(), step.records()));
+  }
+
+  /**
+   * Runs {@code work} on the state after a whole record: at once when the lock is free, else by the
+   * runner's thread after its current record (this thread sleeps meanwhile, and takes the lock itself
+   * should the runner's thread go idle first).
+   */
+  private <T> T read(Supplier<T> work) {
+    if (lock.tryLock()) {
+      try {
+        serveQueued();
+        return work.get();
+      } finally {
+        lock.unlock();
+      }
+    }
+    Read<T> r = new Read<>(work);
+    queued.add(r);
+    while (!r.done) {
+      LockSupport.parkNanos(r, 1_000_000);
+      if (!r.done && lock.tryLock()) {
+        try {
+          serveQueued();
+        } finally {
+          lock.unlock();
+        }
+      }
+    }
+    if (r.failure != null) {
+      throw r.failure;
+    }
+    return r.result;
+  }
+
+  /** Serves the reads left in the queue; under the lock. */
+  private void serveQueued() {
+    Read<?> r;
+    while ((r = queued.poll()) != null) {
+      r.run();
+    }
+  }
+
+  /**
+   * Takes the lock on the runner's thread: a reader holds it for microseconds, so spin rather than
+   * sleep (a sleeping runner's thread waits for the scheduler to run it again).
+   */
+  private void acquire() {
+    for (int spins = 0; !lock.tryLock(); spins++) {
+      if (spins > 100_000) {
+        lock.lock(); // a reader taken off its CPU while holding the lock: wait in the queue after all
+        return;
+      }
+      Thread.onSpinWait();
     }
   }
 
@@ -61,7 +226,15 @@ public final class PipelineProcessor implements PartitionProcessor {
   public void process(long offset, long timestampMillis, byte[] key, byte[] value, Emitter out) {
     byte[] v = value == null ? EMPTY : value;
     sink.bind(out, key, v, offset);
-    step.process(v, 0, v.length, timestampMillis, partition, offset, sink);
+    acquire();
+    try {
+      step.process(v, 0, v.length, timestampMillis, partition, offset, sink);
+      if (!queued.isEmpty()) {
+        serveQueued();
+      }
+    } finally {
+      lock.unlock();
+    }
   }
 
   /** The reject for a record whose processing threw, in the format of every reject; the step is not touched. */
@@ -73,7 +246,12 @@ public final class PipelineProcessor implements PartitionProcessor {
 
   @Override
   public byte[] checkpoint() {
-    return step.checkpoint();
+    acquire(); // writing the model applies its pending re-basing: not while a reader reads
+    try {
+      return step.checkpoint();
+    } finally {
+      lock.unlock();
+    }
   }
 
   /** Turns the step's outcomes into output records. Reused for every record. */

@@ -55,6 +55,12 @@ public final class WebView implements AutoCloseable {
     if (System.getProperty("sun.net.httpserver.maxRspTime") == null) {
       System.setProperty("sun.net.httpserver.maxRspTime", Long.toString(MAX_RESPONSE_SECONDS));
     }
+    // the server writes a response's headers and its body as two segments; with Nagle's algorithm the body
+    // waits for the client's delayed ACK of the headers (about 40 ms on Linux): measured p90 45 ms for a
+    // forecast before this, about 1 ms after (ServiceBenchmark, docs/performance.md)
+    if (System.getProperty("sun.net.httpserver.nodelay") == null) {
+      System.setProperty("sun.net.httpserver.nodelay", "true");
+    }
   }
 
   private static final ObjectMapper JSON = new ObjectMapper();
@@ -65,10 +71,22 @@ public final class WebView implements AutoCloseable {
   private final LiveState state;
   private final byte[] page;
   private final Set<String> allowedHosts = new HashSet<>();
+  private final WebAccess access;
+  private final Service service;
+  private final ServiceMetrics metrics;
 
-  private WebView(HttpServer server, LiveState state, String bind, List<String> allowedHosts) {
+  /** Largest {@code /forecast} body, in bytes (413 beyond). */
+  static final int MAX_FORECAST_BODY_BYTES = 1 << 20;
+  /** Most records in one {@code /forecast} request (413 beyond). */
+  static final int MAX_FORECAST_RECORDS = 1000;
+
+  private WebView(HttpServer server, LiveState state, String bind, List<String> allowedHosts, WebAccess access, Service service,
+                  ServiceMetrics metrics) {
     this.server = server;
     this.state = state;
+    this.access = access;
+    this.service = service;
+    this.metrics = metrics;
     this.page = loadPage();
     this.allowedHosts.addAll(LOOPBACK_NAMES);
     this.allowedHosts.add(bind.toLowerCase(Locale.ROOT));
@@ -85,6 +103,10 @@ public final class WebView implements AutoCloseable {
     server.setExecutor(pool);
     server.createContext("/", this::page);
     server.createContext("/api/state", this::api);
+    server.createContext("/health", this::health);
+    server.createContext("/ready", this::ready);
+    server.createContext("/metrics", this::metrics);
+    server.createContext("/forecast", this::forecast);
   }
 
   /**
@@ -107,6 +129,21 @@ public final class WebView implements AutoCloseable {
    */
   public static WebView start(String bind, int port, boolean fallBackToFreePort, List<String> allowedHosts, LiveState state)
       throws IOException {
+    return start(bind, port, fallBackToFreePort, allowedHosts, state, WebAccess.open(), null, null);
+  }
+
+  /**
+   * As {@link #start(String, int, boolean, List, LiveState)}, also serving {@code /health}, {@code /ready},
+   * {@code /metrics} and {@code /forecast} for a pipeline running in this process (docs/operations.md), with
+   * a bearer token when {@code access} has one.
+   *
+   * @param access the token; without one only a loopback address may be bound
+   * @param service the running pipeline; null: those four routes answer 404
+   * @param metrics its metrics (made before the runner starts); null with a null service
+   * @throws IllegalArgumentException when {@code bind} is not a loopback address and there is no token (names web.bind)
+   */
+  public static WebView start(String bind, int port, boolean fallBackToFreePort, List<String> allowedHosts, LiveState state,
+                              WebAccess access, Service service, ServiceMetrics metrics) throws IOException {
     InetSocketAddress address = bindAddress(bind, port);
     HttpServer s;
     try {
@@ -122,7 +159,13 @@ public final class WebView implements AutoCloseable {
       }
       s = HttpServer.create(new InetSocketAddress(address.getAddress(), 0), 16);
     }
-    WebView v = new WebView(s, state, bind, allowedHosts);
+    try {
+      access.checkBind(bind, address);
+    } catch (IllegalArgumentException e) {
+      s.stop(0);
+      throw e;
+    }
+    WebView v = new WebView(s, state, bind, allowedHosts, access, service, metrics);
     s.start();
     return v;
   }
@@ -183,8 +226,25 @@ public final class WebView implements AutoCloseable {
     return false;
   }
 
+  /**
+   * Whether a request may be answered (else 401 or 403 was sent): with a token, the request must carry it
+   * (a page elsewhere that rebinds its DNS name to this machine cannot, so the Host check is not needed); without
+   * one, its Host header must name an allowed host.
+   */
+  private boolean admitted(HttpExchange x) throws IOException {
+    if (!access.hasToken()) return hostAllowed(x);
+    if (access.allows(x.getRequestHeaders().getFirst("Authorization"))) return true;
+    x.getResponseHeaders().set("WWW-Authenticate", "Bearer realm=\"runnel\"");
+    sendAny(x, 401, "text/plain; charset=utf-8", ("this server needs the bearer token: send the header"
+        + " `Authorization: Bearer <token>` (the token is the value of " + WebAccess.TOKEN_ENV + " or of the file named by"
+        + " web.token_file where the pipeline runs)\n").getBytes(StandardCharsets.UTF_8));
+    return false;
+  }
+
   private void page(HttpExchange x) throws IOException {
-    if (!hostAllowed(x)) return;
+    // the page itself holds no data (it asks /api/state, which needs the token when there is one), so it is
+    // served without the token: a browser cannot add the header to a navigation; the page asks for it
+    if (!access.hasToken() && !hostAllowed(x)) return;
     if (!x.getRequestURI().getPath().equals("/") && !x.getRequestURI().getPath().equals("/index.html")) {
       send(x, 404, "text/plain; charset=utf-8", "not found; the page is at /\n".getBytes(StandardCharsets.UTF_8));
       return;
@@ -193,9 +253,161 @@ public final class WebView implements AutoCloseable {
   }
 
   private void api(HttpExchange x) throws IOException {
-    if (!hostAllowed(x)) return;
+    if (!admitted(x)) return;
     byte[] body = JSON.writeValueAsBytes(state.stateJson());
     send(x, 200, "application/json", body);
+  }
+
+  /**
+   * {@code /health}: 200 while the process serves and the runner has not stopped on an error, else 503. No
+   * token and no Host check: it tells nothing but that.
+   */
+  private void health(HttpExchange x) throws IOException {
+    String failure = service == null ? null : service.runner().failure();
+    if (failure == null) {
+      send(x, 200, "text/plain; charset=utf-8", "ok\n".getBytes(StandardCharsets.UTF_8));
+    } else {
+      send(x, 503, "text/plain; charset=utf-8", "the runner stopped on an error; see the log\n".getBytes(StandardCharsets.UTF_8));
+    }
+  }
+
+  /** {@code /ready}: 200 when the partitions are assigned and restored, else 503 saying why. */
+  private void ready(HttpExchange x) throws IOException {
+    if (!admitted(x) || !served(x)) return;
+    String why = service.runner().notReady();
+    if (why == null) {
+      int n = service.runner().heldPartitions().size();
+      send(x, 200, "text/plain; charset=utf-8", ("ready: " + n + " partition(s) held and restored\n").getBytes(StandardCharsets.UTF_8));
+    } else {
+      send(x, 503, "text/plain; charset=utf-8", ("not ready: " + why + "\n").getBytes(StandardCharsets.UTF_8));
+    }
+  }
+
+  /** {@code /metrics}: the Prometheus text exposition format ({@link ServiceMetrics}). */
+  private void metrics(HttpExchange x) throws IOException {
+    if (!admitted(x) || !served(x)) return;
+    send(x, 200, metrics.contentType(), metrics.scrape());
+  }
+
+  /** False (and 404 sent) when no pipeline runs in this process. */
+  private boolean served(HttpExchange x) throws IOException {
+    if (service != null && metrics != null) return true;
+    send(x, 404, "text/plain; charset=utf-8", "no pipeline runs in this process\n".getBytes(StandardCharsets.UTF_8));
+    return false;
+  }
+
+  /**
+   * {@code POST /forecast}: one record (a JSON object) or a JSON array of records, each without its target;
+   * answers each with the forecast of the partition that owns its key (docs/operations.md, "Forecasts on
+   * request"). One record: its answer object with the answer's status. An array: an array of answers, with
+   * 400 when any record was bad, else 503 when any partition was not ready, else 421 when any partition is
+   * held elsewhere, else 200.
+   */
+  private void forecast(HttpExchange x) throws IOException {
+    if (!admitted(x) || !served(x)) return;
+    try {
+      answerForecast(x);
+    } catch (RuntimeException e) {
+      // a defect, not bad input (that is a 400): said without the record, whose text may be anything
+      sendAny(x, 500, "text/plain; charset=utf-8", ("the forecast failed (" + e.getClass().getName() + "); the stream is not"
+          + " affected; see the log\n").getBytes(StandardCharsets.UTF_8));
+      org.slf4j.LoggerFactory.getLogger(WebView.class).warn("a forecast request failed", e);
+    }
+  }
+
+  private void answerForecast(HttpExchange x) throws IOException {
+    if (!"POST".equals(x.getRequestMethod())) {
+      x.getResponseHeaders().set("Allow", "POST");
+      sendAny(x, 405, "text/plain; charset=utf-8", "only POST, with one JSON record or an array of them\n"
+          .getBytes(StandardCharsets.UTF_8));
+      return;
+    }
+    byte[] body;
+    try (InputStream in = x.getRequestBody()) {
+      body = in.readNBytes(MAX_FORECAST_BODY_BYTES + 1);
+    }
+    if (body.length > MAX_FORECAST_BODY_BYTES) {
+      sendAny(x, 413, "text/plain; charset=utf-8", ("the body is larger than " + MAX_FORECAST_BODY_BYTES
+          + " bytes; send fewer records per request\n").getBytes(StandardCharsets.UTF_8));
+      return;
+    }
+    long arrival = System.currentTimeMillis();
+    int first = 0;
+    while (first < body.length && (body[first] == ' ' || body[first] == '\n' || body[first] == '\r' || body[first] == '\t')) {
+      first++;
+    }
+    java.io.ByteArrayOutputStream out = new java.io.ByteArrayOutputStream(256);
+    int code;
+    try (com.fasterxml.jackson.core.JsonGenerator g = JSON.getFactory().createGenerator(out)) {
+      if (first < body.length && body[first] == '[') {
+        com.fasterxml.jackson.databind.JsonNode list;
+        try {
+          list = JSON.readTree(body);
+        } catch (IOException e) {
+          list = null;
+        }
+        if (list == null || !list.isArray()) {
+          writeAnswer(g, new Service.Answer(Service.Outcome.REJECTED, -1, "malformed_json",
+              "the body starts with [ but is not a JSON array", null));
+          code = 400;
+        } else if (list.size() > MAX_FORECAST_RECORDS) {
+          sendAny(x, 413, "text/plain; charset=utf-8", ("more than " + MAX_FORECAST_RECORDS + " records in one request ("
+              + list.size() + "); send them in several\n").getBytes(StandardCharsets.UTF_8));
+          return;
+        } else {
+          boolean rejected = false;
+          boolean notReady = false;
+          boolean notHeld = false;
+          g.writeStartArray();
+          for (com.fasterxml.jackson.databind.JsonNode item : list) {
+            Service.Answer a = service.forecast(JSON.writeValueAsBytes(item), arrival);
+            rejected |= a.outcome() == Service.Outcome.REJECTED;
+            notReady |= a.outcome() == Service.Outcome.NOT_READY;
+            notHeld |= a.outcome() == Service.Outcome.NOT_HELD;
+            writeAnswer(g, a);
+          }
+          g.writeEndArray();
+          code = rejected ? 400 : notReady ? 503 : notHeld ? 421 : 200;
+        }
+      } else {
+        Service.Answer a = service.forecast(body, arrival);
+        writeAnswer(g, a);
+        code = a.outcome().httpStatus();
+      }
+    }
+    out.write('\n');
+    sendAny(x, code, "application/json", out.toByteArray());
+  }
+
+  private static void writeAnswer(com.fasterxml.jackson.core.JsonGenerator g, Service.Answer a) throws IOException {
+    g.writeStartObject();
+    g.writeNumberField("status", a.outcome().httpStatus());
+    if (a.partition() >= 0) {
+      g.writeNumberField("partition", a.partition());
+    } else {
+      g.writeNullField("partition");
+    }
+    switch (a.outcome()) {
+      case FORECAST -> {
+        g.writeFieldName("prediction");
+        g.writeRawValue(new String(a.prediction(), StandardCharsets.UTF_8));
+      }
+      case REJECTED -> {
+        g.writeStringField("reason", a.reason());
+        g.writeStringField("detail", a.detail());
+      }
+      default -> g.writeStringField("detail", a.detail());
+    }
+    g.writeEndObject();
+  }
+
+  private static void sendAny(HttpExchange x, int code, String type, byte[] body) throws IOException {
+    x.getResponseHeaders().set("Content-Type", type);
+    x.getResponseHeaders().set("Cache-Control", "no-store");
+    x.sendResponseHeaders(code, body.length);
+    try (OutputStream out = x.getResponseBody()) {
+      out.write(body);
+    }
   }
 
   private static void send(HttpExchange x, int code, String type, byte[] body) throws IOException {

@@ -159,6 +159,8 @@ public final class ConfigKeys {
   public static final ConfigKey<String> WEB_BIND = add(ConfigKey.text("web", "bind", "127.0.0.1", "use an IP address of this machine (127.0.0.1, ::1, 0.0.0.0 for all) or its host name"));
   public static final ConfigKey<Integer> WEB_PORT = add(ConfigKey.wholeInt("web", "port", 8642, 0, 65535));
   public static final ConfigKey<?> WEB_ALLOWED_HOSTS = add(ConfigKey.structured("web", "allowed_hosts", "list", "[]"));
+  public static final ConfigKey<String> WEB_TOKEN_FILE = add(ConfigKey.text("web", "token_file", "", "a path to a file that holds the bearer token on one line"));
+  public static final ConfigKey<String> WEB_FORECAST_KEY_FIELD = add(ConfigKey.text("web", "forecast_key_field", "", "a text field of input.fields: the one the producers key records by"));
 
   /** Every key, in the order docs/configuration.md lists them. */
   public static List<ConfigKey<?>> all() { return Collections.unmodifiableList(ALL); }

@@ -773,7 +773,9 @@ public final class ConfigLoader {
           hosts.add(v);
         }
       }
-      return new PipelineConfig.Web(enabled, bind, port, hosts);
+      String tokenFile = ConfigKeys.WEB_TOKEN_FILE.read(w);
+      String keyField = ConfigKeys.WEB_FORECAST_KEY_FIELD.read(w);
+      return new PipelineConfig.Web(enabled, bind, port, hosts, tokenFile, keyField);
     }
   }
 }

@@ -199,9 +199,19 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    *
    * @param allowedHosts host names a request's {@code Host} header may name besides the loopback
    *     names ({@code localhost}, {@code 127.0.0.1}, {@code ::1}); lower case; copied
+   * @param tokenFile a file holding the bearer token the web server asks for; "" = none (the environment
+   *     variable {@code RUNNEL_WEB_TOKEN} may give it instead)
+   * @param forecastKeyField the text field whose value is a record's Kafka key, for {@code /forecast}; "" = the
+   *     first of {@code input.forecast.entity_fields}
    */
-  public record Web(boolean enabled, String bind, int port, java.util.List<String> allowedHosts) {
+  public record Web(boolean enabled, String bind, int port, java.util.List<String> allowedHosts, String tokenFile,
+                    String forecastKeyField) {
     public Web { allowedHosts = java.util.List.copyOf(allowedHosts); }
+
+    /** No token file, the forecast key field by default. */
+    public Web(boolean enabled, String bind, int port, java.util.List<String> allowedHosts) {
+      this(enabled, bind, port, allowedHosts, "", "");
+    }
 
     /** No host names beyond the loopback ones. */
     public Web(boolean enabled, String bind, int port) { this(enabled, bind, port, java.util.List.of()); }
