@@ -318,7 +318,8 @@ public final class ConfigLoader {
       PipelineConfig.Web web = web(sectionOrEmpty(top, "web"));
       PipelineConfig.Drift drift = drift(sectionOrEmpty(top, "drift"));
       warnAboutTime(top.section("input"), input, features);
-      return new PipelineConfig(name, input, target, features, model, outputs, kafka, web, source, drift, warnings);
+      PipelineConfig.TargetScale targetScale = targetScale(sectionOrEmpty(top, "model"));
+      return new PipelineConfig(name, input, target, features, model, outputs, kafka, web, source, drift, warnings, targetScale);
     }
 
     /**
@@ -647,6 +648,14 @@ public final class ConfigLoader {
       double level = ConfigKeys.INTERVAL_LEVEL.read(m);
       double noise = ConfigKeys.NOISE_HALF_LIFE_RECORDS.read(m);
       return new PipelineConfig.Model(constant, prior, diffuse, factor, halfLife, towardsPrior, level, noise);
+    }
+
+    /** The target's keys of the {@code model} section (docs/model.md, "Transformed target"). */
+    private PipelineConfig.TargetScale targetScale(Section m) {
+      TargetTransform transform = ConfigKeys.TARGET_TRANSFORM.read(m);
+      TargetPoint point = ConfigKeys.TARGET_POINT.read(m);
+      boolean nonNegative = ConfigKeys.TARGET_NON_NEGATIVE.read(m);
+      return new PipelineConfig.TargetScale(transform, point, nonNegative);
     }
 
     private PipelineConfig.Outputs outputs(Section o) {

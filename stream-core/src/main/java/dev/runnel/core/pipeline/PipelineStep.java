@@ -81,6 +81,11 @@ public final class PipelineStep {
   public static final int CHECKPOINT_VERSION = 4;
   private static final int CHECKPOINT_VERSION_WITHOUT_FORECASTS = 3;
   private static final int CHECKPOINT_MAGIC = 0x524E4C43; // "RNLC"
+  /**
+   * Reject counters a version-4 checkpoint holds (the reasons up to {@code processing_failed},
+   * which the step never counts, so its counter was always 0 and may be read as the reason now there).
+   */
+  private static final int REJECT_COUNTERS_OF_VERSION_4 = 15;
 
   private final PipelineConfig config;
   private final JsonRecordDecoder decoder;
@@ -93,6 +98,8 @@ public final class PipelineStep {
   private final StreamClock clock;
   private final Prediction prediction = new Prediction();
   private final int targetSlot;
+  /** {@code model.target_transform}: the model's scale of the target and the way back. */
+  private final TargetScaling targetScaling;
   private final long configFingerprint;
   /** {@code input.forecast}: null when absent (target time = event time, nothing remembered). */
   private final PendingForecasts pending;
@@ -138,6 +145,7 @@ public final class PipelineStep {
     PipelineConfig.Clock c = in.clock();
     this.clock = new StreamClock(c.maxAheadMillis(), c.confirmRecords(), m.forgettingFactor(), m.forgettingHalfLifeMillis());
     this.targetSlot = config.targetSlot();
+    this.targetScaling = new TargetScaling(config.targetScale());
     this.row = new double[Math.max(8, featurizer.maxDimension())];
     this.configFingerprint = fingerprint(config);
     PipelineConfig.Forecast fc = in.forecast();
@@ -230,6 +238,11 @@ public final class PipelineStep {
       reject(reason, featurizer.lastDetail(), sink);
       return;
     }
+    if (hasTarget && !targetScaling.identity && !targetScaling.accepts(record.number(targetSlot))) {
+      reject(RejectReason.TARGET_OUT_OF_DOMAIN, "field " + config.target() + " (the target): "
+          + record.number(targetSlot) + " is outside the target's domain; " + targetScaling.domain(), sink);
+      return;
+    }
     // the time whose value is forecast or reported: the target-time field, else the event time
     long target = t;
     if (pending != null) {
@@ -258,6 +271,8 @@ public final class PipelineStep {
       }
     }
     double y = hasTarget ? record.number(targetSlot) : Double.NaN;
+    // the model learns, predicts and is checked for drift in its own scale (model.target_transform)
+    double yModel = targetScaling.identity || !hasTarget ? y : targetScaling.forward(y);
     ensureRow();
     Prediction p = prediction;
     p.eventTimeMillis = t;
@@ -287,7 +302,7 @@ public final class PipelineStep {
       // the prediction and its interval are the a priori ones (the model before this record's
       // target, noise sd before this record); the update gives the prediction and the leverage
       // from its own rotations, so no triangular solve is needed
-      if (!model.update(row, y, clock.lambda(), aPriori)) {
+      if (!model.update(row, yModel, clock.lambda(), aPriori)) {
         reject(RejectReason.MODEL_REFUSED,
             "the update would have made the model's state non-finite; the model is unchanged", sink);
         return;
@@ -302,12 +317,19 @@ public final class PipelineStep {
       p.predicted = aPriori[1];
       half = model.settings().intervalZ() * noiseBefore * Math.sqrt(1.0 + aPriori[0]);
     }
+    double centre = p.predicted;
     if (Double.isNaN(half)) {
       p.low = Double.NaN;
       p.high = Double.NaN;
-    } else {
+    } else if (targetScaling.identity) {
       p.low = p.predicted - half;
       p.high = p.predicted + half;
+    } else {
+      // back to the target's units: the transform is monotone, so the interval's ends are the
+      // back-transformed ends (the same quantiles); the point is the median or the mean
+      p.predicted = targetScaling.point(centre, half / model.settings().intervalZ());
+      p.low = targetScaling.back(centre - half);
+      p.high = targetScaling.back(centre + half);
     }
     records++;
     if (hasTarget) {
@@ -315,7 +337,7 @@ public final class PipelineStep {
       if (p.status == Prediction.Status.SCORED) {
         metrics.add(y - p.predicted, p.covered());
         // the a priori error and its predictive sd s·√(1 + xᵀPx) = half-width / z
-        drift.observeError(y - p.predicted, half / model.settings().intervalZ(), model.noiseSd(), t, trained);
+        drift.observeError(yModel - centre, half / model.settings().intervalZ(), model.noiseSd(), t, trained);
       }
     } else {
       forecasts++;
@@ -561,9 +583,15 @@ public final class PipelineStep {
       out.writeLong(forecasts);
       out.writeLong(warmingUp);
       out.writeLong(rejected);
-      out.writeInt(rejectCounts.length);
-      for (long c : rejectCounts) {
-        out.writeLong(c);
+      // the counters in reason order; those of reasons added after version 4 that are still 0 at
+      // the end are left out, so a new reason costs no byte until it occurs (restore reads any count)
+      int counters = rejectCounts.length;
+      while (counters > REJECT_COUNTERS_OF_VERSION_4 && rejectCounts[counters - 1] == 0) {
+        counters--;
+      }
+      out.writeInt(counters);
+      for (int i = 0; i < counters; i++) {
+        out.writeLong(rejectCounts[i]);
       }
       out.writeLong(trainedAtLastSnapshot);
       out.writeLong(periodOfLastSnapshot);
@@ -616,6 +644,7 @@ public final class PipelineStep {
       warmingUp = in.readLong();
       rejected = in.readLong();
       int n = in.readInt();
+      Arrays.fill(rejectCounts, 0);
       for (int i = 0; i < n; i++) {
         long c = in.readLong();
         if (i < rejectCounts.length) {
@@ -669,6 +698,9 @@ public final class PipelineStep {
   private static long fingerprint(PipelineConfig c) {
     String text = c.input().schema() + "|" + c.target() + "|" + c.features() + "|" + c.model()
         + "|" + c.input().timeZone();
+    if (!c.targetScale().isNone()) {
+      text += "|" + c.targetScale(); // absent by default, so a checkpoint's fingerprint is as before
+    }
     byte[] b = text.getBytes(StandardCharsets.UTF_8);
     long h = 0xcbf29ce484222325L;
     for (byte x : b) {
