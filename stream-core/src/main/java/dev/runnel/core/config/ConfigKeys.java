@@ -110,6 +110,15 @@ public final class ConfigKeys {
   public static final ConfigKey<?> CROSS_OF = add(ConfigKey.structured("features.cross", "of", "list of two texts", "required"));
   public static final ConfigKey<?> CROSS_NAME = add(ConfigKey.structured("features.cross", "name", "text", "`<a>*<b>`"));
 
+  // ---- features: kind bends ----
+  public static final ConfigKey<?> BENDS_FIELD = add(ConfigKey.structured("features.bends", "field", "text", "required"));
+  public static final ConfigKey<?> BENDS_NAME = add(ConfigKey.structured("features.bends", "name", "text", "the field name"));
+  public static final ConfigKey<BendBasis> BENDS_BASIS = add(ConfigKey.choice("features.bends", "basis", BendBasis.HINGE, BendBasis.values(), BendBasis::word));
+  public static final ConfigKey<?> BENDS_KNOTS = add(ConfigKey.structured("features.bends", "knots", "list of numbers", "required"));
+  public static final ConfigKey<Scaling> BENDS_SCALING = add(ConfigKey.choice("features.bends", "scaling", Scaling.STANDARDIZE, Scaling.values(), Scaling::word));
+  public static final ConfigKey<Double> BENDS_WEIGHTING = add(ConfigKey.number("features.bends", "weighting_half_life_records", 0, 0, false, 1.0e15, false, WEIGHTING_ALLOWED));
+  public static final ConfigKey<Double> BENDS_CLIP = add(ConfigKey.number("features.bends", "clip", 0, 0, false, 1.0e6, false, CLIP_ALLOWED));
+
   // ---- model ----
   static final String PRIOR_ALLOWED = "use a number greater than 0, or the word no_prior";
   public static final ConfigKey<Boolean> CONSTANT_TERM = add(ConfigKey.flag("model", "constant_term", ModelSettings.DEFAULT_CONSTANT_TERM));

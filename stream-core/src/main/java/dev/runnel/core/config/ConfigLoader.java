@@ -39,7 +39,10 @@ import java.util.regex.Pattern;
 public final class ConfigLoader {
 
   private static final Pattern NAME = Pattern.compile("[a-z0-9][a-z0-9._-]{0,63}");
-  private static final String FEATURE_KINDS = "onehot, cyclic, numeric, polynomial, cross";
+  private static final String FEATURE_KINDS = "onehot, cyclic, numeric, polynomial, cross, bends";
+
+  /** The most knots a bends feature may have. */
+  static final int MAX_KNOTS = 64;
 
   private ConfigLoader() { }
 
@@ -582,9 +585,42 @@ public final class ConfigLoader {
           String name = f.has("name") ? name(f, null) : parts.get(0) + "*" + parts.get(1);
           return new FeatureConfig.Cross(name, parts);
         }
+        case "bends": {
+          f.allowScope("features.bends", "kind");
+          String field = field(f, s, target, FieldType.NUMBER, null, "number field");
+          String name = name(f, field);
+          BendBasis basis = ConfigKeys.BENDS_BASIS.read(f);
+          List<Double> knots = knots(f, basis);
+          Scaling sc = scaling(f, model, ConfigKeys.BENDS_SCALING);
+          double hl = ConfigKeys.BENDS_WEIGHTING.read(f);
+          double clip = ConfigKeys.BENDS_CLIP.read(f);
+          return new FeatureConfig.Bends(name, field, basis, knots, sc, hl, clip);
+        }
         default:
           throw notAllowed(f.p("kind"), f.get("kind"), "use one of " + FEATURE_KINDS);
       }
+    }
+
+    /** The knots of a bends feature: finite numbers in increasing order, each once; enough for the basis. */
+    private List<Double> knots(Section f, BendBasis basis) {
+      int least = basis == BendBasis.NATURAL_SPLINE ? 3 : 1;
+      String example = basis == BendBasis.NATURAL_SPLINE ? "[0, 10, 20]" : "[10, 20]";
+      String allowed = "list " + least + " to " + MAX_KNOTS + " numbers in increasing order, each once (basis "
+          + basis.word() + "), e.g. knots: " + example;
+      if (!f.has("knots")) throw missing(f.p("knots"), allowed);
+      JsonNode list = f.get("knots");
+      if (!list.isArray() || list.size() < least || list.size() > MAX_KNOTS) throw notAllowed(f.p("knots"), list, allowed);
+      List<Double> out = new ArrayList<>();
+      for (int i = 0; i < list.size(); i++) {
+        JsonNode k = list.get(i);
+        if (!k.isNumber() || !Double.isFinite(k.asDouble())) throw notAllowed(f.p("knots") + "[" + i + "]", k, "use a finite number; " + allowed);
+        double v = k.asDouble();
+        if (i > 0 && !(v > out.get(i - 1))) {
+          throw notAllowed(f.p("knots"), list, "knot " + i + " (" + k.asText() + ") is not greater than the one before it; " + allowed);
+        }
+        out.add(v);
+      }
+      return out;
     }
 
     private Scaling scaling(Section f, PipelineConfig.Model model, ConfigKey<Scaling> key) {

@@ -52,6 +52,19 @@ public sealed interface FeatureConfig {
     @Override public String kind() { return "polynomial"; }
   }
 
+  /**
+   * A curve in a raw number field with bends at given knots ({@code kind: bends}): the field itself
+   * and one column per basis function, each scaled on its own.
+   *
+   * @param knots strictly increasing, finite; at least 1 for a hinge basis, 3 for a natural spline
+   */
+  record Bends(String name, String field, BendBasis basis, List<Double> knots, Scaling scaling,
+               double weightingHalfLifeRecords, double clip) implements FeatureConfig {
+    /** Copies the list. */
+    public Bends { knots = List.copyOf(knots); }
+    @Override public String kind() { return "bends"; }
+  }
+
   /** The products of every column of feature {@code of.get(0)} with every column of {@code of.get(1)}. */
   record Cross(String name, List<String> of) implements FeatureConfig {
     /** Copies the list. */
