@@ -119,6 +119,15 @@ public final class ConfigKeys {
   public static final ConfigKey<Double> BENDS_WEIGHTING = add(ConfigKey.number("features.bends", "weighting_half_life_records", 0, 0, false, 1.0e15, false, WEIGHTING_ALLOWED));
   public static final ConfigKey<Double> BENDS_CLIP = add(ConfigKey.number("features.bends", "clip", 0, 0, false, 1.0e6, false, CLIP_ALLOWED));
 
+  // ---- features: kind special_days ----
+  public static final ConfigKey<?> SPECIAL_NAME = add(ConfigKey.structured("features.special_days", "name", "text", "`special_day`"));
+  public static final ConfigKey<?> SPECIAL_DATES = add(ConfigKey.structured("features.special_days", "dates", "list of dates", "[]"));
+  public static final ConfigKey<?> SPECIAL_DATES_FILE = add(ConfigKey.structured("features.special_days", "dates_file", "text", "absent"));
+  public static final ConfigKey<?> SPECIAL_HOLIDAY_COUNTRY = add(ConfigKey.structured("features.special_days", "holiday_country", "text", "absent"));
+  public static final ConfigKey<?> SPECIAL_HOLIDAY_REGION = add(ConfigKey.structured("features.special_days", "holiday_region", "text", "absent"));
+  public static final ConfigKey<Integer> SPECIAL_DAYS_BEFORE = add(ConfigKey.wholeInt("features.special_days", "days_before", 0, 0, 7));
+  public static final ConfigKey<Integer> SPECIAL_DAYS_AFTER = add(ConfigKey.wholeInt("features.special_days", "days_after", 0, 0, 7));
+
   // ---- model ----
   static final String PRIOR_ALLOWED = "use a number greater than 0, or the word no_prior";
   public static final ConfigKey<Boolean> CONSTANT_TERM = add(ConfigKey.flag("model", "constant_term", ModelSettings.DEFAULT_CONSTANT_TERM));
