@@ -67,6 +67,13 @@ class TargetTransformTest {
       } else {
         assertTrue(nd.cumulativeProbability(0) >= lo - 1e-12, "a bound at 0 only where P(Z <= 0) reaches the lower tail");
       }
+      // and directly: Commons Math NormalDistribution quantiles, transformed by hand
+      double qLo = nd.inverseCumulativeProbability(lo);
+      double qHi = nd.inverseCumulativeProbability(hi);
+      assertEquals(Math.expm1(qLo), log1p.back(mu - z * s), 1e-9 * (1 + Math.exp(mu + 3 * s)));
+      assertEquals(Math.expm1(qHi), log1p.back(mu + z * s), 1e-9 * (1 + Math.exp(mu + 3 * s)));
+      assertEquals(qLo > 0 ? qLo * qLo : 0.0, sqrt.back(mu - z * s), 1e-9 * (1 + qHi * qHi));
+      assertEquals(qHi > 0 ? qHi * qHi : 0.0, sqrt.back(mu + z * s), 1e-9 * (1 + qHi * qHi));
       double median = Math.max(0, nd.inverseCumulativeProbability(0.5));
       assertEquals(median * median, sqrt.point(mu, s), 1e-9 * (1 + mu * mu));
     }
