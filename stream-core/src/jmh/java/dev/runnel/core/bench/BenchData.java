@@ -31,6 +31,37 @@ final class BenchData {
     return ConfigLoader.load(root().resolve("demo-data/src/main/resources/dev/runnel/demo/quillmarsh.yaml"));
   }
 
+  /**
+   * The demo configuration with one of the feature kinds or target options of issue 16 added (the
+   * demo's own features unchanged): {@code demo_hinge} (bends at 5 and 18 °C), {@code demo_spline}
+   * (a natural spline with knots 0, 8, 16, 24 °C), {@code demo_holidays} (Dutch public holidays
+   * with a day before and after), {@code demo_log1p} (the target learned as ln(1 + sessions), a count).
+   */
+  static PipelineConfig demoConfigWith(String variant) {
+    return ConfigLoader.parse(demoYamlWith(variant), variant);
+  }
+
+  /** The YAML of {@link #demoConfigWith}. */
+  static String demoYamlWith(String variant) {
+    String yaml;
+    try {
+      yaml = Files.readString(root().resolve("demo-data/src/main/resources/dev/runnel/demo/quillmarsh.yaml"));
+    } catch (IOException e) {
+      throw new UncheckedIOException("run from the repository root or pass -Drunnel.root=<path>", e);
+    }
+    String feature;
+    switch (variant) {
+      case "demo_hinge": feature = "  - {kind: bends, name: temp_bends, field: temperature_c, knots: [5, 18]}\n"; break;
+      case "demo_spline": feature = "  - {kind: bends, name: temp_spline, field: temperature_c, basis: natural_spline, knots: [0, 8, 16, 24]}\n"; break;
+      case "demo_holidays": feature = "  - {kind: special_days, name: holiday, holiday_country: nl, days_before: 1, days_after: 1}\n"; break;
+      case "demo_log1p": feature = ""; break;
+      default: throw new IllegalArgumentException("no demo variant " + variant);
+    }
+    String model = variant.equals("demo_log1p") ? "model:\n  target_transform: log1p\n  target_non_negative: true\n" : "model:\n";
+    if (!yaml.contains("\nmodel:\n")) throw new IllegalStateException("the demo configuration no longer has a model section");
+    return yaml.replace("\nmodel:\n", "\n" + feature + model);
+  }
+
   /** The invented demo sample feed, one JSON document per line. */
   static List<byte[]> demoRecords() {
     try {

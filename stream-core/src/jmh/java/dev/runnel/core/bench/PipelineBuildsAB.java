@@ -28,7 +28,10 @@ import java.util.Locale;
  * }</pre>
  * Options: {@code --a PATH}, {@code --b PATH} (class folders or jars holding
  * {@code dev.runnel.core}), {@code --config FILE} (the demo configuration), {@code --records FILE}
- * (the demo sample), {@code --slices N} (16), {@code --label TEXT}, {@code --append FILE}.
+ * (the demo sample), {@code --slices N} (16), {@code --label TEXT}, {@code --append FILE},
+ * {@code --variant-b NAME} (B runs the demo configuration with one new kind added,
+ * {@link BenchData#demoConfigWith}, e.g. {@code demo_hinge}; with {@code --a} and {@code --b} the
+ * same build this is the kind's cost per record beside the demo's).
  */
 public final class PipelineBuildsAB {
 
@@ -42,6 +45,7 @@ public final class PipelineBuildsAB {
     int slices = 16;
     String label = "demo";
     Path append = null;
+    String variantB = null;
     for (int i = 0; i < args.length; i++) {
       switch (args[i]) {
         case "--a" -> a = args[++i];
@@ -51,8 +55,9 @@ public final class PipelineBuildsAB {
         case "--slices" -> slices = Integer.parseInt(args[++i]);
         case "--label" -> label = args[++i];
         case "--append" -> append = Path.of(args[++i]);
+        case "--variant-b" -> variantB = args[++i];
         default -> throw new IllegalArgumentException("unknown option " + args[i]
-            + "; allowed: --a PATH, --b PATH, --config FILE, --records FILE, --slices N, --label TEXT, --append FILE");
+            + "; allowed: --a PATH, --b PATH, --config FILE, --records FILE, --slices N, --label TEXT, --append FILE, --variant-b NAME");
       }
     }
     if (a == null || b == null) {
@@ -61,7 +66,8 @@ public final class PipelineBuildsAB {
     String yaml = Files.readString(config);
     byte[][] recs = Files.readAllLines(records).stream().filter(l -> !l.isBlank())
         .map(l -> l.getBytes(StandardCharsets.UTF_8)).toArray(byte[][]::new);
-    Runnable[] run = {driver(a, yaml, recs), driver(b, yaml, recs)};
+    String yamlB = variantB == null ? yaml : BenchData.demoYamlWith(variantB);
+    Runnable[] run = {driver(a, yaml, recs), driver(b, yamlB, recs)};
     PairedSlices.Result r = PairedSlices.measure(run, 1000, 300, slices);
     String line = String.format(Locale.ROOT,
         "%s %s slices=%d: A median %,.0f records/s, B median %,.0f; B/A paired median %.3f [quartiles %.3f, %.3f] (A=%s, B=%s)",

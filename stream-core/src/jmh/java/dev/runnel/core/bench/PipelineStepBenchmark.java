@@ -25,7 +25,8 @@ import org.openjdk.jmh.annotations.Warmup;
  * predict with interval, update), one thread, with a sink that only reads the prediction.
  * {@code demo} is the demo configuration over the recorded invented sample feed (5,235 lines,
  * cycled; at each wrap the event time steps back 6 days, which the step treats as out of order);
- * {@code pN} is a synthetic configuration of width N (see {@link BenchData}).
+ * {@code pN} is a synthetic configuration of width N (see {@link BenchData}); {@code demo_*} is
+ * the demo with one new feature kind or target option added ({@link BenchData#demoConfigWith}).
  *
  * <pre>{@code
  * java -jar stream-core/target/benchmarks.jar PipelineStepBenchmark -prof gc
@@ -39,7 +40,7 @@ import org.openjdk.jmh.annotations.Warmup;
 @Fork(value = 1, jvmArgsAppend = {"-Xmx1g"})
 public class PipelineStepBenchmark {
 
-  @Param({"demo", "p8", "p32", "p128", "p256"})
+  @Param({"demo", "p8", "p32", "p128", "p256", "demo_hinge", "demo_spline", "demo_holidays", "demo_log1p"})
   public String config;
 
   private PipelineStep step;
@@ -71,8 +72,8 @@ public class PipelineStepBenchmark {
   @Setup(Level.Trial)
   public void setup() {
     PipelineConfig c;
-    if (config.equals("demo")) {
-      c = BenchData.demoConfig();
+    if (config.startsWith("demo")) {
+      c = config.equals("demo") ? BenchData.demoConfig() : BenchData.demoConfigWith(config);
       List<byte[]> lines = BenchData.demoRecords();
       records = lines.toArray(new byte[0][]);
       mask = -1;

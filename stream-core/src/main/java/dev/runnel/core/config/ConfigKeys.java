@@ -115,6 +115,24 @@ public final class ConfigKeys {
   public static final ConfigKey<?> CROSS_OF = add(ConfigKey.structured("features.cross", "of", "list of two texts", "required"));
   public static final ConfigKey<?> CROSS_NAME = add(ConfigKey.structured("features.cross", "name", "text", "`<a>*<b>`"));
 
+  // ---- features: kind bends ----
+  public static final ConfigKey<?> BENDS_FIELD = add(ConfigKey.structured("features.bends", "field", "text", "required"));
+  public static final ConfigKey<?> BENDS_NAME = add(ConfigKey.structured("features.bends", "name", "text", "the field name"));
+  public static final ConfigKey<BendBasis> BENDS_BASIS = add(ConfigKey.choice("features.bends", "basis", BendBasis.HINGE, BendBasis.values(), BendBasis::word));
+  public static final ConfigKey<?> BENDS_KNOTS = add(ConfigKey.structured("features.bends", "knots", "list of numbers", "required"));
+  public static final ConfigKey<Scaling> BENDS_SCALING = add(ConfigKey.choice("features.bends", "scaling", Scaling.STANDARDIZE, Scaling.values(), Scaling::word));
+  public static final ConfigKey<Double> BENDS_WEIGHTING = add(ConfigKey.number("features.bends", "weighting_half_life_records", 0, 0, false, 1.0e15, false, WEIGHTING_ALLOWED));
+  public static final ConfigKey<Double> BENDS_CLIP = add(ConfigKey.number("features.bends", "clip", 0, 0, false, 1.0e6, false, CLIP_ALLOWED));
+
+  // ---- features: kind special_days ----
+  public static final ConfigKey<?> SPECIAL_NAME = add(ConfigKey.structured("features.special_days", "name", "text", "`special_day`"));
+  public static final ConfigKey<?> SPECIAL_DATES = add(ConfigKey.structured("features.special_days", "dates", "list of dates", "[]"));
+  public static final ConfigKey<?> SPECIAL_DATES_FILE = add(ConfigKey.structured("features.special_days", "dates_file", "text", "absent"));
+  public static final ConfigKey<?> SPECIAL_HOLIDAY_COUNTRY = add(ConfigKey.structured("features.special_days", "holiday_country", "text", "absent"));
+  public static final ConfigKey<?> SPECIAL_HOLIDAY_REGION = add(ConfigKey.structured("features.special_days", "holiday_region", "text", "absent"));
+  public static final ConfigKey<Integer> SPECIAL_DAYS_BEFORE = add(ConfigKey.wholeInt("features.special_days", "days_before", 0, 0, 7));
+  public static final ConfigKey<Integer> SPECIAL_DAYS_AFTER = add(ConfigKey.wholeInt("features.special_days", "days_after", 0, 0, 7));
+
   // ---- model ----
   static final String PRIOR_ALLOWED = "use a number greater than 0, or the word no_prior";
   public static final ConfigKey<Boolean> CONSTANT_TERM = add(ConfigKey.flag("model", "constant_term", ModelSettings.DEFAULT_CONSTANT_TERM));
@@ -125,6 +143,9 @@ public final class ConfigKeys {
   public static final ConfigKey<Boolean> FORGET_TOWARDS_PRIOR = add(ConfigKey.flag("model", "forget_towards_prior", ModelSettings.DEFAULT_WINDUP_GUARD).formerly("windup_guard"));
   public static final ConfigKey<Double> INTERVAL_LEVEL = add(ConfigKey.number("model", "interval_level", ModelSettings.DEFAULT_INTERVAL_LEVEL, 0, true, 1, true, "use a number between 0 and 1 (both excluded), e.g. 0.9"));
   public static final ConfigKey<Double> NOISE_HALF_LIFE_RECORDS = add(ConfigKey.number("model", "noise_half_life_records", ModelSettings.DEFAULT_NOISE_HALF_LIFE_RECORDS, 0, true, 1.0e15, false, "use a number of records greater than 0"));
+  public static final ConfigKey<TargetTransform> TARGET_TRANSFORM = add(ConfigKey.choice("model", "target_transform", TargetTransform.NONE, TargetTransform.values(), TargetTransform::word));
+  public static final ConfigKey<TargetPoint> TARGET_POINT = add(ConfigKey.choice("model", "target_point", TargetPoint.MEDIAN, TargetPoint.values(), TargetPoint::word));
+  public static final ConfigKey<Boolean> TARGET_NON_NEGATIVE = add(ConfigKey.flag("model", "target_non_negative", false));
 
   // ---- outputs ----
   public static final ConfigKey<Long> SNAPSHOT_EVERY_RECORDS = add(ConfigKey.whole("outputs", "snapshot_every_records", 1000, 0, Long.MAX_VALUE));

@@ -39,7 +39,10 @@ import java.util.regex.Pattern;
 public final class ConfigLoader {
 
   private static final Pattern NAME = Pattern.compile("[a-z0-9][a-z0-9._-]{0,63}");
-  private static final String FEATURE_KINDS = "onehot, cyclic, numeric, polynomial, cross";
+  private static final String FEATURE_KINDS = "onehot, cyclic, numeric, polynomial, cross, bends, special_days";
+
+  /** The most knots a bends feature may have. */
+  static final int MAX_KNOTS = 64;
 
   private ConfigLoader() { }
 
@@ -318,7 +321,8 @@ public final class ConfigLoader {
       PipelineConfig.Web web = web(sectionOrEmpty(top, "web"));
       PipelineConfig.Drift drift = drift(sectionOrEmpty(top, "drift"));
       warnAboutTime(top.section("input"), input, features);
-      return new PipelineConfig(name, input, target, features, model, outputs, kafka, web, source, drift, warnings);
+      PipelineConfig.TargetScale targetScale = targetScale(sectionOrEmpty(top, "model"));
+      return new PipelineConfig(name, input, target, features, model, outputs, kafka, web, source, drift, warnings, targetScale);
     }
 
     /**
@@ -627,9 +631,126 @@ public final class ConfigLoader {
           String name = f.has("name") ? name(f, null) : parts.get(0) + "*" + parts.get(1);
           return new FeatureConfig.Cross(name, parts);
         }
+        case "bends": {
+          f.allowScope("features.bends", "kind");
+          String field = field(f, s, target, FieldType.NUMBER, null, "number field");
+          String name = name(f, field);
+          BendBasis basis = ConfigKeys.BENDS_BASIS.read(f);
+          List<Double> knots = knots(f, basis);
+          Scaling sc = scaling(f, model, ConfigKeys.BENDS_SCALING);
+          double hl = ConfigKeys.BENDS_WEIGHTING.read(f);
+          double clip = ConfigKeys.BENDS_CLIP.read(f);
+          return new FeatureConfig.Bends(name, field, basis, knots, sc, hl, clip);
+        }
+        case "special_days": {
+          f.allowScope("features.special_days", "kind");
+          return specialDays(f);
+        }
         default:
           throw notAllowed(f.p("kind"), f.get("kind"), "use one of " + FEATURE_KINDS);
       }
+    }
+
+    /** A special_days feature: its dates (listed and from a file), its holiday calendar, its days before and after. */
+    private FeatureConfig.SpecialDays specialDays(Section f) {
+      String name = f.has("name") ? name(f, null) : "special_day";
+      java.util.TreeSet<java.time.LocalDate> dates = new java.util.TreeSet<>();
+      String dateAllowed = "use an ISO 8601 date, e.g. 2026-12-25";
+      if (f.has("dates")) {
+        JsonNode list = f.get("dates");
+        if (!list.isArray()) throw notAllowed(f.p("dates"), list, "list dates, e.g. dates: [2026-12-24, 2026-12-31]");
+        for (int i = 0; i < list.size(); i++) {
+          JsonNode d = list.get(i);
+          java.time.LocalDate date = d.isTextual() ? isoDate(d.asText()) : null;
+          if (date == null) throw notAllowed(f.p("dates") + "[" + i + "]", d, dateAllowed);
+          dates.add(date);
+        }
+      }
+      String file = null;
+      if (f.has("dates_file")) {
+        file = f.text("dates_file", null, "use a file path");
+        Path path = Path.of(file);
+        List<String> lines;
+        try {
+          lines = Files.readAllLines(path, StandardCharsets.UTF_8);
+        } catch (IOException | java.io.UncheckedIOException e) {
+          throw new ConfigException(f.p("dates_file"), f.p("dates_file") + ": cannot read " + file + " (" + e.getMessage()
+              + "); give a readable file with one ISO 8601 date a line (a path relative to the working directory)");
+        }
+        for (int i = 0; i < lines.size(); i++) {
+          String l = lines.get(i).strip();
+          int hash = l.indexOf('#');
+          if (hash >= 0) l = l.substring(0, hash).strip();
+          if (l.isEmpty()) continue;
+          java.time.LocalDate date = isoDate(l);
+          if (date == null) {
+            throw new ConfigException(f.p("dates_file"), f.p("dates_file") + ": " + file + " line " + (i + 1) + ": \"" + l
+                + "\" is not a date; " + dateAllowed + " (one a line; # starts a comment)");
+          }
+          dates.add(date);
+        }
+      }
+      String country = null;
+      String region = null;
+      if (f.has("holiday_country")) {
+        java.util.Set<String> codes = new java.util.TreeSet<>();
+        for (String c : de.focus_shift.jollyday.core.HolidayManager.getSupportedCalendarCodes()) codes.add(c.toLowerCase(java.util.Locale.ROOT));
+        String c = f.text("holiday_country", null, "use a country code");
+        country = c.toLowerCase(java.util.Locale.ROOT);
+        if (!codes.contains(country)) {
+          throw notAllowed(f.p("holiday_country"), f.get("holiday_country"), "use a country code of the holiday calendars: " + String.join(", ", codes));
+        }
+      }
+      if (f.has("holiday_region")) {
+        if (country == null) {
+          throw new ConfigException(f.p("holiday_region"), f.p("holiday_region") + ": only allowed with holiday_country; add holiday_country or remove it");
+        }
+        java.util.Set<String> regions = new java.util.TreeSet<>(de.focus_shift.jollyday.core.HolidayManager.getInstance(
+            de.focus_shift.jollyday.core.ManagerParameters.create(country)).getCalendarHierarchy().getChildren().keySet());
+        region = f.text("holiday_region", null, "use a region code").toLowerCase(java.util.Locale.ROOT);
+        if (!regions.contains(region)) {
+          throw notAllowed(f.p("holiday_region"), f.get("holiday_region"), regions.isEmpty()
+              ? "the calendar " + country + " has no regions; remove holiday_region"
+              : "use a region of " + country + ": " + String.join(", ", regions));
+        }
+      }
+      if (dates.isEmpty() && country == null) {
+        throw new ConfigException(f.path, f.path + ": no special days; give dates, dates_file (with at least one date) or holiday_country");
+      }
+      int before = ConfigKeys.SPECIAL_DAYS_BEFORE.read(f);
+      int after = ConfigKeys.SPECIAL_DAYS_AFTER.read(f);
+      return new FeatureConfig.SpecialDays(name, new ArrayList<>(dates), file, country, region, before, after);
+    }
+
+    /** An ISO 8601 calendar date (yyyy-mm-dd), or null. */
+    private static java.time.LocalDate isoDate(String s) {
+      try {
+        return java.time.LocalDate.parse(s); // java.time: ISO_LOCAL_DATE
+      } catch (java.time.format.DateTimeParseException e) {
+        return null;
+      }
+    }
+
+    /** The knots of a bends feature: finite numbers in increasing order, each once; enough for the basis. */
+    private List<Double> knots(Section f, BendBasis basis) {
+      int least = basis == BendBasis.NATURAL_SPLINE ? 3 : 1;
+      String example = basis == BendBasis.NATURAL_SPLINE ? "[0, 10, 20]" : "[10, 20]";
+      String allowed = "list " + least + " to " + MAX_KNOTS + " numbers in increasing order, each once (basis "
+          + basis.word() + "), e.g. knots: " + example;
+      if (!f.has("knots")) throw missing(f.p("knots"), allowed);
+      JsonNode list = f.get("knots");
+      if (!list.isArray() || list.size() < least || list.size() > MAX_KNOTS) throw notAllowed(f.p("knots"), list, allowed);
+      List<Double> out = new ArrayList<>();
+      for (int i = 0; i < list.size(); i++) {
+        JsonNode k = list.get(i);
+        if (!k.isNumber() || !Double.isFinite(k.asDouble())) throw notAllowed(f.p("knots") + "[" + i + "]", k, "use a finite number; " + allowed);
+        double v = k.asDouble();
+        if (i > 0 && !(v > out.get(i - 1))) {
+          throw notAllowed(f.p("knots"), list, "knot " + i + " (" + k.asText() + ") is not greater than the one before it; " + allowed);
+        }
+        out.add(v);
+      }
+      return out;
     }
 
     private Scaling scaling(Section f, PipelineConfig.Model model, ConfigKey<Scaling> key) {
@@ -693,6 +814,14 @@ public final class ConfigLoader {
       double level = ConfigKeys.INTERVAL_LEVEL.read(m);
       double noise = ConfigKeys.NOISE_HALF_LIFE_RECORDS.read(m);
       return new PipelineConfig.Model(constant, prior, diffuse, factor, halfLife, towardsPrior, level, noise);
+    }
+
+    /** The target's keys of the {@code model} section (docs/model.md, "Transformed target"). */
+    private PipelineConfig.TargetScale targetScale(Section m) {
+      TargetTransform transform = ConfigKeys.TARGET_TRANSFORM.read(m);
+      TargetPoint point = ConfigKeys.TARGET_POINT.read(m);
+      boolean nonNegative = ConfigKeys.TARGET_NON_NEGATIVE.read(m);
+      return new PipelineConfig.TargetScale(transform, point, nonNegative);
     }
 
     private PipelineConfig.Outputs outputs(Section o) {

@@ -52,6 +52,38 @@ public sealed interface FeatureConfig {
     @Override public String kind() { return "polynomial"; }
   }
 
+  /**
+   * A curve in a raw number field with bends at given knots ({@code kind: bends}): the field itself
+   * and one column per basis function, each scaled on its own.
+   *
+   * @param knots strictly increasing, finite; at least 1 for a hinge basis, 3 for a natural spline
+   */
+  record Bends(String name, String field, BendBasis basis, List<Double> knots, Scaling scaling,
+               double weightingHalfLifeRecords, double clip) implements FeatureConfig {
+    /** Copies the list. */
+    public Bends { knots = List.copyOf(knots); }
+    @Override public String kind() { return "bends"; }
+  }
+
+  /**
+   * Days that behave differently ({@code kind: special_days}), read from the record's target time
+   * (its event time without {@code input.forecast}) as a local date in {@code input.time_zone}.
+   *
+   * @param dates the listed dates ({@code dates} and {@code dates_file} together), sorted, each once
+   * @param datesFile the file the dates were partly read from, or null
+   * @param holidayCountry a public-holiday calendar's code as the holiday library names it (lower
+   *     case, e.g. {@code nl}), or null for none
+   * @param holidayRegion a subdivision of that calendar (e.g. {@code by}), or null for the whole country
+   * @param daysBefore columns for the 1..daysBefore days before a special day, 0..7
+   * @param daysAfter columns for the 1..daysAfter days after a special day, 0..7
+   */
+  record SpecialDays(String name, List<java.time.LocalDate> dates, String datesFile, String holidayCountry,
+                     String holidayRegion, int daysBefore, int daysAfter) implements FeatureConfig {
+    /** Copies the list. */
+    public SpecialDays { dates = List.copyOf(dates); }
+    @Override public String kind() { return "special_days"; }
+  }
+
   /** The products of every column of feature {@code of.get(0)} with every column of {@code of.get(1)}. */
   record Cross(String name, List<String> of) implements FeatureConfig {
     /** Copies the list. */

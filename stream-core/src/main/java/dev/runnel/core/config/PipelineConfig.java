@@ -16,15 +16,25 @@ import java.util.Optional;
  * @param drift the {@code drift} section: weight and error-level alarms
  * @param warnings what the loader found probably unintended (a key left out whose default is
  *     surprising, a former key name), in the order found; the commands print them at start
+ * @param targetScale the scale the model learns the target in ({@code model.target_transform},
+ *     {@code target_point}, {@code target_non_negative}); {@link TargetScale#NONE} by default
  */
 public record PipelineConfig(String name, Input input, String target, List<FeatureConfig> features, Model model,
                              Outputs outputs, Kafka kafka, Web web, String sourceName, Drift drift,
-                             List<ConfigWarning> warnings) {
+                             List<ConfigWarning> warnings, TargetScale targetScale) {
 
   /** Copies the lists. */
   public PipelineConfig {
     features = List.copyOf(features);
     warnings = List.copyOf(warnings);
+    java.util.Objects.requireNonNull(targetScale, "targetScale");
+  }
+
+  /** A configuration whose model learns the target as it is. */
+  public PipelineConfig(String name, Input input, String target, List<FeatureConfig> features, Model model,
+                        Outputs outputs, Kafka kafka, Web web, String sourceName, Drift drift,
+                        List<ConfigWarning> warnings) {
+    this(name, input, target, features, model, outputs, kafka, web, sourceName, drift, warnings, TargetScale.NONE);
   }
 
   /** A configuration with no warnings. */
@@ -47,7 +57,7 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
   public PipelineConfig withNameAndTopic(String newName, String newTopic) {
     return new PipelineConfig(newName,
         new Input(Optional.of(newTopic), input.schema(), input.eventTime(), input.timeZone(), input.limits(), input.clock(), input.forecast()),
-        target, features, model, outputs, kafka, web, sourceName, drift, warnings);
+        target, features, model, outputs, kafka, web, sourceName, drift, warnings, targetScale);
   }
 
   /** The slot of the target field in {@code input().schema()}. */
@@ -168,6 +178,23 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
                       double noiseHalfLifeRecords) {
     /** Whether forgetting is by event time rather than per record. */
     public boolean forgetsByTime() { return forgettingHalfLifeMillis > 0; }
+  }
+
+  /**
+   * How the model sees the target (keys {@code model.target_transform}, {@code model.target_point},
+   * {@code model.target_non_negative}; docs/model.md, "Transformed target").
+   *
+   * @param transform the scale the model learns in
+   * @param point which point of the back-transformed predictive distribution is published
+   * @param nonNegative the target is never below 0: a negative target is rejected, and the
+   *     published prediction and interval are never below 0
+   */
+  public record TargetScale(TargetTransform transform, TargetPoint point, boolean nonNegative) {
+    /** The target as it is, the median, no bound: the behaviour before these keys. */
+    public static final TargetScale NONE = new TargetScale(TargetTransform.NONE, TargetPoint.MEDIAN, false);
+
+    /** Whether this is {@link #NONE}. */
+    public boolean isNone() { return equals(NONE); }
   }
 
   /**

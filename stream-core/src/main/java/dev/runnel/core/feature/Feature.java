@@ -49,6 +49,8 @@ abstract class Feature {
     if (fc instanceof FeatureConfig.Numeric n) return new NumericFeature(n, position, schema);
     if (fc instanceof FeatureConfig.Polynomial p) return new PolynomialFeature(p, position, schema);
     if (fc instanceof FeatureConfig.Cross x) return new CrossFeature(x, position, built);
+    if (fc instanceof FeatureConfig.Bends b) return new BendsFeature(b, position, schema);
+    if (fc instanceof FeatureConfig.SpecialDays d) return new SpecialDaysFeature(d, position, config.input().timeZone());
     throw new IllegalArgumentException("features[" + position + "]: kind " + fc.kind() + " is not available in this version");
   }
 

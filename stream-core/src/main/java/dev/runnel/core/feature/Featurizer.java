@@ -20,7 +20,9 @@ import java.util.List;
  * <p>Layout: column 0 is {@code constant} (always 1) when {@code model.constant_term}; then, in
  * the order of the {@code features} list, each feature's fixed columns (a one-hot's
  * {@code <name>=(other)}, a cyclic feature's {@code <name>.sin1, <name>.cos1, ...}, a numeric
- * feature's {@code <name>}, a polynomial's {@code <name>^1 ... <name>^d}); then the one-hot levels'
+ * feature's {@code <name>}, a polynomial's {@code <name>^1 ... <name>^d}, a bends feature's
+ * {@code <name>, <name>>k ...} or {@code <name>, <name>.ns1 ...}, a special-days feature's
+ * {@code <name>, <name>.before1 ..., <name>.after1 ...}); then the one-hot levels'
  * columns {@code <name>=<level>} in order of admission. Fixed columns never move; a level column
  * is appended on admission and removed on expiry (later columns shift down by one). A cross of
  * features A and B has a cell column {@code <a column>*<b column>} for each pair of their columns;

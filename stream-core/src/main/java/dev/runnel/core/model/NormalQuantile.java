@@ -67,7 +67,7 @@ public final class NormalQuantile {
    * @param x argument
    * @return Phi(x)
    */
-  static double cdf(double x) {
+  public static double cdf(double x) {
     double t = Math.abs(x);
     double phi = StrictMath.exp(-0.5 * t * t) / SQRT_2PI;
     double tail; // Phi(-t)

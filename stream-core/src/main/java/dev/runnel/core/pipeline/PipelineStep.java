@@ -113,6 +113,8 @@ public final class PipelineStep {
   private final StreamClock clock;
   private final Prediction prediction = new Prediction();
   private final int targetSlot;
+  /** {@code model.target_transform}: the model's scale of the target and the way back. */
+  private final TargetScaling targetScaling;
   private final long configFingerprint;
   /** {@code input.forecast}: null when absent (target time = event time, nothing remembered). */
   private final PendingForecasts pending;
@@ -184,6 +186,7 @@ public final class PipelineStep {
     PipelineConfig.Clock c = in.clock();
     this.clock = new StreamClock(c.maxAheadMillis(), c.confirmRecords(), m.forgettingFactor(), m.forgettingHalfLifeMillis());
     this.targetSlot = config.targetSlot();
+    this.targetScaling = new TargetScaling(config.targetScale());
     this.row = new double[Math.max(8, featurizer.maxDimension())];
     this.configFingerprint = fingerprint(config);
     PipelineConfig.Forecast fc = in.forecast();
@@ -332,6 +335,11 @@ public final class PipelineStep {
       reject(reason, featurizer.lastDetail(), sink);
       return;
     }
+    if (hasTarget && !targetScaling.identity && !targetScaling.accepts(record.number(targetSlot))) {
+      reject(RejectReason.TARGET_OUT_OF_DOMAIN, "field " + config.target() + " (the target): "
+          + record.number(targetSlot) + " is outside the target's domain; " + targetScaling.domain(), sink);
+      return;
+    }
     // the time whose value is forecast or reported: the target-time field, else the event time
     long target = t;
     if (pending != null) {
@@ -404,6 +412,8 @@ public final class PipelineStep {
         return;
       }
     }
+    // the model learns, predicts and is checked for drift in its own scale (model.target_transform)
+    double yModel = targetScaling.identity || !hasTarget ? y : targetScaling.forward(y);
     ensureRow();
     Prediction p = prediction;
     p.eventTimeMillis = t;
@@ -439,7 +449,7 @@ public final class PipelineStep {
       model.holdNoise(held);
       // the forgetting this update applies (the clock's, or a reset's cut): what corrections: replace decays by
       double lambda = drift.forgettingFor(clock.lambda(), model.effectiveSampleSize());
-      if (!model.update(row, y, lambda, aPriori)) {
+      if (!model.update(row, yModel, lambda, aPriori)) {
         reject(RejectReason.MODEL_REFUSED,
             "the update would have made the model's state non-finite; the model is unchanged", sink);
         return;
@@ -447,7 +457,7 @@ public final class PipelineStep {
       if (bases != null && lambda != 1.0) {
         logDecay += StrictMath.log(lambda);
       }
-      if (held && drift.afterUpdate(warm ? sq(y - aPriori[1]) / (noiseBefore * noiseBefore * (1.0 + aPriori[0])) : Double.NaN)) {
+      if (held && drift.afterUpdate(warm ? sq(yModel - aPriori[1]) / (noiseBefore * noiseBefore * (1.0 + aPriori[0])) : Double.NaN)) {
         model.restartNoise(NOISE_RESTART_RECORDS);
       }
       if (warm) {
@@ -460,23 +470,30 @@ public final class PipelineStep {
       p.predicted = aPriori[1];
       half = model.settings().intervalZ() * noiseBefore * Math.sqrt(1.0 + aPriori[0]);
     }
+    double centre = p.predicted;
     if (Double.isNaN(half)) {
       p.low = Double.NaN;
       p.high = Double.NaN;
-    } else {
+    } else if (targetScaling.identity) {
       p.low = p.predicted - half;
       p.high = p.predicted + half;
+    } else {
+      // back to the target's units: the transform is monotone, so the interval's ends are the
+      // back-transformed ends (the same quantiles); the point is the median or the mean
+      p.predicted = targetScaling.point(centre, half / model.settings().intervalZ());
+      p.low = targetScaling.back(centre - half);
+      p.high = targetScaling.back(centre + half);
     }
     records++;
     if (hasTarget) {
       trained++;
       if (drift.attribution().isOpen()) {
-        observeForAttribution(y, t);
+        observeForAttribution(yModel, t);
       }
       if (p.status == Prediction.Status.SCORED) {
         metrics.add(y - p.predicted, p.covered());
         // the a priori error and its predictive sd s·√(1 + xᵀPx) = half-width / z
-        if (drift.observeError(y - p.predicted, half / model.settings().intervalZ(), model.noiseSd(), t, trained)
+        if (drift.observeError(yModel - centre, half / model.settings().intervalZ(), model.noiseSd(), t, trained)
             && drift.lastErrorAlarmUp()) {
           openAttribution();
         }
@@ -739,7 +756,9 @@ public final class PipelineStep {
       return true; // forgotten entirely by the restart
     }
     double w = StrictMath.exp(logDecay - learned.logDecay(e));
-    if (w > 0.0 && !model.downdate(oldRow, learned.value(e), Math.min(1.0, w))) {
+    // the memory keeps the value as it came; the model learned it in its own scale (model.target_transform)
+    double old = targetScaling.identity ? learned.value(e) : targetScaling.forward(learned.value(e));
+    if (w > 0.0 && !model.downdate(oldRow, old, Math.min(1.0, w))) {
       reject(RejectReason.CORRECTED_ACTUAL, "an actual for this entity and target time was already learned with the value "
           + learned.value(e) + ", and the model could not remove it exactly (too little information left beside it);"
           + " the first value stays (input.forecast.corrections: replace)", sink);
@@ -1106,6 +1125,9 @@ public final class PipelineStep {
   private static long fingerprint(PipelineConfig c) {
     String text = c.input().schema() + "|" + c.target() + "|" + c.features() + "|" + c.model()
         + "|" + c.input().timeZone();
+    if (!c.targetScale().isNone()) {
+      text += "|" + c.targetScale(); // absent by default, so a checkpoint's fingerprint is as before
+    }
     byte[] b = text.getBytes(StandardCharsets.UTF_8);
     long h = 0xcbf29ce484222325L;
     for (byte x : b) {

@@ -57,6 +57,11 @@ public enum RejectReason {
    */
   CORRECTED_ACTUAL("corrected_actual"),
   /**
+   * The target is outside the domain of {@code model.target_transform} (≤ -1 for {@code log1p},
+   * below 0 for {@code sqrt}) or below 0 with {@code model.target_non_negative: true}.
+   */
+  TARGET_OUT_OF_DOMAIN("target_out_of_domain"),
+  /**
    * Processing the record threw (a defect, not a data rule): the runner or replay set the record
    * aside and went on with the state it had before the record. Written by connectors, never by the step.
    */

@@ -56,11 +56,18 @@ public final class InputCorpus {
     return out;
   }
 
-  /** The demo configuration's YAML with the event time in {@code feed}'s format. */
+  /**
+   * The demo configuration's YAML with the event time in {@code feed}'s format, and its target
+   * declared a count ({@code model.target_non_negative: true}: sessions are never negative, so the
+   * corpus's negative target is rejected; the demo sample has none).
+   */
   public static String configYaml(String feed) throws IOException {
     String yaml = Files.readString(DEMO_CONFIG);
     String from = "format: iso8601";
     if (!yaml.contains(from)) throw new IllegalStateException("the demo configuration no longer says " + from);
+    String model = "\nmodel:\n";
+    if (!yaml.contains(model)) throw new IllegalStateException("the demo configuration no longer has a model section");
+    yaml = yaml.replace(model, model + "  target_non_negative: true\n");
     if (feed.equals("forecast")) {
       String fields = "    sessions: number\n";
       String time = "  event_time: {field: observed_at, format: iso8601}\n";
