@@ -75,10 +75,13 @@ public final class PipelineStep {
   }
 
   /**
-   * Latest version of the checkpoint layout: 4 adds the pending forecasts. A step without
-   * {@code input.forecast} has none and still writes version 3, byte for byte as before.
+   * Latest version of the checkpoint layout: 4 adds the pending forecasts; 5 is written when a
+   * feature reads each entity's history (lag, smoothed), whose state sits in the featurizer's part
+   * (the layout is version 4's). A step without {@code input.forecast} has none and still writes
+   * version 3, and one without a history feature version 4, byte for byte as before.
    */
-  public static final int CHECKPOINT_VERSION = 4;
+  public static final int CHECKPOINT_VERSION = 5;
+  private static final int CHECKPOINT_VERSION_WITHOUT_HISTORY = 4;
   private static final int CHECKPOINT_VERSION_WITHOUT_FORECASTS = 3;
   private static final int CHECKPOINT_MAGIC = 0x524E4C43; // "RNLC"
 
@@ -269,9 +272,9 @@ public final class PipelineStep {
     p.targetPassed = !hasTarget && pending != null && clock.nowMillis() != Long.MIN_VALUE && target <= clock.nowMillis();
     // calendar features describe the target time (the event time when no target-time field is configured)
     if (hasTarget) {
-      featurizer.learnAndEncode(record, target, clock.nowMillis(), row);
+      featurizer.learnAndEncode(record, target, t, clock.nowMillis(), row);
     } else {
-      featurizer.encode(record, target, row);
+      featurizer.encode(record, target, t, row);
     }
     p.layoutVersion = featurizer.layoutVersion();
     double half = Double.NaN;
@@ -554,7 +557,8 @@ public final class PipelineStep {
       ByteArrayOutputStream bytes = new ByteArrayOutputStream(4096);
       DataOutputStream out = new DataOutputStream(bytes);
       out.writeInt(CHECKPOINT_MAGIC);
-      out.writeInt(pending != null ? CHECKPOINT_VERSION : CHECKPOINT_VERSION_WITHOUT_FORECASTS);
+      out.writeInt(pending == null ? CHECKPOINT_VERSION_WITHOUT_FORECASTS
+          : featurizer.readsHistory() ? CHECKPOINT_VERSION : CHECKPOINT_VERSION_WITHOUT_HISTORY);
       out.writeLong(configFingerprint);
       out.writeLong(records);
       out.writeLong(trained);
@@ -604,6 +608,10 @@ public final class PipelineStep {
       if (version < 1 || version > CHECKPOINT_VERSION) {
         throw new IllegalArgumentException("checkpoint format version " + version
             + " is not supported; this Runnel reads version " + CHECKPOINT_VERSION);
+      }
+      if (featurizer.readsHistory() && version < CHECKPOINT_VERSION) {
+        throw new IllegalArgumentException("checkpoint format version " + version + " has no history state (it was written"
+            + " before lag or smoothed features existed); start a new pipeline name (or reset its state) to use them");
       }
       long fp = in.readLong();
       if (fp != configFingerprint) {
