@@ -386,6 +386,12 @@ public final class Featurizer {
     return out;
   }
 
+  /** The feature named {@code featureName}, or null (tests of this package). */
+  Feature feature(String featureName) {
+    for (Feature f : features) if (f.name.equals(featureName)) return f;
+    return null;
+  }
+
   /** The vocabulary of one-hot feature {@code featureName}, or null (for tests and tools). */
   public RollingVocabulary vocabulary(String featureName) {
     for (Feature f : features) if (f.name.equals(featureName) && f.vocabulary() != null) return f.vocabulary();

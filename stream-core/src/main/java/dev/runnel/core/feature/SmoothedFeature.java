@@ -81,18 +81,25 @@ final class SmoothedFeature extends HistoryFeature {
     long last = latest[at];
     if (targetMillis >= last) {
       // decay what came before by the step in event time, then add this actual with weight 1
-      double total = w * StrictMath.pow(2.0, -(targetMillis - last) / halfLife) + 1.0;
+      double total = w * decay(targetMillis - last) + 1.0;
       mean[at] += (y - mean[at]) / total;
       weight[at] = total;
       latest[at] = targetMillis;
     } else {
       // an earlier actual (out of order) comes in with its own, smaller weight
-      double wy = StrictMath.pow(2.0, -(last - targetMillis) / halfLife);
+      double wy = decay(last - targetMillis);
       double total = w + wy;
       mean[at] += wy * (y - mean[at]) / total;
       weight[at] = total;
     }
   }
+
+  /** 2^(−age / half_life) (StrictMath, so the same bits on every machine); 1 for age 0. */
+  private double decay(long ageMillis) {
+    return ageMillis == 0 ? 1.0 : StrictMath.exp(-LN2 * ageMillis / halfLife);
+  }
+
+  private static final double LN2 = 0.6931471805599453; // ln 2 (common practice; Math.log(2.0) gives these bits)
 
   @Override void growEntities(int n) {
     mean = Arrays.copyOf(mean, n * slots);
