@@ -117,6 +117,7 @@ abstract class HistoryFeature extends Feature {
   /**
    * Training only, after the row is written: remembers the record's value of the field (when
    * present and finite) as the entity's actual for its target time, known from its issue time.
+   * Uses the entity key {@link #look} built for this same record (the featurizer calls both).
    */
   @Override final void remember(EventRecord r, long targetMillis, long issueMillis) {
     if (!r.present(fieldSlot)) return;
