@@ -25,6 +25,10 @@ import org.openjdk.jmh.annotations.Warmup;
  * predict with interval, update), one thread, with a sink that only reads the prediction.
  * {@code demo} is the demo configuration over the recorded invented sample feed (5,235 lines,
  * cycled; at each wrap the event time steps back 6 days, which the step treats as out of order);
+ * {@code demo_forecast} is the demo with {@code input.forecast} (entity: the hub) and
+ * {@code demo_lag}, {@code demo_smoothed}, {@code demo_seasonal} that with history features added
+ * (two lags, P1D and P7D; a smoothed mean; a smoothed mean by hour of week; see
+ * {@link BenchData#demoConfigWith});
  * {@code pN} is a synthetic configuration of width N (see {@link BenchData}).
  *
  * <pre>{@code
@@ -39,7 +43,7 @@ import org.openjdk.jmh.annotations.Warmup;
 @Fork(value = 1, jvmArgsAppend = {"-Xmx1g"})
 public class PipelineStepBenchmark {
 
-  @Param({"demo", "p8", "p32", "p128", "p256"})
+  @Param({"demo", "demo_forecast", "demo_lag", "demo_smoothed", "demo_seasonal", "p8", "p32", "p128", "p256"})
   public String config;
 
   private PipelineStep step;
@@ -71,8 +75,15 @@ public class PipelineStepBenchmark {
   @Setup(Level.Trial)
   public void setup() {
     PipelineConfig c;
-    if (config.equals("demo")) {
-      c = BenchData.demoConfig();
+    if (config.startsWith("demo")) {
+      c = switch (config) {
+        case "demo" -> BenchData.demoConfig();
+        case "demo_forecast" -> BenchData.demoConfigWith();
+        case "demo_lag" -> BenchData.demoConfigWith("{kind: lag, offset: P1D}", "{kind: lag, offset: P7D, tolerance: PT1H}");
+        case "demo_smoothed" -> BenchData.demoConfigWith("{kind: smoothed, half_life: PT12H}");
+        case "demo_seasonal" -> BenchData.demoConfigWith("{kind: smoothed, half_life: P14D, season: hour_of_week}");
+        default -> throw new IllegalArgumentException("unknown configuration " + config);
+      };
       List<byte[]> lines = BenchData.demoRecords();
       records = lines.toArray(new byte[0][]);
       mask = -1;
