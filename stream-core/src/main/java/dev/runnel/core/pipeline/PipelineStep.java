@@ -51,7 +51,8 @@ import java.util.Arrays;
  * features read the target time, the clock still reads the event time. A forecast request that got
  * a value is remembered in the bounded {@link PendingForecasts} (the one state it changes); an
  * accepted actual, once learned from, settles every forecast pending for its (entity, target time)
- * through {@link Sink#settled}, before its own prediction.
+ * through {@link Sink#settled}, before its own prediction. The history features (lag, smoothed;
+ * docs/features.md) read the record's entity, its target time and its issue time (its event time).
  */
 public final class PipelineStep {
 
