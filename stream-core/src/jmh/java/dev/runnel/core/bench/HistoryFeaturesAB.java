@@ -12,9 +12,9 @@ import java.util.Locale;
 
 /**
  * The cost per record of each history feature kind in the whole pipeline step, beside the demo
- * configuration, measured as {@link PairedSlices} does for two builds: A is the demo
- * configuration, B the demo with {@code input.forecast} alone or with history features added
- * ({@link BenchData#demoConfigWith}); both run over the demo sample feed (cycled) in one JVM, in
+ * configuration, measured as {@link PairedSlices} does for two builds: the demo against the demo
+ * with {@code input.forecast}, then that against itself with one history feature added
+ * ({@link BenchData#demoConfigWith}); A and B run over the demo sample feed (cycled) in one JVM, in
  * alternating slices of thread CPU time, so the load of a shared machine cancels in each pair. An
  * A/A pair comes first and shows the spread. The extra cost per record is {@code 1/rateB − 1/rateA}
  * at the medians.
@@ -26,13 +26,20 @@ import java.util.Locale;
 public final class HistoryFeaturesAB {
   private HistoryFeaturesAB() { }
 
+  /** Label, A's added features (null: the demo itself), B's added features ({@code |} between items). */
   static final String[][] VARIANTS = {
-      {"demo (A/A)", null},
-      {"demo + input.forecast", ""},
-      {"demo + input.forecast + lag P1D + lag P7D (tolerance PT1H)", "{kind: lag, offset: P1D}|{kind: lag, offset: P7D, tolerance: PT1H}"},
-      {"demo + input.forecast + smoothed (PT12H)", "{kind: smoothed, half_life: PT12H}"},
-      {"demo + input.forecast + smoothed hour_of_week (P14D)", "{kind: smoothed, half_life: P14D, season: hour_of_week}"},
+      {"demo (A/A)", null, null},
+      {"demo → demo + input.forecast", null, ""},
+      {"demo + input.forecast (A/A)", "", ""},
+      {"+ lag P1D", "", "{kind: lag, offset: P1D}"},
+      {"+ lag P7D, tolerance PT1H", "", "{kind: lag, offset: P7D, tolerance: PT1H}"},
+      {"+ smoothed (half_life PT12H)", "", "{kind: smoothed, half_life: PT12H}"},
+      {"+ smoothed hour_of_week (P14D)", "", "{kind: smoothed, half_life: P14D, season: hour_of_week}"},
   };
+
+  private static PipelineConfig config(String added) {
+    return added == null ? BenchData.demoConfig() : BenchData.demoConfigWith(added.isEmpty() ? new String[0] : added.split("\\|"));
+  }
 
   public static void main(String[] args) throws IOException {
     int slices = 16;
@@ -47,11 +54,11 @@ public final class HistoryFeaturesAB {
     List<byte[]> lines = BenchData.demoRecords();
     StringBuilder md = new StringBuilder("<!-- written by dev.runnel.core.bench.HistoryFeaturesAB; do not edit by hand -->\n");
     md.append("Run ").append(Instant.now()).append(", demo sample feed (").append(lines.size())
-        .append(" lines, cycled), ").append(slices).append(" paired slices of 0.5 s thread CPU time each; A = the demo configuration.\n\n");
-    md.append("| B | A median records/s | B median records/s | B/A paired median [quartiles] | extra per record |\n|---|---|---|---|---|\n");
+        .append(" lines, cycled), ").append(slices).append(" paired slices of 0.5 s thread CPU time each. Rows starting with +:"
+            + " A = the demo with input.forecast, B = that with the feature added.\n\n");
+    md.append("| A → B | A median records/s | B median records/s | B/A paired median [quartiles] | extra per record |\n|---|---|---|---|---|\n");
     for (String[] v : VARIANTS) {
-      PipelineConfig b = v[1] == null ? BenchData.demoConfig() : BenchData.demoConfigWith(v[1].isEmpty() ? new String[0] : v[1].split("\\|"));
-      Runnable[] run = {workload(BenchData.demoConfig(), lines), workload(b, lines)};
+      Runnable[] run = {workload(config(v[1]), lines), workload(config(v[2]), lines)};
       PairedSlices.Result r = PairedSlices.measure(run, lines.size(), 20, slices);
       double extraNs = 1e9 / r.medianB() - 1e9 / r.medianA();
       String row = String.format(Locale.ROOT, "| %s | %,.0f | %,.0f | %.3f [%.3f, %.3f] | %+.0f ns |%n", v[0], r.medianA(), r.medianB(),

@@ -99,7 +99,7 @@ final class SmoothedFeature extends HistoryFeature {
     return ageMillis == 0 ? 1.0 : StrictMath.exp(-LN2 * ageMillis / halfLife);
   }
 
-  private static final double LN2 = 0.6931471805599453; // ln 2 (common practice; Math.log(2.0) gives these bits)
+  private static final double LN2 = 0.6931471805599453; // ln 2 rounded to the nearest double (common practice)
 
   @Override void growEntities(int n) {
     mean = Arrays.copyOf(mean, n * slots);
