@@ -602,6 +602,10 @@ public final class ConfigLoader {
                 + " grid steps per entity (each entity keeps one value per step); use a coarser grid or a shorter offset");
           }
           int maxEntities = ConfigKeys.LAG_MAX_ENTITIES.read(f);
+          if (cells * maxEntities > Integer.MAX_VALUE - 8) {
+            throw notAllowed(f.p("max_entities"), f.get("max_entities"), "use at most " + (Integer.MAX_VALUE - 8) / cells
+                + " with " + cells + " cells per entity (offset + tolerance over grid, plus 2), or a coarser grid");
+          }
           long expire = ConfigKeys.LAG_EXPIRE_AFTER.read(f);
           if (expire <= offset + tolerance) {
             throw notAllowed(f.p("expire_after"), f.has("expire_after") ? f.get("expire_after") : new com.fasterxml.jackson.databind.node.TextNode(java.time.Duration.ofMillis(expire).toString()),

@@ -387,5 +387,9 @@ class HistoryFeatureTest {
     String shortExpiry = YAML.replace("tolerance: TOL", "tolerance: PT2H").replace("expire_after: P10D", "expire_after: PT12H").replace("CAP", "10");
     ConfigException x = assertThrows(ConfigException.class, () -> TestConfigs.parse(shortExpiry));
     assertTrue(x.getMessage().startsWith("features[0].expire_after: "), x.getMessage());
+    String tooMany = YAML.replace("offset: P1D, tolerance: TOL, max_entities: CAP, expire_after: P10D",
+        "offset: P100D, max_entities: 10000000, expire_after: P200D").replace("CAP", "10");
+    ConfigException m = assertThrows(ConfigException.class, () -> TestConfigs.parse(tooMany));
+    assertTrue(m.getMessage().startsWith("features[0].max_entities: 10000000 is not allowed; use at most 894039 with 2402 cells"), m.getMessage());
   }
 }
