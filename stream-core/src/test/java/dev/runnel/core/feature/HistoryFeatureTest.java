@@ -368,6 +368,54 @@ class HistoryFeatureTest {
     return p;
   }
 
+  /** A history state cut short or with any byte changed: refused with a message, or read back as written (as FeaturizerCheckpointTest). */
+  @Test void aTamperedHistoryCheckpoint_isRefusedCleanly_orReadsBackConsistently() throws IOException {
+    Featurizer a = featurizer("PT2H", 5);
+    EventRecord r = new EventRecord(a.config().input().schema());
+    double[] row = new double[a.maxDimension()];
+    Random rnd = new Random(8L);
+    long t = T0;
+    for (int n = 0; n < 300; n++) {
+      if (n % 3 == 0) t += H;
+      fill(r, "h" + rnd.nextInt(7), t, t + H, (double) rnd.nextInt(20), rnd.nextDouble());
+      a.learnAndEncode(r, t, t + H, t + H, row);
+    }
+    byte[] b = bytes(a);
+    for (int len = 0; len < b.length; len += 7) {
+      byte[] cut = java.util.Arrays.copyOf(b, len);
+      assertThrows(java.io.EOFException.class, () -> read(cut), "cut at " + len);
+    }
+    int refused = 0;
+    int accepted = 0;
+    for (int i = 0; i < b.length; i++) {
+      for (int variant = 0; variant < 2; variant++) {
+        byte[] c = b.clone();
+        c[i] = variant == 0 ? (byte) 0xFF : (byte) (b[i] ^ 0x01);
+        if (c[i] == b[i]) continue;
+        Featurizer f;
+        try {
+          f = read(c);
+        } catch (IOException | IllegalArgumentException e) {
+          assertTrue(e.getMessage() != null && !e.getMessage().isEmpty(), "byte " + i + ": an error without a message");
+          refused++;
+          continue;
+        } catch (RuntimeException e) {
+          throw new AssertionError("byte " + i + " variant " + variant + ": " + e, e);
+        }
+        accepted++;
+        byte[] back = bytes(f);
+        assertArrayEquals(back, bytes(read(back)), "byte " + i + ": an accepted state reads back as written");
+      }
+    }
+    assertTrue(refused > 500 && accepted > 500, refused + " refused, " + accepted + " accepted");
+  }
+
+  private static Featurizer read(byte[] b) throws IOException {
+    Featurizer f = featurizer("PT2H", 5);
+    f.readFrom(new DataInputStream(new ByteArrayInputStream(b)));
+    return f;
+  }
+
   @Test void aHistoryFeatureWithoutAnEntity_isRefused_namingTheKey() {
     String yaml = """
         name: h
