@@ -150,7 +150,7 @@ class HistoryFeatureTest {
       int present = 0;
       int missing = 0;
       long hour = T0;
-      for (int n = 0; n < 6_000; n++) {
+      for (int n = 0; n < 4_000; n++) {
         if (rnd.nextInt(4) == 0) hour += H;
         String hub = hubs[rnd.nextInt(hubs.length)];
         boolean actual = rnd.nextInt(3) > 0;
@@ -199,7 +199,7 @@ class HistoryFeatureTest {
         }
         if (actual) all.add(new Actual(hub, target, issue, y, load == null ? Double.NaN : load));
       }
-      assertTrue(present > 1_000 && missing > 300, "present " + present + ", missing " + missing);
+      assertTrue(present > 600 && missing > 200, "present " + present + ", missing " + missing);
     }
   }
 
@@ -388,7 +388,7 @@ class HistoryFeatureTest {
     int refused = 0;
     int accepted = 0;
     for (int i = 0; i < b.length; i++) {
-      for (int variant = 0; variant < 2; variant++) {
+      for (int variant = i % 2; variant < 2; variant += 2) { // 0xFF at even places, the lowest bit flipped at odd ones
         byte[] c = b.clone();
         c[i] = variant == 0 ? (byte) 0xFF : (byte) (b[i] ^ 0x01);
         if (c[i] == b[i]) continue;
@@ -407,11 +407,13 @@ class HistoryFeatureTest {
         assertArrayEquals(back, bytes(read(back)), "byte " + i + ": an accepted state reads back as written");
       }
     }
-    assertTrue(refused > 500 && accepted > 500, refused + " refused, " + accepted + " accepted");
+    assertTrue(refused > 300 && accepted > 300, refused + " refused, " + accepted + " accepted");
   }
 
+  private static final dev.runnel.core.config.PipelineConfig TAMPER_CONFIG = featurizer("PT2H", 5).config();
+
   private static Featurizer read(byte[] b) throws IOException {
-    Featurizer f = featurizer("PT2H", 5);
+    Featurizer f = new Featurizer(TAMPER_CONFIG);
     f.readFrom(new DataInputStream(new ByteArrayInputStream(b)));
     return f;
   }
