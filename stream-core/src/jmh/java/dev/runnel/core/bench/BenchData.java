@@ -62,6 +62,26 @@ final class BenchData {
     return yaml.replace("\nmodel:\n", "\n" + feature + model);
   }
 
+  /**
+   * The demo configuration with {@code input.forecast} (entity: the hub; a target-time field the
+   * sample records do not carry, so the target time is the event time) and these features added
+   * to its list (YAML flow items, one a line); {@code ""} for the forecast alone.
+   */
+  static PipelineConfig demoForecastConfigWith(String... extraFeatures) {
+    try {
+      String y = Files.readString(root().resolve("demo-data/src/main/resources/dev/runnel/demo/quillmarsh.yaml"));
+      y = y.replace("    sessions: number\n", "    sessions: number\n    hour_start: time\n");
+      y = y.replace("  time_zone: Europe/Amsterdam\n",
+          "  time_zone: Europe/Amsterdam\n  forecast: {entity_fields: [hub], target_time_field: hour_start}\n");
+      StringBuilder f = new StringBuilder();
+      for (String e : extraFeatures) if (!e.isEmpty()) f.append("  - ").append(e).append('\n');
+      y = y.replace("model:\n", f + "model:\n");
+      return ConfigLoader.parse(y, "quillmarsh-history.yaml");
+    } catch (IOException e) {
+      throw new UncheckedIOException("run from the repository root or pass -Drunnel.root=<path>", e);
+    }
+  }
+
   /** The invented demo sample feed, one JSON document per line. */
   static List<byte[]> demoRecords() {
     try {

@@ -176,7 +176,10 @@ public final class CoreBenchmarks {
         String c = r.params.get("config");
         int p = dimensionOf(c);
         double target = c.equals("demo") ? 1_000_000 : (c.equals("p128") ? 100_000 : Double.NaN);
-        s.append("| ").append(c.equals("demo") ? "demo (quillmarsh.yaml, sample feed)" : c.startsWith("demo_") ? "demo + " + c.substring(5) : "synthetic " + c).append(" | ").append(p)
+        s.append("| ").append(c.equals("demo") ? "demo (quillmarsh.yaml, sample feed)"
+            : c.equals("demo_forecast") || c.equals("demo_lag") || c.equals("demo_smoothed") || c.equals("demo_seasonal")
+            ? c + " (the demo with input.forecast and history features, PipelineStepBenchmark)"
+            : c.startsWith("demo_") ? "demo + " + c.substring(5) : "synthetic " + c).append(" | ").append(p)
             .append(" | ").append(thousands(r.median)).append(" | [").append(thousands(r.min)).append(", ").append(thousands(r.max))
             .append("] | ").append(Double.isNaN(target) ? "–" : "≥ " + thousands(target))
             .append(" | ").append(Double.isNaN(target) ? "–" : (r.median >= target ? "yes" : "no"))

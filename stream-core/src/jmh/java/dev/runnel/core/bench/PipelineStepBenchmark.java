@@ -25,8 +25,12 @@ import org.openjdk.jmh.annotations.Warmup;
  * predict with interval, update), one thread, with a sink that only reads the prediction.
  * {@code demo} is the demo configuration over the recorded invented sample feed (5,235 lines,
  * cycled; at each wrap the event time steps back 6 days, which the step treats as out of order);
- * {@code pN} is a synthetic configuration of width N (see {@link BenchData}); {@code demo_*} is
- * the demo with one new feature kind or target option added ({@link BenchData#demoConfigWith}).
+ * {@code demo_forecast} is the demo with {@code input.forecast} (entity: the hub) and
+ * {@code demo_lag}, {@code demo_smoothed}, {@code demo_seasonal} that with history features added
+ * (two lags, P1D and P7D; a smoothed mean; a smoothed mean by hour of week; see
+ * {@link BenchData#demoForecastConfigWith});
+ * {@code pN} is a synthetic configuration of width N (see {@link BenchData}); the other {@code demo_*}
+ * are the demo with one new feature kind or target option added ({@link BenchData#demoConfigWith}).
  *
  * <pre>{@code
  * java -jar stream-core/target/benchmarks.jar PipelineStepBenchmark -prof gc
@@ -40,7 +44,7 @@ import org.openjdk.jmh.annotations.Warmup;
 @Fork(value = 1, jvmArgsAppend = {"-Xmx1g"})
 public class PipelineStepBenchmark {
 
-  @Param({"demo", "p8", "p32", "p128", "p256", "demo_hinge", "demo_spline", "demo_holidays", "demo_log1p"})
+  @Param({"demo", "demo_forecast", "demo_lag", "demo_smoothed", "demo_seasonal", "p8", "p32", "p128", "p256", "demo_hinge", "demo_spline", "demo_holidays", "demo_log1p"})
   public String config;
 
   private PipelineStep step;
@@ -73,7 +77,14 @@ public class PipelineStepBenchmark {
   public void setup() {
     PipelineConfig c;
     if (config.startsWith("demo")) {
-      c = config.equals("demo") ? BenchData.demoConfig() : BenchData.demoConfigWith(config);
+      c = switch (config) {
+        case "demo" -> BenchData.demoConfig();
+        case "demo_forecast" -> BenchData.demoForecastConfigWith();
+        case "demo_lag" -> BenchData.demoForecastConfigWith("{kind: lag, offset: P1D}", "{kind: lag, offset: P7D, tolerance: PT1H}");
+        case "demo_smoothed" -> BenchData.demoForecastConfigWith("{kind: smoothed, half_life: PT12H}");
+        case "demo_seasonal" -> BenchData.demoForecastConfigWith("{kind: smoothed, half_life: P14D, season: hour_of_week}");
+        default -> BenchData.demoConfigWith(config);
+      };
       List<byte[]> lines = BenchData.demoRecords();
       records = lines.toArray(new byte[0][]);
       mask = -1;

@@ -133,6 +133,25 @@ public final class ConfigKeys {
   public static final ConfigKey<Integer> SPECIAL_DAYS_BEFORE = add(ConfigKey.wholeInt("features.special_days", "days_before", 0, 0, 7));
   public static final ConfigKey<Integer> SPECIAL_DAYS_AFTER = add(ConfigKey.wholeInt("features.special_days", "days_after", 0, 0, 7));
 
+  // ---- features: kind lag ----
+  static final int DEFAULT_MAX_ENTITIES = 100_000;
+  static final long DEFAULT_HISTORY_EXPIRY_MILLIS = 30 * 86_400_000L;
+  public static final ConfigKey<?> LAG_FIELD = add(ConfigKey.structured("features.lag", "field", "text", "the target"));
+  public static final ConfigKey<?> LAG_NAME = add(ConfigKey.structured("features.lag", "name", "text", "`<field>_lag_<offset>`"));
+  public static final ConfigKey<?> LAG_OFFSET = add(ConfigKey.structured("features.lag", "offset", "ISO 8601 duration", "required"));
+  public static final ConfigKey<Long> LAG_GRID = add(ConfigKey.duration("features.lag", "grid", 3_600_000L, "PT1H"));
+  public static final ConfigKey<Long> LAG_TOLERANCE = add(ConfigKey.duration("features.lag", "tolerance"));
+  public static final ConfigKey<Integer> LAG_MAX_ENTITIES = add(ConfigKey.wholeInt("features.lag", "max_entities", DEFAULT_MAX_ENTITIES, 1, 10_000_000));
+  public static final ConfigKey<Long> LAG_EXPIRE_AFTER = add(ConfigKey.duration("features.lag", "expire_after", DEFAULT_HISTORY_EXPIRY_MILLIS, "P30D"));
+
+  // ---- features: kind smoothed ----
+  public static final ConfigKey<?> SMOOTHED_FIELD = add(ConfigKey.structured("features.smoothed", "field", "text", "the target"));
+  public static final ConfigKey<?> SMOOTHED_NAME = add(ConfigKey.structured("features.smoothed", "name", "text", "`<field>_smoothed`"));
+  public static final ConfigKey<?> SMOOTHED_HALF_LIFE = add(ConfigKey.structured("features.smoothed", "half_life", "ISO 8601 duration", "required"));
+  public static final ConfigKey<Season> SEASON = add(ConfigKey.choice("features.smoothed", "season", Season.NONE, Season.values(), Season::word));
+  public static final ConfigKey<Integer> SMOOTHED_MAX_ENTITIES = add(ConfigKey.wholeInt("features.smoothed", "max_entities", DEFAULT_MAX_ENTITIES, 1, 10_000_000));
+  public static final ConfigKey<Long> SMOOTHED_EXPIRE_AFTER = add(ConfigKey.duration("features.smoothed", "expire_after", DEFAULT_HISTORY_EXPIRY_MILLIS, "P30D"));
+
   // ---- model ----
   static final String PRIOR_ALLOWED = "use a number greater than 0, or the word no_prior";
   public static final ConfigKey<Boolean> CONSTANT_TERM = add(ConfigKey.flag("model", "constant_term", ModelSettings.DEFAULT_CONSTANT_TERM));

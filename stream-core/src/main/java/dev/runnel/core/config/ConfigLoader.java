@@ -39,10 +39,12 @@ import java.util.regex.Pattern;
 public final class ConfigLoader {
 
   private static final Pattern NAME = Pattern.compile("[a-z0-9][a-z0-9._-]{0,63}");
-  private static final String FEATURE_KINDS = "onehot, cyclic, numeric, polynomial, cross, bends, special_days";
+  private static final String FEATURE_KINDS = "onehot, cyclic, numeric, polynomial, cross, bends, special_days, lag, smoothed";
 
   /** The most knots a bends feature may have. */
   static final int MAX_KNOTS = 64;
+  /** The most grid cells a lag keeps per entity ((offset + tolerance) / grid + 2). */
+  static final long MAX_LAG_CELLS = 4096;
 
   private ConfigLoader() { }
 
@@ -646,6 +648,48 @@ public final class ConfigLoader {
           f.allowScope("features.special_days", "kind");
           return specialDays(f);
         }
+        case "lag": {
+          f.allowScope("features.lag", "kind");
+          String field = historyField(f, s, target, input);
+          if (!f.has("offset")) throw missing(f.p("offset"), "give how far before the target time to look, an ISO 8601 duration, e.g. offset: P1D");
+          long offset = f.durationMillis("offset");
+          long grid = ConfigKeys.LAG_GRID.read(f);
+          long tolerance = ConfigKeys.LAG_TOLERANCE.read(f);
+          if (offset % grid != 0) {
+            throw notAllowed(f.p("offset"), f.get("offset"), "use a whole number of grid steps (grid is " + java.time.Duration.ofMillis(grid) + "), e.g. P1D with grid PT1H");
+          }
+          if (tolerance % grid != 0) {
+            throw notAllowed(f.p("tolerance"), f.get("tolerance"), "use a whole number of grid steps (grid is " + java.time.Duration.ofMillis(grid) + "), or leave it out for the offset's own cell only");
+          }
+          long cells = (offset + tolerance) / grid + 2;
+          if (cells > MAX_LAG_CELLS) {
+            throw notAllowed(f.p("offset"), f.get("offset"), "offset + tolerance may span at most " + (MAX_LAG_CELLS - 2)
+                + " grid steps per entity (each entity keeps one value per step); use a coarser grid or a shorter offset");
+          }
+          int maxEntities = ConfigKeys.LAG_MAX_ENTITIES.read(f);
+          if (cells * maxEntities > Integer.MAX_VALUE - 8) {
+            throw notAllowed(f.p("max_entities"), f.get("max_entities"), "use at most " + (Integer.MAX_VALUE - 8) / cells
+                + " with " + cells + " cells per entity (offset + tolerance over grid, plus 2), or a coarser grid");
+          }
+          long expire = ConfigKeys.LAG_EXPIRE_AFTER.read(f);
+          if (expire <= offset + tolerance) {
+            throw notAllowed(f.p("expire_after"), f.has("expire_after") ? f.get("expire_after") : new com.fasterxml.jackson.databind.node.TextNode(java.time.Duration.ofMillis(expire).toString()),
+                "use a span longer than offset + tolerance (" + java.time.Duration.ofMillis(offset + tolerance) + "), or an entity is dropped before its lag is read");
+          }
+          String name = name(f, field + "_lag_" + f.get("offset").asText());
+          return new FeatureConfig.Lag(name, field, offset, grid, tolerance, maxEntities, expire);
+        }
+        case "smoothed": {
+          f.allowScope("features.smoothed", "kind");
+          String field = historyField(f, s, target, input);
+          if (!f.has("half_life")) throw missing(f.p("half_life"), "give the age at which an actual weighs half, an ISO 8601 duration, e.g. half_life: P7D");
+          long halfLife = f.durationMillis("half_life");
+          Season season = ConfigKeys.SEASON.read(f);
+          int maxEntities = ConfigKeys.SMOOTHED_MAX_ENTITIES.read(f);
+          long expire = ConfigKeys.SMOOTHED_EXPIRE_AFTER.read(f);
+          String name = name(f, field + "_smoothed");
+          return new FeatureConfig.Smoothed(name, field, halfLife, season, maxEntities, expire);
+        }
         default:
           throw notAllowed(f.p("kind"), f.get("kind"), "use one of " + FEATURE_KINDS);
       }
@@ -751,6 +795,25 @@ public final class ConfigLoader {
         out.add(v);
       }
       return out;
+    }
+
+    /**
+     * The number field a history feature reads (the target when {@code field} is absent); and the
+     * entity it needs: {@code input.forecast.entity_fields} (there is no single-series default).
+     */
+    private String historyField(Section f, RecordSchema s, String target, PipelineConfig.Input input) {
+      if (!input.forecast().enabled()) {
+        throw new ConfigException(f.p("kind"), f.p("kind") + ": " + f.get("kind").asText() + " reads each entity's own history,"
+            + " and no entity is declared; add input.forecast with entity_fields (e.g. entity_fields: [hub]) and target_time_field"
+            + " (docs/forecasting.md); for a single series, declare a text field that every record carries with the same value");
+      }
+      if (!f.has("field")) return target;
+      List<String> numbers = fieldsOfType(s, FieldType.NUMBER, null);
+      String allowed = "name a declared number field (the target is the default): " + listOr(numbers, "(none declared)");
+      String field = f.requiredText("field", allowed, allowed);
+      int slot = s.slot(field);
+      if (slot < 0 || s.type(slot) != FieldType.NUMBER) throw notAllowed(f.p("field"), f.get("field"), allowed);
+      return field;
     }
 
     private Scaling scaling(Section f, PipelineConfig.Model model, ConfigKey<Scaling> key) {

@@ -90,4 +90,33 @@ public sealed interface FeatureConfig {
     public Cross { of = List.copyOf(of); }
     @Override public String kind() { return "cross"; }
   }
+
+  /**
+   * The value of a number field (by default the target) of the same entity at a fixed offset
+   * before the record's target time, with a column that says when it is missing
+   * ({@code kind: lag}, docs/features.md).
+   *
+   * @param field the number field whose history is read; the target by default
+   * @param offsetMillis how far before the target time, at least one grid step
+   * @param gridMillis the width of a time cell; values are kept one per entity and cell
+   * @param toleranceMillis how far further back the nearest earlier value may lie; 0 = the offset's cell only
+   * @param maxEntities most entities remembered; when full, the least recently updated is dropped
+   * @param expireAfterMillis an entity without an actual for this long (by the stream clock) is dropped
+   */
+  record Lag(String name, String field, long offsetMillis, long gridMillis, long toleranceMillis, int maxEntities,
+             long expireAfterMillis) implements FeatureConfig {
+    @Override public String kind() { return "lag"; }
+  }
+
+  /**
+   * An exponentially weighted mean of a number field (by default the target) over the same
+   * entity's earlier actuals, weighted by their age in event time; with a season, only those of
+   * the same local hour of day or of week as the record's target time ({@code kind: smoothed}).
+   *
+   * @param halfLifeMillis the age (between target times) at which an actual weighs half
+   */
+  record Smoothed(String name, String field, long halfLifeMillis, Season season, int maxEntities,
+                  long expireAfterMillis) implements FeatureConfig {
+    @Override public String kind() { return "smoothed"; }
+  }
 }

@@ -51,6 +51,8 @@ abstract class Feature {
     if (fc instanceof FeatureConfig.Cross x) return new CrossFeature(x, position, built);
     if (fc instanceof FeatureConfig.Bends b) return new BendsFeature(b, position, schema);
     if (fc instanceof FeatureConfig.SpecialDays d) return new SpecialDaysFeature(d, position, config.input().timeZone());
+    if (fc instanceof FeatureConfig.Lag l) return new LagFeature(l, position, config, schema);
+    if (fc instanceof FeatureConfig.Smoothed m) return new SmoothedFeature(m, position, config, schema);
     throw new IllegalArgumentException("features[" + position + "]: kind " + fc.kind() + " is not available in this version");
   }
 
@@ -113,6 +115,21 @@ abstract class Feature {
 
   /** Training, phase 3: every scaler takes the record's value; a moved one re-bases its column. */
   void learnScalers(EventRecord r) { }
+
+  /**
+   * Whether the kind reads each entity's history ({@link #expire}, {@link #look}, {@link #remember}):
+   * looked up before the scalers learn and the row is written, remembered after.
+   */
+  boolean historical() { return false; }
+
+  /** Training, before {@link #look}: drops state past its age by the stream clock. */
+  void expire(long clockMillis) { }
+
+  /** Training and scoring, before {@link #learnScalers} and {@link #write}: looks up the record's history. Reads state only. */
+  void look(EventRecord r, long targetMillis, long issueMillis) { }
+
+  /** Training, after {@link #write}: remembers the record's actual. */
+  void remember(EventRecord r, long targetMillis, long issueMillis) { }
 
   /** Whether {@link #write} reads other features' entries of the row (then it runs after every kind that does not). */
   boolean readsRow() { return false; }

@@ -93,6 +93,8 @@ public final class Featurizer {
    */
   private final Feature[] admitting;
   private final Feature[] scaling;
+  /** The features that read an entity's history (lag, smoothed), in list order. */
+  private final Feature[] history;
   /** The features whose values have a domain (see {@link #plainlyValid}). */
   private final Feature[] domainChecked;
   /** The slots every feature reads, which a record must hold (see {@link #plainlyValid}). */
@@ -128,16 +130,19 @@ public final class Featurizer {
     List<Feature> a = new ArrayList<>();
     List<Feature> s = new ArrayList<>();
     List<Feature> d = new ArrayList<>();
+    List<Feature> h = new ArrayList<>();
     List<Integer> slots = new ArrayList<>();
     for (Feature f : features) {
       if (f.admits()) a.add(f);
       if (f.scales()) s.add(f);
       if (f.checksDomain()) d.add(f);
+      if (f.historical()) h.add(f);
       if (f.requiredSlot() >= 0) slots.add(f.requiredSlot());
     }
     admitting = a.toArray(new Feature[0]);
     scaling = s.toArray(new Feature[0]);
     domainChecked = d.toArray(new Feature[0]);
+    history = h.toArray(new Feature[0]);
     requiredSlots = slots.stream().mapToInt(Integer::intValue).toArray();
     writeGroups = groupByKind(features);
     if (max > Integer.MAX_VALUE - 8) throw new IllegalArgumentException("the layout could grow to " + max + " columns; lower max_levels");
@@ -265,6 +270,7 @@ public final class Featurizer {
   /**
    * Training path: learns from the record, reporting layout changes, then encodes it.
    * The caller must have had {@code null} from {@link #check(EventRecord)} for this record.
+   * {@link #learnAndEncode(EventRecord, long, long, long, double[])} with the issue time equal to {@code eventTimeMillis}.
    *
    * @param r a checked record. Not modified.
    * @param eventTimeMillis the record's event time (from the record or the transport)
@@ -275,13 +281,31 @@ public final class Featurizer {
    *     length at least {@link #maxDimension()} is always enough. Modified.
    */
   public void learnAndEncode(EventRecord r, long eventTimeMillis, long clockMillis, double[] out) {
+    learnAndEncode(r, eventTimeMillis, eventTimeMillis, clockMillis, out);
+  }
+
+  /**
+   * Training path with a target time apart from the issue time ({@code input.forecast}).
+   * History kinds look up the record's history first (as of now, without this record), and
+   * remember the record's actual only after its row is written, so a row never holds its own target.
+   *
+   * @param targetMillis the record's target time: the calendar features read it
+   * @param issueMillis the record's issue time (its event time): a lag counts only values known by it
+   */
+  public void learnAndEncode(EventRecord r, long targetMillis, long issueMillis, long clockMillis, double[] out) {
     long n = ++trainingRecords;
     Feature[] as = admitting;
-    for (int i = 0; i < as.length; i++) as[i].touchAndExpire(r, eventTimeMillis, clockMillis, n);
-    for (int i = 0; i < as.length; i++) as[i].admit(r, eventTimeMillis, n);
+    for (int i = 0; i < as.length; i++) as[i].touchAndExpire(r, targetMillis, clockMillis, n);
+    for (int i = 0; i < as.length; i++) as[i].admit(r, targetMillis, n);
+    Feature[] hs = history;
+    for (int i = 0; i < hs.length; i++) {
+      hs[i].expire(clockMillis);
+      hs[i].look(r, targetMillis, issueMillis);
+    }
     Feature[] ss = scaling;
     for (int i = 0; i < ss.length; i++) ss[i].learnScalers(r);
-    write(r, eventTimeMillis, out, true);
+    write(r, targetMillis, out, true);
+    for (int i = 0; i < hs.length; i++) hs[i].remember(r, targetMillis, issueMillis);
   }
 
   /**
@@ -292,8 +316,18 @@ public final class Featurizer {
    * @param out receives the row in {@code out[0 .. dimension())}. Modified.
    */
   public void encode(EventRecord r, long eventTimeMillis, double[] out) {
-    write(r, eventTimeMillis, out, false);
+    encode(r, eventTimeMillis, eventTimeMillis, out);
   }
+
+  /** Scoring path with a target time apart from the issue time (see {@link #learnAndEncode(EventRecord, long, long, long, double[])}). */
+  public void encode(EventRecord r, long targetMillis, long issueMillis, double[] out) {
+    Feature[] hs = history;
+    for (int i = 0; i < hs.length; i++) hs[i].look(r, targetMillis, issueMillis);
+    write(r, targetMillis, out, false);
+  }
+
+  /** Whether a feature reads each entity's history (lag, smoothed): its state goes into checkpoint version 5. */
+  public boolean readsHistory() { return history.length > 0; }
 
   private void write(EventRecord r, long t, double[] out, boolean training) {
     int n = columns.dimension();
@@ -352,6 +386,12 @@ public final class Featurizer {
       }
     }
     return out;
+  }
+
+  /** The feature named {@code featureName}, or null (tests of this package). */
+  Feature feature(String featureName) {
+    for (Feature f : features) if (f.name.equals(featureName)) return f;
+    return null;
   }
 
   /** The vocabulary of one-hot feature {@code featureName}, or null (for tests and tools). */

@@ -58,7 +58,9 @@ import java.util.Arrays;
  * (entity, target time): with the same value ({@code repeated_actual}), or with another value under
  * {@code corrections: reject} ({@code corrected_actual}); under {@code replace} the first value is
  * removed from the model by {@link RlsModel#downdate} (its row kept in column ids and first bases,
- * {@link ColumnBases}) after the clock took the record, and the forecasts it settled are settled again.
+ * {@link ColumnBases}) after the clock took the record, and the forecasts it settled are settled again. The
+ * history features (lag, smoothed; docs/features.md) read the record's entity, its target time and
+ * its issue time (its event time).
  */
 public final class PipelineStep {
 
@@ -85,11 +87,14 @@ public final class PipelineStep {
    * Latest version of the checkpoint layout: 4 adds the pending forecasts, 5 the memory of learned
    * actuals (and, for {@code corrections: replace}, what removing one needs), 6 the error metrics of
    * settled forecasts by horizon, 7 the change attribution (a flag for the forecast state, then the
-   * attribution's window and latest result). A step writes 7 only once the attribution has state (an
+   * attribution's window and latest result), 8 the state of the features that read each entity's
+   * history (lag, smoothed), in the featurizer's part, with the rest laid out as in 7. A step with a
+   * history feature always writes 8; otherwise it writes 7 only once the attribution has state (an
    * error-level alarm opened its window); before that, a step without {@code input.forecast} still
    * writes version 3, byte for byte as before, and one with it version 6.
    */
-  public static final int CHECKPOINT_VERSION = 7;
+  public static final int CHECKPOINT_VERSION = 8;
+  private static final int CHECKPOINT_VERSION_WITH_ATTRIBUTION = 7;
   private static final int CHECKPOINT_VERSION_WITH_FORECASTS = 6;
   private static final int CHECKPOINT_VERSION_WITHOUT_FORECASTS = 3;
   /** The weight, in records, the noise estimate keeps when it restarts after a reset's hold. */
@@ -425,9 +430,9 @@ public final class PipelineStep {
     p.targetPassed = !hasTarget && pending != null && clock.nowMillis() != Long.MIN_VALUE && target <= clock.nowMillis();
     // calendar features describe the target time (the event time when no target-time field is configured)
     if (hasTarget) {
-      featurizer.learnAndEncode(record, target, clock.nowMillis(), row);
+      featurizer.learnAndEncode(record, target, t, clock.nowMillis(), row);
     } else {
-      featurizer.encode(record, target, row);
+      featurizer.encode(record, target, t, row);
     }
     p.layoutVersion = featurizer.layoutVersion();
     double half = Double.NaN;
@@ -915,9 +920,9 @@ public final class PipelineStep {
       ByteArrayOutputStream bytes = new ByteArrayOutputStream(4096);
       DataOutputStream out = new DataOutputStream(bytes);
       out.writeInt(CHECKPOINT_MAGIC);
-      boolean v7 = drift.hasAttributionState();
-      out.writeInt(v7 ? CHECKPOINT_VERSION : pending != null ? CHECKPOINT_VERSION_WITH_FORECASTS
-          : CHECKPOINT_VERSION_WITHOUT_FORECASTS);
+      boolean v7 = featurizer.readsHistory() || drift.hasAttributionState();
+      out.writeInt(featurizer.readsHistory() ? CHECKPOINT_VERSION : v7 ? CHECKPOINT_VERSION_WITH_ATTRIBUTION
+          : pending != null ? CHECKPOINT_VERSION_WITH_FORECASTS : CHECKPOINT_VERSION_WITHOUT_FORECASTS);
       out.writeLong(configFingerprint);
       out.writeLong(records);
       out.writeLong(trained);
@@ -1000,6 +1005,10 @@ public final class PipelineStep {
       if (version < 1 || version > CHECKPOINT_VERSION) {
         throw new IllegalArgumentException("checkpoint format version " + version
             + " is not supported; this Runnel reads version " + CHECKPOINT_VERSION);
+      }
+      if (featurizer.readsHistory() && version < CHECKPOINT_VERSION) {
+        throw new IllegalArgumentException("checkpoint format version " + version + " has no history state (it was written"
+            + " before lag or smoothed features existed); start a new pipeline name (or reset its state) to use them");
       }
       long fp = in.readLong();
       if (fp != configFingerprint) {

@@ -62,7 +62,7 @@ class ConfigLoaderTest {
       `    sessions: number` | `    sessions: integer` | input.fields.sessions: "integer" is not allowed; use one of text, number, flag, time
       `    hub: text` | `    hub: text\\n   bad: [1` | quillmarsh.yaml: YAML syntax error at line 6, column 4: expected <block end>, but found '<block mapping start>' (while parsing a block mapping)
       `    format: iso8601` | `    format: iso8601\\n    field: hub` | quillmarsh.yaml: YAML syntax error at line 14, column 10: Duplicate field 'field'
-      `  - kind: polynomial` | `  - kind: polynom` | features[4].kind: "polynom" is not allowed; use one of onehot, cyclic, numeric, polynomial, cross, bends, special_days
+      `  - kind: polynomial` | `  - kind: polynom` | features[4].kind: "polynom" is not allowed; use one of onehot, cyclic, numeric, polynomial, cross, bends, special_days, lag, smoothed
       `    degree: 5` | `    degree: 17` | features[4].degree: 17 is not allowed; use a whole number from 1 to 16
       `    max_record_bytes: 65536` | `    max_record_bytes: 1.5` | input.limits.max_record_bytes: 1.5 is not allowed; use a whole number from 64 to 16777216
       `  port: 8642` | `  port: 70000` | web.port: 70000 is not allowed; use a whole number from 0 to 65535
