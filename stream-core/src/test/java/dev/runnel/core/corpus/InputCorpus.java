@@ -60,7 +60,7 @@ public final class InputCorpus {
     return yaml.replace(from, "format: " + feed);
   }
 
-  private static final Pattern TIME = Pattern.compile("\"observed_at\":\"([^\"]*)\"");
+  private static final Pattern TIME = Pattern.compile("\"issued_at\":\"([^\"]*)\"");   // the demo's event time
   private static final Pattern PAD = Pattern.compile("\\{\\{pad:(\\d+)\\}\\}");
   private static final DateTimeFormatter OFFSET_TIME = DateTimeFormatter.ofPattern("uuuu-MM-dd'T'HH:mm:ssxxx", Locale.ROOT);
 
@@ -86,7 +86,7 @@ public final class InputCorpus {
             last = ms;
             lastIso = m.group(1);
           }
-          if (!feed.equals("iso8601")) out = l.substring(0, m.start()) + "\"observed_at\":" + epoch(ms, feed) + l.substring(m.end());
+          if (!feed.equals("iso8601")) out = l.substring(0, m.start()) + "\"issued_at\":" + epoch(ms, feed) + l.substring(m.end());
         } catch (java.time.format.DateTimeParseException e) {
           // a corrupt line of the sample: kept as it is
         }

@@ -80,12 +80,17 @@ class DemoRunSameBitsTest {
 
   // SHA-256 of the build before the split (commit 2a32cd2, then e6a20f4 after the output format 2
   // names and the new reject counts changed outputs and checkpoints; the featurizer digests did not move); see the class comment.
-  static final String DEMO_OUTPUTS = "38864b93fd0ca7ec90f843143387d1d8d9b7ce2b02fa716fe37682dc08c6ffe7";
-  static final String DEMO_FEATURIZER = "78248e35187681e87252a9ba6f3089baeeb9155f02afcb2c670d60c47ba223a2";
-  static final String DEMO_CHECKPOINT = "0a51443407f801ab4177e97d689607d5abe48458cd8e6f650bb57fe625182f44";
-  static final String EVERY_KIND_OUTPUTS = "dc237b6aa4e78430e7ad1eda9726f81e33e802ab90df1be84f0fa684f1e80998";
-  static final String EVERY_KIND_FEATURIZER = "e91d85ba284ab6418caf811b4331da81bde5d97b90b10effafa6401b009068a4";
-  static final String EVERY_KIND_CHECKPOINT = "eaf9808dc9099588c58d6302f5bda7dccf49f3fe999741169d08440ecb2356ae";
+  // Then the demo's inputs changed on purpose (issue 15, the demo: the sample now has an issued_at event
+  // time, hour-ahead and 18:00 day-ahead requests, late and corrected actuals, and the demo configuration
+  // declares input.forecast): the six values below were recomputed on the demo-hz branch, whose
+  // stream-core main code is byte for byte that of 0dbbd96; only the sample, the configuration and the
+  // thresholds above (a sample of 4,951 lines) changed.
+  static final String DEMO_OUTPUTS = "464fa7480e9ddd251d1e5220d055756d922ae9a958a7fe9726e3da04a9b16c06";
+  static final String DEMO_FEATURIZER = "bb97fc54ac124b89b8c20607adc5009165d1b0519d4b3e6afb9373a5796cd19b";
+  static final String DEMO_CHECKPOINT = "571b65a31acdca2ecbfff4a60794b11ff1a279e54ce4bd342d08b062aa8c93f0";
+  static final String EVERY_KIND_OUTPUTS = "68c8b60269ceaa2637680eea28c1ffa6fe9cc3f7740187b27f7b23344fe8cead";
+  static final String EVERY_KIND_FEATURIZER = "0eac7469a15b515005a9628005d4fe1fceac462214303296d2bccbb92099e82c";
+  static final String EVERY_KIND_CHECKPOINT = "762e84cd81678a87032e6fcb64c2e0189e0d0980f8b4a0d60c7ad945cdc68e62";
 
   /** One run: every output line, in order, then the state at the end. */
   static final class Run implements PipelineStep.Sink {
@@ -161,7 +166,7 @@ class DemoRunSameBitsTest {
     List<String> lines = demoLines();
     Run run = new Run(cfg).feed(lines, 0, lines.size());
     // the run is not trivial: it trains, scores, rejects (the sample's corrupt lines) and snapshots
-    assertTrue(run.predictions > 5000 && run.rejects > 0 && run.snapshots > 10,
+    assertTrue(run.predictions > 4500 && run.rejects > 0 && run.snapshots > 10,
         run.predictions + " predictions, " + run.rejects + " rejects, " + run.snapshots + " snapshots");
     assertTrue(run.step.featurizer().layoutVersion() > 0, "levels were admitted");
     String got = "outputs " + hex(run.outputs.digest()) + "\nfeaturizer " + run.featurizerState()
@@ -194,7 +199,7 @@ class DemoRunSameBitsTest {
     whole.outputs.reset();
     whole.feed(lines, half, lines.size());
     restored.feed(lines, half, lines.size());
-    assertTrue(restored.predictions > 2500, restored.predictions + " predictions after the restore");
+    assertTrue(restored.predictions > 2400, restored.predictions + " predictions after the restore");
     assertEquals(hex(whole.outputs.digest()), hex(restored.outputs.digest()), "the outputs after the restore");
     assertArrayEquals(whole.step.checkpoint(), restored.step.checkpoint(), "the state at the end");
   }
