@@ -23,8 +23,11 @@ import java.util.List;
  *          + level(j, local day)                         (each hub's AR(1) daily level, below)
  *          + N(0, NOISE_SD^2)
  * </pre>
- * The hub's daily level changes at each local midnight: {@code level(d) = LEVEL_AR * level(d-1) +
- * N(0, LEVEL_INNOVATION_SD^2)}, started from its stationary distribution. It is hidden (no field
+ * The hub's daily level changes at each local midnight: {@code level(d) = LEVEL_AR * level(d-1) + u},
+ * started from its stationary distribution, where the innovations u of the 13 hubs are independent
+ * normal draws of sd {@code LEVEL_INNOVATION_SD * sqrt(13/12)} less their mean: each u has sd
+ * {@code LEVEL_INNOVATION_SD}, and the levels add no shock shared by all hubs on a day (which would
+ * blur the day's price effect, whose day offset is shared too). It is hidden (no field
  * carries it) but persistent, so a hub's own recent actuals reveal it; the holidays are a documented
  * list of the region's public holidays. Both are there so that history and special-day features can
  * show a gain (issue 16).
@@ -165,7 +168,7 @@ public final class GroundTruth {
   public static final double FORECAST_TEMP_SD_PER_HOUR = 0.4;
 
   // ---- each hub's daily level and the region's public holidays -----------------------------
-  /** AR(1) coefficient of each hub's daily level, from one local day to the next. */
+  /** AR(1) coefficient of each hub's daily level, from one local day to the next (the levels are centred across the 13 hubs). */
   public static final double LEVEL_AR = 0.8;
   /** Innovation sd of each hub's daily level, sessions. */
   public static final double LEVEL_INNOVATION_SD = 1.0;

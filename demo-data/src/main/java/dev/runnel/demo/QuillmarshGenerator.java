@@ -234,6 +234,7 @@ public final class QuillmarshGenerator {
     private final TreeMap<Long, Arrival> arrivals = new TreeMap<>();
     private final double[] hubAnomaly = new double[HUB_COUNT];
     private final double[] levels = new double[HUB_COUNT];
+    private final double[] draws = new double[HUB_COUNT];
     private double regionalAnomaly;
     private double dayOffset;
     private long lastLocalDay = Long.MIN_VALUE;
@@ -292,9 +293,18 @@ public final class QuillmarshGenerator {
       long epochDay = lt.toLocalDate().toEpochDay();
       if (epochDay != lastLocalDay) {
         dayOffset = GroundTruth.PRICE_DAY_SD * gaussian(featureRng);
+        // centred across the 13 hubs: no shock shared by all hubs on a day (it would blur the day's price
+        // effect); drawn with sd * sqrt(13/12) so that the centred innovation has sd LEVEL_INNOVATION_SD
+        double scale = StrictMath.sqrt(HUB_COUNT / (HUB_COUNT - 1.0));
+        double mean = 0.0;
         for (int j = 0; j < HUB_COUNT; j++) {
-          levels[j] = lastLocalDay == Long.MIN_VALUE ? GroundTruth.levelStationarySd() * gaussian(levelRng)
-              : GroundTruth.LEVEL_AR * levels[j] + GroundTruth.LEVEL_INNOVATION_SD * gaussian(levelRng);
+          draws[j] = scale * gaussian(levelRng)
+              * (lastLocalDay == Long.MIN_VALUE ? GroundTruth.levelStationarySd() : GroundTruth.LEVEL_INNOVATION_SD);
+          mean += draws[j];
+        }
+        mean /= HUB_COUNT;
+        for (int j = 0; j < HUB_COUNT; j++) {
+          levels[j] = (lastLocalDay == Long.MIN_VALUE ? 0.0 : GroundTruth.LEVEL_AR * levels[j]) + draws[j] - mean;
         }
         lastLocalDay = epochDay;
       }

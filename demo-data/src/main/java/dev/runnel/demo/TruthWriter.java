@@ -93,7 +93,7 @@ final class TruthWriter {
     b.append("    \"price_effect_per_eur\": ").append(n(GroundTruth.PRICE_EFFECT_PER_EUR)).append(",\n");
     b.append("    \"price_effect_after_tariff_per_eur\": ").append(n(GroundTruth.PRICE_EFFECT_AFTER_TARIFF_PER_EUR)).append(",\n");
     b.append("    \"holiday_effect\": ").append(n(GroundTruth.HOLIDAY_EFFECT)).append(",\n");
-    b.append("    \"hub_level\": {\"rule\": \"level(d) = ar * level(d-1) + N(0, innovation_sd^2) at each local midnight, per hub, from the stationary distribution; hidden\"")
+    b.append("    \"hub_level\": {\"rule\": \"level(d) = ar * level(d-1) + u at each local midnight, per hub, from the stationary distribution; u = the 13 hubs' normal draws of sd innovation_sd*sqrt(13/12) less their mean (sd innovation_sd, no shock shared by all hubs); hidden\"")
         .append(", \"ar\": ").append(n(GroundTruth.LEVEL_AR))
         .append(", \"innovation_sd\": ").append(n(GroundTruth.LEVEL_INNOVATION_SD))
         .append(", \"stationary_sd\": ").append(n(GroundTruth.levelStationarySd())).append("}\n");
@@ -242,7 +242,9 @@ final class TruthWriter {
         .append(n(GroundTruth.LEVEL_INNOVATION_SD)).append(" |\n");
     b.append("| noise sd | ").append(n(GroundTruth.NOISE_SD)).append(" |\n\n");
     b.append("Each hub's level is hidden: it changes at each local midnight (level(d) = ").append(n(GroundTruth.LEVEL_AR))
-        .append(" level(d-1) + N(0, ").append(n(GroundTruth.LEVEL_INNOVATION_SD)).append("^2)), so a hub's own recent actuals reveal it.\n\n");
+        .append(" level(d-1) + u, u the 13 hubs' normal draws of sd ").append(n(GroundTruth.LEVEL_INNOVATION_SD))
+        .append(" sqrt(13/12) less their mean, so each u has sd ").append(n(GroundTruth.LEVEL_INNOVATION_SD))
+        .append(" and no shock is shared by all hubs), so a hub's own recent actuals reveal it.\n\n");
     b.append("Public holidays: ").append(HOLIDAY_RULE).append(" In this stream: ");
     List<LocalDate> hs = holidaysIn(s, c);
     b.append(hs.isEmpty() ? "none" : hs.stream().map(LocalDate::toString).reduce((x, y) -> x + ", " + y).get()).append(".\n\n");
