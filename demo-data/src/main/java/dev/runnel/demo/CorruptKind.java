@@ -19,7 +19,7 @@ public enum CorruptKind {
   NAN_TOKEN("not_finite"),
   /** The {@code "hub"} field is absent. */
   MISSING_HUB("missing_field"),
-  /** {@code observed_at} has the year 9026 instead of 2026 (first digit mistyped). */
+  /** {@code issued_at} and {@code observed_at} have the year 9026 instead of 2026 (first digit mistyped). */
   ABSURD_YEAR("absurd_time");
 
   private final String expectedRejectId;

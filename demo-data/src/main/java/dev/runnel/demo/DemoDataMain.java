@@ -17,7 +17,7 @@ import java.time.format.DateTimeParseException;
  * <pre>{@code
  * java -cp demo-data/target/classes dev.runnel.demo.DemoDataMain \
  *     --out quillmarsh.jsonl [--start 2026-01-05T00:00] [--days 364] [--seed 20260105] \
- *     [--horizon 3] [--no-forecasts] [--no-corrupt] [--truth truth.json] [--truth-md truth.md]
+ *     [--horizon 1] [--no-forecasts] [--no-corrupt] [--truth truth.json] [--truth-md truth.md]
  * }</pre>
  * {@code --sample DIR} writes the three committed sample files into DIR with the sample settings.
  */
@@ -33,8 +33,8 @@ public final class DemoDataMain {
       "  --start T         first local hour in Europe/Amsterdam, ISO 8601 (default " + Settings.DEFAULT_START + ")",
       "  --days N          days to generate, 1..36600 (default " + Settings.DEFAULT_DAYS + ")",
       "  --seed S          random seed, a long (default " + Settings.DEFAULT_SEED + ")",
-      "  --horizon H       forecast hours ahead, 0..48 (default " + Settings.DEFAULT_HORIZON_HOURS + ")",
-      "  --no-forecasts    leave out the forecast records",
+      "  --horizon H       hour-ahead requests for 1..H hours ahead every hour, 0..48 (default " + Settings.DEFAULT_HORIZON_HOURS + ")",
+      "  --no-forecasts    leave out the requests (hour-ahead and the day-ahead ones at 18:00)",
       "  --no-corrupt      leave out the five planned corrupt lines (good lines in their place)",
       "The data are invented.");
 

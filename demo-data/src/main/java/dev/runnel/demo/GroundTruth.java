@@ -1,7 +1,10 @@
 // Part of the invented Quillmarsh Charging demo scenario: all names and numbers are made up.
 package dev.runnel.demo;
 
+import java.time.DayOfWeek;
+import java.time.LocalDate;
 import java.time.ZoneId;
+import java.util.ArrayList;
 import java.util.List;
 
 /**
@@ -16,8 +19,18 @@ import java.util.List;
  *          + weatherEffect(weather)                      (clear = 0, the reference)
  *          + TEMPERATURE_EFFECT_PER_C * temperature_c    (the true value in degrees Celsius)
  *          + priceEffect * price_per_kwh                 (PRICE_EFFECT_PER_EUR, doubled from the tariff change on)
+ *          + HOLIDAY_EFFECT * [local public holiday]       ({@link #isHoliday(LocalDate)})
+ *          + level(j, local day)                         (each hub's AR(1) daily level, below)
  *          + N(0, NOISE_SD^2)
  * </pre>
+ * The hub's daily level changes at each local midnight: {@code level(d) = LEVEL_AR * level(d-1) + u},
+ * started from its stationary distribution, where the innovations u of the 13 hubs are independent
+ * normal draws of sd {@code LEVEL_INNOVATION_SD * sqrt(13/12)} less their mean: each u has sd
+ * {@code LEVEL_INNOVATION_SD}, and the levels add no shock shared by all hubs on a day (which would
+ * blur the day's price effect, whose day offset is shared too). It is hidden (no field
+ * carries it) but persistent, so a hub's own recent actuals reveal it; the holidays are a documented
+ * list of the region's public holidays. Both are there so that history and special-day features can
+ * show a gain (issue 16).
  * then rounded to one decimal (adds variance 0.1^2/12 = 0.00083). {@code h} is the local hour of day
  * (0..23) in {@link #ZONE}; temperature and price are the published values (rounded to 0.1 degC and
  * 0.001 EUR/kWh) so a linear model on the published fields is exactly right. No clamp at 0 is
@@ -151,12 +164,115 @@ public final class GroundTruth {
   public static final double PRICE_HOUR_SD = 0.012;
   /** Published prices are never below this floor, EUR/kWh (a clamp on the price, not on sessions). */
   public static final double PRICE_FLOOR = 0.05;
-  /** A forecast k hours ahead keeps the true weather with probability 0.90 - 0.05 k, else draws from the seasonal weights. */
-  public static final double FORECAST_WEATHER_KEEP = 0.90;
-  /** Drop of the keep probability per hour ahead. */
-  public static final double FORECAST_WEATHER_KEEP_DROP = 0.05;
-  /** Sd of a forecast temperature's error per hour ahead, degC (k hours ahead: 0.4 k). */
+  /** Sd of an hour-ahead request's temperature error per hour ahead, degC (k hours ahead: 0.4 k). Requests carry the true weather category. */
   public static final double FORECAST_TEMP_SD_PER_HOUR = 0.4;
+
+  // ---- each hub's daily level and the region's public holidays -----------------------------
+  /** AR(1) coefficient of each hub's daily level, from one local day to the next (the levels are centred across the 13 hubs). */
+  public static final double LEVEL_AR = 0.8;
+  /** Innovation sd of each hub's daily level, sessions. */
+  public static final double LEVEL_INNOVATION_SD = 1.0;
+  /** Effect of a public holiday of the demo's region on every hour of the local day, sessions. */
+  public static final double HOLIDAY_EFFECT = -6.0;
+
+  // ---- how records arrive (see QuillmarshGenerator and Settings for the shares) -------------
+  /** An actual arrives this many hours after its hour ends (event time = hour start + 1 h + this). */
+  public static final int ACTUAL_DELAY_HOURS = 1;
+  /** A late actual arrives this many hours after it would have (a day late). */
+  public static final int LATE_EXTRA_HOURS = 24;
+  /** A correction arrives this many hours after the actual it corrects. */
+  public static final int CORRECTION_AFTER_HOURS = 48;
+  /** A correction revises the first reading by at least this many sessions (up or down). */
+  public static final double CORRECTION_MIN_SESSIONS = 1.0;
+  /** ... plus this many times |N(0, 1)| sessions. */
+  public static final double CORRECTION_SCALE_SESSIONS = 3.0;
+  /** Sd of a day-ahead forecast temperature's error, degC (a day-ahead request's {@code temperature_c}). */
+  public static final double FORECAST_TEMP_SD_DAY_AHEAD_C = 1.5;
+
+  /** Stationary sd of a hub's daily level: {@code LEVEL_INNOVATION_SD / sqrt(1 - LEVEL_AR^2)}. */
+  public static double levelStationarySd() {
+    return LEVEL_INNOVATION_SD / StrictMath.sqrt(1.0 - LEVEL_AR * LEVEL_AR);
+  }
+
+  /**
+   * Expected RMSE of a perfect model's day-ahead forecasts, settled against the first actual: a model
+   * that knows this whole truth and each hub's level on the issue day, and reads the request's fields
+   * (its weather category is the true one; its temperature has an error of sd
+   * {@link #FORECAST_TEMP_SD_DAY_AHEAD_C}). What it cannot know is the noise, the next day's level
+   * innovation and the temperature error; they are independent normals, so
+   * {@code RMSE = sqrt(NOISE_SD^2 + LEVEL_INNOVATION_SD^2 + (TEMPERATURE_EFFECT_PER_C * FORECAST_TEMP_SD_DAY_AHEAD_C)^2)}.
+   * Leaves out the 0.1 rounding of sessions and temperatures (adds less than 0.001 to the square).
+   */
+  public static double dayAheadRmse() {
+    double t = TEMPERATURE_EFFECT_PER_C * FORECAST_TEMP_SD_DAY_AHEAD_C;
+    return StrictMath.sqrt(NOISE_SD * NOISE_SD + LEVEL_INNOVATION_SD * LEVEL_INNOVATION_SD + t * t);
+  }
+
+  /** Expected MAE of the perfect day-ahead model: {@code dayAheadRmse() * sqrt(2/pi)} (a normal error's mean absolute value; common practice). */
+  public static double dayAheadMae() { return dayAheadRmse() * StrictMath.sqrt(2.0 / StrictMath.PI); }
+
+  /** The noise floor no model beats, as RMSE: {@link #NOISE_SD}. */
+  public static double noiseFloorRmse() { return NOISE_SD; }
+
+  /** The noise floor as MAE: {@code NOISE_SD * sqrt(2/pi)} (common practice for a normal error). */
+  public static double noiseFloorMae() { return NOISE_SD * StrictMath.sqrt(2.0 / StrictMath.PI); }
+
+  /**
+   * Whether a local date is one of the demo region's public holidays: New Year's Day (1 January),
+   * Easter Monday, King's Day (27 April, or 26 April when the 27th is a Sunday), Ascension Day
+   * (Easter + 39 days), Whit Monday (Easter + 50 days), Christmas Day and the day after (25 and 26
+   * December). These are the Netherlands' general public holidays by their rules (from memory;
+   * Good Friday and Liberation Day, not general days off, are left out); the effect on charging is
+   * invented.
+   */
+  public static boolean isHoliday(LocalDate d) {
+    int m = d.getMonthValue();
+    int day = d.getDayOfMonth();
+    if ((m == 1 && day == 1) || (m == 12 && (day == 25 || day == 26))) {
+      return true;
+    }
+    if (m == 4 && (day == 26 || day == 27)) {
+      LocalDate kings = LocalDate.of(d.getYear(), 4, 27);
+      if (kings.getDayOfWeek() == DayOfWeek.SUNDAY) {
+        kings = kings.minusDays(1);
+      }
+      if (d.equals(kings)) {
+        return true;
+      }
+    }
+    long fromEaster = d.toEpochDay() - easterSunday(d.getYear()).toEpochDay();
+    return fromEaster == 1 || fromEaster == 39 || fromEaster == 50;
+  }
+
+  /** The holidays of {@link #isHoliday(LocalDate)} in one year, in date order. */
+  public static List<LocalDate> holidays(int year) {
+    List<LocalDate> out = new ArrayList<>();
+    for (LocalDate d = LocalDate.of(year, 1, 1); d.getYear() == year; d = d.plusDays(1)) {
+      if (isHoliday(d)) {
+        out.add(d);
+      }
+    }
+    return out;
+  }
+
+  /** Easter Sunday of a Gregorian year by the anonymous Gregorian algorithm (Meeus/Jones/Butcher; common practice). */
+  public static LocalDate easterSunday(int year) {
+    int a = year % 19;
+    int b = year / 100;
+    int c = year % 100;
+    int d = b / 4;
+    int e = b % 4;
+    int f = (b + 8) / 25;
+    int g = (b - f + 1) / 3;
+    int h = (19 * a + b - d - g + 15) % 30;
+    int i = c / 4;
+    int k = c % 4;
+    int l = (32 + 2 * e + 2 * i - h - k) % 7;
+    int m = (a + 11 * h + 22 * l) / 451;
+    int month = (h + l - 7 * m + 114) / 31;
+    int day = (h + l - 7 * m + 114) % 31 + 1;
+    return LocalDate.of(year, month, day);
+  }
 
   /** A copy of {@link #HOUR_SIN}. */
   public static double[] hourSin() { return HOUR_SIN.clone(); }
@@ -209,7 +325,20 @@ public final class GroundTruth {
   }
 
   /**
-   * The expected sessions (noise-free) of the truth.
+   * The expected sessions (noise-free) of the truth, with the holiday effect and the hub's level.
+   * @param holiday whether the local day is a public holiday ({@link #isHoliday(LocalDate)})
+   * @param level the hub's daily level of that day
+   * @see #expectedSessions(int, int, boolean, Weather, double, double, boolean)
+   */
+  public static double expectedSessions(int hubIndex, int localHour, boolean weekend, boolean holiday, Weather weather,
+      double temperatureC, double pricePerKwh, boolean afterTariffChange, double level) {
+    return expectedSessions(hubIndex, localHour, weekend, weather, temperatureC, pricePerKwh, afterTariffChange)
+        + (holiday ? HOLIDAY_EFFECT : 0.0) + level;
+  }
+
+  /**
+   * The part of the expected sessions that the record's published fields and its local time explain:
+   * the truth without the holiday effect and the hub's daily level.
    * @param hubIndex index in {@link #HUBS}
    * @param localHour local hour of day 0..23
    * @param weekend whether the local day is Saturday or Sunday

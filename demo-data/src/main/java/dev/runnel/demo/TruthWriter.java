@@ -1,14 +1,34 @@
 // Part of the invented Quillmarsh Charging demo scenario: all names and numbers are made up.
 package dev.runnel.demo;
 
+import java.time.LocalDate;
 import java.time.format.DateTimeFormatter;
+import java.util.ArrayList;
+import java.util.List;
 import java.util.Locale;
 
 /** Writes the ground truth of one generation as JSON and as Markdown, by hand (deterministic bytes). */
 final class TruthWriter {
   private static final DateTimeFormatter AT = DateTimeFormatter.ofPattern("uuuu-MM-dd'T'HH:mm:ssxxx", Locale.ROOT);
 
+  static final String HOLIDAY_RULE = "New Year's Day, Easter Monday, King's Day (27 April, 26 April when the 27th is a Sunday),"
+      + " Ascension Day (Easter + 39), Whit Monday (Easter + 50), 25 and 26 December: the Netherlands' general public holidays"
+      + " by their rules (from memory); the effect on charging is invented.";
+
   private TruthWriter() {}
+
+  /** The holidays whose local day falls inside the stream, in date order. */
+  static List<LocalDate> holidaysIn(Settings s, ChangeSchedule c) {
+    List<LocalDate> out = new ArrayList<>();
+    LocalDate first = ChangeSchedule.localTime(s, 0).toLocalDate();
+    LocalDate last = ChangeSchedule.localTime(s, c.totalHours() - 1).toLocalDate();
+    for (LocalDate d = first; !d.isAfter(last); d = d.plusDays(1)) {
+      if (GroundTruth.isHoliday(d)) {
+        out.add(d);
+      }
+    }
+    return out;
+  }
 
   private static String n(double x) { return JsonText.compact(x, 6); }
 
@@ -39,15 +59,19 @@ final class TruthWriter {
         .append(", \"seed\": ").append(s.seed())
         .append(", \"forecast_horizon_hours\": ").append(s.forecastHorizonHours())
         .append(", \"include_forecasts\": ").append(s.includeForecasts())
-        .append(", \"include_corrupt\": ").append(s.includeCorrupt()).append("},\n");
+        .append(", \"include_corrupt\": ").append(s.includeCorrupt())
+        .append(", \"day_ahead_issue_hour\": ").append(s.dayAheadIssueHour())
+        .append(", \"late_share\": ").append(n(s.lateShare()))
+        .append(", \"correction_share\": ").append(n(s.correctionShare())).append("},\n");
     b.append("  \"stream\": {\"total_hours\": ").append(c.totalHours())
         .append(", \"lines\": ").append(g.countRecords())
         .append(", \"first_hour\": ").append(q(at(s, 0)))
         .append(", \"last_hour\": ").append(q(at(s, c.totalHours() - 1))).append("},\n");
     b.append("  \"target\": {\n");
     b.append("    \"formula\": ").append(q("sessions = base + hub + sum_k (sin_k sin(2 pi k h/24) + cos_k cos(2 pi k h/24))"
-        + " + weekend*[Sat|Sun] + weather + temperature_per_c*temperature_c + price_per_eur*price_per_kwh + N(0, noise_sd^2),"
-        + " h = local hour of day, rounded to 0.1, no clamp")).append(",\n");
+        + " + weekend*[Sat|Sun] + weather + temperature_per_c*temperature_c + price_per_eur*price_per_kwh"
+        + " + holiday*[public holiday] + level(hub, local day) + N(0, noise_sd^2),"
+        + " h = local hour of day, rounded to 0.1, no clamp; the formula gives the first reading of an actual")).append(",\n");
     b.append("    \"base_sessions\": ").append(n(GroundTruth.BASE_SESSIONS)).append(",\n");
     b.append("    \"reference_levels\": {\"hub\": \"QM-01\", \"weather\": \"clear\"},\n");
     b.append("    \"noise_sd\": ").append(n(GroundTruth.NOISE_SD)).append(",\n");
@@ -67,8 +91,38 @@ final class TruthWriter {
     b.append("},\n");
     b.append("    \"temperature_effect_per_c\": ").append(n(GroundTruth.TEMPERATURE_EFFECT_PER_C)).append(",\n");
     b.append("    \"price_effect_per_eur\": ").append(n(GroundTruth.PRICE_EFFECT_PER_EUR)).append(",\n");
-    b.append("    \"price_effect_after_tariff_per_eur\": ").append(n(GroundTruth.PRICE_EFFECT_AFTER_TARIFF_PER_EUR)).append("\n");
+    b.append("    \"price_effect_after_tariff_per_eur\": ").append(n(GroundTruth.PRICE_EFFECT_AFTER_TARIFF_PER_EUR)).append(",\n");
+    b.append("    \"holiday_effect\": ").append(n(GroundTruth.HOLIDAY_EFFECT)).append(",\n");
+    b.append("    \"hub_level\": {\"rule\": \"level(d) = ar * level(d-1) + u at each local midnight, per hub, from the stationary distribution; u = the 13 hubs' normal draws of sd innovation_sd*sqrt(13/12) less their mean (sd innovation_sd, no shock shared by all hubs); hidden\"")
+        .append(", \"ar\": ").append(n(GroundTruth.LEVEL_AR))
+        .append(", \"innovation_sd\": ").append(n(GroundTruth.LEVEL_INNOVATION_SD))
+        .append(", \"stationary_sd\": ").append(n(GroundTruth.levelStationarySd())).append("}\n");
     b.append("  },\n");
+    b.append("  \"holidays\": {\"rule\": ").append(q(HOLIDAY_RULE)).append(", \"dates_in_stream\": [");
+    List<LocalDate> hs = holidaysIn(s, c);
+    for (int i = 0; i < hs.size(); i++) {
+      b.append(i == 0 ? "" : ", ").append(q(hs.get(i).toString()));
+    }
+    b.append("]},\n");
+    b.append("  \"arrivals\": {\"actual_delay_hours_after_hour_end\": ").append(GroundTruth.ACTUAL_DELAY_HOURS)
+        .append(", \"late_share\": ").append(n(s.lateShare()))
+        .append(", \"late_extra_hours\": ").append(GroundTruth.LATE_EXTRA_HOURS)
+        .append(", \"correction_share\": ").append(n(s.correctionShare()))
+        .append(", \"correction_after_hours\": ").append(GroundTruth.CORRECTION_AFTER_HOURS)
+        .append(", \"correction_revision\": ").append(q("+/-(" + n(GroundTruth.CORRECTION_MIN_SESSIONS) + " + "
+            + n(GroundTruth.CORRECTION_SCALE_SESSIONS) + " |N(0,1)|), sign even, rounded to 0.1"))
+        .append(", \"day_ahead_issue_hour\": ").append(s.dayAheadIssueHour())
+        .append(", \"hour_ahead_requests_hours\": ").append(s.forecastHorizonHours())
+        .append(", \"order\": ").append(q("event time (issued_at) hour by hour: arrivals by target hour, hub, first reading before correction;"
+            + " then hour-ahead requests; then, at the day-ahead hour, the next local day's requests"))
+        .append("},\n");
+    b.append("  \"perfect_model\": {\"day_ahead_rmse\": ").append(n(GroundTruth.dayAheadRmse()))
+        .append(", \"day_ahead_mae\": ").append(n(GroundTruth.dayAheadMae()))
+        .append(", \"day_ahead_rule\": ").append(q("sqrt(noise_sd^2 + level innovation_sd^2 + (temperature_per_c * day-ahead temperature error sd)^2);"
+            + " MAE = RMSE sqrt(2/pi) for a normal error (common practice); a model that knows the truth and each hub's level on the issue day,"
+            + " settled against first readings"))
+        .append(", \"noise_floor_rmse\": ").append(n(GroundTruth.noiseFloorRmse()))
+        .append(", \"noise_floor_mae\": ").append(n(GroundTruth.noiseFloorMae())).append("},\n");
     b.append("  \"hubs\": [\n");
     for (int j = 0; j < GroundTruth.HUBS.size(); j++) {
       GroundTruth.Hub h = GroundTruth.HUBS.get(j);
@@ -99,7 +153,7 @@ final class TruthWriter {
         .append(", \"first_hour\": ").append(c.fahrenheitFirstHour()).append(", \"hours\": ").append(c.fahrenheitHours())
         .append(", \"from\": ").append(q(at(s, c.fahrenheitFirstHour())))
         .append(", \"last\": ").append(q(at(s, c.fahrenheitFirstHour() + c.fahrenheitHours() - 1)))
-        .append(", \"rule\": \"every line emitted in these hours (actuals and forecasts issued then) carries temperature_c = c*9/5+32 with 2 decimals; sessions follow c\"},\n");
+        .append(", \"rule\": \"every line whose issued_at is in these hours (actuals arriving and requests issued then) carries temperature_c = c*9/5+32 with 2 decimals; sessions follow c\"},\n");
     b.append("    \"corrupt_lines\": [\n");
     for (int k = 0; k < c.corrupt().size(); k++) {
       ChangeSchedule.CorruptPosition p = c.corrupt().get(k);
@@ -139,9 +193,9 @@ final class TruthWriter {
         .append(", \"hour_noise_sd\": ").append(n(GroundTruth.PRICE_HOUR_SD))
         .append(", \"floor\": ").append(n(GroundTruth.PRICE_FLOOR))
         .append(", \"rounding\": 0.001},\n");
-    b.append("    \"forecasts\": {\"weather_keep\": \"").append(n(GroundTruth.FORECAST_WEATHER_KEEP)).append(" - ")
-        .append(n(GroundTruth.FORECAST_WEATHER_KEEP_DROP)).append(" k\"")
+    b.append("    \"forecasts\": {\"weather\": \"the true category\"")
         .append(", \"temperature_error_sd_per_hour_ahead\": ").append(n(GroundTruth.FORECAST_TEMP_SD_PER_HOUR))
+        .append(", \"temperature_error_sd_day_ahead\": ").append(n(GroundTruth.FORECAST_TEMP_SD_DAY_AHEAD_C))
         .append(", \"price\": \"the published future price (day-ahead tariff)\"}\n");
     b.append("  }\n");
     b.append("}\n");
@@ -159,12 +213,15 @@ final class TruthWriter {
     b.append("Settings: start `").append(s.start()).append("` (").append(GroundTruth.ZONE.getId()).append("), ")
         .append(s.days()).append(" days, seed `").append(s.seed()).append("`, forecast horizon ")
         .append(s.forecastHorizonHours()).append(" h, forecasts ").append(s.includeForecasts() ? "on" : "off")
-        .append(", corrupt lines ").append(s.includeCorrupt() ? "on" : "off").append(". ")
+        .append(", corrupt lines ").append(s.includeCorrupt() ? "on" : "off")
+        .append(", day-ahead requests at ").append(s.dayAheadIssueHour() < 0 ? "none" : String.format(Locale.ROOT, "%02d:00", s.dayAheadIssueHour()))
+        .append(", late share ").append(n(s.lateShare())).append(", correction share ").append(n(s.correctionShare())).append(". ")
         .append(c.totalHours()).append(" hours, ").append(g.countRecords()).append(" lines.\n\n");
     b.append("## Target\n\n");
     b.append("```\nsessions = base + hub + sum_{k=1..3} (sin_k sin(2 pi k h/24) + cos_k cos(2 pi k h/24))\n")
         .append("         + weekend * [local Saturday or Sunday] + weather + b_temp * temperature_c\n")
-        .append("         + b_price * price_per_kwh + N(0, sd^2)        rounded to 0.1, no clamp\n```\n\n");
+        .append("         + b_price * price_per_kwh + holiday * [public holiday] + level(hub, local day)\n")
+        .append("         + N(0, sd^2)        rounded to 0.1, no clamp (the first reading of an actual)\n```\n\n");
     b.append("h is the local hour of day (0..23). temperature_c and price_per_kwh are the published values (true degC).\n\n");
     b.append("| parameter | value |\n|---|---|\n");
     b.append("| base (QM-01, clear, weekday) | ").append(n(GroundTruth.BASE_SESSIONS)).append(" |\n");
@@ -179,7 +236,39 @@ final class TruthWriter {
     b.append("| temperature, per degC | ").append(n(GroundTruth.TEMPERATURE_EFFECT_PER_C)).append(" |\n");
     b.append("| price, per EUR/kWh, before the tariff change | ").append(n(GroundTruth.PRICE_EFFECT_PER_EUR)).append(" |\n");
     b.append("| price, per EUR/kWh, from the tariff change on | ").append(n(GroundTruth.PRICE_EFFECT_AFTER_TARIFF_PER_EUR)).append(" |\n");
+    b.append("| public holiday | ").append(n(GroundTruth.HOLIDAY_EFFECT)).append(" |\n");
+    b.append("| hub level: AR(1) per local day, coefficient | ").append(n(GroundTruth.LEVEL_AR)).append(" |\n");
+    b.append("| hub level: innovation sd (stationary sd ").append(n(GroundTruth.levelStationarySd())).append(") | ")
+        .append(n(GroundTruth.LEVEL_INNOVATION_SD)).append(" |\n");
     b.append("| noise sd | ").append(n(GroundTruth.NOISE_SD)).append(" |\n\n");
+    b.append("Each hub's level is hidden: it changes at each local midnight (level(d) = ").append(n(GroundTruth.LEVEL_AR))
+        .append(" level(d-1) + u, u the 13 hubs' normal draws of sd ").append(n(GroundTruth.LEVEL_INNOVATION_SD))
+        .append(" sqrt(13/12) less their mean, so each u has sd ").append(n(GroundTruth.LEVEL_INNOVATION_SD))
+        .append(" and no shock is shared by all hubs), so a hub's own recent actuals reveal it.\n\n");
+    b.append("Public holidays: ").append(HOLIDAY_RULE).append(" In this stream: ");
+    List<LocalDate> hs = holidaysIn(s, c);
+    b.append(hs.isEmpty() ? "none" : hs.stream().map(LocalDate::toString).reduce((x, y) -> x + ", " + y).get()).append(".\n\n");
+    b.append("## How records arrive\n\n");
+    b.append("- Every line has `issued_at` (its event time: when it was issued or arrived) and `observed_at` (the start of the hour it is about). ")
+        .append("The stream is in `issued_at` order.\n");
+    b.append("- An actual arrives ").append(GroundTruth.ACTUAL_DELAY_HOURS).append(" h after its hour ends; a share ")
+        .append(n(s.lateShare())).append(" arrives ").append(GroundTruth.LATE_EXTRA_HOURS).append(" h later (a day late).\n");
+    b.append("- A share ").append(n(s.correctionShare())).append(" of actuals is followed, ").append(GroundTruth.CORRECTION_AFTER_HOURS)
+        .append(" h after it arrived, by a `\"kind\":\"correction\"` line for the same hub and hour: the first reading +/-(")
+        .append(n(GroundTruth.CORRECTION_MIN_SESSIONS)).append(" + ").append(n(GroundTruth.CORRECTION_SCALE_SESSIONS))
+        .append(" |N(0,1)|). The formula above gives the first reading.\n");
+    b.append("- Every hour, requests (no `sessions`) for each hub and the next ").append(s.forecastHorizonHours())
+        .append(" hour(s); every day at ").append(s.dayAheadIssueHour() < 0 ? "(none)" : String.format(Locale.ROOT, "%02d:00", s.dayAheadIssueHour()))
+        .append(" local, requests for each hub and every hour of the next local day.\n\n");
+    b.append("## What a perfect model scores\n\n");
+    b.append("| horizon | RMSE | MAE | rule |\n|---|---|---|---|\n");
+    b.append("| day-ahead | ").append(n(GroundTruth.dayAheadRmse())).append(" | ").append(n(GroundTruth.dayAheadMae()))
+        .append(" | sqrt(noise sd^2 + level innovation sd^2 + (b_temp * ").append(n(GroundTruth.FORECAST_TEMP_SD_DAY_AHEAD_C))
+        .append(")^2); MAE = RMSE sqrt(2/pi) for a normal error (common practice) |\n");
+    b.append("| noise floor (any horizon) | ").append(n(GroundTruth.noiseFloorRmse())).append(" | ").append(n(GroundTruth.noiseFloorMae()))
+        .append(" | noise sd; no model beats it |\n\n");
+    b.append("The perfect model knows this whole truth and each hub's level on the issue day, reads the request's fields, ")
+        .append("and is settled against the first reading.\n\n");
     b.append("## Hubs\n\n| id | name (invented) | sessions effect | temperature offset degC | price markup EUR/kWh | reports |\n|---|---|---|---|---|---|\n");
     for (int j = 0; j < GroundTruth.HUBS.size(); j++) {
       GroundTruth.Hub h = GroundTruth.HUBS.get(j);
@@ -221,10 +310,9 @@ final class TruthWriter {
         .append(", 17-20 ").append(n(GroundTruth.TARIFF_PEAK)).append(", 21-23 ").append(n(GroundTruth.TARIFF_EVENING))
         .append(") + hub markup + day offset N(0, ").append(n(GroundTruth.PRICE_DAY_SD)).append("^2) + hourly noise N(0, ")
         .append(n(GroundTruth.PRICE_HOUR_SD)).append("^2), floor ").append(n(GroundTruth.PRICE_FLOOR)).append(", rounded to 0.001.\n");
-    b.append("- Forecasts issued at hour t for t+k (k = 1..").append(s.forecastHorizonHours()).append("): weather kept with probability ")
-        .append(n(GroundTruth.FORECAST_WEATHER_KEEP)).append(" - ").append(n(GroundTruth.FORECAST_WEATHER_KEEP_DROP))
-        .append(" k else drawn from the seasonal weights; temperature = truth + N(0, (").append(n(GroundTruth.FORECAST_TEMP_SD_PER_HOUR))
-        .append(" k)^2); price = the published future price; no sessions field.\n");
+    b.append("- Requests issued at hour t for t+k (k = 1..").append(s.forecastHorizonHours()).append("): the true weather category; temperature = truth + N(0, (")
+        .append(n(GroundTruth.FORECAST_TEMP_SD_PER_HOUR)).append(" k)^2); day-ahead requests: temperature = truth + N(0, ")
+        .append(n(GroundTruth.FORECAST_TEMP_SD_DAY_AHEAD_C)).append("^2); price = the published future price; no sessions field.\n");
     return b.toString();
   }
 }

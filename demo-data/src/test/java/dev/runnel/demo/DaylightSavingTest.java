@@ -27,7 +27,8 @@ class DaylightSavingTest {
     return out;
   }
 
-  private static final Settings BASE = Settings.defaults().withCorrupt(false).withForecasts(false);
+  // no late actuals or corrections: the actuals of one hub then come in hour order, once each
+  private static final Settings BASE = Settings.defaults().withCorrupt(false).withForecasts(false).withLateShare(0).withCorrectionShare(0);
 
   @Test void springForwardDay_has23LocalHours() {
     Settings s = BASE.withStart(LocalDateTime.of(2026, 3, 28, 0, 0)).withDays(3);

@@ -68,8 +68,8 @@ class DeterminismTest {
     assertEquals(GroundTruth.toJson(s), Files.readString(dir.resolve("quillmarsh-truth.json"), StandardCharsets.UTF_8));
     assertEquals(GroundTruth.toMarkdown(s), Files.readString(dir.resolve("quillmarsh-truth.md"), StandardCharsets.UTF_8));
     long lines = new String(committed, StandardCharsets.US_ASCII).chars().filter(ch -> ch == '\n').count();
-    assertTrue(lines >= 5_000 && lines <= 8_000, "sample lines " + lines);
-    assertTrue(committed.length < 800_000, "sample bytes " + committed.length);
+    assertTrue(lines >= 4_500 && lines <= 8_000, "sample lines " + lines);
+    assertTrue(committed.length < 1_000_000, "sample bytes " + committed.length);
   }
 
   @Test void noForecasts_leavesActualLinesUnchanged() {

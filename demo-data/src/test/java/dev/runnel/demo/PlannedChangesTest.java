@@ -61,7 +61,8 @@ class PlannedChangesTest {
   }
 
   @Test void openingHubAppearsOnlyFromItsOpening_closingHubDisappears() {
-    QuillmarshGenerator g = new QuillmarshGenerator(FOUR_WEEKS);
+    // no late actuals: a late actual of the last day would fall after the stream's end and leave a gap
+    QuillmarshGenerator g = new QuillmarshGenerator(FOUR_WEEKS.withLateShare(0));
     ChangeSchedule c = g.schedule();
     Map<Integer, Set<String>> actualHubsByHour = new HashMap<>();
     g.lines().map(SchemaCheck::parse).filter(r -> r != null).forEach(r -> {
@@ -93,7 +94,8 @@ class PlannedChangesTest {
   }
 
   @Test void fahrenheitHours_carryFahrenheitOfTheHiddenCelsius_andSessionsFollowCelsius() {
-    QuillmarshGenerator g = new QuillmarshGenerator(FOUR_WEEKS.withCorrupt(false));
+    // no late actuals or corrections: the actuals arriving in the incident are those of its hours minus 2
+    QuillmarshGenerator g = new QuillmarshGenerator(FOUR_WEEKS.withCorrupt(false).withLateShare(0).withCorrectionShare(0));
     ChangeSchedule c = g.schedule();
     List<GeneratedRecord> inIncident = new ArrayList<>();
     g.records().forEach(r -> {
@@ -111,7 +113,7 @@ class PlannedChangesTest {
     });
     int h = totalHours(FOUR_WEEKS);
     int expectedCount = 0;
-    for (int t = (int) Math.floor(0.42 * h); t < (int) Math.floor(0.42 * h) + 6; t++) {
+    for (int t = (int) Math.floor(0.42 * h) - 2; t < (int) Math.floor(0.42 * h) + 4; t++) {
       expectedCount += 12 + (t >= (int) Math.floor(0.35 * h) ? 1 : 0) - (t >= (int) Math.floor(0.65 * h) ? 1 : 0);
     }
     assertEquals(expectedCount, inIncident.size());
@@ -121,8 +123,9 @@ class PlannedChangesTest {
     double sumF = 0;
     for (GeneratedRecord r : inIncident) {
       SchemaCheck.Row row = SchemaCheck.parse(r.line());
-      sumC += row.sessions() - documented(row, r.temperatureC(), c.isAfterTariffChange(r.issueHour()));
-      sumF += row.sessions() - documented(row, row.temperature(), c.isAfterTariffChange(r.issueHour()));
+      double hidden = r.level() + (r.holiday() ? GroundTruth.HOLIDAY_EFFECT : 0.0);
+      sumC += row.sessions() - hidden - documented(row, r.temperatureC(), c.isAfterTariffChange(r.targetHour()));
+      sumF += row.sessions() - hidden - documented(row, row.temperature(), c.isAfterTariffChange(r.targetHour()));
     }
     int n = inIncident.size();
     assertTrue(Math.abs(sumC / n) < 4 * GroundTruth.NOISE_SD / Math.sqrt(n), "mean residual with degC " + sumC / n);
@@ -216,40 +219,58 @@ class PlannedChangesTest {
     throw new AssertionError("expected a parse failure");
   }
 
-  @Test void forecasts_haveNoSessions_andFollowTheActualsOfTheirIssueHour() {
+  @Test void requests_haveNoSessions_hourAheadEveryHour_dayAheadAt18ForTheWholeNextDay() {
     Settings s = FOUR_WEEKS.withCorrupt(false);
     QuillmarshGenerator g = new QuillmarshGenerator(s);
-    List<String> lines = g.lines().collect(Collectors.toList());
     Map<String, Double> actualPrice = new HashMap<>();
-    Map<String, Double> forecastPrice = new HashMap<>();
-    int currentHour = -1;
-    int forecasts = 0;
-    boolean seenForecastThisHour = false;
-    for (String line : lines) {
+    Map<String, Double> requestPrice = new HashMap<>();
+    Map<java.time.LocalDate, Set<String>> dayAheadTargets = new HashMap<>();
+    int hourAhead = 0;
+    for (String line : g.lines().collect(Collectors.toList())) {
       SchemaCheck.Row r = SchemaCheck.parse(line);
       assertNotNull(r, line);
       int h = hourOf(s, r);
-      if (r.forecast()) {
-        forecasts++;
-        assertFalse(line.contains("sessions"), line);
-        assertTrue(h > currentHour && h <= currentHour + s.forecastHorizonHours(), "forecast for " + h + " issued at " + currentHour);
-        forecastPrice.put(r.hub() + "@" + h, r.price());
-        seenForecastThisHour = true;
-      } else {
+      if (!r.forecast()) {
         assertTrue(line.contains("\"sessions\":"), line);
-        if (h != currentHour) {
-          assertEquals(currentHour + 1, h, "actual hours are consecutive");
-          currentHour = h;
-          seenForecastThisHour = false;
-        }
-        assertFalse(seenForecastThisHour, "actuals of an hour come before its forecasts");
         actualPrice.put(r.hub() + "@" + h, r.price());
+        continue;
       }
+      assertFalse(line.contains("sessions"), line);
+      long ahead = (r.observedAt().toEpochSecond() - r.issuedAt().toEpochSecond()) / 3600;
+      var issuedLocal = r.issuedAt().atZoneSameInstant(GroundTruth.ZONE);
+      var targetLocal = r.observedAt().atZoneSameInstant(GroundTruth.ZONE);
+      if (ahead == 1) {
+        hourAhead++;
+      } else {
+        // a day-ahead request: issued at 18:00 local, for an hour of the next local day
+        assertEquals(18, issuedLocal.getHour(), line);
+        assertEquals(issuedLocal.toLocalDate().plusDays(1), targetLocal.toLocalDate(), line);
+        dayAheadTargets.computeIfAbsent(targetLocal.toLocalDate(), d -> new TreeSet<>()).add(r.hub() + "@" + targetLocal);
+      }
+      requestPrice.put(r.hub() + "@" + h, r.price());
     }
-    assertTrue(forecasts > 2 * (lines.size() - forecasts), "forecasts " + forecasts + " of " + lines.size());
-    // Documented: a forecast's price is the published price of its target hour.
-    for (Map.Entry<String, Double> e : forecastPrice.entrySet()) {
-      assertEquals(actualPrice.get(e.getKey()), e.getValue(), 1e-12, e.getKey());
+    // every target day after the first has a request for each of its local hours and each active hub (12 or 13)
+    java.time.LocalDate first = s.start().toLocalDate();
+    for (int d = 1; d < s.days(); d++) {
+      java.time.LocalDate day = first.plusDays(d);
+      Set<String> got = dayAheadTargets.get(day);
+      assertNotNull(got, "day-ahead requests for " + day);
+      int hours = (int) ((day.plusDays(1).atStartOfDay(GroundTruth.ZONE).toEpochSecond()
+          - day.atStartOfDay(GroundTruth.ZONE).toEpochSecond()) / 3600);   // 23, 24 or 25 (java.time)
+      assertTrue(got.size() >= 12 * hours - 2 && got.size() <= 13 * hours, day + ": " + got.size() + " for " + hours + " hours");
+    }
+    assertTrue(hourAhead > 12 * 24 * (s.days() - 1), "hour-ahead requests " + hourAhead);
+    // Documented: a request's price is the published price of its target hour. An actual missing from
+    // the stream can only be a late one of the last day (due after the stream's last arrival).
+    int lastHour = totalHours(s) - 1;
+    for (Map.Entry<String, Double> e : requestPrice.entrySet()) {
+      Double actual = actualPrice.get(e.getKey());
+      if (actual == null) {
+        int h = Integer.parseInt(e.getKey().substring(e.getKey().indexOf('@') + 1));
+        assertTrue(h > lastHour - GroundTruth.LATE_EXTRA_HOURS - 2, "no actual for " + e.getKey());
+        continue;
+      }
+      assertEquals(actual, e.getValue(), 1e-12, e.getKey());
     }
   }
 }

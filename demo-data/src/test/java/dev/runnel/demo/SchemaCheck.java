@@ -17,10 +17,11 @@ final class SchemaCheck {
   private static final ObjectMapper MAPPER = new ObjectMapper();
   private static final Pattern HUB = Pattern.compile("QM-\\d\\d");
   private static final Set<String> WEATHER = Set.of("clear", "cloudy", "rain", "snow");
-  private static final Set<String> FIELDS = Set.of("kind", "hub", "observed_at", "weather", "temperature_c", "price_per_kwh", "sessions");
+  private static final Set<String> FIELDS = Set.of("kind", "hub", "issued_at", "observed_at", "weather", "temperature_c", "price_per_kwh", "sessions");
 
   /** A line that passed the schema. sessions is NaN for a forecast. */
-  record Row(boolean forecast, String hub, OffsetDateTime observedAt, String weather, double temperature, double price, double sessions) {}
+  record Row(boolean forecast, String hub, OffsetDateTime observedAt, String weather, double temperature, double price, double sessions,
+      OffsetDateTime issuedAt, boolean correction) {}
 
   private SchemaCheck() {}
 
@@ -43,11 +44,13 @@ final class SchemaCheck {
     JsonNode kind = n.get("kind");
     JsonNode hub = n.get("hub");
     JsonNode at = n.get("observed_at");
+    JsonNode issued = n.get("issued_at");
     JsonNode weather = n.get("weather");
     JsonNode temp = n.get("temperature_c");
     JsonNode price = n.get("price_per_kwh");
     JsonNode sessions = n.get("sessions");
     if (kind == null || !kind.isTextual() || hub == null || !hub.isTextual() || at == null || !at.isTextual()
+        || issued == null || !issued.isTextual()
         || weather == null || !weather.isTextual() || temp == null || !temp.isNumber() || price == null || !price.isNumber()) {
       return null;
     }
@@ -57,7 +60,7 @@ final class SchemaCheck {
       if (sessions != null) {
         return null;
       }
-    } else if (kind.asText().equals("actual")) {
+    } else if (kind.asText().equals("actual") || kind.asText().equals("correction")) {
       forecast = false;
       if (sessions == null || !sessions.isNumber() || !Double.isFinite(sessions.asDouble())) {
         return null;
@@ -69,12 +72,14 @@ final class SchemaCheck {
       return null;
     }
     OffsetDateTime t;
+    OffsetDateTime i;
     try {
       t = OffsetDateTime.parse(at.asText());
+      i = OffsetDateTime.parse(issued.asText());
     } catch (DateTimeParseException e) {
       return null;
     }
-    if (t.getYear() < 2000 || t.getYear() > 2100) {   // plausibility bound chosen for this scenario
+    if (t.getYear() < 2000 || t.getYear() > 2100 || i.getYear() < 2000 || i.getYear() > 2100) {   // plausibility bound chosen for this scenario
       return null;
     }
     double tv = temp.asDouble();
@@ -82,6 +87,7 @@ final class SchemaCheck {
     if (!Double.isFinite(tv) || !Double.isFinite(pv)) {
       return null;
     }
-    return new Row(forecast, hub.asText(), t, weather.asText(), tv, pv, forecast ? Double.NaN : sessions.asDouble());
+    return new Row(forecast, hub.asText(), t, weather.asText(), tv, pv, forecast ? Double.NaN : sessions.asDouble(), i,
+        kind.asText().equals("correction"));
   }
 }

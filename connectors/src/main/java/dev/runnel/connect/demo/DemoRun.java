@@ -163,8 +163,9 @@ public final class DemoRun {
       List<JsonNode> snapshots = readJson(bootstrap, name + ".coefficients");
       List<JsonNode> predictions = readJson(bootstrap, name + ".predictions");
       List<JsonNode> rejects = readJson(bootstrap, name + ".rejects");
+      List<JsonNode> settled = readJson(bootstrap, name + ".settled");
       snapshots.sort(Comparator.comparing(s -> s.path("event_time").asText()));
-      DemoSummary summary = DemoSummary.of(settings, total, snapshots, predictions, rejects);
+      DemoSummary summary = DemoSummary.of(settings, total, snapshots, predictions, rejects, settled);
       summary.print(out);
       out.printf("The topics stay in %s: replay them with a later backtest, or start fresh with --fresh.%n",
           pipeline.broker() == null ? bootstrap : pipeline.broker().folder());

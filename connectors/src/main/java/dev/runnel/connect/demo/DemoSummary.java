@@ -41,13 +41,22 @@ import java.util.TreeMap;
  * @param tariffNamed its column and score
  * @param horizons the last snapshot that carries the settled forecasts' errors by horizon (a pipeline
  *     with {@code input.forecast}), or null
+ * @param hourAhead errors of the settled forecasts up to {@link #HOUR_AHEAD_MAX_MS} ahead, issued after the first week
+ * @param dayAhead errors of the settled forecasts more than that and up to {@link #DAY_AHEAD_MAX_MS} ahead, issued after
+ *     the first week (before it, a day-ahead forecast is often for a weekday the model has not seen yet)
  */
 public record DemoSummary(long records, long predictions, Map<String, Long> rejectsByReason,
                           double priceBefore, double priceBeforeSe, double priceAfter, double priceAfterSe,
                           Instant openingSeen, Instant closingGone, double fahrenheitMae, double normalMae,
                           double finalMae, double finalCoverage, long forecasts, Settings settings,
                           Instant tariffAlarmAt, String tariffAlarm, Instant fahrenheitAlarmAt, String fahrenheitAlarm,
-                          Instant tariffNamedAt, String tariffNamed, JsonNode horizons) {
+                          Instant tariffNamedAt, String tariffNamed, JsonNode horizons,
+                          HorizonErrors hourAhead, HorizonErrors dayAhead) {
+
+  /** Upper end of the hour-ahead bucket: 3 h (the demo's hour-ahead requests are 1 h ahead). */
+  public static final long HOUR_AHEAD_MAX_MS = 3 * 3_600_000L;
+  /** Upper end of the day-ahead bucket: 48 h (the demo's 18:00 requests are 6 to 30 h ahead). */
+  public static final long DAY_AHEAD_MAX_MS = 48 * 3_600_000L;
 
   /** Whether the tariff change was found: the price weight roughly doubled, each within 4 standard errors and 20% of the truth. */
   public boolean tariffChangeFound() {
@@ -61,7 +70,7 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
   }
 
   static DemoSummary of(Settings settings, long records, List<JsonNode> snapshots, List<JsonNode> predictions,
-                        List<JsonNode> rejects) {
+                        List<JsonNode> rejects, List<JsonNode> settled) {
     ChangeSchedule sch = ChangeSchedule.of(settings);
     Instant tariff = ChangeSchedule.localTime(settings, sch.tariffChangeHour()).toInstant();
     Instant opening = ChangeSchedule.localTime(settings, sch.openingHour()).toInstant();
@@ -135,6 +144,7 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     double fSum = 0, nSum = 0;
     long fN = 0, nN = 0, forecasts = 0;
     Instant warm = ChangeSchedule.localTime(settings, 24).toInstant();
+    Instant week = ChangeSchedule.localTime(settings, 24 * 7).toInstant();
     for (JsonNode p : predictions) {
       String status = p.path("status").asText();
       if (status.equals("no_target")) {
@@ -160,7 +170,14 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     }
     return new DemoSummary(records, predictions.size(), byReason, pb, pbSe, pa, paSe, openingSeen, closingGone,
         fN == 0 ? Double.NaN : fSum / fN, nN == 0 ? Double.NaN : nSum / nN, finalMae, finalCov, forecasts, settings,
-        priceAlarm, priceAlarmWhat, fAlarm, fAlarmWhat, named, namedWhat, horizons);
+        priceAlarm, priceAlarmWhat, fAlarm, fAlarmWhat, named, namedWhat, horizons,
+        HorizonErrors.of("hour-ahead (up to 3 h)", settled, 0, HOUR_AHEAD_MAX_MS, week),
+        HorizonErrors.of("day-ahead (3 h to 2 days)", settled, HOUR_AHEAD_MAX_MS, DAY_AHEAD_MAX_MS, week));
+  }
+
+  private static void horizonRow(java.io.PrintWriter out, HorizonErrors h, String perfect) {
+    out.printf(Locale.ROOT, "%-26s %,9d %6.2f %6.2f %6.2f %8.1f%%   %s%n", h.label(), h.count(), h.mae(), h.rmse(), h.bias(),
+        100 * h.coverage(), perfect);
   }
 
   /** A time as local date and hour in the scenario's zone, like the ground truth's. */
@@ -220,7 +237,13 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     out.printf(Locale.ROOT, "recent prequential MAE %.2f (noise sd %.1f: a perfect model scores about %.2f); "
             + "90%% interval coverage %.1f%%%n",
         finalMae, GroundTruth.NOISE_SD, GroundTruth.NOISE_SD * Math.sqrt(2 / Math.PI), 100 * finalCoverage);
+    out.println("Forecasts settled by their actuals (issued after the first week), beside what a perfect model scores (ground truth):");
+    out.printf(Locale.ROOT, "%-26s %9s %6s %6s %6s %9s   %s%n", "horizon", "forecasts", "MAE", "RMSE", "bias", "coverage", "perfect model");
+    horizonRow(out, hourAhead, String.format(Locale.ROOT, "RMSE >= %.2f, MAE >= %.2f (the noise)",
+        GroundTruth.noiseFloorRmse(), GroundTruth.noiseFloorMae()));
+    horizonRow(out, dayAhead, String.format(Locale.ROOT, "RMSE %.2f, MAE %.2f", GroundTruth.dayAheadRmse(), GroundTruth.dayAheadMae()));
     if (horizons != null) {
+      out.println("All settled forecasts by horizon bucket, from the last snapshot:");
       for (String l : HorizonTable.lines(horizons, "", 24)) {
         out.println(l);
       }

@@ -25,7 +25,7 @@ class ReplayLongLineTest {
   private static final Path DEMO_CONFIG = Path.of("..", "demo-data", "src", "main", "resources", "dev", "runnel", "demo", "quillmarsh.yaml");
 
   @Test void aLineOverTheRecordLimitIsOneTooLargeRejectAndTheRestIsReplayed(@TempDir Path dir) throws IOException {
-    String good = "{\"kind\":\"actual\",\"hub\":\"QM-01\",\"observed_at\":\"2026-03-25T0%d:00:00+01:00\","
+    String good = "{\"kind\":\"actual\",\"hub\":\"QM-01\",\"issued_at\":\"2026-03-25T0%d:00:00+01:00\","
         + "\"weather\":\"clear\",\"temperature_c\":3.4,\"price_per_kwh\":0.162,\"sessions\":35.4}";
     Path src = dir.resolve("feed.jsonl");
     long padBytes = 3_000_000;

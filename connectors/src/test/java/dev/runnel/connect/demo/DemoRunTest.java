@@ -58,5 +58,13 @@ class DemoRunTest {
     assertNotNull(s.tariffNamed(), "a column named within 7 days of the tariff change: " + printed);
     assertTrue(s.tariffNamed().startsWith("price_per_kwh "), "the named column: " + s.tariffNamed() + "\n" + printed);
     assertTrue(s.finalCoverage() > 0.8 && s.finalCoverage() < 0.97, "90% interval coverage near 90%: " + s.finalCoverage());
+    // the cooperative's workflow (issue 15): hour-ahead and 18:00 day-ahead requests settled by their
+    // actuals, read back from <name>.settled, beside the ground truth's perfect model
+    assertTrue(s.hourAhead().count() > 3000 && s.dayAhead().count() > 3000, "settled by horizon: " + printed);
+    assertTrue(s.dayAhead().rmse() > 0.9 * GroundTruth.dayAheadRmse() && s.dayAhead().rmse() < 5 * GroundTruth.dayAheadRmse(),
+        "day-ahead RMSE " + s.dayAhead().rmse() + ": " + printed);
+    assertTrue(s.hourAhead().rmse() > 0.9 * GroundTruth.noiseFloorRmse(), printed);
+    assertTrue(printed.contains(String.format(java.util.Locale.ROOT, "RMSE %.2f, MAE %.2f", GroundTruth.dayAheadRmse(),
+        GroundTruth.dayAheadMae())), printed);
   }
 }

@@ -30,7 +30,7 @@ class DemoSummaryHorizonsTest {
   @Test
   void theSummaryPrintsTheTableOfTheLastSnapshotThatCarriesIt() throws Exception {
     JsonNode snap = HorizonTableTest.run(HorizonTableTest.CONFIG).snapshot();
-    DemoSummary s = DemoSummary.of(Settings.defaults(), 100, List.of(snap), List.of(), List.of());
+    DemoSummary s = DemoSummary.of(Settings.defaults(), 100, List.of(snap), List.of(), List.of(), List.of());
     String text = printed(s);
     for (String line : HorizonTable.lines(snap, "", 24)) {
       assertTrue(text.contains(line), "missing: " + line + "\n" + text);
@@ -39,7 +39,7 @@ class DemoSummaryHorizonsTest {
 
     ObjectNode plain = snap.deepCopy();
     plain.remove(List.of("horizon_metrics", "forecast_counts"));
-    DemoSummary without = DemoSummary.of(Settings.defaults(), 100, List.of(plain), List.of(), List.of());
+    DemoSummary without = DemoSummary.of(Settings.defaults(), 100, List.of(plain), List.of(), List.of(), List.of());
     assertNull(without.horizons());
     assertFalse(printed(without).contains("by horizon"), printed(without));
   }

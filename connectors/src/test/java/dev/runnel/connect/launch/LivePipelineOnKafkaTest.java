@@ -35,7 +35,7 @@ class LivePipelineOnKafkaTest {
     String bs = broker.bootstrapServers();
     List<String> lines = new ArrayList<>(Files.readAllLines(Path.of("../demo-data/samples/quillmarsh-small.jsonl")).subList(0, 600));
     lines.add("{not json");
-    lines.add("{\"kind\":\"actual\",\"hub\":\"QM-01\",\"observed_at\":\"2026-03-25T10:00:00+01:00\",\"weather\":\"clear\","
+    lines.add("{\"kind\":\"actual\",\"hub\":\"QM-01\",\"issued_at\":\"2026-03-25T10:00:00+01:00\",\"weather\":\"clear\","
         + "\"temperature_c\":\"warm\",\"price_per_kwh\":0.2,\"sessions\":30.0}");
     KafkaTestSupport.createTopic(bs, name + ".in", 1);
     KafkaTestSupport.produce(bs, name + ".in", List.of(lines));

@@ -40,9 +40,9 @@ import org.junit.jupiter.api.extension.ExtendWith;
  * bytes per input offset, none missing, none twice — and the final committed state equals that
  * run's checkpoint bit for bit.
  *
- * <p>The demo configuration runs with {@code input.forecast} (entity {@code hub}; the demo's
- * records carry no target-time field, so a request's target time is its event time and the actual
- * of the same hub and hour settles it): {@code <name>.settled} holds exactly the uninterrupted
+ * <p>The demo configuration runs with {@code input.forecast} (entity {@code hub}, target time
+ * {@code observed_at}; the demo's hour-ahead and 18:00 day-ahead requests are settled by the actuals
+ * that arrive an hour after each hour ends, some a day late): {@code <name>.settled} holds exactly the uninterrupted
  * run's settled forecasts, in order, each once, although the pending forecasts crossed the kills
  * in the checkpoints.
  */
@@ -58,9 +58,6 @@ class PipelineCrashTest {
       yaml = new String(in.readAllBytes(), StandardCharsets.UTF_8);
     }
     yaml = yaml.replace("name: quillmarsh\n", "name: " + NAME + "\n")
-        .replace("    sessions: number\n", "    sessions: number\n    hour_start: time\n")
-        .replace("  event_time: {field: observed_at, format: iso8601}\n", "  event_time: {field: observed_at, format: iso8601}\n"
-            + "  forecast:\n    entity_fields: [hub]\n    target_time_field: hour_start\n")
         .replace("topic: quillmarsh.sessions", "topic: " + TOPIC)
         .replace("bootstrap_servers: \"\"", "bootstrap_servers: \"" + bootstrap + "\"")
         .replace("commit_interval_ms: 500", "commit_interval_ms: 200")

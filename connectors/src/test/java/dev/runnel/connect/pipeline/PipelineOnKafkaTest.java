@@ -146,7 +146,7 @@ class PipelineOnKafkaTest {
 
   /** Each bad record with the reason it must be rejected for. */
   static Map<String, RejectReason> badRecords() {
-    String good = "{\"kind\":\"actual\",\"hub\":\"QM-01\",\"observed_at\":\"2026-01-05T10:00:00+01:00\","
+    String good = "{\"kind\":\"actual\",\"hub\":\"QM-01\",\"issued_at\":\"2026-01-05T10:00:00+01:00\","
         + "\"weather\":\"rain\",\"temperature_c\":4.1,\"price_per_kwh\":0.31,\"sessions\":30.5}";
     Map<String, RejectReason> m = new LinkedHashMap<>();
     m.put(good.substring(0, 50), RejectReason.MALFORMED_JSON);                                   // 1 truncated JSON
@@ -164,7 +164,7 @@ class PipelineOnKafkaTest {
     m.put(good.replace("{\"kind\"", "{\"pad\":\"" + "x".repeat(70_000) + "\",\"kind\""),
         RejectReason.RECORD_TOO_LARGE);                                                          // 13 oversized record
     m.put(good.replace("\"hub\":\"QM-01\",", ""), RejectReason.MISSING_FIELD);                   // 14 missing feature field
-    m.put(good.replace(",\"observed_at\":\"2026-01-05T10:00:00+01:00\"", ""),
+    m.put(good.replace(",\"issued_at\":\"2026-01-05T10:00:00+01:00\"", ""),
         RejectReason.MISSING_FIELD);                                                             // 15 missing event time
     m.put(good.replace("\"rain\"", "{\"sky\":\"grey\"}"), RejectReason.WRONG_TYPE);             // 16 object for a text
     return m;

@@ -76,7 +76,9 @@ class PoisonRecordOnKafkaTest {
     final List<String> predictions = new ArrayList<>();
     final List<String> snapshots = new ArrayList<>();
     final List<String> rejects = new ArrayList<>();
+    final List<String> settled = new ArrayList<>();   // the demo configuration declares input.forecast
 
+    @Override public void settled(byte[] k, byte[] v) { settled.add(new String(v, StandardCharsets.UTF_8)); }
     @Override public void prediction(byte[] k, byte[] v) { predictions.add(new String(v, StandardCharsets.UTF_8)); }
     @Override public void snapshot(byte[] k, byte[] v) { snapshots.add(new String(v, StandardCharsets.UTF_8)); }
     @Override public void reject(byte[] k, byte[] v) { rejects.add(new String(v, StandardCharsets.UTF_8)); }
@@ -161,6 +163,9 @@ class PoisonRecordOnKafkaTest {
     for (ConsumerRecord<byte[], byte[]> r : KafkaTestSupport.readAll(bs, cfg.name() + ".rejects")) {
       actual.get(JSON.readTree(r.value()).path("source").path("partition").asInt()).reject(r.key(), r.value());
     }
+    for (ConsumerRecord<byte[], byte[]> r : KafkaTestSupport.readAll(bs, cfg.name() + ".settled")) {
+      actual.get(JSON.readTree(r.value()).path("actual_source").path("partition").asInt()).settled(r.key(), r.value());
+    }
     for (ConsumerRecord<byte[], byte[]> r : KafkaTestSupport.readAll(bs, cfg.name() + ".coefficients")) {
       actual.get(new String(r.key(), StandardCharsets.UTF_8).endsWith("-0") ? 0 : 1).snapshot(r.key(), r.value());
     }
@@ -173,6 +178,8 @@ class PoisonRecordOnKafkaTest {
       assertEquals(expected.get(p).predictions, actual.get(p).predictions, "predictions of partition " + p);
       assertEquals(expected.get(p).snapshots, actual.get(p).snapshots, "snapshots of partition " + p);
       assertEquals(expected.get(p).rejects, actual.get(p).rejects, "rejects of partition " + p);
+      assertEquals(expected.get(p).settled, actual.get(p).settled, "settled forecasts of partition " + p);
+      assertTrue(expected.get(p).settled.size() > 1000, "forecasts settled in partition " + p);
       for (String rej : actual.get(p).rejects) {
         JsonNode j = JSON.readTree(rej);
         if (j.path("reason").asText().equals("processing_failed")) {

@@ -362,7 +362,9 @@ public final class PipelineStep {
     int known = -1;
     if (hasTarget && pending != null) {
       long now = clock.nowMillis();
-      if (now != Long.MIN_VALUE && now - target > maxActualLagMillis) {
+      // judged against a confirmed clock only: while it is provisional (a wrong first record dated
+      // 2039), the records far behind it are the clock's to judge (time_jump until K agree)
+      if (now != Long.MIN_VALUE && !clock.provisional() && now - target > maxActualLagMillis) {
         reject(RejectReason.ACTUAL_TOO_LATE, "target time " + java.time.Instant.ofEpochMilli(target) + " is "
             + java.time.Duration.ofMillis(now - target) + " behind the stream clock " + java.time.Instant.ofEpochMilli(now)
             + ", more than input.forecast.max_actual_lag (" + java.time.Duration.ofMillis(maxActualLagMillis) + ")", sink);

@@ -193,6 +193,12 @@ public final class StreamClock {
   /** Jumps accepted since the state began. */
   public long jumps() { return jumps; }
 
+  /**
+   * Whether the clock is still provisional: fewer than {@code input.clock.confirm_records} training
+   * records accepted since the start, so a record far behind it may yet overrule it (rule 5).
+   */
+  public boolean provisional() { return nowMillis != Long.MIN_VALUE && support < confirmRecords; }
+
   /** Why the last record was rejected. */
   public String lastDetail() { return detail; }
 

@@ -69,16 +69,18 @@ public final class InputCorpus {
     if (!yaml.contains(model)) throw new IllegalStateException("the demo configuration no longer has a model section");
     yaml = yaml.replace(model, model + "  target_non_negative: true\n");
     if (feed.equals("forecast")) {
-      String fields = "    sessions: number\n";
-      String time = "  event_time: {field: observed_at, format: iso8601}\n";
-      if (!yaml.contains(fields) || !yaml.contains(time)) throw new IllegalStateException("the demo configuration's fields changed");
-      return yaml.replace(fields, fields + "    hour_start: time\n")
-          .replace(time, time + "  forecast: {entity_fields: [hub], target_time_field: hour_start}\n");
+      // the demo configuration has input.forecast (entity hub, target time observed_at); the corpus's
+      // actuals are checked under the default policy for corrections (reject)
+      String replace = yaml.replaceAll("(?m)^    corrections: replace.*$", "    corrections: reject");
+      if (replace.equals(yaml)) throw new IllegalStateException("the demo configuration no longer says corrections: replace");
+      return replace;
     }
+    // the other feeds insert records that repeat each other's (hub, time, value): no memory of learned actuals
+    yaml = dev.runnel.core.pipeline.StreamClockPolicyTest.withoutLearnedMemory(yaml);
     return yaml.replace(from, "format: " + feed);
   }
 
-  private static final Pattern TIME = Pattern.compile("\"observed_at\":\"([^\"]*)\"");
+  private static final Pattern TIME = Pattern.compile("\"issued_at\":\"([^\"]*)\"");   // the demo's event time
   private static final Pattern PAD = Pattern.compile("\\{\\{pad:(\\d+)\\}\\}");
   private static final DateTimeFormatter OFFSET_TIME = DateTimeFormatter.ofPattern("uuuu-MM-dd'T'HH:mm:ssxxx", Locale.ROOT);
 
@@ -104,7 +106,7 @@ public final class InputCorpus {
             last = ms;
             lastIso = m.group(1);
           }
-          if (feed.startsWith("epoch")) out = l.substring(0, m.start()) + "\"observed_at\":" + epoch(ms, feed) + l.substring(m.end());
+          if (feed.startsWith("epoch")) out = l.substring(0, m.start()) + "\"issued_at\":" + epoch(ms, feed) + l.substring(m.end());
         } catch (java.time.format.DateTimeParseException e) {
           // a corrupt line of the sample: kept as it is
         }

@@ -80,17 +80,21 @@ class DemoRunSameBitsTest {
 
   // SHA-256 of the build before the split (commit 2a32cd2, then e6a20f4 after the output format 2
   // names and the new reject counts changed outputs and checkpoints; the featurizer digests did not move); see the class comment.
-  static final String DEMO_OUTPUTS = "38864b93fd0ca7ec90f843143387d1d8d9b7ce2b02fa716fe37682dc08c6ffe7";
-  static final String DEMO_FEATURIZER = "78248e35187681e87252a9ba6f3089baeeb9155f02afcb2c670d60c47ba223a2";
-  static final String DEMO_CHECKPOINT = "0a51443407f801ab4177e97d689607d5abe48458cd8e6f650bb57fe625182f44";
-  static final String EVERY_KIND_OUTPUTS = "dc237b6aa4e78430e7ad1eda9726f81e33e802ab90df1be84f0fa684f1e80998";
-  static final String EVERY_KIND_FEATURIZER = "e91d85ba284ab6418caf811b4331da81bde5d97b90b10effafa6401b009068a4";
-  // The every-kind checkpoint moved once, deliberately (issue 17, branch drift-attr): in this run an
-  // error-level alarm fires within the last drift.attribution_records (400) records, so the
-  // checkpoint carries the change attribution's open window (checkpoint version 7 since the merge with the memory of learned actuals and the horizon tables, which took 5 and 6; only the version number in the header differs from the branch's version 5). Outputs and
-  // featurizer state did not move; with drift.attribution_records = 0 the former digest
-  // eaf9808dc9099588c58d6302f5bda7dccf49f3fe999741169d08440ecb2356ae comes back (checked).
-  static final String EVERY_KIND_CHECKPOINT = "3d703ddd4caece1774eea1a593d830c82fa3a9a031b133c80d53750c49cc16d1";
+  // Then the demo's inputs changed on purpose (issue 15, the demo: the sample now has an issued_at event
+  // time, hour-ahead and 18:00 day-ahead requests, late and corrected actuals, and the demo configuration
+  // declares input.forecast): the six values below were recomputed on the demo-hz branch, whose
+  // stream-core main code is byte for byte that of 0dbbd96; only the sample, the configuration and the
+  // thresholds above (a sample of 4,951 lines) changed.
+  // Merged into main with the forecasting work of the same day, the demo's outputs and checkpoint moved
+  // again, deliberately (its featurizer digest did not): the demo configuration takes corrections
+  // (corrections: replace), so a correction removes the first value and settles its forecasts again,
+  // and its snapshots carry the forecast counts and the errors by horizon (checkpoint version 6).
+  static final String DEMO_OUTPUTS = "eb3881cddee4d0a549082a6bb83a8026963db4d20155dfedbf57ffa5ef6114df";
+  static final String DEMO_FEATURIZER = "bb97fc54ac124b89b8c20607adc5009165d1b0519d4b3e6afb9373a5796cd19b";
+  static final String DEMO_CHECKPOINT = "6d056d3c6878d8f95683028aaa5b9067f2bb4d375f04b3cc6085db221cc93162";
+  static final String EVERY_KIND_OUTPUTS = "7fbda7062d1b5cb2974e803a97f9348b1dd0232a8cf0f491212ba2c74d615462";
+  static final String EVERY_KIND_FEATURIZER = "0eac7469a15b515005a9628005d4fe1fceac462214303296d2bccbb92099e82c";
+  static final String EVERY_KIND_CHECKPOINT = "b30b91d5176d7036e9b7bae5b4f06f6c2663685c513780deebfc2afc0b45c569";
 
   /** One run: every output line, in order, then the state at the end. */
   static final class Run implements PipelineStep.Sink {
@@ -166,7 +170,7 @@ class DemoRunSameBitsTest {
     List<String> lines = demoLines();
     Run run = new Run(cfg).feed(lines, 0, lines.size());
     // the run is not trivial: it trains, scores, rejects (the sample's corrupt lines) and snapshots
-    assertTrue(run.predictions > 5000 && run.rejects > 0 && run.snapshots > 10,
+    assertTrue(run.predictions > 4500 && run.rejects > 0 && run.snapshots > 10,
         run.predictions + " predictions, " + run.rejects + " rejects, " + run.snapshots + " snapshots");
     assertTrue(run.step.featurizer().layoutVersion() > 0, "levels were admitted");
     String got = "outputs " + hex(run.outputs.digest()) + "\nfeaturizer " + run.featurizerState()
@@ -199,7 +203,7 @@ class DemoRunSameBitsTest {
     whole.outputs.reset();
     whole.feed(lines, half, lines.size());
     restored.feed(lines, half, lines.size());
-    assertTrue(restored.predictions > 2500, restored.predictions + " predictions after the restore");
+    assertTrue(restored.predictions > 2400, restored.predictions + " predictions after the restore");
     assertEquals(hex(whole.outputs.digest()), hex(restored.outputs.digest()), "the outputs after the restore");
     assertArrayEquals(whole.step.checkpoint(), restored.step.checkpoint(), "the state at the end");
   }

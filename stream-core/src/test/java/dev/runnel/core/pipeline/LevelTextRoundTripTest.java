@@ -97,7 +97,7 @@ class LevelTextRoundTripTest {
       boolean lone = r.nextInt(10) == 0;
       String hub = lone ? text(r, true) : pool.get(r.nextInt(pool.size()));
       String time = java.time.Instant.ofEpochSecond(t0 + 60L * i).toString();
-      String rec = "{\"kind\":\"actual\",\"hub\":" + json(hub, r) + ",\"observed_at\":\"" + time + "\",\"weather\":\"clear\","
+      String rec = "{\"kind\":\"actual\",\"hub\":" + json(hub, r) + ",\"issued_at\":\"" + time + "\",\"weather\":\"clear\","
           + "\"temperature_c\":" + (r.nextInt(300) / 10.0) + ",\"price_per_kwh\":0.2,\"sessions\":" + r.nextInt(60) + "}";
       feed.add(rec.getBytes(StandardCharsets.UTF_8));
       texts.add(hub);

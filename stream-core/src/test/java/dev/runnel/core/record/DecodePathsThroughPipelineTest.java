@@ -117,7 +117,9 @@ class DecodePathsThroughPipelineTest {
   }
 
   @Test void demoSample_sameBytesEitherWay() throws IOException {
-    runBoth(ConfigLoader.load(DEMO_CONFIG), DecoderAgreementTest.sampleLines(), 2);
+    // two passes: the second repeats every actual, so the memory of learned actuals is off (it would reject them)
+    runBoth(ConfigLoader.parse(dev.runnel.core.pipeline.StreamClockPolicyTest.withoutLearnedMemory(
+        java.nio.file.Files.readString(DEMO_CONFIG)), "quillmarsh.yaml"), DecoderAgreementTest.sampleLines(), 2);
   }
 
   @Test void demoSampleWithTrickyHubNames_sameBytesEitherWay() throws IOException {
