@@ -125,6 +125,7 @@ public final class ConfigKeys {
   public static final ConfigKey<Boolean> FORGET_TOWARDS_PRIOR = add(ConfigKey.flag("model", "forget_towards_prior", ModelSettings.DEFAULT_WINDUP_GUARD).formerly("windup_guard"));
   public static final ConfigKey<Double> INTERVAL_LEVEL = add(ConfigKey.number("model", "interval_level", ModelSettings.DEFAULT_INTERVAL_LEVEL, 0, true, 1, true, "use a number between 0 and 1 (both excluded), e.g. 0.9"));
   public static final ConfigKey<Double> NOISE_HALF_LIFE_RECORDS = add(ConfigKey.number("model", "noise_half_life_records", ModelSettings.DEFAULT_NOISE_HALF_LIFE_RECORDS, 0, true, 1.0e15, false, "use a number of records greater than 0"));
+  public static final ConfigKey<ModelScope> MODEL_SCOPE = add(ConfigKey.choice("model", "scope", ModelScope.PARTITION, ModelScope.values(), ModelScope::word));
 
   // ---- outputs ----
   public static final ConfigKey<Long> SNAPSHOT_EVERY_RECORDS = add(ConfigKey.whole("outputs", "snapshot_every_records", 1000, 0, Long.MAX_VALUE));
