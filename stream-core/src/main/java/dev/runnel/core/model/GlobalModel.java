@@ -327,6 +327,27 @@ public final class GlobalModel implements LayoutListener {
   }
 
   /**
+   * As {@link RlsModel#forecast}: the view's a-priori prediction and leverage for a record in the
+   * local layout.
+   *
+   * @param x the feature vector in the local layout. Not modified.
+   * @param out receives the leverage in element 0 and the prediction in element 1. Modified.
+   */
+  public void forecast(double[] x, double[] out) {
+    scatter(x);
+    view.model.forecast(viewRow, out);
+  }
+
+  /**
+   * @param x the feature vector in the local layout. Not modified.
+   * @return the view's leverage of {@code x} (NaN while it is not ready)
+   */
+  public double leverage(double[] x) {
+    scatter(x);
+    return view.model.leverage(viewRow);
+  }
+
+  /**
    * Hands out what this partition's own records contributed since its last share, stated at
    * {@code eventTimeMillis}, and starts the next share empty. Call it with the stream clock's
    * time, and checkpoint the model in the same transaction as the share is published.

@@ -277,4 +277,51 @@ class GlobalModelStateTest {
     magic[0] = 'X';
     assertTrue(assertThrows(IOException.class, () -> ModelShare.fromBytes(magic)).getMessage().contains("not a model share"));
   }
+
+  @Test
+  void onePartitionWithoutRemovalsIsTodaysModelBitForBit() throws IOException {
+    // the view gets the same events in the same order as a model per partition: same bits, so a
+    // single partition in global mode predicts as today (a removal differs: the view keeps the column)
+    GlobalModel g = new GlobalModel(0, COLUMNS, SETTINGS, HALF_LIFE_MS);
+    RlsModel plain = new RlsModel(2, SETTINGS);
+    Random rnd = new Random(13);
+    List<String> layout = new ArrayList<>(Arrays.asList(COLUMNS));
+    double mean = 0;
+    double sd = 1;
+    double[] outG = new double[2];
+    double[] outP = new double[2];
+    for (int i = 0; i < 400; i++) {
+      if (i % 9 == 4) {
+        double m = 5 + rnd.nextGaussian();
+        double s = 2 * Math.exp(0.2 * rnd.nextGaussian());
+        g.columnRebased(1, s / sd, (m - mean) / sd);
+        plain.columnRebased(1, s / sd, (m - mean) / sd);
+        mean = m;
+        sd = s;
+      }
+      String level = "lvl" + rnd.nextInt(6);
+      if (!layout.contains(level)) {
+        layout.add(level);
+        g.columnAdded(layout.size() - 1, level, true);
+        plain.columnAdded(layout.size() - 1, level, true);
+      }
+      double[] x = new double[layout.size()];
+      x[0] = 1;
+      x[1] = (5 + 2 * rnd.nextGaussian() - mean) / sd;
+      x[layout.indexOf(level)] = 1;
+      double y = rnd.nextGaussian() + x[1];
+      g.forecast(x, outG);
+      plain.forecast(x, outP);
+      assertEquals(Double.doubleToLongBits(outP[1]), Double.doubleToLongBits(outG[1]), "prediction at " + i);
+      assertEquals(Double.doubleToLongBits(outP[0]), Double.doubleToLongBits(outG[0]), "leverage at " + i);
+      double lambda = StrictMath.pow(2.0, -(double) (1 + rnd.nextInt(900)) / HALF_LIFE_MS);
+      assertEquals(plain.update(x, y, lambda, outP), g.update(x, y, lambda, outG));
+      assertEquals(Double.doubleToLongBits(outP[1]), Double.doubleToLongBits(outG[1]), "a-priori prediction at " + i);
+    }
+    ByteArrayOutputStream a = new ByteArrayOutputStream();
+    ByteArrayOutputStream b = new ByteArrayOutputStream();
+    plain.writeTo(new DataOutputStream(a));
+    g.view().writeTo(new DataOutputStream(b));
+    assertArrayEquals(a.toByteArray(), b.toByteArray(), "the view's state differs from the plain model's");
+  }
 }
