@@ -196,7 +196,7 @@ public final class GlobalModel implements LayoutListener {
   private final int partition;
   private final ModelSettings settings;
   private final double halfLifeMillis;
-  private final Table view;
+  private Table view;
   private Table pending;
   private int local;
   private long nextSequence = 1;
@@ -488,6 +488,27 @@ public final class GlobalModel implements LayoutListener {
     }
     folded.put(s.source(), s.sequence());
     return FoldResult.FOLDED;
+  }
+
+  /**
+   * Starts the view again from its prior over the local columns, and the pending share empty:
+   * what a model per partition does after a step of 64 half-lives or more, when everything
+   * learned before weighs under {@code 2^-64} of the next record (docs/model.md, "The stream
+   * clock"). Kept columns only other partitions held go (they come back with the next share that
+   * names them); the local columns keep their bases, as the featurizer's scalers do. The
+   * exactly-once bookkeeping is kept: the shares folded before are not folded again, and the next
+   * share's number follows the last one.
+   */
+  public void restartFromPrior() {
+    Table fresh = new Table();
+    for (int j = 0; j < local; j++) {
+      int v = view.fromLocal[j];
+      fresh.register(view.names.get(v), view.fixed[v], view.offset[v], view.scale[v]);
+      fresh.bindLocal(j, j);
+    }
+    fresh.model = new RlsModel(local, settings);
+    view = fresh;
+    pending = freshPending();
   }
 
   // ---------------------------------------------------------------- layout events

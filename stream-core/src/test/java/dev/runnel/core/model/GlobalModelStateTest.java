@@ -324,4 +324,33 @@ class GlobalModelStateTest {
     g.view().writeTo(new DataOutputStream(b));
     assertArrayEquals(a.toByteArray(), b.toByteArray(), "the view's state differs from the plain model's");
   }
+
+  @Test
+  void aRestartFromThePriorKeepsTheExactlyOnceBookkeeping() throws IOException {
+    Feed a = new Feed(0, 14);
+    Feed b = new Feed(1, 15);
+    a.learn(30, 0);
+    b.learn(30, 1);
+    ModelShare s1 = b.gm.share(b.clock);
+    a.gm.fold(s1, a.clock);
+    a.gm.share(a.clock);
+    a.learn(5, 0); // in the pending share when the restart comes
+    int local = a.gm.localDimension();
+    double offset = a.gm.viewOffset(1);
+    a.gm.restartFromPrior();
+    assertEquals(local, a.gm.view().dimension(), "the view holds the local columns only");
+    assertEquals(offset, a.gm.viewOffset(1), 0.0, "the local columns keep their bases");
+    double[] w = new double[local];
+    a.gm.view().weights(w);
+    for (double v : w) {
+      assertEquals(0.0, v, 0.0, "the view is at its prior mean");
+    }
+    assertEquals(GlobalModel.FoldResult.ALREADY_FOLDED, a.gm.fold(s1, a.clock));
+    assertEquals(2, a.gm.nextShareSequence());
+    a.learn(10, 0);
+    double n = a.gm.share(a.clock).sampleSize(); // ten records' weights, each at most 1
+    assertTrue(n > 9 && n <= 10, "the pending share did not start empty: sample size " + n);
+    GlobalModel copy = restore(bytes(a.gm));
+    assertArrayEquals(bytes(a.gm), bytes(copy));
+  }
 }
