@@ -353,4 +353,53 @@ class GlobalModelStateTest {
     GlobalModel copy = restore(bytes(a.gm));
     assertArrayEquals(bytes(a.gm), bytes(copy));
   }
+
+  @Test
+  void aReBasedColumnThatComesBackContinuesInTheBasisANewColumnStartsIn() {
+    GlobalModel g = new GlobalModel(0, COLUMNS, SETTINGS, Double.POSITIVE_INFINITY);
+    Random rnd = new Random(16);
+    g.columnAdded(2, "promo", false);
+    double m = 3.0;
+    double s = 0.5;
+    g.columnRebased(2, s, m); // from (0, 1) to (3, 0.5)
+    for (int i = 0; i < 50; i++) {
+      double promo = 3 + 0.5 * rnd.nextGaussian();
+      double[] x = {1, rnd.nextGaussian(), (promo - m) / s};
+      assertTrue(g.update(x, 1 + 2 * promo + 0.1 * rnd.nextGaussian(), 1.0, null));
+    }
+    double raw = 4.2;
+    double before = g.predict(new double[] {1, 0.3, (raw - m) / s});
+    g.columnRemoved(2); // kept in the view, in basis (3, 0.5)
+    assertEquals(3, g.view().dimension());
+    g.columnAdded(2, "promo", false); // back: the kept column, re-based to (0, 1)
+    assertEquals(3, g.view().dimension(), "the kept column is continued, not added again");
+    assertEquals(0.0, g.viewOffset(g.viewIndex("promo")), 0.0);
+    assertEquals(1.0, g.viewScale(g.viewIndex("promo")), 0.0);
+    double after = g.predict(new double[] {1, 0.3, raw});
+    assertEquals(before, after, 1e-12 * Math.abs(before), "re-basing the continued column moved a prediction");
+    ModelShare share = g.share(0);
+    int q = -1;
+    for (int k = 0; k < share.dimension(); k++) {
+      if (share.name(k).equals("promo")) {
+        q = k;
+      }
+    }
+    assertEquals(0.0, share.offset(q), 0.0, "the pending share's column is in the new basis too");
+    assertEquals(1.0, share.scale(q), 0.0);
+    assertEquals(50.0, share.sampleSize(), 0.0);
+  }
+
+  @Test
+  void aShareStatedFarAheadOfTheClockIsRefused() {
+    Feed a = new Feed(0, 17);
+    Feed b = new Feed(1, 18);
+    a.learn(5, 0);
+    b.learn(5, 1);
+    ModelShare far = b.gm.share(a.clock + (long) (65 * HALF_LIFE_MS));
+    IllegalArgumentException e = assertThrows(IllegalArgumentException.class, () -> a.gm.fold(far, a.clock));
+    assertTrue(e.getMessage().contains("half-lives after this clock"), e.getMessage());
+    assertEquals(0, a.gm.lastFolded(1));
+    // a little ahead is folded, with a weight above 1 (it decays back as the clock catches up)
+    assertEquals(GlobalModel.FoldResult.FOLDED, a.gm.fold(far, far.eventTimeMillis() - (long) HALF_LIFE_MS));
+  }
 }
