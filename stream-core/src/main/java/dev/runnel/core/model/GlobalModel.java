@@ -394,7 +394,7 @@ public final class GlobalModel implements LayoutListener {
    * @param nowMillis this partition's stream clock
    * @return {@link FoldResult#ALREADY_FOLDED}, changing nothing, when its sequence number is at or
    *     below the last one folded from its source; else {@link FoldResult#FOLDED}
-   * @throws IllegalArgumentException, changing nothing, if the share is this partition's own,
+   * @throws IllegalArgumentException (the state unchanged) if the share is this partition's own,
    *     skips a sequence number of its source (a share was lost: folding on would never count
    *     it), disagrees on the constant term, needs a shift without a constant term, is stated
    *     more than 64 half-lives after {@code nowMillis}, or holds entries beyond
