@@ -876,7 +876,17 @@ public final class ConfigLoader {
       boolean towardsPrior = ConfigKeys.FORGET_TOWARDS_PRIOR.read(m);
       double level = ConfigKeys.INTERVAL_LEVEL.read(m);
       double noise = ConfigKeys.NOISE_HALF_LIFE_RECORDS.read(m);
-      return new PipelineConfig.Model(constant, prior, diffuse, factor, halfLife, towardsPrior, level, noise);
+      ModelScope scope = ConfigKeys.MODEL_SCOPE.read(m);
+      if (scope == ModelScope.GLOBAL) {
+        String k = m.p("scope");
+        if (factor != 1.0) {
+          throw new ConfigException(k, k + ": global needs forgetting by event time (model.forgetting.half_life) or none;"
+              + " model.forgetting.factor " + factor + " forgets per record, and partitions share no record count");
+        }
+        m.warn(k, k + ": global: the shared model's core is built, the runner does not share between partitions yet,"
+            + " so each partition still keeps its own model (docs/model.md, \"One model across partitions\")");
+      }
+      return new PipelineConfig.Model(constant, prior, diffuse, factor, halfLife, towardsPrior, level, noise, scope);
     }
 
     /** The target's keys of the {@code model} section (docs/model.md, "Transformed target"). */

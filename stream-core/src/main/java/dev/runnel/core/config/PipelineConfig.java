@@ -172,12 +172,34 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    * @param forgettingFactor per-record factor in (0, 1]; 1 when a half-life is used instead
    * @param forgettingHalfLifeMillis event-time half-life of the data's weight; 0 when the factor is used
    * @param noiseHalfLifeRecords fading window of the noise-variance estimate, in records
+   * @param scope key {@code model.scope}: a model per partition, or one across partitions
    */
   public record Model(boolean constantTerm, double priorVariance, boolean diffuse, double forgettingFactor,
                       long forgettingHalfLifeMillis, boolean windupGuard, double intervalLevel,
-                      double noiseHalfLifeRecords) {
+                      double noiseHalfLifeRecords, ModelScope scope) {
+    /** A model per partition (the default scope). */
+    public Model(boolean constantTerm, double priorVariance, boolean diffuse, double forgettingFactor,
+                 long forgettingHalfLifeMillis, boolean windupGuard, double intervalLevel, double noiseHalfLifeRecords) {
+      this(constantTerm, priorVariance, diffuse, forgettingFactor, forgettingHalfLifeMillis, windupGuard, intervalLevel,
+          noiseHalfLifeRecords, ModelScope.PARTITION);
+    }
+
     /** Whether forgetting is by event time rather than per record. */
     public boolean forgetsByTime() { return forgettingHalfLifeMillis > 0; }
+
+    /**
+     * The text a record of the eight components before {@code scope} would have, followed by the
+     * scope only when it is not the default: the checkpoint's configuration fingerprint is
+     * computed from this text, so checkpoints of a model per partition keep theirs
+     * ({@code ConfigLoaderTest} compares it with such a record's own text).
+     */
+    @Override
+    public String toString() {
+      return "Model[constantTerm=" + constantTerm + ", priorVariance=" + priorVariance + ", diffuse=" + diffuse
+          + ", forgettingFactor=" + forgettingFactor + ", forgettingHalfLifeMillis=" + forgettingHalfLifeMillis
+          + ", windupGuard=" + windupGuard + ", intervalLevel=" + intervalLevel + ", noiseHalfLifeRecords="
+          + noiseHalfLifeRecords + (scope == ModelScope.PARTITION ? "" : ", scope=" + scope.word()) + "]";
+    }
   }
 
   /**

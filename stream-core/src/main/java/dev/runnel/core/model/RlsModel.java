@@ -1449,6 +1449,124 @@ public final class RlsModel implements LayoutListener {
   }
 
   /**
+   * The information in square-root form, in true units: {@code rowsOut[i]} is row {@code i} of
+   * {@code scale * r} (upper triangular in the factor's own column order, entries before the
+   * diagonal 0) and {@code targetsOut[i]} row {@code i} of {@code scale * z}, so that
+   * {@code sum_i row_i row_i^T} is the information {@code Lambda} and {@code sum_i row_i t_i} the
+   * information-weighted target vector {@code Lambda theta}. {@code columnsOut[q]} is the layout
+   * column at factor position {@code q}. Used to share what a model holds (see
+   * {@link GlobalModel}); {@code O(p^2)}, cold path.
+   *
+   * @param rowsOut at least {@link #dimension()} rows of length at least {@link #dimension()}. Modified.
+   * @param targetsOut length at least {@link #dimension()}. Modified.
+   * @param columnsOut length at least {@link #dimension()}. Modified.
+   * @return the dimension
+   */
+  public int sqrtInformation(double[][] rowsOut, double[] targetsOut, int[] columnsOut) {
+    applyRebases();
+    for (int i = 0; i < p; i++) {
+      final double[] out = rowsOut[i];
+      Arrays.fill(out, 0, i, 0.0);
+      for (int j = i; j < p; j++) {
+        out[j] = r[i][j] * scale;
+      }
+      targetsOut[i] = z[i] * scale;
+      columnsOut[i] = col[i];
+    }
+    return p;
+  }
+
+  /**
+   * Adds the information of {@code count} rows at once, each with weight {@code weight}: the
+   * model then holds the minimizer of its problem plus {@code weight * (t_i - row_i^T theta)^2}
+   * for every row. The rows are another model's square-root information (in this model's layout
+   * and basis), so with their own minimum {@code residualSumOfSquares} and effective sample size
+   * {@code sampleSize} the model's {@code rho^2} and {@code n_eff} become those of the union of
+   * both problems: {@code rho^2 += weight * residualSumOfSquares + (what the rotations leave
+   * over)}, {@code n_eff += weight * sampleSize}. Nothing is forgotten, no prior row is added, the
+   * noise estimate and the update count are unchanged. Each row is rotated into the factor by
+   * Givens rotations, as {@link #update} does; {@code O(count p^2)}, cold path.
+   *
+   * @param rows rows in layout order, each of length at least {@link #dimension()}. Not modified.
+   * @param targets the rows' targets. Not modified.
+   * @param count number of rows
+   * @param weight the rows' weight, positive and finite (forgetting between the rows' time and now)
+   * @param residualSumOfSquares the rows' own minimum, finite and non-negative
+   * @param sampleSize the rows' effective sample size, finite and non-negative
+   * @return false, with the model unchanged, if an entry (times {@code sqrt(weight)}) is not finite
+   *     or is larger than {@link #MAX_ABS_INPUT}
+   * @throws IllegalArgumentException if {@code weight}, {@code residualSumOfSquares} or
+   *     {@code sampleSize} is out of range, or a row is too short
+   */
+  public boolean addRows(double[][] rows, double[] targets, int count, double weight,
+      double residualSumOfSquares, double sampleSize) {
+    if (!(weight > 0 && weight < Double.POSITIVE_INFINITY)) {
+      throw new IllegalArgumentException("weight must be positive and finite, got " + weight);
+    }
+    if (!(residualSumOfSquares >= 0 && residualSumOfSquares < Double.POSITIVE_INFINITY)) {
+      throw new IllegalArgumentException("residualSumOfSquares must be finite and >= 0, got " + residualSumOfSquares);
+    }
+    if (!(sampleSize >= 0 && sampleSize < Double.POSITIVE_INFINITY)) {
+      throw new IllegalArgumentException("sampleSize must be finite and >= 0, got " + sampleSize);
+    }
+    final double sw = Math.sqrt(weight);
+    for (int k = 0; k < count; k++) {
+      checkLength(rows[k]);
+      if (!acceptable(rows[k], targets[k] * sw)) {
+        return false;
+      }
+      for (int j = 0; j < p; j++) {
+        if (!(Math.abs(rows[k][j] * sw) <= MAX_ABS_INPUT)) {
+          return false;
+        }
+      }
+    }
+    applyRebases();
+    final int n = p;
+    final double[][] rm = r;
+    final double[] w = work;
+    final double f = sw / scale;
+    double added = 0.0;
+    for (int k = 0; k < count; k++) {
+      gather(rows[k], w);
+      for (int j = 0; j < n; j++) {
+        w[j] *= f;
+      }
+      double yw = targets[k] * f;
+      for (int i = 0; i < n; i++) {
+        final double xi = w[i];
+        if (xi == 0.0) {
+          continue;
+        }
+        final double[] row = rm[i];
+        final double h = StrictMath.hypot(row[i], xi);
+        final double cs = row[i] / h;
+        final double sn = xi / h;
+        row[i] = h;
+        w[i] = 0.0;
+        for (int j = i + 1; j < n; j++) {
+          final double a = row[j];
+          final double b = w[j];
+          row[j] = cs * a + sn * b;
+          w[j] = cs * b - sn * a;
+        }
+        final double zi = z[i];
+        z[i] = cs * zi + sn * yw;
+        yw = cs * yw - sn * zi;
+      }
+      final double e = yw * scale;
+      added += e * e;
+    }
+    factorChanged();
+    rho2 += weight * residualSumOfSquares + added;
+    nEff += weight * sampleSize;
+    if (settings.diffuse()) {
+      ready = fullRank();
+    }
+    return true;
+  }
+
+  /**
    * R^-1, upper triangular, row-major p x p, by back-substitution per column; kept until the
    * factor changes (a snapshot asks for standard errors and the covariance, twice). Not to be
    * modified by the caller.

@@ -1,0 +1,18 @@
+package dev.runnel.core.config;
+
+/** Which records one model learns from (key {@code model.scope}; docs/model.md, "One model across partitions"). */
+public enum ModelScope {
+  /** Each partition keeps its own model, learned from its own records (today's behaviour). */
+  PARTITION("partition"),
+  /**
+   * One model across partitions: each partition shares what its records contributed and folds in
+   * the others' shares ({@code dev.runnel.core.model.GlobalModel}). The core is built; the
+   * runner's wiring is not yet, so a run still keeps a model per partition (the loader warns).
+   */
+  GLOBAL("global");
+
+  private final String word;
+  ModelScope(String word) { this.word = word; }
+  /** The configuration word. */
+  public String word() { return word; }
+}
