@@ -243,8 +243,8 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
         GroundTruth.noiseFloorRmse(), GroundTruth.noiseFloorMae()));
     horizonRow(out, dayAhead, String.format(Locale.ROOT, "RMSE %.2f, MAE %.2f", GroundTruth.dayAheadRmse(), GroundTruth.dayAheadMae()));
     if (horizons != null) {
-      out.println("All settled forecasts by horizon bucket, from the last snapshot:");
-      for (String l : HorizonTable.lines(horizons, "", 24)) {
+      out.println("All settled forecasts by horizon bucket, from the last snapshot (per hub: the snapshots, `drift`, the live page):");
+      for (String l : HorizonTable.lines(horizons, "", 0)) {
         out.println(l);
       }
     }

@@ -172,7 +172,7 @@ class ServiceOnKafkaTest {
       assertEquals(200, many.statusCode(), many.body());
       assertEquals(requests.size(), JSON.readTree(many.body()).size());
       HttpResponse<String> bad = post(http, base + "forecast",
-          "{\"kind\":\"forecast\",\"hub\":\"QM-01\",\"observed_at\":\"2026-03-25T10:00:00+01:00\",\"weather\":\"clear\","
+          "{\"kind\":\"forecast\",\"hub\":\"QM-01\",\"issued_at\":\"2026-03-25T09:00:00+01:00\",\"observed_at\":\"2026-03-25T10:00:00+01:00\",\"weather\":\"clear\","
               + "\"temperature_c\":\"warm\",\"price_per_kwh\":0.2}");
       assertEquals(400, bad.statusCode(), bad.body());
       assertEquals("wrong_type", JSON.readTree(bad.body()).path("reason").asText(), bad.body());
@@ -213,7 +213,7 @@ class ServiceOnKafkaTest {
       for (int i = 1; i <= 8; i++) {
         String hub = "QM-0" + i;
         int owner = LiveService.partitionOf(hub.getBytes(StandardCharsets.UTF_8), 2);
-        String req = "{\"kind\":\"forecast\",\"hub\":\"" + hub + "\",\"observed_at\":\"2026-03-25T10:00:00+01:00\","
+        String req = "{\"kind\":\"forecast\",\"hub\":\"" + hub + "\",\"issued_at\":\"2026-03-25T09:00:00+01:00\",\"observed_at\":\"2026-03-25T10:00:00+01:00\","
             + "\"weather\":\"clear\",\"temperature_c\":3.0,\"price_per_kwh\":0.2}";
         HttpResponse<String> r = post(http, a.webUrl() + "forecast", req);
         JsonNode n = JSON.readTree(r.body());
