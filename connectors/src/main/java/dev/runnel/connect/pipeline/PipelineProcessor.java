@@ -12,6 +12,8 @@ import dev.runnel.core.record.EventRecord;
 import dev.runnel.core.record.RejectReason;
 import java.nio.charset.StandardCharsets;
 import org.apache.kafka.common.TopicPartition;
+import org.apache.kafka.common.header.Header;
+import org.apache.kafka.common.header.internals.RecordHeader;
 
 /**
  * Runs the stream-core {@link PipelineStep} for one input partition inside the exactly-once
@@ -28,6 +30,8 @@ public final class PipelineProcessor implements PartitionProcessor {
   private final int partition;
   private final byte[] partitionKey;
   private final StepSink sink = new StepSink();
+  /** The format version and pipeline name, on every output record instead of in its value. */
+  private final Header[] headers;
 
   /**
    * @param config the pipeline configuration. Not modified.
@@ -35,7 +39,10 @@ public final class PipelineProcessor implements PartitionProcessor {
    */
   public PipelineProcessor(PipelineConfig config, TopicPartition tp) {
     this.step = new PipelineStep(config);
-    this.json = new OutputJson(config.name(), config.model().intervalLevel());
+    this.json = OutputJson.of(config);
+    this.headers = new RecordHeader[] {
+        new RecordHeader(OutputJson.HEADER_FORMAT, Integer.toString(OutputJson.FORMAT_VERSION).getBytes(StandardCharsets.US_ASCII)),
+        new RecordHeader(OutputJson.HEADER_PIPELINE, config.name().getBytes(StandardCharsets.UTF_8))};
     this.partition = tp.partition();
     this.partitionKey = (tp.topic() + "-" + tp.partition()).getBytes(StandardCharsets.UTF_8);
   }
@@ -48,6 +55,12 @@ public final class PipelineProcessor implements PartitionProcessor {
   /** The step (for tests and the demo summary; read only between records). */
   public PipelineStep step() {
     return step;
+  }
+
+  /** {@link OutputJson#HEADER_FORMAT} and {@link OutputJson#HEADER_PIPELINE}. */
+  @Override
+  public Header[] outputHeaders() {
+    return headers.clone();
   }
 
   @Override

@@ -98,7 +98,7 @@ class DemoRunSameBitsTest {
 
     Run(PipelineConfig cfg) {
       step = new PipelineStep(cfg);
-      json = new OutputJson(cfg.name(), cfg.model().intervalLevel());
+      json = OutputJson.of(cfg);
     }
 
     Run feed(List<String> lines, int from, int to) {
