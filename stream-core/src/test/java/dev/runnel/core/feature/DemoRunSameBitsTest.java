@@ -80,10 +80,16 @@ class DemoRunSameBitsTest {
 
   // SHA-256 of the build before the split (commit 2a32cd2, then e6a20f4 after the output format 2
   // names and the new reject counts changed outputs and checkpoints; the featurizer digests did not move); see the class comment.
-  static final String DEMO_OUTPUTS = "38864b93fd0ca7ec90f843143387d1d8d9b7ce2b02fa716fe37682dc08c6ffe7";
+  // Output format 3 (branch light-out) changed the two outputs digests only: the values lost "format",
+  // "pipeline" and (demo default outputs.echo_fields: []) "fields"; a replay of the demo sample before and
+  // after gave the same status, source, event_time, predicted, low, high, level, actual, error and
+  // columns_version on all 5,230 predictions, and the featurizer and checkpoint digests did not move.
+  // Before: demo 38864b93fd0ca7ec90f843143387d1d8d9b7ce2b02fa716fe37682dc08c6ffe7,
+  // every kind dc237b6aa4e78430e7ad1eda9726f81e33e802ab90df1be84f0fa684f1e80998.
+  static final String DEMO_OUTPUTS = "2d5fb74bb4d097e35c1c8a5b0d1be0fec3a90b4b6723ab8491eff604bebec59e";
   static final String DEMO_FEATURIZER = "78248e35187681e87252a9ba6f3089baeeb9155f02afcb2c670d60c47ba223a2";
   static final String DEMO_CHECKPOINT = "0a51443407f801ab4177e97d689607d5abe48458cd8e6f650bb57fe625182f44";
-  static final String EVERY_KIND_OUTPUTS = "dc237b6aa4e78430e7ad1eda9726f81e33e802ab90df1be84f0fa684f1e80998";
+  static final String EVERY_KIND_OUTPUTS = "ff009cee15533fb7a0f877d2c1530cdd6f39ecaee4ed18f0145a0457c2afab8c";
   static final String EVERY_KIND_FEATURIZER = "e91d85ba284ab6418caf811b4331da81bde5d97b90b10effafa6401b009068a4";
   static final String EVERY_KIND_CHECKPOINT = "eaf9808dc9099588c58d6302f5bda7dccf49f3fe999741169d08440ecb2356ae";
 
