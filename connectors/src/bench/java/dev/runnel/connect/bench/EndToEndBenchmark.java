@@ -195,27 +195,31 @@ public final class EndToEndBenchmark {
 
   /** The runner thread of the last {@link #timeToEnd}, for its CPU time. */
   static volatile long lastRunnerCpuNanos;
+  static volatile long lastIoCpuNanos;
   static volatile Thread lastRunner;
 
   /** CPU clocks: this process, the runner thread (read before it ends), the broker (child processes). */
-  record Cpu(long processNanos, long runnerNanos, long childrenNanos) {
+  record Cpu(long processNanos, long runnerNanos, long ioNanos, long childrenNanos) {
     static Cpu now(Thread runner) {
       long proc = ((com.sun.management.OperatingSystemMXBean) java.lang.management.ManagementFactory.getOperatingSystemMXBean())
           .getProcessCpuTime();
       long children = ProcessHandle.current().descendants()
           .mapToLong(ph -> ph.info().totalCpuDuration().map(Duration::toNanos).orElse(0L)).sum();
-      return new Cpu(proc, runner == null ? 0 : lastRunnerCpuNanos, children);
+      return new Cpu(proc, runner == null ? 0 : lastRunnerCpuNanos, runner == null ? 0 : lastIoCpuNanos, children);
     }
   }
 
   static String cpuTable(Cpu c0, Cpu c1, Cpu c2, long records) {
     StringBuilder b = new StringBuilder();
     b.append("| µs CPU per record | copy | run | run − copy |\n|---|---|---|---|\n");
-    double[] copy = {c1.runnerNanos(), c1.processNanos() - c0.processNanos() - c1.runnerNanos(), c1.childrenNanos() - c0.childrenNanos()};
-    double[] run = {c2.runnerNanos(), c2.processNanos() - c1.processNanos() - c2.runnerNanos(), c2.childrenNanos() - c1.childrenNanos()};
-    String[] what = {"runner thread (poll, process, send, commit)", "other client threads (producer I/O, admin)", "broker process"};
+    double[] copy = {c1.runnerNanos(), c1.ioNanos(), c1.processNanos() - c0.processNanos() - c1.runnerNanos() - c1.ioNanos(),
+        c1.childrenNanos() - c0.childrenNanos()};
+    double[] run = {c2.runnerNanos(), c2.ioNanos(), c2.processNanos() - c1.processNanos() - c2.runnerNanos() - c2.ioNanos(),
+        c2.childrenNanos() - c1.childrenNanos()};
+    String[] what = {"runner thread (poll, process, send, commit)", "the runner's client I/O threads (producer sender, heartbeat)",
+        "rest of the client JVM (GC, JIT compiler, benchmark's own threads)", "broker process"};
     double ct = 0, rt = 0;
-    for (int i = 0; i < 3; i++) {
+    for (int i = 0; i < 4; i++) {
       b.append(String.format(Locale.ROOT, "| %s | %.2f | %.2f | %.2f |%n", what[i], copy[i] / 1e3 / records, run[i] / 1e3 / records,
           (run[i] - copy[i]) / 1e3 / records));
       ct += copy[i];
@@ -316,8 +320,19 @@ public final class EndToEndBenchmark {
         if (first == 0 && runner.counters().recordsIn() > 0) first = System.nanoTime();
         if (first != 0 && committed(admin, s.groupId(), s.inputTopic()) >= total) {
           end = System.nanoTime();
-          lastRunnerCpuNanos = java.lang.management.ManagementFactory.getThreadMXBean().getThreadCpuTime(t.getId());
+          java.lang.management.ThreadMXBean tm = java.lang.management.ManagementFactory.getThreadMXBean();
+          lastRunnerCpuNanos = tm.getThreadCpuTime(t.getId());
           lastRunner = t;
+          // the runner's own client threads (producer I/O, consumer heartbeat) carry its transactional id or group
+          long io = 0;
+          for (Thread x : Thread.getAllStackTraces().keySet()) {
+            String n = x.getName();
+            if (x != t && (n.contains("runnel-" + s.name() + "-") || n.contains("runnel." + s.name()))) {
+              long c = tm.getThreadCpuTime(x.getId());
+              if (c > 0) io += c;
+            }
+          }
+          lastIoCpuNanos = io;
           break;
         }
         if (System.nanoTime() > deadline) throw new IllegalStateException("timed out");

@@ -89,6 +89,8 @@ public final class OutputJson {
   private RecordSchema namesFor;
   private SerializedString[] names;
   private final double intervalLevel;
+  /** {@link #intervalLevel} as the generator writes it, made once (a double's text costs about 80 ns); null if not finite. */
+  private final SerializedString levelText;
   /** Names of the echoed fields ({@code outputs.echo_fields}); null = every text and flag field. */
   private final String[] echo;
   /** Slots of the echoed fields in {@link #namesFor}, in the configured order. */
@@ -126,6 +128,8 @@ public final class OutputJson {
     }
     this.pipeline = pipeline;
     this.intervalLevel = intervalLevel;
+    this.levelText = Double.isFinite(intervalLevel)
+        ? new SerializedString(com.fasterxml.jackson.core.io.NumberOutput.toString(intervalLevel, true)) : null;
     this.echo = echoFields == null ? null : echoFields.toArray(new String[0]);
     this.digits = significantDigits;
   }
@@ -233,8 +237,7 @@ public final class OutputJson {
       rounded(g, K_PREDICTED, p.predicted());
       rounded(g, K_LOW, p.low());
       rounded(g, K_HIGH, p.high());
-      g.writeFieldName(K_LEVEL);
-      g.writeNumber(intervalLevel);
+      writeLevel(g);
       number(g, K_ACTUAL, p.actual());
       rounded(g, K_ERROR, p.error());
       g.writeFieldName(K_COLUMNS_VERSION);
@@ -281,8 +284,7 @@ public final class OutputJson {
       rounded(g, K_FORECAST, s.forecast());
       rounded(g, K_LOW, s.low());
       rounded(g, K_HIGH, s.high());
-      g.writeFieldName(K_LEVEL);
-      g.writeNumber(intervalLevel);
+      writeLevel(g);
       number(g, K_ACTUAL, s.actual());
       rounded(g, K_ERROR, s.error());
       g.writeBooleanField("covered", s.covered());
@@ -314,6 +316,16 @@ public final class OutputJson {
       g.writeString(timeChars, 0, tn);
     } else {
       g.writeString(Instant.ofEpochMilli(millis).toString());
+    }
+  }
+
+  /** {@code "level":…}: the text made once, the bytes the generator's own double writer gives. */
+  private void writeLevel(JsonGenerator g) throws IOException {
+    g.writeFieldName(K_LEVEL);
+    if (levelText != null) {
+      g.writeRawValue(levelText);
+    } else {
+      g.writeNumber(intervalLevel);
     }
   }
 
