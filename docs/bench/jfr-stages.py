@@ -24,11 +24,14 @@ RUNNER_RULES = [
     ("runner other", r"ExactlyOnceRunner"),
 ]
 BROKER_RULES = [
-    ("validate (decompress, check batches)", r"LogValidator"),
-    ("append to log", r"LogSegment\.append|FileRecords\.append|UnifiedLog\.append|Log\.append"),
-    ("fetch (read for consumers)", r"handleFetchRequest|fetchMessages|readFromLog|FileRecords\.writeTo|sendfile|transferTo"),
-    ("transactions, offsets", r"Transaction|GroupCoordinator|GroupMetadata|OffsetCommit|handleTxnOffsetCommit|WriteTxnMarkers"),
+    ("validate batches (decompress, check)", r"LogValidator"),
+    ("append to the log", r"LogSegment\.append|FileRecords\.append|UnifiedLog\.append|LocalLog\.append"),
+    ("produce request, rest (verification, callbacks)", r"handleProduceRequest|appendRecords|handleProduceAppend|postVerificationCallback|appendEntries"),
+    ("transaction coordinator, markers", r"kafka\.coordinator\.transaction|AddPartitionsToTxn|WriteTxnMarkers|handleEndTxn|TransactionMarker"),
+    ("group coordinator, offsets", r"coordinator\.group|TxnOffsetCommit|OffsetCommit|OffsetFetch"),
+    ("fetch (read for consumers)", r"handleFetchRequest|fetchMessages|readFromLog|FileRecords\.writeTo|transferTo"),
     ("network, request parsing", r"SocketServer|Selector|KafkaChannel|RequestChannel|NetworkReceive|\.network\."),
+    ("metadata, raft, controller", r"raft|metadata|controller|Quorum"),
 ]
 
 def samples(path):
@@ -41,7 +44,7 @@ def samples(path):
         yield t, th.group(1) if th else "?", frames
 
 def stage(frames, rules):
-    for f in frames:
+    for f in (x.split("(")[0] for x in frames):
         for name, pat in rules:
             if re.search(pat, f):
                 return name

@@ -24,7 +24,8 @@ import java.util.Locale;
  * }</pre>
  * Options: {@code --a PATH}, {@code --b PATH}, {@code --a-writer}/{@code --b-writer}
  * {@code two-arg} ({@code new OutputJson(name, level)}, in every build) or {@code config}
- * ({@code OutputJson.of(config)}, format 3 builds only), {@code --config FILE}, {@code --records FILE},
+ * ({@code OutputJson.of(config)}, format 3 builds only), {@code --config FILE}, {@code --b-config FILE}
+ * (B's, when it differs: e.g. with {@code outputs.significant_digits}), {@code --records FILE},
  * {@code --slices N} (16), {@code --label TEXT}, {@code --append FILE}.
  */
 public final class OutputBuildsAB {
@@ -42,6 +43,7 @@ public final class OutputBuildsAB {
     String bw = "config";
     Path config = BenchData.root().resolve("demo-data/src/main/resources/dev/runnel/demo/quillmarsh.yaml");
     Path records = BenchData.root().resolve("demo-data/samples/quillmarsh-small.jsonl");
+    Path bConfig = null;
     int slices = 16;
     String label = "demo";
     Path append = null;
@@ -52,13 +54,14 @@ public final class OutputBuildsAB {
         case "--a-writer" -> aw = args[++i];
         case "--b-writer" -> bw = args[++i];
         case "--config" -> config = Path.of(args[++i]);
+        case "--b-config" -> bConfig = Path.of(args[++i]);
         case "--records" -> records = Path.of(args[++i]);
         case "--slices" -> slices = Integer.parseInt(args[++i]);
         case "--label" -> label = args[++i];
         case "--append" -> append = Path.of(args[++i]);
         default -> throw new IllegalArgumentException("unknown option " + args[i]
             + "; allowed: --a PATH, --b PATH, --a-writer two-arg|config, --b-writer two-arg|config, --config FILE,"
-            + " --records FILE, --slices N, --label TEXT, --append FILE");
+            + " --b-config FILE (B's configuration, default --config), --records FILE, --slices N, --label TEXT, --append FILE");
       }
     }
     if (a == null || b == null) {
@@ -67,7 +70,8 @@ public final class OutputBuildsAB {
     String yaml = Files.readString(config);
     byte[][] recs = Files.readAllLines(records).stream().filter(l -> !l.isBlank())
         .map(l -> l.getBytes(StandardCharsets.UTF_8)).toArray(byte[][]::new);
-    Runnable[] run = {driver(0, a, aw, yaml, recs), driver(1, b, bw, yaml, recs)};
+    String bYaml = bConfig == null ? yaml : Files.readString(bConfig);
+    Runnable[] run = {driver(0, a, aw, yaml, recs), driver(1, b, bw, bYaml, recs)};
     PairedSlices.Result r = PairedSlices.measure(run, 1000, 300, slices);
     String line = String.format(Locale.ROOT,
         "%s %s slices=%d: A median %,.0f records/s, B median %,.0f; B/A paired median %.3f [quartiles %.3f, %.3f];"
