@@ -272,5 +272,9 @@ class OutputJsonTest {
     assertEquals(-0.001235, OutputJson.roundSignificant(-0.0012345678, 4));
     assertEquals(1.0e7, OutputJson.roundSignificant(9_999_999.7, 3));
     assertEquals(1.0e-30, OutputJson.roundSignificant(1.0e-30, 3), "beyond the exact powers of ten: unchanged");
+    assertEquals(1.23e21, OutputJson.roundSignificant(1.2345e21, 3));
+    assertEquals(1.2345e25, OutputJson.roundSignificant(1.2345e25, 3), "10^23 and up: unchanged");
+    assertEquals(0.1, OutputJson.roundSignificant(0.099999, 3));
+    assertEquals(1000.0, OutputJson.roundSignificant(999.99, 4));
   }
 }
