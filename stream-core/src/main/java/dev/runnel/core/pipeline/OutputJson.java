@@ -173,8 +173,10 @@ public final class OutputJson {
   }
 
   /**
-   * One prediction. The record's text and flag fields are echoed under {@code fields}, so a
-   * consumer can tell which entity and time a forecast is for.
+   * One prediction (format 3: no {@code format} or {@code pipeline} field). The echoed text and
+   * flag fields ({@code outputs.echo_fields}) are written under {@code fields}, none by default;
+   * {@code predicted}, {@code low}, {@code high}, {@code error} are rounded when
+   * {@code outputs.significant_digits} asks for it.
    *
    * @param p the prediction. Not modified.
    * @param record the decoded record it was made for. Not modified.
