@@ -147,10 +147,16 @@ public final class EndToEndBenchmark {
       PipelineConfig cfg = benchConfig("bench", IN);
       RunnerSettings copyS = RunnerSettings.of("copy", IN, bs).withClientProperties(props).withCommitInterval(commitMs, commitRecords);
       RunnerSettings runS = RunnerSettings.of("bench", IN, bs).withClientProperties(props).withCommitInterval(commitMs, commitRecords);
+      Cpu c0 = Cpu.now(null);
       double copyRate = timeToEnd(copyS, tp -> new CopyProcessor(), bs, loaded);
+      Cpu c1 = Cpu.now(lastRunner);
       log("copy: %,.0f records/s", copyRate);
       double runRate = timeToEnd(runS, PipelineProcessor.factory(cfg), bs, loaded);
+      Cpu c2 = Cpu.now(lastRunner);
       log("run: %,.0f records/s", runRate);
+      String cpuTable = cpuTable(c0, c1, c2, loaded);
+      String bytesTable = bytesTable(bs, loaded);
+      log("%n%s%n%s", cpuTable, bytesTable);
 
       // latency at half the measured run rate
       createTopic(bs, LIVE);
@@ -176,11 +182,71 @@ public final class EndToEndBenchmark {
       md.append(String.format(Locale.ROOT, "| latency append → committed prediction p50 | %.1f ms | – |%n", h.getValueAtPercentile(50) / 1e3));
       md.append(String.format(Locale.ROOT, "| latency p99 | %.1f ms | – |%n", h.getValueAtPercentile(99) / 1e3));
       md.append(String.format(Locale.ROOT, "| latency max | %.1f ms | – |%n", h.getMaxValue() / 1e3));
+      md.append("\nCPU time per input record (thread and process CPU clocks, so other work on the machine does not count):\n\n");
+      md.append(cpuTable);
+      md.append("\nBytes on the broker's disk (log segments: compressed batches with their headers, transaction markers):\n\n");
+      md.append(bytesTable);
     }
     if (out.getParent() != null) Files.createDirectories(out.getParent());
     Files.writeString(out, md.toString(), StandardCharsets.UTF_8);
     System.out.println(md);
     System.out.println("written to " + out);
+  }
+
+  /** The runner thread of the last {@link #timeToEnd}, for its CPU time. */
+  static volatile long lastRunnerCpuNanos;
+  static volatile long lastIoCpuNanos;
+  static volatile Thread lastRunner;
+
+  /** CPU clocks: this process, the runner thread (read before it ends), the broker (child processes). */
+  record Cpu(long processNanos, long runnerNanos, long ioNanos, long childrenNanos) {
+    static Cpu now(Thread runner) {
+      long proc = ((com.sun.management.OperatingSystemMXBean) java.lang.management.ManagementFactory.getOperatingSystemMXBean())
+          .getProcessCpuTime();
+      long children = ProcessHandle.current().descendants()
+          .mapToLong(ph -> ph.info().totalCpuDuration().map(Duration::toNanos).orElse(0L)).sum();
+      return new Cpu(proc, runner == null ? 0 : lastRunnerCpuNanos, runner == null ? 0 : lastIoCpuNanos, children);
+    }
+  }
+
+  static String cpuTable(Cpu c0, Cpu c1, Cpu c2, long records) {
+    StringBuilder b = new StringBuilder();
+    b.append("| µs CPU per record | copy | run | run − copy |\n|---|---|---|---|\n");
+    double[] copy = {c1.runnerNanos(), c1.ioNanos(), c1.processNanos() - c0.processNanos() - c1.runnerNanos() - c1.ioNanos(),
+        c1.childrenNanos() - c0.childrenNanos()};
+    double[] run = {c2.runnerNanos(), c2.ioNanos(), c2.processNanos() - c1.processNanos() - c2.runnerNanos() - c2.ioNanos(),
+        c2.childrenNanos() - c1.childrenNanos()};
+    String[] what = {"runner thread (poll, process, send, commit)", "the runner's client I/O threads (producer sender, heartbeat)",
+        "rest of the client JVM (GC, JIT compiler, benchmark's own threads)", "broker process"};
+    double ct = 0, rt = 0;
+    for (int i = 0; i < 4; i++) {
+      b.append(String.format(Locale.ROOT, "| %s | %.2f | %.2f | %.2f |%n", what[i], copy[i] / 1e3 / records, run[i] / 1e3 / records,
+          (run[i] - copy[i]) / 1e3 / records));
+      ct += copy[i];
+      rt += run[i];
+    }
+    b.append(String.format(Locale.ROOT, "| total | %.2f | %.2f | %.2f |%n", ct / 1e3 / records, rt / 1e3 / records, (rt - ct) / 1e3 / records));
+    return b.toString();
+  }
+
+  static String bytesTable(String bs, long records) throws Exception {
+    StringBuilder b = new StringBuilder("| topic | bytes | per input record |\n|---|---|---|\n");
+    try (Admin a = admin(bs)) {
+      var nodes = a.describeCluster().nodes().get();
+      List<Integer> ids = nodes.stream().map(org.apache.kafka.common.Node::id).toList();
+      Map<String, Long> sizes = new java.util.TreeMap<>();
+      a.describeLogDirs(ids).allDescriptions().get().values().forEach(dirs -> dirs.values().forEach(d ->
+          d.replicaInfos().forEach((tp, ri) -> sizes.merge(tp.topic(), ri.size(), Long::sum))));
+      long benchOut = 0;
+      for (Map.Entry<String, Long> e : sizes.entrySet()) {
+        if (e.getKey().startsWith("__")) continue;
+        b.append(String.format(Locale.ROOT, "| %s | %,d | %.1f |%n", e.getKey(), e.getValue(), (double) e.getValue() / records));
+        if (e.getKey().startsWith("bench.") && !e.getKey().equals(IN) && !e.getKey().equals("bench.state")) benchOut += e.getValue();
+      }
+      long in = sizes.getOrDefault(IN, 0L);
+      b.append(String.format(Locale.ROOT, "| run outputs but state, ÷ input | %,d | %.2f |%n", benchOut, in == 0 ? Double.NaN : (double) benchOut / in));
+    }
+    return b.toString();
   }
 
   static void log(String fmt, Object... args) {
@@ -254,6 +320,19 @@ public final class EndToEndBenchmark {
         if (first == 0 && runner.counters().recordsIn() > 0) first = System.nanoTime();
         if (first != 0 && committed(admin, s.groupId(), s.inputTopic()) >= total) {
           end = System.nanoTime();
+          java.lang.management.ThreadMXBean tm = java.lang.management.ManagementFactory.getThreadMXBean();
+          lastRunnerCpuNanos = tm.getThreadCpuTime(t.getId());
+          lastRunner = t;
+          // the runner's own client threads (producer I/O, consumer heartbeat) carry its transactional id or group
+          long io = 0;
+          for (Thread x : Thread.getAllStackTraces().keySet()) {
+            String n = x.getName();
+            if (x != t && (n.contains("runnel-" + s.name() + "-") || n.contains("runnel." + s.name()))) {
+              long c = tm.getThreadCpuTime(x.getId());
+              if (c > 0) io += c;
+            }
+          }
+          lastIoCpuNanos = io;
           break;
         }
         if (System.nanoTime() > deadline) throw new IllegalStateException("timed out");

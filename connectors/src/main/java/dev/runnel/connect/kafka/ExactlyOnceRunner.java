@@ -159,6 +159,8 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     final int settledPart;
     final int statePart;
     PartitionProcessor proc;
+    /** {@code proc}'s output headers (empty for none). */
+    List<org.apache.kafka.common.header.Header> headers = List.of();
     long committedNext;
     byte[] committedCheckpoint;
     long next;
@@ -180,23 +182,23 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     }
 
     @Override public void prediction(byte[] key, byte[] value) {
-      producer.send(new ProducerRecord<>(settings.predictionsTopic(), predPart, key, value), sendCallback);
+      producer.send(new ProducerRecord<>(settings.predictionsTopic(), predPart, key, value, headers), sendCallback);
       outputsOut++;
     }
 
     @Override public void snapshot(byte[] key, byte[] value) {
-      producer.send(new ProducerRecord<>(settings.coefficientsTopic(), coefPart, key, value), sendCallback);
+      producer.send(new ProducerRecord<>(settings.coefficientsTopic(), coefPart, key, value, headers), sendCallback);
       outputsOut++;
     }
 
     @Override public void reject(byte[] key, byte[] value) {
-      producer.send(new ProducerRecord<>(settings.rejectsTopic(), rejPart, key, value), sendCallback);
+      producer.send(new ProducerRecord<>(settings.rejectsTopic(), rejPart, key, value, headers), sendCallback);
       outputsOut++;
       rejects++;
     }
 
     @Override public void settled(byte[] key, byte[] value) {
-      producer.send(new ProducerRecord<>(settings.settledTopic(), settledPart, key, value), sendCallback);
+      producer.send(new ProducerRecord<>(settings.settledTopic(), settledPart, key, value, headers), sendCallback);
       outputsOut++;
     }
   }
@@ -830,6 +832,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     consumer.seek(s.tp, s.committedNext);
     try {
       s.proc = factory.create(s.tp);
+      s.headers = List.of(s.proc.outputHeaders());
       s.proc.restore(s.committedCheckpoint == null ? null : s.committedCheckpoint.clone());
     } catch (RuntimeException e) {
       throw new FatalException("the processor of " + s.tp + " could not be created or restored from its checkpoint ("

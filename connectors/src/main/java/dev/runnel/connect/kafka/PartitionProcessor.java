@@ -60,6 +60,19 @@ public interface PartitionProcessor {
     out.reject(key, b.toString().getBytes(java.nio.charset.StandardCharsets.UTF_8));
   }
 
+  /**
+   * Headers the runner puts on every output record this processor emits (predictions, snapshots,
+   * rejects, settled; not the state records), asked once per processor. The default: none.
+   *
+   * @return new array; the runner keeps it and never changes it
+   */
+  default org.apache.kafka.common.header.Header[] outputHeaders() {
+    return NO_HEADERS;
+  }
+
+  /** No output headers. */
+  org.apache.kafka.common.header.Header[] NO_HEADERS = new org.apache.kafka.common.header.Header[0];
+
   /** The whole state as bytes, called inside the transaction at each commit (only for partitions touched since the last commit). */
   byte[] checkpoint();
 }

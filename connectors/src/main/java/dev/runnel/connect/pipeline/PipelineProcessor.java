@@ -17,6 +17,8 @@ import java.util.concurrent.locks.LockSupport;
 import java.util.concurrent.locks.ReentrantLock;
 import java.util.function.Supplier;
 import org.apache.kafka.common.TopicPartition;
+import org.apache.kafka.common.header.Header;
+import org.apache.kafka.common.header.internals.RecordHeader;
 
 /**
  * Runs the stream-core {@link PipelineStep} for one input partition inside the exactly-once
@@ -77,6 +79,8 @@ public final class PipelineProcessor implements PartitionProcessor {
   private RequestForecast requests;
   private OutputJson requestJson;
   private final PipelineConfig config;
+  /** The format version and pipeline name, on every output record instead of in its value. */
+  private final Header[] headers;
 
   /**
    * @param config the pipeline configuration. Not modified.
@@ -85,7 +89,10 @@ public final class PipelineProcessor implements PartitionProcessor {
   public PipelineProcessor(PipelineConfig config, TopicPartition tp) {
     this.config = config;
     this.step = new PipelineStep(config);
-    this.json = new OutputJson(config.name(), config.model().intervalLevel());
+    this.json = OutputJson.of(config);
+    this.headers = new RecordHeader[] {
+        new RecordHeader(OutputJson.HEADER_FORMAT, Integer.toString(OutputJson.FORMAT_VERSION).getBytes(StandardCharsets.US_ASCII)),
+        new RecordHeader(OutputJson.HEADER_PIPELINE, config.name().getBytes(StandardCharsets.UTF_8))};
     this.partition = tp.partition();
     this.partitionKey = (tp.topic() + "-" + tp.partition()).getBytes(StandardCharsets.UTF_8);
   }
@@ -98,6 +105,12 @@ public final class PipelineProcessor implements PartitionProcessor {
   /** The step (for tests and the demo summary; read only between records). */
   public PipelineStep step() {
     return step;
+  }
+
+  /** {@link OutputJson#HEADER_FORMAT} and {@link OutputJson#HEADER_PIPELINE}. */
+  @Override
+  public Header[] outputHeaders() {
+    return headers.clone();
   }
 
   @Override
@@ -144,7 +157,7 @@ public final class PipelineProcessor implements PartitionProcessor {
   private Answer answer(byte[] value, long arrivalMillis) {
     if (requests == null) {
       requests = new RequestForecast(step);
-      requestJson = new OutputJson(config.name(), config.model().intervalLevel());
+      requestJson = OutputJson.of(config);
     }
     RejectReason r = requests.forecast(value, 0, value.length, arrivalMillis, partition);
     if (r != null) {

@@ -45,7 +45,8 @@ public final class FileReplay {
    *
    * @param config the configuration. Not modified.
    * @param source the JSON Lines file
-   * @param out the folder for the output files (created if missing): three, and {@code settled.jsonl}
+   * @param out the folder for the output files (created if missing): {@code format.json} (the format
+   *     version and pipeline name, docs/formats.md), three JSON Lines files, and {@code settled.jsonl}
    *     with {@code input.forecast}
    * @param listener told after each record; may be null
    * @return the step at the end of the file (counters, metrics, model)
@@ -57,7 +58,9 @@ public final class FileReplay {
     }
     Files.createDirectories(out);
     PipelineStep step = new PipelineStep(config);
-    OutputJson json = new OutputJson(config.name(), config.model().intervalLevel());
+    OutputJson json = OutputJson.of(config);
+    // format 3 keeps the format version and pipeline name out of each line; the folder holds them once
+    Files.write(out.resolve("format.json"), json.formatFile());
     long size = Files.size(source);
     try (OutputStream preds = open(out.resolve("predictions.jsonl"));
          OutputStream snaps = open(out.resolve("coefficients.jsonl"));

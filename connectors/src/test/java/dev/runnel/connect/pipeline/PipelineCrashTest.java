@@ -136,7 +136,7 @@ class PipelineCrashTest {
 
     // the uninterrupted reference: stream-core directly, outputs as the processor would write them
     PipelineStep step = new PipelineStep(cfg);
-    OutputJson json = new OutputJson(cfg.name(), cfg.model().intervalLevel());
+    OutputJson json = OutputJson.of(cfg); // what the runner writes (outputs.echo_fields, significant_digits)
     List<byte[]> expected = new ArrayList<>();
     List<byte[]> expectedSettled = new ArrayList<>();
     long offset = 0;

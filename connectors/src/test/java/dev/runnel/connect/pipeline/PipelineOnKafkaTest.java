@@ -14,6 +14,7 @@ import dev.runnel.connect.kafka.RunnerSettings;
 import dev.runnel.connect.testing.EmbeddedKafkaExtension;
 import dev.runnel.connect.testing.KafkaTestSupport;
 import dev.runnel.core.config.PipelineConfig;
+import dev.runnel.core.pipeline.OutputJson;
 import dev.runnel.core.pipeline.PipelineStep;
 import dev.runnel.core.pipeline.Prediction;
 import dev.runnel.core.record.EventRecord;
@@ -142,6 +143,27 @@ class PipelineOnKafkaTest {
     assertTrue(snaps.size() > 10, "snapshots present: " + snaps.size());
     JsonNode last = JSON.readTree(snaps.get(snaps.size() - 1).value());
     assertTrue(last.path("columns").size() > 20, "snapshot carries the columns");
+    // output format 3: the format version and the pipeline name are headers of every output record, not value fields
+    for (List<ConsumerRecord<byte[], byte[]>> topic : List.of(preds, rejects, snaps)) {
+      for (ConsumerRecord<byte[], byte[]> r : topic) {
+        JsonNode v = JSON.readTree(r.value());
+        if (r.topic().endsWith(".coefficients")) {
+          assertEquals(2, v.path("format").asInt(), "snapshots keep their format 2 value");
+        } else {
+          assertTrue(!v.has("format") && !v.has("pipeline") && !v.has("fields"), r.topic() + ": " + v);
+        }
+        assertEquals("3", header(r, OutputJson.HEADER_FORMAT), r.topic() + " offset " + r.offset());
+        assertEquals(cfg.name(), header(r, OutputJson.HEADER_PIPELINE), r.topic() + " offset " + r.offset());
+      }
+    }
+    for (ConsumerRecord<byte[], byte[]> r : KafkaTestSupport.readAll(bs, cfg.name() + ".state")) {
+      assertNull(r.headers().lastHeader(OutputJson.HEADER_FORMAT), "state records carry only their offset header");
+    }
+  }
+
+  private static String header(ConsumerRecord<byte[], byte[]> r, String name) {
+    org.apache.kafka.common.header.Header h = r.headers().lastHeader(name);
+    return h == null ? null : new String(h.value(), StandardCharsets.UTF_8);
   }
 
   /** Each bad record with the reason it must be rejected for. */

@@ -171,6 +171,8 @@ public final class ConfigKeys {
   public static final ConfigKey<Long> SNAPSHOT_EVERY_RECORDS = add(ConfigKey.whole("outputs", "snapshot_every_records", 1000, 0, Long.MAX_VALUE));
   public static final ConfigKey<Long> SNAPSHOT_EVERY = add(ConfigKey.duration("outputs", "snapshot_every"));
   public static final ConfigKey<Double> METRICS_HALF_LIFE_RECORDS = add(ConfigKey.number("outputs", "metrics_half_life_records", 1000, 0, true, 1.0e15, false, "use a number of records greater than 0"));
+  public static final ConfigKey<?> ECHO_FIELDS = add(ConfigKey.structured("outputs", "echo_fields", "list of texts", "[] (none)"));
+  public static final ConfigKey<Integer> SIGNIFICANT_DIGITS = add(ConfigKey.wholeInt("outputs", "significant_digits", 0, 0, 15));
 
   // ---- kafka ----
   public static final ConfigKey<String> BOOTSTRAP_SERVERS = add(ConfigKey.textOrEmpty("kafka", "bootstrap_servers", "", "use host:port[,host:port...], or \"\" for the embedded broker"));

@@ -318,7 +318,7 @@ public final class ConfigLoader {
 
       List<FeatureConfig> features = features(top, input, target, model);
 
-      PipelineConfig.Outputs outputs = outputs(sectionOrEmpty(top, "outputs"));
+      PipelineConfig.Outputs outputs = outputs(sectionOrEmpty(top, "outputs"), input.schema());
       PipelineConfig.Kafka kafka = kafka(sectionOrEmpty(top, "kafka"));
       PipelineConfig.Web web = web(sectionOrEmpty(top, "web"));
       PipelineConfig.Drift drift = drift(sectionOrEmpty(top, "drift"));
@@ -897,12 +897,29 @@ public final class ConfigLoader {
       return new PipelineConfig.TargetScale(transform, point, nonNegative);
     }
 
-    private PipelineConfig.Outputs outputs(Section o) {
+    private PipelineConfig.Outputs outputs(Section o, RecordSchema schema) {
       o.allowScope("outputs");
       long every = ConfigKeys.SNAPSHOT_EVERY_RECORDS.read(o);
       long period = ConfigKeys.SNAPSHOT_EVERY.read(o);
       double metrics = ConfigKeys.METRICS_HALF_LIFE_RECORDS.read(o);
-      return new PipelineConfig.Outputs(every, period, metrics);
+      List<String> echo = new ArrayList<>();
+      if (o.has("echo_fields")) {
+        List<String> allowedNames = fieldsOfType(schema, FieldType.TEXT, FieldType.FLAG);
+        String allowed = "use a list of declared text or flag fields to copy into each prediction, e.g. echo_fields: [hub],"
+            + " or [] for none; declared: " + listOr(allowedNames, "(none)");
+        JsonNode list = o.get("echo_fields");
+        if (!list.isArray()) throw notAllowed(o.p("echo_fields"), list, allowed);
+        for (int i = 0; i < list.size(); i++) {
+          JsonNode e = list.get(i);
+          String n = e.isTextual() ? e.asText() : null;
+          if (n == null || !allowedNames.contains(n) || echo.contains(n)) {
+            throw notAllowed(o.p("echo_fields") + "[" + i + "]", e, allowed + (n != null && echo.contains(n) ? " (each once)" : ""));
+          }
+          echo.add(n);
+        }
+      }
+      int digits = ConfigKeys.SIGNIFICANT_DIGITS.read(o);
+      return new PipelineConfig.Outputs(every, period, metrics, echo, digits);
     }
 
     private PipelineConfig.Kafka kafka(Section k) {

@@ -225,8 +225,23 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    * @param snapshotEveryRecords a coefficient snapshot every this many training records; 0 = off
    * @param snapshotEveryMillis a snapshot every this much event time; 0 = off
    * @param metricsHalfLifeRecords fading window of the prequential metrics, in records
+   * @param echoFields {@code echo_fields}: the declared text and flag fields echoed under a prediction's
+   *     {@code fields}, in this order; empty = none (the default)
+   * @param significantDigits {@code significant_digits}: 0 = every prediction number exact (shortest
+   *     decimal that reads back as the same double); 1..15 = predicted, low, high and error rounded to
+   *     that many significant digits
    */
-  public record Outputs(long snapshotEveryRecords, long snapshotEveryMillis, double metricsHalfLifeRecords) { }
+  public record Outputs(long snapshotEveryRecords, long snapshotEveryMillis, double metricsHalfLifeRecords,
+      List<String> echoFields, int significantDigits) {
+    public Outputs {
+      echoFields = List.copyOf(echoFields);
+    }
+
+    /** The defaults of the newer keys: nothing echoed, exact numbers. */
+    public Outputs(long snapshotEveryRecords, long snapshotEveryMillis, double metricsHalfLifeRecords) {
+      this(snapshotEveryRecords, snapshotEveryMillis, metricsHalfLifeRecords, List.of(), 0);
+    }
+  }
 
   /**
    * The {@code kafka} section, kept as plain values (stream-core does not use Kafka).

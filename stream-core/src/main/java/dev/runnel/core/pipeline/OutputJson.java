@@ -33,8 +33,18 @@ import java.util.List;
  */
 public final class OutputJson {
 
-  /** Version of the published record layouts. */
-  public static final int FORMAT_VERSION = 2;
+  /**
+   * Version of the prediction, reject and settled layouts. Format 3 no longer writes {@code format}
+   * and {@code pipeline} into each value: on Kafka they are the record headers
+   * {@link #HEADER_FORMAT} and {@link #HEADER_PIPELINE}, in a {@code replay} folder the side file
+   * {@code format.json} ({@link #formatFile}). Snapshots keep their own version
+   * ({@link Snapshot#FORMAT_VERSION}) and their fields.
+   */
+  public static final int FORMAT_VERSION = 3;
+  /** Kafka header on every output record: the version of the value's layout, as decimal text. */
+  public static final String HEADER_FORMAT = "runnel.format";
+  /** Kafka header on every output record: the pipeline's name. */
+  public static final String HEADER_PIPELINE = "runnel.pipeline";
   /** Raw bytes of a rejected record are truncated to this many bytes on the rejects output. */
   public static final int MAX_RAW_BYTES = 4096;
 
@@ -44,8 +54,6 @@ public final class OutputJson {
    * 154 ns per number), which on Java 17 sometimes writes one digit more than needed.
    */
   // names of the prediction's fields, encoded once (writing a String name encodes it every time)
-  private static final SerializedString K_FORMAT = new SerializedString("format");
-  private static final SerializedString K_PIPELINE = new SerializedString("pipeline");
   private static final SerializedString K_STATUS = new SerializedString("status");
   private static final SerializedString K_SOURCE = new SerializedString("source");
   private static final SerializedString K_PARTITION = new SerializedString("partition");
@@ -63,6 +71,7 @@ public final class OutputJson {
   private static final SerializedString K_TARGET_TIME = new SerializedString("target_time");
   private static final SerializedString K_HORIZON_MS = new SerializedString("horizon_ms");
   private static final SerializedString K_TARGET_PASSED = new SerializedString("target_passed");
+  private static final SerializedString K_FORECAST = new SerializedString("forecast");
   private static final SerializedString[] STATUS_TEXT;
 
   static {
@@ -77,29 +86,98 @@ public final class OutputJson {
       .enable(StreamWriteFeature.USE_FAST_DOUBLE_WRITER).build();
 
   private final String pipeline;
-  private final SerializedString pipelineText;
   /** The schema {@link #names} were encoded for. */
   private RecordSchema namesFor;
   private SerializedString[] names;
   private final double intervalLevel;
+  /** {@link #intervalLevel} as the generator writes it, made once (a double's text costs about 80 ns); null if not finite. */
+  private final SerializedString levelText;
+  /** Names of the echoed fields ({@code outputs.echo_fields}); null = every text and flag field. */
+  private final String[] echo;
+  /** Slots of the echoed fields in {@link #namesFor}, in the configured order. */
+  private int[] echoSlots;
+  /** 0 = exact numbers; else significant digits of predicted, low, high, error. */
+  private final int digits;
   private final Buffer buffer = new Buffer();
   private final char[] timeChars = new char[24];
   /** The reused generator; null before the first record and after a failure. */
   private JsonGenerator generator;
 
   /**
-   * @param pipeline the pipeline name written into every record
+   * Every text and flag field echoed, exact numbers (the layout of format 2 without
+   * {@code format} and {@code pipeline}).
+   *
+   * @param pipeline the pipeline name (written into snapshots)
    * @param intervalLevel the configured interval level, written beside each interval
    */
   public OutputJson(String pipeline, double intervalLevel) {
-    this.pipeline = pipeline;
-    this.pipelineText = new SerializedString(pipeline);
-    this.intervalLevel = intervalLevel;
+    this(pipeline, intervalLevel, null, 0);
   }
 
   /**
-   * One prediction. The record's text and flag fields are echoed under {@code fields}, so a
-   * consumer can tell which entity and time a forecast is for.
+   * @param pipeline the pipeline name (written into snapshots)
+   * @param intervalLevel the configured interval level, written beside each interval
+   * @param echoFields declared text or flag fields to echo under {@code fields}, in this order
+   *     (empty: no {@code fields} object); null = every text and flag field. Not modified.
+   * @param significantDigits 0 = exact; 1..15 = predicted, low, high and error rounded to this many
+   *     significant digits
+   */
+  public OutputJson(String pipeline, double intervalLevel, java.util.List<String> echoFields, int significantDigits) {
+    if (significantDigits < 0 || significantDigits > MAX_DIGITS) {
+      throw new IllegalArgumentException("significantDigits: " + significantDigits
+          + " is not allowed; use 0 (exact) or a whole number from 1 to " + MAX_DIGITS);
+    }
+    this.pipeline = pipeline;
+    this.intervalLevel = intervalLevel;
+    this.levelText = Double.isFinite(intervalLevel)
+        ? new SerializedString(com.fasterxml.jackson.core.io.NumberOutput.toString(intervalLevel, true)) : null;
+    this.echo = echoFields == null ? null : echoFields.toArray(new String[0]);
+    this.digits = significantDigits;
+  }
+
+  /** The writer a pipeline configuration asks for ({@code outputs.echo_fields}, {@code outputs.significant_digits}). */
+  public static OutputJson of(dev.runnel.core.config.PipelineConfig config) {
+    return new OutputJson(config.name(), config.model().intervalLevel(), config.outputs().echoFields(),
+        config.outputs().significantDigits());
+  }
+
+  /** Largest {@code significantDigits} (a rounded mantissa stays an exact double below 2^53). */
+  public static final int MAX_DIGITS = 15;
+
+  /**
+   * What format 3 keeps out of each value, for a file output: {@code {"format":3,"pipeline":…,
+   * "snapshot_format":…}} and a newline. {@code replay} writes it to {@code format.json} beside
+   * the JSON Lines files, which stay one record per line.
+   *
+   * @return new bytes
+   */
+  public byte[] formatFile() {
+    boolean done = false;
+    try {
+      JsonGenerator g = start();
+      g.writeStartObject();
+      g.writeNumberField("format", FORMAT_VERSION);
+      g.writeStringField("pipeline", pipeline);
+      g.writeNumberField("snapshot_format", Snapshot.FORMAT_VERSION);
+      g.writeEndObject();
+      g.writeRaw('\n');
+      byte[] bytes = finish(g);
+      done = true;
+      return bytes;
+    } catch (IOException e) {
+      throw new UncheckedIOException(e);
+    } finally {
+      if (!done) {
+        generator = null;
+      }
+    }
+  }
+
+  /**
+   * One prediction (format 3: no {@code format} or {@code pipeline} field). The echoed text and
+   * flag fields ({@code outputs.echo_fields}) are written under {@code fields}, none by default;
+   * {@code predicted}, {@code low}, {@code high}, {@code error} are rounded when
+   * {@code outputs.significant_digits} asks for it.
    *
    * @param p the prediction. Not modified.
    * @param record the decoded record it was made for. Not modified.
@@ -110,10 +188,6 @@ public final class OutputJson {
     try {
       JsonGenerator g = start();
       g.writeStartObject();
-      g.writeFieldName(K_FORMAT);
-      g.writeNumber(FORMAT_VERSION);
-      g.writeFieldName(K_PIPELINE);
-      g.writeString(pipelineText);
       g.writeFieldName(K_STATUS);
       g.writeString(STATUS_TEXT[p.status().ordinal()]);
       writeSource(g, p.sourcePartition(), p.sourceOffset());
@@ -137,9 +211,12 @@ public final class OutputJson {
       }
       RecordSchema schema = record.schema();
       SerializedString[] names = fieldNames(schema);
-      g.writeFieldName(K_FIELDS);
-      g.writeStartObject();
-      for (int i = 0; i < schema.size(); i++) {
+      int[] slots = echoSlots;
+      if (slots.length > 0) {
+        g.writeFieldName(K_FIELDS);
+        g.writeStartObject();
+      }
+      for (int i : slots) {
         if (!record.present(i)) {
           continue;
         }
@@ -157,14 +234,15 @@ public final class OutputJson {
           g.writeBoolean(record.flag(i));
         }
       }
-      g.writeEndObject();
-      number(g, K_PREDICTED, p.predicted());
-      number(g, K_LOW, p.low());
-      number(g, K_HIGH, p.high());
-      g.writeFieldName(K_LEVEL);
-      g.writeNumber(intervalLevel);
+      if (slots.length > 0) {
+        g.writeEndObject();
+      }
+      rounded(g, K_PREDICTED, p.predicted());
+      rounded(g, K_LOW, p.low());
+      rounded(g, K_HIGH, p.high());
+      writeLevel(g);
       number(g, K_ACTUAL, p.actual());
-      number(g, K_ERROR, p.error());
+      rounded(g, K_ERROR, p.error());
       g.writeFieldName(K_COLUMNS_VERSION);
       g.writeNumber(p.layoutVersion());
       g.writeEndObject();
@@ -194,10 +272,6 @@ public final class OutputJson {
     try {
       JsonGenerator g = start();
       g.writeStartObject();
-      g.writeFieldName(K_FORMAT);
-      g.writeNumber(FORMAT_VERSION);
-      g.writeFieldName(K_PIPELINE);
-      g.writeString(pipelineText);
       RecordSchema schema = record.schema();
       SerializedString[] names = fieldNames(schema);
       g.writeObjectFieldStart("entity");
@@ -210,13 +284,12 @@ public final class OutputJson {
       writeTime(g, K_TARGET_TIME, s.targetTimeMillis());
       g.writeFieldName(K_HORIZON_MS);
       g.writeNumber(s.horizonMillis());
-      number(g, "forecast", s.forecast());
-      number(g, K_LOW, s.low());
-      number(g, K_HIGH, s.high());
-      g.writeFieldName(K_LEVEL);
-      g.writeNumber(intervalLevel);
+      rounded(g, K_FORECAST, s.forecast());
+      rounded(g, K_LOW, s.low());
+      rounded(g, K_HIGH, s.high());
+      writeLevel(g);
       number(g, K_ACTUAL, s.actual());
-      number(g, K_ERROR, s.error());
+      rounded(g, K_ERROR, s.error());
       g.writeBooleanField("covered", s.covered());
       if (s.correction()) {
         g.writeBooleanField("correction", true);
@@ -249,6 +322,16 @@ public final class OutputJson {
     }
   }
 
+  /** {@code "level":…}: the text made once, the bytes the generator's own double writer gives. */
+  private void writeLevel(JsonGenerator g) throws IOException {
+    g.writeFieldName(K_LEVEL);
+    if (levelText != null) {
+      g.writeRawValue(levelText);
+    } else {
+      g.writeNumber(intervalLevel);
+    }
+  }
+
   /** A source as an object (empty when neither is known). */
   private static void writeSourceObject(JsonGenerator g, long partition, long offset) throws IOException {
     g.writeStartObject();
@@ -274,8 +357,6 @@ public final class OutputJson {
     try {
       JsonGenerator g = start();
       g.writeStartObject();
-      g.writeNumberField("format", FORMAT_VERSION);
-      g.writeStringField("pipeline", pipeline);
       g.writeStringField("reason", reason.id());
       g.writeStringField("detail", detail == null ? "" : detail);
       writeSource(g, partition, offset);
@@ -687,8 +768,85 @@ public final class OutputJson {
       }
       names = n;
       namesFor = schema;
+      echoSlots = echoSlots(schema);
     }
     return names;
+  }
+
+  /** The slots echoed under {@code fields}: the configured names in order, or every text and flag field. */
+  private int[] echoSlots(RecordSchema schema) {
+    int[] out = new int[schema.size()];
+    int k = 0;
+    if (echo == null) {
+      for (int i = 0; i < schema.size(); i++) {
+        if (schema.type(i) == FieldType.TEXT || schema.type(i) == FieldType.FLAG) {
+          out[k++] = i;
+        }
+      }
+    } else {
+      for (String name : echo) {
+        for (int i = 0; i < schema.size(); i++) {
+          if (schema.name(i).equals(name) && (schema.type(i) == FieldType.TEXT || schema.type(i) == FieldType.FLAG)) {
+            out[k++] = i;
+            break;
+          }
+        }
+      }
+    }
+    return Arrays.copyOf(out, k);
+  }
+
+  /** A prediction number: exact, or rounded to {@link #digits} significant digits. */
+  private void rounded(JsonGenerator g, SerializedString name, double v) throws IOException {
+    number(g, name, digits == 0 ? v : roundSignificant(v, digits));
+  }
+
+  private static final double[] POW10 = {1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14,
+      1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
+
+  /**
+   * {@code v} rounded to {@code n} significant digits: the double nearest to {@code m · 10^-k} with
+   * {@code m} a whole number of at most {@code n} digits (ties of the scaled value towards positive
+   * infinity, as {@code Math.round}, after one rounding of the scaling), so its shortest round-trip text has at most {@code n}
+   * significant digits. Powers of ten up to 10^22 are exact doubles (common practice), so the
+   * last step is one correctly rounded multiply or divide. Magnitudes whose scaling would need a
+   * larger power (below about 10^-8 or at or above 10^22 for 15 digits) and non-finite values are
+   * returned unchanged (written exactly). Deterministic: exact comparisons and one rounding. Package-private
+   * for tests.
+   */
+  static double roundSignificant(double v, int n) {
+    if (v == 0 || Double.isNaN(v) || Double.isInfinite(v)) {
+      return v;
+    }
+    double a = Math.abs(v);
+    // floor(log2 a) · log10(2) is floor(log10 a) or one less (common practice); settle e with comparisons
+    // (StrictMath.log10 here cost 6 % of step + encoding in OutputBuildsAB; this is integer work)
+    int e = (int) Math.floor(Math.getExponent(a) * 0.30102999566398114);
+    if (e > 22 || e < -22) {
+      return v;
+    }
+    if (e >= 0) {
+      if (a < POW10[e]) {
+        e--;
+      } else if (e == 22 ? a >= 1e23 : a >= POW10[e + 1]) {
+        if (e == 22) {
+          return v; // 10^23 and up: no exact power of ten left to scale by
+        }
+        e++;
+      }
+    } else {
+      if (a * POW10[-e] < 1) e--; // a · 10^-e is one rounding, enough to place the boundary for this use
+      else if (a * POW10[-e] >= 10) e++;
+    }
+    int k = n - 1 - e; // scale: m = v · 10^k
+    if (k >= 0 && k <= 22) {
+      double m = Math.round(v * POW10[k]);
+      return m / POW10[k];
+    } else if (k < 0 && k >= -22) {
+      double m = Math.round(v / POW10[-k]);
+      return m * POW10[-k];
+    }
+    return v;
   }
 
   private static void number(JsonGenerator g, String name, double v) throws IOException {

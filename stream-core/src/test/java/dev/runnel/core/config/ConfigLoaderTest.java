@@ -117,6 +117,20 @@ class ConfigLoaderTest {
     assertEquals(new PipelineConfig.Web(true, "127.0.0.1", 8642), c.web());
   }
 
+  @Test void echoFieldsAndDigits_areRead_andABadFieldIsNamedWithTheDeclaredOnes() {
+    String base = "name: m\ninput:\n  fields: {y: number, hub: text, open: flag}\ntarget: y\n"
+        + "features:\n  - {kind: onehot, field: hub}\n";
+    PipelineConfig c = ConfigLoader.parse(base + "outputs: {echo_fields: [open, hub], significant_digits: 6}\n", "m.yaml");
+    assertEquals(List.of("open", "hub"), c.outputs().echoFields());
+    assertEquals(6, c.outputs().significantDigits());
+    ConfigException e = assertThrows(ConfigException.class,
+        () -> ConfigLoader.parse(base + "outputs: {echo_fields: [hub, y]}\n", "m.yaml"));
+    assertTrue(e.getMessage().contains("outputs.echo_fields[1]") && e.getMessage().contains("hub, open"), e.getMessage());
+    ConfigException d = assertThrows(ConfigException.class,
+        () -> ConfigLoader.parse(base + "outputs: {significant_digits: 16}\n", "m.yaml"));
+    assertTrue(d.getMessage().contains("outputs.significant_digits"), d.getMessage());
+  }
+
   @Test void minimalConfiguration_getsTheDocumentedDefaults() {
     PipelineConfig c = ConfigLoader.parse("name: m\ninput:\n  fields: {y: number, x: number}\ntarget: y\n"
         + "features:\n  - {kind: numeric, field: x}\n  - {kind: cyclic, cycle: day_of_week}\n", "m.yaml");

@@ -172,4 +172,109 @@ class OutputJsonTest {
     }
     return s.toString();
   }
+
+  private static EventRecord hubRecord() {
+    Map<String, FieldType> m = new LinkedHashMap<>();
+    m.put("kind", FieldType.TEXT);
+    m.put("hub", FieldType.TEXT);
+    m.put("temp", FieldType.NUMBER);
+    m.put("open", FieldType.FLAG);
+    EventRecord r = new EventRecord(new RecordSchema(m));
+    r.setText(0, "actual");
+    r.setText(1, "QM-03");
+    r.setNumber(2, 4.5);
+    r.setFlag(3, true);
+    return r;
+  }
+
+  private static Prediction scored() {
+    Prediction p = new Prediction();
+    p.status = Prediction.Status.SCORED;
+    p.eventTimeMillis = 1_774_744_200_000L;
+    p.sourcePartition = 0;
+    p.sourceOffset = 12;
+    p.predicted = 29.572289899070913;
+    p.low = 11.64734944281797;
+    p.high = 47.49723035532386;
+    p.actual = 39.8;
+    return p;
+  }
+
+  @Test void formatThree_leavesFormatAndPipelineToTheHeaders_andEchoesTheConfiguredFields() throws IOException {
+    EventRecord r = hubRecord();
+    Prediction p = scored();
+    com.fasterxml.jackson.databind.ObjectMapper reader = new com.fasterxml.jackson.databind.ObjectMapper();
+    com.fasterxml.jackson.databind.JsonNode all = reader.readTree(new OutputJson("qm", 0.9).prediction(p, r));
+    assertTrue(!all.has("format") && !all.has("pipeline"), all.toString());
+    assertEquals("{\"kind\":\"actual\",\"hub\":\"QM-03\",\"open\":true}", all.get("fields").toString(), "null list: every text and flag");
+    com.fasterxml.jackson.databind.JsonNode some = reader.readTree(new OutputJson("qm", 0.9, java.util.List.of("open", "hub"), 0).prediction(p, r));
+    assertEquals("{\"open\":true,\"hub\":\"QM-03\"}", some.get("fields").toString(), "the configured fields in the configured order");
+    String none = new String(new OutputJson("qm", 0.9, java.util.List.of(), 0).prediction(p, r), StandardCharsets.UTF_8);
+    assertTrue(!none.contains("fields") && !none.contains("QM-03"), none);
+    assertEquals(all.get("predicted"), reader.readTree(none).get("predicted"));
+    String reject = new String(new OutputJson("qm", 0.9).reject(RejectReason.WRONG_TYPE, "d", 0, 3, new byte[] {'x'}, 0, 1),
+        StandardCharsets.UTF_8);
+    assertTrue(reject.startsWith("{\"reason\":\"wrong_type\""), reject);
+    assertEquals("{\"format\":3,\"pipeline\":\"qm\",\"snapshot_format\":" + Snapshot.FORMAT_VERSION + "}\n",
+        new String(new OutputJson("qm", 0.9).formatFile(), StandardCharsets.UTF_8));
+  }
+
+  @Test void significantDigits_roundLikeBigDecimal_andWriteNoMoreDigits() throws IOException {
+    // reference: java.math.BigDecimal rounded to n significant digits (MathContext, HALF_UP on the
+    // double's exact value), then read back by Double.parseDouble. The scaling multiplies or divides
+    // once before rounding, so a value within a few ulps of a tie may round the other way: those
+    // must still be one of the two neighbouring n-digit decimals.
+    Random rnd = new Random(29);
+    EventRecord r = hubRecord();
+    com.fasterxml.jackson.databind.ObjectMapper reader = new com.fasterxml.jackson.databind.ObjectMapper();
+    int other = 0;
+    int total = 0;
+    for (int n : new int[] {1, 3, 6, 9, 15}) {
+      OutputJson json = new OutputJson("qm", 0.9, java.util.List.of(), n);
+      for (int i = 0; i < 4000; i++) {
+        double v = switch (i % 3) {
+          case 0 -> rnd.nextGaussian() * 40;
+          case 1 -> Math.scalb(rnd.nextDouble(), rnd.nextInt(60) - 25) * (rnd.nextBoolean() ? 1 : -1);
+          default -> Math.round(rnd.nextGaussian() * 1e5) / 1000.0;
+        };
+        if (v == 0) continue;
+        Prediction p = scored();
+        p.predicted = v;
+        p.low = v - 1;
+        String text = reader.readTree(json.prediction(p, r)).get("predicted").asText();
+        java.math.BigDecimal written = new java.math.BigDecimal(text);
+        java.math.BigDecimal exact = new java.math.BigDecimal(v);
+        int e = exact.precision() - exact.scale() - 1;
+        if (Math.abs(n - 1 - e) > 22) { // documented: written exactly when the scaling needs more than 10^22
+          assertEquals(Double.doubleToRawLongBits(v), Double.doubleToRawLongBits(Double.parseDouble(text)), text);
+          continue;
+        }
+        java.math.BigDecimal up = exact.round(new java.math.MathContext(n, java.math.RoundingMode.UP));
+        java.math.BigDecimal down = exact.round(new java.math.MathContext(n, java.math.RoundingMode.DOWN));
+        java.math.BigDecimal half = exact.round(new java.math.MathContext(n, java.math.RoundingMode.HALF_UP));
+        assertTrue(written.stripTrailingZeros().precision() <= n, n + " digits: " + v + " written as " + text);
+        double got = Double.parseDouble(text);
+        total++;
+        if (got != half.doubleValue()) {
+          other++;
+          assertTrue(got == up.doubleValue() || got == down.doubleValue(), n + " digits: " + v + " written as " + text);
+          // only next to a tie: the exact value within a few ulps of the midpoint of its two n-digit neighbours
+          double fromTie = exact.subtract(up.add(down).divide(java.math.BigDecimal.valueOf(2))).abs().doubleValue();
+          assertTrue(fromTie <= 4 * Math.ulp(v), n + " digits: " + v + " written as " + text + ", " + fromTie + " from the tie");
+        }
+        p.actual = v / 7;
+        String actual = reader.readTree(json.prediction(p, r)).get("actual").asText();
+        assertEquals(Double.doubleToRawLongBits(p.actual), Double.doubleToRawLongBits(Double.parseDouble(actual)), "actual stays exact: " + actual);
+      }
+    }
+    assertTrue(other * 50 < total, other + " of " + total + " off the HALF_UP reference (ties only)");
+    assertEquals(12.35, OutputJson.roundSignificant(12.345678, 4));
+    assertEquals(-0.001235, OutputJson.roundSignificant(-0.0012345678, 4));
+    assertEquals(1.0e7, OutputJson.roundSignificant(9_999_999.7, 3));
+    assertEquals(1.0e-30, OutputJson.roundSignificant(1.0e-30, 3), "beyond the exact powers of ten: unchanged");
+    assertEquals(1.23e21, OutputJson.roundSignificant(1.2345e21, 3));
+    assertEquals(1.2345e25, OutputJson.roundSignificant(1.2345e25, 3), "10^23 and up: unchanged");
+    assertEquals(0.1, OutputJson.roundSignificant(0.099999, 3));
+    assertEquals(1000.0, OutputJson.roundSignificant(999.99, 4));
+  }
 }

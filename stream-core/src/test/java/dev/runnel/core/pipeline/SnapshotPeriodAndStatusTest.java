@@ -138,7 +138,7 @@ class SnapshotPeriodAndStatusTest {
 
   private static String predictionsOnly(byte[] outputs) {
     StringBuilder b = new StringBuilder();
-    for (String line : new String(outputs, StandardCharsets.UTF_8).split("(?<=\\})(?=\\{\"format\")")) {
+    for (String line : new String(outputs, StandardCharsets.UTF_8).split("(?<=\\})(?=\\{\"(format|status|reason)\")")) {
       if (line.contains("\"status\":")) b.append(line).append('\n');
     }
     return b.toString();
