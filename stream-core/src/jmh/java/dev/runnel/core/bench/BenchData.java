@@ -55,6 +55,7 @@ final class BenchData {
       case "demo_spline": feature = "  - {kind: bends, name: temp_spline, field: temperature_c, basis: natural_spline, knots: [0, 8, 16, 24]}\n"; break;
       case "demo_holidays": feature = "  - {kind: special_days, name: holiday, holiday_country: nl, days_before: 1, days_after: 1}\n"; break;
       case "demo_log1p": feature = ""; break;
+      case "demo_forecast": return forecastYaml(yaml);
       default: throw new IllegalArgumentException("no demo variant " + variant);
     }
     String model = variant.equals("demo_log1p") ? "model:\n  target_transform: log1p\n  target_non_negative: true\n" : "model:\n";
@@ -69,10 +70,7 @@ final class BenchData {
    */
   static PipelineConfig demoForecastConfigWith(String... extraFeatures) {
     try {
-      String y = Files.readString(root().resolve("demo-data/src/main/resources/dev/runnel/demo/quillmarsh.yaml"));
-      y = y.replace("    sessions: number\n", "    sessions: number\n    hour_start: time\n");
-      y = y.replace("  time_zone: Europe/Amsterdam\n",
-          "  time_zone: Europe/Amsterdam\n  forecast: {entity_fields: [hub], target_time_field: hour_start}\n");
+      String y = forecastYaml(Files.readString(root().resolve("demo-data/src/main/resources/dev/runnel/demo/quillmarsh.yaml")));
       StringBuilder f = new StringBuilder();
       for (String e : extraFeatures) if (!e.isEmpty()) f.append("  - ").append(e).append('\n');
       y = y.replace("model:\n", f + "model:\n");
@@ -80,6 +78,16 @@ final class BenchData {
     } catch (IOException e) {
       throw new UncheckedIOException("run from the repository root or pass -Drunnel.root=<path>", e);
     }
+  }
+
+  /** The demo YAML with {@code input.forecast}: entity the hub, a target-time field the demo records do not carry. */
+  private static String forecastYaml(String y) {
+    if (!y.contains("    sessions: number\n") || !y.contains("  time_zone: Europe/Amsterdam\n")) {
+      throw new IllegalStateException("the demo configuration no longer has the lines the forecast variant extends");
+    }
+    y = y.replace("    sessions: number\n", "    sessions: number\n    hour_start: time\n");
+    return y.replace("  time_zone: Europe/Amsterdam\n",
+        "  time_zone: Europe/Amsterdam\n  forecast: {entity_fields: [hub], target_time_field: hour_start}\n");
   }
 
   /** The invented demo sample feed, one JSON document per line. */

@@ -31,7 +31,12 @@ import java.util.Locale;
  * (the demo sample), {@code --slices N} (16), {@code --label TEXT}, {@code --append FILE},
  * {@code --variant-b NAME} (B runs the demo configuration with one new kind added,
  * {@link BenchData#demoConfigWith}, e.g. {@code demo_hinge}; with {@code --a} and {@code --b} the
- * same build this is the kind's cost per record beside the demo's).
+ * same build this is the kind's cost per record beside the demo's), {@code --variant-a NAME} (the
+ * same for A; {@code demo_forecast} is the demo with {@code input.forecast}),
+ * {@code --fresh-each-lap} (each build's step is made anew whenever the feed wraps, so no record
+ * is ever seen twice by one step: no repeated or late actuals, no forecasts that never settle; use
+ * it with a long generated feed, e.g. a year of the demo generator's records, so the fresh step's
+ * warm-up is a small part of a lap).
  */
 public final class PipelineBuildsAB {
 
@@ -46,6 +51,8 @@ public final class PipelineBuildsAB {
     String label = "demo";
     Path append = null;
     String variantB = null;
+    String variantA = null;
+    boolean fresh = false;
     for (int i = 0; i < args.length; i++) {
       switch (args[i]) {
         case "--a" -> a = args[++i];
@@ -56,8 +63,11 @@ public final class PipelineBuildsAB {
         case "--label" -> label = args[++i];
         case "--append" -> append = Path.of(args[++i]);
         case "--variant-b" -> variantB = args[++i];
+        case "--variant-a" -> variantA = args[++i];
+        case "--fresh-each-lap" -> fresh = true;
         default -> throw new IllegalArgumentException("unknown option " + args[i]
-            + "; allowed: --a PATH, --b PATH, --config FILE, --records FILE, --slices N, --label TEXT, --append FILE, --variant-b NAME");
+            + "; allowed: --a PATH, --b PATH, --config FILE, --records FILE, --slices N, --label TEXT, --append FILE, --variant-b NAME,"
+            + " --variant-a NAME, --fresh-each-lap");
       }
     }
     if (a == null || b == null) {
@@ -66,8 +76,9 @@ public final class PipelineBuildsAB {
     String yaml = Files.readString(config);
     byte[][] recs = Files.readAllLines(records).stream().filter(l -> !l.isBlank())
         .map(l -> l.getBytes(StandardCharsets.UTF_8)).toArray(byte[][]::new);
+    String yamlA = variantA == null ? yaml : BenchData.demoYamlWith(variantA);
     String yamlB = variantB == null ? yaml : BenchData.demoYamlWith(variantB);
-    Runnable[] run = {driver(a, yaml, recs), driver(b, yamlB, recs)};
+    Runnable[] run = {driver(a, yamlA, recs, fresh), driver(b, yamlB, recs, fresh)};
     PairedSlices.Result r = PairedSlices.measure(run, 1000, 300, slices);
     String line = String.format(Locale.ROOT,
         "%s %s slices=%d: A median %,.0f records/s, B median %,.0f; B/A paired median %.3f [quartiles %.3f, %.3f] (A=%s, B=%s)",
@@ -105,12 +116,13 @@ public final class PipelineBuildsAB {
   }
 
   /** 1,000 records through a pipeline step of one build per call. */
-  private static Runnable driver(String path, String yaml, byte[][] recs) throws Exception {
+  private static Runnable driver(String path, String yaml, byte[][] recs, boolean fresh) throws Exception {
     ClassLoader cl = new ChildFirst(Path.of(path).toUri().toURL(), PipelineBuildsAB.class.getClassLoader());
     Class<?> loader = cl.loadClass("dev.runnel.core.config.ConfigLoader");
     Object cfg = loader.getMethod("parse", String.class, String.class).invoke(null, yaml, "ab.yaml");
     Class<?> stepClass = cl.loadClass("dev.runnel.core.pipeline.PipelineStep");
-    Object step = stepClass.getConstructor(cfg.getClass()).newInstance(cfg);
+    java.lang.reflect.Constructor<?> make = stepClass.getConstructor(cfg.getClass());
+    Object[] step = {make.newInstance(cfg)};
     Class<?> sinkClass = cl.loadClass("dev.runnel.core.pipeline.PipelineStep$Sink");
     Object sink = Proxy.newProxyInstance(cl, new Class<?>[] {sinkClass}, (proxy, m, margs) -> {
       switch (m.getName()) {
@@ -121,17 +133,20 @@ public final class PipelineBuildsAB {
       return null;
     });
     Method process = stepClass.getMethod("process", byte[].class, int.class, int.class, long.class, long.class, long.class, sinkClass);
-    java.lang.invoke.MethodHandle h = java.lang.invoke.MethodHandles.publicLookup().unreflect(process).bindTo(step)
-        .asType(java.lang.invoke.MethodType.methodType(void.class, byte[].class, int.class, int.class, long.class, long.class, long.class, Object.class));
+    java.lang.invoke.MethodHandle h = java.lang.invoke.MethodHandles.publicLookup().unreflect(process)
+        .asType(java.lang.invoke.MethodType.methodType(void.class, Object.class, byte[].class, int.class, int.class, long.class, long.class, long.class, Object.class));
     Object s = sink;
     int[] i = {0};
     return () -> {
       try {
         for (int k = 0; k < 1000; k++) {
           byte[] r = recs[i[0]];
-          h.invokeExact(r, 0, r.length, 0L, 0L, (long) i[0], s);
+          h.invokeExact(step[0], r, 0, r.length, 0L, 0L, (long) i[0], s);
           if (++i[0] == recs.length) {
             i[0] = 0;
+            if (fresh) {
+              step[0] = make.newInstance(cfg);
+            }
           }
         }
       } catch (RuntimeException e) {

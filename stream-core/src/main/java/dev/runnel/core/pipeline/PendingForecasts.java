@@ -13,11 +13,19 @@ import java.util.Arrays;
  * target time lies more than that behind the stream clock is dropped); both drops are counted.
  *
  * <p>Layout: a pool of entries on primitive arrays (grown by doubling up to the count bound, then
- * never again), a linear-probing hash table of entry ids on the 64-bit hash of the entity text and
- * the target time (the entity text is kept per entry, so a collision is resolved exactly), and a
- * doubly linked list of the entries in the order they were issued (which entry the count bound
- * drops, and which the age bound looks at first). Once warm an add or a take allocates nothing and
- * costs O(1) expected; deletion shifts the probe run back (no tombstones).
+ * never again), a doubly linked list of the entries in the order they were issued (which entry the
+ * count bound drops, and which the age bound looks at first), a singly linked chain per key of its
+ * entries in the order they were issued, and a linear-probing hash table on the 64-bit hash of the
+ * entity text and the target time that holds one slot per key pending: the id of its first-issued
+ * entry (the entity text is kept per entry, so a collision is resolved exactly). Once warm an add
+ * or a take allocates nothing and costs O(1) expected however many forecasts a key has (a take then
+ * walks its own chain); deletion shifts the probe run back (no tombstones).
+ *
+ * <p>Why one slot per key: with a slot per entry, the forecasts of one key all share a home slot,
+ * so k forecasts for a key (rolling forecasts re-issued every hour, or a replayed feed whose
+ * actuals never come) make a probe run of at least k slots, runs of neighbouring keys merge, and
+ * every add, take and drop walked and shifted the merged run: O(k) and worse per call, measured as
+ * 2.5 times the demo step's cost on a cycled feed (docs/performance.md, "Forecast path").
  *
  * <p>The age bound is applied to the first-issued entry on every call ({@link #expireFront}), and
  * exactly to the key taken: a forecast whose actual arrives later than the bound is dropped, not
@@ -48,6 +56,10 @@ final class PendingForecasts {
   private int[] keyLength;
   private int[] prev;
   private int[] next;
+  /** The next entry of the same key in the order issued, or NONE. */
+  private int[] keyNext;
+  /** For the first-issued entry of a key (the one the table holds): the key's last entry; NONE for the others. */
+  private int[] keyLast;
   private int[] free;
   private int freeTop;
   private int first = NONE;
@@ -91,6 +103,8 @@ final class PendingForecasts {
     keyLength = new int[cap];
     prev = new int[cap];
     next = new int[cap];
+    keyNext = new int[cap];
+    keyLast = new int[cap];
     free = new int[cap];
     for (int i = 0; i < cap; i++) {
       free[i] = cap - 1 - i;
@@ -119,6 +133,8 @@ final class PendingForecasts {
     keyLength = Arrays.copyOf(keyLength, cap);
     prev = Arrays.copyOf(prev, cap);
     next = Arrays.copyOf(next, cap);
+    keyNext = Arrays.copyOf(keyNext, cap);
+    keyLast = Arrays.copyOf(keyLast, cap);
     // called only when no entry is free: the new ids are the free ones, the lowest taken first
     free = new int[cap];
     int top = 0;
@@ -132,7 +148,9 @@ final class PendingForecasts {
     Arrays.fill(table, NONE);
     mask = t - 1;
     for (int e = first; e != NONE; e = next[e]) {
-      tableInsert(e);
+      if (keyLast[e] != NONE) {
+        tableInsert(e);
+      }
     }
   }
 
@@ -168,10 +186,7 @@ final class PendingForecasts {
   void expireFront(long nowMillis) {
     recycle();
     while (first != NONE && expired(target[first], nowMillis)) {
-      int e = first;
-      unlink(e);
-      tableRemove(e);
-      free[freeTop++] = e;
+      dropFirst();
       droppedExpired++;
     }
   }
@@ -191,16 +206,14 @@ final class PendingForecasts {
       return false;
     }
     if (size == maxPending) {
-      int e = first;
-      unlink(e);
-      tableRemove(e);
-      free[freeTop++] = e;
+      dropFirst();
       droppedFull++;
     } else if (freeTop == 0) {
       grow();
     }
     int e = free[--freeTop];
-    hash[e] = hash(k, n, targetMillis);
+    long h = hash(k, n, targetMillis);
+    hash[e] = h;
     target[e] = targetMillis;
     issue[e] = issueMillis;
     forecast[e] = value;
@@ -223,9 +236,53 @@ final class PendingForecasts {
     }
     last = e;
     size++;
-    tableInsert(e);
+    keyNext[e] = NONE;
+    keyLast[e] = NONE;
+    int i = slotOf(h, k, n, targetMillis);
+    if (table[i] == NONE) {
+      table[i] = e; // the key's first pending forecast
+      keyLast[e] = e;
+    } else {
+      int f = table[i];
+      keyNext[keyLast[f]] = e;
+      keyLast[f] = e;
+    }
     remembered++;
     return true;
+  }
+
+  /**
+   * The table slot of (entity, target time): the one holding the key's first-issued entry, or the
+   * empty slot that ends its probe run.
+   */
+  private int slotOf(long h, char[] k, int n, long targetMillis) {
+    int i = (int) h & mask;
+    for (int e = table[i]; e != NONE; e = table[i]) {
+      if (hash[e] == h && target[e] == targetMillis && sameKey(e, k, n)) {
+        return i;
+      }
+      i = (i + 1) & mask;
+    }
+    return i;
+  }
+
+  /** Drops the first-issued entry: the first of its key's chain too, so the key's next one takes its slot. */
+  private void dropFirst() {
+    int e = first;
+    unlink(e);
+    int i = (int) hash[e] & mask;
+    while (table[i] != e) {
+      i = (i + 1) & mask;
+    }
+    int f = keyNext[e];
+    if (f != NONE) {
+      table[i] = f;
+      keyLast[f] = keyLast[e];
+    } else {
+      removeSlot(i);
+    }
+    keyLast[e] = NONE;
+    free[freeTop++] = e;
   }
 
   /**
@@ -238,31 +295,19 @@ final class PendingForecasts {
    */
   int take(char[] k, int n, long targetMillis, long nowMillis) {
     expireFront(nowMillis);
-    long h = hash(k, n, targetMillis);
+    int slot = slotOf(hash(k, n, targetMillis), k, n, targetMillis);
     int found = 0;
-    for (int i = (int) h & mask; table[i] != NONE; i = (i + 1) & mask) {
-      int e = table[i];
-      if (hash[e] == h && target[e] == targetMillis && sameKey(e, k, n)) {
+    if (table[slot] != NONE) {
+      // the key's chain is in the order issued
+      for (int e = table[slot]; e != NONE; e = keyNext[e]) {
         if (found == taken.length) {
           taken = Arrays.copyOf(taken, found * 2);
         }
         taken[found++] = e;
+        unlink(e);
       }
-    }
-    // in the order issued (insertion sort on the sequence numbers; a handful per key)
-    for (int i = 1; i < found; i++) {
-      int e = taken[i];
-      int j = i - 1;
-      while (j >= 0 && seq[taken[j]] > seq[e]) {
-        taken[j + 1] = taken[j];
-        j--;
-      }
-      taken[j + 1] = e;
-    }
-    for (int i = 0; i < found; i++) {
-      int e = taken[i];
-      unlink(e);
-      tableRemove(e);
+      keyLast[table[slot]] = NONE;
+      removeSlot(slot);
     }
     takenToFree = found;
     if (found > 0 && expired(targetMillis, nowMillis)) {
@@ -310,12 +355,8 @@ final class PendingForecasts {
     table[i] = e;
   }
 
-  /** Removes entry {@code e} from the table and shifts the rest of its probe run back. */
-  private void tableRemove(int e) {
-    int i = (int) hash[e] & mask;
-    while (table[i] != e) {
-      i = (i + 1) & mask;
-    }
+  /** Empties table slot {@code i} and shifts the rest of its probe run back. */
+  private void removeSlot(int i) {
     table[i] = NONE;
     int j = i;
     while (true) {
@@ -348,6 +389,17 @@ final class PendingForecasts {
 
   /** Forecasts pending now. */
   int size() { return size; }
+
+  /** Table slots in use: one per key (entity, target time) with a forecast pending (cold; for tests). */
+  int keySlotsInUse() {
+    int n = 0;
+    for (int v : table) {
+      if (v != NONE) {
+        n++;
+      }
+    }
+    return n;
+  }
 
   /** Forecasts remembered since the state began. */
   long remembered() { return remembered; }

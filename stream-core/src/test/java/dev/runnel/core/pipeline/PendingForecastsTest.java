@@ -170,4 +170,34 @@ class PendingForecastsTest {
     // a char[] per add alone would be 20000 * 32 bytes; allow a little for the bean's own call
     assertTrue(allocated < 4_096, "bytes allocated by 20000 warm adds and takes: " + allocated);
   }
+
+  /**
+   * Many forecasts for one key take one table slot, not one each: with a slot per forecast, k
+   * forecasts of a key make a probe run of k slots that every add, take and drop walked and
+   * shifted (docs/performance.md, "Forecast path"). The store is filled past its count bound with
+   * 40 forecasts for each of 25 keys, in the order a rolling forecast issues them.
+   */
+  @Test
+  void forecastsOfOneKeyShareOneTableSlot() {
+    PendingForecasts store = new PendingForecasts(600, 1_000_000);
+    char[][] keys = new char[25][];
+    for (int i = 0; i < keys.length; i++) {
+      keys[i] = ("hub-" + i).toCharArray();
+    }
+    for (int round = 0; round < 40; round++) {
+      for (char[] k : keys) {
+        store.add(k, k.length, 500, round, round, round - 1, round + 1, 0, round, 0);
+      }
+    }
+    assertEquals(600, store.size(), "the count bound holds");
+    assertEquals(400, store.droppedFull(), "the first-issued ones were dropped");
+    assertEquals(25, store.keySlotsInUse(), "one slot per key with forecasts pending");
+    char[] k = keys[7];
+    int n = store.take(k, k.length, 500, 0);
+    assertEquals(24, n, "the forecasts of hub-7 left after the drops");
+    for (int i = 0; i < n; i++) {
+      assertEquals(16 + i, store.takenIssueMillis(i), "taken in the order issued");
+    }
+    assertEquals(24, store.keySlotsInUse(), "the key's slot is freed with its forecasts");
+  }
 }
