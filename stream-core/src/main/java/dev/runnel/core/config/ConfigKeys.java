@@ -57,6 +57,8 @@ public final class ConfigKeys {
   public static final ConfigKey<?> EVENT_TIME_FIELD = add(ConfigKey.structured("input.event_time", "field", "text", "required"));
   public static final ConfigKey<TimeFormat> EVENT_TIME_FORMAT = add(ConfigKey.choice("input.event_time", "format", TimeFormat.ISO8601, TimeFormat.values(), TimeFormat::word));
   public static final ConfigKey<ZoneId> TIME_ZONE = add(ConfigKey.custom("input", "time_zone", "text", ZoneId.of("UTC"), ZONE_ALLOWED, ZoneId::getId, ConfigKeys::zone));
+  public static final ConfigKey<PipelineConfig.InputFormat> INPUT_FORMAT = add(ConfigKey.choice("input", "format", PipelineConfig.InputFormat.JSON, PipelineConfig.InputFormat.values(), PipelineConfig.InputFormat::word));
+  public static final ConfigKey<String> AVRO_SCHEMA_FILE = add(ConfigKey.text("input", "avro_schema_file", "", "a path to an Avro schema file (.avsc, JSON)"));
   public static final ConfigKey<?> LIMITS_SECTION = add(ConfigKey.structured("input", "limits", "mapping", "all defaults"));
   public static final ConfigKey<Integer> MAX_TEXT_LENGTH = add(ConfigKey.wholeInt("input.limits", "max_text_length", LIMITS.maxTextLength(), 1, 1_000_000));
   public static final ConfigKey<Integer> MAX_RECORD_BYTES = add(ConfigKey.wholeInt("input.limits", "max_record_bytes", LIMITS.maxRecordBytes(), 64, 16_777_216));
