@@ -203,6 +203,8 @@ public final class ConfigKeys {
   public static final ConfigKey<?> WEB_ALLOWED_HOSTS = add(ConfigKey.structured("web", "allowed_hosts", "list", "[]"));
   public static final ConfigKey<String> WEB_TOKEN_FILE = add(ConfigKey.text("web", "token_file", "", "a path to a file that holds the bearer token on one line"));
   public static final ConfigKey<String> WEB_FORECAST_KEY_FIELD = add(ConfigKey.text("web", "forecast_key_field", "", "a text field of input.fields: the one the producers key records by"));
+  public static final ConfigKey<String> WEB_KEY_STORE_FILE = add(ConfigKey.text("web", "key_store_file", "", "a path to a PKCS12 or JKS key store with the server's key and certificate"));
+  public static final ConfigKey<String> WEB_KEY_STORE_PASSWORD_FILE = add(ConfigKey.text("web", "key_store_password_file", "", "a path to a file that holds the key store's password on one line"));
 
   /** Every key, in the order docs/configuration.md lists them. */
   public static List<ConfigKey<?>> all() { return Collections.unmodifiableList(ALL); }

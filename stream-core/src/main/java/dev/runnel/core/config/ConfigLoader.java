@@ -977,7 +977,9 @@ public final class ConfigLoader {
       }
       String tokenFile = ConfigKeys.WEB_TOKEN_FILE.read(w);
       String keyField = ConfigKeys.WEB_FORECAST_KEY_FIELD.read(w);
-      return new PipelineConfig.Web(enabled, bind, port, hosts, tokenFile, keyField);
+      String keyStore = ConfigKeys.WEB_KEY_STORE_FILE.read(w);
+      String keyStorePassword = ConfigKeys.WEB_KEY_STORE_PASSWORD_FILE.read(w);
+      return new PipelineConfig.Web(enabled, bind, port, hosts, tokenFile, keyField, keyStore, keyStorePassword);
     }
   }
 }

@@ -273,8 +273,14 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    *     first of {@code input.forecast.entity_fields}
    */
   public record Web(boolean enabled, String bind, int port, java.util.List<String> allowedHosts, String tokenFile,
-                    String forecastKeyField) {
+                    String forecastKeyField, String keyStoreFile, String keyStorePasswordFile) {
     public Web { allowedHosts = java.util.List.copyOf(allowedHosts); }
+
+    /** No TLS. */
+    public Web(boolean enabled, String bind, int port, java.util.List<String> allowedHosts, String tokenFile,
+               String forecastKeyField) {
+      this(enabled, bind, port, allowedHosts, tokenFile, forecastKeyField, "", "");
+    }
 
     /** No token file, the forecast key field by default. */
     public Web(boolean enabled, String bind, int port, java.util.List<String> allowedHosts) {
