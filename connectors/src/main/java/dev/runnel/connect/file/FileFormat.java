@@ -21,8 +21,8 @@ public enum FileFormat {
   static final int SNIFF_BYTES = 4096;
 
   /**
-   * Tells the format: a name ending in {@code .csv} (any case) is CSV; otherwise a file whose first
-   * non-blank character is <code>{</code> is JSON Lines.
+   * Tells the format: a name ending in {@code .csv} (any case) is CSV; otherwise a file with a line
+   * starting with <code>{</code> among its first {@value #SNIFF_BYTES} bytes is JSON Lines.
    *
    * @param file the file
    * @param option the option that named it, for the message (e.g. {@code --source})
@@ -42,14 +42,32 @@ public enum FileFormat {
     if (head.length >= 3 && (head[0] & 0xff) == 0xEF && (head[1] & 0xff) == 0xBB && (head[2] & 0xff) == 0xBF) {
       i = 3;
     }
-    while (i < head.length && (head[i] == ' ' || head[i] == '\t' || head[i] == '\r' || head[i] == '\n')) {
-      i++;
+    int first = -1;
+    // JSON Lines when a line among the first ones starts with '{' (a broken first record is a reject, not a wrong file)
+    for (int j = i; j < head.length; j++) {
+      boolean lineStart = j == i || head[j - 1] == '\n';
+      if (!lineStart) {
+        continue;
+      }
+      int k = j;
+      while (k < head.length && (head[k] == ' ' || head[k] == '\t' || head[k] == '\r')) {
+        k++;
+      }
+      if (k < head.length && head[k] != '\n') {
+        if (head[k] == '{') {
+          return JSON_LINES;
+        }
+        if (first < 0) {
+          first = k;
+        }
+      }
     }
-    if (i == head.length || head[i] == '{') {
-      return JSON_LINES; // an empty file is refused later with its own message
+    if (first < 0) {
+      return JSON_LINES; // empty or blank: refused later with its own message
     }
+    i = first;
     throw new IllegalArgumentException(option + " " + file + ": neither JSON Lines nor CSV: its first line starts with "
-        + shown(head, i) + ". Expected JSON Lines (one JSON object a line, each starting with '{') or CSV"
+        + shown(head, i) + " and no line of its first " + SNIFF_BYTES + " bytes starts with '{'. Expected JSON Lines (one JSON object a line, each starting with '{') or CSV"
         + " (a file named *.csv whose first line is a header row naming the fields)");
   }
 
