@@ -41,7 +41,7 @@ public final class BacktestCommand implements Callable<Integer> {
   picocli.CommandLine.Model.CommandSpec spec;
 
   @Option(names = "--source", required = true, paramLabel = "TOPIC|FILE",
-      description = "A topic name, or a JSON Lines file (plain, or a recording made by `runnel record`).")
+      description = "A topic name, a JSON Lines file (plain, or a recording made by `runnel record`), or a CSV file (*.csv, a header row naming the fields).")
   String source;
 
   @Option(names = "--config", required = true, paramLabel = "FILE",
@@ -158,6 +158,10 @@ public final class BacktestCommand implements Callable<Integer> {
     TopicRange range = new TopicRange(startOffset, instant("--start-time", startTime), endOffset,
         instant("--end-time", endTime));
     PipelineConfig first = variants.get(0).config();
+    Map<String, Map<String, dev.runnel.core.record.FieldType>> fieldsByConfig = new LinkedHashMap<>();
+    for (Backtest.Variant v : variants) {
+      fieldsByConfig.put(v.label(), v.config().input().schema().fields());
+    }
     EmbeddedBroker[] broker = {null};
     long n;
     try (ReplaySource src = ReplaySource.resolve(source, range, topic -> {
@@ -168,7 +172,7 @@ public final class BacktestCommand implements Callable<Integer> {
       }
       run.put("bootstrap_servers", servers);
       return new TopicSource(servers, first.kafka().clientProperties(), topic, range);
-    })) {
+    }, dev.runnel.connect.file.CsvLines.union(fieldsByConfig))) {
       n = readOnly ? src.readOnly() : src.replay(bt, workers, (recs, done, total) -> progress.update(recs,
           () -> src.progress(done, total) + left(done, total, t0)));
       src.describe(run);

@@ -10,7 +10,8 @@ import picocli.CommandLine.Option;
 /** Publishes a JSON Lines file (plain or a recording) to a topic. */
 @Command(name = "load", mixinStandardHelpOptions = true,
     description = {"Publish a JSON Lines file to a topic: a plain file one record per line; a recording (from "
-        + "`runnel record`) with its partitions, keys and timestamps kept.",
+        + "`runnel record`) with its partitions, keys and timestamps kept; a CSV file (*.csv, a header row) one JSON"
+        + " record per row, its cells typed by the input.fields of --config.",
         "Creates the topic when missing (as many partitions as the recording had, else --partitions), keeping its records"
             + " for good (retention.ms=-1: recorded timestamps are old); refuses an existing topic whose retention would delete them.",
         "The cluster: --bootstrap-servers, else kafka.bootstrap_servers of --config, else " + RecordCommand.DEFAULT_SERVERS
@@ -33,7 +34,9 @@ public final class LoadCommand implements Callable<Integer> {
   @Override
   public Integer call() throws Exception {
     Launch.Cluster kafka = Launch.cluster(clientFile.config, cluster.bootstrapServers, RecordCommand.DEFAULT_SERVERS);
-    long n = Loader.load(source, kafka.bootstrapServers(), kafka.clientProperties(), topic, partitions);
+    java.util.Map<String, dev.runnel.core.record.FieldType> csvTypes = clientFile.config == null ? null
+        : dev.runnel.core.config.ConfigLoader.load(clientFile.config).input().schema().fields();
+    long n = Loader.load(source, csvTypes, kafka.bootstrapServers(), kafka.clientProperties(), topic, partitions);
     System.out.printf("published %,d records from %s to %s%n", n, source, topic);
     return 0;
   }

@@ -20,13 +20,13 @@ import picocli.CommandLine.Option;
  * the predictions, snapshots and rejects to files. No Kafka involved.
  */
 @Command(name = "replay", mixinStandardHelpOptions = true,
-    description = "Run one pipeline configuration over a JSON Lines file (no Kafka) and write its outputs to files.")
+    description = "Run one pipeline configuration over a JSON Lines or CSV file (no Kafka) and write its outputs to files.")
 public final class ReplayCommand implements Callable<Integer> {
 
   @Mixin Options.PipelineFile pipeline;
   @Mixin Options.Quiet quiet;
 
-  @Option(names = "--source", required = true, paramLabel = "FILE", description = "Input records, one JSON object per line.")
+  @Option(names = "--source", required = true, paramLabel = "FILE", description = "Input records: one JSON object per line, or a CSV file (*.csv) with a header row naming the fields.")
   Path source;
 
   @Option(names = "--out", paramLabel = "DIR", defaultValue = "target/replay",

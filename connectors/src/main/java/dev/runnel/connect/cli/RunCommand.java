@@ -40,6 +40,7 @@ public final class RunCommand implements Callable<Integer> {
   @Override
   public Integer call() throws Exception {
     PipelineConfig cfg = Launch.warn(ConfigLoader.load(pipeline.config), System.err);
+    dev.runnel.connect.pipeline.AvroValues.of(cfg); // a missing or bad input.avro_schema_file stops here, before any broker
     LivePipeline p = LivePipeline.connect(cfg, new LivePipeline.Options(cluster.bootstrapServers, brokerData.dataDir, -1,
         instanceId, webPort, !noWeb, false, "runnel"), System.err);
     p.stopOnShutdown();

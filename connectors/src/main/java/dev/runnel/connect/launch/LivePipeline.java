@@ -8,6 +8,7 @@ import dev.runnel.connect.text.TerminalText;
 import dev.runnel.connect.web.LiveState;
 import dev.runnel.connect.web.ServiceMetrics;
 import dev.runnel.connect.web.WebAccess;
+import dev.runnel.connect.web.WebTls;
 import dev.runnel.connect.web.WebView;
 import dev.runnel.core.config.PipelineConfig;
 import java.io.IOException;
@@ -86,7 +87,8 @@ public final class LivePipeline implements AutoCloseable {
     WebAccess access = WebAccess.open();
     if (options.web() && config.web().enabled()) {
       // said before anything starts: a web.bind that does not resolve, or is open to others without a token
-      access = WebAccess.resolve(config.web().tokenFile(), tokenEnv);
+      access = WebAccess.resolve(config.web().tokenFile(), tokenEnv)
+          .withTls(WebTls.context(config.web().keyStoreFile(), config.web().keyStorePasswordFile(), System.getenv(WebTls.PASSWORD_ENV)));
       access.checkBind(config.web().bind(), WebView.bindAddress(config.web().bind(), 0));
       LiveService.keyField(config);
     }

@@ -43,6 +43,9 @@ public final class PipelineProcessor implements PartitionProcessor {
   private static final byte[] EMPTY = new byte[0];
 
   private final PipelineStep step;
+  /** Turns Avro values into JSON objects; null for JSON input. */
+  private final AvroValues avro;
+  private final int maxRecordBytes;
   private final OutputJson json;
   private final int partition;
   private final byte[] partitionKey;
@@ -89,6 +92,8 @@ public final class PipelineProcessor implements PartitionProcessor {
   public PipelineProcessor(PipelineConfig config, TopicPartition tp) {
     this.config = config;
     this.step = new PipelineStep(config);
+    this.avro = AvroValues.of(config);
+    this.maxRecordBytes = config.input().limits().maxRecordBytes();
     this.json = OutputJson.of(config);
     this.headers = new RecordHeader[] {
         new RecordHeader(OutputJson.HEADER_FORMAT, Integer.toString(OutputJson.FORMAT_VERSION).getBytes(StandardCharsets.US_ASCII)),
@@ -238,10 +243,24 @@ public final class PipelineProcessor implements PartitionProcessor {
   @Override
   public void process(long offset, long timestampMillis, byte[] key, byte[] value, Emitter out) {
     byte[] v = value == null ? EMPTY : value;
-    sink.bind(out, key, v, offset);
+    byte[] record = v;
+    String unreadable = null;
+    if (avro != null && v.length > 0 && v.length <= maxRecordBytes) {
+      // an Avro value becomes the JSON object the decoder reads (rejects then show that object)
+      record = avro.toJson(v);
+      if (record == null) {
+        unreadable = avro.problem();
+        record = v;
+      }
+    }
+    sink.bind(out, key, record, offset);
     acquire();
     try {
-      step.process(v, 0, v.length, timestampMillis, partition, offset, sink);
+      if (unreadable != null) {
+        step.processUnreadable(RejectReason.MALFORMED_JSON, unreadable, sink);
+      } else {
+        step.process(record, 0, record.length, timestampMillis, partition, offset, sink);
+      }
       if (!queued.isEmpty()) {
         serveQueued();
       }

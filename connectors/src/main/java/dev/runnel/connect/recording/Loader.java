@@ -1,6 +1,9 @@
 package dev.runnel.connect.recording;
 
+import dev.runnel.connect.file.CsvLines;
+import dev.runnel.connect.file.FileFormat;
 import dev.runnel.connect.file.JsonLinesReader;
+import dev.runnel.core.record.FieldType;
 import dev.runnel.connect.file.Recording;
 import dev.runnel.connect.kafka.ClientConfig;
 import java.io.IOException;
@@ -28,7 +31,7 @@ import org.apache.kafka.common.errors.UnknownTopicOrPartitionException;
 import org.apache.kafka.common.serialization.ByteArraySerializer;
 
 /**
- * Publishes a JSON Lines file to a topic. A recording keeps each record's partition, key, timestamp and
+ * Publishes a JSON Lines or CSV file to a topic (a CSV row as the JSON object {@link CsvLines} makes of it). A recording keeps each record's partition, key, timestamp and
  * absent value (the topic must have at least as many partitions); a plain file is published one line
  * per record, without key, with the producer's timestamps. A topic it creates keeps its records for good
  * ({@link #NEW_TOPIC_CONFIG}); an existing topic whose retention would delete the recording's old records
@@ -58,11 +61,28 @@ public final class Loader {
    */
   public static long load(Path file, String bootstrap, Map<String, String> clientProperties, String topic,
                           int partitionsForPlain) throws Exception {
+    return load(file, null, bootstrap, clientProperties, topic, partitionsForPlain);
+  }
+
+  /**
+   * As {@link #load(Path, String, Map, String, int)}, also for a CSV file ({@link FileFormat}): each row
+   * is published as the JSON object {@link CsvLines} makes of it (without key, with the producer's timestamps).
+   *
+   * @param csvTypes the declared fields a CSV file's cells are typed by (a configuration's {@code input.fields});
+   *     null to refuse CSV. Not modified.
+   * @throws IllegalArgumentException also if the file is neither JSON Lines nor CSV, or is CSV and
+   *     {@code csvTypes} is null
+   */
+  public static long load(Path file, Map<String, FieldType> csvTypes, String bootstrap, Map<String, String> clientProperties,
+                          String topic, int partitionsForPlain) throws Exception {
     if (partitionsForPlain < 1) {
       throw new IllegalArgumentException("--partitions must be at least 1, got " + partitionsForPlain);
     }
     if (!Files.isRegularFile(file)) {
       throw new IllegalArgumentException("--source " + file + ": no such file");
+    }
+    if (FileFormat.of(file, "--source") == FileFormat.CSV) {
+      return loadCsv(file, csvTypes, bootstrap, clientProperties, topic, partitionsForPlain);
     }
     // first pass: is it a recording, how many partitions, how old is its oldest record
     int[] maxPartition = {-1};
@@ -129,6 +149,38 @@ public final class Loader {
             producer.send(new ProducerRecord<>(topic, Arrays.copyOfRange(buf, off, off + len)), onError);
           }
         }
+      });
+      producer.flush();
+    }
+    if (failure.get() != null) {
+      throw new IllegalStateException("publishing to " + topic + " failed: " + failure.get().getMessage(), failure.get());
+    }
+    return n[0];
+  }
+
+  private static long loadCsv(Path file, Map<String, FieldType> csvTypes, String bootstrap,
+                              Map<String, String> clientProperties, String topic, int partitions) throws Exception {
+    if (csvTypes == null) {
+      throw new IllegalArgumentException("--source " + file + ": a CSV file needs --config: its input.fields give the"
+          + " cells' types");
+    }
+    // first pass: the header names declared fields and there is a row
+    long rows = new CsvLines(file, csvTypes, JsonLinesReader.DEFAULT_MAX_LINE_BYTES).read((buf, off, len, n) -> { });
+    if (rows == 0) {
+      throw new IllegalArgumentException("--source " + file + ": the CSV file holds a header but no row; it must hold at least one");
+    }
+    ensureTopic(adminProperties(bootstrap, clientProperties), topic, partitions, Long.MAX_VALUE, System.currentTimeMillis());
+    AtomicReference<Exception> failure = new AtomicReference<>();
+    long[] n = {0};
+    try (KafkaProducer<byte[], byte[]> producer = new KafkaProducer<>(producerProperties(bootstrap, clientProperties),
+        new ByteArraySerializer(), new ByteArraySerializer())) {
+      new CsvLines(file, csvTypes, JsonLinesReader.DEFAULT_MAX_LINE_BYTES).read((buf, off, len, line) -> {
+        n[0]++;
+        producer.send(new ProducerRecord<>(topic, Arrays.copyOfRange(buf, off, off + len)), (md, e) -> {
+          if (e != null) {
+            failure.compareAndSet(null, e);
+          }
+        });
       });
       producer.flush();
     }

@@ -1,5 +1,7 @@
 package dev.runnel.connect.replay;
 
+import dev.runnel.connect.file.CsvLines;
+import dev.runnel.connect.file.FileFormat;
 import dev.runnel.connect.file.JsonLinesReader;
 import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.pipeline.OutputJson;
@@ -16,7 +18,7 @@ import java.nio.file.Files;
 import java.nio.file.Path;
 
 /**
- * One configuration over one JSON Lines file, exactly as the live pipeline would run it on one
+ * One configuration over one JSON Lines or CSV file ({@link FileFormat}), exactly as the live pipeline would run it on one
  * input partition, with the outputs written to files: {@code predictions.jsonl},
  * {@code coefficients.jsonl} and {@code rejects.jsonl}, each record in the layout of the topic of
  * the same name (docs/formats.md), and, with {@code input.forecast}, {@code settled.jsonl}: one
@@ -44,18 +46,20 @@ public final class FileReplay {
    * Runs the file through a new pipeline step.
    *
    * @param config the configuration. Not modified.
-   * @param source the JSON Lines file
+   * @param source the JSON Lines or CSV file
    * @param out the folder for the output files (created if missing): {@code format.json} (the format
    *     version and pipeline name, docs/formats.md), three JSON Lines files, and {@code settled.jsonl}
    *     with {@code input.forecast}
    * @param listener told after each record; may be null
    * @return the step at the end of the file (counters, metrics, model)
-   * @throws IllegalArgumentException if {@code source} is not a file
+   * @throws IllegalArgumentException if {@code source} is not a file, is neither JSON Lines nor CSV, or is a CSV
+   *     file whose header names none of the configuration's fields
    */
   public static PipelineStep run(PipelineConfig config, Path source, Path out, Listener listener) throws IOException {
     if (!Files.isRegularFile(source)) {
-      throw new IllegalArgumentException("--source " + source + ": no such file; give a JSON Lines file");
+      throw new IllegalArgumentException("--source " + source + ": no such file; give a JSON Lines or CSV file");
     }
+    FileFormat format = FileFormat.of(source, "--source");
     Files.createDirectories(out);
     PipelineStep step = new PipelineStep(config);
     OutputJson json = OutputJson.of(config);
@@ -69,8 +73,7 @@ public final class FileReplay {
       long[] bytesDone = {0};
       long[] recordsAtLastSnapshot = {-1};
       // a line longer than max_record_bytes is rejected from its first bytes; the rest is never held
-      JsonLinesReader reader = new JsonLinesReader(config.input().limits().maxRecordBytes());
-      reader.readAll(source, new JsonLinesReader.LineHandler() {
+      JsonLinesReader.LineHandler handler = new JsonLinesReader.LineHandler() {
         @Override public void line(byte[] buf, int off, int len, long line) {
           bytesDone[0] += len + 1;
           step.process(buf, off, len, 0L, PARTITION, line, sink(buf, off, len, line));
@@ -109,7 +112,13 @@ public final class FileReplay {
             }
           };
         }
-      });
+      };
+      int limit = config.input().limits().maxRecordBytes();
+      if (format == FileFormat.CSV) {
+        new CsvLines(source, config.input().schema().fields(), limit).read(handler);
+      } else {
+        new JsonLinesReader(limit).readAll(source, handler);
+      }
       if (step.records() != recordsAtLastSnapshot[0]) {
         step.takeSnapshotNow();
         write(snaps, json.snapshot(step.snapshot(), PARTITION));

@@ -1,13 +1,18 @@
 package dev.runnel.connect.replay;
 
+import dev.runnel.connect.file.CsvLines;
+import dev.runnel.connect.file.FileFormat;
 import dev.runnel.connect.file.JsonLinesReader;
 import dev.runnel.connect.file.Recording;
 import java.io.IOException;
 import java.nio.file.Files;
 import java.nio.file.Path;
+import java.util.Map;
+import dev.runnel.core.record.FieldType;
 
 /**
- * A JSON Lines file as a replay source: either plain (one record per line: partition 0, offset =
+ * A CSV file ({@link CsvLines}: partition 0, offset = line number, timestamp 0) or a JSON Lines
+ * file as a replay source: either plain (one record per line: partition 0, offset =
  * line number, timestamp 0) or a recording made by {@code runnel record} (detected by its header
  * line; each record keeps its partition, offset and Kafka timestamp, so a replay of the recording
  * equals the replay of the topic).
@@ -15,19 +20,42 @@ import java.nio.file.Path;
 public final class FileSource {
 
   private final Path file;
+  private final FileFormat format;
+  /** The fields a CSV file's cells are typed by; null when none were given. */
+  private final Map<String, FieldType> csvTypes;
 
   /**
+   * A JSON Lines file (a CSV file needs the fields' types: {@link #FileSource(Path, Map)}).
+   *
    * @param file the file
-   * @throws IllegalArgumentException if it does not exist or holds no record
+   * @throws IllegalArgumentException if it does not exist, holds no record or is neither JSON Lines nor CSV
    */
   public FileSource(Path file) throws IOException {
+    this(file, null);
+  }
+
+  /**
+   * A JSON Lines or CSV file ({@link FileFormat}).
+   *
+   * @param file the file
+   * @param csvTypes the declared fields a CSV file's cells are typed by (for several configurations,
+   *     {@link CsvLines#union}); null to refuse CSV. Not modified.
+   * @throws IllegalArgumentException if it does not exist, holds no record or is neither JSON Lines nor CSV
+   */
+  public FileSource(Path file, Map<String, FieldType> csvTypes) throws IOException {
     if (!Files.isRegularFile(file)) {
-      throw new IllegalArgumentException("--source " + file + ": no such file; give a JSON Lines file or a topic name");
+      throw new IllegalArgumentException("--source " + file + ": no such file; give a JSON Lines or CSV file or a topic name");
     }
     if (Files.size(file) == 0) {
       throw new IllegalArgumentException("--source " + file + ": the file is empty; it must hold at least one record");
     }
+    this.format = FileFormat.of(file, "--source");
+    if (format == FileFormat.CSV && csvTypes == null) {
+      throw new IllegalArgumentException("--source " + file + ": a CSV file is read with the configuration's input.fields"
+          + " for its cells' types, and none were given here");
+    }
     this.file = file;
+    this.csvTypes = csvTypes;
   }
 
   /** The file's size in bytes (for progress). */
@@ -44,6 +72,20 @@ public final class FileSource {
    * @throws IllegalArgumentException if the file holds no record or a recording line is malformed
    */
   public long read(RecordHandler handler, long[] bytesDone) throws IOException {
+    if (format == FileFormat.CSV) {
+      long rows = new CsvLines(file, csvTypes, JsonLinesReader.DEFAULT_MAX_LINE_BYTES).read(new JsonLinesReader.LineHandler() {
+        @Override public void line(byte[] buf, int off, int len, long line) {
+          if (bytesDone != null) {
+            bytesDone[0] += len + 1; // the JSON object's size: near the row's, enough for progress
+          }
+          handler.record(buf, off, len, 0L, 0, line);
+        }
+      });
+      if (rows == 0) {
+        throw new IllegalArgumentException("--source " + file + ": the CSV file holds a header but no row; it must hold at least one");
+      }
+      return rows;
+    }
     Recording.Line rec = new Recording.Line();
     boolean[] first = {true};
     boolean[] recorded = {false};

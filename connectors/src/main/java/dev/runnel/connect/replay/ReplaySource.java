@@ -32,6 +32,15 @@ public interface ReplaySource extends AutoCloseable {
    *     topic, a directory, or a file with a range
    */
   static ReplaySource resolve(String text, TopicRange range, TopicOpener topics) throws IOException {
+    return resolve(text, range, topics, null);
+  }
+
+  /**
+   * As {@link #resolve(String, TopicRange, TopicOpener)}, with the declared fields a CSV file's cells
+   * are typed by (null to refuse CSV files). Not modified.
+   */
+  static ReplaySource resolve(String text, TopicRange range, TopicOpener topics,
+                              java.util.Map<String, dev.runnel.core.record.FieldType> csvTypes) throws IOException {
     Path file = null;
     try {
       file = Path.of(text);
@@ -39,17 +48,17 @@ public interface ReplaySource extends AutoCloseable {
       // not a path on this system: it can only be a topic
     }
     if (file != null && Files.isDirectory(file)) {
-      throw new IllegalArgumentException("--source " + text + ": is a folder; give a JSON Lines file or a topic name");
+      throw new IllegalArgumentException("--source " + text + ": is a folder; give a JSON Lines or CSV file or a topic name");
     }
     if (file != null && Files.isRegularFile(file)) {
       if (!range.equals(TopicRange.ALL)) {
         throw new IllegalArgumentException("--start-*/--end-* apply to a topic source; " + text + " is a file");
       }
-      return new OfFile(new FileSource(file));
+      return new OfFile(new FileSource(file, csvTypes));
     }
     if (!possibleTopicName(text)) {
       throw new IllegalArgumentException("--source " + text + ": no such file (and not a topic name, which is 1 to 249 "
-          + "of the characters a-z A-Z 0-9 . _ -); give an existing JSON Lines file or a topic name");
+          + "of the characters a-z A-Z 0-9 . _ -); give an existing JSON Lines or CSV file or a topic name");
     }
     return new OfTopic(topics.open(text), range);
   }

@@ -21,9 +21,26 @@ public final class WebAccess {
   public static final int MIN_TOKEN_CHARS = 16;
 
   private final byte[] tokenDigest;
+  /** The server's TLS context (docs/operations.md, "TLS"); null: plain HTTP. */
+  private final javax.net.ssl.SSLContext tls;
 
   private WebAccess(byte[] tokenDigest) {
+    this(tokenDigest, null);
+  }
+
+  private WebAccess(byte[] tokenDigest, javax.net.ssl.SSLContext tls) {
     this.tokenDigest = tokenDigest;
+    this.tls = tls;
+  }
+
+  /** The same token, served over TLS with {@code context} (null: plain HTTP). */
+  public WebAccess withTls(javax.net.ssl.SSLContext context) {
+    return new WebAccess(tokenDigest, context);
+  }
+
+  /** The TLS context, or null for plain HTTP. */
+  public javax.net.ssl.SSLContext tls() {
+    return tls;
   }
 
   /** No token: every request is let through (only on a loopback address, see {@link #check}). */
@@ -111,6 +128,6 @@ public final class WebAccess {
   /** Never the token. */
   @Override
   public String toString() {
-    return tokenDigest == null ? "no token" : "a bearer token (not shown)";
+    return (tokenDigest == null ? "no token" : "a bearer token (not shown)") + (tls == null ? "" : ", TLS");
   }
 }

@@ -147,7 +147,7 @@ public final class WebView implements AutoCloseable {
     InetSocketAddress address = bindAddress(bind, port);
     HttpServer s;
     try {
-      s = HttpServer.create(address, 16);
+      s = create(address, access);
     } catch (BindException e) {
       if (!address.getAddress().isAnyLocalAddress() && NetworkInterface.getByInetAddress(address.getAddress()) == null) {
         throw new BindException("web.bind: " + bind + " (" + address.getAddress().getHostAddress() + ") is not an address of this"
@@ -157,7 +157,7 @@ public final class WebView implements AutoCloseable {
         throw new BindException("web.port: " + bind + ":" + port + " is taken (" + e.getMessage()
             + "); choose another port, or 0 for any free port");
       }
-      s = HttpServer.create(new InetSocketAddress(address.getAddress(), 0), 16);
+      s = create(new InetSocketAddress(address.getAddress(), 0), access);
     }
     try {
       access.checkBind(bind, address);
@@ -168,6 +168,16 @@ public final class WebView implements AutoCloseable {
     WebView v = new WebView(s, state, bind, allowedHosts, access, service, metrics);
     s.start();
     return v;
+  }
+
+  /** A plain server, or one speaking TLS through the JDK when {@code access} has a context. */
+  private static HttpServer create(InetSocketAddress address, WebAccess access) throws IOException {
+    if (access.tls() == null) {
+      return HttpServer.create(address, 16);
+    }
+    com.sun.net.httpserver.HttpsServer https = com.sun.net.httpserver.HttpsServer.create(address, 16);
+    https.setHttpsConfigurator(new com.sun.net.httpserver.HttpsConfigurator(access.tls()));
+    return https;
   }
 
   /**
@@ -190,13 +200,13 @@ public final class WebView implements AutoCloseable {
     return server.getAddress().getPort();
   }
 
-  /** The page's address, e.g. {@code http://127.0.0.1:8642/}. */
+  /** The page's address, e.g. {@code http://127.0.0.1:8642/} ({@code https://} with TLS). */
   public String url() {
     String host = server.getAddress().getHostString();
     if (host.contains(":")) {
       host = "[" + host + "]";
     }
-    return "http://" + host + ":" + port() + "/";
+    return (server instanceof com.sun.net.httpserver.HttpsServer ? "https://" : "http://") + host + ":" + port() + "/";
   }
 
   /** The Host header's name (port and IPv6 brackets removed, lower case), or null without one. */

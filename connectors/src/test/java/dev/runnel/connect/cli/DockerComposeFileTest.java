@@ -15,8 +15,8 @@ import picocli.CommandLine;
 
 /**
  * docker-compose.yml cannot be run here (no Docker engine), so it is checked as data: it parses as
- * YAML, its Kafka image is the version the build uses, and the Runnel service's command parses
- * with the current command line (so a renamed verb or option breaks this test, not a user).
+ * YAML, its Kafka image is the version the build uses, its Runnel image is the one the {@code image}
+ * profile builds, and the Runnel service's command parses with the current command line (so a renamed verb or option breaks this test, not a user).
  */
 class DockerComposeFileTest {
 
@@ -29,11 +29,13 @@ class DockerComposeFileTest {
     String image = services.path("kafka").path("image").asText();
     String kafkaVersion = org.apache.kafka.common.utils.internals.AppInfoParser.getVersion();
     assertEquals("apache/kafka:" + kafkaVersion, image, "the compose broker runs the same Kafka version as the clients");
-    List<String> cmd = new ArrayList<>();
-    services.path("runnel").path("command").forEach(n -> cmd.add(n.asText()));
-    int jar = cmd.indexOf("/opt/runnel/runnel.jar");
-    assertTrue(jar > 0 && cmd.get(jar - 1).equals("-jar"), "runs the executable jar: " + cmd);
-    List<String> args = cmd.subList(jar + 1, cmd.size());
+    // the image the `image` profile builds (its entry point is the command line: ImageTarTest)
+    String pom = Files.readString(Path.of("pom.xml"));
+    java.util.regex.Matcher version = java.util.regex.Pattern.compile("<parent>.*?<version>([^<]+)</version>").matcher(pom);
+    assertTrue(version.find() && pom.contains("<runnel.image.name>runnel:${project.version}</runnel.image.name>"));
+    assertEquals("runnel:" + version.group(1), services.path("runnel").path("image").asText(), "the image the image profile builds");
+    List<String> args = new ArrayList<>();
+    services.path("runnel").path("command").forEach(n -> args.add(n.asText()));
     CommandLine.ParseResult parsed = Main.commandLine().parseArgs(args.toArray(new String[0]));
     assertTrue(parsed.hasSubcommand(), "a verb: " + args);
     assertEquals(args.get(0), parsed.subcommand().commandSpec().name());

@@ -54,6 +54,24 @@ class LoaderOnKafkaTest {
     return f;
   }
 
+  /** A CSV file is published one JSON object a row, its cells typed by the fields; a CSV file without fields is refused. */
+  @Test
+  void aCsvFileIsPublishedAsJsonRecords(TestBroker broker) throws Exception {
+    String bs = broker.bootstrapServers();
+    Path csv = dir.resolve("rows.csv");
+    Files.writeString(csv, "hub,sessions,note\nQM-01,3.5,x\n\"QM,02\",,y\n");
+    Map<String, dev.runnel.core.record.FieldType> fields = new java.util.LinkedHashMap<>();
+    fields.put("hub", dev.runnel.core.record.FieldType.TEXT);
+    fields.put("sessions", dev.runnel.core.record.FieldType.NUMBER);
+    IllegalArgumentException noFields = assertThrows(IllegalArgumentException.class, () -> Loader.load(csv, bs, "load-csv", 1));
+    assertTrue(noFields.getMessage().contains("--config"), noFields.getMessage());
+    assertEquals(2, Loader.load(csv, fields, bs, Map.of(), "load-csv", 1));
+    List<ConsumerRecord<byte[], byte[]>> back = KafkaTestSupport.readAll(bs, "load-csv");
+    back.sort(Comparator.comparingLong(ConsumerRecord::offset));
+    assertEquals(List.of("{\"hub\":\"QM-01\",\"sessions\":3.5}", "{\"hub\":\"QM,02\"}"),
+        List.of(new String(back.get(0).value(), StandardCharsets.UTF_8), new String(back.get(1).value(), StandardCharsets.UTF_8)));
+  }
+
   @Test
   void aRecordingComesBackWithItsKeysTimestampsAndPartitionsAndIsKept(TestBroker broker) throws Exception {
     String bs = broker.bootstrapServers();

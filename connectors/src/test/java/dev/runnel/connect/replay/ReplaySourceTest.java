@@ -58,7 +58,7 @@ class ReplaySourceTest {
     assertTrue(e.getMessage().startsWith("--source " + missing + ": no such file (and not a topic name"), e.getMessage());
     IllegalArgumentException folder = assertThrows(IllegalArgumentException.class,
         () -> ReplaySource.resolve(dir.toString(), TopicRange.ALL, NO_BROKER));
-    assertEquals("--source " + dir + ": is a folder; give a JSON Lines file or a topic name", folder.getMessage());
+    assertEquals("--source " + dir + ": is a folder; give a JSON Lines or CSV file or a topic name", folder.getMessage());
   }
 
   @Test

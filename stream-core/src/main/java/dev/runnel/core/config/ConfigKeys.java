@@ -57,6 +57,8 @@ public final class ConfigKeys {
   public static final ConfigKey<?> EVENT_TIME_FIELD = add(ConfigKey.structured("input.event_time", "field", "text", "required"));
   public static final ConfigKey<TimeFormat> EVENT_TIME_FORMAT = add(ConfigKey.choice("input.event_time", "format", TimeFormat.ISO8601, TimeFormat.values(), TimeFormat::word));
   public static final ConfigKey<ZoneId> TIME_ZONE = add(ConfigKey.custom("input", "time_zone", "text", ZoneId.of("UTC"), ZONE_ALLOWED, ZoneId::getId, ConfigKeys::zone));
+  public static final ConfigKey<PipelineConfig.InputFormat> INPUT_FORMAT = add(ConfigKey.choice("input", "format", PipelineConfig.InputFormat.JSON, PipelineConfig.InputFormat.values(), PipelineConfig.InputFormat::word));
+  public static final ConfigKey<String> AVRO_SCHEMA_FILE = add(ConfigKey.text("input", "avro_schema_file", "", "a path to an Avro schema file (.avsc, JSON)"));
   public static final ConfigKey<?> LIMITS_SECTION = add(ConfigKey.structured("input", "limits", "mapping", "all defaults"));
   public static final ConfigKey<Integer> MAX_TEXT_LENGTH = add(ConfigKey.wholeInt("input.limits", "max_text_length", LIMITS.maxTextLength(), 1, 1_000_000));
   public static final ConfigKey<Integer> MAX_RECORD_BYTES = add(ConfigKey.wholeInt("input.limits", "max_record_bytes", LIMITS.maxRecordBytes(), 64, 16_777_216));
@@ -204,6 +206,8 @@ public final class ConfigKeys {
   public static final ConfigKey<?> WEB_ALLOWED_HOSTS = add(ConfigKey.structured("web", "allowed_hosts", "list", "[]"));
   public static final ConfigKey<String> WEB_TOKEN_FILE = add(ConfigKey.text("web", "token_file", "", "a path to a file that holds the bearer token on one line"));
   public static final ConfigKey<String> WEB_FORECAST_KEY_FIELD = add(ConfigKey.text("web", "forecast_key_field", "", "a text field of input.fields: the one the producers key records by"));
+  public static final ConfigKey<String> WEB_KEY_STORE_FILE = add(ConfigKey.text("web", "key_store_file", "", "a path to a PKCS12 or JKS key store with the server's key and certificate"));
+  public static final ConfigKey<String> WEB_KEY_STORE_PASSWORD_FILE = add(ConfigKey.text("web", "key_store_password_file", "", "a path to a file that holds the key store's password on one line"));
 
   /** Every key, in the order docs/configuration.md lists them. */
   public static List<ConfigKey<?>> all() { return Collections.unmodifiableList(ALL); }

@@ -422,7 +422,17 @@ public final class ConfigLoader {
       if (in.has("forecast")) {
         forecast = forecast(in.section("forecast"), schema, eventTime);
       }
-      return new PipelineConfig.Input(topic, schema, eventTime, zone, limits, clock, forecast);
+      PipelineConfig.InputFormat format = ConfigKeys.INPUT_FORMAT.read(in);
+      String schemaFile = ConfigKeys.AVRO_SCHEMA_FILE.read(in);
+      if (format != PipelineConfig.InputFormat.JSON && schemaFile.isBlank()) {
+        throw missing(in.p("avro_schema_file"), "input.format " + format.word() + " needs the Avro schema the values are"
+            + " written with: give its file, e.g. avro_schema_file: sessions.avsc (schemas are not looked up by id)");
+      }
+      if (format == PipelineConfig.InputFormat.JSON && !schemaFile.isBlank()) {
+        throw notAllowed(in.p("avro_schema_file"), in.get("avro_schema_file"), "set input.format to avro or avro_framed, or leave this key out");
+      }
+      return new PipelineConfig.Input(topic, schema, eventTime, zone, limits, clock, forecast,
+          new PipelineConfig.Encoding(format, schemaFile));
     }
 
     private PipelineConfig.Forecast forecast(Section f, RecordSchema schema, Optional<PipelineConfig.EventTime> eventTime) {
@@ -994,7 +1004,9 @@ public final class ConfigLoader {
       }
       String tokenFile = ConfigKeys.WEB_TOKEN_FILE.read(w);
       String keyField = ConfigKeys.WEB_FORECAST_KEY_FIELD.read(w);
-      return new PipelineConfig.Web(enabled, bind, port, hosts, tokenFile, keyField);
+      String keyStore = ConfigKeys.WEB_KEY_STORE_FILE.read(w);
+      String keyStorePassword = ConfigKeys.WEB_KEY_STORE_PASSWORD_FILE.read(w);
+      return new PipelineConfig.Web(enabled, bind, port, hosts, tokenFile, keyField, keyStore, keyStorePassword);
     }
   }
 }

@@ -56,7 +56,8 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    */
   public PipelineConfig withNameAndTopic(String newName, String newTopic) {
     return new PipelineConfig(newName,
-        new Input(Optional.of(newTopic), input.schema(), input.eventTime(), input.timeZone(), input.limits(), input.clock(), input.forecast()),
+        new Input(Optional.of(newTopic), input.schema(), input.eventTime(), input.timeZone(), input.limits(), input.clock(), input.forecast(),
+            input.encoding()),
         target, features, model, outputs, kafka, web, sourceName, drift, warnings, targetScale);
   }
 
@@ -72,9 +73,20 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    * @param clock {@code input.clock}: the event-time policy
    * @param forecast {@code input.forecast}: the entity and target time of forecasts, and the bounds
    *     of the pending forecasts ({@link Forecast#NONE} when absent: target time = event time)
+   * @param encoding {@code input.format} and {@code input.avro_schema_file}: how the input topic's
+   *     record values are encoded ({@link Encoding#JSON} by default)
    */
   public record Input(Optional<String> topic, RecordSchema schema, Optional<EventTime> eventTime, ZoneId timeZone,
-                      RecordLimits limits, Clock clock, Forecast forecast) {
+                      RecordLimits limits, Clock clock, Forecast forecast, Encoding encoding) {
+    public Input {
+      java.util.Objects.requireNonNull(encoding, "encoding");
+    }
+
+    /** A JSON input. */
+    public Input(Optional<String> topic, RecordSchema schema, Optional<EventTime> eventTime, ZoneId timeZone,
+                 RecordLimits limits, Clock clock, Forecast forecast) {
+      this(topic, schema, eventTime, timeZone, limits, clock, forecast, Encoding.JSON);
+    }
     /** An input without {@code input.forecast}. */
     public Input(Optional<String> topic, RecordSchema schema, Optional<EventTime> eventTime, ZoneId timeZone,
                  RecordLimits limits, Clock clock) {
@@ -86,6 +98,35 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
                  RecordLimits limits) {
       this(topic, schema, eventTime, timeZone, limits, Clock.DEFAULTS);
     }
+  }
+
+  /** {@code input.format}: how the input topic's record values are encoded (docs/operations.md, "Input formats"). */
+  public enum InputFormat {
+    /** One JSON object a record value. */
+    JSON("json"),
+    /** Plain Avro binary of the schema in {@code input.avro_schema_file}. */
+    AVRO("avro"),
+    /** One byte 0, a 4-byte big-endian schema id, then the Avro binary (the common registry framing). */
+    AVRO_FRAMED("avro_framed");
+
+    private final String word;
+
+    InputFormat(String word) { this.word = word; }
+
+    /** The configuration word. */
+    public String word() { return word; }
+  }
+
+  /**
+   * How the input topic's record values are encoded.
+   *
+   * @param format {@code input.format}
+   * @param avroSchemaFile {@code input.avro_schema_file}: the Avro schema (JSON) the values were written
+   *     with; empty for JSON
+   */
+  public record Encoding(InputFormat format, String avroSchemaFile) {
+    /** JSON values, no schema file. */
+    public static final Encoding JSON = new Encoding(InputFormat.JSON, "");
   }
 
   /**
@@ -269,8 +310,14 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    *     first of {@code input.forecast.entity_fields}
    */
   public record Web(boolean enabled, String bind, int port, java.util.List<String> allowedHosts, String tokenFile,
-                    String forecastKeyField) {
+                    String forecastKeyField, String keyStoreFile, String keyStorePasswordFile) {
     public Web { allowedHosts = java.util.List.copyOf(allowedHosts); }
+
+    /** No TLS. */
+    public Web(boolean enabled, String bind, int port, java.util.List<String> allowedHosts, String tokenFile,
+               String forecastKeyField) {
+      this(enabled, bind, port, allowedHosts, tokenFile, forecastKeyField, "", "");
+    }
 
     /** No token file, the forecast key field by default. */
     public Web(boolean enabled, String bind, int port, java.util.List<String> allowedHosts) {

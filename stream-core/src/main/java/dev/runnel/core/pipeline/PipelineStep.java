@@ -285,6 +285,15 @@ public final class PipelineStep {
   }
 
   /**
+   * Counts a record its source could not turn into a record at all (a value that is not of the
+   * configured input format, e.g. bytes that are not Avro of the schema): a {@code reason} reject
+   * with {@code detail}; nothing else changes.
+   */
+  public void processUnreadable(RejectReason reason, String detail, Sink sink) {
+    reject(reason, detail, sink);
+  }
+
+  /**
    * Processes a record already decoded into {@link #record()} by the caller (used by tests and by
    * sources that are not JSON). Counts it as one record.
    */
