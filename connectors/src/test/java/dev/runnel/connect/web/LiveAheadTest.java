@@ -164,7 +164,7 @@ class LiveAheadTest {
         List<double[]> want = expectedAhead(fed.forecasts.get("N2"), acts.lastKey());
         List<double[]> fpts = points(chart, "forecast");
         assertEquals(want.size(), fpts.size(), "one point per forecast ahead of hub N2");
-        Matcher band = Pattern.compile("<path d=\"([^\"]*)\"[^>]*data-band=\"ahead\"").matcher(chart);
+        Matcher band = Pattern.compile("<path d=\"([^\"]*)\"[^>]*data-band=\"interval-ahead\"").matcher(chart);
         assertTrue(band.find(), chart);
         List<double[]> edge = new ArrayList<>();
         Matcher xy = Pattern.compile("[ML](-?[\\d.]+),(-?[\\d.]+)").matcher(band.group(1));
