@@ -43,6 +43,9 @@ public final class HorizonTable {
         "errors of settled forecasts by horizon: %d settled, %d pending, dropped %d (max_pending) + %d (max_actual_delay)",
         c.path("settled").asLong(), c.path("pending").asLong(), c.path("dropped_full").asLong(),
         c.path("dropped_expired").asLong()));
+    if (c.has("learned_actuals")) {
+      out.add(indent + actualsLine(c));
+    }
     out.add(indent + header());
     for (JsonNode b : h.path("buckets")) {
       out.add(indent + row("", b));
@@ -69,6 +72,19 @@ public final class HorizonTable {
           h.path("max_entities").asInt()));
     }
     return out;
+  }
+
+  /**
+   * The memory of learned actuals and the actuals turned away, from {@code forecast_counts} (snapshots
+   * written before these counts existed lack them, and the line is left out).
+   */
+  static String actualsLine(JsonNode c) {
+    return String.format(Locale.ROOT,
+        "actuals: %d keys remembered as learned (%d forgotten early by max_learned_actuals), %d replaced, %d forecasts"
+        + " settled again; rejected %d too late, %d repeated, %d corrected",
+        c.path("learned_actuals").asLong(), c.path("learned_forgotten_early").asLong(), c.path("replaced_actuals").asLong(),
+        c.path("resettled").asLong(), c.path("rejected_too_late").asLong(), c.path("rejected_repeated").asLong(),
+        c.path("rejected_corrected").asLong());
   }
 
   private static String header() {

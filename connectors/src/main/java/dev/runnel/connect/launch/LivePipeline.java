@@ -147,7 +147,8 @@ public final class LivePipeline implements AutoCloseable {
     err.printf("%s: pipeline %s consuming %s from %s (group %s)%n", options.prefix(), TerminalText.safe(config.name()),
         TerminalText.safe(settings.inputTopic()), servers, TerminalText.safe(settings.groupId()));
     if (options.web() && config.web().enabled()) {
-      live = new LiveState(config.name(), servers, config.kafka().clientProperties(), runner::counters).start();
+      live = new LiveState(config.name(), servers, config.kafka().clientProperties(), runner::counters,
+          config.input().forecast().enabled() ? config.input().forecast().entityFields() : java.util.List.of()).start();
       web = WebView.start(config.web().bind(), options.webPort() != null ? options.webPort() : config.web().port(),
           options.webPortFallback(), config.web().allowedHosts(), live, access, service, metrics);
       err.println(options.prefix() + ": live view at " + web.url());

@@ -29,7 +29,10 @@ import org.apache.kafka.common.serialization.ByteArrayDeserializer;
  * output topics ({@code <name>.predictions} and {@code <name>.coefficients}) as a read_committed
  * reader without a consumer group, so it sees exactly what downstream consumers see and never
  * touches the pipeline's offsets. Bounded: the last {@link #MAX_PREDICTIONS} scored predictions,
- * the last {@link #MAX_SNAPSHOTS} snapshots (weights only) and the latest full snapshot.
+ * the last {@link #MAX_SNAPSHOTS} snapshots (weights only) and the latest full snapshot; with
+ * {@code input.forecast}, per entity (at most {@link #MAX_AHEAD_ENTITIES}, the most recently updated),
+ * its latest {@link #MAX_AHEAD_ACTUALS} actuals and the nearest {@link #MAX_AHEAD_FORECASTS} forecasts
+ * ahead of its latest actual ({@link ForecastsAhead}).
  *
  * <p>Thread contract: one reader thread writes; {@link #stateJson()} may be called from any thread.
  */
@@ -43,12 +46,19 @@ public final class LiveState implements AutoCloseable {
   public static final int MAX_ALARMS = 200;
   /** Weights drawn in the coefficient chart. */
   public static final int SHOWN_WEIGHTS = 6;
+  /** Entities whose forecasts ahead are kept: the most recently updated. */
+  public static final int MAX_AHEAD_ENTITIES = 50;
+  /** Latest actuals kept per entity (by target time): a week of hours. */
+  public static final int MAX_AHEAD_ACTUALS = 168;
+  /** Forecasts ahead kept per entity: the nearest target times. */
+  public static final int MAX_AHEAD_FORECASTS = 200;
 
   private static final ObjectMapper JSON = new ObjectMapper();
   private static final JsonNodeFactory F = JsonNodeFactory.instance;
 
   private final String pipeline;
   private final String bootstrap;
+  private final List<String> entityFields;
   private final Supplier<RunnerCounters> counters;
   private final Thread thread;
   private volatile boolean stop;
@@ -59,6 +69,7 @@ public final class LiveState implements AutoCloseable {
   private final ArrayDeque<String> predictionKeys = new ArrayDeque<>();
   private final ArrayDeque<JsonNode> snapshots = new ArrayDeque<>();
   private final LinkedHashMap<String, JsonNode> alarmLog = new LinkedHashMap<>();
+  private final ForecastsAhead ahead = new ForecastsAhead();
   private JsonNode latest;
   private long predictionsSeen;
   private long snapshotsSeen;
@@ -74,6 +85,17 @@ public final class LiveState implements AutoCloseable {
    */
   public LiveState(String pipeline, String bootstrap, Map<String, String> clientProperties,
                    Supplier<RunnerCounters> counters) {
+    this(pipeline, bootstrap, clientProperties, counters, List.of());
+  }
+
+  /**
+   * As {@link #LiveState(String, String, Map, Supplier)}, naming the entity of a forecast by these
+   * fields of the prediction's {@code fields} ({@code input.forecast.entity_fields}); without them, or
+   * when a prediction does not echo them, by its Kafka key.
+   */
+  public LiveState(String pipeline, String bootstrap, Map<String, String> clientProperties,
+                   Supplier<RunnerCounters> counters, List<String> entityFields) {
+    this.entityFields = List.copyOf(entityFields);
     this.pipeline = pipeline;
     this.bootstrap = bootstrap;
     this.counters = counters;
@@ -146,6 +168,9 @@ public final class LiveState implements AutoCloseable {
   /** Adds one prediction record with its Kafka key, the series it is drawn in (package-private for tests). */
   synchronized void addPrediction(JsonNode n, String key) {
     predictionsSeen++;
+    if (n.has("target_time")) {
+      ahead.take(n, entityOf(n, key));
+    }
     if (!"scored".equals(n.path("status").asText())) {
       return;
     }
@@ -161,6 +186,23 @@ public final class LiveState implements AutoCloseable {
       predictions.removeFirst();
       predictionKeys.removeFirst();
     }
+  }
+
+  /** The entity's name: {@code field=value} per entity field (joined by commas), else the Kafka key. */
+  private String entityOf(JsonNode n, String key) {
+    if (entityFields.isEmpty()) {
+      return key;
+    }
+    StringBuilder sb = new StringBuilder();
+    JsonNode fields = n.path("fields");
+    for (String f : entityFields) {
+      JsonNode v = fields.get(f);
+      if (v == null || !v.isTextual()) {
+        return key;
+      }
+      sb.append(sb.length() == 0 ? "" : ",").append(f).append('=').append(v.asText());
+    }
+    return sb.toString();
   }
 
   /** Adds one snapshot record (package-private for tests). */
@@ -303,6 +345,9 @@ public final class LiveState implements AutoCloseable {
       }
     } else {
       root.putNull("latest");
+    }
+    if (ahead.size() > 0) {
+      ahead.write(root.putObject("forecasts_ahead"));
     }
     ArrayNode log = root.putArray("alarm_log");
     List<JsonNode> entries = new ArrayList<>(alarmLog.values());

@@ -129,8 +129,17 @@ public class HorizonTableTest {
     assertTrue(HorizonTable.lines(s, "", 0).stream().anyMatch(l -> l.contains("up to P1D") && l.endsWith("  few")));
     String printed = new DriftTable("pipeline", 3, null, null).take(s);
     String[] parts = printed.split("\n");
-    assertEquals(2 + 3 + 1, parts.length, printed); // the snapshot's line, the counts, the header, three buckets
-    assertTrue(parts[2].trim().startsWith("entity") && parts[3].contains("up to PT2H") && !printed.contains("hub=N1"), printed);
+    assertEquals(3 + 3 + 1, parts.length, printed); // the snapshot's line, the counts, the actuals, the header, three buckets
+    assertTrue(parts[3].trim().startsWith("entity") && parts[4].contains("up to PT2H") && !printed.contains("hub=N1"), printed);
+    // the memory of learned actuals: every actual of the feed is a distinct key, none turned away
+    JsonNode c = s.path("forecast_counts");
+    assertTrue(c.path("learned_actuals").asLong() > 0, c.toString());
+    assertEquals(String.format(Locale.ROOT, "actuals: %d keys remembered as learned (0 forgotten early by max_learned_actuals),"
+        + " 0 replaced, 0 forecasts settled again; rejected 0 too late, 0 repeated, 0 corrected",
+        c.path("learned_actuals").asLong()), parts[2].trim(), printed);
+    // a snapshot written before these counts: the line is left out
+    ((com.fasterxml.jackson.databind.node.ObjectNode) c).remove("learned_actuals");
+    assertEquals(2 + 3 + 1, new DriftTable("pipeline", 3, null, null).take(s).split("\n").length);
     // a snapshot without input.forecast: one line, as before
     ((com.fasterxml.jackson.databind.node.ObjectNode) s).remove(List.of("horizon_metrics", "forecast_counts"));
     assertEquals(1, new DriftTable("pipeline", 3, null, null).take(s).split("\n").length);

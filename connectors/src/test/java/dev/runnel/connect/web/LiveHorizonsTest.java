@@ -60,6 +60,12 @@ class LiveHorizonsTest {
         String table = section.group(2);
         assertEquals(rows, LiveViewBrowserTest.count(table, "<tr(?: class=\"[^\"]*\")?><td>"), table);
         assertTrue(table.contains("<td>up to PT2H</td>") && table.contains("<td>over P1D</td>") && table.contains("<td>hub=N2</td>"), table);
+        // the memory of learned actuals and the actuals' rejects, from forecast_counts
+        JsonNode c = snap.path("forecast_counts");
+        assertTrue(c.path("learned_actuals").asLong() > 0, c.toString());
+        assertTrue(table.contains("<div id=\"actual-counts\" class=\"note\">actuals: " + c.path("learned_actuals").asLong()
+            + " keys remembered as learned (0 forgotten early by max_learned_actuals), 0 replaced, 0 forecasts settled again;"
+            + " rejected 0 too late, 0 repeated, 0 corrected</div>"), table);
       }
     }
 

@@ -162,6 +162,13 @@ class LiveViewBrowserTest {
       assertEquals(shownInPage, count(dom, "<path[^>]*data-band=\"(?!interval)"), "one ±2 se band per shown weight");
       assertTrue(count(dom, "<circle[^>]*data-point=\"actual\"") > 10, "points in the predicted-vs-actual chart");
       assertEquals(1, count(dom, "<path[^>]*data-series=\"predicted\""));
+      // forecasts ahead: one entry per hub (the Kafka key); the feed ends with the actuals of its last hours, so
+      // nothing is ahead at its end, and the first hub's latest actuals are drawn
+      JsonNode ahead = s.path("forecasts_ahead").path("entities");
+      assertEquals(13, ahead.size(), "one entry per hub");
+      assertEquals("QM-01", ahead.get(0).path("entity").asText());
+      assertEquals(LiveState.MAX_AHEAD_ACTUALS, ahead.get(0).path("actuals").size());
+      assertEquals(LiveState.MAX_AHEAD_ACTUALS, count(dom, "<circle[^>]*data-point=\"ahead-actual\""), "the first hub's actuals drawn");
       Path shot = Path.of("target", "live-view.png").toAbsolutePath();
       Files.deleteIfExists(shot);
       List<String> pic = new ArrayList<>(common);

@@ -535,6 +535,14 @@ public final class OutputJson {
     g.writeNumberField("settled", f.settled());
     g.writeNumberField("dropped_full", f.droppedFull());
     g.writeNumberField("dropped_expired", f.droppedExpired());
+    Snapshot.ActualCounts a = f.actuals();
+    g.writeNumberField("learned_actuals", a.learned());
+    g.writeNumberField("learned_forgotten_early", a.forgottenEarly());
+    g.writeNumberField("replaced_actuals", a.replaced());
+    g.writeNumberField("resettled", a.resettled());
+    g.writeNumberField("rejected_too_late", a.tooLate());
+    g.writeNumberField("rejected_repeated", a.repeated());
+    g.writeNumberField("rejected_corrected", a.corrected());
     g.writeEndObject();
     g.writeObjectFieldStart("horizon_metrics");
     g.writeArrayFieldStart("buckets");

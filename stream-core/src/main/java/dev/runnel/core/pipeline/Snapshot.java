@@ -5,6 +5,7 @@ import dev.runnel.core.drift.DriftMonitor;
 import dev.runnel.core.drift.DriftStatus;
 import dev.runnel.core.feature.Featurizer;
 import dev.runnel.core.model.RlsModel;
+import dev.runnel.core.record.RejectReason;
 import java.util.ArrayList;
 import java.util.List;
 
@@ -152,10 +153,11 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
    * @param entities the kept entities, in the order they first settled a forecast
    * @param maxEntities {@code max_metric_entities}
    * @param settledNotKept settled forecasts of entities beyond the cap (in {@code overall} only)
+   * @param actuals the memory of learned actuals and the actuals rejected for their key or lateness
    */
   public record Forecasting(int pending, long remembered, long settled, long droppedFull, long droppedExpired,
                             List<Long> bucketBoundsMillis, List<Metrics> overall, List<String> entityFields,
-                            List<EntityHorizons> entities, int maxEntities, long settledNotKept) {
+                            List<EntityHorizons> entities, int maxEntities, long settledNotKept, ActualCounts actuals) {
     public Forecasting {
       bucketBoundsMillis = List.copyOf(bucketBoundsMillis);
       overall = List.copyOf(overall);
@@ -163,6 +165,21 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
       entities = List.copyOf(entities);
     }
   }
+
+  /**
+   * The memory of learned actuals and what it turned away ({@code input.forecast}, docs/forecasting.md,
+   * "Late, repeated and corrected actuals").
+   *
+   * @param learned keys (entity, target time) remembered as learned now
+   * @param forgottenEarly learned keys forgotten by {@code max_learned_actuals} while an actual for them could still come
+   * @param replaced actuals whose earlier value was removed and replaced ({@code corrections: replace})
+   * @param resettled settled forecasts published again against a corrected actual
+   * @param tooLate actuals rejected with {@code actual_too_late}
+   * @param repeated actuals rejected with {@code repeated_actual}
+   * @param corrected actuals rejected with {@code corrected_actual}
+   */
+  public record ActualCounts(int learned, long forgottenEarly, long replaced, long resettled, long tooLate, long repeated,
+                             long corrected) { }
 
   /**
    * One entity's errors by horizon bucket.
@@ -200,7 +217,10 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
     }
     return new Forecasting(step.pendingForecasts(), step.rememberedForecasts(), step.settledForecasts(),
         step.droppedForecastsFull(), step.droppedForecastsExpired(), bounds, overall,
-        step.config().input().forecast().entityFields(), entities, h.maxEntities(), h.settledNotKept());
+        step.config().input().forecast().entityFields(), entities, h.maxEntities(), h.settledNotKept(),
+        new ActualCounts(step.learnedActuals(), step.learnedActualsForgottenEarly(), step.replacedActuals(),
+            step.resettledForecasts(), step.rejected(RejectReason.ACTUAL_TOO_LATE), step.rejected(RejectReason.REPEATED_ACTUAL),
+            step.rejected(RejectReason.CORRECTED_ACTUAL)));
   }
 
   /** The values of an entity text as the step builds it: per field, its length in two chars, then its chars. */
