@@ -126,6 +126,62 @@ class PipelineIntervalLeverageTest {
     assertEquals(8, checked);
   }
 
+  /**
+   * A snapshot's raw-unit weights and standard errors of a standardized column against simple
+   * linear regression on the raw data: slope {@code Sxy/Sxx} with standard error
+   * {@code s/√Sxx}, intercept {@code ȳ − b x̄} with {@code s √(1/n + x̄²/Sxx)}, and
+   * {@code s = √(SSE/(n − 2))} (closed forms; common practice). The column's scaler centres and
+   * scales it, so the intercept's raw standard error needs the covariance of both weights.
+   */
+  @Test void snapshotRawWeightsAndStandardErrors_matchSimpleRegression() {
+    PipelineConfig cfg = ConfigLoader.parse("""
+        name: raw
+        input:
+          fields:
+            y: number
+            x: number
+        target: y
+        features:
+          - {kind: numeric, field: x, scaling: standardize}
+        model:
+          prior_variance: no_prior
+        outputs:
+          snapshot_every_records: 0
+        """, "raw.yaml");
+    PipelineStep step = new PipelineStep(cfg);
+    Last sink = new Last();
+    java.util.Random r = new java.util.Random(5);
+    List<double[]> pts = new ArrayList<>();
+    for (int i = 0; i < 60; i++) {
+      double x = 40.0 + 15.0 * r.nextDouble();
+      double y = -7.0 + 0.35 * x + 0.8 * r.nextGaussian();
+      feed(step, "{\"y\":" + y + ",\"x\":" + x + "}", i + 1, sink);
+      pts.add(new double[] {x, y});
+    }
+    double[] ols = ols(pts);
+    double n = pts.size();
+    double sse = 0;
+    for (double[] p : pts) {
+      double e = p[1] - ols[0] - ols[1] * p[0];
+      sse += e * e;
+    }
+    double sd = Math.sqrt(sse / (n - 2));
+    Snapshot snap = step.snapshot();
+    assertEquals(sd, snap.residualSd(), 1e-9 * sd, "residual sd");
+    Snapshot.Column constant = snap.columns().get(0);
+    Snapshot.Column slope = snap.columns().get(1);
+    assertEquals("constant", constant.name());
+    assertEquals(ols[1], slope.rawWeight(), 1e-9 * Math.abs(ols[1]), "raw slope");
+    assertEquals(ols[0], constant.rawWeight(), 1e-9 * Math.abs(ols[0]), "raw intercept");
+    double seSlope = sd / Math.sqrt(ols[3]);
+    double seIntercept = sd * Math.sqrt(1.0 / n + ols[2] * ols[2] / ols[3]);
+    assertEquals(seSlope, slope.rawStandardError(), 1e-8 * seSlope, "raw standard error of the slope");
+    assertEquals(seIntercept, constant.rawStandardError(), 1e-8 * seIntercept, "raw standard error of the intercept");
+    // the standardized basis: the slope per standardized unit is the raw slope times the scale
+    assertEquals(ols[1] * slope.scale(), slope.weight(), 1e-9 * Math.abs(slope.weight()), "weight in the model's basis");
+    assertEquals(seSlope * slope.scale(), slope.standardError(), 1e-8 * slope.standardError(), "its standard error");
+  }
+
   /** Intercept, slope, mean of x and Sxx of simple linear regression (closed form; common practice). */
   private static double[] ols(List<double[]> pts) {
     double n = pts.size();
