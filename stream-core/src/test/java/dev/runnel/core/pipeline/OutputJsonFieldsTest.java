@@ -349,8 +349,8 @@ class OutputJsonFieldsTest {
       p.high = p.predicted + 2.0 / 7;
       p.actual = k % 2 == 0 ? Double.NaN : 4.2 + k;
       p.layoutVersion = 30 + k;
-      p.sourcePartition = (k & 2) != 0 ? -1 : 2 + k;
-      p.sourceOffset = (k & 4) != 0 ? -1 : 1000 + k;
+      p.sourcePartition = (k & 2) != 0 ? -1 : k; // partition 0 and offset 0 are written
+      p.sourceOffset = (k & 4) != 0 ? -1 : k;
       p.stamped = k >= 3;
       p.targetTimeMillis = p.eventTimeMillis + 3_600_000L * k;
       p.targetPassed = k % 4 == 1 || k == 6;
@@ -442,10 +442,10 @@ class OutputJsonFieldsTest {
       s.low = s.forecast - 0.75;
       s.high = s.forecast + 0.625;
       s.actual = k == 2 ? s.high + 1e-9 : s.forecast + 0.0625 * k;
-      s.requestPartition = k == 1 ? -1 : k + 4;
-      s.requestOffset = k == 3 ? -1 : 200 + k;
-      s.actualPartition = k == 0 ? -1 : k + 8;
-      s.actualOffset = k == 0 ? -1 : 300 + k;
+      s.requestPartition = k == 1 ? -1 : k; // 0 is a partition and an offset
+      s.requestOffset = k == 3 ? -1 : k;
+      s.actualPartition = k == 0 ? -1 : k - 1;
+      s.actualOffset = k == 0 ? -1 : k - 1;
       s.correction = k >= 2;
       s.replacedActual = s.correction ? -9.5 - k : Double.NaN;
       JsonNode n = parse(out.settled(s, r));
@@ -487,7 +487,7 @@ class OutputJsonFieldsTest {
         raw[i] = (byte) ('a' + i % 26);
       }
       String detail = len == 17 ? null : "field kwh: " + len;
-      long partition = len == 0 ? -1 : 1;
+      long partition = len == 0 ? -1 : 0;
       long offset = len == 17 ? -1 : len;
       JsonNode n = parse(out.reject(RejectReason.WRONG_TYPE, detail, partition, offset, raw, 3, len));
       int keep = Math.min(len, OutputJson.MAX_RAW_BYTES);
