@@ -871,7 +871,9 @@ public final class Backtest {
     @Override
     public void settled(SettledForecast s, EventRecord record) {
       long h = SIMULATED_PARTITION - s.requestPartition();
-      if (h >= 0 && h < logs.length) {
+      // a forecast settled again against a corrected actual (corrections: replace) counts once, at its
+      // first settling, as the snapshots' errors by horizon count it
+      if (h >= 0 && h < logs.length && !s.correction()) {
         logs[(int) h].add(s.requestOffset(), s.issueTimeMillis(), s.targetTimeMillis(), s.forecast(), s.low(), s.high(),
             s.actual());
       }
