@@ -134,10 +134,11 @@ class OutputJsonFieldsTest {
     List<Long> bounds = List.of(3_600_000L, 86_400_000L + 43_200_000L, Long.MAX_VALUE);
     List<Snapshot.Metrics> overall = List.of(metrics(10), metrics(20), metrics(30));
     Snapshot.Forecasting fc = new Snapshot.Forecasting(5, 600L, 550L, 7L, 8L, bounds, overall, List.of("hub_id", "plug"),
-        List.of(new Snapshot.EntityHorizons(List.of("QM-01", "A"), List.of(metrics(40), metrics(50), metrics(60)))), 64, 9L);
+        List.of(new Snapshot.EntityHorizons(List.of("QM-01", "A"), List.of(metrics(40), metrics(50), metrics(60)))), 64, 9L,
+        new Snapshot.ActualCounts(11, 1L, 2L, 3L, 4L, 5L, 6L));
     Snapshot.Metrics m = new Snapshot.Metrics(9876L, 0.5, 0.75, -0.0625, Double.NaN, 0.5625, 0.8, 0.03125, 0.875);
     Snapshot s = new Snapshot(t0, 10_001L, 9_000L, 900L, 101L, 17L, true, 0.1 + 0.7, 1.0 / 7, 456.25,
-        cols, vocs, scalers, m, 12L, alarms, drift, fc);
+        cols, vocs, scalers, m, 12L, alarms, drift, fc, List.of());
     JsonNode n = parse(new OutputJson("pipe-1", 0.9).snapshot(s, 3));
     names(n, "format", "pipeline", "partition", "index", "event_time", "records", "trained", "no_target_records", "rejected",
         "columns_version", "ready", "noise_sd", "residual_sd", "effective_sample_size", "metrics", "forecast_counts",
@@ -159,7 +160,8 @@ class OutputJsonFieldsTest {
     checkMetrics(n.get("metrics"), m);
 
     JsonNode counts = n.get("forecast_counts");
-    names(counts, "pending", "remembered", "settled", "dropped_full", "dropped_expired");
+    names(counts, "pending", "remembered", "settled", "dropped_full", "dropped_expired", "learned_actuals",
+        "learned_forgotten_early", "replaced_actuals", "resettled", "rejected_too_late", "rejected_repeated", "rejected_corrected");
     whole(counts, "pending", 5);
     whole(counts, "remembered", 600);
     whole(counts, "settled", 550);
@@ -362,7 +364,7 @@ class OutputJsonFieldsTest {
         r.setText(3, "plug-" + k);
       }
       JsonNode n = parse(out.prediction(p, r));
-      List<String> expectNames = new ArrayList<>(List.of("format", "pipeline", "status"));
+      List<String> expectNames = new ArrayList<>(List.of("status"));
       if (p.sourcePartition >= 0 || p.sourceOffset >= 0) {
         expectNames.add("source");
       }
@@ -375,8 +377,6 @@ class OutputJsonFieldsTest {
       }
       expectNames.addAll(List.of("fields", "predicted", "low", "high", "level", "actual", "error", "columns_version"));
       names(n, expectNames.toArray(String[]::new));
-      whole(n, "format", OutputJson.FORMAT_VERSION);
-      text(n, "pipeline", "pp");
       text(n, "status", p.status().id());
       if (n.has("source")) {
         checkSource(n.get("source"), p.sourcePartition, p.sourceOffset);
@@ -450,16 +450,14 @@ class OutputJsonFieldsTest {
       s.replacedActual = s.correction ? -9.5 - k : Double.NaN;
       JsonNode n = parse(out.settled(s, r));
       if (s.correction) {
-        names(n, "format", "pipeline", "entity", "issue_time", "target_time", "horizon_ms", "forecast", "low", "high", "level",
+        names(n, "entity", "issue_time", "target_time", "horizon_ms", "forecast", "low", "high", "level",
             "actual", "error", "covered", "correction", "replaced_actual", "request", "actual_source");
         bool(n, "correction", true);
         num(n, "replaced_actual", s.replacedActual);
       } else {
-        names(n, "format", "pipeline", "entity", "issue_time", "target_time", "horizon_ms", "forecast", "low", "high", "level",
+        names(n, "entity", "issue_time", "target_time", "horizon_ms", "forecast", "low", "high", "level",
             "actual", "error", "covered", "request", "actual_source");
       }
-      whole(n, "format", OutputJson.FORMAT_VERSION);
-      text(n, "pipeline", "ss");
       names(n.get("entity"), "plug", "hub");
       text(n.get("entity"), "plug", "B");
       text(n.get("entity"), "hub", "QM-07");
@@ -491,9 +489,7 @@ class OutputJsonFieldsTest {
       long offset = len == 17 ? -1 : len;
       JsonNode n = parse(out.reject(RejectReason.WRONG_TYPE, detail, partition, offset, raw, 3, len));
       int keep = Math.min(len, OutputJson.MAX_RAW_BYTES);
-      names(n, "format", "pipeline", "reason", "detail", "source", "raw_length", "raw_truncated", "raw");
-      whole(n, "format", OutputJson.FORMAT_VERSION);
-      text(n, "pipeline", "rj");
+      names(n, "reason", "detail", "source", "raw_length", "raw_truncated", "raw");
       text(n, "reason", RejectReason.WRONG_TYPE.id());
       text(n, "detail", detail == null ? "" : detail);
       checkSource(n.get("source"), partition, offset);
@@ -502,6 +498,6 @@ class OutputJsonFieldsTest {
       text(n, "raw", new String(raw, 3, keep, StandardCharsets.US_ASCII));
     }
     JsonNode none = parse(out.reject(RejectReason.WRONG_TYPE, "d", -1, -1, new byte[0], 0, 0));
-    names(none, "format", "pipeline", "reason", "detail", "raw_length", "raw_truncated", "raw");
+    names(none, "reason", "detail", "raw_length", "raw_truncated", "raw");
   }
 }
