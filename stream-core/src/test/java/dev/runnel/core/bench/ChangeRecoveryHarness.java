@@ -28,7 +28,7 @@ import java.util.Random;
  *
  * <pre>
  * mvn -o -q -pl stream-core test-compile
- * java -cp "stream-core/target/test-classes:stream-core/target/classes:$(cat cp.txt)" dev.runnel.core.bench.ChangeRecoveryHarness 200 100 [DAILY_MAX [SNAPSHOT_RECORDS]]
+ * java -cp "stream-core/target/test-classes:stream-core/target/classes:$(cat cp.txt)" dev.runnel.core.bench.ChangeRecoveryHarness 200 100 [DAILY_MAX [SNAPSHOT_RECORDS [noise|se]]]
  * </pre>
  * ({@code cp.txt} from {@code mvn -o -q -pl stream-core dependency:build-classpath -Dmdep.outputFile=../cp.txt}).
  */
