@@ -356,13 +356,13 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
                       int contrastLevels) {
     /** The defaults, as documented in docs/drift.md. */
     public static final Drift DEFAULTS = new Drift(4.0, DriftBaseline.SNAPSHOTS_AGO, 8, ErrorTest.PAGE_HINKLEY,
-        0.1, 30.0, 100, 4, 400, 4.0, 0, 0);
+        0.1, 30.0, 100, 4, 1200, 4.0, 0, 0);
 
     /** The section with the default change attribution. */
     public Drift(double weightAlarmSe, DriftBaseline baseline, int baselineSnapshots, ErrorTest errorTest,
                  double errorAllowance, double errorThreshold, long errorWarmupRecords, int alarmHoldSnapshots) {
       this(weightAlarmSe, baseline, baselineSnapshots, errorTest, errorAllowance, errorThreshold, errorWarmupRecords,
-          alarmHoldSnapshots, 400, 4.0, 0, 0);
+          alarmHoldSnapshots, 1200, 4.0, 0, 0);
     }
   }
 }

@@ -28,7 +28,7 @@ import java.util.Random;
  *
  * <pre>
  * mvn -o -q -pl stream-core test-compile
- * java -cp "stream-core/target/test-classes:stream-core/target/classes:$(cat cp.txt)" dev.runnel.core.bench.ChangeRecoveryHarness 200 100 [DAILY_MAX [SNAPSHOT_RECORDS]]
+ * java -cp "stream-core/target/test-classes:stream-core/target/classes:$(cat cp.txt)" dev.runnel.core.bench.ChangeRecoveryHarness 200 100 [DAILY_MAX [SNAPSHOT_RECORDS [noise|se]]]
  * </pre>
  * ({@code cp.txt} from {@code mvn -o -q -pl stream-core dependency:build-classpath -Dmdep.outputFile=../cp.txt}).
  */
@@ -38,7 +38,18 @@ public final class ChangeRecoveryHarness {
   static final int N = STEP + 3 * 1008 + 200;
   static final int P = 6;
   static final int[] RESETS = {0, 50, 100, 200};
-  static final String[] NAMES = {"x1", "x2", "x3", "x4", "x5", "x6"};
+  static final String[] NAMES = {"x1", "x2", "x3", "x4", "x5", "x6", "x7", "x8", "x9", "x10"};
+
+  /**
+   * With "se" as the fifth argument (the issue's "Measured" feed): each trial has 6 to 10 columns, and
+   * the changed weight steps by 4 to 10 of its standard errors (a uniform draw, either sign) instead of
+   * tripling. The standard error is the one the model has in the steady state: in the column's sd
+   * units, with unit noise, {@code √([Σ⁻¹]_jj / n_eff)}, where Σ is the columns' correlation net of
+   * their daily patterns (which the hour harmonics absorb) and {@code n_eff = 1/(1 − λ)} the model's
+   * effective sample size with a 7-day half-life at 144 records a day (least-squares variance
+   * σ²(XᵀX)⁻¹, common practice).
+   */
+  static boolean seStep;
 
   /** With "noise" as the fifth argument a change trial doubles the noise sd instead of a weight. */
   static boolean noiseStep;
@@ -46,21 +57,21 @@ public final class ChangeRecoveryHarness {
   /** Records between snapshots (the fourth argument; default 144, a day); the weight alarm's baseline is 8 snapshots back. */
   static int snapshotRecords = 144;
 
-  static String config(int reset) {
+  static String config(int reset, int p) {
+    StringBuilder fields = new StringBuilder();
+    StringBuilder features = new StringBuilder();
+    for (int j = 0; j < p; j++) {
+      fields.append(NAMES[j]).append(": number, ");
+      features.append("  - {kind: numeric, field: ").append(NAMES[j]).append("}\n");
+    }
     return """
         name: recovery
         input:
-          fields: {x1: number, x2: number, x3: number, x4: number, x5: number, x6: number, y: number, at: time}
+          fields: {%sy: number, at: time}
           event_time: {field: at, format: iso8601}
         target: y
         features:
-          - {kind: numeric, field: x1}
-          - {kind: numeric, field: x2}
-          - {kind: numeric, field: x3}
-          - {kind: numeric, field: x4}
-          - {kind: numeric, field: x5}
-          - {kind: numeric, field: x6}
-          - {kind: cyclic, cycle: hour_of_day}
+        %s  - {kind: cyclic, cycle: hour_of_day}
         model:
           prior_variance: 100
           forgetting: {half_life: P7D}
@@ -69,16 +80,18 @@ public final class ChangeRecoveryHarness {
           snapshot_every_records: %d
         drift:
           reset_to_records: %d
-        """.formatted(snapshotRecords, reset);
+        """.formatted(fields, features, snapshotRecords, reset);
   }
 
-  record Feed(List<byte[]> lines, int changed) { }
+  /** A feed: its lines, the changed column (−1: none), its number of columns and the step in standard errors. */
+  record Feed(List<byte[]> lines, int changed, int p, double stepSe) { }
 
   /** Largest amplitude of a column's daily pattern, in its sd (the third argument; default 1). */
   static double dailyMax = 1.0;
 
   static Feed feed(long seed, boolean change) {
     Random rnd = new Random(seed);
+    final int P = seStep ? 6 + rnd.nextInt(5) : ChangeRecoveryHarness.P;
     double[] load = new double[P];
     double[] beta = new double[P];
     double[] mean = new double[P];
@@ -94,6 +107,16 @@ public final class ChangeRecoveryHarness {
       sd[j] = 0.5 + 2 * rnd.nextDouble();
     }
     int changed = change ? rnd.nextInt(P) : -1;
+    double[] after = beta.clone();
+    double stepSe = Double.NaN;
+    if (changed >= 0) {
+      if (seStep) {
+        stepSe = (rnd.nextBoolean() ? 1 : -1) * (4 + 6 * rnd.nextDouble());
+        after[changed] = beta[changed] + stepSe * steadyStateSe(load, changed);
+      } else if (!noiseStep) {
+        after[changed] = 3.0 * beta[changed];
+      }
+    }
     long t = Instant.parse("2026-01-01T00:00:00Z").toEpochMilli();
     List<byte[]> out = new ArrayList<>(N);
     double[] x = new double[P];
@@ -107,7 +130,7 @@ public final class ChangeRecoveryHarness {
         double u = load[j] * f + Math.sqrt(1 - load[j] * load[j]) * rnd.nextGaussian()
             + daily[j] * Math.sin(hourAngle + phase[j]);
         x[j] = mean[j] + sd[j] * u;
-        double b = beta[j] * (j == changed && i >= STEP && !noiseStep ? 3.0 : 1.0);
+        double b = i >= STEP ? after[j] : beta[j];
         y += b * (x[j] - mean[j]) / sd[j]; // a weight of b per standard deviation of the column
       }
       sb.setLength(0);
@@ -118,7 +141,22 @@ public final class ChangeRecoveryHarness {
       sb.append("\"y\":").append(String.format(Locale.ROOT, "%.6f", y)).append(",\"at\":\"").append(Instant.ofEpochMilli(t)).append("\"}");
       out.add(sb.toString().getBytes(StandardCharsets.UTF_8));
     }
-    return new Feed(out, changed);
+    return new Feed(out, changed, P, stepSe);
+  }
+
+  /** The steady-state standard error of column j's weight, in its sd units (see {@link #seStep}). */
+  static double steadyStateSe(double[] load, int j) {
+    int p = load.length;
+    double[][] sigma = new double[p][p];
+    for (int a = 0; a < p; a++) {
+      for (int b = 0; b < p; b++) {
+        sigma[a][b] = a == b ? 1.0 : load[a] * load[b];
+      }
+    }
+    double nEff = 1.0 / (1.0 - Math.pow(0.5, 1.0 / 1008));
+    double inv = new org.apache.commons.math3.linear.LUDecomposition(
+        new org.apache.commons.math3.linear.Array2DRowRealMatrix(sigma)).getSolver().getInverse().getEntry(j, j);
+    return Math.sqrt(inv / nEff);
   }
 
   /** One run's outcome. */
@@ -128,9 +166,10 @@ public final class ChangeRecoveryHarness {
     final boolean[] covered = new boolean[N];
     final List<DriftAlarm> changedAlarms = new ArrayList<>();
     final List<DriftAlarm> weightAlarms = new ArrayList<>();
+    final List<DriftAlarm> errorAlarms = new ArrayList<>();
     int i;
 
-    Run(int reset) { step = new PipelineStep(ConfigLoader.parse(config(reset), "recovery.yaml")); }
+    Run(int reset, int p) { step = new PipelineStep(ConfigLoader.parse(config(reset, p), "recovery.yaml")); }
 
     Run feed(List<byte[]> lines) {
       Arrays.fill(err, Double.NaN);
@@ -152,7 +191,8 @@ public final class ChangeRecoveryHarness {
       Snapshot s = step.snapshot();
       for (DriftAlarm a : s.alarms()) {
         List<DriftAlarm> l = a.kind().equals(DriftAlarm.CHANGED_WEIGHT) ? changedAlarms
-            : a.kind().equals(DriftAlarm.WEIGHT) ? weightAlarms : null;
+            : a.kind().equals(DriftAlarm.WEIGHT) ? weightAlarms
+            : a.kind().equals(DriftAlarm.ERROR_LEVEL) && "up".equals(a.direction()) ? errorAlarms : null;
         if (l != null && l.stream().noneMatch(o -> o.column().equals(a.column()) && o.firedAtRecord() == a.firedAtRecord())) {
           l.add(a);
         }
@@ -195,6 +235,7 @@ public final class ChangeRecoveryHarness {
     dailyMax = args.length > 2 ? Double.parseDouble(args[2]) : 1.0;
     snapshotRecords = args.length > 3 ? Integer.parseInt(args[3]) : 144;
     noiseStep = args.length > 4 && args[4].equals("noise");
+    seStep = args.length > 4 && args[4].equals("se");
     int r = RESETS.length;
     double[][] rmseDay = new double[r][trials];
     double[][] rmseWeek = new double[r][trials];
@@ -210,13 +251,14 @@ public final class ChangeRecoveryHarness {
     int weightAnyWrong = 0;
     int weightNone = 0;
     int none = 0;
+    int errorUp = 0;
     List<Long> delay = new ArrayList<>();
     List<Long> weightDelay = new ArrayList<>();
     for (int t = 0; t < trials; t++) {
       Feed f = feed(1000 + t, true);
       String want = NAMES[f.changed()];
       for (int k = 0; k < r; k++) {
-        Run run = new Run(RESETS[k]).feed(f.lines());
+        Run run = new Run(RESETS[k], f.p()).feed(f.lines());
         rmseDay[k][t] = run.rmse(STEP, STEP + 144);
         rmseWeek[k][t] = run.rmse(STEP, STEP + 1008);
         rmseLater[k][t] = run.rmse(STEP + 1008, STEP + 3 * 1008);
@@ -224,6 +266,9 @@ public final class ChangeRecoveryHarness {
         covLater[k][t] = run.coverage(STEP + 1008, STEP + 3 * 1008);
         recov[k][t] = run.recovery();
         if (k == 0) {
+          if (run.errorAlarms.stream().anyMatch(a -> a.firedAtRecord() > STEP)) {
+            errorUp++;
+          }
           // the raw constant changes with any column whose mean is not 0 (−b·m/s): it is left out of both counts
           List<DriftAlarm> after = run.changedAlarms.stream().filter(a -> a.firedAtRecord() > STEP
               && !a.column().equals("constant")).toList();
@@ -258,7 +303,7 @@ public final class ChangeRecoveryHarness {
     for (int t = 0; t < stationary; t++) {
       Feed f = feed(500_000 + t, false);
       for (int k = 0; k < r; k++) {
-        Run run = new Run(RESETS[k]).feed(f.lines());
+        Run run = new Run(RESETS[k], f.p()).feed(f.lines());
         statRmse[k][t] = run.rmse(STEP, N);
         statCov[k][t] = run.coverage(STEP, N);
         if (k == 0) {
@@ -270,7 +315,11 @@ public final class ChangeRecoveryHarness {
     }
     System.out.printf(Locale.ROOT, "%d change trials (%s), %d stationary trials,"
         + " daily patterns up to %.1f sd, a snapshot every %d records%n%n", trials,
-        noiseStep ? "the noise sd doubles; RMSE and recovery below against sd 2" : "one weight of six correlated columns triples", stationary, dailyMax, snapshotRecords);
+        noiseStep ? "the noise sd doubles; RMSE and recovery below against sd 2"
+            : seStep ? "6 to 10 correlated columns, one weight steps by 4 to 10 of its standard errors"
+            : "one weight of six correlated columns triples", stationary, dailyMax, snapshotRecords);
+    System.out.printf(Locale.ROOT, "error-level \"up\" alarm after the change (opens the changed-weight alarm's window): %.1f %% of change trials%n%n",
+        100.0 * errorUp / trials);
     System.out.println("| naming | changed-weight alarm (new) | weight alarm (former) |");
     System.out.println("|---|---|---|");
     System.out.printf(Locale.ROOT, "| first named column is the changed one | %.1f %% | %.1f %% |%n", 100.0 * firstRight / trials, 100.0 * weightFirstRight / trials);
