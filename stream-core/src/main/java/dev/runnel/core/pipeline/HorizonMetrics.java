@@ -132,12 +132,7 @@ final class HorizonMetrics {
    * @return the index, or -1 when the entity is not kept (the cap was reached before it came)
    */
   int entity(char[] key, int n) {
-    return entity(key, n, PendingForecasts.textHash(key, n));
-  }
-
-  /** {@link #entity(char[], int)} with the text's {@link PendingForecasts#textHash} given. */
-  int entity(char[] key, int n, long textHash) {
-    long h = PendingForecasts.hash(textHash, 0L);
+    long h = PendingForecasts.hash(key, n, 0L);
     int i = (int) h & mask;
     for (int e = table[i]; e != NONE; e = table[i]) {
       if (hashes[e] == h && keyLengths[e] == n && Arrays.equals(keys[e], 0, n, key, 0, n)) {

@@ -164,13 +164,8 @@ final class LearnedActuals {
    * @param k the entity text. Not modified.
    */
   int find(char[] k, int n, long targetMillis, long nowMillis) {
-    return find(k, n, PendingForecasts.textHash(k, n), targetMillis, nowMillis);
-  }
-
-  /** {@link #find(char[], int, long, long)} with the text's {@link PendingForecasts#textHash} given. */
-  int find(char[] k, int n, long textHash, long targetMillis, long nowMillis) {
     expireFront(nowMillis);
-    long h = PendingForecasts.hash(textHash, targetMillis);
+    long h = PendingForecasts.hash(k, n, targetMillis);
     for (int i = (int) h & mask; table[i] != NONE; i = (i + 1) & mask) {
       int e = table[i];
       if (hash[e] == h && target[e] == targetMillis && sameKey(e, k, n)) {
@@ -188,11 +183,6 @@ final class LearnedActuals {
    * @return the entry, for {@link #keepRow}
    */
   int add(char[] k, int n, long targetMillis, double v, long nowMillis) {
-    return add(k, n, PendingForecasts.textHash(k, n), targetMillis, v, nowMillis);
-  }
-
-  /** {@link #add(char[], int, long, double, long)} with the text's {@link PendingForecasts#textHash} given. */
-  int add(char[] k, int n, long textHash, long targetMillis, double v, long nowMillis) {
     expireFront(nowMillis);
     if (size == max) {
       removeHead();
@@ -202,7 +192,7 @@ final class LearnedActuals {
     }
     int e = (head + size) % capacity;
     size++;
-    hash[e] = PendingForecasts.hash(textHash, targetMillis);
+    hash[e] = PendingForecasts.hash(k, n, targetMillis);
     target[e] = targetMillis;
     value[e] = v;
     if (key[e] == null || key[e].length < n) {

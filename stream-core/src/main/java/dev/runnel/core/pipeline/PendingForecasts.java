@@ -156,25 +156,11 @@ final class PendingForecasts {
 
   /** The 64-bit hash of an entity text and a target time (FNV-1a over the chars, then a finalizing mix). */
   static long hash(char[] k, int n, long targetMillis) {
-    return hash(textHash(k, n), targetMillis);
-  }
-
-  /**
-   * The first part of {@link #hash(char[], int, long)}: FNV-1a over the entity text. The step takes
-   * it once per record and passes it to every table it asks about that record's key.
-   */
-  static long textHash(char[] k, int n) {
     long h = 0xcbf29ce484222325L;
     for (int i = 0; i < n; i++) {
       h ^= k[i];
       h *= 0x100000001b3L;
     }
-    return h;
-  }
-
-  /** The hash of (entity, target time) from the entity text's {@link #textHash}: the target time, then a finalizing mix. */
-  static long hash(long textHash, long targetMillis) {
-    long h = textHash;
     h ^= targetMillis * 0x9E3779B97F4A7C15L;
     h ^= h >>> 33;
     h *= 0xff51afd7ed558ccdL;
@@ -214,12 +200,6 @@ final class PendingForecasts {
    */
   boolean add(char[] k, int n, long targetMillis, long issueMillis, double value, double lo, double hi,
               long sourcePartition, long sourceOffset, long nowMillis) {
-    return add(k, n, textHash(k, n), targetMillis, issueMillis, value, lo, hi, sourcePartition, sourceOffset, nowMillis);
-  }
-
-  /** {@link #add(char[], int, long, long, double, double, double, long, long, long)} with the text's {@link #textHash} given. */
-  boolean add(char[] k, int n, long textHash, long targetMillis, long issueMillis, double value, double lo, double hi,
-              long sourcePartition, long sourceOffset, long nowMillis) {
     expireFront(nowMillis);
     if (expired(targetMillis, nowMillis)) {
       droppedExpired++;
@@ -232,7 +212,7 @@ final class PendingForecasts {
       grow();
     }
     int e = free[--freeTop];
-    long h = hash(textHash, targetMillis);
+    long h = hash(k, n, targetMillis);
     hash[e] = h;
     target[e] = targetMillis;
     issue[e] = issueMillis;
@@ -314,13 +294,8 @@ final class PendingForecasts {
    * @return how many were taken
    */
   int take(char[] k, int n, long targetMillis, long nowMillis) {
-    return take(k, n, textHash(k, n), targetMillis, nowMillis);
-  }
-
-  /** {@link #take(char[], int, long, long)} with the text's {@link #textHash} given. */
-  int take(char[] k, int n, long textHash, long targetMillis, long nowMillis) {
     expireFront(nowMillis);
-    int slot = slotOf(hash(textHash, targetMillis), k, n, targetMillis);
+    int slot = slotOf(hash(k, n, targetMillis), k, n, targetMillis);
     int found = 0;
     if (table[slot] != NONE) {
       // the key's chain is in the order issued

@@ -129,8 +129,6 @@ public final class PipelineStep {
   private final int targetTimeSlot;
   /** The entity text of this record: each entity field's length (two chars) then its chars. */
   private char[] entityKey = new char[64];
-  /** {@link PendingForecasts#textHash} of this record's entity text, taken once per record. */
-  private long entityKeyHash;
   private int entityKeyLength;
   private final SettledForecast settledForecast = new SettledForecast();
   /** {@code input.forecast.max_actual_lag}: an actual further behind the clock is rejected. */
@@ -388,7 +386,7 @@ public final class PipelineStep {
         return;
       }
       if (learned != null) {
-        known = learned.find(entityKey, entityKeyLength, entityKeyHash, target, now);
+        known = learned.find(entityKey, entityKeyLength, target, now);
         if (known >= 0) {
           double before = learned.value(known);
           double y = record.number(targetSlot);
@@ -538,8 +536,7 @@ public final class PipelineStep {
         }
         settle(target, y, partition, offset, sink);
       } else if (p.status == Prediction.Status.FORECAST) {
-        pending.add(entityKey, entityKeyLength, entityKeyHash, target, t, p.predicted, p.low, p.high, partition, offset,
-            clock.nowMillis());
+        pending.add(entityKey, entityKeyLength, target, t, p.predicted, p.low, p.high, partition, offset, clock.nowMillis());
       } else {
         pending.expireFront(clock.nowMillis());
       }
@@ -711,17 +708,16 @@ public final class PipelineStep {
       n += len;
     }
     entityKeyLength = n;
-    entityKeyHash = PendingForecasts.textHash(entityKey, n);
     return true;
   }
 
   /** Hands every forecast pending for this record's (entity, target time) to the sink, settled by {@code actual}. */
   private void settle(long target, double actual, long partition, long offset, Sink sink) {
-    int n = pending.take(entityKey, entityKeyLength, entityKeyHash, target, clock.nowMillis());
+    int n = pending.take(entityKey, entityKeyLength, target, clock.nowMillis());
     if (n == 0) {
       return;
     }
-    int entity = horizonMetrics.entity(entityKey, entityKeyLength, entityKeyHash);
+    int entity = horizonMetrics.entity(entityKey, entityKeyLength);
     SettledForecast s = settledForecast;
     for (int i = 0; i < n; i++) {
       s.issueTimeMillis = pending.takenIssueMillis(i);
@@ -742,7 +738,7 @@ public final class PipelineStep {
     if (settledKept != null) {
       // kept until their target time is max_actual_lag behind the clock, to be settled again by a correction
       for (int i = 0; i < n; i++) {
-        settledKept.add(entityKey, entityKeyLength, entityKeyHash, target, pending.takenIssueMillis(i), pending.takenForecast(i),
+        settledKept.add(entityKey, entityKeyLength, target, pending.takenIssueMillis(i), pending.takenForecast(i),
             pending.takenLow(i), pending.takenHigh(i), pending.takenPartition(i), pending.takenOffset(i), clock.nowMillis());
       }
     }
@@ -754,7 +750,7 @@ public final class PipelineStep {
    * for a later correction.
    */
   private void resettle(long target, double actual, double replacedActual, long partition, long offset, Sink sink) {
-    int n = settledKept.take(entityKey, entityKeyLength, entityKeyHash, target, clock.nowMillis());
+    int n = settledKept.take(entityKey, entityKeyLength, target, clock.nowMillis());
     if (keptLongs.length < 3 * n) {
       keptLongs = new long[3 * n];
       keptDoubles = new double[3 * n];
@@ -786,7 +782,7 @@ public final class PipelineStep {
       resettledForecasts++;
     }
     for (int i = 0; i < n; i++) {
-      settledKept.add(entityKey, entityKeyLength, entityKeyHash, target, keptLongs[3 * i], keptDoubles[3 * i], keptDoubles[3 * i + 1],
+      settledKept.add(entityKey, entityKeyLength, target, keptLongs[3 * i], keptDoubles[3 * i], keptDoubles[3 * i + 1],
           keptDoubles[3 * i + 2], keptLongs[3 * i + 1], keptLongs[3 * i + 2], clock.nowMillis());
     }
   }
@@ -841,7 +837,7 @@ public final class PipelineStep {
   private void remember(int known, long target, double y) {
     int e = known;
     if (e < 0) {
-      e = learned.add(entityKey, entityKeyLength, entityKeyHash, target, y, clock.nowMillis());
+      e = learned.add(entityKey, entityKeyLength, target, y, clock.nowMillis());
     } else {
       learned.setValue(e, y);
     }
