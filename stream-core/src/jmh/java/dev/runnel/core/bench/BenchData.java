@@ -55,12 +55,29 @@ final class BenchData {
       case "demo_spline": feature = "  - {kind: bends, name: temp_spline, field: temperature_c, basis: natural_spline, knots: [0, 8, 16, 24]}\n"; break;
       case "demo_holidays": feature = "  - {kind: special_days, name: holiday, holiday_country: nl, days_before: 1, days_after: 1}\n"; break;
       case "demo_log1p": feature = ""; break;
-      case "demo_forecast": return forecastYaml(yaml);
+      case "demo_forecast": return yaml.contains("\n  forecast:\n") ? yaml : forecastYaml(yaml);
+      case "demo_no_forecast": return withoutForecast(yaml);
       default: throw new IllegalArgumentException("no demo variant " + variant);
     }
     String model = variant.equals("demo_log1p") ? "model:\n  target_transform: log1p\n  target_non_negative: true\n" : "model:\n";
     if (!yaml.contains("\nmodel:\n")) throw new IllegalStateException("the demo configuration no longer has a model section");
     return yaml.replace("\nmodel:\n", "\n" + feature + model);
+  }
+
+  /**
+   * The demo YAML without its {@code input.forecast} block (the demo configuration carries one since
+   * the demo issues forecasts): the same records, no pending forecasts, no settling, no join.
+   */
+  private static String withoutForecast(String y) {
+    int start = y.indexOf("\n  forecast:\n");
+    if (start < 0) {
+      return y;
+    }
+    int end = start + "\n  forecast:\n".length();
+    while (y.startsWith("    ", end)) {
+      end = y.indexOf('\n', end) + 1;
+    }
+    return y.substring(0, start + 1) + y.substring(end);
   }
 
   /**

@@ -85,14 +85,14 @@ public final class PipelineBuildsAB {
         Instant.now(), label, slices, r.medianA(), r.medianB(), r.medianRatio(),
         r.lowerQuartileRatio(), r.upperQuartileRatio(), a, b);
     System.out.println(line);
-    System.out.printf(Locale.ROOT, "callbacks (both builds): %,d predictions, %,d rejects, %,d snapshots%n", CALLS[0], CALLS[1], CALLS[2]);
+    System.out.printf(Locale.ROOT, "callbacks (both builds): %,d predictions, %,d rejects, %,d snapshots, %,d settled and other%n", CALLS[0], CALLS[1], CALLS[2], CALLS[3]);
     if (append != null) {
       Files.writeString(append, line + "\n", StandardCharsets.UTF_8, StandardOpenOption.CREATE, StandardOpenOption.APPEND);
     }
   }
 
-  /** Callbacks seen, both builds together: predictions, rejects, snapshots (printed as a check). */
-  static final long[] CALLS = new long[3];
+  /** Callbacks seen, both builds together: predictions, rejects, snapshots, settled forecasts and any other (printed as a check). */
+  static final long[] CALLS = new long[4];
 
   /** Loads {@code dev.runnel.core} from its own path first, everything else from the parent. */
   private static final class ChildFirst extends URLClassLoader {
@@ -128,7 +128,8 @@ public final class PipelineBuildsAB {
       switch (m.getName()) {
         case "prediction" -> CALLS[0]++;
         case "reject" -> CALLS[1]++;
-        default -> CALLS[2]++;
+        case "snapshotDue" -> CALLS[2]++;
+        default -> CALLS[3]++;
       }
       return null;
     });

@@ -156,6 +156,12 @@ public final class PipelineStep {
   private double[] row;
   /** The row in raw units, only while the change attribution's window is open. */
   private double[] rawRow = new double[0];
+  /** Kept between snapshot periods for the drift monitor (observeSnapshotForDrift). */
+  private double[] driftWeights = new double[0];
+  private double[] driftSe = new double[0];
+  private double[] driftRaw = new double[0];
+  private double[] driftRawSe = new double[0];
+  private String[] driftNames = new String[0];
   /** The model's a-priori leverage (element 0) and prediction (element 1) for this record. */
   private final double[] aPriori = new double[2];
 
@@ -618,21 +624,64 @@ public final class PipelineStep {
 
   private static double sq(double v) { return v * v; }
 
-  /** Cold path: the weight alarms and baselines move on once per published snapshot. */
+  /**
+   * Once per snapshot period: the weight alarms and baselines move on. The drift monitor gets the
+   * columns' names, raw-unit weights and raw-unit standard errors, computed here the way
+   * {@link Snapshot#of} computes them (same operations in the same order, so the same bits), into
+   * arrays kept between periods; the snapshot itself (vocabularies, scalers, contrasts, forecasting
+   * tables) is built only when the sink asks for it.
+   */
   private void observeSnapshotForDrift() {
-    Snapshot s = Snapshot.of(this);
-    int n = s.columns().size();
-    String[] names = new String[n];
-    double[] raw = new double[n];
-    double[] se = new double[n];
-    for (int j = 0; j < n; j++) {
-      Snapshot.Column c = s.columns().get(j);
-      names[j] = c.name();
-      raw[j] = s.ready() ? c.rawWeight() : Double.NaN;
-      se[j] = c.rawStandardError();
+    int p = model.dimension();
+    if (driftWeights.length < p) {
+      driftWeights = new double[p];
+      driftSe = new double[p];
+      driftRaw = new double[p];
+      driftRawSe = new double[p];
+      driftNames = new String[p];
     }
-    drift.observeSnapshot(snapshotsTaken, snapshotTimeMillis(), trained, names, raw, se, n);
+    double[] w = driftWeights;
+    double[] se = driftSe;
+    model.weights(w);
+    model.standardErrors(se);
+    boolean ready = model.ready();
+    boolean constant = featurizer.hasConstantTerm();
+    double rawConstant = constant ? w[0] : Double.NaN;
+    double rawConstantSe = Double.NaN;
+    if (constant && ready) {
+      double[] cov = model.unscaledCovariance();
+      for (int j = 1; j < p; j++) {
+        rawConstant -= w[j] * featurizer.centre(j) / featurizer.scale(j);
+      }
+      // q = c' cov c with c = (1, -m_1/s_1, ..., -m_{p-1}/s_{p-1}), summed as Snapshot.of sums it
+      double q = 0.0;
+      for (int i = 0; i < p; i++) {
+        double s = 0.0;
+        for (int j = 0; j < p; j++) {
+          s += cov[i * p + j] * constantContrast(j);
+        }
+        q += constantContrast(i) * s;
+      }
+      rawConstantSe = model.residualSd() * Math.sqrt(Math.max(0.0, q));
+    } else if (constant) {
+      for (int j = 1; j < p; j++) {
+        rawConstant -= w[j] * featurizer.centre(j) / featurizer.scale(j);
+      }
+    }
+    for (int j = 0; j < p; j++) {
+      boolean isConstant = constant && j == 0;
+      double sj = featurizer.scale(j);
+      driftNames[j] = featurizer.columnName(j);
+      driftRaw[j] = !ready ? Double.NaN : isConstant ? rawConstant : w[j] / sj;
+      driftRawSe[j] = isConstant ? rawConstantSe : se[j] / sj;
+    }
+    drift.observeSnapshot(snapshotsTaken, snapshotTimeMillis(), trained, driftNames, driftRaw, driftRawSe, p);
     snapshotsTaken++;
+  }
+
+  /** Column j's coefficient in the raw-unit constant: 1 for the constant, {@code -m_j/s_j} for the others. */
+  private double constantContrast(int j) {
+    return j == 0 ? 1.0 : -featurizer.centre(j) / featurizer.scale(j);
   }
 
   /**
