@@ -152,16 +152,18 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] formatFile() {
-    byte[] json = write(formatBody, pipeline, null);
-    byte[] line = Arrays.copyOf(json, json.length + 1);
-    line[json.length] = '\n';
-    return line;
-  }
-
-  private static void formatBody(JsonGenerator g, String pipeline, Object unused) throws IOException {
-    g.writeNumberField("format", FORMAT_VERSION);
-    g.writeStringField("pipeline", pipeline);
-    g.writeNumberField("snapshot_format", Snapshot.FORMAT_VERSION);
+    try {
+      JsonGenerator g = begin();
+      g.writeNumberField("format", FORMAT_VERSION);
+      g.writeStringField("pipeline", pipeline);
+      g.writeNumberField("snapshot_format", Snapshot.FORMAT_VERSION);
+      byte[] json = end(g);
+      byte[] line = Arrays.copyOf(json, json.length + 1);
+      line[json.length] = '\n';
+      return line;
+    } catch (Throwable e) {
+      throw failed(e);
+    }
   }
 
   /**
@@ -175,7 +177,13 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] prediction(Prediction p, EventRecord record) {
-    return write(predictionBody, p, record);
+    try {
+      JsonGenerator g = begin();
+      predictionBody(g, p, record);
+      return end(g);
+    } catch (Throwable e) {
+      throw failed(e);
+    }
   }
 
   private void predictionBody(JsonGenerator g, Prediction p, EventRecord record) throws IOException {
@@ -238,7 +246,13 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] settled(SettledForecast s, EventRecord record) {
-    return write(settledBody, s, record);
+    try {
+      JsonGenerator g = begin();
+      settledBody(g, s, record);
+      return end(g);
+    } catch (Throwable e) {
+      throw failed(e);
+    }
   }
 
   private void settledBody(JsonGenerator g, SettledForecast s, EventRecord record) throws IOException {
@@ -267,41 +281,35 @@ public final class OutputJson {
     writeSourceObject(g, s.actualPartition(), s.actualOffset());
   }
 
+  /** A fresh output: the buffer emptied, the object opened. */
+  private JsonGenerator begin() throws IOException {
+    JsonGenerator g = start();
+    g.writeStartObject();
+    return g;
+  }
+
+  /** The object closed; its bytes. */
+  private byte[] end(JsonGenerator g) throws IOException {
+    g.writeEndObject();
+    return finish(g);
+  }
+
   /**
-   * One JSON object into new bytes: {@code body} writes its fields between the braces. The writers
-   * it is given are made once (fields below), so a call allocates only the returned bytes. On a
-   * failure the generator is dropped, and the next call makes a fresh one.
+   * After a failure while writing: the generator, in some unknown state, is dropped (the next
+   * output makes a fresh one).
+   *
+   * @return what to throw: an I/O failure as unchecked, any other exception as it is (an error is thrown here)
    */
-  private <A, B> byte[] write(Body<A, B> body, A a, B b) {
-    boolean done = false;
-    try {
-      JsonGenerator g = start();
-      g.writeStartObject();
-      body.write(g, a, b);
-      g.writeEndObject();
-      byte[] bytes = finish(g);
-      done = true;
-      return bytes;
-    } catch (IOException e) {
-      throw new UncheckedIOException(e);
-    } finally {
-      if (!done) {
-        generator = null;
-      }
+  private RuntimeException failed(Throwable e) {
+    generator = null;
+    if (e instanceof IOException io) {
+      return new UncheckedIOException(io);
     }
+    if (e instanceof RuntimeException re) {
+      return re;
+    }
+    throw (Error) e;
   }
-
-  /** The fields of one output object. */
-  @FunctionalInterface
-  private interface Body<A, B> {
-    void write(JsonGenerator g, A a, B b) throws IOException;
-  }
-
-  private final Body<Prediction, EventRecord> predictionBody = this::predictionBody;
-  private final Body<SettledForecast, EventRecord> settledBody = this::settledBody;
-  private static final Body<String, Object> formatBody = OutputJson::formatBody;
-  private static final Body<Rejected, String> rejectBody = OutputJson::rejectBody;
-  private final Body<Snapshot, Long> snapshotBody = (g, s, partition) -> snapshotBody(g, s, partition);
 
   /** The interval, its level, the actual and the error: a prediction's and a settled forecast's. */
   private void writeInterval(JsonGenerator g, double low, double high, double actual, double error) throws IOException {
@@ -353,22 +361,20 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] reject(RejectReason reason, String detail, long partition, long offset, byte[] raw, int off, int len) {
-    int keep = Math.min(len, MAX_RAW_BYTES);
-    // the raw bytes as text (invalid UTF-8 is replaced); truncation never splits the JSON output
-    String text = new String(raw, off, keep, StandardCharsets.UTF_8);
-    return write(rejectBody, new Rejected(reason, detail, partition, offset, len, keep < len), text);
-  }
-
-  /** A reject's fields but its raw text. */
-  private record Rejected(RejectReason reason, String detail, long partition, long offset, int length, boolean truncated) { }
-
-  private static void rejectBody(JsonGenerator g, Rejected r, String text) throws IOException {
-    g.writeStringField("reason", r.reason().id());
-    g.writeStringField("detail", r.detail() == null ? "" : r.detail());
-    writeSource(g, r.partition(), r.offset());
-    g.writeNumberField("raw_length", r.length());
-    g.writeBooleanField("raw_truncated", r.truncated());
-    g.writeStringField("raw", text);
+    try {
+      JsonGenerator g = begin();
+      g.writeStringField("reason", reason.id());
+      g.writeStringField("detail", detail == null ? "" : detail);
+      writeSource(g, partition, offset);
+      int keep = Math.min(len, MAX_RAW_BYTES);
+      g.writeNumberField("raw_length", len);
+      g.writeBooleanField("raw_truncated", keep < len);
+      // the raw bytes as text (invalid UTF-8 is replaced); truncation never splits the JSON output
+      g.writeStringField("raw", new String(raw, off, keep, StandardCharsets.UTF_8));
+      return end(g);
+    } catch (Throwable e) {
+      throw failed(e);
+    }
   }
 
   /**
@@ -378,7 +384,13 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] snapshot(Snapshot s, long partition) {
-    return write(snapshotBody, s, partition);
+    try {
+      JsonGenerator g = begin();
+      snapshotBody(g, s, partition);
+      return end(g);
+    } catch (Throwable e) {
+      throw failed(e);
+    }
   }
 
   private void snapshotBody(JsonGenerator g, Snapshot s, long partition) throws IOException {
