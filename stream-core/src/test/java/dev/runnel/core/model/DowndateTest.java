@@ -25,7 +25,6 @@ class DowndateTest extends LeastSquaresReference {
   private static final double LAMBDA = 0.995;
   private static final double PRIOR_VARIANCE = 10.0;
 
-  final List<Integer> live = new ArrayList<>();
   final List<Boolean> rebasable = new ArrayList<>();
 
   @Test
@@ -65,14 +64,7 @@ class DowndateTest extends LeastSquaresReference {
       live.add(ids++);
       rebasable.add(j > 0);
     }
-    for (int j = 0; j < p0; j++) {
-      Row r = newRow(0.0, false);
-      entries(r)[j] = Math.sqrt(1.0 / PRIOR_VARIANCE);
-    }
-    model.observePriorRows((column, information) -> {
-      Row r = newRow(0.0, false);
-      entries(r)[live.get(column)] = Math.sqrt(information);
-    });
+    priorRows(model, p0, PRIOR_VARIANCE);
     double[] x = new double[16];
     int[] out = new int[5];
     for (int step = 0; step < 1500; step++) {

@@ -33,6 +33,8 @@ abstract class LeastSquaresReference {
   }
 
   final List<Row> rows = new ArrayList<>();
+  /** Live index (the model's column) to column id. */
+  final List<Integer> live = new ArrayList<>();
   /** Column ids handed out so far. */
   int ids;
 
@@ -48,6 +50,21 @@ abstract class LeastSquaresReference {
       r.a = Arrays.copyOf(r.a, ids);
     }
     return r.a;
+  }
+
+  /**
+   * The model's prior as reference rows: the constructor's, 1/priorVariance on each of the first
+   * {@code p0} column ids (documented), and every prior row the model adds later (a new column's).
+   */
+  void priorRows(RlsModel model, int p0, double priorVariance) {
+    for (int j = 0; j < p0; j++) {
+      Row r = newRow(0.0, false);
+      entries(r)[j] = Math.sqrt(1.0 / priorVariance);
+    }
+    model.observePriorRows((column, information) -> {
+      Row r = newRow(0.0, false);
+      entries(r)[live.get(column)] = Math.sqrt(information);
+    });
   }
 
   /**

@@ -2,8 +2,6 @@ package dev.runnel.core.model;
 
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
-import java.util.ArrayList;
-import java.util.List;
 import java.util.Random;
 import org.junit.jupiter.api.Tag;
 import org.junit.jupiter.params.ParameterizedTest;
@@ -26,7 +24,6 @@ class ReferenceSolutionTest extends LeastSquaresReference {
    */
   private static final double DROP_WEIGHT = 1e-13;
 
-  final List<Integer> live = new ArrayList<>(); // live index -> column id
 
   // "slow" (6 s): mutation runs leave it out; RebaseLayoutReferenceTest checks the same in a short stream
   @Tag("slow")
@@ -40,14 +37,7 @@ class ReferenceSolutionTest extends LeastSquaresReference {
     for (int j = 0; j < p0; j++) {
       live.add(ids++);
     }
-    for (int j = 0; j < p0; j++) { // the constructor's prior rows: 1/priorVariance each (documented)
-      Row r = newRow(0.0, false);
-      entries(r)[j] = Math.sqrt(1.0 / PRIOR_VARIANCE);
-    }
-    model.observePriorRows((column, information) -> {
-      Row r = newRow(0.0, false);
-      entries(r)[live.get(column)] = Math.sqrt(information);
-    });
+    priorRows(model, p0, PRIOR_VARIANCE);
     double[] x = new double[16];
     double[] theta = new double[16];
     int adds = 0;
