@@ -87,6 +87,9 @@ public final class HtmlReport {
           + "correction and is compared with Student's t with n − 1 degrees of freedom. The difference is the first configuration's "
           + "loss minus the second's: below zero, the first did better (its loss is smaller); above zero, the second did.</p>\n");
     }
+    if (!r.horizons().isEmpty()) {
+      horizons(sb, r);
+    }
     sb.append("<h2>RMSE over time</h2>\n");
     overTime(sb, r);
     for (int w = 0; w < pathCount(r); w++) {
@@ -114,6 +117,66 @@ public final class HtmlReport {
     }
     sb.append("</table>\n</details>\n<p class=\"meta\">Written by runnel backtest.</p>\n</body></html>\n");
     return sb.toString();
+  }
+
+  /**
+   * With {@code --horizons}: the errors of the simulated forecasts per horizon and configuration,
+   * and the Diebold–Mariano tests per horizon, the same numbers as the terminal table and
+   * {@code backtest.json}'s {@code horizons[]}.
+   */
+  private static void horizons(StringBuilder sb, BacktestResult r) {
+    sb.append("<h2>Errors by horizon</h2>\n<p class=\"meta\">Forecasts simulated h before each actual's target time, "
+        + "from what was known then. Each horizon covers different actuals: compare configurations within one horizon.</p>\n"
+        + "<table class=\"horizons\"><tr><th>horizon</th><th>configuration</th><th>settled</th><th>MAE</th><th>RMSE</th>"
+        + "<th>bias</th><th>interval coverage</th><th>not settled</th><th>skipped</th></tr>\n");
+    for (BacktestResult.HorizonResult h : r.horizons()) {
+      String hz = java.time.Duration.ofMillis(h.horizonMillis()).toString();
+      for (BacktestResult.HorizonVariant v : h.variants()) {
+        Metrics m = v.metrics();
+        sb.append("<tr><td>").append(hz).append("</td><td>").append(esc(v.label()))
+            .append(String.format(Locale.ROOT, "</td><td>%,d</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td><td>%,d</td>"
+                + "<td>%,d</td></tr>%n", m.count(), TextReport.num(m.mae()), TextReport.num(m.rmse()), TextReport.num(m.bias()),
+                TextReport.pct(m.coverage()), v.notSettled() + v.warmingUp(), v.beyondLookahead() + v.notIssued()));
+      }
+    }
+    sb.append("</table>\n<p class=\"meta\">Not settled: warming up, or no actual settled the forecast; skipped: "
+        + "beyond the look-ahead, or not issued (backtest.json counts each apart).</p>\n");
+    boolean any = false;
+    for (BacktestResult.HorizonResult h : r.horizons()) {
+      any |= !h.comparisons().isEmpty();
+    }
+    if (!any) {
+      return;
+    }
+    sb.append("<h2>Diebold–Mariano tests by horizon</h2>\n");
+    for (BacktestResult.HorizonResult h : r.horizons()) {
+      String hz = java.time.Duration.ofMillis(h.horizonMillis()).toString();
+      for (BacktestResult.HorizonComparison hc : h.comparisons()) {
+        BacktestResult.Comparison c = hc.comparison();
+        verdict(sb, c.squared(), hz + ": " + c.squaredVerdict(), r.alpha());
+        verdict(sb, c.absolute(), hz + ": " + c.absoluteVerdict(), r.alpha());
+      }
+    }
+    sb.append("<table class=\"horizon-tests\"><tr><th>horizon</th><th>pair (first vs second)</th><th>loss</th><th>n</th>"
+        + "<th>steps</th><th>HAC lag</th><th>mean loss, first − second</th><th>statistic</th><th>p (normal)</th>"
+        + "<th>corrected statistic</th><th>p (t, n−1)</th></tr>\n");
+    for (BacktestResult.HorizonResult h : r.horizons()) {
+      String hz = java.time.Duration.ofMillis(h.horizonMillis()).toString();
+      for (BacktestResult.HorizonComparison hc : h.comparisons()) {
+        BacktestResult.Comparison c = hc.comparison();
+        for (DieboldMariano.Result t : List.of(c.squared(), c.absolute())) {
+          sb.append("<tr><td>").append(hz).append("</td><td>").append(esc(c.a() + " vs " + c.b())).append("</td><td>")
+              .append(t.loss().id())
+              .append(String.format(Locale.ROOT, "</td><td>%,d</td><td>%d</td><td>%d</td><td>%s</td><td>%s</td><td>%s</td>"
+                  + "<td>%s</td><td>%s</td></tr>%n", t.n(), t.horizon(), t.lag(), TextReport.num(t.meanDifference()),
+                  TextReport.num(t.statistic()), TextReport.pValue(t.pValue()), TextReport.num(t.correctedStatistic()),
+                  TextReport.pValue(t.correctedPValue())));
+        }
+      }
+    }
+    sb.append("</table>\n<p class=\"meta\">Steps k = horizon / mean spacing in target time of the compared series "
+        + "(the actuals both configurations settled); the HAC lag is at least k − 1 and k sets the Harvey, Leybourne &amp; "
+        + "Newbold correction (docs/backtesting.md, \"Horizons\").</p>\n");
   }
 
   private static String labels(BacktestResult r) {

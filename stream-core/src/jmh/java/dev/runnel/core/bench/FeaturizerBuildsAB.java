@@ -1,11 +1,6 @@
 package dev.runnel.core.bench;
 
-import java.net.URL;
-import java.net.URLClassLoader;
-import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
-import java.nio.file.Path;
-import java.nio.file.StandardOpenOption;
 import java.time.Instant;
 import java.util.Locale;
 
@@ -35,78 +30,30 @@ public final class FeaturizerBuildsAB {
   private FeaturizerBuildsAB() { }
 
   public static void main(String[] args) throws Throwable {
-    String a = null;
-    String b = null;
-    Path config = BenchData.root().resolve("demo-data/src/main/resources/dev/runnel/demo/quillmarsh.yaml");
-    Path records = BenchData.root().resolve("demo-data/samples/quillmarsh-small.jsonl");
-    int slices = 16;
-    String label = "demo";
-    Path append = null;
+    PairedSlices.Options o = new PairedSlices.Options();
     for (int i = 0; i < args.length; i++) {
-      switch (args[i]) {
-        case "--a" -> a = args[++i];
-        case "--b" -> b = args[++i];
-        case "--config" -> config = Path.of(args[++i]);
-        case "--records" -> records = Path.of(args[++i]);
-        case "--slices" -> slices = Integer.parseInt(args[++i]);
-        case "--label" -> label = args[++i];
-        case "--append" -> append = Path.of(args[++i]);
-        default -> throw new IllegalArgumentException("unknown option " + args[i]
-            + "; allowed: --a PATH, --b PATH, --config FILE, --records FILE, --slices N, --label TEXT, --append FILE");
+      int taken = o.take(args, i);
+      if (taken < 0) {
+        throw PairedSlices.Options.unknown(args[i], "");
       }
+      i = taken;
     }
-    if (a == null || b == null) {
-      throw new IllegalArgumentException("--a PATH and --b PATH are required (class folders or jars of the two builds)");
-    }
-    String yaml = Files.readString(config);
-    byte[][] recs = Files.readAllLines(records).stream().filter(l -> !l.isBlank())
-        .map(l -> l.getBytes(StandardCharsets.UTF_8)).toArray(byte[][]::new);
-    Runnable[] run = {driver(a, yaml, recs), driver(b, yaml, recs)};
-    PairedSlices.Result r = PairedSlices.measure(run, 1000, 300, slices);
+    o.requireBuilds();
+    String yaml = Files.readString(o.config);
+    byte[][] recs = o.recordLines();
+    Runnable[] run = {driver(o.a, yaml, recs), driver(o.b, yaml, recs)};
+    PairedSlices.Result r = PairedSlices.measure(run, 1000, 300, o.slices);
     String line = String.format(Locale.ROOT,
         "%s featurizer %s slices=%d: A median %,.0f records/s, B median %,.0f; B/A paired median %.3f [quartiles %.3f, %.3f] (A=%s, B=%s)",
-        Instant.now(), label, slices, r.medianA(), r.medianB(), r.medianRatio(),
-        r.lowerQuartileRatio(), r.upperQuartileRatio(), a, b);
-    System.out.println(line);
+        Instant.now(), o.label, o.slices, r.medianA(), r.medianB(), r.medianRatio(),
+        r.lowerQuartileRatio(), r.upperQuartileRatio(), o.a, o.b);
+    PairedSlices.report(line, o.append);
     System.out.println("rows written: A " + counts(run[0]) + "; B " + counts(run[1]));
-    if (append != null) {
-      Files.writeString(append, line + "\n", StandardCharsets.UTF_8, StandardOpenOption.CREATE, StandardOpenOption.APPEND);
-    }
-  }
-
-  /** Loads {@code dev.runnel.core} from its own path first, everything else from the parent. */
-  private static final class ChildFirst extends URLClassLoader {
-    ChildFirst(URL url, ClassLoader parent) { super(new URL[] {url}, parent); }
-
-    /** Defines a copy of {@code c} (a class of this jar) in this loader, so it links to this loader's classes. */
-    Class<?> define(Class<?> c) throws java.io.IOException {
-      String resource = c.getName().replace('.', '/') + ".class";
-      try (java.io.InputStream in = c.getClassLoader().getResourceAsStream(resource)) {
-        byte[] b = in.readAllBytes();
-        return defineClass(c.getName(), b, 0, b.length);
-      }
-    }
-
-    @Override protected Class<?> loadClass(String name, boolean resolve) throws ClassNotFoundException {
-      if (!name.startsWith("dev.runnel.core.") || name.startsWith("dev.runnel.core.bench.")) {
-        return super.loadClass(name, resolve);
-      }
-      synchronized (getClassLoadingLock(name)) {
-        Class<?> c = findLoadedClass(name);
-        if (c == null) {
-          c = findClass(name);
-        }
-        if (resolve) {
-          resolveClass(c);
-        }
-        return c;
-      }
-    }
   }
 
   /** A {@link FeaturizerLoop} defined in the build's own class loader, calling that build's featurizer. */
   private static Runnable driver(String path, String yaml, byte[][] lines) throws Exception {
-    ChildFirst cl = new ChildFirst(Path.of(path).toUri().toURL(), FeaturizerBuildsAB.class.getClassLoader());
+    PairedSlices.ChildFirst cl = new PairedSlices.ChildFirst(path, FeaturizerBuildsAB.class.getClassLoader());
     Class<?> loop = cl.define(FeaturizerLoop.class);
     return (Runnable) loop.getConstructor(String.class, byte[][].class).newInstance(yaml, lines);
   }

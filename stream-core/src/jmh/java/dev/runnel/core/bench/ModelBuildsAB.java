@@ -6,10 +6,7 @@ import java.lang.reflect.Constructor;
 import java.lang.reflect.Method;
 import java.net.URL;
 import java.net.URLClassLoader;
-import java.nio.charset.StandardCharsets;
-import java.nio.file.Files;
 import java.nio.file.Path;
-import java.nio.file.StandardOpenOption;
 import java.time.Instant;
 import java.util.Locale;
 
@@ -68,10 +65,7 @@ public final class ModelBuildsAB {
         "%s p=%d guard=%b slices=%d: A median %,.0f updates/s, B median %,.0f; B/A paired median %.3f [quartiles %.3f, %.3f] (A=%s, B=%s)",
         Instant.now(), p, guard, slices, r.medianA(), r.medianB(), r.medianRatio(),
         r.lowerQuartileRatio(), r.upperQuartileRatio(), a, b);
-    System.out.println(line);
-    if (append != null) {
-      Files.writeString(append, line + "\n", StandardCharsets.UTF_8, StandardOpenOption.CREATE, StandardOpenOption.APPEND);
-    }
+    PairedSlices.report(line, append);
   }
 
   /** 1,000 updates of a model of one build per call. */

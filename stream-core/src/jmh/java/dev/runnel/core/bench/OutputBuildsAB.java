@@ -2,12 +2,8 @@ package dev.runnel.core.bench;
 
 import java.lang.reflect.Method;
 import java.lang.reflect.Proxy;
-import java.net.URL;
-import java.net.URLClassLoader;
-import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
 import java.nio.file.Path;
-import java.nio.file.StandardOpenOption;
 import java.time.Instant;
 import java.util.Locale;
 
@@ -37,77 +33,41 @@ public final class OutputBuildsAB {
   static final long[] RECORDS = new long[2];
 
   public static void main(String[] args) throws Throwable {
-    String a = null;
-    String b = null;
+    PairedSlices.Options o = new PairedSlices.Options();
     String aw = "two-arg";
     String bw = "config";
-    Path config = BenchData.root().resolve("demo-data/src/main/resources/dev/runnel/demo/quillmarsh.yaml");
-    Path records = BenchData.root().resolve("demo-data/samples/quillmarsh-small.jsonl");
     Path bConfig = null;
-    int slices = 16;
-    String label = "demo";
-    Path append = null;
     for (int i = 0; i < args.length; i++) {
+      int taken = o.take(args, i);
+      if (taken >= 0) {
+        i = taken;
+        continue;
+      }
       switch (args[i]) {
-        case "--a" -> a = args[++i];
-        case "--b" -> b = args[++i];
         case "--a-writer" -> aw = args[++i];
         case "--b-writer" -> bw = args[++i];
-        case "--config" -> config = Path.of(args[++i]);
         case "--b-config" -> bConfig = Path.of(args[++i]);
-        case "--records" -> records = Path.of(args[++i]);
-        case "--slices" -> slices = Integer.parseInt(args[++i]);
-        case "--label" -> label = args[++i];
-        case "--append" -> append = Path.of(args[++i]);
-        default -> throw new IllegalArgumentException("unknown option " + args[i]
-            + "; allowed: --a PATH, --b PATH, --a-writer two-arg|config, --b-writer two-arg|config, --config FILE,"
-            + " --b-config FILE (B's configuration, default --config), --records FILE, --slices N, --label TEXT, --append FILE");
+        default -> throw PairedSlices.Options.unknown(args[i],
+            ", --a-writer two-arg|config, --b-writer two-arg|config, --b-config FILE (B's configuration, default --config)");
       }
     }
-    if (a == null || b == null) {
-      throw new IllegalArgumentException("--a PATH and --b PATH are required (class folders or jars of the two builds)");
-    }
-    String yaml = Files.readString(config);
-    byte[][] recs = Files.readAllLines(records).stream().filter(l -> !l.isBlank())
-        .map(l -> l.getBytes(StandardCharsets.UTF_8)).toArray(byte[][]::new);
+    o.requireBuilds();
+    String yaml = Files.readString(o.config);
+    byte[][] recs = o.recordLines();
     String bYaml = bConfig == null ? yaml : Files.readString(bConfig);
-    Runnable[] run = {driver(0, a, aw, yaml, recs), driver(1, b, bw, bYaml, recs)};
-    PairedSlices.Result r = PairedSlices.measure(run, 1000, 300, slices);
+    Runnable[] run = {driver(0, o.a, aw, yaml, recs), driver(1, o.b, bw, bYaml, recs)};
+    PairedSlices.Result r = PairedSlices.measure(run, 1000, 300, o.slices);
     String line = String.format(Locale.ROOT,
         "%s %s slices=%d: A median %,.0f records/s, B median %,.0f; B/A paired median %.3f [quartiles %.3f, %.3f];"
             + " output bytes per record A %.1f, B %.1f (A=%s %s, B=%s %s)",
-        Instant.now(), label, slices, r.medianA(), r.medianB(), r.medianRatio(), r.lowerQuartileRatio(), r.upperQuartileRatio(),
-        (double) BYTES[0] / RECORDS[0], (double) BYTES[1] / RECORDS[1], a, aw, b, bw);
-    System.out.println(line);
-    if (append != null) {
-      Files.writeString(append, line + "\n", StandardCharsets.UTF_8, StandardOpenOption.CREATE, StandardOpenOption.APPEND);
-    }
-  }
-
-  /** Loads {@code dev.runnel.core} from its own path first, everything else from the parent. */
-  private static final class ChildFirst extends URLClassLoader {
-    ChildFirst(URL url, ClassLoader parent) { super(new URL[] {url}, parent); }
-
-    @Override protected Class<?> loadClass(String name, boolean resolve) throws ClassNotFoundException {
-      if (!name.startsWith("dev.runnel.core.") || name.startsWith("dev.runnel.core.bench.")) {
-        return super.loadClass(name, resolve);
-      }
-      synchronized (getClassLoadingLock(name)) {
-        Class<?> c = findLoadedClass(name);
-        if (c == null) {
-          c = findClass(name);
-        }
-        if (resolve) {
-          resolveClass(c);
-        }
-        return c;
-      }
-    }
+        Instant.now(), o.label, o.slices, r.medianA(), r.medianB(), r.medianRatio(), r.lowerQuartileRatio(), r.upperQuartileRatio(),
+        (double) BYTES[0] / RECORDS[0], (double) BYTES[1] / RECORDS[1], o.a, aw, o.b, bw);
+    PairedSlices.report(line, o.append);
   }
 
   /** 1,000 records through a pipeline step and the output writer of one build per call. */
   private static Runnable driver(int side, String path, String writer, String yaml, byte[][] recs) throws Exception {
-    ClassLoader cl = new ChildFirst(Path.of(path).toUri().toURL(), OutputBuildsAB.class.getClassLoader());
+    ClassLoader cl = new PairedSlices.ChildFirst(path, OutputBuildsAB.class.getClassLoader());
     Class<?> loader = cl.loadClass("dev.runnel.core.config.ConfigLoader");
     Object cfg = loader.getMethod("parse", String.class, String.class).invoke(null, yaml, "ab.yaml");
     Class<?> stepClass = cl.loadClass("dev.runnel.core.pipeline.PipelineStep");
@@ -164,4 +124,5 @@ public final class OutputBuildsAB {
       }
     };
   }
+
 }

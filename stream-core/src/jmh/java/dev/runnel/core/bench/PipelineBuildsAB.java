@@ -2,12 +2,7 @@ package dev.runnel.core.bench;
 
 import java.lang.reflect.Method;
 import java.lang.reflect.Proxy;
-import java.net.URL;
-import java.net.URLClassLoader;
-import java.nio.charset.StandardCharsets;
 import java.nio.file.Files;
-import java.nio.file.Path;
-import java.nio.file.StandardOpenOption;
 import java.time.Instant;
 import java.util.List;
 import java.util.Locale;
@@ -43,81 +38,41 @@ public final class PipelineBuildsAB {
   private PipelineBuildsAB() { }
 
   public static void main(String[] args) throws Throwable {
-    String a = null;
-    String b = null;
-    Path config = BenchData.root().resolve("demo-data/src/main/resources/dev/runnel/demo/quillmarsh.yaml");
-    Path records = BenchData.root().resolve("demo-data/samples/quillmarsh-small.jsonl");
-    int slices = 16;
-    String label = "demo";
-    Path append = null;
+    PairedSlices.Options o = new PairedSlices.Options();
     String variantB = null;
     String variantA = null;
     boolean fresh = false;
     for (int i = 0; i < args.length; i++) {
+      int taken = o.take(args, i);
+      if (taken >= 0) {
+        i = taken;
+        continue;
+      }
       switch (args[i]) {
-        case "--a" -> a = args[++i];
-        case "--b" -> b = args[++i];
-        case "--config" -> config = Path.of(args[++i]);
-        case "--records" -> records = Path.of(args[++i]);
-        case "--slices" -> slices = Integer.parseInt(args[++i]);
-        case "--label" -> label = args[++i];
-        case "--append" -> append = Path.of(args[++i]);
         case "--variant-b" -> variantB = args[++i];
         case "--variant-a" -> variantA = args[++i];
         case "--fresh-each-lap" -> fresh = true;
-        default -> throw new IllegalArgumentException("unknown option " + args[i]
-            + "; allowed: --a PATH, --b PATH, --config FILE, --records FILE, --slices N, --label TEXT, --append FILE, --variant-b NAME,"
-            + " --variant-a NAME, --fresh-each-lap");
+        default -> throw PairedSlices.Options.unknown(args[i], ", --variant-b NAME, --variant-a NAME, --fresh-each-lap");
       }
     }
-    if (a == null || b == null) {
-      throw new IllegalArgumentException("--a PATH and --b PATH are required (class folders or jars of the two builds)");
-    }
-    String yaml = Files.readString(config);
-    byte[][] recs = Files.readAllLines(records).stream().filter(l -> !l.isBlank())
-        .map(l -> l.getBytes(StandardCharsets.UTF_8)).toArray(byte[][]::new);
+    o.requireBuilds();
+    String yaml = Files.readString(o.config);
+    byte[][] recs = o.recordLines();
     String yamlA = variantA == null ? yaml : BenchData.demoYamlWith(variantA);
     String yamlB = variantB == null ? yaml : BenchData.demoYamlWith(variantB);
-    Runnable[] run = {driver(a, yamlA, recs, fresh), driver(b, yamlB, recs, fresh)};
-    PairedSlices.Result r = PairedSlices.measure(run, 1000, 300, slices);
+    Runnable[] run = {driver(o.a, yamlA, recs, fresh), driver(o.b, yamlB, recs, fresh)};
+    PairedSlices.Result r = PairedSlices.measure(run, 1000, 300, o.slices);
     String line = String.format(Locale.ROOT,
         "%s %s slices=%d: A median %,.0f records/s, B median %,.0f; B/A paired median %.3f [quartiles %.3f, %.3f] (A=%s, B=%s)",
-        Instant.now(), label, slices, r.medianA(), r.medianB(), r.medianRatio(),
-        r.lowerQuartileRatio(), r.upperQuartileRatio(), a, b);
-    System.out.println(line);
+        Instant.now(), o.label, o.slices, r.medianA(), r.medianB(), r.medianRatio(),
+        r.lowerQuartileRatio(), r.upperQuartileRatio(), o.a, o.b);
+    PairedSlices.report(line, o.append);
     System.out.printf(Locale.ROOT, "callbacks (both builds): %,d predictions, %,d rejects, %,d snapshots, %,d settled and other%n", CALLS[0], CALLS[1], CALLS[2], CALLS[3]);
-    if (append != null) {
-      Files.writeString(append, line + "\n", StandardCharsets.UTF_8, StandardOpenOption.CREATE, StandardOpenOption.APPEND);
-    }
-  }
-
-  /** Callbacks seen, both builds together: predictions, rejects, snapshots, settled forecasts and any other (printed as a check). */
-  static final long[] CALLS = new long[4];
-
-  /** Loads {@code dev.runnel.core} from its own path first, everything else from the parent. */
-  private static final class ChildFirst extends URLClassLoader {
-    ChildFirst(URL url, ClassLoader parent) { super(new URL[] {url}, parent); }
-
-    @Override protected Class<?> loadClass(String name, boolean resolve) throws ClassNotFoundException {
-      if (!name.startsWith("dev.runnel.core.") || name.startsWith("dev.runnel.core.bench.")) {
-        return super.loadClass(name, resolve);
-      }
-      synchronized (getClassLoadingLock(name)) {
-        Class<?> c = findLoadedClass(name);
-        if (c == null) {
-          c = findClass(name);
-        }
-        if (resolve) {
-          resolveClass(c);
-        }
-        return c;
-      }
-    }
   }
 
   /** 1,000 records through a pipeline step of one build per call. */
   private static Runnable driver(String path, String yaml, byte[][] recs, boolean fresh) throws Exception {
-    ClassLoader cl = new ChildFirst(Path.of(path).toUri().toURL(), PipelineBuildsAB.class.getClassLoader());
+    ClassLoader cl = new PairedSlices.ChildFirst(path, PipelineBuildsAB.class.getClassLoader());
     Class<?> loader = cl.loadClass("dev.runnel.core.config.ConfigLoader");
     Object cfg = loader.getMethod("parse", String.class, String.class).invoke(null, yaml, "ab.yaml");
     Class<?> stepClass = cl.loadClass("dev.runnel.core.pipeline.PipelineStep");
@@ -157,4 +112,8 @@ public final class PipelineBuildsAB {
       }
     };
   }
+
+  /** Callbacks seen, both builds together: predictions, rejects, snapshots, settled forecasts and any other (printed as a check). */
+  static final long[] CALLS = new long[4];
+
 }

@@ -152,24 +152,17 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] formatFile() {
-    boolean done = false;
     try {
-      JsonGenerator g = start();
-      g.writeStartObject();
+      JsonGenerator g = begin();
       g.writeNumberField("format", FORMAT_VERSION);
       g.writeStringField("pipeline", pipeline);
       g.writeNumberField("snapshot_format", Snapshot.FORMAT_VERSION);
-      g.writeEndObject();
-      g.writeRaw('\n');
-      byte[] bytes = finish(g);
-      done = true;
-      return bytes;
-    } catch (IOException e) {
-      throw new UncheckedIOException(e);
-    } finally {
-      if (!done) {
-        generator = null;
-      }
+      byte[] json = end(g);
+      byte[] line = Arrays.copyOf(json, json.length + 1);
+      line[json.length] = '\n';
+      return line;
+    } catch (Throwable e) {
+      throw failed(e);
     }
   }
 
@@ -184,78 +177,63 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] prediction(Prediction p, EventRecord record) {
-    boolean done = false;
     try {
-      JsonGenerator g = start();
-      g.writeStartObject();
-      g.writeFieldName(K_STATUS);
-      g.writeString(STATUS_TEXT[p.status().ordinal()]);
-      writeSource(g, p.sourcePartition(), p.sourceOffset());
-      g.writeFieldName(K_EVENT_TIME);
-      int tn = instantChars(p.eventTimeMillis(), timeChars);
-      if (tn > 0) {
-        g.writeString(timeChars, 0, tn);
-      } else {
-        g.writeString(Instant.ofEpochMilli(p.eventTimeMillis()).toString());
-      }
-      if (p.stamped()) {
-        // input.forecast: the issue time (the event time), the target time and the horizon
-        writeTime(g, K_ISSUE_TIME, p.issueTimeMillis());
-        writeTime(g, K_TARGET_TIME, p.targetTimeMillis());
-        g.writeFieldName(K_HORIZON_MS);
-        g.writeNumber(p.horizonMillis());
-        if (Double.isNaN(p.actual())) {
-          g.writeFieldName(K_TARGET_PASSED);
-          g.writeBoolean(p.targetPassed());
-        }
-      }
-      RecordSchema schema = record.schema();
-      SerializedString[] names = fieldNames(schema);
-      int[] slots = echoSlots;
-      if (slots.length > 0) {
-        g.writeFieldName(K_FIELDS);
-        g.writeStartObject();
-      }
-      for (int i : slots) {
-        if (!record.present(i)) {
-          continue;
-        }
-        FieldType t = schema.type(i);
-        if (t == FieldType.TEXT) {
-          g.writeFieldName(names[i]);
-          int n = record.textLength(i);
-          if (n < 0) {
-            g.writeNull(); // present without a text: only a caller that filled the record oddly
-          } else {
-            g.writeString(record.textChars(i), 0, n);
-          }
-        } else if (t == FieldType.FLAG) {
-          g.writeFieldName(names[i]);
-          g.writeBoolean(record.flag(i));
-        }
-      }
-      if (slots.length > 0) {
-        g.writeEndObject();
-      }
-      rounded(g, K_PREDICTED, p.predicted());
-      rounded(g, K_LOW, p.low());
-      rounded(g, K_HIGH, p.high());
-      writeLevel(g);
-      number(g, K_ACTUAL, p.actual());
-      rounded(g, K_ERROR, p.error());
-      g.writeFieldName(K_COLUMNS_VERSION);
-      g.writeNumber(p.layoutVersion());
-      g.writeEndObject();
-      byte[] bytes = finish(g);
-      done = true;
-      return bytes;
-    } catch (IOException e) {
-      throw new UncheckedIOException(e);
-    } finally {
-      if (!done) {
-        generator = null;
+      JsonGenerator g = begin();
+      predictionBody(g, p, record);
+      return end(g);
+    } catch (Throwable e) {
+      throw failed(e);
+    }
+  }
+
+  private void predictionBody(JsonGenerator g, Prediction p, EventRecord record) throws IOException {
+    g.writeFieldName(K_STATUS);
+    g.writeString(STATUS_TEXT[p.status().ordinal()]);
+    writeSource(g, p.sourcePartition(), p.sourceOffset());
+    writeTime(g, K_EVENT_TIME, p.eventTimeMillis());
+    if (p.stamped()) {
+      // input.forecast: the issue time (the event time), the target time and the horizon
+      writeTime(g, K_ISSUE_TIME, p.issueTimeMillis());
+      writeTime(g, K_TARGET_TIME, p.targetTimeMillis());
+      g.writeFieldName(K_HORIZON_MS);
+      g.writeNumber(p.horizonMillis());
+      if (Double.isNaN(p.actual())) {
+        g.writeFieldName(K_TARGET_PASSED);
+        g.writeBoolean(p.targetPassed());
       }
     }
+    RecordSchema schema = record.schema();
+    SerializedString[] names = fieldNames(schema);
+    int[] slots = echoSlots;
+    if (slots.length > 0) {
+      g.writeFieldName(K_FIELDS);
+      g.writeStartObject();
+    }
+    for (int i : slots) {
+      if (!record.present(i)) {
+        continue;
+      }
+      FieldType t = schema.type(i);
+      if (t == FieldType.TEXT) {
+        g.writeFieldName(names[i]);
+        int n = record.textLength(i);
+        if (n < 0) {
+          g.writeNull(); // present without a text: only a caller that filled the record oddly
+        } else {
+          g.writeString(record.textChars(i), 0, n);
+        }
+      } else if (t == FieldType.FLAG) {
+        g.writeFieldName(names[i]);
+        g.writeBoolean(record.flag(i));
+      }
+    }
+    if (slots.length > 0) {
+      g.writeEndObject();
+    }
+    rounded(g, K_PREDICTED, p.predicted());
+    writeInterval(g, p.low(), p.high(), p.actual(), p.error());
+    g.writeFieldName(K_COLUMNS_VERSION);
+    g.writeNumber(p.layoutVersion());
   }
 
   /**
@@ -268,48 +246,78 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] settled(SettledForecast s, EventRecord record) {
-    boolean done = false;
     try {
-      JsonGenerator g = start();
-      g.writeStartObject();
-      RecordSchema schema = record.schema();
-      SerializedString[] names = fieldNames(schema);
-      g.writeObjectFieldStart("entity");
-      for (int slot : s.entitySlots) {
-        g.writeFieldName(names[slot]);
-        g.writeString(record.textChars(slot), 0, record.textLength(slot));
-      }
-      g.writeEndObject();
-      writeTime(g, K_ISSUE_TIME, s.issueTimeMillis());
-      writeTime(g, K_TARGET_TIME, s.targetTimeMillis());
-      g.writeFieldName(K_HORIZON_MS);
-      g.writeNumber(s.horizonMillis());
-      rounded(g, K_FORECAST, s.forecast());
-      rounded(g, K_LOW, s.low());
-      rounded(g, K_HIGH, s.high());
-      writeLevel(g);
-      number(g, K_ACTUAL, s.actual());
-      rounded(g, K_ERROR, s.error());
-      g.writeBooleanField("covered", s.covered());
-      if (s.correction()) {
-        g.writeBooleanField("correction", true);
-        number(g, "replaced_actual", s.replacedActual());
-      }
-      g.writeFieldName("request");
-      writeSourceObject(g, s.requestPartition(), s.requestOffset());
-      g.writeFieldName("actual_source");
-      writeSourceObject(g, s.actualPartition(), s.actualOffset());
-      g.writeEndObject();
-      byte[] bytes = finish(g);
-      done = true;
-      return bytes;
-    } catch (IOException e) {
-      throw new UncheckedIOException(e);
-    } finally {
-      if (!done) {
-        generator = null;
-      }
+      JsonGenerator g = begin();
+      settledBody(g, s, record);
+      return end(g);
+    } catch (Throwable e) {
+      throw failed(e);
     }
+  }
+
+  private void settledBody(JsonGenerator g, SettledForecast s, EventRecord record) throws IOException {
+    RecordSchema schema = record.schema();
+    SerializedString[] names = fieldNames(schema);
+    g.writeObjectFieldStart("entity");
+    for (int slot : s.entitySlots) {
+      g.writeFieldName(names[slot]);
+      g.writeString(record.textChars(slot), 0, record.textLength(slot));
+    }
+    g.writeEndObject();
+    writeTime(g, K_ISSUE_TIME, s.issueTimeMillis());
+    writeTime(g, K_TARGET_TIME, s.targetTimeMillis());
+    g.writeFieldName(K_HORIZON_MS);
+    g.writeNumber(s.horizonMillis());
+    rounded(g, K_FORECAST, s.forecast());
+    writeInterval(g, s.low(), s.high(), s.actual(), s.error());
+    g.writeBooleanField("covered", s.covered());
+    if (s.correction()) {
+      g.writeBooleanField("correction", true);
+      number(g, "replaced_actual", s.replacedActual());
+    }
+    g.writeFieldName("request");
+    writeSourceObject(g, s.requestPartition(), s.requestOffset());
+    g.writeFieldName("actual_source");
+    writeSourceObject(g, s.actualPartition(), s.actualOffset());
+  }
+
+  /** A fresh output: the buffer emptied, the object opened. */
+  private JsonGenerator begin() throws IOException {
+    JsonGenerator g = start();
+    g.writeStartObject();
+    return g;
+  }
+
+  /** The object closed; its bytes. */
+  private byte[] end(JsonGenerator g) throws IOException {
+    g.writeEndObject();
+    return finish(g);
+  }
+
+  /**
+   * After a failure while writing: the generator, in some unknown state, is dropped (the next
+   * output makes a fresh one).
+   *
+   * @return what to throw: an I/O failure as unchecked, any other exception as it is (an error is thrown here)
+   */
+  private RuntimeException failed(Throwable e) {
+    generator = null;
+    if (e instanceof IOException io) {
+      return new UncheckedIOException(io);
+    }
+    if (e instanceof RuntimeException re) {
+      return re;
+    }
+    throw (Error) e;
+  }
+
+  /** The interval, its level, the actual and the error: a prediction's and a settled forecast's. */
+  private void writeInterval(JsonGenerator g, double low, double high, double actual, double error) throws IOException {
+    rounded(g, K_LOW, low);
+    rounded(g, K_HIGH, high);
+    writeLevel(g);
+    number(g, K_ACTUAL, actual);
+    rounded(g, K_ERROR, error);
   }
 
   private void writeTime(JsonGenerator g, SerializedString name, long millis) throws IOException {
@@ -353,10 +361,8 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] reject(RejectReason reason, String detail, long partition, long offset, byte[] raw, int off, int len) {
-    boolean done = false;
     try {
-      JsonGenerator g = start();
-      g.writeStartObject();
+      JsonGenerator g = begin();
       g.writeStringField("reason", reason.id());
       g.writeStringField("detail", detail == null ? "" : detail);
       writeSource(g, partition, offset);
@@ -365,16 +371,9 @@ public final class OutputJson {
       g.writeBooleanField("raw_truncated", keep < len);
       // the raw bytes as text (invalid UTF-8 is replaced); truncation never splits the JSON output
       g.writeStringField("raw", new String(raw, off, keep, StandardCharsets.UTF_8));
-      g.writeEndObject();
-      byte[] bytes = finish(g);
-      done = true;
-      return bytes;
-    } catch (IOException e) {
-      throw new UncheckedIOException(e);
-    } finally {
-      if (!done) {
-        generator = null;
-      }
+      return end(g);
+    } catch (Throwable e) {
+      throw failed(e);
     }
   }
 
@@ -385,143 +384,143 @@ public final class OutputJson {
    * @return new bytes
    */
   public byte[] snapshot(Snapshot s, long partition) {
-    boolean done = false;
     try {
-      JsonGenerator g = start();
+      JsonGenerator g = begin();
+      snapshotBody(g, s, partition);
+      return end(g);
+    } catch (Throwable e) {
+      throw failed(e);
+    }
+  }
+
+  private void snapshotBody(JsonGenerator g, Snapshot s, long partition) throws IOException {
+    g.writeNumberField("format", Snapshot.FORMAT_VERSION);
+    g.writeStringField("pipeline", pipeline);
+    g.writeNumberField("partition", partition);
+    g.writeNumberField("index", s.index());
+    g.writeStringField("event_time", s.eventTimeMillis() == Long.MIN_VALUE ? null
+        : Instant.ofEpochMilli(s.eventTimeMillis()).toString());
+    g.writeNumberField("records", s.records());
+    g.writeNumberField("trained", s.trained());
+    g.writeNumberField("no_target_records", s.forecasts());
+    g.writeNumberField("rejected", s.rejected());
+    g.writeNumberField("columns_version", s.layoutVersion());
+    g.writeBooleanField("ready", s.ready());
+    number(g, "noise_sd", s.noiseSd());
+    number(g, "residual_sd", s.residualSd());
+    number(g, "effective_sample_size", s.effectiveSampleSize());
+    Snapshot.Metrics m = s.metrics();
+    g.writeObjectFieldStart("metrics");
+    g.writeNumberField("count", m.count());
+    writeErrors(g, m);
+    g.writeEndObject();
+    if (s.forecasting() != null) {
+      writeForecasting(g, s.forecasting());
+    }
+    g.writeArrayFieldStart("columns");
+    for (Snapshot.Column c : s.columns()) {
       g.writeStartObject();
-      g.writeNumberField("format", Snapshot.FORMAT_VERSION);
-      g.writeStringField("pipeline", pipeline);
-      g.writeNumberField("partition", partition);
-      g.writeNumberField("index", s.index());
-      g.writeStringField("event_time", s.eventTimeMillis() == Long.MIN_VALUE ? null
-          : Instant.ofEpochMilli(s.eventTimeMillis()).toString());
-      g.writeNumberField("records", s.records());
-      g.writeNumberField("trained", s.trained());
-      g.writeNumberField("no_target_records", s.forecasts());
-      g.writeNumberField("rejected", s.rejected());
-      g.writeNumberField("columns_version", s.layoutVersion());
-      g.writeBooleanField("ready", s.ready());
-      number(g, "noise_sd", s.noiseSd());
-      number(g, "residual_sd", s.residualSd());
-      number(g, "effective_sample_size", s.effectiveSampleSize());
-      Snapshot.Metrics m = s.metrics();
-      g.writeObjectFieldStart("metrics");
-      g.writeNumberField("count", m.count());
-      g.writeObjectFieldStart("overall");
-      number(g, "mae", m.mae());
-      number(g, "rmse", m.rmse());
-      number(g, "bias", m.bias());
-      number(g, "coverage", m.coverage());
+      g.writeStringField("name", c.name());
+      number(g, "weight", c.weight());
+      number(g, "std_error", c.standardError());
+      number(g, "raw_weight", c.rawWeight());
+      number(g, "raw_std_error", c.rawStandardError());
+      number(g, "centre", c.centre());
+      number(g, "scale", c.scale());
+      number(g, "drift_score", c.movedSe());
       g.writeEndObject();
-      g.writeObjectFieldStart("recent");
-      number(g, "mae", m.recentMae());
-      number(g, "rmse", m.recentRmse());
-      number(g, "bias", m.recentBias());
-      number(g, "coverage", m.recentCoverage());
-      g.writeEndObject();
-      g.writeEndObject();
-      if (s.forecasting() != null) {
-        writeForecasting(g, s.forecasting());
-      }
-      g.writeArrayFieldStart("columns");
-      for (Snapshot.Column c : s.columns()) {
+    }
+    g.writeEndArray();
+    writeAlarms(g, s);
+    g.writeArrayFieldStart("vocabularies");
+    for (Featurizer.VocabularySnapshot v : s.vocabularies()) {
+      g.writeStartObject();
+      g.writeStringField("feature", v.feature());
+      g.writeStringField("field", v.field());
+      g.writeNumberField("other_count", v.otherCount());
+      g.writeNumberField("below_min_count", v.candidates());
+      g.writeArrayFieldStart("levels");
+      for (Featurizer.LevelSnapshot l : v.levels()) {
         g.writeStartObject();
-        g.writeStringField("name", c.name());
-        number(g, "weight", c.weight());
-        number(g, "std_error", c.standardError());
-        number(g, "raw_weight", c.rawWeight());
-        number(g, "raw_std_error", c.rawStandardError());
-        number(g, "centre", c.centre());
-        number(g, "scale", c.scale());
-        number(g, "drift_score", c.movedSe());
+        g.writeStringField("level", l.level());
+        g.writeNumberField("column", l.column());
+        g.writeNumberField("count", l.count());
+        time(g, "first_seen", l.firstSeenMillis());
+        time(g, "last_seen", l.lastSeenMillis());
         g.writeEndObject();
       }
       g.writeEndArray();
-      writeAlarms(g, s);
-      g.writeArrayFieldStart("vocabularies");
-      for (Featurizer.VocabularySnapshot v : s.vocabularies()) {
+      g.writeEndObject();
+    }
+    g.writeEndArray();
+    if (!s.contrasts().isEmpty()) {
+      // only with drift.contrast_levels > 0: without it the snapshot's bytes are as before
+      g.writeArrayFieldStart("contrasts");
+      for (Snapshot.Contrasts c : s.contrasts()) {
         g.writeStartObject();
-        g.writeStringField("feature", v.feature());
-        g.writeStringField("field", v.field());
-        g.writeNumberField("other_count", v.otherCount());
-        g.writeNumberField("below_min_count", v.candidates());
+        g.writeStringField("feature", c.feature());
+        g.writeStringField("reference", "mean_of_levels");
+        g.writeNumberField("levels_total", c.levelsTotal());
         g.writeArrayFieldStart("levels");
-        for (Featurizer.LevelSnapshot l : v.levels()) {
+        for (Snapshot.LevelContrast l : c.levels()) {
           g.writeStartObject();
           g.writeStringField("level", l.level());
-          g.writeNumberField("column", l.column());
+          g.writeStringField("column", l.column());
           g.writeNumberField("count", l.count());
-          time(g, "first_seen", l.firstSeenMillis());
-          time(g, "last_seen", l.lastSeenMillis());
+          number(g, "effect", l.effect());
+          number(g, "std_error", l.standardError());
           g.writeEndObject();
         }
         g.writeEndArray();
-        g.writeEndObject();
-      }
-      g.writeEndArray();
-      if (!s.contrasts().isEmpty()) {
-        // only with drift.contrast_levels > 0: without it the snapshot's bytes are as before
-        g.writeArrayFieldStart("contrasts");
-        for (Snapshot.Contrasts c : s.contrasts()) {
-          g.writeStartObject();
-          g.writeStringField("feature", c.feature());
-          g.writeStringField("reference", "mean_of_levels");
-          g.writeNumberField("levels_total", c.levelsTotal());
-          g.writeArrayFieldStart("levels");
-          for (Snapshot.LevelContrast l : c.levels()) {
-            g.writeStartObject();
-            g.writeStringField("level", l.level());
-            g.writeStringField("column", l.column());
-            g.writeNumberField("count", l.count());
-            number(g, "effect", l.effect());
-            number(g, "std_error", l.standardError());
-            g.writeEndObject();
-          }
-          g.writeEndArray();
-          g.writeArrayFieldStart("covariance");
-          int k = c.levels().size();
-          for (int a = 0; a < k; a++) {
-            g.writeStartArray();
-            for (int b = 0; b < k; b++) {
-              double x = c.covariance()[a * k + b];
-              if (Double.isFinite(x)) {
-                g.writeNumber(x);
-              } else {
-                g.writeNull();
-              }
+        g.writeArrayFieldStart("covariance");
+        int k = c.levels().size();
+        for (int a = 0; a < k; a++) {
+          g.writeStartArray();
+          for (int b = 0; b < k; b++) {
+            double x = c.covariance()[a * k + b];
+            if (Double.isFinite(x)) {
+              g.writeNumber(x);
+            } else {
+              g.writeNull();
             }
-            g.writeEndArray();
           }
           g.writeEndArray();
-          g.writeEndObject();
         }
         g.writeEndArray();
-      }
-      g.writeArrayFieldStart("standardization");
-      for (Featurizer.ScalerSnapshot sc : s.scalers()) {
-        g.writeStartObject();
-        g.writeStringField("column", sc.column());
-        g.writeStringField("scaling", sc.scaling());
-        g.writeStringField("transform", sc.transform());
-        g.writeNumberField("count", sc.count());
-        number(g, "mean", sc.mean());
-        number(g, "sd", sc.sd());
-        number(g, "centre", sc.centre());
-        number(g, "scale", sc.scale());
         g.writeEndObject();
       }
       g.writeEndArray();
-      g.writeEndObject();
-      byte[] bytes = finish(g);
-      done = true;
-      return bytes;
-    } catch (IOException e) {
-      throw new UncheckedIOException(e);
-    } finally {
-      if (!done) {
-        generator = null;
-      }
     }
+    g.writeArrayFieldStart("standardization");
+    for (Featurizer.ScalerSnapshot sc : s.scalers()) {
+      g.writeStartObject();
+      g.writeStringField("column", sc.column());
+      g.writeStringField("scaling", sc.scaling());
+      g.writeStringField("transform", sc.transform());
+      g.writeNumberField("count", sc.count());
+      number(g, "mean", sc.mean());
+      number(g, "sd", sc.sd());
+      number(g, "centre", sc.centre());
+      number(g, "scale", sc.scale());
+      g.writeEndObject();
+    }
+    g.writeEndArray();
+  }
+
+  /** {@code "overall"} and {@code "recent"}: the errors' summaries of a snapshot and of a horizon bucket. */
+  private static void writeErrors(JsonGenerator g, Snapshot.Metrics m) throws IOException {
+    g.writeObjectFieldStart("overall");
+    number(g, "mae", m.mae());
+    number(g, "rmse", m.rmse());
+    number(g, "bias", m.bias());
+    number(g, "coverage", m.coverage());
+    g.writeEndObject();
+    g.writeObjectFieldStart("recent");
+    number(g, "mae", m.recentMae());
+    number(g, "rmse", m.recentRmse());
+    number(g, "bias", m.recentBias());
+    number(g, "coverage", m.recentCoverage());
+    g.writeEndObject();
   }
 
   /**
@@ -579,18 +578,7 @@ public final class OutputJson {
         g.writeStringField("up_to", isoDuration(up));
       }
       g.writeNumberField("count", m.count());
-      g.writeObjectFieldStart("overall");
-      number(g, "mae", m.mae());
-      number(g, "rmse", m.rmse());
-      number(g, "bias", m.bias());
-      number(g, "coverage", m.coverage());
-      g.writeEndObject();
-      g.writeObjectFieldStart("recent");
-      number(g, "mae", m.recentMae());
-      number(g, "rmse", m.recentRmse());
-      number(g, "bias", m.recentBias());
-      number(g, "coverage", m.recentCoverage());
-      g.writeEndObject();
+      writeErrors(g, m);
       g.writeEndObject();
     }
   }

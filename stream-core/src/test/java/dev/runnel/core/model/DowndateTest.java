@@ -11,9 +11,6 @@ import java.util.ArrayList;
 import java.util.Arrays;
 import java.util.List;
 import java.util.Random;
-import org.ejml.data.DMatrixRMaj;
-import org.ejml.dense.row.factory.LinearSolverFactory_DDRM;
-import org.ejml.interfaces.linsol.LinearSolverDense;
 import org.junit.jupiter.api.Test;
 
 /**
@@ -23,42 +20,12 @@ import org.junit.jupiter.api.Test;
  * and the weights and the weighted residual sum of squares equal the from-scratch weighted
  * least-squares solution without those rows, solved by EJML's Householder QR (EJML as reference).
  */
-class DowndateTest {
+class DowndateTest extends LeastSquaresReference {
 
   private static final double LAMBDA = 0.995;
   private static final double PRIOR_VARIANCE = 10.0;
 
-  /** One row of the reference problem, over column ids (every column ever seen). */
-  static final class Row {
-    double[] a;
-    final double y;
-    double weight = 1.0;
-    final boolean data;
-
-    Row(int ids, double y, boolean data) {
-      this.a = new double[ids];
-      this.y = y;
-      this.data = data;
-    }
-  }
-
-  final List<Row> rows = new ArrayList<>();
-  final List<Integer> live = new ArrayList<>();
   final List<Boolean> rebasable = new ArrayList<>();
-  int ids;
-
-  Row newRow(double y, boolean data) {
-    Row r = new Row(Math.max(ids, 1), y, data);
-    rows.add(r);
-    return r;
-  }
-
-  double[] entries(Row r) {
-    if (r.a.length < ids) {
-      r.a = Arrays.copyOf(r.a, ids);
-    }
-    return r.a;
-  }
 
   @Test
   void removingEarlierRowsMatchesTheFromScratchSolutionWithoutThem() {
@@ -97,14 +64,7 @@ class DowndateTest {
       live.add(ids++);
       rebasable.add(j > 0);
     }
-    for (int j = 0; j < p0; j++) {
-      Row r = newRow(0.0, false);
-      entries(r)[j] = Math.sqrt(1.0 / PRIOR_VARIANCE);
-    }
-    model.observePriorRows((column, information) -> {
-      Row r = newRow(0.0, false);
-      entries(r)[live.get(column)] = Math.sqrt(information);
-    });
+    priorRows(model, p0, PRIOR_VARIANCE);
     double[] x = new double[16];
     int[] out = new int[5];
     for (int step = 0; step < 1500; step++) {
@@ -213,57 +173,6 @@ class DowndateTest {
       }
     }
     return null;
-  }
-
-  /** min sum w (y - a^T theta)^2 by EJML's Householder QR over the live columns; returns the minimum. */
-  double referenceSolution(double[] out) {
-    int m = live.size();
-    // rows touching a removed column are marginalized in the model; in the reference the removed
-    // columns stay as unknowns, which is the same thing for the live weights
-    boolean[] used = new boolean[ids];
-    for (Row r : rows) {
-      double[] a = entries(r);
-      for (int j = 0; j < ids; j++) {
-        used[j] |= a[j] != 0.0;
-      }
-    }
-    int[] cols = new int[ids];
-    m = 0;
-    for (int j = 0; j < ids; j++) {
-      if (used[j]) {
-        cols[m++] = j;
-      }
-    }
-    DMatrixRMaj a = new DMatrixRMaj(rows.size(), m);
-    DMatrixRMaj b = new DMatrixRMaj(rows.size(), 1);
-    int i = 0;
-    for (Row r : rows) {
-      double sw = Math.sqrt(r.weight);
-      for (int c = 0; c < m; c++) {
-        a.set(i, c, sw * r.a[cols[c]]);
-      }
-      b.set(i, 0, sw * r.y);
-      i++;
-    }
-    LinearSolverDense<DMatrixRMaj> solver = LinearSolverFactory_DDRM.leastSquares(rows.size(), m);
-    assertTrue(solver.setA(a), "reference QR");
-    DMatrixRMaj sol = new DMatrixRMaj(m, 1);
-    solver.solve(b, sol);
-    for (int c = 0; c < m; c++) {
-      out[cols[c]] = sol.get(c, 0);
-    }
-    double rss = 0.0;
-    i = 0;
-    for (Row r : rows) {
-      double fit = 0.0;
-      for (int c = 0; c < m; c++) {
-        fit += r.a[cols[c]] * sol.get(c, 0);
-      }
-      double e = r.y - fit;
-      rss += r.weight * e * e;
-      i++;
-    }
-    return rss;
   }
 
   /** A row that was never learned (its removal would leave the information indefinite) is refused, and the state is unchanged. */

@@ -2,13 +2,7 @@ package dev.runnel.core.model;
 
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
-import java.util.ArrayList;
-import java.util.Arrays;
-import java.util.List;
 import java.util.Random;
-import org.ejml.data.DMatrixRMaj;
-import org.ejml.dense.row.factory.LinearSolverFactory_DDRM;
-import org.ejml.interfaces.linsol.LinearSolverDense;
 import org.junit.jupiter.api.Tag;
 import org.junit.jupiter.params.ParameterizedTest;
 import org.junit.jupiter.params.provider.ValueSource;
@@ -18,7 +12,7 @@ import org.junit.jupiter.params.provider.ValueSource;
  * the model's weights equal the exponentially weighted ridge solution solved from scratch by
  * EJML's QR least squares (EJML as reference), over every row ever added.
  */
-class ReferenceSolutionTest {
+class ReferenceSolutionTest extends LeastSquaresReference {
 
   private static final double LAMBDA = 0.99;
   private static final double PRIOR_VARIANCE = 10.0;
@@ -30,34 +24,6 @@ class ReferenceSolutionTest {
    */
   private static final double DROP_WEIGHT = 1e-13;
 
-  /** One row of the reference problem, over column ids (every column ever seen). */
-  static final class Row {
-    double[] a;
-    final double y;
-    double weight = 1.0;
-
-    Row(int ids, double y) {
-      this.a = new double[ids];
-      this.y = y;
-    }
-  }
-
-  final List<Row> rows = new ArrayList<>();
-  final List<Integer> live = new ArrayList<>(); // live index -> column id
-  int ids;
-
-  Row newRow(double y) {
-    Row r = new Row(Math.max(ids, 1), y);
-    rows.add(r);
-    return r;
-  }
-
-  double[] entries(Row r) {
-    if (r.a.length < ids) {
-      r.a = Arrays.copyOf(r.a, ids);
-    }
-    return r.a;
-  }
 
   // "slow" (6 s): mutation runs leave it out; RebaseLayoutReferenceTest checks the same in a short stream
   @Tag("slow")
@@ -71,14 +37,7 @@ class ReferenceSolutionTest {
     for (int j = 0; j < p0; j++) {
       live.add(ids++);
     }
-    for (int j = 0; j < p0; j++) { // the constructor's prior rows: 1/priorVariance each (documented)
-      Row r = newRow(0.0);
-      entries(r)[j] = Math.sqrt(1.0 / PRIOR_VARIANCE);
-    }
-    model.observePriorRows((column, information) -> {
-      Row r = newRow(0.0);
-      entries(r)[live.get(column)] = Math.sqrt(information);
-    });
+    priorRows(model, p0, PRIOR_VARIANCE);
     double[] x = new double[16];
     double[] theta = new double[16];
     int adds = 0;
@@ -115,13 +74,14 @@ class ReferenceSolutionTest {
         r.weight *= LAMBDA;
       }
       rows.removeIf(r -> r.weight < DROP_WEIGHT);
-      Row data = newRow(y);
+      Row data = newRow(y, true);
       double[] a = entries(data);
       for (int j = 0; j < p; j++) {
         a[live.get(j)] = x[j];
       }
       assertTrue(model.update(x, y, LAMBDA));
-      double[] ref = referenceSolution();
+      double[] ref = new double[ids];
+      referenceSolution(ref);
       model.weights(theta);
       double norm = 0.0;
       double diff = 0.0;
@@ -150,43 +110,4 @@ class ReferenceSolutionTest {
       double[] a = entries(r);
       a[idK] = (a[idK] - shift * a[id0]) / scale;
     }
-  }
-
-  /** Solves min sum w (y - a^T theta)^2 by EJML's Householder QR over the columns that any row touches. */
-  double[] referenceSolution() {
-    boolean[] used = new boolean[ids];
-    for (Row r : rows) {
-      double[] a = entries(r);
-      for (int j = 0; j < ids; j++) {
-        used[j] |= a[j] != 0.0;
-      }
-    }
-    int[] cols = new int[ids];
-    int m = 0;
-    for (int j = 0; j < ids; j++) {
-      if (used[j]) {
-        cols[m++] = j;
-      }
-    }
-    DMatrixRMaj a = new DMatrixRMaj(rows.size(), m);
-    DMatrixRMaj b = new DMatrixRMaj(rows.size(), 1);
-    int i = 0;
-    for (Row r : rows) {
-      double sw = Math.sqrt(r.weight);
-      for (int c = 0; c < m; c++) {
-        a.set(i, c, sw * r.a[cols[c]]);
-      }
-      b.set(i, 0, sw * r.y);
-      i++;
-    }
-    LinearSolverDense<DMatrixRMaj> solver = LinearSolverFactory_DDRM.leastSquares(rows.size(), m);
-    assertTrue(solver.setA(a), "reference QR");
-    DMatrixRMaj sol = new DMatrixRMaj(m, 1);
-    solver.solve(b, sol);
-    double[] out = new double[ids];
-    for (int c = 0; c < m; c++) {
-      out[cols[c]] = sol.get(c, 0);
-    }
-    return out;
-  }
-}
+  }}
