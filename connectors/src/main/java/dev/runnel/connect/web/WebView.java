@@ -264,8 +264,28 @@ public final class WebView implements AutoCloseable {
 
   private void api(HttpExchange x) throws IOException {
     if (!admitted(x)) return;
-    byte[] body = JSON.writeValueAsBytes(state.stateJson());
+    byte[] body = JSON.writeValueAsBytes(state.stateJson(pickedColumns(x.getRequestURI().getRawQuery())));
     send(x, 200, "application/json", body);
+  }
+
+  /** The column names of {@code columns=a,b} in a query string (URL-encoded, comma-separated); empty when absent. */
+  static List<String> pickedColumns(String rawQuery) {
+    if (rawQuery == null) {
+      return List.of();
+    }
+    for (String part : rawQuery.split("&")) {
+      if (part.startsWith("columns=")) {
+        List<String> out = new java.util.ArrayList<>();
+        for (String c : part.substring("columns=".length()).split(",")) {
+          String name = java.net.URLDecoder.decode(c, StandardCharsets.UTF_8);
+          if (!name.isEmpty() && out.size() < LiveState.MAX_PICKED) {
+            out.add(name);
+          }
+        }
+        return out;
+      }
+    }
+    return List.of();
   }
 
   /**
