@@ -110,6 +110,7 @@ class LiveViewBrowserTest {
           HttpResponse.BodyHandlers.ofString());
       assertEquals(200, r.statusCode());
       JsonNode s = JSON.readTree(r.body());
+      Files.writeString(Path.of("target", "live-state.json"), r.body()); // kept beside the screenshot, to look at
       assertEquals(name, s.path("pipeline").asText());
       assertTrue(s.path("predictions").size() > 100, "predictions kept: " + s.path("predictions").size());
       int shown = s.path("shown_columns").size();
