@@ -23,7 +23,8 @@ import java.util.concurrent.TimeUnit;
 /**
  * The live web view: the JDK's HTTP server with two routes, {@code /} (one static HTML page with
  * inline CSS and JavaScript that draws SVG charts) and {@code /api/state} (the JSON document of
- * {@link LiveState#stateJson()}). Read only; bound to 127.0.0.1 unless configured otherwise.
+ * {@link LiveState#stateJson()}; {@code ?columns=a,b} asks for those columns' coefficient paths, see
+ * {@link LiveState#stateJson(List)}). Read only; bound to 127.0.0.1 unless configured otherwise.
  *
  * <p>Hardening: a request is answered only when its {@code Host} header names a loopback name
  * ({@code localhost}, {@code 127.0.0.1}, {@code ::1}), the bound address, or a name listed in

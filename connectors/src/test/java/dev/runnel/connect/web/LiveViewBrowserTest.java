@@ -47,7 +47,11 @@ import org.junit.jupiter.api.extension.ExtendWith;
  * days) runs through the exactly-once runner; the view follows the output topics; the JSON
  * endpoint and the {@code drift} table are checked; then the page is loaded in a real headless
  * chromium, which must draw one coefficient path per shown weight and points in the
- * predicted-vs-actual chart. A screenshot is saved as {@code target/live-view.png}.
+ * predicted-vs-actual chart; the values drawn are read back through each chart's stated domain and checked
+ * against {@code /api/state}: the active and past alarms, the default weight charts (fitted y-axis, round
+ * ticks, labelled axes), the hour-of-day and day-of-week effect curves, and, loaded again with
+ * {@code #columns=...&range=2d}, a picked column and the last two days. A screenshot is saved as
+ * {@code target/live-view.png}, the state as {@code target/live-state.json}.
  */
 @ExtendWith(EmbeddedKafkaExtension.class)
 class LiveViewBrowserTest {
