@@ -108,6 +108,21 @@ class LiveViewBrowserTest {
             && state.stateJson().path("throughput").path("snapshots_read").asLong() >= expectedSnapshots - 1;
       });
 
+      // the view has read everything: two reads a second apart count the same predictions and snapshots (the page,
+      // loaded later, must see the same state as the document checked here)
+      KafkaTestSupport.await("the view stopped reading new records", Duration.ofSeconds(60), () -> {
+        JsonNode before = state.stateJson().path("throughput");
+        try {
+          Thread.sleep(1000);
+        } catch (InterruptedException e) {
+          Thread.currentThread().interrupt();
+          return false;
+        }
+        JsonNode after = state.stateJson().path("throughput");
+        return before.path("predictions_read").equals(after.path("predictions_read"))
+            && before.path("snapshots_read").equals(after.path("snapshots_read"));
+      });
+
       // the JSON endpoint over HTTP
       HttpClient http = HttpClient.newHttpClient();
       HttpResponse<String> r = http.send(HttpRequest.newBuilder(URI.create(web.url() + "api/state")).build(),
