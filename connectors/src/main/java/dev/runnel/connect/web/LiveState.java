@@ -46,6 +46,8 @@ public final class LiveState implements AutoCloseable {
   public static final int MAX_ALARMS = 200;
   /** Weights drawn in the coefficient chart. */
   public static final int SHOWN_WEIGHTS = 6;
+  /** Columns the page's picker may ask for at once. */
+  public static final int MAX_PICKED = 12;
   /** Entities whose forecasts ahead are kept: the most recently updated. */
   public static final int MAX_AHEAD_ENTITIES = 50;
   /** Latest actuals kept per entity (by target time): a week of hours. */
@@ -254,8 +256,19 @@ public final class LiveState implements AutoCloseable {
     sampleRecords = n;
   }
 
-  /** The document served at {@code /api/state} (see docs/formats.md). */
-  public synchronized ObjectNode stateJson() {
+  /** The document served at {@code /api/state} (see docs/formats.md), with the default coefficient paths. */
+  public ObjectNode stateJson() {
+    return stateJson(List.of());
+  }
+
+  /**
+   * The document served at {@code /api/state?columns=a,b}: the coefficient paths of the named columns (the page's
+   * picker; names not among the latest snapshot's columns are left out, at most {@link #MAX_PICKED} are kept) in
+   * place of the default {@link #SHOWN_WEIGHTS}; with none named, the default ones.
+   *
+   * @param picked column names asked for; may be empty
+   */
+  public synchronized ObjectNode stateJson(List<String> picked) {
     ObjectNode root = F.objectNode();
     root.put("format", 2);
     root.put("pipeline", pipeline);
@@ -303,8 +316,11 @@ public final class LiveState implements AutoCloseable {
     List<String> shown = shownColumns();
     ArrayNode sh = root.putArray("shown_columns");
     shown.forEach(sh::add);
+    List<String> drawn = pickedColumns(picked);
+    ArrayNode pk = root.putArray("picked_columns");
+    drawn.forEach(pk::add);
     ArrayNode paths = root.putArray("coefficient_paths");
-    for (String name : shown) {
+    for (String name : drawn.isEmpty() ? shown : drawn) {
       ObjectNode path = paths.addObject();
       path.put("column", name);
       ArrayNode pts = path.putArray("points");
@@ -383,6 +399,22 @@ public final class LiveState implements AutoCloseable {
       }
       if (!out.contains(name)) {
         out.add(name);
+      }
+    }
+    return out;
+  }
+
+  /** The asked-for columns that the latest snapshot has, in the order asked, each once, at most {@link #MAX_PICKED}. */
+  private List<String> pickedColumns(List<String> picked) {
+    List<String> out = new ArrayList<>();
+    if (latest == null || picked.isEmpty()) {
+      return out;
+    }
+    java.util.Set<String> known = new java.util.HashSet<>();
+    latest.path("columns").forEach(c -> known.add(c.path("name").asText()));
+    for (String p : picked) {
+      if (known.contains(p) && !out.contains(p) && out.size() < MAX_PICKED) {
+        out.add(p);
       }
     }
     return out;

@@ -23,7 +23,8 @@ import java.util.concurrent.TimeUnit;
 /**
  * The live web view: the JDK's HTTP server with two routes, {@code /} (one static HTML page with
  * inline CSS and JavaScript that draws SVG charts) and {@code /api/state} (the JSON document of
- * {@link LiveState#stateJson()}). Read only; bound to 127.0.0.1 unless configured otherwise.
+ * {@link LiveState#stateJson()}; {@code ?columns=a,b} asks for those columns' coefficient paths, see
+ * {@link LiveState#stateJson(List)}). Read only; bound to 127.0.0.1 unless configured otherwise.
  *
  * <p>Hardening: a request is answered only when its {@code Host} header names a loopback name
  * ({@code localhost}, {@code 127.0.0.1}, {@code ::1}), the bound address, or a name listed in
@@ -264,8 +265,28 @@ public final class WebView implements AutoCloseable {
 
   private void api(HttpExchange x) throws IOException {
     if (!admitted(x)) return;
-    byte[] body = JSON.writeValueAsBytes(state.stateJson());
+    byte[] body = JSON.writeValueAsBytes(state.stateJson(pickedColumns(x.getRequestURI().getRawQuery())));
     send(x, 200, "application/json", body);
+  }
+
+  /** The column names of {@code columns=a,b} in a query string (URL-encoded, comma-separated); empty when absent. */
+  static List<String> pickedColumns(String rawQuery) {
+    if (rawQuery == null) {
+      return List.of();
+    }
+    for (String part : rawQuery.split("&")) {
+      if (part.startsWith("columns=")) {
+        List<String> out = new java.util.ArrayList<>();
+        for (String c : part.substring("columns=".length()).split(",")) {
+          String name = java.net.URLDecoder.decode(c, StandardCharsets.UTF_8);
+          if (!name.isEmpty() && out.size() < LiveState.MAX_PICKED) {
+            out.add(name);
+          }
+        }
+        return out;
+      }
+    }
+    return List.of();
   }
 
   /**
