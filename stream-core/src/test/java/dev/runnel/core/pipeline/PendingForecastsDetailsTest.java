@@ -107,4 +107,43 @@ class PendingForecastsDetailsTest {
     assertEquals(20, target.takenOffset(0));
     assertEquals(0, target.keySlotsInUse());
   }
+
+  private static byte[] checkpoint(PendingForecasts store) throws IOException {
+    ByteArrayOutputStream bytes = new ByteArrayOutputStream();
+    store.writeTo(new DataOutputStream(bytes));
+    return bytes.toByteArray();
+  }
+
+  /**
+   * A checkpoint holding exactly the count bound's number of forecasts, none, or one with an empty
+   * entity text reads back (the refusal is for more than the bound, or a negative count or length).
+   */
+  @Test
+  void checkpointsAtTheirLimitsReadBack() throws IOException {
+    PendingForecasts full = new PendingForecasts(3, 1_000_000);
+    for (int i = 0; i < 3; i++) {
+      full.add(HUB, HUB.length, 9_000 + i, i, i, i - 1, i + 1, 0, i, 0);
+    }
+    PendingForecasts back = new PendingForecasts(3, 1_000_000);
+    back.readFrom(new DataInputStream(new ByteArrayInputStream(checkpoint(full))));
+    assertEquals(3, back.size(), "exactly max_pending forecasts: accepted");
+    assertEquals(1, back.take(HUB, HUB.length, 9_002, 9_002));
+    assertEquals(2, back.takenOffset(0));
+    PendingForecasts smaller = new PendingForecasts(2, 1_000_000);
+    IOException e = org.junit.jupiter.api.Assertions.assertThrows(IOException.class,
+        () -> smaller.readFrom(new DataInputStream(new ByteArrayInputStream(checkpoint(full)))));
+    assertTrue(e.getMessage().contains("3 pending") && e.getMessage().contains("max_pending (2)"), e.getMessage());
+
+    PendingForecasts empty = new PendingForecasts(3, 1_000_000);
+    PendingForecasts emptyBack = new PendingForecasts(3, 1_000_000);
+    emptyBack.readFrom(new DataInputStream(new ByteArrayInputStream(checkpoint(empty))));
+    assertEquals(0, emptyBack.size(), "no forecast pending: accepted");
+
+    PendingForecasts blank = new PendingForecasts(3, 1_000_000);
+    blank.add(new char[0], 0, 9_000, 1, 5.0, 4.0, 6.0, 0, 3, 0);
+    PendingForecasts blankBack = new PendingForecasts(3, 1_000_000);
+    blankBack.readFrom(new DataInputStream(new ByteArrayInputStream(checkpoint(blank))));
+    assertEquals(1, blankBack.take(new char[0], 0, 9_000, 9_000), "an empty entity text: accepted");
+    assertEquals(5.0, blankBack.takenForecast(0));
+  }
 }
