@@ -148,7 +148,7 @@ public final class LivePipeline implements AutoCloseable {
         TerminalText.safe(settings.inputTopic()), servers, TerminalText.safe(settings.groupId()));
     if (options.web() && config.web().enabled()) {
       live = new LiveState(config.name(), servers, config.kafka().clientProperties(), runner::counters,
-          config.input().forecast().enabled() ? config.input().forecast().entityFields() : java.util.List.of()).start();
+          LiveState.seriesFields(config)).start();
       web = WebView.start(config.web().bind(), options.webPort() != null ? options.webPort() : config.web().port(),
           options.webPortFallback(), config.web().allowedHosts(), live, access, service, metrics);
       err.println(options.prefix() + ": live view at " + web.url());

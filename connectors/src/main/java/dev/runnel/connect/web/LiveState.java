@@ -28,8 +28,9 @@ import org.apache.kafka.common.serialization.ByteArrayDeserializer;
  * What the web view shows, kept up to date by a background thread that follows the pipeline's own
  * output topics ({@code <name>.predictions} and {@code <name>.coefficients}) as a read_committed
  * reader without a consumer group, so it sees exactly what downstream consumers see and never
- * touches the pipeline's offsets. Bounded: the last {@link #MAX_PREDICTIONS} scored predictions,
- * the last {@link #MAX_SNAPSHOTS} snapshots (weights only) and the latest full snapshot; with
+ * touches the pipeline's offsets. Bounded: the last {@link #MAX_PREDICTIONS} scored predictions of
+ * all series, and per series (an entity: {@link #seriesFields}, else the Kafka key; at most {@link #MAX_SERIES},
+ * the most recently updated) its last {@link #MAX_SERIES_PREDICTIONS}; the last {@link #MAX_SNAPSHOTS} snapshots (weights only) and the latest full snapshot; with
  * {@code input.forecast}, per entity (at most {@link #MAX_AHEAD_ENTITIES}, the most recently updated),
  * its latest {@link #MAX_AHEAD_ACTUALS} actuals and the nearest {@link #MAX_AHEAD_FORECASTS} forecasts
  * ahead of its latest actual ({@link ForecastsAhead}).
@@ -38,8 +39,12 @@ import org.apache.kafka.common.serialization.ByteArrayDeserializer;
  */
 public final class LiveState implements AutoCloseable {
 
-  /** Predictions kept for the predicted-vs-actual chart. */
+  /** Predictions of all series kept for the predicted-vs-actual chart's "all series" choice. */
   public static final int MAX_PREDICTIONS = 4000;
+  /** Series (entities, or Kafka keys) kept for the predicted-vs-actual chart: the most recently updated. */
+  public static final int MAX_SERIES = 50;
+  /** Scored predictions kept per series: the latest read. */
+  public static final int MAX_SERIES_PREDICTIONS = 1000;
   /** Snapshots kept for the coefficient paths. */
   public static final int MAX_SNAPSHOTS = 500;
   /** Alarms kept in the alarm log. */
@@ -69,6 +74,11 @@ public final class LiveState implements AutoCloseable {
   // guarded by this
   private final ArrayDeque<double[]> predictions = new ArrayDeque<>();
   private final ArrayDeque<String> predictionKeys = new ArrayDeque<>();
+  // access order: the series updated longest ago comes first
+  private final LinkedHashMap<String, ArrayDeque<double[]>> series = new LinkedHashMap<>(64, 0.75f, true);
+  private long seriesDropped;
+  private long namedByKey;
+  private boolean targetTimes;
   private final ArrayDeque<JsonNode> snapshots = new ArrayDeque<>();
   private final LinkedHashMap<String, JsonNode> alarmLog = new LinkedHashMap<>();
   private final ForecastsAhead ahead = new ForecastsAhead();
@@ -91,9 +101,9 @@ public final class LiveState implements AutoCloseable {
   }
 
   /**
-   * As {@link #LiveState(String, String, Map, Supplier)}, naming the entity of a forecast by these
-   * fields of the prediction's {@code fields} ({@code input.forecast.entity_fields}); without them, or
-   * when a prediction does not echo them, by its Kafka key.
+   * As {@link #LiveState(String, String, Map, Supplier)}, naming the series of a prediction (the entity of a
+   * forecast, the series the predicted-vs-actual chart draws) by these fields of the prediction's {@code fields}
+   * ({@link #seriesFields}); without them, or when a prediction does not echo them, by its Kafka key.
    */
   public LiveState(String pipeline, String bootstrap, Map<String, String> clientProperties,
                    Supplier<RunnerCounters> counters, List<String> entityFields) {
@@ -105,6 +115,25 @@ public final class LiveState implements AutoCloseable {
     p.put(ConsumerConfig.MAX_POLL_RECORDS_CONFIG, "5000");
     this.thread = new Thread(() -> follow(p), "runnel-web-reader");
     this.thread.setDaemon(true);
+  }
+
+  /**
+   * The fields that name a series on the page: {@code input.forecast.entity_fields} when forecasting, else the
+   * first text field of {@code outputs.echo_fields}; none (the Kafka key names it) without either. A field is
+   * only read from a prediction's {@code fields}, so it names the series only when it is echoed.
+   */
+  public static List<String> seriesFields(dev.runnel.core.config.PipelineConfig config) {
+    if (config.input().forecast().enabled()) {
+      return config.input().forecast().entityFields();
+    }
+    dev.runnel.core.record.RecordSchema schema = config.input().schema();
+    for (String f : config.outputs().echoFields()) {
+      int slot = schema.slot(f);
+      if (slot >= 0 && schema.type(slot) == dev.runnel.core.record.FieldType.TEXT) {
+        return List.of(f);
+      }
+    }
+    return List.of();
   }
 
   /** Starts following the topics. */
@@ -167,30 +196,50 @@ public final class LiveState implements AutoCloseable {
     }
   }
 
-  /** Adds one prediction record with its Kafka key, the series it is drawn in (package-private for tests). */
+  /** Adds one prediction record with its Kafka key (package-private for tests). */
   synchronized void addPrediction(JsonNode n, String key) {
     predictionsSeen++;
+    String name = entityOf(n, key);
     if (n.has("target_time")) {
-      ahead.take(n, entityOf(n, key));
+      ahead.take(n, name);
     }
     if (!"scored".equals(n.path("status").asText())) {
       return;
     }
+    // drawn at the hour it is about when it has one (a forecasting pipeline's actual), else at its event time
     long t;
     try {
-      t = Instant.parse(n.path("event_time").asText()).toEpochMilli();
+      JsonNode target = n.get("target_time");
+      t = Instant.parse((target != null && target.isTextual() ? target : n.path("event_time")).asText()).toEpochMilli();
     } catch (RuntimeException e) {
       return;
     }
-    predictions.addLast(new double[] {t, num(n, "predicted"), num(n, "low"), num(n, "high"), num(n, "actual")});
-    predictionKeys.addLast(key);
+    targetTimes |= n.has("target_time");
+    double[] row = {t, num(n, "predicted"), num(n, "low"), num(n, "high"), num(n, "actual")};
+    predictions.addLast(row);
+    predictionKeys.addLast(name);
     while (predictions.size() > MAX_PREDICTIONS) {
       predictions.removeFirst();
       predictionKeys.removeFirst();
     }
+    ArrayDeque<double[]> rows = series.get(name);
+    if (rows == null) {
+      rows = new ArrayDeque<>();
+      series.put(name, rows);
+      if (series.size() > MAX_SERIES) {
+        java.util.Iterator<String> it = series.keySet().iterator();
+        it.next();
+        it.remove();
+        seriesDropped++;
+      }
+    }
+    rows.addLast(row);
+    if (rows.size() > MAX_SERIES_PREDICTIONS) {
+      rows.removeFirst();
+    }
   }
 
-  /** The entity's name: {@code field=value} per entity field (joined by commas), else the Kafka key. */
+  /** The series' name: {@code field=value} per series field (joined by commas), else the Kafka key. */
   private String entityOf(JsonNode n, String key) {
     if (entityFields.isEmpty()) {
       return key;
@@ -200,6 +249,7 @@ public final class LiveState implements AutoCloseable {
     for (String f : entityFields) {
       JsonNode v = fields.get(f);
       if (v == null || !v.isTextual()) {
+        namedByKey++;
         return key;
       }
       sb.append(sb.length() == 0 ? "" : ",").append(f).append('=').append(v.asText());
@@ -258,7 +308,7 @@ public final class LiveState implements AutoCloseable {
 
   /** The document served at {@code /api/state} (see docs/formats.md), with the default coefficient paths. */
   public ObjectNode stateJson() {
-    return stateJson(List.of());
+    return stateJson(List.of(), null, false);
   }
 
   /**
@@ -268,7 +318,22 @@ public final class LiveState implements AutoCloseable {
    *
    * @param picked column names asked for; may be empty
    */
-  public synchronized ObjectNode stateJson(List<String> picked) {
+  public ObjectNode stateJson(List<String> picked) {
+    return stateJson(picked, null, false);
+  }
+
+  /**
+   * The document served at {@code /api/state?columns=a,b&series=s} (or {@code &all_series=1}): {@code predictions}
+   * holds the scored predictions of the series named (the page's series selector), or the last
+   * {@link #MAX_PREDICTIONS} of all series; with neither, or a series no longer kept, of the default one: all series
+   * once more than {@link #MAX_SERIES} were seen (series were dropped), else the one with the most predictions kept
+   * (the first by name of those).
+   *
+   * @param picked column names asked for; may be empty
+   * @param seriesName the series asked for, or null for the default
+   * @param allSeries true to ask for the predictions of all series
+   */
+  public synchronized ObjectNode stateJson(List<String> picked, String seriesName, boolean allSeries) {
     ObjectNode root = F.objectNode();
     root.put("format", 2);
     root.put("pipeline", pipeline);
@@ -299,20 +364,7 @@ public final class LiveState implements AutoCloseable {
         tp.putNull("last_commit");
       }
     }
-    ArrayNode preds = root.putArray("predictions");
-    java.util.Iterator<String> keys = predictionKeys.iterator();
-    for (double[] p : predictions) {
-      ArrayNode a = preds.addArray();
-      a.add(keys.next());
-      a.add(Instant.ofEpochMilli((long) p[0]).toString());
-      for (int i = 1; i < p.length; i++) {
-        if (Double.isNaN(p[i])) {
-          a.addNull();
-        } else {
-          a.add(p[i]);
-        }
-      }
-    }
+    writeSeries(root, seriesName, allSeries);
     List<String> shown = shownColumns();
     ArrayNode sh = root.putArray("shown_columns");
     shown.forEach(sh::add);
@@ -371,6 +423,63 @@ public final class LiveState implements AutoCloseable {
       log.add(entries.get(i));
     }
     return root;
+  }
+
+  /** The {@code series} object and the {@code predictions} of the series chosen (docs/formats.md). */
+  private void writeSeries(ObjectNode root, String asked, boolean allSeries) {
+    java.util.TreeMap<String, ArrayDeque<double[]>> byName = new java.util.TreeMap<>(series);
+    String chosen = asked != null && byName.containsKey(asked) ? asked : null;
+    if (chosen == null && !allSeries && seriesDropped == 0) {
+      for (Map.Entry<String, ArrayDeque<double[]>> e : byName.entrySet()) {
+        if (chosen == null || e.getValue().size() > byName.get(chosen).size()) {
+          chosen = e.getKey();
+        }
+      }
+    }
+    boolean all = chosen == null;
+    ObjectNode so = root.putObject("series");
+    ArrayNode by = so.putArray("by");
+    entityFields.forEach(by::add);
+    so.put("time", targetTimes ? "target_time" : "event_time");
+    so.put("all", all);
+    if (all) {
+      so.putNull("chosen");
+    } else {
+      so.put("chosen", chosen);
+    }
+    so.put("max_series", MAX_SERIES);
+    so.put("max_per_series", MAX_SERIES_PREDICTIONS);
+    so.put("max_all", MAX_PREDICTIONS);
+    so.put("dropped", seriesDropped);
+    so.put("named_by_key", namedByKey);
+    ArrayNode names = so.putArray("names");
+    for (Map.Entry<String, ArrayDeque<double[]>> e : byName.entrySet()) {
+      ArrayNode a = names.addArray();
+      a.add(e.getKey());
+      a.add(e.getValue().size());
+    }
+    // rows in time order (late actuals arrive after later hours); a stable sort keeps arrival order within a time
+    List<double[]> rows = new ArrayList<>(all ? predictions : byName.get(chosen));
+    List<String> keys = all ? new ArrayList<>(predictionKeys) : null;
+    Integer[] order = new Integer[rows.size()];
+    for (int i = 0; i < order.length; i++) {
+      order[i] = i;
+    }
+    java.util.Arrays.sort(order, Comparator.comparingDouble(i -> rows.get(i)[0]));
+    ArrayNode preds = root.putArray("predictions");
+    for (int i : order) {
+      double[] p = rows.get(i);
+      ArrayNode a = preds.addArray();
+      a.add(all ? keys.get(i) : chosen);
+      a.add(Instant.ofEpochMilli((long) p[0]).toString());
+      for (int j = 1; j < p.length; j++) {
+        if (Double.isNaN(p[j])) {
+          a.addNull();
+        } else {
+          a.add(p[j]);
+        }
+      }
+    }
   }
 
   /**

@@ -23,8 +23,9 @@ import java.util.concurrent.TimeUnit;
 /**
  * The live web view: the JDK's HTTP server with two routes, {@code /} (one static HTML page with
  * inline CSS and JavaScript that draws SVG charts) and {@code /api/state} (the JSON document of
- * {@link LiveState#stateJson()}; {@code ?columns=a,b} asks for those columns' coefficient paths, see
- * {@link LiveState#stateJson(List)}). Read only; bound to 127.0.0.1 unless configured otherwise.
+ * {@link LiveState#stateJson()}; {@code ?columns=a,b} asks for those columns' coefficient paths,
+ * {@code series=s} or {@code all_series=1} for the predictions of one series or of all, see
+ * {@link LiveState#stateJson(List, String, boolean)}). Read only; bound to 127.0.0.1 unless configured otherwise.
  *
  * <p>Hardening: a request is answered only when its {@code Host} header names a loopback name
  * ({@code localhost}, {@code 127.0.0.1}, {@code ::1}), the bound address, or a name listed in
@@ -265,8 +266,22 @@ public final class WebView implements AutoCloseable {
 
   private void api(HttpExchange x) throws IOException {
     if (!admitted(x)) return;
-    byte[] body = JSON.writeValueAsBytes(state.stateJson(pickedColumns(x.getRequestURI().getRawQuery())));
+    String q = x.getRequestURI().getRawQuery();
+    byte[] body = JSON.writeValueAsBytes(state.stateJson(pickedColumns(q), param(q, "series"), "1".equals(param(q, "all_series"))));
     send(x, 200, "application/json", body);
+  }
+
+  /** The URL-decoded value of {@code name=value} in a query string; null when absent. */
+  static String param(String rawQuery, String name) {
+    if (rawQuery == null) {
+      return null;
+    }
+    for (String part : rawQuery.split("&")) {
+      if (part.startsWith(name + "=")) {
+        return java.net.URLDecoder.decode(part.substring(name.length() + 1), StandardCharsets.UTF_8);
+      }
+    }
+    return null;
   }
 
   /** The column names of {@code columns=a,b} in a query string (URL-encoded, comma-separated); empty when absent. */
