@@ -29,7 +29,6 @@ import java.nio.file.Files;
 import java.nio.file.Path;
 import java.time.Duration;
 import java.util.ArrayList;
-import java.util.Iterator;
 import java.util.List;
 import java.util.Map;
 import java.util.concurrent.TimeUnit;
@@ -78,53 +77,66 @@ class LiveViewBrowserTest {
     String topic = name + ".sessions";
     KafkaTestSupport.createTopic(bs, topic, 1);
     QuillmarshGenerator gen = new QuillmarshGenerator(Settings.defaults().withDays(12).withSeed(20260105L));
+    List<GeneratedRecord> records = new ArrayList<>();
+    gen.recordIterator().forEachRemaining(records::add);
     List<String> lines = new ArrayList<>();
-    Map<String, Object> pc = KafkaTestSupport.producerConfig(bs);
-    try (KafkaProducer<byte[], byte[]> producer = new KafkaProducer<>(pc, new ByteArraySerializer(), new ByteArraySerializer())) {
-      Iterator<GeneratedRecord> it = gen.recordIterator();
-      while (it.hasNext()) {
-        GeneratedRecord g = it.next();
-        lines.add(g.line());
-        // keyed by hub, as the demo feed is: the page draws one series per key
-        producer.send(new ProducerRecord<>(topic, g.hubId().getBytes(StandardCharsets.UTF_8),
-            g.line().getBytes(StandardCharsets.UTF_8)));
-      }
-      producer.flush();
+    records.forEach(g -> lines.add(g.line()));
+    // first the feed up to its last day-ahead requests (so forecasts are ahead of every hub's last actual), then the rest
+    int lastDayAhead = records.stream().filter(g -> g.kind() == GeneratedRecord.Kind.DAY_AHEAD_REQUEST)
+        .mapToInt(GeneratedRecord::issueHour).max().orElseThrow();
+    int firstPart = 0;
+    while (firstPart < records.size() && records.get(firstPart).issueHour() <= lastDayAhead) {
+      firstPart++;
     }
+    assertTrue(firstPart > lines.size() / 2 && firstPart < lines.size(), firstPart + " of " + lines.size());
+    Map<String, Object> pc = KafkaTestSupport.producerConfig(bs);
     PipelineConfig cfg = config(name, topic);
     RunnerSettings rs = RunnerSettings.of(name, topic, bs).withCommitInterval(300, 2000);
     ExactlyOnceRunner runner = new ExactlyOnceRunner(rs, PipelineProcessor.factory(cfg));
     Thread work = new Thread(runner, "liveview-runner");
     work.setDaemon(true);
-    work.start();
-    try (LiveState state = new LiveState(name, bs, Map.of(), runner::counters).start();
+    // no Kafka keys: the page names one series per hub from the echoed entity field (outputs.echo_fields: [hub])
+    List<String> seriesFields = LiveState.seriesFields(cfg);
+    assertEquals(List.of("hub"), seriesFields);
+    try (KafkaProducer<byte[], byte[]> producer = new KafkaProducer<>(pc, new ByteArraySerializer(), new ByteArraySerializer());
+         LiveState state = new LiveState(name, bs, Map.of(), runner::counters, seriesFields).start();
          WebView web = WebView.start("127.0.0.1", 0, false, state)) {
-      long expectedSnapshots = 12 * 4 - 1; // a snapshot every 6 h of event time over 12 days (the first period opens the clock)
-      KafkaTestSupport.await("the view read the run's snapshots", Duration.ofSeconds(180), () -> {
-        if (runner.failure() != null) {
-          throw new AssertionError(runner.failure());
-        }
-        return runner.counters().recordsIn() >= lines.size()
-            && state.stateJson().path("throughput").path("snapshots_read").asLong() >= expectedSnapshots - 1;
-      });
+      send(producer, topic, lines.subList(0, firstPart));
+      work.start();
+      awaitRead(runner, state, firstPart, 4L * lastDayAhead / 24 - 3);
+      HttpClient http = HttpClient.newHttpClient();
+      JsonNode early = JSON.readTree(http.send(HttpRequest.newBuilder(URI.create(web.url() + "api/state")).build(),
+          HttpResponse.BodyHandlers.ofString()).body());
+      String chosen = checkSeries(early, records.subList(0, firstPart));
+      JsonNode earlyAhead = aheadOf(early, chosen);
+      assertTrue(earlyAhead.path("forecasts").size() >= 24, "a day ahead of " + chosen + ": " + earlyAhead.path("forecasts").size());
+      Path chromium = chromium();
+      Path profile = Files.createTempDirectory("runnel-chromium");
+      List<String> common = List.of(chromium == null ? "chromium" : chromium.toString(), "--headless", "--no-sandbox",
+          "--disable-gpu", "--disable-quic", "--no-first-run", "--disable-background-networking", "--disable-component-update",
+          "--disable-sync", "--disable-dev-shm-usage", "--user-data-dir=" + profile, "--virtual-time-budget=15000",
+          "--window-size=1280,1400");
+      if (chromium != null) {
+        List<String> dump = new ArrayList<>(common);
+        dump.add("--dump-dom");
+        dump.add(web.url());
+        checkSeriesAndAheadDrawn(run(dump), early, chosen);
+        // the screenshot in docs/drift.md: the page while forecasts are ahead
+        Path shot = Path.of("target", "live-view.png").toAbsolutePath();
+        Files.deleteIfExists(shot);
+        List<String> pic = new ArrayList<>(common);
+        pic.add("--screenshot=" + shot);
+        pic.add(web.url());
+        run(pic);
+        assertTrue(Files.size(shot) > 10_000, "screenshot written: " + shot);
+      }
 
-      // the view has read everything: two reads a second apart count the same predictions and snapshots (the page,
-      // loaded later, must see the same state as the document checked here)
-      KafkaTestSupport.await("the view stopped reading new records", Duration.ofSeconds(60), () -> {
-        JsonNode before = state.stateJson().path("throughput");
-        try {
-          Thread.sleep(1000);
-        } catch (InterruptedException e) {
-          Thread.currentThread().interrupt();
-          return false;
-        }
-        JsonNode after = state.stateJson().path("throughput");
-        return before.path("predictions_read").equals(after.path("predictions_read"))
-            && before.path("snapshots_read").equals(after.path("snapshots_read"));
-      });
+      // the rest of the feed: its actuals settle the hours that were ahead
+      send(producer, topic, lines.subList(firstPart, lines.size()));
+      long expectedSnapshots = 12 * 4 - 1; // a snapshot every 6 h of event time over 12 days (the first period opens the clock)
+      awaitRead(runner, state, lines.size(), expectedSnapshots - 1);
 
       // the JSON endpoint over HTTP
-      HttpClient http = HttpClient.newHttpClient();
       HttpResponse<String> r = http.send(HttpRequest.newBuilder(URI.create(web.url() + "api/state")).build(),
           HttpResponse.BodyHandlers.ofString());
       assertEquals(200, r.statusCode());
@@ -163,13 +175,8 @@ class LiveViewBrowserTest {
       assertTrue(last.matches("^" + (snaps - 1) + "\\s+2026-.*\\(.*[+-]\\d+\\.\\d\\).*"), last);
 
       // the page in a real browser
-      Path chromium = chromium();
       Assumptions.assumeTrue(chromium != null, "no chromium found at /usr/bin/chromium: install it (apt-get install"
           + " chromium; .ci/run does this) to run the browser check; the JSON endpoint was checked above");
-      Path profile = Files.createTempDirectory("runnel-chromium");
-      List<String> common = List.of(chromium.toString(), "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
-          "--no-first-run", "--disable-background-networking", "--disable-component-update", "--disable-sync",
-          "--disable-dev-shm-usage", "--user-data-dir=" + profile, "--virtual-time-budget=15000", "--window-size=1280,1400");
       List<String> dump = new ArrayList<>(common);
       dump.add("--dump-dom");
       dump.add(web.url());
@@ -182,13 +189,21 @@ class LiveViewBrowserTest {
       assertEquals(shownInPage, count(dom, "<path[^>]*data-band=\"(?!interval|cycle-)"), "one ±2 se band per shown weight");
       assertTrue(count(dom, "<circle[^>]*data-point=\"actual\"") > 10, "points in the predicted-vs-actual chart");
       assertEquals(1, count(dom, "<path[^>]*data-series=\"predicted\""));
-      // forecasts ahead: one entry per hub (the Kafka key); the feed ends with the actuals of its last hours, so
-      // nothing is ahead at its end, and the first hub's latest actuals are drawn
+      // forecasts ahead: one entry per hub (its echoed field); the feed ends with the actuals of its last hours, so
+      // nothing is ahead at its end, and the chosen hub's latest actuals are drawn
       JsonNode ahead = s.path("forecasts_ahead").path("entities");
       assertEquals(13, ahead.size(), "one entry per hub");
-      assertEquals("QM-01", ahead.get(0).path("entity").asText());
+      assertEquals("hub=QM-01", ahead.get(0).path("entity").asText());
       assertEquals(LiveState.MAX_AHEAD_ACTUALS, ahead.get(0).path("actuals").size());
-      assertEquals(LiveState.MAX_AHEAD_ACTUALS, count(dom, "<circle[^>]*data-point=\"ahead-actual\""), "the first hub's actuals drawn");
+      assertEquals(aheadOf(s, s.path("series").path("chosen").asText()).path("actuals").size(),
+          count(dom, "<circle[^>]*data-point=\"ahead-actual\""), "the chosen hub's actuals drawn");
+      // the hub that had forecasts ahead, chosen in the address: its hours that were ahead are ordinary points now
+      JsonNode settled = JSON.readTree(http.send(HttpRequest.newBuilder(URI.create(web.url() + "api/state?series=" + enc(chosen)))
+          .build(), HttpResponse.BodyHandlers.ofString()).body());
+      List<String> again = new ArrayList<>(common);
+      again.add("--dump-dom");
+      again.add(web.url() + "#series=" + enc(chosen));
+      checkAheadSettled(run(again), settled, early, chosen);
       checkAlarms(dom, s);
       checkDefaultWeightCharts(dom, s);
       checkCycleEffects(dom, s);
@@ -213,13 +228,6 @@ class LiveViewBrowserTest {
       checkPickedColumn(zdom, s, pick);
       checkTwoDayRange(zdom, s);
 
-      Path shot = Path.of("target", "live-view.png").toAbsolutePath();
-      Files.deleteIfExists(shot);
-      List<String> pic = new ArrayList<>(common);
-      pic.add("--screenshot=" + shot);
-      pic.add(web.url());
-      run(pic);
-      assertTrue(Files.size(shot) > 10_000, "screenshot written: " + shot);
       EmbeddedKafkaExtension.deleteTree(profile);
     } finally {
       runner.close();
@@ -318,6 +326,167 @@ class LiveViewBrowserTest {
       c.checkRoundTicks(cycle);
       assertTrue(c.body.contains("data-axis=\"y\">effect (target units)<"), cycle);
     }
+  }
+
+  private static void send(KafkaProducer<byte[], byte[]> producer, String topic, List<String> lines) {
+    for (String l : lines) {
+      producer.send(new ProducerRecord<>(topic, null, l.getBytes(StandardCharsets.UTF_8))); // no key
+    }
+    producer.flush();
+  }
+
+  /**
+   * Waits until the runner took {@code records} records and the view read {@code snapshots} snapshots, then until
+   * two reads a second apart count the same predictions and snapshots (the page, loaded later, must see the same
+   * state as the document checked).
+   */
+  private static void awaitRead(ExactlyOnceRunner runner, LiveState state, long records, long snapshots) throws Exception {
+    KafkaTestSupport.await("the view read the run's snapshots", Duration.ofSeconds(180), () -> {
+      if (runner.failure() != null) {
+        throw new AssertionError(runner.failure());
+      }
+      return runner.counters().recordsIn() >= records
+          && state.stateJson().path("throughput").path("snapshots_read").asLong() >= snapshots;
+    });
+    KafkaTestSupport.await("the view stopped reading new records", Duration.ofSeconds(60), () -> {
+      JsonNode before = state.stateJson().path("throughput");
+      try {
+        Thread.sleep(1000);
+      } catch (InterruptedException e) {
+        Thread.currentThread().interrupt();
+        return false;
+      }
+      JsonNode after = state.stateJson().path("throughput");
+      return before.path("predictions_read").equals(after.path("predictions_read"))
+          && before.path("snapshots_read").equals(after.path("snapshots_read"));
+    });
+  }
+
+  /**
+   * The series of a feed without Kafka keys: one per hub that sent actuals, named by the echoed hub field; the
+   * default is the one with the most predictions kept, served alone, in target-time order. Returns its name.
+   */
+  private static String checkSeries(JsonNode s, List<GeneratedRecord> fed) {
+    JsonNode se = s.path("series");
+    assertEquals("[\"hub\"]", se.path("by").toString());
+    assertEquals("target_time", se.path("time").asText());
+    assertEquals(0, se.path("named_by_key").asLong());
+    assertEquals(0, se.path("dropped").asLong());
+    assertTrue(!se.path("all").asBoolean());
+    java.util.Set<String> hubs = new java.util.TreeSet<>();
+    for (GeneratedRecord g : fed) {
+      if (g.kind() == GeneratedRecord.Kind.ACTUAL) {
+        hubs.add("hub=" + g.hubId());
+      }
+    }
+    java.util.Set<String> names = new java.util.TreeSet<>();
+    String chosen = se.path("chosen").asText();
+    int most = 0;
+    for (JsonNode n : se.path("names")) {
+      names.add(n.get(0).asText());
+      most = Math.max(most, n.get(1).asInt());
+      if (n.get(0).asText().equals(chosen)) {
+        assertEquals(n.get(1).asInt(), s.path("predictions").size(), "the chosen series' predictions");
+      }
+    }
+    assertEquals(hubs, names, "one series per hub");
+    assertTrue(hubs.size() >= 12, hubs.toString());
+    long prev = Long.MIN_VALUE;
+    for (JsonNode p : s.path("predictions")) {
+      assertEquals(chosen, p.get(0).asText());
+      long tm = java.time.Instant.parse(p.get(1).asText()).toEpochMilli();
+      assertTrue(tm >= prev, "in time order");
+      prev = tm;
+    }
+    assertEquals(most, s.path("predictions").size(), "the default: the series with the most predictions");
+    return chosen;
+  }
+
+  private static JsonNode aheadOf(JsonNode s, String entity) {
+    for (JsonNode e : s.path("forecasts_ahead").path("entities")) {
+      if (e.path("entity").asText().equals(entity)) {
+        return e;
+      }
+    }
+    throw new AssertionError("no forecasts ahead for " + entity);
+  }
+
+  /**
+   * The series selector offers every hub (and all series); the predicted-vs-actual chart draws the chosen hub's
+   * actuals and, after its last actual, each forecast ahead (an open circle at its target time and value) with its
+   * band, in their own marks (not the settled line, band or dots).
+   */
+  private static void checkSeriesAndAheadDrawn(String dom, JsonNode s, String chosen) {
+    Matcher sel = Pattern.compile("<select id=\"series\">(.*?)</select>", Pattern.DOTALL).matcher(dom);
+    assertTrue(sel.find(), "the series selector");
+    int series = s.path("series").path("names").size();
+    assertEquals(series, count(sel.group(1), "<option value=\"hub=QM-\\d+\">hub=QM-\\d+</option>"), "one choice per hub");
+    assertEquals(series + 1, count(sel.group(1), "<option "), "and all series");
+    assertTrue(dom.contains("one per hub;"), "the page says how it names the series");
+    Chart c = Chart.find(dom, "predictions", null);
+    JsonNode e = aheadOf(s, chosen);
+    JsonNode fc = e.path("forecasts");
+    assertEquals(String.valueOf(fc.size()), attr(c.tag, "<svg[^>]*", "data-ahead"));
+    List<double[]> pts = c.circles("forecast-ahead");
+    assertEquals(fc.size(), pts.size(), "one open circle per forecast ahead");
+    List<double[]> band = c.path("data-band=\"interval-forecast-ahead\"");
+    assertEquals(2 * fc.size(), band.size(), "the band ahead: the lows forward, then the highs back");
+    for (int i = 0; i < fc.size(); i++) {
+      JsonNode f = fc.get(i);
+      long tm = java.time.Instant.parse(f.get(0).asText()).toEpochMilli();
+      c.checkX(tm, pts.get(i)[0], "forecast " + i + " time");
+      c.checkY(f.get(1).asDouble(), pts.get(i)[1], "forecast " + i);
+      c.checkY(f.get(2).asDouble(), band.get(i)[1], "low " + i);
+      c.checkY(f.get(3).asDouble(), band.get(2 * fc.size() - 1 - i)[1], "high " + i);
+    }
+    List<double[]> line = c.path("data-series=\"forecast-ahead\"");
+    assertEquals(fc.size(), line.size());
+    int actuals = 0;
+    for (JsonNode p : s.path("predictions")) {
+      if (!p.get(2).isNull() && !p.get(5).isNull()) {
+        actuals++;
+      }
+    }
+    List<double[]> dots = c.circles("actual");
+    assertEquals(actuals, dots.size(), "the chosen hub's actuals");
+    double lastActualX = dots.stream().mapToDouble(d -> d[0]).max().orElseThrow();
+    assertTrue(pts.stream().allMatch(p -> p[0] > lastActualX), "the forecasts lie after the last actual");
+    long lastActual = java.time.Instant.parse(e.path("last_actual").asText()).toEpochMilli();
+    Matcher marker = Pattern.compile("<line x1=\"(-?[\\d.]+)\"[^>]*data-marker=\"last-actual\"").matcher(c.body);
+    assertTrue(marker.find(), "a marker at the last actual");
+    c.checkX(lastActual, Double.parseDouble(marker.group(1)), "the marker at the last actual");
+    assertEquals(1, count(c.body, "<path[^>]*data-series=\"predicted\""));
+  }
+
+  /**
+   * Once the rest of the feed came, the hub has no forecast ahead, and each hour that was ahead and got its actual
+   * is drawn as an ordinary actual point.
+   */
+  private static void checkAheadSettled(String dom, JsonNode s, JsonNode early, String chosen) {
+    assertEquals(chosen, s.path("series").path("chosen").asText());
+    assertEquals(0, aheadOf(s, chosen).path("forecasts").size(), "the feed's end: nothing ahead");
+    Chart c = Chart.find(dom, "predictions", null);
+    assertEquals("0", attr(c.tag, "<svg[^>]*", "data-ahead"));
+    assertEquals(0, c.circles("forecast-ahead").size());
+    JsonNode was = aheadOf(early, chosen).path("forecasts");
+    long from = java.time.Instant.parse(was.get(0).get(0).asText()).toEpochMilli();
+    long to = java.time.Instant.parse(was.get(was.size() - 1).get(0).asText()).toEpochMilli();
+    int settled = 0;
+    for (JsonNode p : s.path("predictions")) {
+      long tm = java.time.Instant.parse(p.get(1).asText()).toEpochMilli();
+      if (tm >= from && tm <= to && !p.get(2).isNull() && !p.get(5).isNull()) {
+        settled++;
+      }
+    }
+    assertTrue(settled >= 20, "most of the hours that were ahead got their actual: " + settled + " of " + was.size());
+    int drawn = 0;
+    for (double[] d : c.circles("actual")) {
+      double tm = c.xValue(d[0]);
+      if (tm >= from - 60_000 && tm <= to + 60_000) {
+        drawn++;
+      }
+    }
+    assertEquals(settled, drawn, "the hours that were ahead, drawn as actuals");
   }
 
   /** A column picked in the address is drawn (alone) with its path from the state. */
@@ -455,6 +624,20 @@ class LiveViewBrowserTest {
     void checkY(double value, double py, String what) {
       double perPx = (y1 - y0) / (h - t - b);
       assertEquals(value, y0 + (h - b - py) * perPx, 0.06 * perPx, what);
+    }
+
+    /** The circles of {@code data-point="kind"}, in pixels. */
+    List<double[]> circles(String kind) {
+      List<double[]> out = new ArrayList<>();
+      Matcher m = Pattern.compile("<circle cx=\"(-?[\\d.]+)\" cy=\"(-?[\\d.]+)\"[^>]*data-point=\"" + kind + "\"").matcher(body);
+      while (m.find()) {
+        out.add(new double[] {Double.parseDouble(m.group(1)), Double.parseDouble(m.group(2))});
+      }
+      return out;
+    }
+
+    double xValue(double px) {
+      return x0 + (px - l) * (x1 - x0) / (w - l - r);
     }
 
     void checkX(double value, double px, String what) {
