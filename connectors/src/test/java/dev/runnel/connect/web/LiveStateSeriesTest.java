@@ -186,6 +186,17 @@ class LiveStateSeriesTest {
     assertEquals(List.of(), LiveState.seriesFields(noEcho), "nothing echoed: the Kafka key");
   }
 
+  /** The page's query: the series name URL-decoded (an entity name holds '=' and ','), all series only with 1. */
+  @Test
+  void theQueryNamesTheSeries() {
+    assertEquals("hub=QM-03,zone=n w", WebView.param("columns=a%2Cb&series=hub%3DQM-03%2Czone%3Dn%20w", "series"));
+    assertEquals("", WebView.param("series=", "series"), "the empty Kafka key");
+    assertEquals(null, WebView.param("columns=a", "series"));
+    assertEquals(null, WebView.param(null, "series"));
+    assertEquals("1", WebView.param("series=x&all_series=1", "all_series"));
+    assertEquals(List.of("a,b"), WebView.pickedColumns("columns=a%2Cb&series=hub%3DQM-03"));
+  }
+
   private PipelineStep.Sink sink(LiveState state, OutputJson out) {
     return new PipelineStep.Sink() {
       @Override public void prediction(Prediction p, EventRecord r) {
