@@ -43,14 +43,18 @@ import org.junit.jupiter.api.extension.ExtendWith;
 
 /**
  * The live view against a real pipeline on the embedded broker: the invented Quillmarsh feed (12
- * days) runs through the exactly-once runner; the view follows the output topics; the JSON
- * endpoint and the {@code drift} table are checked; then the page is loaded in a real headless
- * chromium, which must draw one coefficient path per shown weight and points in the
+ * days, without Kafka keys) runs through the exactly-once runner in two parts; the view follows the
+ * output topics. After the first part (up to the feed's last day-ahead requests) {@code /api/state} must
+ * name one series per hub from the echoed hub field, and the page must draw the chosen hub's actuals and,
+ * after its last actual, each forecast ahead with its band in their own marks (the screenshot
+ * {@code target/live-view.png} is taken then). After the rest, the hours that were ahead are drawn as
+ * ordinary actuals and nothing is ahead. Then the JSON endpoint and the {@code drift} table are checked;
+ * the page is loaded in a real headless chromium, which must draw one coefficient path per shown weight and points in the
  * predicted-vs-actual chart; the values drawn are read back through each chart's stated domain and checked
  * against {@code /api/state}: the active and past alarms, the default weight charts (fitted y-axis, round
  * ticks, labelled axes), the hour-of-day and day-of-week effect curves, and, loaded again with
- * {@code #columns=...&range=2d}, a picked column and the last two days. A screenshot is saved as
- * {@code target/live-view.png}, the state as {@code target/live-state.json}.
+ * {@code #columns=...&range=2d}, a picked column and the last two days. The state is saved as
+ * {@code target/live-state.json}. docs/drift.md's screenshot is {@code target/live-view.png}, copied to docs/img.
  */
 @ExtendWith(EmbeddedKafkaExtension.class)
 class LiveViewBrowserTest {
