@@ -339,7 +339,7 @@ public final class LiveState implements AutoCloseable {
    */
   public synchronized ObjectNode stateJson(List<String> picked, String seriesName, boolean allSeries) {
     ObjectNode root = F.objectNode();
-    root.put("format", 2);
+    root.put("format", 3);
     root.put("pipeline", pipeline);
     root.put("bootstrap_servers", bootstrap);
     root.put("generated_at", Instant.now().toString());

@@ -156,7 +156,7 @@ class LiveViewBrowserTest {
       assertTrue(s.path("latest").path("drift").path("error_test").asText().equals("page_hinkley"));
       assertTrue(s.path("throughput").path("records_in").asLong() >= lines.size());
       // format 2 names (docs/formats.md): the page reads these
-      assertEquals(2, s.path("format").asInt());
+      assertEquals(3, s.path("format").asInt());
       assertTrue(s.path("throughput").has("records_behind"), s.path("throughput").toString());
       assertTrue(s.path("latest").path("standardization").size() > 0, "running means and spreads");
       assertTrue(s.path("latest").path("vocabularies").get(0).has("below_min_count"));
