@@ -140,6 +140,14 @@ public final class BacktestCommand implements Callable<Integer> {
       spec.commandLine().getErr().println("runnel backtest: --read-only is deprecated; use --reading-speed");
       readOnly = true;
     }
+    if (horizons.isEmpty()) {
+      for (String o : List.of("--breakdown-entities", "--breakdown-period")) {
+        if (spec.commandLine().getParseResult().hasMatchedOption(o)) {
+          spec.commandLine().getErr().println("runnel backtest: " + o + " breaks down each horizon's errors; it does nothing"
+              + " without --horizons (e.g. --horizons PT1H,P1D)");
+        }
+      }
+    }
     List<Backtest.Variant> variants = new ArrayList<>();
     for (Path c : configs) {
       PipelineConfig cfg = Launch.warn(ConfigLoader.load(c), System.err);

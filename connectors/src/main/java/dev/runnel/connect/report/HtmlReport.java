@@ -46,7 +46,8 @@ public final class HtmlReport {
         .append(".verdict{font-size:14px;margin:4px 0}.sig{color:#1b6e2f;font-weight:600}.ns{color:#8a6d00}.key span{display:inline-block;width:14px;height:4px;margin:0 4px 3px 12px}\n")
         .append("svg{background:#fcfcfc;border:1px solid #e4e4e4}svg text{font-size:11px;fill:#444}\n")
         .append("details.breakdown{margin:6px 0}details.breakdown summary{cursor:pointer;font-size:14px}"
-            + "table.breakdown th.cfg{text-align:center;border-left:1px solid #ddd}table.breakdown td.first{border-left:1px solid #ddd}\n")
+            + "table.breakdown th.cfg{text-align:center;border-left:1px solid #ddd}table.breakdown td.first{border-left:1px solid #ddd}"
+            + "table.breakdown tr+tr th{text-align:right}\n")
         .append("</style></head><body>\n");
     sb.append("<h1>Backtest: ").append(esc(labels(r))).append("</h1>\n<p class=\"meta\">");
     for (Map.Entry<String, Object> e : run.entrySet()) {

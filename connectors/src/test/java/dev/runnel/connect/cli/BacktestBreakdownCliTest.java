@@ -147,6 +147,12 @@ class BacktestBreakdownCliTest {
     assertFalse(json.contains("breakdown") || json.contains("by_entity"), json);
     assertFalse(Files.readString(dir.resolve("backtest.html")).contains("Where the error is"));
     assertFalse(r[2].contains("Where the error is"), r[2]);
+    assertEquals("", r[1], "no warning when the breakdown options are not given");
+    // given without --horizons, the option is said to do nothing (and the backtest still runs)
+    String[] w = CliCapture.run("backtest", "--source", SAMPLE, "--config", DEMO, "--out", dir.toString(), "--quiet",
+        "--breakdown-period", "month");
+    assertEquals("0", w[0], w[1]);
+    assertTrue(w[1].contains("--breakdown-period breaks down each horizon's errors; it does nothing without --horizons"), w[1]);
   }
 
   private static boolean otherConfigHas(JsonNode h, int hour) {
