@@ -14,6 +14,7 @@ import dev.runnel.core.config.ConfigLoader;
 import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.evaluate.Backtest;
 import dev.runnel.core.evaluate.BacktestResult;
+import dev.runnel.core.evaluate.BreakdownPeriod;
 import java.nio.file.Files;
 import java.nio.file.Path;
 import java.time.Duration;
@@ -90,9 +91,20 @@ public final class BacktestCommand implements Callable<Integer> {
 
   @Option(names = "--horizons", paramLabel = "DURATION", split = ",",
       description = "Simulate forecasts issued this long before each actual's target time, with only what was known "
-          + "then, and report every metric and the Diebold-Mariano tests per horizon: ISO 8601 durations, e.g. PT1H,P1D "
-          + "(docs/backtesting.md, \"Horizons\").")
+          + "then, and report every metric and the Diebold-Mariano tests per horizon, and each horizon's errors by entity, "
+          + "hour of day and period of the target time: ISO 8601 durations, e.g. PT1H,P1D (docs/backtesting.md, \"Horizons\").")
   List<String> horizons = new ArrayList<>();
+
+  @Option(names = "--breakdown-entities", paramLabel = "N", defaultValue = "10",
+      description = "With --horizons, each horizon's errors are also shown by entity, by hour of day and by period of "
+          + "the target time: the N entities (input.forecast.entity_fields) with the most settled forecasts get a row "
+          + "each, the rest share one row, (other) (default: ${DEFAULT-VALUE}).")
+  int breakdownEntities;
+
+  @Option(names = "--breakdown-period", paramLabel = "week|month", defaultValue = "week",
+      description = "With --horizons: the period of that breakdown, week (ISO 8601 weeks, e.g. 2026-W22) or month "
+          + "(e.g. 2026-05), of the target time in each configuration's input.time_zone (default: ${DEFAULT-VALUE}).")
+  String breakdownPeriod;
 
   @Option(names = "--alpha", paramLabel = "A", defaultValue = "0.05", description = "Significance level of the verdicts (default: ${DEFAULT-VALUE}).")
   double alpha;
@@ -128,6 +140,14 @@ public final class BacktestCommand implements Callable<Integer> {
       spec.commandLine().getErr().println("runnel backtest: --read-only is deprecated; use --reading-speed");
       readOnly = true;
     }
+    if (horizons.isEmpty()) {
+      for (String o : List.of("--breakdown-entities", "--breakdown-period")) {
+        if (spec.commandLine().getParseResult().hasMatchedOption(o)) {
+          spec.commandLine().getErr().println("runnel backtest: " + o + " breaks down each horizon's errors; it does nothing"
+              + " without --horizons (e.g. --horizons PT1H,P1D)");
+        }
+      }
+    }
     List<Backtest.Variant> variants = new ArrayList<>();
     for (Path c : configs) {
       PipelineConfig cfg = Launch.warn(ConfigLoader.load(c), System.err);
@@ -141,7 +161,7 @@ public final class BacktestCommand implements Callable<Integer> {
       throw new IllegalArgumentException("--period " + period + ": not an ISO 8601 duration; use e.g. P1D or PT6H");
     }
     Backtest bt = new Backtest(variants, new Backtest.Options(segmentBy, periodMillis, weights, lag, dmSteps, alpha,
-        horizonsMillis(horizons)));
+        horizonsMillis(horizons), breakdownEntities, BreakdownPeriod.of(breakdownPeriod)));
     if (threads != null && threads < 1) {
       throw new IllegalArgumentException("--threads " + threads + ": must be at least 1 (1 = no worker threads)");
     }

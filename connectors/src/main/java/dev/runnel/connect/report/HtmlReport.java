@@ -45,6 +45,9 @@ public final class HtmlReport {
         .append("th{background:#f4f4f4}td:first-child,th:first-child{text-align:left}.meta{color:#666;font-size:13px}\n")
         .append(".verdict{font-size:14px;margin:4px 0}.sig{color:#1b6e2f;font-weight:600}.ns{color:#8a6d00}.key span{display:inline-block;width:14px;height:4px;margin:0 4px 3px 12px}\n")
         .append("svg{background:#fcfcfc;border:1px solid #e4e4e4}svg text{font-size:11px;fill:#444}\n")
+        .append("details.breakdown{margin:6px 0}details.breakdown summary{cursor:pointer;font-size:14px}"
+            + "table.breakdown th.cfg{text-align:center;border-left:1px solid #ddd}table.breakdown td.first{border-left:1px solid #ddd}"
+            + "table.breakdown tr+tr th{text-align:right}\n")
         .append("</style></head><body>\n");
     sb.append("<h1>Backtest: ").append(esc(labels(r))).append("</h1>\n<p class=\"meta\">");
     for (Map.Entry<String, Object> e : run.entrySet()) {
@@ -89,6 +92,7 @@ public final class HtmlReport {
     }
     if (!r.horizons().isEmpty()) {
       horizons(sb, r);
+      breakdowns(sb, r);
     }
     sb.append("<h2>RMSE over time</h2>\n");
     overTime(sb, r);
@@ -177,6 +181,98 @@ public final class HtmlReport {
     sb.append("</table>\n<p class=\"meta\">Steps k = horizon / mean spacing in target time of the compared series "
         + "(the actuals both configurations settled); the HAC lag is at least k − 1 and k sets the Harvey, Leybourne &amp; "
         + "Newbold correction (docs/backtesting.md, \"Horizons\").</p>\n");
+  }
+
+  /**
+   * With {@code --horizons}: where within each horizon the error is. One folded section per horizon
+   * (details/summary) with three compact tables, by entity, by local hour of day (hours with
+   * forecasts only) and by period of the target time, five columns per configuration; the same
+   * numbers as {@code backtest.json}'s {@code by_entity}, {@code by_target_hour} and
+   * {@code by_target_period}.
+   */
+  private static void breakdowns(StringBuilder sb, BacktestResult r) {
+    List<String> fields = TextReport.entityFields(r);
+    BacktestResult.Breakdown first = r.horizons().get(0).variants().get(0).breakdown();
+    String period = TextReport.periodName(first.period());
+    sb.append("<h2>Where the error is, by horizon</h2>\n<p class=\"meta\">Each horizon's settled forecasts by ")
+        .append(fields.isEmpty() ? "entity (none here: no <code>input.forecast</code>)" : esc(String.join(", ", fields))
+            + " (the " + first.topEntities() + " with the most settled forecasts; the rest as one row, (other: n))")
+        .append(", by hour of day and by ").append(period).append(" of the target time, local to each configuration's "
+            + "<code>input.time_zone</code>. Each table holds every settled forecast of its horizon once.</p>\n");
+    for (BacktestResult.HorizonResult h : r.horizons()) {
+      String hz = java.time.Duration.ofMillis(h.horizonMillis()).toString();
+      List<BacktestResult.HorizonVariant> vs = h.variants();
+      sb.append("<details class=\"breakdown\"><summary>").append(hz).append(": by ")
+          .append(fields.isEmpty() ? "" : esc(String.join(", ", fields)) + ", by ").append("hour of day and by ")
+          .append(period).append("</summary>\n");
+      if (!fields.isEmpty()) {
+        breakdownHead(sb, esc(String.join(", ", fields)), vs);
+        int rows = 0;
+        for (BacktestResult.HorizonVariant v : vs) {
+          rows = Math.max(rows, v.breakdown().byEntity().size());
+        }
+        for (int i = 0; i < rows; i++) {
+          String label = null;
+          List<Metrics> ms = new ArrayList<>();
+          for (BacktestResult.HorizonVariant v : vs) {
+            List<BacktestResult.EntityGroup> es = v.breakdown().byEntity();
+            if (i < es.size()) {
+              label = label != null ? label : TextReport.rowLabel(es.get(i));
+              ms.add(es.get(i).metrics());
+            } else {
+              ms.add(Metrics.EMPTY);
+            }
+          }
+          breakdownRow(sb, label, ms);
+        }
+        sb.append("</table>\n");
+      }
+      breakdownHead(sb, "hour", vs);
+      for (int hr = 0; hr < 24; hr++) {
+        List<Metrics> ms = new ArrayList<>();
+        long any = 0;
+        for (BacktestResult.HorizonVariant v : vs) {
+          Metrics m = v.breakdown().byHour().get(hr).metrics();
+          ms.add(m);
+          any += m.count();
+        }
+        if (any > 0) {
+          breakdownRow(sb, String.format(Locale.ROOT, "%02d", hr), ms);
+        }
+      }
+      sb.append("</table>\n");
+      breakdownHead(sb, period, vs);
+      List<BacktestResult.Group> periods = vs.get(0).breakdown().byPeriod();
+      for (int i = 0; i < periods.size(); i++) {
+        List<Metrics> ms = new ArrayList<>();
+        for (BacktestResult.HorizonVariant v : vs) {
+          ms.add(v.breakdown().byPeriod().get(i).metrics());
+        }
+        breakdownRow(sb, periods.get(i).label(), ms);
+      }
+      sb.append("</table>\n</details>\n");
+    }
+  }
+
+  private static void breakdownHead(StringBuilder sb, String key, List<BacktestResult.HorizonVariant> vs) {
+    sb.append("<table class=\"breakdown\"><tr><th rowspan=\"2\">").append(key).append("</th>");
+    for (BacktestResult.HorizonVariant v : vs) {
+      sb.append("<th class=\"cfg\" colspan=\"5\">").append(esc(v.label())).append("</th>");
+    }
+    sb.append("</tr>\n<tr>");
+    for (int i = 0; i < vs.size(); i++) {
+      sb.append("<th>count</th><th>MAE</th><th>RMSE</th><th>bias</th><th>coverage</th>");
+    }
+    sb.append("</tr>\n");
+  }
+
+  private static void breakdownRow(StringBuilder sb, String label, List<Metrics> ms) {
+    sb.append("<tr><td>").append(esc(label)).append("</td>");
+    for (Metrics m : ms) {
+      sb.append(String.format(Locale.ROOT, "<td class=\"first\">%,d</td><td>%s</td><td>%s</td><td>%s</td><td>%s</td>",
+          m.count(), TextReport.num(m.mae()), TextReport.num(m.rmse()), TextReport.num(m.bias()), TextReport.pct(m.coverage())));
+    }
+    sb.append("</tr>\n");
   }
 
   private static String labels(BacktestResult r) {

@@ -138,6 +138,9 @@ public final class JsonReport {
 
   /** The simulated forecasts by horizon (written only when --horizons was given). */
   private static void horizons(JsonGenerator g, BacktestResult r) throws IOException {
+    BacktestResult.Breakdown first = r.horizons().get(0).variants().get(0).breakdown();
+    g.writeNumberField("breakdown_entities", first.topEntities());
+    g.writeStringField("breakdown_period", first.period().id());
     g.writeArrayFieldStart("horizons");
     for (BacktestResult.HorizonResult h : r.horizons()) {
       g.writeStartObject();
@@ -154,6 +157,7 @@ public final class JsonReport {
         g.writeNumberField("not_issued", v.notIssued());
         g.writeNumberField("lookahead_ms", v.lookaheadMillis());
         g.writeNumberField("max_held_records", v.maxHeld());
+        breakdown(g, v.breakdown());
         g.writeEndObject();
       }
       g.writeEndArray();
@@ -171,6 +175,59 @@ public final class JsonReport {
         g.writeEndObject();
       }
       g.writeEndArray();
+      g.writeEndObject();
+    }
+    g.writeEndArray();
+  }
+
+  /**
+   * One configuration's breakdown of one horizon: the exact sum of its squared errors, then its
+   * settled forecasts by entity, by local hour of day and by period of the target time.
+   */
+  private static void breakdown(JsonGenerator g, BacktestResult.Breakdown b) throws IOException {
+    g.writeFieldName("sum_squared_error");
+    num(g, b.total().sumSquaredError());
+    g.writeArrayFieldStart("entity_fields");
+    for (String f : b.entityFields()) {
+      g.writeString(f);
+    }
+    g.writeEndArray();
+    g.writeArrayFieldStart("by_entity");
+    for (BacktestResult.EntityGroup e : b.byEntity()) {
+      g.writeStartObject();
+      if (e.other()) {
+        g.writeNullField("entity");
+        g.writeNumberField("other_entities", e.entities());
+      } else {
+        g.writeObjectFieldStart("entity");
+        for (int i = 0; i < e.values().size(); i++) {
+          g.writeStringField(b.entityFields().get(i), e.values().get(i));
+        }
+        g.writeEndObject();
+      }
+      metricFields(g, e.metrics());
+      g.writeFieldName("sum_squared_error");
+      num(g, e.sumSquaredError());
+      g.writeEndObject();
+    }
+    g.writeEndArray();
+    g.writeArrayFieldStart("by_target_hour");
+    for (int h = 0; h < b.byHour().size(); h++) {
+      g.writeStartObject();
+      g.writeNumberField("hour", h);
+      metricFields(g, b.byHour().get(h).metrics());
+      g.writeFieldName("sum_squared_error");
+      num(g, b.byHour().get(h).sumSquaredError());
+      g.writeEndObject();
+    }
+    g.writeEndArray();
+    g.writeArrayFieldStart("by_target_period");
+    for (BacktestResult.Group p : b.byPeriod()) {
+      g.writeStartObject();
+      g.writeStringField("period", p.label());
+      metricFields(g, p.metrics());
+      g.writeFieldName("sum_squared_error");
+      num(g, p.sumSquaredError());
       g.writeEndObject();
     }
     g.writeEndArray();

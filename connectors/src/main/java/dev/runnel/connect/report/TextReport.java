@@ -82,6 +82,7 @@ public final class TextReport {
     }
     if (!r.horizons().isEmpty()) {
       horizonTables(sb, r, w);
+      breakdownTables(sb, r);
     }
     return TerminalText.lines(sb);
   }
@@ -133,6 +134,115 @@ public final class TextReport {
         sb.append("  ").append(hz).append(": ").append(hc.comparison().squaredVerdict()).append('\n');
       }
     }
+  }
+
+  /**
+   * Where within each horizon the error is: one compact table per horizon, its settled forecasts
+   * by entity, by local hour of day (hours with forecasts only) and by period of the target time,
+   * five columns per configuration.
+   */
+  private static void breakdownTables(StringBuilder sb, BacktestResult r) {
+    BacktestResult.Breakdown first = r.horizons().get(0).variants().get(0).breakdown();
+    List<String> fields = entityFields(r);
+    sb.append(String.format(Locale.ROOT, "%nWhere the error is, per horizon: the settled forecasts by %s, by hour of day"
+        + " and by %s of the target time (local, in each configuration's time_zone)%n",
+        fields.isEmpty() ? "entity (none: no input.forecast)" : String.join(", ", fields) + " (the " + first.topEntities()
+            + " with the most; the rest as (other: n))", periodName(first.period())));
+    String block = "%9s %9s %9s %9s %9s";
+    for (BacktestResult.HorizonResult h : r.horizons()) {
+      List<BacktestResult.HorizonVariant> vs = h.variants();
+      int kw = 12;
+      for (BacktestResult.HorizonVariant v : vs) {
+        for (BacktestResult.EntityGroup g : v.breakdown().byEntity()) {
+          kw = Math.max(kw, rowLabel(g).length() + 2);
+        }
+      }
+      String hz = java.time.Duration.ofMillis(h.horizonMillis()).toString();
+      StringBuilder head = new StringBuilder(String.format(Locale.ROOT, "%-" + kw + "s", hz));
+      for (BacktestResult.HorizonVariant v : vs) {
+        head.append(String.format(Locale.ROOT, " | %-49s", v.label()));
+      }
+      sb.append('\n').append(head.toString().stripTrailing()).append('\n').append(String.format(Locale.ROOT, "%-" + kw + "s", ""));
+      for (int i = 0; i < vs.size(); i++) {
+        sb.append(" | ").append(String.format(Locale.ROOT, block, "count", "MAE", "RMSE", "bias", "coverage"));
+      }
+      sb.append('\n');
+      if (!fields.isEmpty()) {
+        sb.append(String.join(", ", fields)).append('\n');
+        int rows = 0;
+        for (BacktestResult.HorizonVariant v : vs) {
+          rows = Math.max(rows, v.breakdown().byEntity().size());
+        }
+        for (int i = 0; i < rows; i++) {
+          String label = null;
+          List<Metrics> ms = new ArrayList<>();
+          for (BacktestResult.HorizonVariant v : vs) {
+            List<BacktestResult.EntityGroup> es = v.breakdown().byEntity();
+            if (i < es.size()) {
+              label = label != null ? label : rowLabel(es.get(i));
+              ms.add(es.get(i).metrics());
+            } else {
+              ms.add(null);
+            }
+          }
+          breakdownRow(sb, kw, label, ms);
+        }
+      }
+      sb.append("hour of day\n");
+      for (int hr = 0; hr < 24; hr++) {
+        List<Metrics> ms = new ArrayList<>();
+        long any = 0;
+        for (BacktestResult.HorizonVariant v : vs) {
+          Metrics m = v.breakdown().byHour().get(hr).metrics();
+          ms.add(m);
+          any += m.count();
+        }
+        if (any > 0) {
+          breakdownRow(sb, kw, String.format(Locale.ROOT, "%02d", hr), ms);
+        }
+      }
+      sb.append(periodName(first.period())).append('\n');
+      List<BacktestResult.Group> periods = vs.get(0).breakdown().byPeriod();
+      for (int i = 0; i < periods.size(); i++) {
+        List<Metrics> ms = new ArrayList<>();
+        for (BacktestResult.HorizonVariant v : vs) {
+          ms.add(v.breakdown().byPeriod().get(i).metrics());
+        }
+        breakdownRow(sb, kw, periods.get(i).label(), ms);
+      }
+    }
+  }
+
+  /** The entity fields of the first configuration that has them (empty when none has). */
+  static List<String> entityFields(BacktestResult r) {
+    for (BacktestResult.HorizonVariant v : r.horizons().get(0).variants()) {
+      if (!v.breakdown().entityFields().isEmpty()) {
+        return v.breakdown().entityFields();
+      }
+    }
+    return List.of();
+  }
+
+  /** "ISO 8601 week" or "month". */
+  static String periodName(dev.runnel.core.evaluate.BreakdownPeriod p) {
+    return p == dev.runnel.core.evaluate.BreakdownPeriod.WEEK ? "ISO 8601 week" : "month";
+  }
+
+  /** An entity row's label: its values, or "(other: n)" for the entities left over. */
+  static String rowLabel(BacktestResult.EntityGroup g) {
+    return g.other() ? "(other: " + g.entities() + ")" : g.label();
+  }
+
+  private static void breakdownRow(StringBuilder sb, int kw, String label, List<Metrics> ms) {
+    sb.append(String.format(Locale.ROOT, "  %-" + (kw - 2) + "s", label));
+    for (Metrics m : ms) {
+      if (m == null) {
+        m = Metrics.EMPTY;
+      }
+      sb.append(" | ").append(String.format(Locale.ROOT, "%9s %9s %9s %9s %9s", String.format(Locale.ROOT, "%,d", m.count()),
+          num(m.mae()), num(m.rmse()), num(m.bias()), pct(m.coverage())));
+    }
+    sb.append('\n');
   }
 
   private static void segmentTable(StringBuilder sb, BacktestResult r) {

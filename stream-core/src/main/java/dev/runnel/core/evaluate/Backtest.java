@@ -16,6 +16,7 @@ import java.util.Arrays;
 import java.util.HashMap;
 import java.util.LinkedHashMap;
 import java.util.List;
+import java.util.Locale;
 import java.util.Map;
 import java.util.TreeMap;
 
@@ -59,10 +60,27 @@ public final class Backtest {
    * @param alpha significance level of the verdicts, in (0, 1)
    * @param horizonsMillis forecast horizons to simulate (docs/backtesting.md, "Horizons"), each
    *     positive and distinct, in milliseconds; empty for none
+   * @param breakdownEntities with horizons: how many entities get a row of their own in each
+   *     horizon's breakdown (the rest share one row), 1 to {@value #MAX_BREAKDOWN_ENTITIES}
+   * @param breakdownPeriod with horizons: the calendar period of each horizon's breakdown over time
    */
   public record Options(String segmentField, long periodMillis, List<String> weights, int lag, int horizon,
-                        double alpha, List<Long> horizonsMillis) {
+                        double alpha, List<Long> horizonsMillis, int breakdownEntities, BreakdownPeriod breakdownPeriod) {
+
+    /** The most entities a breakdown shows one by one. */
+    public static final int MAX_BREAKDOWN_ENTITIES = 100_000;
+
+    /** Entities shown one by one unless set. */
+    public static final int DEFAULT_BREAKDOWN_ENTITIES = 10;
+
     public Options {
+      if (breakdownEntities < 1 || breakdownEntities > MAX_BREAKDOWN_ENTITIES) {
+        throw new IllegalArgumentException("--breakdown-entities " + breakdownEntities
+            + ": not allowed; use a whole number from 1 to " + MAX_BREAKDOWN_ENTITIES);
+      }
+      if (breakdownPeriod == null) {
+        throw new IllegalArgumentException("--breakdown-period: missing; use week or month");
+      }
       weights = List.copyOf(weights);
       horizonsMillis = List.copyOf(horizonsMillis);
       for (int i = 0; i < horizonsMillis.size(); i++) {
@@ -88,6 +106,13 @@ public final class Backtest {
       }
     }
 
+    /** With the default breakdown (10 entities, ISO weeks). */
+    public Options(String segmentField, long periodMillis, List<String> weights, int lag, int horizon, double alpha,
+                   List<Long> horizonsMillis) {
+      this(segmentField, periodMillis, weights, lag, horizon, alpha, horizonsMillis, DEFAULT_BREAKDOWN_ENTITIES,
+          BreakdownPeriod.WEEK);
+    }
+
     /** Without horizons. */
     public Options(String segmentField, long periodMillis, List<String> weights, int lag, int horizon, double alpha) {
       this(segmentField, periodMillis, weights, lag, horizon, alpha, List.of());
@@ -100,7 +125,13 @@ public final class Backtest {
 
     /** The same options with these horizons (milliseconds). */
     public Options withHorizons(List<Long> millis) {
-      return new Options(segmentField, periodMillis, weights, lag, horizon, alpha, millis);
+      return new Options(segmentField, periodMillis, weights, lag, horizon, alpha, millis, breakdownEntities,
+          breakdownPeriod);
+    }
+
+    /** The same options with this breakdown of each horizon. */
+    public Options withBreakdown(int entities, BreakdownPeriod period) {
+      return new Options(segmentField, periodMillis, weights, lag, horizon, alpha, horizonsMillis, entities, period);
     }
   }
 
@@ -286,6 +317,8 @@ public final class Backtest {
       s.records = 0;
       s.levelIds.clear();
       s.levels.clear();
+      s.entityIds.clear();
+      s.entities.clear();
     }
   }
 
@@ -333,9 +366,10 @@ public final class Backtest {
     List<BacktestResult.HorizonResult> out = new ArrayList<>();
     long[] hs = horizonArray(options);
     for (int h = 0; h < hs.length; h++) {
+      List<BacktestResult.Breakdown> bds = breakdowns(h);
       List<BacktestResult.HorizonVariant> hv = new ArrayList<>();
-      for (VariantState s : states) {
-        hv.add(s.horizonResult(h));
+      for (int v = 0; v < states.length; v++) {
+        hv.add(states[v].horizonResult(h, bds.get(v)));
       }
       List<BacktestResult.HorizonComparison> hc = new ArrayList<>();
       for (int i = 0; i < states.length; i++) {
@@ -346,6 +380,177 @@ public final class Backtest {
       out.add(new BacktestResult.HorizonResult(hs[h], hv, hc));
     }
     return out;
+  }
+
+  /**
+   * Each configuration's breakdown of one horizon (docs/backtesting.md, "Where within a horizon"):
+   * the entities with the most settled forecasts over all configurations get a row each (ties by
+   * their values), the rest one "(other)" row; hours and periods of the target time are local to
+   * each configuration's {@code input.time_zone}; the period rows are the union over configurations.
+   * Sums are exact ({@link ExactSum}), so the order of the forecasts does not matter.
+   */
+  private List<BacktestResult.Breakdown> breakdowns(int h) {
+    Map<List<String>, long[]> counts = new HashMap<>();
+    for (VariantState s : states) {
+      long[] per = new long[s.entities.size()];
+      for (Lane lane : s.lanes) {
+        if (lane == null) {
+          continue;
+        }
+        HorizonLog log = lane.logs[h];
+        for (int k = 0; k < log.size; k++) {
+          if (log.entity[k] >= 0) {
+            per[log.entity[k]]++;
+          }
+        }
+      }
+      for (int e = 0; e < per.length; e++) {
+        if (per[e] > 0) {
+          counts.computeIfAbsent(s.entities.get(e), x -> new long[1])[0] += per[e];
+        }
+      }
+    }
+    List<Map.Entry<List<String>, long[]>> ranked = new ArrayList<>(counts.entrySet());
+    ranked.sort((x, y) -> x.getValue()[0] != y.getValue()[0] ? Long.compare(y.getValue()[0], x.getValue()[0])
+        : compareValues(x.getKey(), y.getKey()));
+    int top = Math.min(options.breakdownEntities(), ranked.size());
+    Map<List<String>, Integer> rowOf = new HashMap<>();
+    for (int i = 0; i < top; i++) {
+      rowOf.put(ranked.get(i).getKey(), i);
+    }
+    int leftOver = ranked.size() - top;
+    BreakdownPeriod period = options.breakdownPeriod();
+    List<GroupSums[]> entityRows = new ArrayList<>();
+    List<GroupSums[]> hourRows = new ArrayList<>();
+    List<TreeMap<Long, GroupSums>> periodRows = new ArrayList<>();
+    List<GroupSums> totals = new ArrayList<>();
+    java.util.TreeSet<Long> periodStarts = new java.util.TreeSet<>();
+    for (VariantState s : states) {
+      int[] row = new int[s.entities.size()];
+      for (int e = 0; e < row.length; e++) {
+        Integer r = rowOf.get(s.entities.get(e));
+        row[e] = r == null ? top : r;
+      }
+      GroupSums[] ent = GroupSums.array(top + 1);
+      GroupSums[] hours = GroupSums.array(24);
+      TreeMap<Long, GroupSums> periods = new TreeMap<>();
+      GroupSums total = new GroupSums();
+      LocalCalendar cal = new LocalCalendar(s.variant.config().input().timeZone());
+      long lastDay = Long.MIN_VALUE;
+      GroupSums inPeriod = null;
+      for (Lane lane : s.lanes) {
+        if (lane == null) {
+          continue;
+        }
+        HorizonLog log = lane.logs[h];
+        for (int k = 0; k < log.size; k++) {
+          double e = log.actual[k] - log.forecast[k];
+          boolean cov = log.actual[k] >= log.low[k] && log.actual[k] <= log.high[k];
+          total.add(e, cov);
+          if (log.entity[k] >= 0) {
+            ent[row[log.entity[k]]].add(e, cov);
+          }
+          long local = cal.localMillis(log.target[k]);
+          hours[(int) (Math.floorMod(local, DAY_MILLIS) / HOUR_MILLIS)].add(e, cov);
+          long day = Math.floorDiv(local, DAY_MILLIS);
+          if (day != lastDay) {
+            lastDay = day;
+            inPeriod = periods.computeIfAbsent(period.start(day), x -> new GroupSums());
+          }
+          inPeriod.add(e, cov);
+        }
+      }
+      periodStarts.addAll(periods.keySet());
+      entityRows.add(ent);
+      hourRows.add(hours);
+      periodRows.add(periods);
+      totals.add(total);
+    }
+    List<BacktestResult.Breakdown> out = new ArrayList<>();
+    for (int v = 0; v < states.length; v++) {
+      VariantState s = states[v];
+      List<BacktestResult.EntityGroup> byEntity = new ArrayList<>();
+      if (s.entitySlots.length > 0) {
+        GroupSums[] ent = entityRows.get(v);
+        for (int i = 0; i < top; i++) {
+          byEntity.add(ent[i].entityGroup(ranked.get(i).getKey(), 1));
+        }
+        if (leftOver > 0) {
+          byEntity.add(ent[top].entityGroup(List.of(), leftOver));
+        }
+      }
+      List<BacktestResult.Group> byHour = new ArrayList<>(24);
+      for (int hr = 0; hr < 24; hr++) {
+        byHour.add(hourRows.get(v)[hr].group(String.format(Locale.ROOT, "%02d", hr)));
+      }
+      List<BacktestResult.Group> byPeriod = new ArrayList<>();
+      for (long start : periodStarts) {
+        GroupSums g = periodRows.get(v).get(start);
+        byPeriod.add((g != null ? g : new GroupSums()).group(period.label(start)));
+      }
+      PipelineConfig.Input in = s.variant.config().input();
+      out.add(new BacktestResult.Breakdown(in.forecast().enabled() ? in.forecast().entityFields() : List.of(),
+          options.breakdownEntities(), period, byEntity, byHour, byPeriod, totals.get(v).group("total")));
+    }
+    return out;
+  }
+
+  private static final long DAY_MILLIS = 86_400_000L;
+  private static final long HOUR_MILLIS = 3_600_000L;
+
+  /** Lexicographic order of two entities' values (String order: by UTF-16 code units, no locale). */
+  private static int compareValues(List<String> a, List<String> b) {
+    for (int i = 0; i < Math.min(a.size(), b.size()); i++) {
+      int c = a.get(i).compareTo(b.get(i));
+      if (c != 0) {
+        return c;
+      }
+    }
+    return Integer.compare(a.size(), b.size());
+  }
+
+  /** One row of a breakdown being summed: count, covered and exact sums of e, |e| and e·e. */
+  private static final class GroupSums {
+    long count;
+    long covered;
+    final ExactSum sumAbs = new ExactSum();
+    final ExactSum sumSq = new ExactSum();
+    final ExactSum sumErr = new ExactSum();
+
+    static GroupSums[] array(int n) {
+      GroupSums[] a = new GroupSums[n];
+      for (int i = 0; i < n; i++) {
+        a[i] = new GroupSums();
+      }
+      return a;
+    }
+
+    void add(double e, boolean wasCovered) {
+      count++;
+      if (wasCovered) {
+        covered++;
+      }
+      sumAbs.add(Math.abs(e));
+      sumSq.add(e * e);
+      sumErr.add(e);
+    }
+
+    /** As {@link Metrics.Accumulator#metrics}, from the exact sums rounded once. */
+    Metrics metrics() {
+      if (count == 0) {
+        return Metrics.EMPTY;
+      }
+      return new Metrics(count, sumAbs.value() / count, Math.sqrt(sumSq.value() / count), sumErr.value() / count,
+          (double) covered / count);
+    }
+
+    BacktestResult.Group group(String label) {
+      return new BacktestResult.Group(label, metrics(), sumSq.value());
+    }
+
+    BacktestResult.EntityGroup entityGroup(List<String> values, int entities) {
+      return new BacktestResult.EntityGroup(values, entities, metrics(), sumSq.value());
+    }
   }
 
   /**
@@ -421,11 +626,14 @@ public final class Backtest {
     double[] low = new double[64];
     double[] high = new double[64];
     double[] actual = new double[64];
+    /** The entity's id in the variant's table ({@link VariantState#entityId}), or -1 without one. */
+    int[] entity = new int[64];
     int size;
 
-    void add(long o, long is, long t, double f, double lo, double hi, double a) {
+    void add(long o, long is, long t, double f, double lo, double hi, double a, int e) {
       if (size == origin.length) {
         int n = size * 2;
+        entity = Arrays.copyOf(entity, n);
         origin = Arrays.copyOf(origin, n);
         issue = Arrays.copyOf(issue, n);
         target = Arrays.copyOf(target, n);
@@ -441,6 +649,7 @@ public final class Backtest {
       low[size] = lo;
       high[size] = hi;
       actual[size] = a;
+      entity[size] = e;
       size++;
     }
 
@@ -511,15 +720,50 @@ public final class Backtest {
     final List<String> levels = new ArrayList<>();
     final Map<RecordId, String> setAside = new HashMap<>();
     final long[] horizons;
+    /** The slots of {@code input.forecast.entity_fields} (empty without input.forecast). */
+    final int[] entitySlots;
+    /** The entities of the settled simulated forecasts: values by id, and ids by values. */
+    final List<List<String>> entities = new ArrayList<>();
+    final Map<List<String>, Integer> entityIds = new HashMap<>();
 
     VariantState(Variant variant, int segmentSlot, List<String> weightNames, long[] horizons) {
       this.variant = variant;
       this.segmentSlot = segmentSlot;
       this.weightNames = weightNames;
       this.horizons = horizons;
+      PipelineConfig.Input in = variant.config().input();
+      List<String> fields = in.forecast().enabled() ? in.forecast().entityFields() : List.of();
+      this.entitySlots = new int[fields.size()];
+      for (int i = 0; i < entitySlots.length; i++) {
+        entitySlots[i] = in.schema().slot(fields.get(i));
+      }
     }
 
-    BacktestResult.HorizonVariant horizonResult(int h) {
+    /** The id of the record's entity (its entity fields' values), or -1 without entity fields. Allocates. */
+    int entityId(EventRecord record) {
+      if (entitySlots.length == 0) {
+        return -1;
+      }
+      List<String> values;
+      if (entitySlots.length == 1) {
+        values = List.of(String.valueOf(record.text(entitySlots[0])));
+      } else {
+        String[] vs = new String[entitySlots.length];
+        for (int i = 0; i < vs.length; i++) {
+          vs[i] = String.valueOf(record.text(entitySlots[i]));
+        }
+        values = List.of(vs);
+      }
+      Integer id = entityIds.get(values);
+      if (id == null) {
+        id = entities.size();
+        entities.add(values);
+        entityIds.put(values, id);
+      }
+      return id;
+    }
+
+    BacktestResult.HorizonVariant horizonResult(int h, BacktestResult.Breakdown breakdown) {
       Metrics.Accumulator acc = new Metrics.Accumulator();
       long warming = 0;
       long unsettled = 0;
@@ -544,7 +788,7 @@ public final class Backtest {
         held = Math.max(held, lane.simulated.maxHeld());
       }
       return new BacktestResult.HorizonVariant(variant.label(), acc.metrics(), warming, unsettled, beyond, notIssued,
-          lookahead, held);
+          lookahead, held, breakdown);
     }
 
     Lane lane(int p) {
@@ -812,7 +1056,7 @@ public final class Backtest {
         List<double[]> made = outstanding.remove(offset);
         if (made != null && learned) {
           for (double[] m : made) {
-            logs[(int) m[0]].add(offset, (long) m[1], (long) m[2], m[3], m[4], m[5], learnedActual);
+            logs[(int) m[0]].add(offset, (long) m[1], (long) m[2], m[3], m[4], m[5], learnedActual, -1);
           }
         }
       }
@@ -875,7 +1119,7 @@ public final class Backtest {
       // first settling, as the snapshots' errors by horizon count it
       if (h >= 0 && h < logs.length && !s.correction()) {
         logs[(int) h].add(s.requestOffset(), s.issueTimeMillis(), s.targetTimeMillis(), s.forecast(), s.low(), s.high(),
-            s.actual());
+            s.actual(), owner.entityId(record));
       }
     }
 

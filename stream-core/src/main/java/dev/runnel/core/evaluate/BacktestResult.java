@@ -60,9 +60,73 @@ public record BacktestResult(long records, int partitions, String segmentField, 
    *     the step rejected: not simulated
    * @param lookaheadMillis the span of event time the records were held back for
    * @param maxHeld the most records held back at once (per partition)
+   * @param breakdown the same settled forecasts by entity, by hour of day and by period of the target time
    */
   public record HorizonVariant(String label, Metrics metrics, long warmingUp, long notSettled, long beyondLookahead,
-                               long notIssued, long lookaheadMillis, int maxHeld) { }
+                               long notIssued, long lookaheadMillis, int maxHeld, Breakdown breakdown) { }
+
+  /**
+   * Where within one horizon the error of one configuration is (docs/backtesting.md, "Where within a
+   * horizon"). Every row's metrics come from exact sums of its forecasts' errors, |errors| and
+   * squared errors (each squared error the double e·e), rounded once: the rows of one table hold
+   * every settled forecast of the horizon exactly once, so their counts add up to the horizon's
+   * count and their exact sums to the horizon's exact sums ({@link #total}).
+   *
+   * @param entityFields {@code input.forecast.entity_fields} (empty without {@code input.forecast}:
+   *     then there is no entity and {@code byEntity} is empty)
+   * @param topEntities how many entities get a row of their own (the rest share the "(other)" row)
+   * @param period the calendar period of {@code byPeriod}
+   * @param byEntity the entities with the most settled forecasts (counted over all configurations,
+   *     ties by their values), most first, then the "(other)" row when any entity was left over. The
+   *     same entities, in the same order, for every configuration
+   * @param byHour 24 rows, hour 0 first: the hour of day of the target time in the configuration's
+   *     {@code input.time_zone}
+   * @param byPeriod the periods of the target times (local, as the hours), in time order; the same
+   *     labels for every configuration (a period without forecasts has count 0)
+   * @param total all the settled forecasts of the horizon, from exact sums
+   */
+  public record Breakdown(List<String> entityFields, int topEntities, BreakdownPeriod period, List<EntityGroup> byEntity,
+                          List<Group> byHour, List<Group> byPeriod, Group total) {
+    public Breakdown {
+      entityFields = List.copyOf(entityFields);
+      byEntity = List.copyOf(byEntity);
+      byHour = List.copyOf(byHour);
+      byPeriod = List.copyOf(byPeriod);
+    }
+  }
+
+  /**
+   * One row of a breakdown.
+   *
+   * @param label the hour ("00" to "23"), the period (ISO 8601: 2026-W22 or 2026-05) or "total"
+   * @param metrics MAE, RMSE, bias and coverage from exact sums
+   * @param sumSquaredError the exact sum of the squared errors, rounded once
+   */
+  public record Group(String label, Metrics metrics, double sumSquaredError) { }
+
+  /**
+   * One entity's row of a breakdown, or the row of the entities left over.
+   *
+   * @param values the entity's values, one per entity field; empty for the "(other)" row
+   * @param entities 1 for an entity's row; for the "(other)" row, how many entities it holds
+   * @param metrics MAE, RMSE, bias and coverage from exact sums
+   * @param sumSquaredError the exact sum of the squared errors, rounded once
+   */
+  public record EntityGroup(List<String> values, int entities, Metrics metrics, double sumSquaredError) {
+    public EntityGroup {
+      values = List.copyOf(values);
+    }
+
+    /** Whether this is the row of the entities left over. */
+    public boolean other() {
+      return values.isEmpty();
+    }
+
+    /** The values joined by ", ", or "(other)". */
+    public String label() {
+      return values.isEmpty() ? "(other)" : String.join(", ", values);
+    }
+  }
 
   /**
    * The Diebold–Mariano tests of one pair at one horizon.

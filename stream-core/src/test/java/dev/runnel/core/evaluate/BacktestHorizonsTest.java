@@ -37,7 +37,7 @@ class BacktestHorizonsTest {
   static final List<Long> HORIZONS = List.of(3 * H, 24 * H);
 
   /** Actuals for hour T arrive at T + 1 h (+ 5 min per hub); the target time is the field {@code hour}. */
-  private static final String FORECAST_CONFIG = """
+  static final String FORECAST_CONFIG = """
       name: %s
       input:
         fields: {hub: text, x: number, y: number, made: time, hour: time}
@@ -59,7 +59,7 @@ class BacktestHorizonsTest {
       """;
 
   /** Without input.forecast: one series, the target time is the event time. */
-  private static final String PLAIN_CONFIG = """
+  static final String PLAIN_CONFIG = """
       name: %s
       input:
         fields: {hub: text, x: number, y: number, made: time}
