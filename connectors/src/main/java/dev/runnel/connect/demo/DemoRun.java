@@ -223,7 +223,7 @@ public final class DemoRun {
     List<JsonNode> out = new ArrayList<>();
     TopicReader.readAll(bootstrap, topic, r -> {
       try {
-        out.add(JSON.readTree(r.value()));
+        out.add(dev.runnel.connect.output.OutputRecords.read(r.headers(), r.value())); // JSON or Avro outputs
       } catch (IOException e) {
         throw new UncheckedIOException(e);
       }

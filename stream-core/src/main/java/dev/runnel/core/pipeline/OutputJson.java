@@ -810,7 +810,7 @@ public final class OutputJson {
    * returned unchanged (written exactly). Deterministic: exact comparisons and one rounding. Package-private
    * for tests.
    */
-  static double roundSignificant(double v, int n) {
+  public static double roundSignificant(double v, int n) {
     if (v == 0 || Double.isNaN(v) || Double.isInfinite(v)) {
       return v;
     }
