@@ -219,7 +219,8 @@ public final class DemoRun {
     }
   }
 
-  private static List<JsonNode> readJson(String bootstrap, String topic) {
+  /** Every committed record of an output topic in the JSON layout (JSON or Avro values: {@code OutputRecords}). */
+  public static List<JsonNode> readJson(String bootstrap, String topic) {
     List<JsonNode> out = new ArrayList<>();
     TopicReader.readAll(bootstrap, topic, r -> {
       try {

@@ -40,12 +40,12 @@ import org.junit.jupiter.params.provider.ValueSource;
  * {@code Double.parseDouble}, the correctly rounded reading of java.lang). The demo sample has
  * requests, actuals, corrections (settled again, {@code replaced_actual}) and five bad records.
  */
-class AvroOutputsReferenceTest {
+public class AvroOutputsReferenceTest {
 
-  static final Path SAMPLE = Path.of("../demo-data/samples/quillmarsh-small.jsonl");
+  public static final Path SAMPLE = Path.of("../demo-data/samples/quillmarsh-small.jsonl");
 
   /** The demo configuration's YAML with {@code extra} lines added to its {@code outputs} section. */
-  static PipelineConfig demo(String... extra) throws IOException {
+  public static PipelineConfig demo(String... extra) throws IOException {
     String yaml;
     try (InputStream in = DemoRun.class.getResourceAsStream(DemoRun.CONFIG_RESOURCE)) {
       yaml = new String(in.readAllBytes(), StandardCharsets.UTF_8);
