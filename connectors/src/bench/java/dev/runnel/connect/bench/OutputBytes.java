@@ -119,15 +119,19 @@ public final class OutputBytes {
     }
     double inLz4Per = (double) inLz4 / lines.size();
     System.out.printf(Locale.ROOT, "input lz4 in batches of %d records: %.1f bytes a record%n%n", BATCH, inLz4Per);
-    System.out.println("| encoding | echo_fields | significant_digits | prediction B | settled B | settled per input | prediction B/input | settled B/input | snapshot B/input | reject B/input | all B/input | ÷ input | lz4 all B/input | lz4 ÷ input lz4 |");
+    System.out.println("| encoding | echo_fields | significant_digits (snapshot_every) | prediction B | settled B | settled per input | prediction B/input | settled B/input | snapshot B/input | reject B/input | all B/input | ÷ input | lz4 all B/input | lz4 ÷ input lz4 |");
     System.out.println("|---|---|---|---|---|---|---|---|---|---|---|---|---|---|");
     List<String> all = List.of("kind", "hub", "weather");
     for (PipelineConfig.OutputEncoding enc : PipelineConfig.OutputEncoding.values())
     for (List<String> echo : List.<List<String>>of(demo.outputs().echoFields(), List.of(), all)) {
-      for (int digits : enc == PipelineConfig.OutputEncoding.AVRO ? new int[] {0} : new int[] {0, 6}) {
+      // the last: the demo's outputs with a snapshot a day (P1D) instead of every six hours
+      for (int digits : enc == PipelineConfig.OutputEncoding.AVRO ? new int[] {0, -1} : new int[] {0, 6, -1}) {
+        if (digits < 0 && echo != demo.outputs().echoFields()) {
+          continue;
+        }
         PipelineConfig.Outputs o = demo.outputs();
-        PipelineConfig.Outputs v = new PipelineConfig.Outputs(o.snapshotEveryRecords(), o.snapshotEveryMillis(),
-            o.metricsHalfLifeRecords(), echo, digits, enc);
+        PipelineConfig.Outputs v = new PipelineConfig.Outputs(o.snapshotEveryRecords(),
+            digits < 0 ? 86_400_000L : o.snapshotEveryMillis(), o.metricsHalfLifeRecords(), echo, Math.max(0, digits), enc);
         PipelineConfig c = new PipelineConfig(demo.name(), demo.input(), demo.target(), demo.features(), demo.model(), v,
             demo.kafka(), demo.web(), demo.sourceName());
         PipelineProcessor p = new PipelineProcessor(c, new TopicPartition("quillmarsh.sessions", 0));
@@ -140,8 +144,8 @@ public final class OutputBytes {
         for (int i = 0; i < 4; i++) out.flush(i);
         long lz = out.compressed[0] + out.compressed[1] + out.compressed[2] + out.compressed[3];
         double n = lines.size();
-        System.out.printf(Locale.ROOT, "| %s | %s | %d | %.1f | %.1f | %.2f | %.1f | %.1f | %.1f | %.1f | %.1f | %.2f | %.1f | %.2f |%n",
-            enc.word(), echo.toString(), digits, (double) out.bytes[0] / out.count[0],
+        System.out.printf(Locale.ROOT, "| %s | %s | %s | %.1f | %.1f | %.2f | %.1f | %.1f | %.1f | %.1f | %.1f | %.2f | %.1f | %.2f |%n",
+            enc.word(), echo.toString(), digits < 0 ? "0 (P1D)" : Integer.toString(digits), (double) out.bytes[0] / out.count[0],
             out.count[3] == 0 ? 0.0 : (double) out.bytes[3] / out.count[3], out.count[3] / n,
             out.bytes[0] / n, out.bytes[3] / n, out.bytes[1] / n, out.bytes[2] / n, total / n, total / n / inPer,
             lz / n, lz / n / inLz4Per);

@@ -46,7 +46,8 @@ import org.junit.jupiter.api.io.TempDir;
  * {@code run}'s values are byte for byte the datums {@code replay} writes to its container files; and
  * every reader of the outputs reads the Avro run as it reads the JSON one: the live page's feed
  * ({@link LiveState}, following the topics), the demo summary's topic reader
- * ({@link DemoRun#readJson}) and the run's reject tally ({@link OutputTally}).
+ * ({@link DemoRun#readJson}), the run's reject tally ({@link OutputTally}) and {@code drift} (which
+ * reads the snapshots: JSON in both encodings).
  */
 @ExtendWith(EmbeddedKafkaExtension.class)
 class AvroOutputsOnKafkaTest {
@@ -131,6 +132,22 @@ class AvroOutputsOnKafkaTest {
         AvroOutputsReferenceTest.sameJson(want.get(i), got.get(i + skip), name + " record " + i);
       }
     }
+
+    // drift reads the snapshots, JSON in both encodings: from the Avro run's topic, and from the Avro replay's folder as from the JSON one's
+    java.io.ByteArrayOutputStream fromTopic = new java.io.ByteArrayOutputStream();
+    assertEquals(0, dev.runnel.connect.cli.DriftCommandAccess.print(bs, cfg.name() + ".coefficients",
+        new dev.runnel.connect.drift.DriftTable("first", 3, null, null), new java.io.PrintStream(fromTopic, true, StandardCharsets.UTF_8)));
+    long rows = fromTopic.toString(StandardCharsets.UTF_8).lines().count();
+    assertTrue(rows > 10, "drift printed the Avro run's snapshots: " + rows + " lines");
+    String[] drift = new String[2];
+    int k = 0;
+    for (Path folder : List.of(avro, json)) {
+      java.io.ByteArrayOutputStream b = new java.io.ByteArrayOutputStream();
+      assertEquals(0, dev.runnel.connect.cli.DriftCommandAccess.printFile(folder.resolve("coefficients.jsonl"),
+          new dev.runnel.connect.drift.DriftTable("first", 3, null, null), new java.io.PrintStream(b, true, StandardCharsets.UTF_8)));
+      drift[k++] = b.toString(StandardCharsets.UTF_8);
+    }
+    assertEquals(drift[1], drift[0], "drift of the Avro replay = drift of the JSON replay");
 
     // the reject tally read the Avro rejects' reasons
     Map<String, Long> reasons = new TreeMap<>();
