@@ -280,6 +280,11 @@ public class AvroOutputsReferenceTest {
       }
       assertTrue(docs.contains("`" + k.file() + "`") && docs.contains(hex.toString()),
           "docs/formats.md names " + k.file() + " and its header bytes " + hex);
+      String file;
+      try (InputStream in = OutputSchemas.class.getResourceAsStream(OutputSchemas.RESOURCE_DIR + k.file())) {
+        file = new String(in.readAllBytes(), StandardCharsets.UTF_8).strip();
+      }
+      assertTrue(docs.contains("```json\n" + file + "\n```"), "docs/formats.md shows " + k.file() + " as shipped");
     }
     assertNull(OutputSchemas.byFingerprint(new byte[8]));
     assertNull(OutputSchemas.byFingerprint(new byte[3]));
