@@ -179,6 +179,7 @@ class AvroOutputsOnKafkaTest {
     assertTrue(!records.isEmpty(), kind.name());
     for (ConsumerRecord<byte[], byte[]> r : records) {
       Header h = r.headers().lastHeader(OutputSchemas.HEADER_SCHEMA);
+      org.junit.jupiter.api.Assertions.assertNotNull(h, r.topic() + " offset " + r.offset() + ": no " + OutputSchemas.HEADER_SCHEMA + " header");
       assertArrayEquals(kind.fingerprintBytes(), h.value(), r.topic() + " offset " + r.offset());
       assertNull(r.headers().lastHeader("runnel.format"), "the fingerprint names the format");
     }
