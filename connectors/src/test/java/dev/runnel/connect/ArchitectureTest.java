@@ -40,7 +40,7 @@ class ArchitectureTest {
     rank(3, "dev.runnel.core.pipeline");
     rank(4, "dev.runnel.core.evaluate");
     rank(5, "dev.runnel.connect.text");
-    rank(10, "dev.runnel.connect.file", "dev.runnel.connect.broker", "dev.runnel.connect.kafka");
+    rank(10, "dev.runnel.connect.file", "dev.runnel.connect.broker", "dev.runnel.connect.kafka", "dev.runnel.connect.output");
     rank(11, "dev.runnel.connect.pipeline", "dev.runnel.connect.replay", "dev.runnel.connect.report",
         "dev.runnel.connect.web", "dev.runnel.connect.drift");
     rank(12, "dev.runnel.connect.recording", "dev.runnel.connect.launch");

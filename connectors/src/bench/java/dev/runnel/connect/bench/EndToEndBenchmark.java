@@ -120,6 +120,7 @@ public final class EndToEndBenchmark {
         case "--latency-seconds" -> latencySeconds = Integer.parseInt(args[++a]);
         case "--out" -> out = Path.of(args[++a]);
         case "--folder" -> folder = Path.of(args[++a]);
+        case "--encoding" -> encoding = PipelineConfig.OutputEncoding.valueOf(args[++a].toUpperCase(Locale.ROOT));
         case "--producer-prop" -> {
           String kv = args[++a];
           int eq = kv.indexOf('=');
@@ -253,11 +254,14 @@ public final class EndToEndBenchmark {
     System.err.println("[e2e] " + String.format(Locale.ROOT, fmt, args));
   }
 
+  /** {@code --encoding json|avro}: the pipeline's {@code outputs.encoding} (default json). */
+  static PipelineConfig.OutputEncoding encoding = PipelineConfig.OutputEncoding.JSON;
+
   static PipelineConfig benchConfig(String name, String topic) {
     PipelineConfig b = DemoRun.demoConfig();
     return new PipelineConfig(name,
         new PipelineConfig.Input(Optional.of(topic), b.input().schema(), b.input().eventTime(), b.input().timeZone(), b.input().limits()),
-        b.target(), b.features(), b.model(), b.outputs(), b.kafka(), b.web(), b.sourceName());
+        b.target(), b.features(), b.model(), b.outputs().withEncoding(encoding), b.kafka(), b.web(), b.sourceName());
   }
 
   static Admin admin(String bs) {
@@ -368,7 +372,8 @@ public final class EndToEndBenchmark {
         while (!stop.get()) {
           for (ConsumerRecord<byte[], byte[]> r : c.poll(Duration.ofMillis(50))) {
             long now = System.nanoTime();
-            long off = sourceOffset(r.value());
+            long off = r.headers().lastHeader(dev.runnel.connect.output.OutputSchemas.HEADER_SCHEMA) != null
+                ? avroSourceOffset(r.value()) : sourceOffset(r.value());
             seen[0]++;
             if (off >= warmupCount && off < n) {
               h.recordValue(Math.max(0, (now - sentNanos[(int) off]) / 1000));
@@ -401,6 +406,27 @@ public final class EndToEndBenchmark {
     runner.close();
     rt.join(60_000);
     return h;
+  }
+
+  /**
+   * The input offset an Avro prediction names (docs/formats.md, "Avro outputs": the enum {@code status},
+   * then {@code source.partition} and {@code source.offset}, each a zig-zag varint); -1 if cut short.
+   */
+  static long avroSourceOffset(byte[] v) {
+    int[] at = {0};
+    for (int field = 0; field < 3; field++) {
+      long z = 0;
+      int shift = 0;
+      while (true) {
+        if (at[0] >= v.length || shift > 63) return -1;
+        int b = v[at[0]++] & 0xFF;
+        z |= (long) (b & 0x7F) << shift;
+        shift += 7;
+        if ((b & 0x80) == 0) break;
+      }
+      if (field == 2) return (z >>> 1) ^ -(z & 1);
+    }
+    return -1;
   }
 
   /** The input offset a prediction names ({@code "offset":N} inside {@code "source"}); -1 if none. */

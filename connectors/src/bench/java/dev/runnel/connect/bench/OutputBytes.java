@@ -17,8 +17,9 @@ import org.apache.kafka.common.header.Header;
  * Bytes out per input record, uncompressed: the demo configuration's {@link PipelineProcessor} (what
  * {@code run} runs) over a JSON Lines file, every output record counted as key + value + its headers'
  * names and values (the state records are not counted: one per partition per commit). Against the
- * input's value bytes per record. One line per variant of {@code outputs.echo_fields} and
- * {@code outputs.significant_digits}.
+ * input's value bytes per record. One line per variant of {@code outputs.encoding},
+ * {@code outputs.echo_fields} and {@code outputs.significant_digits}; each topic's records counted with
+ * that topic's headers (Avro outputs carry only the schema fingerprint).
  *
  * <pre>{@code
  * mvn -o -q -pl connectors -am package -DskipTests
@@ -36,34 +37,38 @@ public final class OutputBytes {
   static final class Counting implements Emitter {
     final long[] bytes = new long[4];
     final long[] count = new long[4];
-    final long headerBytes;
-    final byte[] headerText;
+    final long[] headerBytes = new long[4];
+    final byte[][] headerText = new byte[4][];
     /** lz4 frame bytes of the records grouped as batches of {@link #BATCH} per topic. */
     final long[] compressed = new long[4];
     final java.io.ByteArrayOutputStream[] pending = new java.io.ByteArrayOutputStream[4];
     final int[] inBatch = new int[4];
 
-    Counting(Header[] headers) {
-      long h = 0;
-      for (Header x : headers) {
-        h += x.key().getBytes(StandardCharsets.UTF_8).length + x.value().length;
+    /** @param p the processor whose headers per output topic are counted with each record */
+    Counting(PipelineProcessor p) {
+      PipelineProcessor.OutputTopic[] order = {PipelineProcessor.OutputTopic.PREDICTIONS, PipelineProcessor.OutputTopic.COEFFICIENTS,
+          PipelineProcessor.OutputTopic.REJECTS, PipelineProcessor.OutputTopic.SETTLED};
+      for (int i = 0; i < 4; i++) {
+        Header[] headers = p.outputHeaders(order[i]);
+        long h = 0;
+        java.io.ByteArrayOutputStream t = new java.io.ByteArrayOutputStream();
+        for (Header x : headers) {
+          h += x.key().getBytes(StandardCharsets.UTF_8).length + x.value().length;
+          t.writeBytes(x.key().getBytes(StandardCharsets.UTF_8));
+          t.writeBytes(x.value());
+        }
+        headerBytes[i] = h;
+        headerText[i] = t.toByteArray();
       }
-      headerBytes = h;
-      java.io.ByteArrayOutputStream t = new java.io.ByteArrayOutputStream();
-      for (Header x : headers) {
-        t.writeBytes(x.key().getBytes(StandardCharsets.UTF_8));
-        t.writeBytes(x.value());
-      }
-      headerText = t.toByteArray();
       for (int i = 0; i < 4; i++) pending[i] = new java.io.ByteArrayOutputStream();
     }
 
     private void add(int i, byte[] key, byte[] value) {
-      bytes[i] += (key == null ? 0 : key.length) + value.length + headerBytes;
+      bytes[i] += (key == null ? 0 : key.length) + value.length + headerBytes[i];
       count[i]++;
       if (key != null) pending[i].writeBytes(key);
       pending[i].writeBytes(value);
-      pending[i].writeBytes(headerText);
+      pending[i].writeBytes(headerText[i]);
       if (++inBatch[i] == BATCH) flush(i);
     }
 
@@ -114,18 +119,23 @@ public final class OutputBytes {
     }
     double inLz4Per = (double) inLz4 / lines.size();
     System.out.printf(Locale.ROOT, "input lz4 in batches of %d records: %.1f bytes a record%n%n", BATCH, inLz4Per);
-    System.out.println("| echo_fields | significant_digits | prediction B | snapshot B/input | reject B/input | all B/input | ÷ input | lz4 all B/input | lz4 ÷ input lz4 |");
-    System.out.println("|---|---|---|---|---|---|---|---|---|");
+    System.out.println("| encoding | echo_fields | significant_digits (snapshot_every) | prediction B | settled B | settled per input | prediction B/input | settled B/input | snapshot B/input | reject B/input | all B/input | ÷ input | lz4 all B/input | lz4 ÷ input lz4 |");
+    System.out.println("|---|---|---|---|---|---|---|---|---|---|---|---|---|---|");
     List<String> all = List.of("kind", "hub", "weather");
-    for (List<String> echo : List.<List<String>>of(all, List.of())) {
-      for (int digits : new int[] {0, 6, 4}) {
+    for (PipelineConfig.OutputEncoding enc : PipelineConfig.OutputEncoding.values())
+    for (List<String> echo : List.<List<String>>of(demo.outputs().echoFields(), List.of(), all)) {
+      // the last: the demo's outputs with a snapshot a day (P1D) instead of every six hours
+      for (int digits : enc == PipelineConfig.OutputEncoding.AVRO ? new int[] {0, -1} : new int[] {0, 6, -1}) {
+        if (digits < 0 && echo != demo.outputs().echoFields()) {
+          continue;
+        }
         PipelineConfig.Outputs o = demo.outputs();
-        PipelineConfig.Outputs v = new PipelineConfig.Outputs(o.snapshotEveryRecords(), o.snapshotEveryMillis(),
-            o.metricsHalfLifeRecords(), echo, digits);
+        PipelineConfig.Outputs v = new PipelineConfig.Outputs(o.snapshotEveryRecords(),
+            digits < 0 ? 86_400_000L : o.snapshotEveryMillis(), o.metricsHalfLifeRecords(), echo, Math.max(0, digits), enc);
         PipelineConfig c = new PipelineConfig(demo.name(), demo.input(), demo.target(), demo.features(), demo.model(), v,
             demo.kafka(), demo.web(), demo.sourceName());
         PipelineProcessor p = new PipelineProcessor(c, new TopicPartition("quillmarsh.sessions", 0));
-        Counting out = new Counting(p.outputHeaders());
+        Counting out = new Counting(p);
         long off = 0;
         for (String l : lines) {
           p.process(off++, 0L, null, l.getBytes(StandardCharsets.UTF_8), out);
@@ -134,8 +144,10 @@ public final class OutputBytes {
         for (int i = 0; i < 4; i++) out.flush(i);
         long lz = out.compressed[0] + out.compressed[1] + out.compressed[2] + out.compressed[3];
         double n = lines.size();
-        System.out.printf(Locale.ROOT, "| %s | %d | %.1f | %.1f | %.1f | %.1f | %.2f | %.1f | %.2f |%n", echo.isEmpty() ? "[]" : echo.toString(),
-            digits, (double) out.bytes[0] / out.count[0], out.bytes[1] / n, out.bytes[2] / n, total / n, total / n / inPer,
+        System.out.printf(Locale.ROOT, "| %s | %s | %s | %.1f | %.1f | %.2f | %.1f | %.1f | %.1f | %.1f | %.1f | %.2f | %.1f | %.2f |%n",
+            enc.word(), echo.toString(), digits < 0 ? "0 (P1D)" : Integer.toString(digits), (double) out.bytes[0] / out.count[0],
+            out.count[3] == 0 ? 0.0 : (double) out.bytes[3] / out.count[3], out.count[3] / n,
+            out.bytes[0] / n, out.bytes[3] / n, out.bytes[1] / n, out.bytes[2] / n, total / n, total / n / inPer,
             lz / n, lz / n / inLz4Per);
       }
     }

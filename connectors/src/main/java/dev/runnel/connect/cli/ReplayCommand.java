@@ -30,7 +30,7 @@ public final class ReplayCommand implements Callable<Integer> {
   Path source;
 
   @Option(names = "--out", paramLabel = "DIR", defaultValue = "target/replay",
-      description = "Folder for predictions.jsonl, coefficients.jsonl, rejects.jsonl (default: ${DEFAULT-VALUE}).")
+      description = "Folder for predictions.jsonl, coefficients.jsonl, rejects.jsonl (.avro instead of .jsonl with outputs.encoding: avro; default: ${DEFAULT-VALUE}).")
   Path out;
 
 

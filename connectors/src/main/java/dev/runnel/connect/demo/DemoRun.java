@@ -219,11 +219,12 @@ public final class DemoRun {
     }
   }
 
-  private static List<JsonNode> readJson(String bootstrap, String topic) {
+  /** Every committed record of an output topic in the JSON layout (JSON or Avro values: {@code OutputRecords}). */
+  public static List<JsonNode> readJson(String bootstrap, String topic) {
     List<JsonNode> out = new ArrayList<>();
     TopicReader.readAll(bootstrap, topic, r -> {
       try {
-        out.add(JSON.readTree(r.value()));
+        out.add(dev.runnel.connect.output.OutputRecords.read(r.headers(), r.value())); // JSON or Avro outputs
       } catch (IOException e) {
         throw new UncheckedIOException(e);
       }

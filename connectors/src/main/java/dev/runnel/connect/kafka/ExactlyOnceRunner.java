@@ -159,8 +159,11 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     final int settledPart;
     final int statePart;
     PartitionProcessor proc;
-    /** {@code proc}'s output headers (empty for none). */
+    /** {@code proc}'s output headers per output topic (empty for none). */
     List<org.apache.kafka.common.header.Header> headers = List.of();
+    List<org.apache.kafka.common.header.Header> coefHeaders = List.of();
+    List<org.apache.kafka.common.header.Header> rejHeaders = List.of();
+    List<org.apache.kafka.common.header.Header> settledHeaders = List.of();
     long committedNext;
     byte[] committedCheckpoint;
     long next;
@@ -187,18 +190,18 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     }
 
     @Override public void snapshot(byte[] key, byte[] value) {
-      producer.send(new ProducerRecord<>(settings.coefficientsTopic(), coefPart, key, value, headers), sendCallback);
+      producer.send(new ProducerRecord<>(settings.coefficientsTopic(), coefPart, key, value, coefHeaders), sendCallback);
       outputsOut++;
     }
 
     @Override public void reject(byte[] key, byte[] value) {
-      producer.send(new ProducerRecord<>(settings.rejectsTopic(), rejPart, key, value, headers), sendCallback);
+      producer.send(new ProducerRecord<>(settings.rejectsTopic(), rejPart, key, value, rejHeaders), sendCallback);
       outputsOut++;
       rejects++;
     }
 
     @Override public void settled(byte[] key, byte[] value) {
-      producer.send(new ProducerRecord<>(settings.settledTopic(), settledPart, key, value, headers), sendCallback);
+      producer.send(new ProducerRecord<>(settings.settledTopic(), settledPart, key, value, settledHeaders), sendCallback);
       outputsOut++;
     }
   }
@@ -832,7 +835,10 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     consumer.seek(s.tp, s.committedNext);
     try {
       s.proc = factory.create(s.tp);
-      s.headers = List.of(s.proc.outputHeaders());
+      s.headers = List.of(s.proc.outputHeaders(PartitionProcessor.OutputTopic.PREDICTIONS));
+      s.coefHeaders = List.of(s.proc.outputHeaders(PartitionProcessor.OutputTopic.COEFFICIENTS));
+      s.rejHeaders = List.of(s.proc.outputHeaders(PartitionProcessor.OutputTopic.REJECTS));
+      s.settledHeaders = List.of(s.proc.outputHeaders(PartitionProcessor.OutputTopic.SETTLED));
       s.proc.restore(s.committedCheckpoint == null ? null : s.committedCheckpoint.clone());
     } catch (RuntimeException e) {
       throw new FatalException("the processor of " + s.tp + " could not be created or restored from its checkpoint ("

@@ -70,6 +70,20 @@ public interface PartitionProcessor {
     return NO_HEADERS;
   }
 
+  /** The output topics, for {@link #outputHeaders(OutputTopic)}. */
+  enum OutputTopic { PREDICTIONS, COEFFICIENTS, REJECTS, SETTLED }
+
+  /**
+   * Headers the runner puts on the records this processor emits to one output topic (an encoding
+   * may differ per topic: docs/formats.md), asked once per processor and topic. The default:
+   * {@link #outputHeaders()} on every topic.
+   *
+   * @return new array; the runner keeps it and never changes it
+   */
+  default org.apache.kafka.common.header.Header[] outputHeaders(OutputTopic topic) {
+    return outputHeaders();
+  }
+
   /** No output headers. */
   org.apache.kafka.common.header.Header[] NO_HEADERS = new org.apache.kafka.common.header.Header[0];
 

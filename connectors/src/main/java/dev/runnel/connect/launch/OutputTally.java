@@ -55,10 +55,13 @@ public final class OutputTally {
     return m;
   }
 
-  /** The reason id inside a reject record, or "unknown" (rare path: rejects are few). */
-  static String reasonOf(byte[] value) {
+  /**
+   * The reason id inside a reject record, JSON or Avro (told by the headers the processor puts on its
+   * rejects), or "unknown" (rare path: rejects are few).
+   */
+  static String reasonOf(org.apache.kafka.common.header.Header[] headers, byte[] value) {
     try {
-      JsonNode n = JSON.readTree(value);
+      JsonNode n = dev.runnel.connect.output.OutputRecords.read(headers, value);
       String r = n.path("reason").asText("");
       return r.isEmpty() ? "unknown" : r;
     } catch (IOException e) {
@@ -69,9 +72,26 @@ public final class OutputTally {
   private final class Counting implements PartitionProcessor, Emitter {
     private final PartitionProcessor inner;
     private Emitter out;
+    /** The headers of the inner processor's rejects: they tell the encoding. */
+    private final org.apache.kafka.common.header.Header[] rejectHeaders;
 
     Counting(PartitionProcessor inner) {
       this.inner = inner;
+      this.rejectHeaders = inner.outputHeaders(OutputTopic.REJECTS);
+    }
+
+    // the inner processor's headers go on its outputs (without these the runner put none)
+    @Override public org.apache.kafka.common.header.Header[] outputHeaders() {
+      return inner.outputHeaders();
+    }
+
+    @Override public org.apache.kafka.common.header.Header[] outputHeaders(OutputTopic topic) {
+      return inner.outputHeaders(topic);
+    }
+
+    @Override public void processingFailed(long offset, long timestampMillis, byte[] key, byte[] value, String message, Emitter out) {
+      this.out = out;
+      inner.processingFailed(offset, timestampMillis, key, value, message, this);
     }
 
     @Override public void restore(byte[] checkpointOrNull) {
@@ -98,7 +118,7 @@ public final class OutputTally {
     }
 
     @Override public void reject(byte[] key, byte[] value) {
-      rejects.computeIfAbsent(reasonOf(value), k -> new AtomicLong()).incrementAndGet();
+      rejects.computeIfAbsent(reasonOf(rejectHeaders, value), k -> new AtomicLong()).incrementAndGet();
       out.reject(key, value);
     }
 

@@ -3,6 +3,8 @@ package dev.runnel.connect.pipeline;
 import dev.runnel.connect.kafka.Emitter;
 import dev.runnel.connect.kafka.PartitionProcessor;
 import dev.runnel.connect.kafka.ProcessorFactory;
+import dev.runnel.connect.output.OutputEncoder;
+import dev.runnel.connect.output.OutputSchemas;
 import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.pipeline.OutputJson;
 import dev.runnel.core.pipeline.PipelineStep;
@@ -47,6 +49,8 @@ public final class PipelineProcessor implements PartitionProcessor {
   private final AvroValues avro;
   private final int maxRecordBytes;
   private final OutputJson json;
+  /** Predictions, settled forecasts and rejects in the configured {@code outputs.encoding}. */
+  private final OutputEncoder encoder;
   private final int partition;
   private final byte[] partitionKey;
   private final StepSink sink = new StepSink();
@@ -82,8 +86,12 @@ public final class PipelineProcessor implements PartitionProcessor {
   private RequestForecast requests;
   private OutputJson requestJson;
   private final PipelineConfig config;
-  /** The format version and pipeline name, on every output record instead of in its value. */
+  /** The format version and pipeline name, on every output record instead of in its value (JSON; snapshots always). */
   private final Header[] headers;
+  /** With {@code outputs.encoding: avro}: the schema fingerprint header of predictions, rejects and settled forecasts. */
+  private final Header[] predictionHeaders;
+  private final Header[] rejectHeaders;
+  private final Header[] settledHeaders;
 
   /**
    * @param config the pipeline configuration. Not modified.
@@ -98,6 +106,17 @@ public final class PipelineProcessor implements PartitionProcessor {
     this.headers = new RecordHeader[] {
         new RecordHeader(OutputJson.HEADER_FORMAT, Integer.toString(OutputJson.FORMAT_VERSION).getBytes(StandardCharsets.US_ASCII)),
         new RecordHeader(OutputJson.HEADER_PIPELINE, config.name().getBytes(StandardCharsets.UTF_8))};
+    this.encoder = OutputEncoder.of(config, json);
+    if (encoder.encoding() == PipelineConfig.OutputEncoding.AVRO) {
+      // the fingerprint names the schema, which names the format; the pipeline is in the topic's name
+      this.predictionHeaders = schemaHeader(OutputSchemas.Kind.PREDICTION);
+      this.rejectHeaders = schemaHeader(OutputSchemas.Kind.REJECT);
+      this.settledHeaders = schemaHeader(OutputSchemas.Kind.SETTLED);
+    } else {
+      this.predictionHeaders = headers;
+      this.rejectHeaders = headers;
+      this.settledHeaders = headers;
+    }
     this.partition = tp.partition();
     this.partitionKey = (tp.topic() + "-" + tp.partition()).getBytes(StandardCharsets.UTF_8);
   }
@@ -116,6 +135,24 @@ public final class PipelineProcessor implements PartitionProcessor {
   @Override
   public Header[] outputHeaders() {
     return headers.clone();
+  }
+
+  /**
+   * JSON: {@link #outputHeaders()} on every topic. Avro: {@value OutputSchemas#HEADER_SCHEMA} alone on
+   * predictions, rejects and settled forecasts; snapshots (JSON) keep the two headers.
+   */
+  @Override
+  public Header[] outputHeaders(OutputTopic topic) {
+    return switch (topic) {
+      case PREDICTIONS -> predictionHeaders.clone();
+      case COEFFICIENTS -> headers.clone();
+      case REJECTS -> rejectHeaders.clone();
+      case SETTLED -> settledHeaders.clone();
+    };
+  }
+
+  private static Header[] schemaHeader(OutputSchemas.Kind kind) {
+    return new Header[] {new RecordHeader(OutputSchemas.HEADER_SCHEMA, kind.fingerprintBytes())};
   }
 
   @Override
@@ -273,7 +310,7 @@ public final class PipelineProcessor implements PartitionProcessor {
   @Override
   public void processingFailed(long offset, long timestampMillis, byte[] key, byte[] value, String message, Emitter out) {
     byte[] v = value == null ? EMPTY : value;
-    out.reject(key, json.reject(RejectReason.PROCESSING_FAILED, message, partition, offset, v, 0, v.length));
+    out.reject(key, encoder.reject(RejectReason.PROCESSING_FAILED, message, partition, offset, v, 0, v.length));
   }
 
   @Override
@@ -302,13 +339,13 @@ public final class PipelineProcessor implements PartitionProcessor {
 
     @Override
     public void prediction(Prediction p, EventRecord record) {
-      out.prediction(key, json.prediction(p, record));
+      out.prediction(key, encoder.prediction(p, record));
     }
 
     @Override
     public void reject(RejectReason reason, String detail) {
       String d = value.length == 0 ? "the record has no value" : detail;
-      out.reject(key, json.reject(reason, d, partition, offset, value, 0, value.length));
+      out.reject(key, encoder.reject(reason, d, partition, offset, value, 0, value.length));
     }
 
     @Override
@@ -318,7 +355,7 @@ public final class PipelineProcessor implements PartitionProcessor {
 
     @Override
     public void settled(SettledForecast s, EventRecord record) {
-      out.settled(key, json.settled(s, record));
+      out.settled(key, encoder.settled(s, record));
     }
   }
 }

@@ -3,6 +3,8 @@ package dev.runnel.connect.replay;
 import dev.runnel.connect.file.CsvLines;
 import dev.runnel.connect.file.FileFormat;
 import dev.runnel.connect.file.JsonLinesReader;
+import dev.runnel.connect.output.OutputEncoder;
+import dev.runnel.connect.output.OutputSchemas;
 import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.pipeline.OutputJson;
 import dev.runnel.core.pipeline.PipelineStep;
@@ -24,6 +26,13 @@ import java.nio.file.Path;
  * the same name (docs/formats.md), and, with {@code input.forecast}, {@code settled.jsonl}: one
  * settled forecast a line (docs/forecasting.md). The file is partition {@value #PARTITION}; a record's offset is
  * its line number. No Kafka.
+ *
+ * <p>With {@code outputs.encoding: avro} predictions, rejects and settled forecasts go to
+ * {@code predictions.avro}, {@code rejects.avro} and {@code settled.avro} instead: Avro object
+ * container files (no compression) of the writer schemas in {@link OutputSchemas}, each datum the
+ * very bytes {@code run} publishes for it (appended pre-encoded), and a sync marker made from the
+ * schema (the first 16 bytes of the MD5 of its Parsing Canonical Form) rather than at random, so the
+ * same input gives the same file bytes. {@code coefficients.jsonl} stays JSON Lines.
  *
  * <p>Snapshots: every snapshot that becomes due is written as it does; when records came after
  * the last due one (or none became due), one more is taken at the end of the file with the next
@@ -63,13 +72,20 @@ public final class FileReplay {
     Files.createDirectories(out);
     PipelineStep step = new PipelineStep(config);
     OutputJson json = OutputJson.of(config);
+    OutputEncoder encoder = OutputEncoder.of(config, json);
+    boolean avro = encoder.encoding() == PipelineConfig.OutputEncoding.AVRO;
     // format 3 keeps the format version and pipeline name out of each line; the folder holds them once
     Files.write(out.resolve("format.json"), json.formatFile());
     long size = Files.size(source);
-    try (OutputStream preds = open(out.resolve("predictions.jsonl"));
+    boolean forecast = config.input().forecast().enabled();
+    try (Output preds = avro ? new AvroFile(out.resolve("predictions.avro"), OutputSchemas.Kind.PREDICTION)
+             : new Lines(open(out.resolve("predictions.jsonl")));
          OutputStream snaps = open(out.resolve("coefficients.jsonl"));
-         OutputStream rejects = open(out.resolve("rejects.jsonl"));
-         OutputStream settled = config.input().forecast().enabled() ? open(out.resolve("settled.jsonl")) : OutputStream.nullOutputStream()) {
+         Output rejects = avro ? new AvroFile(out.resolve("rejects.avro"), OutputSchemas.Kind.REJECT)
+             : new Lines(open(out.resolve("rejects.jsonl")));
+         Output settled = !forecast ? new Lines(OutputStream.nullOutputStream())
+             : avro ? new AvroFile(out.resolve("settled.avro"), OutputSchemas.Kind.SETTLED)
+             : new Lines(open(out.resolve("settled.jsonl")))) {
       long[] bytesDone = {0};
       long[] recordsAtLastSnapshot = {-1};
       // a line longer than max_record_bytes is rejected from its first bytes; the rest is never held
@@ -95,11 +111,11 @@ public final class FileReplay {
         private PipelineStep.Sink sink(byte[] buf, int off, int len, long line) {
           return new PipelineStep.Sink() {
             @Override public void prediction(Prediction p, EventRecord r) {
-              write(preds, json.prediction(p, r));
+              preds.write(encoder.prediction(p, r));
             }
 
             @Override public void reject(RejectReason reason, String detail) {
-              write(rejects, json.reject(reason, detail, PARTITION, line, buf, off, len));
+              rejects.write(encoder.reject(reason, detail, PARTITION, line, buf, off, len));
             }
 
             @Override public void snapshotDue() {
@@ -108,7 +124,7 @@ public final class FileReplay {
             }
 
             @Override public void settled(SettledForecast s, EventRecord r) {
-              write(settled, json.settled(s, r));
+              settled.write(encoder.settled(s, r));
             }
           };
         }
@@ -125,6 +141,50 @@ public final class FileReplay {
       }
     }
     return step;
+  }
+
+  /** One output file of predictions, rejects or settled forecasts. */
+  private interface Output extends java.io.Closeable {
+    void write(byte[] record);
+  }
+
+  /** JSON Lines: the record and a newline. */
+  private record Lines(OutputStream out) implements Output {
+    @Override public void write(byte[] record) {
+      FileReplay.write(out, record);
+    }
+
+    @Override public void close() throws IOException {
+      out.close();
+    }
+  }
+
+  /** An Avro object container file of one output schema, its datums appended as encoded. */
+  private static final class AvroFile implements Output {
+    private final org.apache.avro.file.DataFileWriter<Object> writer;
+
+    AvroFile(Path p, OutputSchemas.Kind kind) throws IOException {
+      byte[] sync;
+      try {
+        sync = java.util.Arrays.copyOf(org.apache.avro.SchemaNormalization.parsingFingerprint("MD5", kind.schema()), 16);
+      } catch (java.security.NoSuchAlgorithmException e) {
+        throw new IllegalStateException("MD5 is missing from this Java runtime", e); // every Java SE runtime has it
+      }
+      writer = new org.apache.avro.file.DataFileWriter<>(new org.apache.avro.generic.GenericDatumWriter<>(kind.schema()));
+      writer.create(kind.schema(), open(p), sync);
+    }
+
+    @Override public void write(byte[] record) {
+      try {
+        writer.appendEncoded(java.nio.ByteBuffer.wrap(record));
+      } catch (IOException e) {
+        throw new UncheckedIOException(e);
+      }
+    }
+
+    @Override public void close() throws IOException {
+      writer.close();
+    }
   }
 
   private static OutputStream open(Path p) throws IOException {

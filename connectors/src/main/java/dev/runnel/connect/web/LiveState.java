@@ -175,7 +175,7 @@ public final class LiveState implements AutoCloseable {
           }
         }
         for (ConsumerRecord<byte[], byte[]> r : c.poll(Duration.ofMillis(300))) {
-          take(r.topic().equals(coefTopic), r.key(), r.value());
+          take(r.topic().equals(coefTopic), r.key(), r.headers(), r.value());
         }
         sampleCounters();
       }
@@ -186,10 +186,11 @@ public final class LiveState implements AutoCloseable {
     }
   }
 
-  private void take(boolean snapshot, byte[] key, byte[] value) {
+  /** One record of the predictions (JSON or Avro, told by its headers: {@code OutputRecords}) or coefficients topic. */
+  private void take(boolean snapshot, byte[] key, org.apache.kafka.common.header.Headers headers, byte[] value) {
     JsonNode n;
     try {
-      n = JSON.readTree(value);
+      n = snapshot ? JSON.readTree(value) : dev.runnel.connect.output.OutputRecords.read(headers, value);
     } catch (IOException e) {
       return; // a record the view cannot read is skipped; the topic is authoritative
     }

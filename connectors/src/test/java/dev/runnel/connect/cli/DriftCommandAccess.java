@@ -12,4 +12,9 @@ public final class DriftCommandAccess {
   public static int print(String servers, String topic, DriftTable table, PrintStream out) {
     return DriftCommand.print(servers, Map.of(), topic, table, false, out);
   }
+
+  /** {@link DriftCommand#printFile}: a replay's {@code coefficients.jsonl}. */
+  public static int printFile(java.nio.file.Path file, DriftTable table, PrintStream out) throws java.io.IOException {
+    return DriftCommand.printFile(file, table, out);
+  }
 }

@@ -175,6 +175,7 @@ public final class ConfigKeys {
   public static final ConfigKey<Double> METRICS_HALF_LIFE_RECORDS = add(ConfigKey.number("outputs", "metrics_half_life_records", 1000, 0, true, 1.0e15, false, "use a number of records greater than 0"));
   public static final ConfigKey<?> ECHO_FIELDS = add(ConfigKey.structured("outputs", "echo_fields", "list of texts", "[] (none)"));
   public static final ConfigKey<Integer> SIGNIFICANT_DIGITS = add(ConfigKey.wholeInt("outputs", "significant_digits", 0, 0, 15));
+  public static final ConfigKey<PipelineConfig.OutputEncoding> OUTPUT_ENCODING = add(ConfigKey.choice("outputs", "encoding", PipelineConfig.OutputEncoding.JSON, PipelineConfig.OutputEncoding.values(), PipelineConfig.OutputEncoding::word));
 
   // ---- kafka ----
   public static final ConfigKey<String> BOOTSTRAP_SERVERS = add(ConfigKey.textOrEmpty("kafka", "bootstrap_servers", "", "use host:port[,host:port...], or \"\" for the embedded broker"));

@@ -929,7 +929,8 @@ public final class ConfigLoader {
         }
       }
       int digits = ConfigKeys.SIGNIFICANT_DIGITS.read(o);
-      return new PipelineConfig.Outputs(every, period, metrics, echo, digits);
+      PipelineConfig.OutputEncoding encoding = ConfigKeys.OUTPUT_ENCODING.read(o);
+      return new PipelineConfig.Outputs(every, period, metrics, echo, digits, encoding);
     }
 
     private PipelineConfig.Kafka kafka(Section k) {

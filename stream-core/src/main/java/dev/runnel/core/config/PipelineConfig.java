@@ -117,6 +117,21 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
     public String word() { return word; }
   }
 
+  /** {@code outputs.encoding}: how predictions, settled forecasts and rejects are written (docs/formats.md). */
+  public enum OutputEncoding {
+    /** One JSON object a record (the default). */
+    JSON("json"),
+    /** Avro binary of the published writer schemas, the schema's fingerprint in a header. */
+    AVRO("avro");
+
+    private final String word;
+
+    OutputEncoding(String word) { this.word = word; }
+
+    /** The configuration word. */
+    public String word() { return word; }
+  }
+
   /**
    * How the input topic's record values are encoded.
    *
@@ -271,11 +286,25 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    * @param significantDigits {@code significant_digits}: 0 = every prediction number exact (shortest
    *     decimal that reads back as the same double); 1..15 = predicted, low, high and error rounded to
    *     that many significant digits
+   * @param encoding {@code encoding}: how predictions, settled forecasts and rejects are written (snapshots
+   *     and checkpoints do not change)
    */
   public record Outputs(long snapshotEveryRecords, long snapshotEveryMillis, double metricsHalfLifeRecords,
-      List<String> echoFields, int significantDigits) {
+      List<String> echoFields, int significantDigits, OutputEncoding encoding) {
     public Outputs {
       echoFields = List.copyOf(echoFields);
+      java.util.Objects.requireNonNull(encoding, "encoding");
+    }
+
+    /** JSON outputs (the default encoding). */
+    public Outputs(long snapshotEveryRecords, long snapshotEveryMillis, double metricsHalfLifeRecords,
+        List<String> echoFields, int significantDigits) {
+      this(snapshotEveryRecords, snapshotEveryMillis, metricsHalfLifeRecords, echoFields, significantDigits, OutputEncoding.JSON);
+    }
+
+    /** The same outputs in another encoding. */
+    public Outputs withEncoding(OutputEncoding e) {
+      return new Outputs(snapshotEveryRecords, snapshotEveryMillis, metricsHalfLifeRecords, echoFields, significantDigits, e);
     }
 
     /** The defaults of the newer keys: nothing echoed, exact numbers. */

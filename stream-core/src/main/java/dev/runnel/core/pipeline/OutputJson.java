@@ -807,10 +807,10 @@ public final class OutputJson {
    * significant digits. Powers of ten up to 10^22 are exact doubles (common practice), so the
    * last step is one correctly rounded multiply or divide. Magnitudes whose scaling would need a
    * larger power (below about 10^-8 or at or above 10^22 for 15 digits) and non-finite values are
-   * returned unchanged (written exactly). Deterministic: exact comparisons and one rounding. Package-private
-   * for tests.
+   * returned unchanged (written exactly). Deterministic: exact comparisons and one rounding. Public
+   * so that the Avro outputs (connectors) round exactly as JSON does.
    */
-  static double roundSignificant(double v, int n) {
+  public static double roundSignificant(double v, int n) {
     if (v == 0 || Double.isNaN(v) || Double.isInfinite(v)) {
       return v;
     }

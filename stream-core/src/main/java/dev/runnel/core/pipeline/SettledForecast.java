@@ -23,6 +23,12 @@ public final class SettledForecast {
   /** The slots of the entity fields in the record's schema (set once by the step). Not modified. */
   int[] entitySlots = new int[0];
 
+  /** How many entity fields the forecast has (their slots: {@link #entitySlot}). */
+  public int entityFieldCount() { return entitySlots.length; }
+
+  /** The record slot of entity field {@code i} (0 ≤ i < {@link #entityFieldCount()}). */
+  public int entitySlot(int i) { return entitySlots[i]; }
+
   /** When the forecast was issued: the request's event time. */
   public long issueTimeMillis() { return issueTimeMillis; }
 

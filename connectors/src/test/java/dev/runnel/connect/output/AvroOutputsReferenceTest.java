@@ -1,0 +1,299 @@
+package dev.runnel.connect.output;
+
+import static org.junit.jupiter.api.Assertions.assertArrayEquals;
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertFalse;
+import static org.junit.jupiter.api.Assertions.assertNotNull;
+import static org.junit.jupiter.api.Assertions.assertNull;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+import static org.junit.jupiter.api.Assertions.fail;
+
+import com.fasterxml.jackson.databind.JsonNode;
+import dev.runnel.connect.demo.DemoRun;
+import dev.runnel.connect.replay.FileReplay;
+import dev.runnel.core.config.ConfigLoader;
+import dev.runnel.core.config.PipelineConfig;
+import java.io.IOException;
+import java.io.InputStream;
+import java.nio.charset.StandardCharsets;
+import java.nio.file.Files;
+import java.nio.file.Path;
+import java.time.Instant;
+import java.util.ArrayList;
+import java.util.Iterator;
+import java.util.List;
+import java.util.Map;
+import org.apache.avro.Schema;
+import org.apache.avro.file.DataFileReader;
+import org.apache.avro.generic.GenericDatumReader;
+import org.apache.avro.generic.GenericRecord;
+import org.junit.jupiter.api.Test;
+import org.junit.jupiter.api.io.TempDir;
+import org.junit.jupiter.params.ParameterizedTest;
+import org.junit.jupiter.params.provider.ValueSource;
+
+/**
+ * The Avro outputs of a demo run ({@code outputs.encoding: avro}) against the JSON outputs of the
+ * same run: decoded by Avro's own {@code GenericDatumReader} (the reference: Apache Avro 1.12.2,
+ * {@code org.apache.avro.generic}), every field of every prediction, settled forecast and reject has
+ * the JSON record's value, doubles bit for bit (the JSON text read back by Jackson, which parses with
+ * {@code Double.parseDouble}, the correctly rounded reading of java.lang). The demo sample has
+ * requests, actuals, corrections (settled again, {@code replaced_actual}) and five bad records.
+ */
+public class AvroOutputsReferenceTest {
+
+  public static final Path SAMPLE = Path.of("../demo-data/samples/quillmarsh-small.jsonl");
+
+  /** The demo configuration's YAML with {@code extra} lines added to its {@code outputs} section. */
+  public static PipelineConfig demo(String... extra) throws IOException {
+    String yaml;
+    try (InputStream in = DemoRun.class.getResourceAsStream(DemoRun.CONFIG_RESOURCE)) {
+      yaml = new String(in.readAllBytes(), StandardCharsets.UTF_8);
+    }
+    String anchor = "outputs:\n";
+    assertTrue(yaml.contains(anchor));
+    StringBuilder add = new StringBuilder(anchor);
+    for (String e : extra) {
+      add.append("  ").append(e).append('\n');
+    }
+    String changed = yaml.replace(anchor, add.toString());
+    for (String e : extra) {
+      // a key given twice would be refused; the demo's own echo_fields line goes when the test sets it
+      if (e.startsWith("echo_fields:")) {
+        changed = changed.replaceFirst("(?m)^  echo_fields: \\[hub\\].*\\n", "");
+      }
+    }
+    return ConfigLoader.parse(changed, "demo-test.yaml");
+  }
+
+  static Path replay(PipelineConfig cfg, Path dir) throws IOException {
+    FileReplay.run(cfg, SAMPLE, dir, null);
+    return dir;
+  }
+
+  @ParameterizedTest(name = "{0}")
+  @ValueSource(strings = {"demo outputs", "significant_digits: 6", "echo_fields: [kind, hub, weather]"})
+  void genericDatumReaderReadsEveryFieldAsJsonHasIt(String variant, @TempDir Path dir) throws IOException {
+    String[] extra = variant.equals("demo outputs") ? new String[0] : new String[] {variant};
+    Path json = replay(demo(extra), dir.resolve("json"));
+    String[] avroExtra = java.util.Arrays.copyOf(extra, extra.length + 1);
+    avroExtra[extra.length] = "encoding: avro";
+    PipelineConfig avroCfg = demo(avroExtra);
+    assertEquals(PipelineConfig.OutputEncoding.AVRO, avroCfg.outputs().encoding());
+    Path avro = replay(avroCfg, dir.resolve("avro"));
+    assertFalse(Files.exists(avro.resolve("predictions.jsonl")), "Avro replaces the JSON Lines files");
+    assertEquals(Files.readString(json.resolve("coefficients.jsonl")), Files.readString(avro.resolve("coefficients.jsonl")),
+        "snapshots stay JSON, the same bytes");
+    int compared = 0;
+    for (String[] pair : new String[][] {{"predictions", "PREDICTION"}, {"settled", "SETTLED"}, {"rejects", "REJECT"}}) {
+      List<JsonNode> expected = OutputRecords.readFile(json.resolve(pair[0] + ".jsonl"));
+      OutputSchemas.Kind kind = OutputSchemas.Kind.valueOf(pair[1]);
+      List<GenericRecord> got = new ArrayList<>();
+      try (DataFileReader<GenericRecord> r = new DataFileReader<>(avro.resolve(pair[0] + ".avro").toFile(),
+          new GenericDatumReader<>(kind.schema()))) {
+        assertEquals(kind.fingerprint(), org.apache.avro.SchemaNormalization.parsingFingerprint64(r.getSchema()),
+            "the container file's writer schema is the published one");
+        r.forEach(got::add);
+      }
+      assertEquals(expected.size(), got.size(), pair[0] + ": as many records");
+      assertTrue(expected.size() >= 5, pair[0] + ": the sample gives some: " + expected.size());
+      for (int i = 0; i < got.size(); i++) {
+        sameRecord(got.get(i), expected.get(i), pair[0] + " record " + i);
+        compared++;
+      }
+    }
+    assertTrue(compared > 8000, "records compared: " + compared);
+  }
+
+  /** Every field of the Avro record (by its schema) against the JSON object; the JSON has no other field. */
+  static void sameRecord(GenericRecord a, JsonNode j, String where) {
+    List<String> jsonFields = new ArrayList<>();
+    j.fieldNames().forEachRemaining(jsonFields::add);
+    int matched = 0;
+    for (Schema.Field f : a.getSchema().getFields()) {
+      String name = f.name();
+      Object v = a.get(name);
+      String at = where + " field " + name + " (" + j + ")";
+      switch (name) {
+        case "status", "reason", "detail", "raw" -> assertEquals(j.get(name).asText(), v.toString(), at);
+        case "source", "request", "actual_source" -> {
+          GenericRecord s = (GenericRecord) v;
+          long part = (Long) s.get("partition");
+          long off = (Long) s.get("offset");
+          JsonNode js = j.get(name);
+          if (part < 0 && off < 0 && name.equals("source")) {
+            assertNull(js, at);
+            continue;
+          }
+          assertEquals(js.has("partition") ? js.get("partition").asLong() : -1L, part, at);
+          assertEquals(js.has("offset") ? js.get("offset").asLong() : -1L, off, at);
+        }
+        case "event_time", "issue_time", "target_time" -> {
+          if (v == null) {
+            assertNull(j.get(name), at);
+            continue;
+          }
+          assertEquals(Instant.parse(j.get(name).asText()).toEpochMilli(), (long) (Long) v, at);
+        }
+        case "horizon_ms", "columns_version", "raw_length" -> {
+          if (v == null) {
+            assertNull(j.get(name), at);
+            continue;
+          }
+          assertTrue(j.get(name).isIntegralNumber(), at);
+          assertEquals(j.get(name).asLong(), (long) (Long) v, at);
+        }
+        case "target_passed", "covered", "raw_truncated" -> {
+          if (v == null) {
+            assertNull(j.get(name), at);
+            continue;
+          }
+          assertEquals(j.get(name).asBoolean(), (boolean) (Boolean) v, at);
+          assertTrue(j.get(name).isBoolean(), at);
+        }
+        case "predicted", "low", "high", "level", "actual", "error", "forecast" -> sameDouble(j.get(name), (Double) v, at);
+        case "replaced_actual" -> {
+          if (v == null) {
+            assertNull(j.get("correction"), at);
+            assertNull(j.get(name), at);
+            continue;
+          }
+          assertTrue(j.get("correction").asBoolean(), at);
+          sameDouble(j.get(name), (Double) v, at);
+          matched++; // "correction" is told by this field
+        }
+        case "fields", "entity" -> {
+          if (v == null) {
+            assertNull(j.get(name), at);
+            continue;
+          }
+          JsonNode jo = j.get(name);
+          Map<?, ?> m = (Map<?, ?>) v;
+          assertEquals(jo.size(), m.size(), at);
+          for (Map.Entry<?, ?> e : m.entrySet()) {
+            JsonNode jv = jo.get(e.getKey().toString());
+            assertNotNull(jv, at + " key " + e.getKey());
+            if (e.getValue() instanceof Boolean b) {
+              assertEquals(jv.asBoolean(), b, at);
+              assertTrue(jv.isBoolean(), at);
+            } else if (e.getValue() == null) {
+              assertTrue(jv.isNull(), at);
+            } else {
+              assertEquals(jv.asText(), e.getValue().toString(), at);
+              assertTrue(jv.isTextual(), at);
+            }
+          }
+        }
+        default -> fail(where + ": schema field " + name + " is not compared by this test");
+      }
+      matched++;
+    }
+    assertEquals(jsonFields.size(), matched, where + ": the JSON has exactly the fields the Avro record holds: " + jsonFields);
+  }
+
+  /** JSON null ⇔ a double that is not finite; else the same bits. */
+  static void sameDouble(JsonNode j, double v, String at) {
+    assertNotNull(j, at);
+    if (j.isNull()) {
+      assertFalse(Double.isFinite(v), at + ": JSON null, Avro " + v);
+    } else {
+      assertTrue(j.isNumber(), at);
+      assertEquals(Double.doubleToRawLongBits(j.doubleValue()), Double.doubleToRawLongBits(v),
+          at + ": JSON " + j.doubleValue() + ", Avro " + v);
+    }
+  }
+
+  @Test
+  void theProjectsReaderGivesTheJsonLayoutFromAvro(@TempDir Path dir) throws IOException {
+    Path json = replay(demo(), dir.resolve("json"));
+    Path avro = replay(demo("encoding: avro"), dir.resolve("avro"));
+    for (String name : List.of("predictions", "settled", "rejects")) {
+      List<JsonNode> a = OutputRecords.readFile(avro.resolve(name + ".avro"));
+      List<JsonNode> j = OutputRecords.readFile(json.resolve(name + ".jsonl"));
+      assertEquals(j.size(), a.size(), name);
+      for (int i = 0; i < j.size(); i++) {
+        sameJson(j.get(i), a.get(i), name + " record " + i);
+      }
+    }
+  }
+
+  /**
+   * The same JSON tree, field names in the same order; numbers compared by value (an integral
+   * number as a long, any other by its double's bits), whatever node class holds them.
+   */
+  public static void sameJson(JsonNode expected, JsonNode got, String at) {
+    if (expected.isNumber()) {
+      assertTrue(got.isNumber(), at + ": " + got);
+      if (expected.isIntegralNumber()) {
+        assertTrue(got.isIntegralNumber(), at + ": " + got);
+        assertEquals(expected.asLong(), got.asLong(), at);
+      } else {
+        assertEquals(Double.doubleToRawLongBits(expected.doubleValue()), Double.doubleToRawLongBits(got.doubleValue()), at);
+      }
+    } else if (expected.isObject()) {
+      assertTrue(got.isObject(), at + ": " + got);
+      List<String> en = new ArrayList<>();
+      List<String> gn = new ArrayList<>();
+      expected.fieldNames().forEachRemaining(en::add);
+      got.fieldNames().forEachRemaining(gn::add);
+      assertEquals(en, gn, at + ": field names in order");
+      for (String n : en) {
+        sameJson(expected.get(n), got.get(n), at + "." + n);
+      }
+    } else if (expected.isArray()) {
+      assertEquals(expected.size(), got.size(), at);
+      Iterator<JsonNode> e = expected.elements();
+      Iterator<JsonNode> g = got.elements();
+      for (int i = 0; e.hasNext(); i++) {
+        sameJson(e.next(), g.next(), at + "[" + i + "]");
+      }
+    } else {
+      assertEquals(expected, got, at);
+    }
+  }
+
+  @Test
+  void twoReplaysWriteTheSameFileBytes(@TempDir Path dir) throws IOException {
+    PipelineConfig cfg = demo("encoding: avro");
+    Path a = replay(cfg, dir.resolve("a"));
+    Path b = replay(cfg, dir.resolve("b"));
+    for (String f : List.of("predictions.avro", "settled.avro", "rejects.avro", "coefficients.jsonl", "format.json")) {
+      assertArrayEquals(Files.readAllBytes(a.resolve(f)), Files.readAllBytes(b.resolve(f)), f);
+    }
+  }
+
+  @Test
+  void fingerprintsAreTheSchemasAndTheDocsListThem() throws IOException {
+    String docs = Files.readString(Path.of("../docs/formats.md"));
+    for (OutputSchemas.Kind k : OutputSchemas.Kind.values()) {
+      // the header is the 64-bit fingerprint little-endian (Avro specification, "Schema Fingerprints" and single-object encoding)
+      byte[] h = k.fingerprintBytes();
+      long back = 0;
+      for (int i = 7; i >= 0; i--) {
+        back = (back << 8) | (h[i] & 0xFF);
+      }
+      assertEquals(org.apache.avro.SchemaNormalization.parsingFingerprint64(k.schema()), back, k.name());
+      assertEquals(k, OutputSchemas.byFingerprint(h));
+      StringBuilder hex = new StringBuilder();
+      for (byte x : h) {
+        hex.append(String.format(java.util.Locale.ROOT, "%02x", x));
+      }
+      assertTrue(docs.contains("`" + k.file() + "`") && docs.contains(hex.toString()),
+          "docs/formats.md names " + k.file() + " and its header bytes " + hex);
+      String file;
+      try (InputStream in = OutputSchemas.class.getResourceAsStream(OutputSchemas.RESOURCE_DIR + k.file())) {
+        file = new String(in.readAllBytes(), StandardCharsets.UTF_8).strip();
+      }
+      assertTrue(docs.contains("```json\n" + file + "\n```"), "docs/formats.md shows " + k.file() + " as shipped");
+    }
+    assertNull(OutputSchemas.byFingerprint(new byte[8]));
+    assertNull(OutputSchemas.byFingerprint(new byte[3]));
+  }
+
+  @Test
+  void anUnknownFingerprintIsAnErrorThatSaysWhat() {
+    IOException e = org.junit.jupiter.api.Assertions.assertThrows(IOException.class,
+        () -> OutputRecords.read(new byte[] {1, 2, 3, 4, 5, 6, 7, 8}, new byte[] {2}));
+    assertTrue(e.getMessage().contains("runnel.schema") && e.getMessage().contains("0102030405060708"), e.getMessage());
+  }
+}
