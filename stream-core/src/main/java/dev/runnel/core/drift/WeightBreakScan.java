@@ -42,11 +42,11 @@ import java.io.IOException;
  * (docs/drift.md).
  *
  * <p>Identifiability: both stretches are fitted in one equilibrated basis (each column scaled by
- * its pooled root sum of squares) with a ridge of {@value #RIDGE}, so a direction neither stretch
- * can identify (a constant beside every level of a one-hot feature) gets the same, minimum-norm
- * solution in both and adds nothing to the difference; a length at which some column has no data
- * in one of the stretches is not evaluated. Columns added or removed drop the kept blocks. Above
- * {@value #MAX_COLUMNS} columns the scan waits (its memory is {@code K·p²} numbers).
+ * its pooled root sum of squares) with a ridge of {@value #RIDGE}. Only a column whose weight is
+ * identified in both stretches (the same for every least-squares solution) is tested: a constant
+ * beside every level of a one-hot feature, those levels, and a column without data in a stretch are
+ * not (their contrasts are, in the snapshots' contrasts). Columns added or removed drop the kept
+ * blocks. Above {@value #MAX_COLUMNS} columns the scan waits (its memory is {@code K·p²} numbers).
  *
  * <p>Cost: {@code O(p²)} per record for the sums; a look costs {@code O(K·p² + m·p³)}, once per
  * {@code B} records.
@@ -55,6 +55,8 @@ public final class WeightBreakScan {
 
   /** The ridge added to the equilibrated information (scaled to unit mean diagonal). */
   static final double RIDGE = 1e-9;
+  /** A column is identified in a stretch when {@code ε·[B⁺]_jj} is below this (see {@code fit}). */
+  static final double IDENTIFIED = 1e-3;
   /** Above this many columns the scan waits. */
   public static final int MAX_COLUMNS = 256;
 
@@ -323,10 +325,8 @@ public final class WeightBreakScan {
       return;
     }
     for (int i = 0; i < p; i++) {
-      if (!(winA[i][i] > 0) || !(refA[i][i] > 0)) {
-        return; // a column without data in one stretch: not comparable at this length
-      }
-      dInv[i] = 1.0 / Math.sqrt(winA[i][i] + refA[i][i]);
+      double d = winA[i][i] + refA[i][i];
+      dInv[i] = d > 0 ? 1.0 / Math.sqrt(d) : 0.0; // a column without data anywhere: zero, and not identified
     }
     double totN = winN + refN;
     double rssW = fit(winA, winS, winYy, Math.sqrt(totN / winN), betaW, varW);
@@ -344,8 +344,8 @@ public final class WeightBreakScan {
     }
     for (int j = 0; j < p; j++) {
       double v = varW[j] + varR[j];
-      if (!(v > 0)) {
-        continue;
+      if (!(v > 0) || Double.isNaN(betaW[j]) || Double.isNaN(betaR[j])) {
+        continue; // not identified in one of the stretches: not tested
       }
       double z = (betaW[j] - betaR[j]) / Math.sqrt(sigma2 * v);
       if (Double.isFinite(z) && Math.abs(z) > Math.abs(bestZ[j])) {
@@ -390,6 +390,21 @@ public final class WeightBreakScan {
       beta[i] = sum * d2;
       var[i] = (ii[i] - RIDGE * sq) * d2 * d2;
     }
+    // a column is identified when the ridge leaves it alone: the diagonal of (B + εI)⁻¹B, 1 − ε·inv_ii, is
+    // near 1 (for a column in an exact dependency, such as a constant beside every level of a one-hot
+    // feature, or without data, ε·inv_ii is of order 1); its weight is then the same for every
+    // least-squares solution. Otherwise it is marked NaN (after the residual sum of squares, which needs it).
+    double rss = residual(a, s, yy, beta);
+    for (int i = 0; i < p; i++) {
+      if (!(RIDGE * inv[i][i] < IDENTIFIED) || dInv[i] == 0.0) {
+        beta[i] = Double.NaN;
+      }
+    }
+    return rss;
+  }
+
+  /** Σy² − 2βᵀs + βᵀAβ, at least 0. */
+  private double residual(double[][] a, double[] s, double yy, double[] beta) {
     // residual sum of squares: Σy² − 2βᵀs + βᵀAβ
     double bs = 0.0;
     double bab = 0.0;
