@@ -360,14 +360,14 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
                       int contrastLevels, int breakBlockRecords, int breakBlocks, double breakSe) {
     /** The defaults, as documented in docs/drift.md. */
     public static final Drift DEFAULTS = new Drift(4.0, DriftBaseline.SNAPSHOTS_AGO, 8, ErrorTest.PAGE_HINKLEY,
-        0.1, 30.0, 100, 4, 1200, 4.0, 0, 0, 144, 64, 4.5);
+        0.1, 30.0, 100, 4, 1200, 4.0, 0, 0, 144, 64, 4.75);
 
     /** The section with the default weight-break scan. */
     public Drift(double weightAlarmSe, DriftBaseline baseline, int baselineSnapshots, ErrorTest errorTest,
                  double errorAllowance, double errorThreshold, long errorWarmupRecords, int alarmHoldSnapshots,
                  int attributionRecords, double attributionSe, int resetToRecords, int contrastLevels) {
       this(weightAlarmSe, baseline, baselineSnapshots, errorTest, errorAllowance, errorThreshold, errorWarmupRecords,
-          alarmHoldSnapshots, attributionRecords, attributionSe, resetToRecords, contrastLevels, 144, 64, 4.5);
+          alarmHoldSnapshots, attributionRecords, attributionSe, resetToRecords, contrastLevels, 144, 64, 4.75);
     }
 
     /** The section with the default change attribution. */
