@@ -22,7 +22,8 @@ import java.util.Random;
  * cycle in the target and unit noise, a record every 10 minutes, a 7-day half-life (about 1,000
  * records). In a change trial one randomly chosen column's true weight triples at record
  * {@value #STEP}; stationary trials have no change. For each trial it reports which columns the
- * changed-weight alarms and the weight alarms name, and for each value of
+ * weight-break scan, the changed-weight alarms and the weight alarms name (side by side, the same
+ * trials), and for each value of
  * {@code drift.reset_to_records} the RMSE of the a priori errors and the coverage of the 90 %
  * intervals over stretches after the change. Run from the repository root:
  *
@@ -31,6 +32,9 @@ import java.util.Random;
  * java -cp "stream-core/target/test-classes:stream-core/target/classes:$(cat cp.txt)" dev.runnel.core.bench.ChangeRecoveryHarness 200 100 [DAILY_MAX [SNAPSHOT_RECORDS [noise|se]]]
  * </pre>
  * ({@code cp.txt} from {@code mvn -o -q -pl stream-core dependency:build-classpath -Dmdep.outputFile=../cp.txt}).
+ * {@code -Drunnel.harness.namingOnly=true} prints the naming table alone (one pipeline per trial instead
+ * of four); {@code -Drunnel.harness.break="break_se: 4.5"} sets drift keys of the weight-break scan (several
+ * separated by {@code ;}), as for the threshold's calibration in docs/drift.md.
  */
 public final class ChangeRecoveryHarness {
 
