@@ -206,7 +206,7 @@ public final class ChangeRecoveryHarness {
             : a.kind().equals(DriftAlarm.WEIGHT_BREAK) ? breakAlarms
             : a.kind().equals(DriftAlarm.WEIGHT) ? weightAlarms
             : a.kind().equals(DriftAlarm.ERROR_LEVEL) && "up".equals(a.direction()) ? errorAlarms : null;
-        if (l != null && l.stream().noneMatch(o -> o.column().equals(a.column()) && o.firedAtRecord() == a.firedAtRecord())) {
+        if (l != null && l.stream().noneMatch(o -> java.util.Objects.equals(o.column(), a.column()) && o.firedAtRecord() == a.firedAtRecord())) {
           l.add(a);
         }
       }
