@@ -978,8 +978,11 @@ public final class ConfigLoader {
       double named = ConfigKeys.ATTRIBUTION_SE.read(d);
       int reset = ConfigKeys.RESET_TO_RECORDS.read(d);
       int contrasts = ConfigKeys.CONTRAST_LEVELS.read(d);
+      int breakBlock = ConfigKeys.BREAK_BLOCK_RECORDS.read(d);
+      int breakBlocks = ConfigKeys.BREAK_BLOCKS.read(d);
+      double breakSe = ConfigKeys.BREAK_SE.read(d);
       return new PipelineConfig.Drift(k, baseline, back, test, delta, lambda, warm, hold, window, named, reset,
-          contrasts);
+          contrasts, breakBlock, breakBlocks, breakSe);
     }
 
     private PipelineConfig.Web web(Section w) {

@@ -378,14 +378,26 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    *     records, then restarted; 0 = off
    * @param contrastLevels per one-hot feature, snapshots carry the contrasts of this many of its
    *     most recorded levels against the mean of its levels, with standard errors; 0 = none
+   * @param breakBlockRecords the weight-break scan sums trained records in blocks of this many and
+   *     looks once per block; 0 = off
+   * @param breakBlocks complete blocks the weight-break scan keeps (its longest recent stretch is half)
+   * @param breakSe the weight-break scan names a column above this many standard errors
    */
   public record Drift(double weightAlarmSe, DriftBaseline baseline, int baselineSnapshots, ErrorTest errorTest,
                       double errorAllowance, double errorThreshold, long errorWarmupRecords, int alarmHoldSnapshots,
                       int attributionRecords, double attributionSe, int resetToRecords,
-                      int contrastLevels) {
+                      int contrastLevels, int breakBlockRecords, int breakBlocks, double breakSe) {
     /** The defaults, as documented in docs/drift.md. */
     public static final Drift DEFAULTS = new Drift(4.0, DriftBaseline.SNAPSHOTS_AGO, 8, ErrorTest.PAGE_HINKLEY,
-        0.1, 30.0, 100, 4, 1200, 4.0, 0, 0);
+        0.1, 30.0, 100, 4, 1200, 4.0, 0, 0, 144, 64, 4.75);
+
+    /** The section with the default weight-break scan. */
+    public Drift(double weightAlarmSe, DriftBaseline baseline, int baselineSnapshots, ErrorTest errorTest,
+                 double errorAllowance, double errorThreshold, long errorWarmupRecords, int alarmHoldSnapshots,
+                 int attributionRecords, double attributionSe, int resetToRecords, int contrastLevels) {
+      this(weightAlarmSe, baseline, baselineSnapshots, errorTest, errorAllowance, errorThreshold, errorWarmupRecords,
+          alarmHoldSnapshots, attributionRecords, attributionSe, resetToRecords, contrastLevels, 144, 64, 4.75);
+    }
 
     /** The section with the default change attribution. */
     public Drift(double weightAlarmSe, DriftBaseline baseline, int baselineSnapshots, ErrorTest errorTest,

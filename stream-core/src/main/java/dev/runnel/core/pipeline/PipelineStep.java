@@ -88,12 +88,15 @@ public final class PipelineStep {
    * actuals (and, for {@code corrections: replace}, what removing one needs), 6 the error metrics of
    * settled forecasts by horizon, 7 the change attribution (a flag for the forecast state, then the
    * attribution's window and latest result), 8 the state of the features that read each entity's
-   * history (lag, smoothed), in the featurizer's part, with the rest laid out as in 7. A step with a
-   * history feature always writes 8; otherwise it writes 7 only once the attribution has state (an
-   * error-level alarm opened its window); before that, a step without {@code input.forecast} still
-   * writes version 3, byte for byte as before, and one with it version 6.
+   * history (lag, smoothed), in the featurizer's part, with the rest laid out as in 7, 9 the
+   * weight-break scan's blocks after the attribution's state (laid out as 8 otherwise). A step with the
+   * scan on writes 9 once the scan has seen a record; otherwise a step with a history feature always
+   * writes 8, and one without writes 7 only once the attribution has state (an error-level alarm
+   * opened its window); before that, a step without {@code input.forecast} still writes version 3,
+   * byte for byte as before, and one with it version 6.
    */
-  public static final int CHECKPOINT_VERSION = 8;
+  public static final int CHECKPOINT_VERSION = 9;
+  private static final int CHECKPOINT_VERSION_WITH_HISTORY = 8;
   private static final int CHECKPOINT_VERSION_WITH_ATTRIBUTION = 7;
   private static final int CHECKPOINT_VERSION_WITH_FORECASTS = 6;
   private static final int CHECKPOINT_VERSION_WITHOUT_FORECASTS = 3;
@@ -509,8 +512,8 @@ public final class PipelineStep {
     records++;
     if (hasTarget) {
       trained++;
-      if (drift.attribution().isOpen()) {
-        observeForAttribution(yModel, t);
+      if (drift.attribution().isOpen() || drift.breaks().enabled()) {
+        observeRaw(yModel, t);
       }
       if (p.status == Prediction.Status.SCORED) {
         metrics.add(y - p.predicted, p.covered());
@@ -582,10 +585,11 @@ public final class PipelineStep {
   }
 
   /**
-   * While the change attribution's window is open: this record's row in raw units
-   * ({@code v = z·s + m} for a scaled column), O(p) plus the attribution's O(p²).
+   * While the change attribution's window is open, and for the weight-break scan (kept all the
+   * time when on): this record's row in raw units ({@code v = z·s + m} for a scaled column), O(p)
+   * plus the attribution's and the scan's O(p²).
    */
-  private void observeForAttribution(double y, long t) {
+  private void observeRaw(double y, long t) {
     int n = featurizer.dimension();
     if (rawRow.length < n) {
       rawRow = new double[Math.max(n, row.length)];
@@ -594,8 +598,16 @@ public final class PipelineStep {
     for (int j = 0; j < n; j++) {
       rawRow[j] = row[j] * featurizer.scale(j) + (constant ? featurizer.centre(j) : 0.0);
     }
-    drift.observeTrained(rawRow, y, n, featurizer.layoutVersion(), t, trained);
+    if (drift.attribution().isOpen()) {
+      drift.observeTrained(rawRow, y, n, featurizer.layoutVersion(), t, trained);
+    }
+    drift.observeBreak(rawRow, y, n, featurizer.layoutVersion(), t, trained, columnNames);
   }
+
+  /** The column names by index, for the weight-break scan's alarms (one object, made once). */
+  private final java.util.function.IntFunction<String> columnNames = this::columnNameAt;
+
+  private String columnNameAt(int j) { return featurizer.columnName(j); }
 
   /** Rare path (an error-level alarm fired): the raw-unit weights now open the attribution's window. */
   private void openAttribution() {
@@ -980,8 +992,10 @@ public final class PipelineStep {
       ByteArrayOutputStream bytes = new ByteArrayOutputStream(4096);
       DataOutputStream out = new DataOutputStream(bytes);
       out.writeInt(CHECKPOINT_MAGIC);
-      boolean v7 = featurizer.readsHistory() || drift.hasAttributionState();
-      out.writeInt(featurizer.readsHistory() ? CHECKPOINT_VERSION : v7 ? CHECKPOINT_VERSION_WITH_ATTRIBUTION
+      boolean v9 = drift.hasBreakState();
+      boolean v7 = v9 || featurizer.readsHistory() || drift.hasAttributionState();
+      out.writeInt(v9 ? CHECKPOINT_VERSION : featurizer.readsHistory() ? CHECKPOINT_VERSION_WITH_HISTORY
+          : v7 ? CHECKPOINT_VERSION_WITH_ATTRIBUTION
           : pending != null ? CHECKPOINT_VERSION_WITH_FORECASTS : CHECKPOINT_VERSION_WITHOUT_FORECASTS);
       out.writeLong(configFingerprint);
       out.writeLong(records);
@@ -1033,6 +1047,9 @@ public final class PipelineStep {
       if (v7) {
         drift.writeAttributionTo(out);
       }
+      if (v9) {
+        drift.writeBreakTo(out);
+      }
       out.flush();
       return bytes.toByteArray();
     } catch (IOException e) {
@@ -1048,7 +1065,8 @@ public final class PipelineStep {
    * 2 (before the one stream clock) give the clock their largest training time, with no jump pending;
    * versions 1 to 3 (before forecasts were remembered) restore with no forecast pending; versions 1
    * to 4 (before the memory of learned actuals) restore with an empty memory; versions 1 to 5 (before
-   * errors by horizon) restore with empty horizon tables. A version 6 checkpoint whose
+   * errors by horizon) restore with empty horizon tables; versions 1 to 8 (before the weight-break
+   * scan) restore with the scan empty (it starts summing afresh). A version 6 checkpoint whose
    * {@code input.forecast.horizon_buckets} differ from the configured ones restores with empty
    * horizon tables (the rest of the state as written).
    *
@@ -1066,7 +1084,7 @@ public final class PipelineStep {
         throw new IllegalArgumentException("checkpoint format version " + version
             + " is not supported; this Runnel reads version " + CHECKPOINT_VERSION);
       }
-      if (featurizer.readsHistory() && version < CHECKPOINT_VERSION) {
+      if (featurizer.readsHistory() && version < CHECKPOINT_VERSION_WITH_HISTORY) {
         throw new IllegalArgumentException("checkpoint format version " + version + " has no history state (it was written"
             + " before lag or smoothed features existed); start a new pipeline name (or reset its state) to use them");
       }
@@ -1132,6 +1150,7 @@ public final class PipelineStep {
         }
       }
       drift.readAttributionFrom(version >= 7 ? in : null);
+      drift.readBreakFrom(version >= 9 ? in : null);
       ensureRow();
     } catch (IOException e) {
       throw new IllegalArgumentException("the checkpoint is truncated or corrupt: " + e.getMessage(), e);
