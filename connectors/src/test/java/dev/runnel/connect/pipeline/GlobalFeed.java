@@ -71,6 +71,8 @@ final class GlobalFeed {
           share_every_records: %d
         outputs:
           snapshot_every_records: 100
+        web:
+          enabled: false
         kafka:
           bootstrap_servers: "%s"
           commit_interval_ms: 200

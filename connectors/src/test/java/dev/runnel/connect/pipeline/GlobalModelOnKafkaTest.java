@@ -52,7 +52,8 @@ class GlobalModelOnKafkaTest {
   }
 
   /** Waits until the committed states in {@code <name>.state} are at the sync point; returns them. */
-  static PipelineStep[] awaitSyncedState(String bs, PipelineConfig cfg, ExactlyOnceRunner... runners) throws Exception {
+  static PipelineStep[] awaitSyncedState(String bs, PipelineConfig cfg, int perPartition, ExactlyOnceRunner... runners)
+      throws Exception {
     PipelineStep[][] got = new PipelineStep[1][];
     KafkaTestSupport.await("every partition's committed state at the sync point", Duration.ofSeconds(180), () -> {
       for (ExactlyOnceRunner r : runners) {
@@ -61,7 +62,7 @@ class GlobalModelOnKafkaTest {
         }
       }
       got[0] = GlobalFeed.committedStates(bs, cfg);
-      return GlobalFeed.synced(got[0], PER_PARTITION);
+      return GlobalFeed.synced(got[0], perPartition);
     });
     return got[0];
   }
@@ -82,7 +83,7 @@ class GlobalModelOnKafkaTest {
     t.start();
     PipelineStep[] steps;
     try {
-      steps = awaitSyncedState(bs, cfg, runner);
+      steps = awaitSyncedState(bs, cfg, PER_PARTITION, runner);
     } finally {
       runner.close();
       t.join(30_000);
@@ -95,10 +96,22 @@ class GlobalModelOnKafkaTest {
     for (ConsumerRecord<byte[], byte[]> r : shares) {
       assertEquals(r.partition(), ModelShare.fromBytes(r.value()).source(), "a partition's shares go to its own share partition");
     }
+    double worst = checkSyncPoint(bs, cfg, lines, recs, steps, PER_PARTITION);
+    System.out.println("GlobalModelOnKafkaTest: largest difference from the union solution " + worst);
+  }
+
+  /**
+   * The checks at the sync point: each partition's committed view against the union solution
+   * (EJML QR; the prior counted once per partition told apart) and against the uninterrupted
+   * stream-core run, to 1e-9 relative; scalers that differ by partition; one output per input
+   * offset. Returns the largest difference from the union solution and the uninterrupted run.
+   */
+  static double checkSyncPoint(String bs, PipelineConfig cfg, List<List<String>> lines, List<GlobalFeed.Rec> recs,
+      PipelineStep[] steps, int perPartition) throws Exception {
     PipelineStep[] reference = GlobalFeed.uninterrupted(cfg, lines);
     double worst = 0;
     for (int p = 0; p < GlobalFeed.PARTITIONS; p++) {
-      assertEquals(PER_PARTITION, steps[p].trained());
+      assertEquals(perPartition, steps[p].trained());
       double[] union = GlobalFeed.againstUnion(steps[p].globalModel(), recs, 1);
       assertTrue(union[0] < 1e-9, "partition " + p + ": weights differ from the union solution (EJML QR) by " + union[0]);
       assertTrue(union[1] < 1e-9, "partition " + p + ": standard errors differ from the union solution by " + union[1]);
@@ -106,19 +119,95 @@ class GlobalModelOnKafkaTest {
       assertTrue(control[0] > 1e-6, "the prior counted once per partition is told apart: " + control[0]);
       double[] run = GlobalFeed.difference(steps[p].globalModel(), reference[p].globalModel());
       assertTrue(run[0] < 1e-9 && run[1] < 1e-9, "partition " + p + " against the uninterrupted run: " + run[0] + ", " + run[1]);
-      worst = Math.max(worst, Math.max(union[0], union[1]));
+      worst = Math.max(worst, Math.max(Math.max(union[0], union[1]), Math.max(run[0], run[1])));
     }
     // the scalers really differ by partition: the views state temperature in different bases
     int k0 = steps[0].globalModel().viewIndex("temperature_c");
     int k3 = steps[3].globalModel().viewIndex("temperature_c");
     assertNotEquals(steps[0].globalModel().viewOffset(k0), steps[3].globalModel().viewOffset(k3));
     // each input offset has exactly one output
-    int[][] outputs = GlobalFeed.outputsPerOffset(bs, name, PER_PARTITION);
+    int[][] outputs = GlobalFeed.outputsPerOffset(bs, cfg.name(), perPartition);
     for (int p = 0; p < GlobalFeed.PARTITIONS; p++) {
-      for (int o = 0; o < PER_PARTITION; o++) {
+      for (int o = 0; o < perPartition; o++) {
         assertEquals(1, outputs[p][o], "partition " + p + " offset " + o + ": outputs");
       }
     }
-    System.out.println("GlobalModelOnKafkaTest: largest difference from the union solution " + worst);
+    return worst;
+  }
+
+  /** Values {@code from} (inclusive) to {@code to} (exclusive) of each partition's lines. */
+  static List<List<String>> slice(List<List<String>> lines, int from, int to) {
+    List<List<String>> out = new ArrayList<>();
+    for (List<String> l : lines) {
+      out.add(l.subList(from, to));
+    }
+    return out;
+  }
+
+  /**
+   * Two instances in one group: the first alone, then the second joins (the partitions are split,
+   * each moving one restored from its checkpoint and its share offsets), then the first leaves
+   * (the second takes every partition back from the first's last commits). At the sync point the
+   * committed views equal the union solution and the uninterrupted run to 1e-9 relative.
+   */
+  @Test
+  void twoInstancesWithARebalanceEachWayReachTheUninterruptedViews(TestBroker broker) throws Exception {
+    String bs = broker.bootstrapServers();
+    String name = "global-two";
+    PipelineConfig cfg = GlobalFeed.config(name, name + ".in", bs);
+    List<GlobalFeed.Rec> recs = new ArrayList<>();
+    int per = 600;
+    List<List<String>> lines = GlobalFeed.lines(43, per, recs);
+    String topic = name + ".in";
+    KafkaTestSupport.createTopic(bs, topic, GlobalFeed.PARTITIONS);
+    Map<Integer, PipelineProcessor> latest = new ConcurrentHashMap<>();
+    RunnerSettings s = settings(cfg, bs);
+    ExactlyOnceRunner a = new ExactlyOnceRunner(s.withInstanceId("a"), remembering(cfg, latest));
+    ExactlyOnceRunner b = new ExactlyOnceRunner(s.withInstanceId("b"), remembering(cfg, latest));
+    Thread ta = new Thread(a, "global-a");
+    Thread tb = new Thread(b, "global-b");
+    ta.setDaemon(true);
+    tb.setDaemon(true);
+    try (org.apache.kafka.clients.admin.Admin admin = KafkaTestSupport.admin(bs)) {
+      KafkaTestSupport.produce(bs, topic, slice(lines, 0, 230));
+      ta.start();
+      awaitCommitted(admin, s, 4 * 230, a);
+      tb.start();
+      KafkaTestSupport.await("the second instance holding partitions", Duration.ofSeconds(120),
+          () -> !b.heldPartitions().isEmpty() && a.heldPartitions().size() < GlobalFeed.PARTITIONS);
+      KafkaTestSupport.produce(bs, topic, slice(lines, 230, 420));
+      awaitCommitted(admin, s, 4 * 420, a, b);
+      a.close();
+      ta.join(30_000);
+      assertNull(a.failure());
+      KafkaTestSupport.await("the second instance holding every partition", Duration.ofSeconds(120),
+          () -> b.heldPartitions().size() == GlobalFeed.PARTITIONS);
+      KafkaTestSupport.produce(bs, topic, slice(lines, 420, per));
+      PipelineStep[] steps = awaitSyncedState(bs, cfg, per, b);
+      b.close();
+      tb.join(30_000);
+      assertNull(b.failure());
+      double worst = checkSyncPoint(bs, cfg, lines, recs, steps, per);
+      System.out.println("GlobalModelOnKafkaTest, two instances: largest difference " + worst);
+    } finally {
+      a.close();
+      b.close();
+    }
+  }
+
+  static void awaitCommitted(org.apache.kafka.clients.admin.Admin admin, RunnerSettings s, long total, ExactlyOnceRunner... runners)
+      throws Exception {
+    KafkaTestSupport.await(total + " input records committed", Duration.ofSeconds(120), () -> {
+      for (ExactlyOnceRunner r : runners) {
+        if (r.failure() != null) {
+          throw new AssertionError("runner failed: " + r.failure());
+        }
+      }
+      try {
+        return KafkaTestSupport.committedTotal(admin, s.groupId(), s.inputTopic()) >= total;
+      } catch (Exception e) {
+        return false;
+      }
+    });
   }
 }
