@@ -823,7 +823,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     }
     if (t instanceof AuthorizationException || t instanceof AuthenticationException) {
       return "not allowed by the cluster at " + settings.bootstrapServers() + ": " + t.getMessage()
-          + " (needs READ on " + settings.inputTopic() + " and group " + settings.groupId() + ", WRITE on the five output topics,"
+          + " (needs READ on " + settings.inputTopic() + " and group " + settings.groupId() + ", WRITE on the five output topics (and " + settings.sharesTopic() + " with model.scope: global),"
           + " WRITE/DESCRIBE on transactional id " + settings.transactionalId() + "). Stopping.";
     }
     if (t instanceof org.apache.kafka.common.errors.RecordTooLargeException) {
