@@ -168,6 +168,8 @@ public final class ConfigKeys {
   public static final ConfigKey<TargetPoint> TARGET_POINT = add(ConfigKey.choice("model", "target_point", TargetPoint.MEDIAN, TargetPoint.values(), TargetPoint::word));
   public static final ConfigKey<Boolean> TARGET_NON_NEGATIVE = add(ConfigKey.flag("model", "target_non_negative", false));
   public static final ConfigKey<ModelScope> MODEL_SCOPE = add(ConfigKey.choice("model", "scope", ModelScope.PARTITION, ModelScope.values(), ModelScope::word));
+  public static final ConfigKey<Long> SHARE_EVERY_RECORDS = add(ConfigKey.whole("model", "share_every_records", 1000, 0, 1_000_000_000));
+  public static final ConfigKey<Long> SHARE_EVERY = add(ConfigKey.duration("model", "share_every"));
 
   // ---- outputs ----
   public static final ConfigKey<Long> SNAPSHOT_EVERY_RECORDS = add(ConfigKey.whole("outputs", "snapshot_every_records", 1000, 0, Long.MAX_VALUE));

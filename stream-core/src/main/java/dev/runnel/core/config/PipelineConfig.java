@@ -229,10 +229,22 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    * @param forgettingHalfLifeMillis event-time half-life of the data's weight; 0 when the factor is used
    * @param noiseHalfLifeRecords fading window of the noise-variance estimate, in records
    * @param scope key {@code model.scope}: a model per partition, or one across partitions
+   * @param shareEveryRecords key {@code model.share_every_records}: with the global scope, a partition
+   *     shares after this many of its own trained records (0: not by count)
+   * @param shareEveryMillis key {@code model.share_every}: with the global scope, a partition shares
+   *     when its stream clock enters a new period of this length (0: not by event time)
    */
   public record Model(boolean constantTerm, double priorVariance, boolean diffuse, double forgettingFactor,
                       long forgettingHalfLifeMillis, boolean windupGuard, double intervalLevel,
-                      double noiseHalfLifeRecords, ModelScope scope) {
+                      double noiseHalfLifeRecords, ModelScope scope, long shareEveryRecords, long shareEveryMillis) {
+    /** The default share periods ({@code model.share_every_records}, no {@code model.share_every}). */
+    public Model(boolean constantTerm, double priorVariance, boolean diffuse, double forgettingFactor,
+                 long forgettingHalfLifeMillis, boolean windupGuard, double intervalLevel, double noiseHalfLifeRecords,
+                 ModelScope scope) {
+      this(constantTerm, priorVariance, diffuse, forgettingFactor, forgettingHalfLifeMillis, windupGuard, intervalLevel,
+          noiseHalfLifeRecords, scope, ConfigKeys.SHARE_EVERY_RECORDS.defaultValue(), 0L);
+    }
+
     /** A model per partition (the default scope). */
     public Model(boolean constantTerm, double priorVariance, boolean diffuse, double forgettingFactor,
                  long forgettingHalfLifeMillis, boolean windupGuard, double intervalLevel, double noiseHalfLifeRecords) {
