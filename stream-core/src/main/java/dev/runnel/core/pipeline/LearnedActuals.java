@@ -212,21 +212,27 @@ final class LearnedActuals {
    * @param gen the model generation
    */
   void keepRow(int e, double[] row, int dimension, ColumnBases bases, double logDecayNow, long gen) {
-    int m = 0;
-    rowLength[e] = 0; // nothing of the entry's earlier row is carried by widen
+    int[] ids = rowIds;
+    double[] vals = rowValues;
+    int at = e * stride;
+    int end = at + stride;
     for (int j = 0; j < dimension; j++) {
       if (row[j] != 0.0) {
-        if (m == stride) {
+        if (at == end) { // a longer row than any before: cold
+          int m = at - e * stride;
           rowLength[e] = m;
           widen(m + 1);
+          ids = rowIds;
+          vals = rowValues;
+          at = e * stride + m;
+          end = e * stride + stride;
         }
-        int at = e * stride + m;
-        rowIds[at] = bases.id(j);
-        rowValues[at] = bases.toFirstBasis(j, row[j]);
-        m++;
+        ids[at] = bases.id(j);
+        vals[at] = bases.toFirstBasis(j, row[j]);
+        at++;
       }
     }
-    rowLength[e] = m;
+    rowLength[e] = at - e * stride;
     logDecay[e] = logDecayNow;
     generation[e] = gen;
   }
