@@ -2,7 +2,9 @@
 # Learned rows side by side in flat arrays (docs/performance.md, "Forecast path", "Where the time of
 # the forecast path goes"): paired A/B of the build before against this tree on the invented
 # non-repeating year (DemoDataMain), demo configuration with input.forecast (corrections: replace),
-# each step made anew when the feed wraps, with the A/A for the spread. From the root, after
+# each step made anew when the feed wraps, with the A/A for the spread. The cut was taken back: to
+# measure it again, run this from a checkout of commit 40a3e6f (the cut) with BEFORE a compiled
+# checkout of cf73c14 (the build before). From the root, after
 #   mvn -o -q -Pbench -pl stream-core package -DskipTests && mvn -o -q -pl demo-data compile
 # and with BEFORE=<root of the build before, compiled>. Lines are appended to OUT.
 set -euo pipefail

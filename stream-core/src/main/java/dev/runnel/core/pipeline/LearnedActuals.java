@@ -23,10 +23,8 @@ import java.io.IOException;
  * hash table of entry ids on the 64-bit hash of the entity text and the target time (the text is
  * kept, so a collision is resolved exactly); deletion shifts the probe run back. The keys and the
  * table are {@link EntityTimeKeys}, shared with {@link PendingForecasts}. Once warm a look-up
- * or an insert allocates nothing and costs O(1) expected. The rows lie side by side in one
- * {@code int[]} of column ids and one {@code double[]} of values, at a fixed room per entry (the
- * longest row kept so far; widened, cold, when a longer row comes), so keeping a row is one pass
- * over the row with no object per entry. Deterministic; one thread.
+ * or an insert allocates nothing and costs O(1) expected (a row's arrays are reused and grow only
+ * when a longer row comes). Deterministic; one thread.
  */
 final class LearnedActuals {
 
@@ -43,11 +41,8 @@ final class LearnedActuals {
   private EntityTimeKeys keys;
   private double[] value;
   // what a downdate needs (keepsRows only)
-  /** Entries' rows side by side, entry e's at {@code [e * stride, e * stride + rowLength[e])}. */
-  private int[] rowIds;
-  private double[] rowValues;
-  /** Room per entry in {@link #rowIds} and {@link #rowValues}: the longest row kept so far, at least 8. */
-  private int stride = 8;
+  private int[][] rowIds;
+  private double[][] rowValues;
   private int[] rowLength;
   private double[] logDecay;
   private long[] generation;
@@ -73,9 +68,8 @@ final class LearnedActuals {
     keys = new EntityTimeKeys(cap);
     value = new double[cap];
     if (keepsRows) {
-      stride = 8;
-      rowIds = new int[cap * stride];
-      rowValues = new double[cap * stride];
+      rowIds = new int[cap][];
+      rowValues = new double[cap][];
       rowLength = new int[cap];
       logDecay = new double[cap];
       generation = new long[cap];
@@ -87,8 +81,8 @@ final class LearnedActuals {
     int cap = (int) Math.min((long) capacity * 2, max);
     keys.resizeRing(head, size, cap);
     double[] v = new double[cap];
-    int[] ri = keepsRows ? new int[room(cap, stride)] : null;
-    double[] rv = keepsRows ? new double[room(cap, stride)] : null;
+    int[][] ri = keepsRows ? new int[cap][] : null;
+    double[][] rv = keepsRows ? new double[cap][] : null;
     int[] rl = keepsRows ? new int[cap] : null;
     double[] ld = keepsRows ? new double[cap] : null;
     long[] gen = keepsRows ? new long[cap] : null;
@@ -96,8 +90,8 @@ final class LearnedActuals {
       int e = (head + i) % capacity;
       v[i] = value[e];
       if (keepsRows) {
-        System.arraycopy(rowIds, e * stride, ri, i * stride, rowLength[e]);
-        System.arraycopy(rowValues, e * stride, rv, i * stride, rowLength[e]);
+        ri[i] = rowIds[e];
+        rv[i] = rowValues[e];
         rl[i] = rowLength[e];
         ld[i] = logDecay[e];
         gen[i] = generation[e];
@@ -117,30 +111,6 @@ final class LearnedActuals {
     for (int e = 0; e < n; e++) {
       keys.insert(e);
     }
-  }
-
-  /** Makes room for rows of {@code need} entries (at least twice the old room), each entry's row kept; cold. */
-  private void widen(int need) {
-    int w = (int) Math.min(Math.max((long) stride * 2, need), Integer.MAX_VALUE);
-    int[] ri = new int[room(capacity, w)];
-    double[] rv = new double[room(capacity, w)];
-    for (int e = 0; e < capacity; e++) {
-      System.arraycopy(rowIds, e * stride, ri, e * w, rowLength[e]);
-      System.arraycopy(rowValues, e * stride, rv, e * w, rowLength[e]);
-    }
-    rowIds = ri;
-    rowValues = rv;
-    stride = w;
-  }
-
-  /** {@code entries * perEntry}, the rows' room; a caller's mistake when it does not fit one array. */
-  private static int room(int entries, int perEntry) {
-    long r = (long) entries * perEntry;
-    if (r > Integer.MAX_VALUE - 8) {
-      throw new IllegalStateException(entries + " learned actuals with rows of up to " + perEntry
-          + " non-zero entries do not fit in memory's arrays; lower input.forecast.max_learned_actuals");
-    }
-    return (int) r;
   }
 
   private boolean expired(long targetMillis, long nowMillis) {
@@ -212,27 +182,27 @@ final class LearnedActuals {
    * @param gen the model generation
    */
   void keepRow(int e, double[] row, int dimension, ColumnBases bases, double logDecayNow, long gen) {
-    int[] ids = rowIds;
-    double[] vals = rowValues;
-    int at = e * stride;
-    int end = at + stride;
+    int nnz = 0;
     for (int j = 0; j < dimension; j++) {
       if (row[j] != 0.0) {
-        if (at == end) { // a longer row than any before: cold
-          int m = at - e * stride;
-          rowLength[e] = m;
-          widen(m + 1);
-          ids = rowIds;
-          vals = rowValues;
-          at = e * stride + m;
-          end = e * stride + stride;
-        }
-        ids[at] = bases.id(j);
-        vals[at] = bases.toFirstBasis(j, row[j]);
-        at++;
+        nnz++;
       }
     }
-    rowLength[e] = at - e * stride;
+    if (rowIds[e] == null || rowIds[e].length < nnz) {
+      rowIds[e] = new int[Math.max(nnz, 8)];
+      rowValues[e] = new double[Math.max(nnz, 8)];
+    }
+    int[] ids = rowIds[e];
+    double[] vals = rowValues[e];
+    int m = 0;
+    for (int j = 0; j < dimension; j++) {
+      if (row[j] != 0.0) {
+        ids[m] = bases.id(j);
+        vals[m] = bases.toFirstBasis(j, row[j]);
+        m++;
+      }
+    }
+    rowLength[e] = m;
     logDecay[e] = logDecayNow;
     generation[e] = gen;
   }
@@ -244,9 +214,9 @@ final class LearnedActuals {
   /** Non-zero entries of entry {@code e}'s row (0 when it kept none). */
   int rowLength(int e) { return rowLength[e]; }
 
-  int rowId(int e, int i) { return rowIds[e * stride + i]; }
+  int rowId(int e, int i) { return rowIds[e][i]; }
 
-  double rowValue(int e, int i) { return rowValues[e * stride + i]; }
+  double rowValue(int e, int i) { return rowValues[e][i]; }
 
   double logDecay(int e) { return logDecay[e]; }
 
@@ -277,8 +247,8 @@ final class LearnedActuals {
       if (keepsRows) {
         out.writeInt(rowLength[e]);
         for (int c = 0; c < rowLength[e]; c++) {
-          out.writeInt(rowIds[e * stride + c]);
-          out.writeDouble(rowValues[e * stride + c]);
+          out.writeInt(rowIds[e][c]);
+          out.writeDouble(rowValues[e][c]);
         }
         out.writeDouble(logDecay[e]);
         out.writeLong(generation[e]);
@@ -310,12 +280,11 @@ final class LearnedActuals {
         if (m < 0 || m > 1 << 24) {
           throw new IOException("a learned actual's row of " + m + " entries");
         }
-        if (m > stride) {
-          widen(m);
-        }
+        rowIds[e] = new int[Math.max(m, 8)];
+        rowValues[e] = new double[Math.max(m, 8)];
         for (int i = 0; i < m; i++) {
-          rowIds[e * stride + i] = in.readInt();
-          rowValues[e * stride + i] = in.readDouble();
+          rowIds[e][i] = in.readInt();
+          rowValues[e][i] = in.readDouble();
         }
         rowLength[e] = m;
         logDecay[e] = in.readDouble();

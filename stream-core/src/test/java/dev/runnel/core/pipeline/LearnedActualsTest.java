@@ -134,9 +134,10 @@ class LearnedActualsTest {
 
   /**
    * Rows of every length from 0 to 40 non-zero entries, kept for keys that come and go: every key
-   * found reads back the row last kept for it, through the ring's growth, the rows' room widening
-   * (8, 16, 32, 64 entries per key) and a checkpoint written and read in the middle. Fails when the
-   * widening or the growth moves a row to the wrong place or cuts it short.
+   * found reads back the row last kept for it, through the ring's growth, rows outgrowing the room
+   * kept for them (8 entries at first) and a checkpoint written and read in the middle. Fails when
+   * growing a row's room or the ring moves a row to the wrong place or cuts it short (checked on the
+   * flat layout tried on 2026-12-05, docs/performance.md, by copying one entry too few).
    */
   @Test
   void rowsOfAnyLengthReadBackThroughGrowthWideningAndACheckpoint() throws IOException {
