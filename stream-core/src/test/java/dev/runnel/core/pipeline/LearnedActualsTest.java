@@ -132,6 +132,78 @@ class LearnedActualsTest {
     return back;
   }
 
+  /**
+   * Rows of every length from 0 to 40 non-zero entries, kept for keys that come and go: every key
+   * found reads back the row last kept for it, through the ring's growth, rows outgrowing the room
+   * kept for them (8 entries at first) and a checkpoint written and read in the middle. Fails when
+   * growing a row's room or the ring moves a row to the wrong place or cuts it short (checked on the
+   * flat layout tried on 2026-12-05, docs/performance.md, by copying one entry too few).
+   */
+  @Test
+  void rowsOfAnyLengthReadBackThroughGrowthWideningAndACheckpoint() throws IOException {
+    int d = 40;
+    ColumnBases bases = new ColumnBases(d);
+    LearnedActuals store = new LearnedActuals(300, 60, true);
+    java.util.Map<String, double[]> kept = new java.util.HashMap<>();
+    Random rnd = new Random(7);
+    double[] row = new double[d];
+    int checked = 0;
+    int longest = 0;
+    for (int i = 0; i < 6_000; i++) {
+      if (i == 3_000) {
+        ByteArrayOutputStream b = new ByteArrayOutputStream();
+        store.writeTo(new DataOutputStream(b));
+        LearnedActuals back = new LearnedActuals(300, 60, true);
+        back.readFrom(new DataInputStream(new ByteArrayInputStream(b.toByteArray())));
+        ByteArrayOutputStream again = new ByteArrayOutputStream();
+        back.writeTo(new DataOutputStream(again));
+        assertEquals(java.util.Arrays.toString(b.toByteArray()), java.util.Arrays.toString(again.toByteArray()),
+            "a restored memory with rows writes what it read");
+        store = back;
+      }
+      String key = "hub-" + rnd.nextInt(12);
+      char[] k = key.toCharArray();
+      long now = i / 4;
+      long target = now - rnd.nextInt(10);
+      int e = store.find(k, k.length, target, now);
+      String ref = key + "@" + target;
+      if (e >= 0) {
+        double[] want = kept.get(ref);
+        int m = store.rowLength(e);
+        assertEquals((int) want[0], m, "row length of " + ref + " at step " + i);
+        for (int c = 0; c < m; c++) {
+          assertEquals((int) want[1 + 2 * c], store.rowId(e, c), "column id " + c + " of " + ref + " at step " + i);
+          assertEquals(want[2 + 2 * c], store.rowValue(e, c), "value " + c + " of " + ref + " at step " + i);
+        }
+        assertEquals(want[1 + 2 * m], store.logDecay(e), "log-forgetting of " + ref);
+        checked++;
+      } else {
+        e = store.add(k, k.length, target, i, now);
+      }
+      int nnz = rnd.nextInt(i < 1_000 ? 9 : d + 1);
+      java.util.Arrays.fill(row, 0.0);
+      int from = rnd.nextInt(d);
+      for (int c = 0; c < nnz; c++) {
+        row[(from + c) % d] = 1.0 + rnd.nextInt(1000); // nnz distinct columns
+      }
+      store.keepRow(e, row, d, bases, -i * 1e-3, 0);
+      int m = 0;
+      double[] want = new double[2 + 2 * d];
+      for (int j = 0; j < d; j++) {
+        if (row[j] != 0.0) {
+          want[1 + 2 * m] = bases.id(j);
+          want[2 + 2 * m] = bases.toFirstBasis(j, row[j]);
+          m++;
+        }
+      }
+      want[0] = m;
+      want[1 + 2 * m] = -i * 1e-3;
+      longest = Math.max(longest, m);
+      kept.put(ref, want);
+    }
+    assertTrue(checked > 500 && longest > 32, "the mix read rows back (" + checked + ") and widened past 32 (" + longest + ")");
+  }
+
   @Test
   void warmLookUpsAndAddsAllocateNothing() {
     com.sun.management.ThreadMXBean bean = (com.sun.management.ThreadMXBean) ManagementFactory.getThreadMXBean();
