@@ -1,0 +1,77 @@
+package dev.runnel.core.pipeline;
+
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertFalse;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import java.time.Duration;
+import java.time.Instant;
+import org.junit.jupiter.api.Test;
+
+/**
+ * The stream clock at the exact edges {@link StreamClockTest} leaves open (survivors of mutation
+ * testing in {@link StreamClock}): records of a jump run exactly {@code max_ahead} apart still agree;
+ * a reject's detail names the distance (as {@link Duration#toString}), the side, and for a
+ * provisional clock overruled backwards that it was set by the first records only; a legacy
+ * restore forgets a run in progress.
+ */
+class StreamClockEdgesTest {
+
+  private static final long HOUR = StreamClockTest.HOUR;
+  private static final long DAY = StreamClockTest.DAY;
+  private static final long T0 = StreamClockTest.T0;
+
+  @Test
+  void runRecordsExactlyMaxAheadApartAgreeAndOneMillisecondMoreBreaksTheRun() {
+    StreamClock c = new StreamClock(DAY, 3, 1.0, HOUR);
+    c.accept(T0);
+    long a = T0 + 10 * DAY;
+    assertEquals(StreamClock.Verdict.REJECTED, c.accept(a));
+    assertEquals(StreamClock.Verdict.REJECTED, c.accept(a + DAY)); // exactly max_ahead after the last of the run
+    assertTrue(c.lastDetail().contains("2 of 3"), c.lastDetail());
+    assertEquals(StreamClock.Verdict.JUMPED, c.accept(a + 2 * DAY));
+    assertEquals(a + 2 * DAY, c.nowMillis());
+
+    StreamClock d = new StreamClock(DAY, 3, 1.0, HOUR);
+    d.accept(T0);
+    assertEquals(StreamClock.Verdict.REJECTED, d.accept(a));
+    assertEquals(StreamClock.Verdict.REJECTED, d.accept(a + DAY + 1)); // one ms more: a new run
+    assertTrue(d.lastDetail().contains("1 of 3"), d.lastDetail());
+  }
+
+  @Test
+  void aRejectsDetailNamesTheDistanceTheSideAndWhoSetTheClock() {
+    StreamClock c = new StreamClock(DAY, 2, 1.0, HOUR);
+    c.accept(T0);
+    c.accept(T0 + HOUR);
+    long ahead = T0 + HOUR + 3 * DAY + 5 * HOUR;
+    assertEquals(StreamClock.Verdict.REJECTED, c.accept(ahead));
+    String detail = c.lastDetail();
+    assertTrue(detail.startsWith("event time " + Instant.ofEpochMilli(ahead) + " is " + Duration.ofHours(77)
+        + " ahead of the stream clock " + Instant.ofEpochMilli(T0 + HOUR) + ", more than input.clock.max_ahead; 1 of 2"), detail);
+    assertFalse(detail.contains("first records"), detail);
+
+    StreamClock p = new StreamClock(DAY, 3, 1.0, HOUR);
+    long wrong = T0 + 400 * DAY; // a wrong first record: the clock is provisional
+    p.accept(wrong);
+    assertEquals(StreamClock.Verdict.REJECTED, p.accept(T0));
+    detail = p.lastDetail();
+    assertTrue(detail.startsWith("event time " + Instant.ofEpochMilli(T0) + " is " + Duration.ofDays(400)
+        + " behind the stream clock " + Instant.ofEpochMilli(wrong) + " (set by the first records only), more than"), detail);
+  }
+
+  @Test
+  void aLegacyRestoreForgetsARunInProgress() {
+    StreamClock c = new StreamClock(DAY, 3, 1.0, HOUR);
+    c.accept(T0);
+    long far = T0 + 10 * DAY;
+    c.accept(far);
+    c.accept(far + HOUR); // 2 of 3: one more would confirm the jump
+    c.restoreLegacy(T0 + HOUR, 10);
+    assertEquals(T0 + HOUR, c.nowMillis());
+    assertFalse(c.provisional());
+    assertEquals(StreamClock.Verdict.REJECTED, c.accept(far + 2 * HOUR), "the run started again");
+    assertTrue(c.lastDetail().contains("1 of 3"), c.lastDetail());
+    assertEquals(0, c.jumps());
+  }
+}
