@@ -1,0 +1,68 @@
+package dev.runnel.core.pipeline;
+
+import static dev.runnel.core.pipeline.PipelineForecastTest.H;
+import static dev.runnel.core.pipeline.PipelineForecastTest.T0;
+import static dev.runnel.core.pipeline.PipelineForecastTest.line;
+import static org.junit.jupiter.api.Assertions.assertArrayEquals;
+import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertTrue;
+
+import dev.runnel.core.pipeline.PipelineForecastTest.Collector;
+import dev.runnel.core.record.RejectReason;
+import java.nio.ByteBuffer;
+import org.junit.jupiter.api.Test;
+
+/**
+ * Edges of the step that its other tests leave open (survivors of mutation testing in
+ * {@link PipelineStep}): the first key the memory of learned actuals holds (its entry 0) is
+ * corrected in place, so its new value is then a repeat; a checkpoint holds the reject counters up
+ * to the last reason counted (fifteen when none after them was, sixteen when only
+ * {@code repeated_actual}, the sixteenth, was) and a restore reads that count back. Counts are
+ * worked by hand from the records fed.
+ */
+class PipelineStepEdgesTest {
+
+  private static PipelineStep step() {
+    return new PipelineStep(LateRepeatedCorrectedActualsTest.config("    corrections: learn_as_new\n", null));
+  }
+
+  @Test
+  void theFirstKeyLearnedIsCorrectedInPlaceAndItsNewValueIsThenARepeat() {
+    PipelineStep s = step();
+    Collector c = new Collector(s);
+    c.feed(line("A", T0 + H, T0, 9, 20.0)); // the first key learned: entry 0 of the memory
+    c.feed(line("A", T0 + H, T0, 9, 23.0)); // a correction, learned as new
+    assertEquals(2, s.trained());
+    assertEquals(1, s.learnedActuals(), "one key, its value replaced");
+    c.feed(line("A", T0 + H, T0, 9, 23.0));
+    assertEquals(1, c.rejects.size());
+    assertTrue(c.rejects.get(0).startsWith("repeated_actual: "), c.rejects.toString());
+    c.feed(line("A", T0 + H, T0, 9, 20.0)); // the first value is now a correction
+    assertEquals(3, s.trained());
+    assertEquals(1, c.rejects.size());
+  }
+
+  /** The number of reject counters a checkpoint holds: after magic, version, fingerprint and five counts. */
+  private static int counters(byte[] checkpoint) {
+    return ByteBuffer.wrap(checkpoint).getInt(4 + 4 + 8 + 5 * 8);
+  }
+
+  @Test
+  void aCheckpointHoldsTheRejectCountersUpToTheLastReasonCounted() {
+    assertEquals(15, RejectReason.REPEATED_ACTUAL.ordinal(), "the reason after the fifteen every checkpoint holds");
+    PipelineStep s = step();
+    Collector c = new Collector(s);
+    c.feed(line("A", T0 + H, T0, 9, 20.0));
+    c.feed("{\"hub\":".getBytes(java.nio.charset.StandardCharsets.UTF_8)); // malformed_json, among the first fifteen
+    assertEquals(15, counters(s.checkpoint()));
+    c.feed(line("A", T0 + H, T0, 9, 20.0)); // repeated_actual
+    byte[] checkpoint = s.checkpoint();
+    assertEquals(16, counters(checkpoint));
+    PipelineStep back = step();
+    back.restore(checkpoint);
+    assertEquals(1, back.rejected(RejectReason.REPEATED_ACTUAL));
+    assertEquals(1, back.rejected(RejectReason.MALFORMED_JSON));
+    assertEquals(2, back.rejected());
+    assertArrayEquals(checkpoint, back.checkpoint());
+  }
+}
