@@ -14,7 +14,7 @@ import org.junit.jupiter.api.Test;
 
 /**
  * Edges of the step that its other tests leave open (survivors of mutation testing in
- * {@link PipelineStep}): the first key the memory of learned actuals holds (its entry 0) is
+ * {@link PipelineStep}): entity texts longer than the key buffer's first 64 chars stay apart; the first key the memory of learned actuals holds (its entry 0) is
  * corrected in place, so its new value is then a repeat; a checkpoint holds the reject counters up
  * to the last reason counted (fifteen when none after them was, sixteen when only
  * {@code repeated_actual}, the sixteenth, was) and a restore reads that count back. Counts are
@@ -40,6 +40,34 @@ class PipelineStepEdgesTest {
     c.feed(line("A", T0 + H, T0, 9, 20.0)); // the first value is now a correction
     assertEquals(3, s.trained());
     assertEquals(1, c.rejects.size());
+  }
+
+  @Test
+  void entitiesLongerThanTheFirstKeyBufferAreKeptApartAndSettledWhole() {
+    PipelineStep s = step();
+    Collector c = new Collector(s);
+    PipelineForecastTest.warm(c, new java.util.Random(5), 12);
+    long target = T0 + 20 * H;
+    String edge = "e".repeat(63); // with its two length chars, one more than the first 64
+    c.feed(line(edge, T0 + 12 * H, target, 9, null));
+    c.feed(line(edge, target + H, target, 9, 14.0));
+    assertEquals(1, c.settled.size());
+    assertEquals(edge, c.settled.get(0).hub());
+    c.settled.clear();
+    String a = "hub-" + "x".repeat(200); // the entity text starts with room for 64 chars
+    String b = "hub-" + "x".repeat(199) + "y"; // differs in its last char only
+    c.feed(line(a, T0 + 12 * H, target, 9, null));
+    c.feed(line(b, T0 + 12 * H, target, 9, null));
+    assertEquals(2, s.pendingForecasts());
+    c.feed(line(b, target + H, target, 9, 15.0));
+    assertEquals(1, c.settled.size(), "the actual of one entity settles only its own forecast");
+    assertEquals(b, c.settled.get(0).hub());
+    assertEquals(1, s.pendingForecasts());
+    c.feed(line(a, target + H, target, 9, 16.0));
+    assertEquals(2, c.settled.size());
+    assertEquals(a, c.settled.get(1).hub());
+    assertEquals(16.0, c.settled.get(1).actual());
+    assertEquals(0, s.pendingForecasts());
   }
 
   /** The number of reject counters a checkpoint holds: after magic, version, fingerprint and five counts. */
