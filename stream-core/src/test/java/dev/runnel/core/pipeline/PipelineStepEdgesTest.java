@@ -10,11 +10,12 @@ import static org.junit.jupiter.api.Assertions.assertTrue;
 import dev.runnel.core.pipeline.PipelineForecastTest.Collector;
 import dev.runnel.core.record.RejectReason;
 import java.nio.ByteBuffer;
+import java.util.List;
 import org.junit.jupiter.api.Test;
 
 /**
  * Edges of the step that its other tests leave open (survivors of mutation testing in
- * {@link PipelineStep}): entity texts longer than the key buffer's first 64 chars stay apart; the first key the memory of learned actuals holds (its entry 0) is
+ * {@link PipelineStep}): a too-late actual's detail names how far behind it is; entity texts longer than the key buffer's first 64 chars stay apart; the first key the memory of learned actuals holds (its entry 0) is
  * corrected in place, so its new value is then a repeat; a checkpoint holds the reject counters up
  * to the last reason counted (fifteen when none after them was, sixteen when only
  * {@code repeated_actual}, the sixteenth, was) and a restore reads that count back. Counts are
@@ -68,6 +69,18 @@ class PipelineStepEdgesTest {
     assertEquals(a, c.settled.get(1).hub());
     assertEquals(16.0, c.settled.get(1).actual());
     assertEquals(0, s.pendingForecasts());
+  }
+
+  @Test
+  void aTooLateActualsDetailNamesHowFarBehindTheClockItsTargetIs() {
+    PipelineStep s = new PipelineStep(LateRepeatedCorrectedActualsTest.config("    max_actual_lag: P3D\n", null));
+    Collector c = new Collector(s);
+    PipelineForecastTest.warm(c, new java.util.Random(6), 10);
+    long now = s.clock().nowMillis();
+    long target = now - 80 * H - 1_500; // 80 hours and 1.5 s behind
+    c.feed(line("Q", now, target, 8, 25.0));
+    assertEquals(List.of("actual_too_late: target time " + java.time.Instant.ofEpochMilli(target) + " is PT80H1.5S behind the stream clock "
+        + java.time.Instant.ofEpochMilli(now) + ", more than input.forecast.max_actual_lag (PT72H)"), c.rejects);
   }
 
   /** The number of reject counters a checkpoint holds: after magic, version, fingerprint and five counts. */
