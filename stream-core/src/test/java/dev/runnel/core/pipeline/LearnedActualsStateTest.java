@@ -16,8 +16,9 @@ import org.junit.jupiter.api.Test;
  * {@link LearnedActuals} that {@link LearnedActualsTest}'s reference does not see): the row kept for
  * {@code corrections: replace} in column ids and first-basis values, with its log-forgetting and
  * model generation, through a checkpoint; a checkpoint read into a memory that holds keys replaces
- * them; a full memory, a key of empty text and a kept row with no non-zero entry read back, and one
- * key more than {@code max_learned_actuals} is refused. Expected values are worked by hand.
+ * them; an empty memory, a full one, a key of empty text and a kept row with no non-zero entry read
+ * back; one key more than {@code max_learned_actuals}, or a memory of the other policy (named in the
+ * message), is refused. Expected values are worked by hand.
  */
 class LearnedActualsStateTest {
 
@@ -124,6 +125,13 @@ class LearnedActualsStateTest {
 
     LearnedActuals withRows = new LearnedActuals(3, 1000, true);
     IOException y = assertThrows(IOException.class, () -> read(withRows, bytes(full)));
-    assertTrue(y.getMessage().contains("corrections: replace"), y.getMessage());
+    assertTrue(y.getMessage().startsWith("the learned actuals were written without corrections: replace"), y.getMessage());
+    IOException z = assertThrows(IOException.class, () -> read(new LearnedActuals(3, 1000, false), bytes(withRows)));
+    assertTrue(z.getMessage().startsWith("the learned actuals were written with corrections: replace"), z.getMessage());
+
+    // an empty memory reads back empty, into a memory that held keys
+    read(full, bytes(new LearnedActuals(3, 1000, false)));
+    assertEquals(0, full.size());
+    assertEquals(-1, find(full, "q", 5));
   }
 }
