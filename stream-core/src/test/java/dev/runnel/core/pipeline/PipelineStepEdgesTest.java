@@ -15,11 +15,15 @@ import org.junit.jupiter.api.Test;
 
 /**
  * Edges of the step that its other tests leave open (survivors of mutation testing in
- * {@link PipelineStep}): a too-late actual's detail names how far behind it is; entity texts longer than the key buffer's first 64 chars stay apart; the first key the memory of learned actuals holds (its entry 0) is
- * corrected in place, so its new value is then a repeat; a checkpoint holds the reject counters up
- * to the last reason counted (fifteen when none after them was, sixteen when only
- * {@code repeated_actual}, the sixteenth, was) and a restore reads that count back. Counts are
- * worked by hand from the records fed.
+ * {@link PipelineStep}): a too-late actual's detail names how far behind it is; entity texts longer
+ * than the key buffer's first 64 chars stay apart, an empty one is an entity, and an entity field
+ * need not be the schema's first; a request whose target time is exactly the clock has passed; the
+ * first key the memory of learned actuals holds (its entry 0) is corrected in place (its new value
+ * is then a repeat) and replaced under {@code replace}; a step without the memory restores its
+ * checkpoint; the prequential metrics are those of the scored predictions' errors; a checkpoint
+ * holds the reject counters up to the last reason counted (fifteen when none after them was,
+ * sixteen when only {@code repeated_actual}, the sixteenth, was) and a restore reads them back.
+ * Counts are worked by hand from the records fed.
  */
 class PipelineStepEdgesTest {
 
@@ -81,6 +85,112 @@ class PipelineStepEdgesTest {
     c.feed(line("Q", now, target, 8, 25.0));
     assertEquals(List.of("actual_too_late: target time " + java.time.Instant.ofEpochMilli(target) + " is PT80H1.5S behind the stream clock "
         + java.time.Instant.ofEpochMilli(now) + ", more than input.forecast.max_actual_lag (PT72H)"), c.rejects);
+  }
+
+  @Test
+  void aRequestWhoseTargetIsExactlyTheClockHasPassedAndOneMillisecondLaterHasNot() {
+    PipelineStep s = step();
+    Collector c = new Collector(s);
+    PipelineForecastTest.warm(c, new java.util.Random(7), 10);
+    long now = s.clock().nowMillis();
+    c.feed(line("A", now, now, 9, null));
+    c.feed(line("A", now, now + 1, 9, null));
+    assertEquals(1.0, c.predictionAt(c.offset - 2)[4], "target at the clock: passed");
+    assertEquals(0.0, c.predictionAt(c.offset - 1)[4]);
+  }
+
+  @Test
+  void anEntityFieldThatIsNotTheSchemasFirstIsTheOneRead() {
+    // hub declared after temperature_c: the entity is read from its own slot
+    String yaml = PipelineForecastTest.CONFIG.replace("MAX", "100")
+        .replace("    hub: text\n    temperature_c: number\n", "    temperature_c: number\n    hub: text\n");
+    assertTrue(!yaml.equals(PipelineForecastTest.CONFIG.replace("MAX", "100")), "the fields were reordered");
+    PipelineStep s = new PipelineStep(dev.runnel.core.config.ConfigLoader.parse(yaml, "order.yaml"));
+    Collector c = new Collector(s);
+    PipelineForecastTest.warm(c, new java.util.Random(8), 10);
+    long target = T0 + 20 * H;
+    c.feed(line("A", T0 + 10 * H, target, 9, null));
+    c.feed(line("B", T0 + 10 * H, target, 9, null));
+    assertTrue(c.rejects.isEmpty(), c.rejects.toString());
+    c.feed(line("B", target + H, target, 9, 15.0));
+    assertEquals(1, c.settled.size());
+    assertEquals("B", c.settled.get(0).hub());
+  }
+
+  @Test
+  void theFirstKeyLearnedIsReplacedUnderReplace() {
+    PipelineStep s = new PipelineStep(LateRepeatedCorrectedActualsTest.config("    corrections: replace\n", null));
+    Collector c = new Collector(s);
+    c.feed(line("A", T0 + H, T0, 9, 20.0)); // entry 0 of the memory
+    c.feed(line("B", T0 + H, T0, 9, 21.0));
+    c.feed(line("A", T0 + H, T0, 9, 23.0));
+    assertEquals(1, s.replacedActuals());
+    assertEquals(2, s.learnedActuals());
+    assertEquals(3, s.trained());
+  }
+
+  @Test
+  void aStepWithoutAMemoryOfLearnedActualsRestoresItsCheckpoint() {
+    PipelineStep s = new PipelineStep(LateRepeatedCorrectedActualsTest.config("    max_learned_actuals: 0\n", null));
+    Collector c = new Collector(s);
+    PipelineForecastTest.warm(c, new java.util.Random(9), 6);
+    c.feed(line("A", T0 + 6 * H, T0 + 9 * H, 9, null));
+    byte[] checkpoint = s.checkpoint();
+    PipelineStep back = new PipelineStep(LateRepeatedCorrectedActualsTest.config("    max_learned_actuals: 0\n", null));
+    back.restore(checkpoint);
+    assertEquals(1, back.pendingForecasts());
+    assertEquals(0, back.learnedActuals());
+    assertArrayEquals(checkpoint, back.checkpoint());
+  }
+
+  @Test
+  void theMetricsAreThoseOfTheScoredPredictionsErrors() {
+    PipelineStep s = step();
+    Collector c = new Collector(s);
+    double[] sums = new double[3];
+    long[] n = new long[2];
+    PipelineStep.Sink sink = new PipelineStep.Sink() {
+      @Override public void prediction(Prediction p, dev.runnel.core.record.EventRecord r) {
+        if (p.status() == Prediction.Status.SCORED) {
+          double e = p.actual() - p.predicted();
+          sums[0] += Math.abs(e);
+          sums[1] += e * e;
+          sums[2] += e;
+          n[0]++;
+          n[1] += p.covered() ? 1 : 0;
+        }
+      }
+      @Override public void reject(RejectReason reason, String detail) { }
+      @Override public void snapshotDue() { }
+    };
+    java.util.Random rnd = new java.util.Random(10);
+    for (int k = 0; k < 60; k++) {
+      for (String hub : new String[] {"A", "B"}) {
+        double temp = 10 + 5 * rnd.nextGaussian();
+        byte[] b = line(hub, T0 + k * H + H, T0 + k * H, temp, PipelineForecastTest.sessions(rnd, hub, T0 + k * H, temp));
+        s.process(b, 0, b.length, 0L, 0, k, sink);
+      }
+    }
+    // mean absolute error, root mean squared error, mean error and coverage of actual − predicted (common practice)
+    assertTrue(n[0] > 100);
+    assertEquals(n[0], s.metrics().count());
+    assertEquals(sums[0] / n[0], s.metrics().mae(), 1e-12 * sums[0] / n[0]);
+    assertEquals(Math.sqrt(sums[1] / n[0]), s.metrics().rmse(), 1e-12 * Math.sqrt(sums[1] / n[0]));
+    assertEquals(sums[2] / n[0], s.metrics().bias(), 1e-9 * sums[0] / n[0]);
+    assertEquals((double) n[1] / n[0], s.metrics().coverage(), 1e-15);
+  }
+
+  @Test
+  void anEntityOfEmptyTextIsAnEntity() {
+    PipelineStep s = step();
+    Collector c = new Collector(s);
+    PipelineForecastTest.warm(c, new java.util.Random(11), 10);
+    long target = T0 + 20 * H;
+    c.feed(line("", T0 + 10 * H, target, 9, null));
+    c.feed(line("", target + H, target, 9, 15.0));
+    assertTrue(c.rejects.isEmpty(), c.rejects.toString());
+    assertEquals(1, c.settled.size());
+    assertEquals("", c.settled.get(0).hub());
   }
 
   /** The number of reject counters a checkpoint holds: after magic, version, fingerprint and five counts. */
