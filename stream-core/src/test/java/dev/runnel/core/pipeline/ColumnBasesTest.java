@@ -181,4 +181,20 @@ class ColumnBasesTest {
     }
     return t;
   }
+
+  @Test
+  void aRemovalFromAFullArrayAndOfTheLastColumnLeavesNoStaleId() {
+    ColumnBases b = bases(8, new Events()); // the arrays hold exactly 8
+    b.columnRebased(7, 4.0, 1.0);
+    b.columnRemoved(3);
+    assertEquals(7, b.dimension());
+    for (int j = 0; j < 7; j++) {
+      assertEquals(j < 3 ? j : j + 1, b.id(j));
+    }
+    assertEquals((2.0 - 1.0) / 4.0, b.toToday(6, 2.0), "the basis moved down with its column");
+    b.columnRemoved(6); // the last column, id 7
+    assertEquals(-1, b.indexOf(7), "a removed last column is not found");
+    assertEquals(-1, b.indexOf(3));
+    assertEquals(5, b.indexOf(6));
+  }
 }

@@ -74,4 +74,53 @@ class StreamClockEdgesTest {
     assertTrue(c.lastDetail().contains("1 of 3"), c.lastDetail());
     assertEquals(0, c.jumps());
   }
+
+  /** The run's bookkeeping and support as the checkpoint holds them: support, count, side, last time. */
+  private static long[] state(StreamClock c) throws java.io.IOException {
+    java.io.ByteArrayOutputStream b = new java.io.ByteArrayOutputStream();
+    c.writeTo(new java.io.DataOutputStream(b));
+    java.nio.ByteBuffer x = java.nio.ByteBuffer.wrap(b.toByteArray());
+    return new long[] {x.getInt(8), x.getInt(12), x.getInt(16), x.getLong(20)};
+  }
+
+  @Test
+  void aConfirmedJumpLeavesNoRunBehindAndSupportStopsAtConfirmRecords() throws java.io.IOException {
+    StreamClock c = new StreamClock(DAY, 3, 1.0, HOUR);
+    for (int i = 0; i < 6; i++) {
+      c.accept(T0 + i * HOUR);
+    }
+    assertEquals(3, state(c)[0], "support is capped at confirm_records");
+    long far = T0 + 10 * DAY;
+    c.accept(far);
+    c.accept(far + HOUR);
+    assertEquals(2, state(c)[1]);
+    assertEquals(StreamClock.Verdict.JUMPED, c.accept(far + 2 * HOUR));
+    assertEquals(0, state(c)[1], "no run left");
+    assertEquals(0, state(c)[2]);
+    assertEquals(0, state(c)[3]);
+  }
+
+  @Test
+  void theSmallestSettingsAreAcceptedAndAFactorOfZeroIsNot() {
+    StreamClock c = new StreamClock(1, 1, 1.0, 0);
+    c.accept(T0);
+    assertEquals(StreamClock.Verdict.ACCEPTED, c.accept(T0 + 1), "1 ms ahead with max_ahead of 1 ms");
+    assertEquals(StreamClock.Verdict.JUMPED, c.accept(T0 + 3), "2 ms ahead: a jump, confirmed by itself");
+    assertEquals(1.0, c.lambda());
+    IllegalArgumentException e = org.junit.jupiter.api.Assertions.assertThrows(IllegalArgumentException.class,
+        () -> new StreamClock(DAY, 3, 0.0, 0));
+    assertTrue(e.getMessage().startsWith("model.forgetting.factor must be in (0, 1], got 0.0"), e.getMessage());
+    org.junit.jupiter.api.Assertions.assertThrows(IllegalArgumentException.class, () -> new StreamClock(DAY, 3, 1.0000000000000002, 0));
+  }
+
+  @Test
+  void aStepOfExactlySixtyFourHalfLivesForgetsAll() {
+    StreamClock c = new StreamClock(1000 * DAY, 1, 1.0, HOUR);
+    c.accept(T0);
+    c.accept(T0 + 64 * HOUR - 1);
+    assertFalse(c.forgetsAll(), "just under 64 half-lives");
+    c.accept(T0 + 64 * HOUR - 1 + 64 * HOUR);
+    assertTrue(c.forgetsAll(), "exactly 64 half-lives");
+    assertEquals(1.0, c.lambda());
+  }
 }
