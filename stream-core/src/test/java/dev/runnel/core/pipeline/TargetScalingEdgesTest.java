@@ -122,4 +122,28 @@ class TargetScalingEdgesTest {
     assertEquals(0.0, mean.point(0.0, 0.0), 0.0);
     assertEquals(1.5, mean.forward(2.25), 0.0);
   }
+
+  @Test
+  void theStepsLog1pMeanIsTheLogNormalMeanOfItsOwnMedianAndInterval() {
+    // the same stream learned as log1p(y) by a plain step gives mu (its point) and s (half-width / z)
+    List<byte[]> byHandLines = counts(400, 9, StrictMath::log1p);
+    TargetTransformTest.Collect byHand = TargetTransformTest.run(TargetTransformTest.config(""), byHandLines);
+    TargetTransformTest.Collect mean = TargetTransformTest.run(
+        TargetTransformTest.config("  target_transform: log1p\n  target_point: mean\n"), counts(400, 9, k -> k));
+    double z = dev.runnel.core.model.ModelSettings.zForLevel(0.9);
+    int warm = 0;
+    for (int i = 0; i < byHand.out.size(); i++) {
+      TargetTransformTest.Out a = byHand.out.get(i);
+      if (a.status() == Prediction.Status.WARMING_UP) {
+        continue;
+      }
+      warm++;
+      double mu = a.predicted();
+      double s = (a.high() - a.low()) / (2 * z);
+      // e^(mu + s²/2) − 1 (common practice: the log-normal mean)
+      double want = StrictMath.expm1(mu + 0.5 * s * s);
+      assertEquals(want, mean.out.get(i).predicted(), 1e-9 * (1 + Math.abs(want)), "record " + i);
+    }
+    assertTrue(warm > 300);
+  }
 }
