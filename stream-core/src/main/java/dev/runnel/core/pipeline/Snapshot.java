@@ -340,7 +340,7 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
     PrequentialMetrics pm = step.metrics();
     Metrics metrics = new Metrics(pm.count(), pm.mae(), pm.rmse(), pm.bias(), pm.coverage(),
         pm.recentMae(), pm.recentRmse(), pm.recentBias(), pm.recentCoverage());
-    return new Snapshot(step.lastEventTimeMillis(), step.records(), step.trained(), step.forecasts(),
+    return new Snapshot(step.snapshotTimeMillis(), step.records(), step.trained(), step.forecasts(),
         step.rejected(), f.layoutVersion(), m.ready(), m.noiseSd(), sigma, m.effectiveSampleSize(),
         cols, f.vocabularies(), f.scalers(), metrics, step.snapshotsTaken() - 1, drift.alarms(), drift.status(),
         forecastingOf(step), contrasts, sharingOf(step));
