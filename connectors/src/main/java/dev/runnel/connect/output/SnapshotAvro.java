@@ -144,7 +144,10 @@ public final class SnapshotAvro {
     }
   }
 
-  /** A decoded snapshot in the JSON layout: the tree whose text is the JSON snapshot's bytes. */
+  /**
+   * A decoded snapshot in the JSON layout: the tree Jackson's parser gives the JSON snapshot's text
+   * (equal by {@code equals}), whose text is that JSON snapshot's bytes.
+   */
   static ObjectNode toJson(GenericRecord r) {
     return (ObjectNode) toJson(r.getSchema(), r);
   }
@@ -191,7 +194,11 @@ public final class SnapshotAvro {
       }
       case LONG -> {
         long x = (Long) v;
-        return isTime(s) ? F.textNode(Instant.ofEpochMilli(x).toString()) : F.numberNode(x);
+        if (isTime(s)) {
+          return F.textNode(Instant.ofEpochMilli(x).toString());
+        }
+        // the node class Jackson's parser gives the JSON text: int when it fits, so the trees are equal
+        return x == (int) x ? F.numberNode((int) x) : F.numberNode(x);
       }
       case DOUBLE -> {
         double d = (Double) v;

@@ -317,6 +317,7 @@ public class AvroOutputsReferenceTest {
     com.fasterxml.jackson.databind.ObjectMapper m = new com.fasterxml.jackson.databind.ObjectMapper();
     for (int i = 0; i < lines.size(); i++) {
       assertEquals(lines.get(i), m.writeValueAsString(a.get(i)), "snapshot " + i);
+      assertEquals(m.readTree(lines.get(i)), a.get(i), "snapshot " + i + ": the tree Jackson parses from the JSON line");
     }
   }
 
