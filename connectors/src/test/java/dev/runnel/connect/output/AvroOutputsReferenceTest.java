@@ -319,6 +319,33 @@ public class AvroOutputsReferenceTest {
       assertEquals(lines.get(i), m.writeValueAsString(a.get(i)), "snapshot " + i);
       assertEquals(m.readTree(lines.get(i)), a.get(i), "snapshot " + i + ": the tree Jackson parses from the JSON line");
     }
+    // drift --file: the same table from coefficients.avro as from coefficients.jsonl
+    String[] drift = new String[2];
+    int k = 0;
+    for (Path f : List.of(avro.resolve("coefficients.avro"), json.resolve("coefficients.jsonl"))) {
+      java.io.ByteArrayOutputStream b = new java.io.ByteArrayOutputStream();
+      assertEquals(0, dev.runnel.connect.cli.DriftCommandAccess.printFile(f, new dev.runnel.connect.drift.DriftTable("first", 3, null, null),
+          new java.io.PrintStream(b, true, StandardCharsets.UTF_8)));
+      drift[k++] = b.toString(StandardCharsets.UTF_8);
+    }
+    assertTrue(drift[1].lines().count() > 10, drift[1]);
+    assertEquals(drift[1], drift[0], "drift --file of coefficients.avro = of coefficients.jsonl");
+  }
+
+  @Test
+  void aSnapshotFieldTheSchemaLacksFailsAndNamesIt() {
+    String snapshot = "{\"format\":2,\"pipeline\":\"p\",\"partition\":0,\"index\":1,\"event_time\":null,\"records\":1,"
+        + "\"trained\":1,\"no_target_records\":0,\"rejected\":0,\"columns_version\":1,\"ready\":false,\"noise_sd\":null,"
+        + "\"residual_sd\":null,\"effective_sample_size\":1.5,\"metrics\":{\"count\":0,\"overall\":{\"mae\":null,\"rmse\":null,"
+        + "\"bias\":null,\"coverage\":null},\"recent\":{\"mae\":null,\"rmse\":null,\"bias\":null,\"coverage\":null}},"
+        + "\"columns\":[],\"alarms\":[],\"vocabularies\":[],\"standardization\":[]%s}";
+    // the well-formed one goes through and comes back as the same text
+    byte[] ok = String.format(java.util.Locale.ROOT, snapshot, "").getBytes(StandardCharsets.UTF_8);
+    JsonNode back = SnapshotAvro.toJson(OutputRecords.decode(OutputSchemas.Kind.SNAPSHOT.schema(), SnapshotAvro.fromJson(ok)));
+    assertEquals(new String(ok, StandardCharsets.UTF_8), back.toString());
+    byte[] extra = String.format(java.util.Locale.ROOT, snapshot, ",\"new_part\":3").getBytes(StandardCharsets.UTF_8);
+    IllegalStateException e = org.junit.jupiter.api.Assertions.assertThrows(IllegalStateException.class, () -> SnapshotAvro.fromJson(extra));
+    assertTrue(e.getMessage().contains("new_part") && e.getMessage().contains("snapshot.avsc"), e.getMessage());
   }
 
   /**
