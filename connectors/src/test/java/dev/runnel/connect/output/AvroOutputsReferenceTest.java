@@ -333,7 +333,7 @@ public class AvroOutputsReferenceTest {
   }
 
   @Test
-  void aSnapshotFieldTheSchemaLacksFailsAndNamesIt() {
+  void aSnapshotFieldTheSchemaLacksFailsAndNamesIt() throws IOException {
     String snapshot = "{\"format\":2,\"pipeline\":\"p\",\"partition\":0,\"index\":1,\"event_time\":null,\"records\":1,"
         + "\"trained\":1,\"no_target_records\":0,\"rejected\":0,\"columns_version\":1,\"ready\":false,\"noise_sd\":null,"
         + "\"residual_sd\":null,\"effective_sample_size\":1.5,\"metrics\":{\"count\":0,\"overall\":{\"mae\":null,\"rmse\":null,"
