@@ -182,10 +182,10 @@ public final class DriftTable {
         String kind = a.path("kind").asText();
         if (kind.equals("weight")) {
           sb.append(a.path("column").asText()).append(' ').append(a.path("direction").asText());
-        } else if (kind.equals("changed_weight")) {
-          // the column the before/after comparison named: weight before → after, z in standard errors
+        } else if (kind.equals("changed_weight") || kind.equals("weight_break")) {
+          // the column the before/after comparison (or the weight-break scan) named: weight before → after, z in standard errors
           double z = a.path("score").asDouble(Double.NaN) * (a.path("direction").asText().equals("down") ? -1 : 1);
-          sb.append("CHANGED ").append(a.path("column").asText()).append(' ')
+          sb.append(kind.equals("weight_break") ? "BREAK " : "CHANGED ").append(a.path("column").asText()).append(' ')
               .append(sig(a.path("baseline_value").asDouble(Double.NaN))).append("→")
               .append(sig(a.path("current_value").asDouble(Double.NaN)))
               .append(String.format(Locale.ROOT, " (%+.1f)", z));

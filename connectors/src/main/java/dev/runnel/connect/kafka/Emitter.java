@@ -21,4 +21,13 @@ public interface Emitter {
   default void settled(byte[] key, byte[] value) {
     throw new UnsupportedOperationException("this emitter does not publish settled forecasts");
   }
+
+  /**
+   * One model share (to {@code <name>.shares}; only processors that {@linkplain
+   * PartitionProcessor#sharesModel share their model} send them), inside the open transaction like
+   * every output. The default refuses.
+   */
+  default void share(byte[] key, byte[] value) {
+    throw new UnsupportedOperationException("this emitter does not publish model shares");
+  }
 }

@@ -171,6 +171,8 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     /** What the transaction being committed carries for this partition, until its outcome is known. */
     long pendingNext = -1;
     byte[] pendingCheckpoint;
+    /** With a processor that shares its model: per share partition, the offset of {@code <name>.shares} to hand it next; else null. */
+    long[] shareNext;
     /** Offsets (not yet committed past) whose processing threw, with what was thrown; see {@link #setAsideAndRewind}. */
     final java.util.TreeMap<Long, String> setAside = new java.util.TreeMap<>();
 
@@ -203,6 +205,101 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     @Override public void settled(byte[] key, byte[] value) {
       producer.send(new ProducerRecord<>(settings.settledTopic(), settledPart, key, value, settledHeaders), sendCallback);
       outputsOut++;
+    }
+
+    @Override public void share(byte[] key, byte[] value) {
+      if (sharesPartitions == 0) throw new IllegalStateException("a share from a processor that does not share its model");
+      producer.send(new ProducerRecord<>(settings.sharesTopic(), tp.partition() % sharesPartitions, key, value, headers), sendCallback);
+    }
+  }
+
+  // ------------------------------------------------------------------ model shares (model.scope: global)
+
+  /** {@code <name>.shares}' partition count; 0 until a processor shares its model. */
+  private int sharesPartitions;
+  /** Reads {@code <name>.shares} (read_committed, no group); made with {@link #sharesPartitions}. */
+  private KafkaConsumer<byte[], byte[]> shareReader;
+  /** Per share partition, the committed records read and not yet handed to every sharing processor. */
+  private java.util.ArrayDeque<ConsumerRecord<byte[], byte[]>>[] shareLogs;
+  /** Per share partition, the offset from which {@link #shareLogs} holds every committed record; MAX_VALUE for none yet. */
+  private long[] shareLogFrom;
+
+  /** Creates {@code <name>.shares} and its reader, once. */
+  @SuppressWarnings("unchecked")
+  private void ensureSharing() {
+    if (sharesPartitions > 0) return;
+    try (Admin admin = Admin.create(adminConfig())) {
+      sharesPartitions = TopicSetup.ensureShares(admin, settings, layout.inputPartitions());
+    } catch (IllegalStateException e) {
+      throw new FatalException(e.getMessage(), e);
+    } catch (InterruptedException e) {
+      Thread.currentThread().interrupt();
+      throw new FatalException("interrupted while creating " + settings.sharesTopic(), e);
+    }
+    shareReader = new KafkaConsumer<>(consumerConfig(null, "shares"));
+    List<TopicPartition> parts = new ArrayList<>();
+    for (int q = 0; q < sharesPartitions; q++) parts.add(new TopicPartition(settings.sharesTopic(), q));
+    shareReader.assign(parts);
+    shareLogs = new java.util.ArrayDeque[sharesPartitions];
+    shareLogFrom = new long[sharesPartitions];
+    for (int q = 0; q < sharesPartitions; q++) {
+      shareLogs[q] = new java.util.ArrayDeque<>();
+      shareLogFrom[q] = Long.MAX_VALUE;
+    }
+    LOG.info("runner {}: sharing the model through {} ({} partitions)", settings.name(), settings.sharesTopic(), sharesPartitions);
+  }
+
+  /**
+   * Hands every sharing processor the committed shares it has not taken yet, in offset order per
+   * share partition: each processor reads from the offsets its checkpoint carries (a restored one
+   * from the last commit's), so a share is folded once per partition state, never twice, never
+   * skipped. A processor that took a share is checkpointed at the next commit, with its input offset
+   * unchanged. The shares read are kept until every sharing processor here is past them; a
+   * processor behind them (restored, or newly assigned) makes the reader go back.
+   */
+  private void foldShares() {
+    if (shareReader == null) return;
+    long[] need = new long[sharesPartitions];
+    java.util.Arrays.fill(need, Long.MAX_VALUE);
+    boolean any = false;
+    for (Slot s : slots.values()) {
+      if (s.shareNext == null) continue;
+      any = true;
+      for (int q = 0; q < sharesPartitions; q++) need[q] = Math.min(need[q], s.shareNext[q]);
+    }
+    if (!any) return;
+    for (int q = 0; q < sharesPartitions; q++) {
+      java.util.ArrayDeque<ConsumerRecord<byte[], byte[]>> log = shareLogs[q];
+      if (need[q] < shareLogFrom[q]) {
+        shareReader.seek(new TopicPartition(settings.sharesTopic(), q), need[q]);
+        log.clear();
+        shareLogFrom[q] = need[q];
+      } else {
+        while (!log.isEmpty() && log.peekFirst().offset() < need[q]) log.pollFirst();
+        shareLogFrom[q] = need[q];
+      }
+    }
+    for (ConsumerRecord<byte[], byte[]> r : shareReader.poll(Duration.ZERO)) {
+      if (r.offset() >= shareLogFrom[r.partition()]) shareLogs[r.partition()].addLast(r);
+    }
+    for (Slot s : slots.values()) {
+      if (s.shareNext == null) continue;
+      for (int q = 0; q < sharesPartitions; q++) {
+        for (ConsumerRecord<byte[], byte[]> r : shareLogs[q]) {
+          if (r.offset() < s.shareNext[q]) continue;
+          boolean took;
+          try {
+            took = s.proc.foldShare(q, r.offset(), r.value());
+          } catch (RuntimeException e) {
+            throw new FatalException("the processor of " + s.tp + " cannot fold " + settings.sharesTopic() + "-" + q + " offset "
+                + r.offset() + ": " + e.getMessage(), e);
+          }
+          if (!took) break;
+          s.shareNext[q] = r.offset() + 1;
+          beginIfNeeded();
+          s.touched = true;
+        }
+      }
     }
   }
 
@@ -350,6 +447,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
       }
       try {
         process(batch);
+        foldShares();
         if (txOpen && (recordsInTx >= settings.commitIntervalRecords()
             || System.nanoTime() - txStartNanos >= settings.commitIntervalMs() * 1_000_000L)) {
           commit();
@@ -728,7 +826,7 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     }
     if (t instanceof AuthorizationException || t instanceof AuthenticationException) {
       return "not allowed by the cluster at " + settings.bootstrapServers() + ": " + t.getMessage()
-          + " (needs READ on " + settings.inputTopic() + " and group " + settings.groupId() + ", WRITE on the five output topics,"
+          + " (needs READ on " + settings.inputTopic() + " and group " + settings.groupId() + ", WRITE on the five output topics (and " + settings.sharesTopic() + " with model.scope: global),"
           + " WRITE/DESCRIBE on transactional id " + settings.transactionalId() + "). Stopping.";
     }
     if (t instanceof org.apache.kafka.common.errors.RecordTooLargeException) {
@@ -845,6 +943,13 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
           + (s.committedCheckpoint == null ? "none" : s.committedCheckpoint.length + " bytes") + ", resuming at offset " + s.committedNext
           + "): " + e, e);
     }
+    if (s.proc.sharesModel()) {
+      ensureSharing();
+      s.shareNext = new long[sharesPartitions];
+      for (int q = 0; q < sharesPartitions; q++) s.shareNext[q] = s.proc.shareOffset(q);
+    } else {
+      s.shareNext = null;
+    }
     s.next = s.committedNext;
     s.touched = false;
   }
@@ -936,6 +1041,10 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     if (stateReader != null) {
       stateReader.close(CloseOptions.timeout(Duration.ofSeconds(5)));
       stateReader = null;
+    }
+    if (shareReader != null) {
+      shareReader.close(CloseOptions.timeout(Duration.ofSeconds(5)));
+      shareReader = null;
     }
     if (othersAdmin != null) {
       othersAdmin.close(Duration.ofSeconds(5));

@@ -84,6 +84,39 @@ public interface PartitionProcessor {
     return outputHeaders();
   }
 
+  /**
+   * Whether this processor shares its model with the other partitions' ({@code model.scope: global}):
+   * it sends shares through {@link Emitter#share}, and the runner hands it every record of
+   * {@code <name>.shares} (read_committed) through {@link #foldShare}. Asked after {@link #restore}.
+   * The default: no.
+   */
+  default boolean sharesModel() {
+    return false;
+  }
+
+  /**
+   * The offset of {@code <name>.shares} partition {@code sharePartition} this processor reads next,
+   * as restored from its checkpoint (0 for none). Asked after {@link #restore}.
+   */
+  default long shareOffset(int sharePartition) {
+    return 0L;
+  }
+
+  /**
+   * One committed record of {@code <name>.shares}, in offset order per share partition, starting at
+   * {@link #shareOffset}. The processor folds it in (or skips it: its own, or folded before) and
+   * then reads from {@code offset + 1}, which its next checkpoint carries; or it returns false,
+   * changing nothing, to be handed the same record again later (it cannot fold yet).
+   *
+   * @param value the share's bytes. Not modified.
+   * @return whether the record was taken
+   * @throws RuntimeException when the record cannot be folded at all (not a share, a share lost
+   *     before it, another pipeline's); the runner stops with the message
+   */
+  default boolean foldShare(int sharePartition, long offset, byte[] value) {
+    return true;
+  }
+
   /** No output headers. */
   org.apache.kafka.common.header.Header[] NO_HEADERS = new org.apache.kafka.common.header.Header[0];
 

@@ -86,6 +86,8 @@ public record RunnerSettings(String name, String inputTopic, String bootstrapSer
   public String stateTopic() { return name + ".state"; }
   /** Settled forecasts (docs/forecasting.md); created with the others, empty without {@code input.forecast}. */
   public String settledTopic() { return name + ".settled"; }
+  /** Model shares with {@code model.scope: global}: created only when a processor shares its model. */
+  public String sharesTopic() { return name + ".shares"; }
   public String transactionalId() { return transactionalIdPrefix + "-" + name + "-" + instanceId; }
   public String groupInstanceId() { return name + "-" + instanceId; }
 }

@@ -80,6 +80,33 @@ public final class TopicSetup {
         counts.get(s.stateTopic()), counts.get(s.settledTopic()));
   }
 
+  /**
+   * Makes sure {@code <name>.shares} exists (plain, not compacted: every share of a partition must be
+   * read once by every other partition, in order; a retention shorter than the longest time a
+   * partition may stay unprocessed loses shares, which stops the runner with a message), with the
+   * input's partition count.
+   *
+   * @return its partition count
+   */
+  public static int ensureShares(Admin admin, RunnerSettings s, int inputPartitions) throws InterruptedException {
+    int brokers = get(admin.describeCluster().nodes()).size();
+    short rf = (short) Math.max(1, Math.min(3, brokers));
+    NewTopic t = new NewTopic(s.sharesTopic(), inputPartitions, rf).configs(Map.of("max.message.bytes",
+        Integer.toString(STATE_MAX_MESSAGE_BYTES), "compression.type", "lz4"));
+    if (!get(admin.listTopics().names()).contains(t.name())) {
+      try {
+        get(admin.createTopics(List.of(t)).all());
+      } catch (TopicExistsException raced) {
+        // another instance created it first
+      } catch (RuntimeException e) {
+        if (e instanceof org.apache.kafka.common.errors.TimeoutException) throw e;
+        throw new IllegalStateException("cannot create topic " + t.name() + " (" + e.getMessage() + "); create it by hand with"
+            + " partitions=" + t.numPartitions() + ", replication=" + t.replicationFactor() + ", configs " + t.configs(), e);
+      }
+    }
+    return describeSoon(admin, t.name()).partitions().size();
+  }
+
   /** Describes a topic, allowing a few seconds for a just-created topic to appear in the metadata. */
   private static TopicDescription describeSoon(Admin admin, String topic) throws InterruptedException {
     long deadline = System.currentTimeMillis() + 5000;

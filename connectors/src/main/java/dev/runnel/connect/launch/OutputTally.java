@@ -126,5 +126,21 @@ public final class OutputTally {
       settled.increment();
       out.settled(key, value);
     }
+
+    @Override public void share(byte[] key, byte[] value) {
+      out.share(key, value);
+    }
+
+    @Override public boolean sharesModel() {
+      return inner.sharesModel();
+    }
+
+    @Override public long shareOffset(int sharePartition) {
+      return inner.shareOffset(sharePartition);
+    }
+
+    @Override public boolean foldShare(int sharePartition, long offset, byte[] value) {
+      return inner.foldShare(sharePartition, offset, value);
+    }
   }
 }

@@ -5,7 +5,9 @@ import dev.runnel.connect.kafka.PartitionProcessor;
 import dev.runnel.connect.kafka.ProcessorFactory;
 import dev.runnel.connect.output.OutputEncoder;
 import dev.runnel.connect.output.OutputSchemas;
+import dev.runnel.core.config.ModelScope;
 import dev.runnel.core.config.PipelineConfig;
+import dev.runnel.core.model.ModelShare;
 import dev.runnel.core.pipeline.OutputJson;
 import dev.runnel.core.pipeline.PipelineStep;
 import dev.runnel.core.pipeline.Prediction;
@@ -45,6 +47,8 @@ public final class PipelineProcessor implements PartitionProcessor {
   private static final byte[] EMPTY = new byte[0];
 
   private final PipelineStep step;
+  /** {@code model.scope: global}: shares are made after records and folded from {@code <name>.shares}. */
+  private final boolean sharing;
   /** Turns Avro values into JSON objects; null for JSON input. */
   private final AvroValues avro;
   private final int maxRecordBytes;
@@ -100,7 +104,8 @@ public final class PipelineProcessor implements PartitionProcessor {
    */
   public PipelineProcessor(PipelineConfig config, TopicPartition tp) {
     this.config = config;
-    this.step = new PipelineStep(config);
+    this.step = new PipelineStep(config, tp.partition());
+    this.sharing = config.model().scope() == ModelScope.GLOBAL;
     this.avro = AvroValues.of(config);
     this.maxRecordBytes = config.input().limits().maxRecordBytes();
     this.json = OutputJson.of(config);
@@ -301,12 +306,79 @@ public final class PipelineProcessor implements PartitionProcessor {
       } else {
         step.process(record, 0, record.length, timestampMillis, partition, offset, sink);
       }
+      if (sharing) {
+        ModelShare s = step.shareIfDue();
+        if (s != null) {
+          // in the open transaction, like this record's outputs and the checkpoint that starts the next share
+          out.share(partitionKey, s.toBytes());
+        }
+      }
       if (!queued.isEmpty()) {
         serveQueued();
       }
     } finally {
       lock.unlock();
     }
+  }
+
+  @Override
+  public boolean sharesModel() {
+    return sharing;
+  }
+
+  @Override
+  public long shareOffset(int sharePartition) {
+    acquire();
+    try {
+      return step.shareOffset(sharePartition);
+    } finally {
+      lock.unlock();
+    }
+  }
+
+  /**
+   * Folds one record of {@code <name>.shares}: a share of another partition goes into the view
+   * (once: one folded before is skipped by its sequence number), this partition's own are skipped;
+   * false while the stream clock has no time yet (the share then waits, docs/operations.md "Scaling").
+   *
+   * @throws IllegalStateException naming the record when it is not a share of this pipeline's model,
+   *     or when it cannot be folded (a share of its source was lost before it)
+   */
+  @Override
+  public boolean foldShare(int sharePartition, long offset, byte[] value) {
+    acquire();
+    try {
+      if (value != null) {
+        ModelShare s;
+        try {
+          s = ModelShare.fromBytes(value);
+        } catch (java.io.IOException e) {
+          throw new IllegalStateException("the record is not a model share: " + e.getMessage(), e);
+        }
+        if (s.source() != partition) {
+          try {
+            if (step.fold(s) == null) {
+              return false;
+            }
+          } catch (IllegalArgumentException e) {
+            throw new IllegalStateException(e.getMessage() + " (was a share deleted by the topic's retention before this"
+                + " partition read it? Then start a new pipeline name, or reset this pipeline's state)", e);
+          }
+        }
+      }
+      step.shareOffset(sharePartition, offset + 1);
+      return true;
+    } finally {
+      lock.unlock();
+    }
+  }
+
+  /**
+   * Runs {@code f} on the step after a whole record (any thread; as {@link #stats}); {@code f} must
+   * only read, and copy what it keeps.
+   */
+  public <T> T readStep(java.util.function.Function<PipelineStep, T> f) {
+    return read(() -> f.apply(step));
   }
 
   /** The reject for a record whose processing threw, in the format of every reject; the step is not touched. */

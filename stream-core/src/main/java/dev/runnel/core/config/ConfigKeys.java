@@ -168,6 +168,8 @@ public final class ConfigKeys {
   public static final ConfigKey<TargetPoint> TARGET_POINT = add(ConfigKey.choice("model", "target_point", TargetPoint.MEDIAN, TargetPoint.values(), TargetPoint::word));
   public static final ConfigKey<Boolean> TARGET_NON_NEGATIVE = add(ConfigKey.flag("model", "target_non_negative", false));
   public static final ConfigKey<ModelScope> MODEL_SCOPE = add(ConfigKey.choice("model", "scope", ModelScope.PARTITION, ModelScope.values(), ModelScope::word));
+  public static final ConfigKey<Long> SHARE_EVERY_RECORDS = add(ConfigKey.whole("model", "share_every_records", 1000, 0, 1_000_000_000));
+  public static final ConfigKey<Long> SHARE_EVERY = add(ConfigKey.duration("model", "share_every"));
 
   // ---- outputs ----
   public static final ConfigKey<Long> SNAPSHOT_EVERY_RECORDS = add(ConfigKey.whole("outputs", "snapshot_every_records", 1000, 0, Long.MAX_VALUE));
@@ -199,6 +201,9 @@ public final class ConfigKeys {
   public static final ConfigKey<Double> ATTRIBUTION_SE = add(ConfigKey.number("drift", "attribution_se", DRIFT.attributionSe(), 0, true, 1.0e6, false, "use a number of standard errors greater than 0, e.g. 4"));
   public static final ConfigKey<Integer> RESET_TO_RECORDS = add(ConfigKey.wholeInt("drift", "reset_to_records", DRIFT.resetToRecords(), 0, 1_000_000));
   public static final ConfigKey<Integer> CONTRAST_LEVELS = add(ConfigKey.wholeInt("drift", "contrast_levels", DRIFT.contrastLevels(), 0, 100));
+  public static final ConfigKey<Integer> BREAK_BLOCK_RECORDS = add(ConfigKey.wholeInt("drift", "break_block_records", DRIFT.breakBlockRecords(), 0, 1_000_000));
+  public static final ConfigKey<Integer> BREAK_BLOCKS = add(ConfigKey.wholeInt("drift", "break_blocks", DRIFT.breakBlocks(), 2, 1024));
+  public static final ConfigKey<Double> BREAK_SE = add(ConfigKey.number("drift", "break_se", DRIFT.breakSe(), 0, true, 1.0e6, false, "use a number of standard errors greater than 0, e.g. 4.75"));
 
   // ---- web ----
   public static final ConfigKey<Boolean> WEB_ENABLED = add(ConfigKey.flag("web", "enabled", true));

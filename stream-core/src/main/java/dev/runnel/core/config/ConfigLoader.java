@@ -324,6 +324,9 @@ public final class ConfigLoader {
       PipelineConfig.Drift drift = drift(sectionOrEmpty(top, "drift"));
       warnAboutTime(top.section("input"), input, features);
       PipelineConfig.TargetScale targetScale = targetScale(sectionOrEmpty(top, "model"));
+      if (model.scope() == ModelScope.GLOBAL) {
+        checkGlobal(input, drift);
+      }
       return new PipelineConfig(name, input, target, features, model, outputs, kafka, web, source, drift, warnings, targetScale);
     }
 
@@ -862,6 +865,23 @@ public final class ConfigLoader {
       return n;
     }
 
+    /**
+     * {@code model.scope: global} with settings whose state cannot be shared: each one names its
+     * key and the way out.
+     */
+    private void checkGlobal(PipelineConfig.Input input, PipelineConfig.Drift drift) {
+      if (input.forecast().enabled() && input.forecast().corrections() == Correction.REPLACE) {
+        throw new ConfigException("input.forecast.corrections", "input.forecast.corrections: replace cannot be used with"
+            + " model.scope: global (a corrected actual is taken out of this partition's model, but its information was"
+            + " already shared with the others); use reject or learn_as_new, or model.scope: partition");
+      }
+      if (drift.resetToRecords() > 0) {
+        throw new ConfigException("drift.reset_to_records", "drift.reset_to_records: " + drift.resetToRecords()
+            + " cannot be used with model.scope: global (a reset cuts this partition's information, folded shares of the"
+            + " others included, which they keep); use 0, or model.scope: partition");
+      }
+    }
+
     private PipelineConfig.Model model(Section m) {
       m.allowScope("model");
       boolean constant = ConfigKeys.CONSTANT_TERM.read(m);
@@ -893,10 +913,21 @@ public final class ConfigLoader {
           throw new ConfigException(k, k + ": global needs forgetting by event time (model.forgetting.half_life) or none;"
               + " model.forgetting.factor " + factor + " forgets per record, and partitions share no record count");
         }
-        m.warn(k, k + ": global: the shared model's core is built, the runner does not share between partitions yet,"
-            + " so each partition still keeps its own model (docs/model.md, \"One model across partitions\")");
+        if (!constant) {
+          throw new ConfigException(k, k + ": global needs model.constant_term: true; a share is brought to another"
+              + " partition's scaler basis by a shift that the constant term takes (set model.constant_term: true, or"
+              + " model.scope: partition)");
+        }
       }
-      return new PipelineConfig.Model(constant, prior, diffuse, factor, halfLife, towardsPrior, level, noise, scope);
+      long shareRecords = ConfigKeys.SHARE_EVERY_RECORDS.read(m);
+      long shareMillis = ConfigKeys.SHARE_EVERY.read(m);
+      if (scope == ModelScope.GLOBAL && shareRecords == 0 && shareMillis == 0) {
+        String k = m.p("share_every_records");
+        throw new ConfigException(k, k + ": 0 with no model.share_every: a partition would never share; give"
+            + " model.share_every_records (e.g. 1000) or model.share_every (e.g. PT1H)");
+      }
+      return new PipelineConfig.Model(constant, prior, diffuse, factor, halfLife, towardsPrior, level, noise, scope,
+          shareRecords, shareMillis);
     }
 
     /** The target's keys of the {@code model} section (docs/model.md, "Transformed target"). */
@@ -978,8 +1009,11 @@ public final class ConfigLoader {
       double named = ConfigKeys.ATTRIBUTION_SE.read(d);
       int reset = ConfigKeys.RESET_TO_RECORDS.read(d);
       int contrasts = ConfigKeys.CONTRAST_LEVELS.read(d);
+      int breakBlock = ConfigKeys.BREAK_BLOCK_RECORDS.read(d);
+      int breakBlocks = ConfigKeys.BREAK_BLOCKS.read(d);
+      double breakSe = ConfigKeys.BREAK_SE.read(d);
       return new PipelineConfig.Drift(k, baseline, back, test, delta, lambda, warm, hold, window, named, reset,
-          contrasts);
+          contrasts, breakBlock, breakBlocks, breakSe);
     }
 
     private PipelineConfig.Web web(Section w) {

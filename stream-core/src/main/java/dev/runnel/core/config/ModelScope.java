@@ -6,8 +6,8 @@ public enum ModelScope {
   PARTITION("partition"),
   /**
    * One model across partitions: each partition shares what its records contributed and folds in
-   * the others' shares ({@code dev.runnel.core.model.GlobalModel}). The core is built; the
-   * runner's wiring is not yet, so a run still keeps a model per partition (the loader warns).
+   * the others' shares ({@code dev.runnel.core.model.GlobalModel}) through {@code <name>.shares}
+   * (docs/operations.md, "Scaling").
    */
   GLOBAL("global");
 

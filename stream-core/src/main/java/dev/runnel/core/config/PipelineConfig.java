@@ -229,10 +229,22 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    * @param forgettingHalfLifeMillis event-time half-life of the data's weight; 0 when the factor is used
    * @param noiseHalfLifeRecords fading window of the noise-variance estimate, in records
    * @param scope key {@code model.scope}: a model per partition, or one across partitions
+   * @param shareEveryRecords key {@code model.share_every_records}: with the global scope, a partition
+   *     shares after this many of its own trained records (0: not by count)
+   * @param shareEveryMillis key {@code model.share_every}: with the global scope, a partition shares
+   *     when its stream clock enters a new period of this length (0: not by event time)
    */
   public record Model(boolean constantTerm, double priorVariance, boolean diffuse, double forgettingFactor,
                       long forgettingHalfLifeMillis, boolean windupGuard, double intervalLevel,
-                      double noiseHalfLifeRecords, ModelScope scope) {
+                      double noiseHalfLifeRecords, ModelScope scope, long shareEveryRecords, long shareEveryMillis) {
+    /** The default share periods ({@code model.share_every_records}, no {@code model.share_every}). */
+    public Model(boolean constantTerm, double priorVariance, boolean diffuse, double forgettingFactor,
+                 long forgettingHalfLifeMillis, boolean windupGuard, double intervalLevel, double noiseHalfLifeRecords,
+                 ModelScope scope) {
+      this(constantTerm, priorVariance, diffuse, forgettingFactor, forgettingHalfLifeMillis, windupGuard, intervalLevel,
+          noiseHalfLifeRecords, scope, ConfigKeys.SHARE_EVERY_RECORDS.defaultValue(), 0L);
+    }
+
     /** A model per partition (the default scope). */
     public Model(boolean constantTerm, double priorVariance, boolean diffuse, double forgettingFactor,
                  long forgettingHalfLifeMillis, boolean windupGuard, double intervalLevel, double noiseHalfLifeRecords) {
@@ -378,14 +390,26 @@ public record PipelineConfig(String name, Input input, String target, List<Featu
    *     records, then restarted; 0 = off
    * @param contrastLevels per one-hot feature, snapshots carry the contrasts of this many of its
    *     most recorded levels against the mean of its levels, with standard errors; 0 = none
+   * @param breakBlockRecords the weight-break scan sums trained records in blocks of this many and
+   *     looks once per block; 0 = off
+   * @param breakBlocks complete blocks the weight-break scan keeps (its longest recent stretch is half)
+   * @param breakSe the weight-break scan names a column above this many standard errors
    */
   public record Drift(double weightAlarmSe, DriftBaseline baseline, int baselineSnapshots, ErrorTest errorTest,
                       double errorAllowance, double errorThreshold, long errorWarmupRecords, int alarmHoldSnapshots,
                       int attributionRecords, double attributionSe, int resetToRecords,
-                      int contrastLevels) {
+                      int contrastLevels, int breakBlockRecords, int breakBlocks, double breakSe) {
     /** The defaults, as documented in docs/drift.md. */
     public static final Drift DEFAULTS = new Drift(4.0, DriftBaseline.SNAPSHOTS_AGO, 8, ErrorTest.PAGE_HINKLEY,
-        0.1, 30.0, 100, 4, 1200, 4.0, 0, 0);
+        0.1, 30.0, 100, 4, 1200, 4.0, 0, 0, 144, 64, 4.75);
+
+    /** The section with the default weight-break scan. */
+    public Drift(double weightAlarmSe, DriftBaseline baseline, int baselineSnapshots, ErrorTest errorTest,
+                 double errorAllowance, double errorThreshold, long errorWarmupRecords, int alarmHoldSnapshots,
+                 int attributionRecords, double attributionSe, int resetToRecords, int contrastLevels) {
+      this(weightAlarmSe, baseline, baselineSnapshots, errorTest, errorAllowance, errorThreshold, errorWarmupRecords,
+          alarmHoldSnapshots, attributionRecords, attributionSe, resetToRecords, contrastLevels, 144, 64, 4.75);
+    }
 
     /** The section with the default change attribution. */
     public Drift(double weightAlarmSe, DriftBaseline baseline, int baselineSnapshots, ErrorTest errorTest,

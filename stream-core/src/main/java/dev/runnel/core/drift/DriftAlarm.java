@@ -3,7 +3,7 @@ package dev.runnel.core.drift;
 /**
  * One raised alarm, as carried in a snapshot. Immutable.
  *
- * @param kind {@link #WEIGHT}, {@link #ERROR_LEVEL} or {@link #CHANGED_WEIGHT}
+ * @param kind {@link #WEIGHT}, {@link #ERROR_LEVEL}, {@link #CHANGED_WEIGHT} or {@link #WEIGHT_BREAK}
  * @param column the column for a weight or changed-weight alarm; null for an error-level alarm
  * @param direction {@code up} or {@code down}: the weight rose or fell; the error level rose or fell
  * @param firedAtMillis event time at which it fired (the snapshot's time for a weight alarm, the
@@ -31,6 +31,12 @@ public record DriftAlarm(String kind, String column, String direction, long fire
    * error-level alarm ({@link ChangeAttribution}); listed, largest score first, like an error-level alarm.
    */
   public static final String CHANGED_WEIGHT = "changed_weight";
+  /**
+   * Kind of a weight-break alarm: a column named by the stability scan kept all the time
+   * ({@link WeightBreakScan}); {@code baselineValue} is its raw weight in the older stretch,
+   * {@code currentValue} in the recent one, {@code score} the {@code |z|} of their difference.
+   */
+  public static final String WEIGHT_BREAK = "weight_break";
 
   /** The same alarm with a new score and current value (a weight alarm that is still raised). */
   DriftAlarm withScore(double newScore, double newCurrent, String newDirection) {

@@ -47,6 +47,7 @@ public final class DriftMonitor {
   private final LinkedHashMap<String, DriftAlarm> weightAlarms = new LinkedHashMap<>();
   private final ArrayList<DriftAlarm> errorAlarms = new ArrayList<>();
   private final ChangeAttribution attribution;
+  private final WeightBreakScan breaks;
   private final LinkedHashMap<String, Double> moved = new LinkedHashMap<>();
   private long weightFired;
   private double refNoiseSd = Double.NaN;
@@ -77,6 +78,7 @@ public final class DriftMonitor {
         ? new PageHinkley(settings.errorAllowance(), settings.errorThreshold(), settings.errorWarmupRecords())
         : null;
     this.attribution = new ChangeAttribution(settings.attributionRecords(), settings.attributionSe());
+    this.breaks = new WeightBreakScan(settings.breakBlockRecords(), settings.breakBlocks(), settings.breakSe());
     this.historySize = switch (settings.baseline()) {
       case PREVIOUS_SNAPSHOT -> 1;
       case SNAPSHOTS_AGO -> settings.baselineSnapshots();
@@ -183,6 +185,34 @@ public final class DriftMonitor {
       changeFired++;
       errorAlarms.add(new DriftAlarm(DriftAlarm.CHANGED_WEIGHT, c.column(), c.score() > 0 ? "up" : "down",
           eventTimeMillis, -1, trained, Math.abs(c.score()), attribution.threshold(), c.before(), c.after()));
+    }
+  }
+
+  /** The weight-break scan (kept all the time). */
+  public WeightBreakScan breaks() { return breaks; }
+
+  /**
+   * One trained record's raw-unit row for the weight-break scan (hot path: {@code O(p²)}, no
+   * allocation unless a look names columns); the columns a look names become weight-break alarms,
+   * listed from the next snapshot on for {@code alarm_hold_snapshots} snapshots, largest score first.
+   *
+   * @param x raw-unit row. Not modified.
+   * @param y the target (model units)
+   * @param dimension the row's length
+   * @param layout the layout version
+   * @param eventTimeMillis the record's event time
+   * @param trained the pipeline's trained-record count including this record
+   * @param names the column names by index (called only when a look names columns)
+   */
+  public void observeBreak(double[] x, double y, int dimension, long layout, long eventTimeMillis, long trained,
+                           java.util.function.IntFunction<String> names) {
+    if (!breaks.observe(x, y, dimension, layout)) {
+      return;
+    }
+    for (int k = 0; k < breaks.namedCount(); k++) {
+      double z = breaks.namedScore(k);
+      errorAlarms.add(new DriftAlarm(DriftAlarm.WEIGHT_BREAK, names.apply(breaks.namedColumn(k)), z > 0 ? "up" : "down",
+          eventTimeMillis, -1, trained, Math.abs(z), breaks.threshold(), breaks.namedBefore(k), breaks.namedAfter(k)));
     }
   }
 
@@ -427,7 +457,8 @@ public final class DriftMonitor {
     int ea = (int) count(in.readInt(), "error alarms");
     for (int i = 0; i < ea; i++) {
       DriftAlarm a = readAlarm(in);
-      if (!DriftAlarm.ERROR_LEVEL.equals(a.kind()) && !DriftAlarm.CHANGED_WEIGHT.equals(a.kind())) {
+      if (!DriftAlarm.ERROR_LEVEL.equals(a.kind()) && !DriftAlarm.CHANGED_WEIGHT.equals(a.kind())
+          && !DriftAlarm.WEIGHT_BREAK.equals(a.kind())) {
         throw new IOException("corrupt drift checkpoint: an error-level alarm of kind " + a.kind());
       }
       errorAlarms.add(a);
@@ -476,6 +507,27 @@ public final class DriftMonitor {
   public boolean hasAttributionState() {
     return changeFired > 0 || attribution.hasState() || resetDue || noiseHoldLeft > 0;
   }
+
+  /** Writes the weight-break scan's state (checkpoint version 9 on). */
+  public void writeBreakTo(DataOutput out) throws IOException {
+    breaks.writeTo(out);
+  }
+
+  /** Reads a state written by {@link #writeBreakTo}; {@code in == null} resets it (an older checkpoint). */
+  public void readBreakFrom(DataInput in) throws IOException {
+    if (in == null) {
+      breaks.reset();
+      return;
+    }
+    try {
+      breaks.readFrom(in);
+    } catch (EOFException e) {
+      throw new EOFException("drift checkpoint is truncated");
+    }
+  }
+
+  /** Whether the weight-break scan has state to write (a checkpoint without it keeps its former version). */
+  public boolean hasBreakState() { return breaks.hasState(); }
 
   /** A count read from a checkpoint: refused when negative. */
   static long count(long n, String what) throws IOException {

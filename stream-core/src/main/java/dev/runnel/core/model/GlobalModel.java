@@ -577,6 +577,57 @@ public final class GlobalModel implements LayoutListener {
     return view.scale[v];
   }
 
+  /**
+   * The view's weights of the local columns, in the local layout: the entries of the joint solution
+   * over every column of the view that this partition's layout holds.
+   *
+   * @param out receives {@link #localDimension()} weights. Modified.
+   */
+  public void localWeights(double[] out) {
+    double[] w = new double[view.size()];
+    view.model.weights(w);
+    for (int j = 0; j < local; j++) {
+      out[j] = w[view.fromLocal[j]];
+    }
+  }
+
+  /**
+   * The view's standard errors of the local columns, in the local layout.
+   *
+   * @param out receives {@link #localDimension()} standard errors. Modified.
+   */
+  public void localStandardErrors(double[] out) {
+    double[] se = new double[view.size()];
+    view.model.standardErrors(se);
+    for (int j = 0; j < local; j++) {
+      out[j] = se[view.fromLocal[j]];
+    }
+  }
+
+  /**
+   * The block of the view's unscaled covariance over the local columns, in the local layout
+   * (the marginal covariance of their weights in the joint solution).
+   *
+   * @return row-major {@code localDimension() x localDimension()} (a new array)
+   */
+  public double[] localUnscaledCovariance() {
+    double[] cov = view.model.unscaledCovariance();
+    int n = view.size();
+    double[] out = new double[local * local];
+    for (int i = 0; i < local; i++) {
+      int vi = view.fromLocal[i];
+      for (int j = 0; j < local; j++) {
+        out[i * local + j] = cov[vi * n + view.fromLocal[j]];
+      }
+    }
+    return out;
+  }
+
+  /** @return per source partition, the last sequence number folded (a new sorted map) */
+  public java.util.SortedMap<Integer, Long> foldedSequences() {
+    return new TreeMap<>(folded);
+  }
+
   /** @return the number of columns of the local layout */
   public int localDimension() {
     return local;

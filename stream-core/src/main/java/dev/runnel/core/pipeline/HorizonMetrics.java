@@ -132,7 +132,7 @@ final class HorizonMetrics {
    * @return the index, or -1 when the entity is not kept (the cap was reached before it came)
    */
   int entity(char[] key, int n) {
-    long h = PendingForecasts.hash(key, n, 0L);
+    long h = EntityTimeKeys.hash(key, n, 0L);
     int i = (int) h & mask;
     for (int e = table[i]; e != NONE; e = table[i]) {
       if (hashes[e] == h && keyLengths[e] == n && Arrays.equals(keys[e], 0, n, key, 0, n)) {

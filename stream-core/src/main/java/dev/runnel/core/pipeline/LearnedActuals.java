@@ -3,7 +3,6 @@ package dev.runnel.core.pipeline;
 import java.io.DataInput;
 import java.io.DataOutput;
 import java.io.IOException;
-import java.util.Arrays;
 
 /**
  * A bounded memory of the (entity, target time) keys the model learned an actual for, with the
@@ -22,13 +21,13 @@ import java.util.Arrays;
  * <p>Layout: a ring of entries in the order learned (the count bound and the age bound both look at
  * the oldest first) on primitive arrays grown by doubling up to the bound, and a linear-probing
  * hash table of entry ids on the 64-bit hash of the entity text and the target time (the text is
- * kept, so a collision is resolved exactly); deletion shifts the probe run back. Once warm a look-up
+ * kept, so a collision is resolved exactly); deletion shifts the probe run back. The keys and the
+ * table are {@link EntityTimeKeys}, shared with {@link PendingForecasts}. Once warm a look-up
  * or an insert allocates nothing and costs O(1) expected (a row's arrays are reused and grow only
  * when a longer row comes). Deterministic; one thread.
  */
 final class LearnedActuals {
 
-  private static final int NONE = -1;
 
   private final int max;
   private final long maxLagMillis;
@@ -38,19 +37,15 @@ final class LearnedActuals {
   /** Ring of entries: the oldest at {@code head}, {@code size} of them. */
   private int head;
   private int size;
-  private long[] hash;
-  private long[] target;
+  /** The entries' (entity, target time) keys and the table over them. */
+  private EntityTimeKeys keys;
   private double[] value;
-  private char[][] key;
-  private int[] keyLength;
   // what a downdate needs (keepsRows only)
   private int[][] rowIds;
   private double[][] rowValues;
   private int[] rowLength;
   private double[] logDecay;
   private long[] generation;
-  private int[] table;
-  private int mask;
 
   private long forgottenEarly;
 
@@ -70,11 +65,8 @@ final class LearnedActuals {
     capacity = cap;
     head = 0;
     size = 0;
-    hash = new long[cap];
-    target = new long[cap];
+    keys = new EntityTimeKeys(cap);
     value = new double[cap];
-    key = new char[cap][];
-    keyLength = new int[cap];
     if (keepsRows) {
       rowIds = new int[cap][];
       rowValues = new double[cap][];
@@ -82,20 +74,13 @@ final class LearnedActuals {
       logDecay = new double[cap];
       generation = new long[cap];
     }
-    int t = Integer.highestOneBit(cap) << 2;
-    table = new int[t];
-    Arrays.fill(table, NONE);
-    mask = t - 1;
   }
 
   /** Doubles the ring (not beyond the bound), oldest first at 0, and rebuilds the table; cold. */
   private void grow() {
     int cap = (int) Math.min((long) capacity * 2, max);
-    long[] h = new long[cap];
-    long[] tg = new long[cap];
+    keys.resizeRing(head, size, cap);
     double[] v = new double[cap];
-    char[][] k = new char[cap][];
-    int[] kl = new int[cap];
     int[][] ri = keepsRows ? new int[cap][] : null;
     double[][] rv = keepsRows ? new double[cap][] : null;
     int[] rl = keepsRows ? new int[cap] : null;
@@ -103,11 +88,7 @@ final class LearnedActuals {
     long[] gen = keepsRows ? new long[cap] : null;
     for (int i = 0; i < size; i++) {
       int e = (head + i) % capacity;
-      h[i] = hash[e];
-      tg[i] = target[e];
       v[i] = value[e];
-      k[i] = key[e];
-      kl[i] = keyLength[e];
       if (keepsRows) {
         ri[i] = rowIds[e];
         rv[i] = rowValues[e];
@@ -117,11 +98,7 @@ final class LearnedActuals {
       }
     }
     int n = size;
-    hash = h;
-    target = tg;
     value = v;
-    key = k;
-    keyLength = kl;
     if (keepsRows) {
       rowIds = ri;
       rowValues = rv;
@@ -131,12 +108,8 @@ final class LearnedActuals {
     }
     capacity = cap;
     head = 0;
-    int t = Integer.highestOneBit(cap) << 2;
-    table = new int[t];
-    Arrays.fill(table, NONE);
-    mask = t - 1;
     for (int e = 0; e < n; e++) {
-      tableInsert(e);
+      keys.insert(e);
     }
   }
 
@@ -146,13 +119,13 @@ final class LearnedActuals {
 
   /** Forgets the oldest keys whose target time is more than the age bound behind {@code nowMillis}. */
   void expireFront(long nowMillis) {
-    while (size > 0 && expired(target[head], nowMillis)) {
+    while (size > 0 && expired(keys.target(head), nowMillis)) {
       removeHead();
     }
   }
 
   private void removeHead() {
-    tableRemove(head);
+    keys.removeSlot(keys.slotOfEntry(head));
     head = (head + 1) % capacity;
     size--;
   }
@@ -165,14 +138,7 @@ final class LearnedActuals {
    */
   int find(char[] k, int n, long targetMillis, long nowMillis) {
     expireFront(nowMillis);
-    long h = PendingForecasts.hash(k, n, targetMillis);
-    for (int i = (int) h & mask; table[i] != NONE; i = (i + 1) & mask) {
-      int e = table[i];
-      if (hash[e] == h && target[e] == targetMillis && sameKey(e, k, n)) {
-        return e;
-      }
-    }
-    return NONE;
+    return keys.entryAt(keys.slotOf(EntityTimeKeys.hash(k, n, targetMillis), k, n, targetMillis));
   }
 
   /**
@@ -192,18 +158,12 @@ final class LearnedActuals {
     }
     int e = (head + size) % capacity;
     size++;
-    hash[e] = PendingForecasts.hash(k, n, targetMillis);
-    target[e] = targetMillis;
+    keys.set(e, EntityTimeKeys.hash(k, n, targetMillis), k, n, targetMillis);
     value[e] = v;
-    if (key[e] == null || key[e].length < n) {
-      key[e] = new char[Math.max(n, 16)];
-    }
-    System.arraycopy(k, 0, key[e], 0, n);
-    keyLength[e] = n;
     if (keepsRows) {
       rowLength[e] = 0;
     }
-    tableInsert(e);
+    keys.insert(e);
     return e;
   }
 
@@ -247,51 +207,6 @@ final class LearnedActuals {
     generation[e] = gen;
   }
 
-  private boolean sameKey(int e, char[] k, int n) {
-    if (keyLength[e] != n) {
-      return false;
-    }
-    char[] a = key[e];
-    for (int i = 0; i < n; i++) {
-      if (a[i] != k[i]) {
-        return false;
-      }
-    }
-    return true;
-  }
-
-  private void tableInsert(int e) {
-    int i = (int) hash[e] & mask;
-    while (table[i] != NONE) {
-      i = (i + 1) & mask;
-    }
-    table[i] = e;
-  }
-
-  /** Removes entry {@code e} from the table and shifts the rest of its probe run back. */
-  private void tableRemove(int e) {
-    int i = (int) hash[e] & mask;
-    while (table[i] != e) {
-      i = (i + 1) & mask;
-    }
-    table[i] = NONE;
-    int j = i;
-    while (true) {
-      j = (j + 1) & mask;
-      int f = table[j];
-      if (f == NONE) {
-        return;
-      }
-      int home = (int) hash[f] & mask;
-      boolean stays = i <= j ? (i < home && home <= j) : (i < home || home <= j);
-      if (!stays) {
-        table[i] = f;
-        table[j] = NONE;
-        i = j;
-      }
-    }
-  }
-
   double value(int e) { return value[e]; }
 
   boolean keepsRows() { return keepsRows; }
@@ -326,11 +241,8 @@ final class LearnedActuals {
     out.writeInt(size);
     for (int i = 0; i < size; i++) {
       int e = (head + i) % capacity;
-      out.writeInt(keyLength[e]);
-      for (int c = 0; c < keyLength[e]; c++) {
-        out.writeChar(key[e][c]);
-      }
-      out.writeLong(target[e]);
+      keys.writeKey(out, e);
+      out.writeLong(keys.target(e));
       out.writeDouble(value[e]);
       if (keepsRows) {
         out.writeInt(rowLength[e]);
@@ -357,18 +269,9 @@ final class LearnedActuals {
     if (n < 0 || n > max) {
       throw new IOException(n + " learned actuals in the checkpoint, more than input.forecast.max_learned_actuals (" + max + ")");
     }
-    char[] k = new char[16];
     for (int r = 0; r < n; r++) {
-      int len = in.readInt();
-      if (len < 0 || len > 1 << 26) {
-        throw new IOException("a learned actual's entity of " + len + " characters");
-      }
-      if (k.length < len) {
-        k = new char[len];
-      }
-      for (int i = 0; i < len; i++) {
-        k[i] = in.readChar();
-      }
+      int len = keys.readKey(in, "a learned actual's");
+      char[] k = keys.readBuffer();
       long t = in.readLong();
       double v = in.readDouble();
       int e = add(k, len, t, v, Long.MIN_VALUE);

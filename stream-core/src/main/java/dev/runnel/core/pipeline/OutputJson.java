@@ -393,6 +393,32 @@ public final class OutputJson {
     }
   }
 
+  /** {@code model.scope: global}: the one model as this partition sees it (docs/formats.md). */
+  private void writeSharing(JsonGenerator g, Snapshot.Sharing sh) throws IOException {
+    g.writeObjectFieldStart("global_model");
+    g.writeStringField("scope", "global");
+    g.writeNumberField("shares_made", sh.sharesMade());
+    g.writeNumberField("shares_folded", sh.sharesFolded());
+    g.writeObjectFieldStart("last_folded");
+    for (java.util.Map.Entry<Integer, Long> e : sh.foldedBySource().entrySet()) {
+      g.writeNumberField(Integer.toString(e.getKey()), e.getValue());
+    }
+    g.writeEndObject();
+    g.writeNumberField("view_columns", sh.viewColumns());
+    g.writeArrayFieldStart("other_partitions_columns");
+    for (Snapshot.Column c : sh.othersColumns()) {
+      g.writeStartObject();
+      g.writeStringField("name", c.name());
+      number(g, "weight", c.weight());
+      number(g, "std_error", c.standardError());
+      number(g, "raw_weight", c.rawWeight());
+      number(g, "raw_std_error", c.rawStandardError());
+      g.writeEndObject();
+    }
+    g.writeEndArray();
+    g.writeEndObject();
+  }
+
   private void snapshotBody(JsonGenerator g, Snapshot s, long partition) throws IOException {
     g.writeNumberField("format", Snapshot.FORMAT_VERSION);
     g.writeStringField("pipeline", pipeline);
@@ -453,6 +479,10 @@ public final class OutputJson {
       g.writeEndObject();
     }
     g.writeEndArray();
+    if (s.sharing() != null) {
+      // only with model.scope: global: without it the snapshot's bytes are as before
+      writeSharing(g, s.sharing());
+    }
     if (!s.contrasts().isEmpty()) {
       // only with drift.contrast_levels > 0: without it the snapshot's bytes are as before
       g.writeArrayFieldStart("contrasts");

@@ -17,7 +17,8 @@ import java.util.Arrays;
  * count bound drops, and which the age bound looks at first), a singly linked chain per key of its
  * entries in the order they were issued, and a linear-probing hash table on the 64-bit hash of the
  * entity text and the target time that holds one slot per key pending: the id of its first-issued
- * entry (the entity text is kept per entry, so a collision is resolved exactly). Once warm an add
+ * entry (the entity text is kept per entry, so a collision is resolved exactly; the keys and the
+ * table are {@link EntityTimeKeys}, shared with {@link LearnedActuals}). Once warm an add
  * or a take allocates nothing and costs O(1) expected however many forecasts a key has (a take then
  * walks its own chain); deletion shifts the probe run back (no tombstones).
  *
@@ -43,8 +44,8 @@ final class PendingForecasts {
   private final long maxDelayMillis;
 
   private int capacity;
-  private long[] hash;
-  private long[] target;
+  /** The entries' (entity, target time) keys and the table of the keys' first-issued entries. */
+  private EntityTimeKeys keys;
   private long[] issue;
   private long[] partition;
   private long[] offset;
@@ -52,8 +53,6 @@ final class PendingForecasts {
   private double[] forecast;
   private double[] low;
   private double[] high;
-  private char[][] key;
-  private int[] keyLength;
   private int[] prev;
   private int[] next;
   /** The next entry of the same key in the order issued, or NONE. */
@@ -65,8 +64,6 @@ final class PendingForecasts {
   private int first = NONE;
   private int last = NONE;
   private int size;
-  private int[] table;
-  private int mask;
   private long nextSeq;
 
   /** The entries the last {@link #take} returned, freed at the next mutating call. */
@@ -90,8 +87,7 @@ final class PendingForecasts {
 
   private void allocate(int cap) {
     capacity = cap;
-    hash = new long[cap];
-    target = new long[cap];
+    keys = new EntityTimeKeys(cap);
     issue = new long[cap];
     partition = new long[cap];
     offset = new long[cap];
@@ -99,8 +95,6 @@ final class PendingForecasts {
     forecast = new double[cap];
     low = new double[cap];
     high = new double[cap];
-    key = new char[cap][];
-    keyLength = new int[cap];
     prev = new int[cap];
     next = new int[cap];
     keyNext = new int[cap];
@@ -110,18 +104,13 @@ final class PendingForecasts {
       free[i] = cap - 1 - i;
     }
     freeTop = cap;
-    int t = Integer.highestOneBit(cap) << 2;
-    table = new int[t];
-    Arrays.fill(table, NONE);
-    mask = t - 1;
   }
 
   /** Doubles the pool (not beyond the count bound) and the table; cold. */
   private void grow() {
     int cap = (int) Math.min((long) capacity * 2, maxPending);
     int old = capacity;
-    hash = Arrays.copyOf(hash, cap);
-    target = Arrays.copyOf(target, cap);
+    keys.resize(cap);
     issue = Arrays.copyOf(issue, cap);
     partition = Arrays.copyOf(partition, cap);
     offset = Arrays.copyOf(offset, cap);
@@ -129,8 +118,6 @@ final class PendingForecasts {
     forecast = Arrays.copyOf(forecast, cap);
     low = Arrays.copyOf(low, cap);
     high = Arrays.copyOf(high, cap);
-    key = Arrays.copyOf(key, cap);
-    keyLength = Arrays.copyOf(keyLength, cap);
     prev = Arrays.copyOf(prev, cap);
     next = Arrays.copyOf(next, cap);
     keyNext = Arrays.copyOf(keyNext, cap);
@@ -143,31 +130,16 @@ final class PendingForecasts {
     }
     freeTop = top;
     capacity = cap;
-    int t = Integer.highestOneBit(cap) << 2;
-    table = new int[t];
-    Arrays.fill(table, NONE);
-    mask = t - 1;
     for (int e = first; e != NONE; e = next[e]) {
       if (keyLast[e] != NONE) {
-        tableInsert(e);
+        keys.insert(e);
       }
     }
   }
 
-  /** The 64-bit hash of an entity text and a target time (FNV-1a over the chars, then a finalizing mix). */
+  /** The 64-bit hash of an entity text and a target time ({@link EntityTimeKeys#hash}). */
   static long hash(char[] k, int n, long targetMillis) {
-    long h = 0xcbf29ce484222325L;
-    for (int i = 0; i < n; i++) {
-      h ^= k[i];
-      h *= 0x100000001b3L;
-    }
-    h ^= targetMillis * 0x9E3779B97F4A7C15L;
-    h ^= h >>> 33;
-    h *= 0xff51afd7ed558ccdL;
-    h ^= h >>> 33;
-    h *= 0xc4ceb9fe1a85ec53L;
-    h ^= h >>> 33;
-    return h;
+    return EntityTimeKeys.hash(k, n, targetMillis);
   }
 
   private boolean expired(long targetMillis, long nowMillis) {
@@ -185,7 +157,7 @@ final class PendingForecasts {
   /** Drops first-issued forecasts whose target time is more than the age bound behind {@code nowMillis}. */
   void expireFront(long nowMillis) {
     recycle();
-    while (first != NONE && expired(target[first], nowMillis)) {
+    while (first != NONE && expired(keys.target(first), nowMillis)) {
       dropFirst();
       droppedExpired++;
     }
@@ -212,9 +184,8 @@ final class PendingForecasts {
       grow();
     }
     int e = free[--freeTop];
-    long h = hash(k, n, targetMillis);
-    hash[e] = h;
-    target[e] = targetMillis;
+    long h = EntityTimeKeys.hash(k, n, targetMillis);
+    keys.set(e, h, k, n, targetMillis);
     issue[e] = issueMillis;
     forecast[e] = value;
     low[e] = lo;
@@ -222,11 +193,6 @@ final class PendingForecasts {
     partition[e] = sourcePartition;
     offset[e] = sourceOffset;
     seq[e] = nextSeq++;
-    if (key[e] == null || key[e].length < n) {
-      key[e] = new char[Math.max(n, 16)];
-    }
-    System.arraycopy(k, 0, key[e], 0, n);
-    keyLength[e] = n;
     prev[e] = last;
     next[e] = NONE;
     if (last != NONE) {
@@ -238,12 +204,12 @@ final class PendingForecasts {
     size++;
     keyNext[e] = NONE;
     keyLast[e] = NONE;
-    int i = slotOf(h, k, n, targetMillis);
-    if (table[i] == NONE) {
-      table[i] = e; // the key's first pending forecast
+    int i = keys.slotOf(h, k, n, targetMillis);
+    int f = keys.entryAt(i);
+    if (f == NONE) {
+      keys.put(i, e); // the key's first pending forecast
       keyLast[e] = e;
     } else {
-      int f = table[i];
       keyNext[keyLast[f]] = e;
       keyLast[f] = e;
     }
@@ -251,35 +217,17 @@ final class PendingForecasts {
     return true;
   }
 
-  /**
-   * The table slot of (entity, target time): the one holding the key's first-issued entry, or the
-   * empty slot that ends its probe run.
-   */
-  private int slotOf(long h, char[] k, int n, long targetMillis) {
-    int i = (int) h & mask;
-    for (int e = table[i]; e != NONE; e = table[i]) {
-      if (hash[e] == h && target[e] == targetMillis && sameKey(e, k, n)) {
-        return i;
-      }
-      i = (i + 1) & mask;
-    }
-    return i;
-  }
-
   /** Drops the first-issued entry: the first of its key's chain too, so the key's next one takes its slot. */
   private void dropFirst() {
     int e = first;
     unlink(e);
-    int i = (int) hash[e] & mask;
-    while (table[i] != e) {
-      i = (i + 1) & mask;
-    }
+    int i = keys.slotOfEntry(e);
     int f = keyNext[e];
     if (f != NONE) {
-      table[i] = f;
+      keys.put(i, f);
       keyLast[f] = keyLast[e];
     } else {
-      removeSlot(i);
+      keys.removeSlot(i);
     }
     keyLast[e] = NONE;
     free[freeTop++] = e;
@@ -295,19 +243,20 @@ final class PendingForecasts {
    */
   int take(char[] k, int n, long targetMillis, long nowMillis) {
     expireFront(nowMillis);
-    int slot = slotOf(hash(k, n, targetMillis), k, n, targetMillis);
+    int slot = keys.slotOf(EntityTimeKeys.hash(k, n, targetMillis), k, n, targetMillis);
+    int head = keys.entryAt(slot);
     int found = 0;
-    if (table[slot] != NONE) {
+    if (head != NONE) {
       // the key's chain is in the order issued
-      for (int e = table[slot]; e != NONE; e = keyNext[e]) {
+      for (int e = head; e != NONE; e = keyNext[e]) {
         if (found == taken.length) {
           taken = Arrays.copyOf(taken, found * 2);
         }
         taken[found++] = e;
         unlink(e);
       }
-      keyLast[table[slot]] = NONE;
-      removeSlot(slot);
+      keyLast[head] = NONE;
+      keys.removeSlot(slot);
     }
     takenToFree = found;
     if (found > 0 && expired(targetMillis, nowMillis)) {
@@ -316,19 +265,6 @@ final class PendingForecasts {
     }
     settled += found;
     return found;
-  }
-
-  private boolean sameKey(int e, char[] k, int n) {
-    if (keyLength[e] != n) {
-      return false;
-    }
-    char[] a = key[e];
-    for (int i = 0; i < n; i++) {
-      if (a[i] != k[i]) {
-        return false;
-      }
-    }
-    return true;
   }
 
   private void unlink(int e) {
@@ -345,34 +281,6 @@ final class PendingForecasts {
       last = p;
     }
     size--;
-  }
-
-  private void tableInsert(int e) {
-    int i = (int) hash[e] & mask;
-    while (table[i] != NONE) {
-      i = (i + 1) & mask;
-    }
-    table[i] = e;
-  }
-
-  /** Empties table slot {@code i} and shifts the rest of its probe run back. */
-  private void removeSlot(int i) {
-    table[i] = NONE;
-    int j = i;
-    while (true) {
-      j = (j + 1) & mask;
-      int f = table[j];
-      if (f == NONE) {
-        return;
-      }
-      int home = (int) hash[f] & mask;
-      boolean stays = i <= j ? (i < home && home <= j) : (i < home || home <= j);
-      if (!stays) {
-        table[i] = f;
-        table[j] = NONE;
-        i = j;
-      }
-    }
   }
 
   long takenIssueMillis(int i) { return issue[taken[i]]; }
@@ -392,13 +300,7 @@ final class PendingForecasts {
 
   /** Table slots in use: one per key (entity, target time) with a forecast pending (cold; for tests). */
   int keySlotsInUse() {
-    int n = 0;
-    for (int v : table) {
-      if (v != NONE) {
-        n++;
-      }
-    }
-    return n;
+    return keys.slotsInUse();
   }
 
   /** Forecasts remembered since the state began. */
@@ -422,11 +324,8 @@ final class PendingForecasts {
     out.writeLong(nextSeq);
     out.writeInt(size);
     for (int e = first; e != NONE; e = next[e]) {
-      out.writeInt(keyLength[e]);
-      for (int i = 0; i < keyLength[e]; i++) {
-        out.writeChar(key[e][i]);
-      }
-      out.writeLong(target[e]);
+      keys.writeKey(out, e);
+      out.writeLong(keys.target(e));
       out.writeLong(issue[e]);
       out.writeDouble(forecast[e]);
       out.writeDouble(low[e]);
@@ -463,18 +362,9 @@ final class PendingForecasts {
     if (n < 0 || n > maxPending) {
       throw new IOException(n + " pending forecasts in the checkpoint, more than input.forecast.max_pending (" + maxPending + ")");
     }
-    char[] k = new char[16];
     for (int r = 0; r < n; r++) {
-      int len = in.readInt();
-      if (len < 0 || len > 1 << 26) {
-        throw new IOException("a pending forecast's entity of " + len + " characters");
-      }
-      if (k.length < len) {
-        k = new char[len];
-      }
-      for (int i = 0; i < len; i++) {
-        k[i] = in.readChar();
-      }
+      int len = keys.readKey(in, "a pending forecast's");
+      char[] k = keys.readBuffer();
       long t = in.readLong();
       long is = in.readLong();
       double f = in.readDouble();

@@ -1,10 +1,13 @@
 package dev.runnel.core.pipeline;
 
 import dev.runnel.core.config.Correction;
+import dev.runnel.core.config.ModelScope;
 import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.drift.DriftMonitor;
 import dev.runnel.core.feature.Featurizer;
 import dev.runnel.core.model.ModelSettings;
+import dev.runnel.core.model.GlobalModel;
+import dev.runnel.core.model.ModelShare;
 import dev.runnel.core.model.RlsModel;
 import dev.runnel.core.record.EventRecord;
 import dev.runnel.core.record.JsonRecordDecoder;
@@ -17,6 +20,7 @@ import java.io.IOException;
 import java.io.UncheckedIOException;
 import java.nio.charset.StandardCharsets;
 import java.util.Arrays;
+import java.util.TreeMap;
 
 /**
  * The whole per-record job for one stream (one input partition): decode, featurize, predict a
@@ -88,13 +92,23 @@ public final class PipelineStep {
    * actuals (and, for {@code corrections: replace}, what removing one needs), 6 the error metrics of
    * settled forecasts by horizon, 7 the change attribution (a flag for the forecast state, then the
    * attribution's window and latest result), 8 the state of the features that read each entity's
-   * history (lag, smoothed), in the featurizer's part, with the rest laid out as in 7. A step with a
-   * history feature always writes 8; otherwise it writes 7 only once the attribution has state (an
-   * error-level alarm opened its window); before that, a step without {@code input.forecast} still
-   * writes version 3, byte for byte as before, and one with it version 6.
+   * history (lag, smoothed), in the featurizer's part, with the rest laid out as in 7, 9 the
+   * weight-break scan's blocks after the attribution's state (laid out as 8 otherwise). A step with the
+   * scan on writes 9 once the scan has seen a record; otherwise a step with a history feature always
+   * writes 8, and one without writes 7 only once the attribution has state (an error-level alarm
+   * opened its window); before that, a step without {@code input.forecast} still writes version 3,
+   * byte for byte as before, and one with it version 6. Version 10 ({@link #CHECKPOINT_VERSION_GLOBAL})
+   * is written only with {@code model.scope: global}.
    */
-  public static final int CHECKPOINT_VERSION = 8;
+  public static final int CHECKPOINT_VERSION = 9;
+  private static final int CHECKPOINT_VERSION_WITH_HISTORY = 8;
   private static final int CHECKPOINT_VERSION_WITH_ATTRIBUTION = 7;
+  /**
+   * Written only with {@code model.scope: global}: the version 9 layout (the weight-break scan's
+   * section always present) with a {@link GlobalModel} in the model's place and the sharing
+   * bookkeeping at the end.
+   */
+  public static final int CHECKPOINT_VERSION_GLOBAL = 10;
   private static final int CHECKPOINT_VERSION_WITH_FORECASTS = 6;
   private static final int CHECKPOINT_VERSION_WITHOUT_FORECASTS = 3;
   /** The weight, in records, the noise estimate keeps when it restarts after a reset's hold. */
@@ -112,6 +126,16 @@ public final class PipelineStep {
   private final EventRecord record;
   private final Featurizer featurizer;
   private RlsModel model;
+  /** {@code model.scope: global}: the shared model (its view is {@link #model}); null for a model per partition. */
+  private GlobalModel global;
+  /** Global scope: {@link #trained} at the last share, the clock's share period then, and where each share partition is read to. */
+  private long trainedAtLastShare;
+  private long periodOfLastShare = Long.MIN_VALUE;
+  private final TreeMap<Integer, Long> shareOffsets = new TreeMap<>();
+  private long sharesMade;
+  private long sharesFolded;
+  /** The input partition given at construction (the source of this step's shares). */
+  private final int partitionNumber;
   private final PrequentialMetrics metrics;
   private final DriftMonitor drift;
   /** The stream's one clock: admission of event times, forgetting, expiry, snapshot periods. */
@@ -182,7 +206,17 @@ public final class PipelineStep {
    * @param config a checked configuration. Not modified.
    */
   public PipelineStep(PipelineConfig config) {
+    this(config, 0);
+  }
+
+  /**
+   * @param config a checked configuration. Not modified.
+   * @param partition the input partition this step serves: with {@code model.scope: global}, the
+   *     source its shares carry (every partition of a pipeline needs its own); otherwise unused
+   */
+  public PipelineStep(PipelineConfig config, int partition) {
     this.config = config;
+    this.partitionNumber = partition;
     PipelineConfig.Input in = config.input();
     this.decoder = in.eventTime().isPresent()
         ? new JsonRecordDecoder(in.schema(), in.limits(), in.eventTime().get().field(), in.eventTime().get().format())
@@ -191,6 +225,11 @@ public final class PipelineStep {
     this.featurizer = new Featurizer(config);
     this.model = new RlsModel(featurizer.dimension(), modelSettings(config));
     this.featurizer.setListener(model);
+    if (config.model().scope() == ModelScope.GLOBAL) {
+      this.global = newGlobal(partition);
+      this.model = global.view();
+      this.featurizer.setListener(global);
+    }
     this.metrics = new PrequentialMetrics(config.outputs().metricsHalfLifeRecords());
     this.drift = new DriftMonitor(config.drift());
     PipelineConfig.Model m = config.model();
@@ -239,8 +278,21 @@ public final class PipelineStep {
     }
   }
 
+  /** A global model at its prior over the featurizer's columns. */
+  private GlobalModel newGlobal(int partition) {
+    String[] names = new String[featurizer.dimension()];
+    for (int j = 0; j < names.length; j++) {
+      names[j] = featurizer.columnName(j);
+    }
+    long h = config.model().forgettingHalfLifeMillis();
+    return new GlobalModel(partition, names, modelSettings(config), h > 0 ? (double) h : Double.POSITIVE_INFINITY);
+  }
+
   /** What the featurizer reports layout changes to: the model, through the column bases when they are kept. */
   private dev.runnel.core.layout.LayoutListener listener() {
+    if (global != null) {
+      return global; // corrections: replace is refused with the global scope (ConfigLoader)
+    }
     if (bases == null) {
       return model;
     }
@@ -420,8 +472,13 @@ public final class PipelineStep {
       if (clock.forgetsAll()) {
         // 64 half-lives or more since the clock: what came before weighs under 2^-64 of this
         // record; the model starts again from its prior over the current columns
-        model = new RlsModel(featurizer.dimension(), modelSettings(config));
-        featurizer.setListener(listener());
+        if (global != null) {
+          global.restartFromPrior();
+          model = global.view();
+        } else {
+          model = new RlsModel(featurizer.dimension(), modelSettings(config));
+          featurizer.setListener(listener());
+        }
         modelRestarts++;
         generation++;
       }
@@ -471,7 +528,7 @@ public final class PipelineStep {
       model.holdNoise(held);
       // the forgetting this update applies (the clock's, or a reset's cut): what corrections: replace decays by
       double lambda = drift.forgettingFor(clock.lambda(), model.effectiveSampleSize());
-      if (!model.update(row, yModel, lambda, aPriori)) {
+      if (global != null ? !global.update(row, yModel, lambda, aPriori) : !model.update(row, yModel, lambda, aPriori)) {
         reject(RejectReason.MODEL_REFUSED,
             "the update would have made the model's state non-finite; the model is unchanged", sink);
         return;
@@ -488,7 +545,7 @@ public final class PipelineStep {
       }
     } else if (warm) {
       // a forecast request: prediction and leverage from one forward substitution
-      model.forecast(row, aPriori);
+      forecastRow(row, aPriori);
       p.predicted = aPriori[1];
       half = model.settings().intervalZ() * noiseBefore * Math.sqrt(1.0 + aPriori[0]);
     }
@@ -509,8 +566,8 @@ public final class PipelineStep {
     records++;
     if (hasTarget) {
       trained++;
-      if (drift.attribution().isOpen()) {
-        observeForAttribution(yModel, t);
+      if (drift.attribution().isOpen() || drift.breaks().enabled()) {
+        observeRaw(yModel, t);
       }
       if (p.status == Prediction.Status.SCORED) {
         metrics.add(y - p.predicted, p.covered());
@@ -582,10 +639,11 @@ public final class PipelineStep {
   }
 
   /**
-   * While the change attribution's window is open: this record's row in raw units
-   * ({@code v = z·s + m} for a scaled column), O(p) plus the attribution's O(p²).
+   * While the change attribution's window is open, and for the weight-break scan (kept all the
+   * time when on): this record's row in raw units ({@code v = z·s + m} for a scaled column), O(p)
+   * plus the attribution's and the scan's O(p²).
    */
-  private void observeForAttribution(double y, long t) {
+  private void observeRaw(double y, long t) {
     int n = featurizer.dimension();
     if (rawRow.length < n) {
       rawRow = new double[Math.max(n, row.length)];
@@ -594,17 +652,25 @@ public final class PipelineStep {
     for (int j = 0; j < n; j++) {
       rawRow[j] = row[j] * featurizer.scale(j) + (constant ? featurizer.centre(j) : 0.0);
     }
-    drift.observeTrained(rawRow, y, n, featurizer.layoutVersion(), t, trained);
+    if (drift.attribution().isOpen()) {
+      drift.observeTrained(rawRow, y, n, featurizer.layoutVersion(), t, trained);
+    }
+    drift.observeBreak(rawRow, y, n, featurizer.layoutVersion(), t, trained, columnNames);
   }
+
+  /** The column names by index, for the weight-break scan's alarms (one object, made once). */
+  private final java.util.function.IntFunction<String> columnNames = this::columnNameAt;
+
+  private String columnNameAt(int j) { return featurizer.columnName(j); }
 
   /** Rare path (an error-level alarm fired): the raw-unit weights now open the attribution's window. */
   private void openAttribution() {
     if (!model.ready() || !drift.attribution().enabled()) {
       return;
     }
-    int n = model.dimension();
+    int n = modelDimension();
     double[] w = new double[n];
-    model.weights(w);
+    modelWeights(w);
     String[] names = new String[n];
     double[] raw = new double[n];
     boolean constant = featurizer.hasConstantTerm();
@@ -632,7 +698,7 @@ public final class PipelineStep {
    * tables) is built only when the sink asks for it.
    */
   private void observeSnapshotForDrift() {
-    int p = model.dimension();
+    int p = modelDimension();
     if (driftWeights.length < p) {
       driftWeights = new double[p];
       driftSe = new double[p];
@@ -642,14 +708,14 @@ public final class PipelineStep {
     }
     double[] w = driftWeights;
     double[] se = driftSe;
-    model.weights(w);
-    model.standardErrors(se);
+    modelWeights(w);
+    modelStandardErrors(se);
     boolean ready = model.ready();
     boolean constant = featurizer.hasConstantTerm();
     double rawConstant = constant ? w[0] : Double.NaN;
     double rawConstantSe = Double.NaN;
     if (constant && ready) {
-      double[] cov = model.unscaledCovariance();
+      double[] cov = modelCovariance();
       for (int j = 1; j < p; j++) {
         rawConstant -= w[j] * featurizer.centre(j) / featurizer.scale(j);
       }
@@ -868,6 +934,136 @@ public final class PipelineStep {
 
   public RlsModel model() { return model; }
 
+  /** The model's prediction and leverage for a row in the layout (element 0 leverage, element 1 prediction). */
+  void forecastRow(double[] x, double[] out) {
+    if (global != null) {
+      global.forecast(x, out);
+    } else {
+      model.forecast(x, out);
+    }
+  }
+
+  /** The number of weights snapshots show: the layout's columns (with the global scope, the view may hold more). */
+  int modelDimension() {
+    return global != null ? global.localDimension() : model.dimension();
+  }
+
+  /** The weights of the layout's columns. @param w receives {@link #modelDimension()} weights. Modified. */
+  void modelWeights(double[] w) {
+    if (global != null) {
+      global.localWeights(w);
+    } else {
+      model.weights(w);
+    }
+  }
+
+  /** The standard errors of the layout's columns. @param se receives them. Modified. */
+  void modelStandardErrors(double[] se) {
+    if (global != null) {
+      global.localStandardErrors(se);
+    } else {
+      model.standardErrors(se);
+    }
+  }
+
+  /** The unscaled covariance of the layout's columns' weights, row-major (a new array). */
+  double[] modelCovariance() {
+    return global != null ? global.localUnscaledCovariance() : model.unscaledCovariance();
+  }
+
+  // ------------------------------------------------------------------ one model across partitions
+
+  /** The shared model with {@code model.scope: global}, else null (read only between records). */
+  public GlobalModel globalModel() { return global; }
+
+  /**
+   * With {@code model.scope: global}, after a record: the share of what this partition's records
+   * contributed since its last share, when one is due ({@code model.share_every_records} own
+   * trained records since the last, or the clock in a new {@code model.share_every} period), else
+   * null. Publish it in the same transaction as the checkpoint taken after this call.
+   *
+   * @return the share, or null when none is due (always null for a model per partition)
+   */
+  public ModelShare shareIfDue() {
+    if (global == null || trained == trainedAtLastShare || clock.nowMillis() == Long.MIN_VALUE) {
+      return null;
+    }
+    PipelineConfig.Model m = config.model();
+    boolean due = m.shareEveryRecords() > 0 && trained - trainedAtLastShare >= m.shareEveryRecords();
+    long period = m.shareEveryMillis() > 0 ? Math.floorDiv(clock.nowMillis(), m.shareEveryMillis()) : Long.MIN_VALUE;
+    if (m.shareEveryMillis() > 0 && period != periodOfLastShare) {
+      due |= periodOfLastShare != Long.MIN_VALUE;
+      if (periodOfLastShare == Long.MIN_VALUE) {
+        periodOfLastShare = period; // the first period starts with the first record
+      }
+    }
+    return due ? shareNow() : null;
+  }
+
+  /**
+   * With {@code model.scope: global}: the share of everything this partition's records contributed
+   * since its last share, now (a sync point), or null when it has learned nothing since.
+   */
+  public ModelShare shareNow() {
+    if (global == null || trained == trainedAtLastShare || clock.nowMillis() == Long.MIN_VALUE) {
+      return null;
+    }
+    trainedAtLastShare = trained;
+    if (config.model().shareEveryMillis() > 0) {
+      periodOfLastShare = Math.floorDiv(clock.nowMillis(), config.model().shareEveryMillis());
+    }
+    sharesMade++;
+    return global.share(clock.nowMillis());
+  }
+
+  /**
+   * With {@code model.scope: global}: folds another partition's share into this partition's view
+   * at the stream clock's time.
+   *
+   * @param s the share. Not modified.
+   * @return what the fold did, or null (nothing changed) when the clock has no time yet: a share
+   *     decays from its time to the receiver's clock, which starts with the first training record,
+   *     so it is folded after that
+   * @throws IllegalArgumentException as {@link GlobalModel#fold}, or if the scope is not global
+   */
+  public GlobalModel.FoldResult fold(ModelShare s) {
+    if (global == null) {
+      throw new IllegalArgumentException("a share can be folded only with model.scope: global");
+    }
+    if (clock.nowMillis() == Long.MIN_VALUE && config.model().forgetsByTime()) {
+      return null;
+    }
+    long now = clock.nowMillis() == Long.MIN_VALUE ? s.eventTimeMillis() : clock.nowMillis();
+    GlobalModel.FoldResult r = global.fold(s, now);
+    if (r == GlobalModel.FoldResult.FOLDED) {
+      sharesFolded++;
+    }
+    return r;
+  }
+
+  /**
+   * The runner's bookkeeping of the share topic, kept in the checkpoint: the offset to read next in
+   * share partition {@code sharePartition}, 0 when none is recorded.
+   */
+  public long shareOffset(int sharePartition) {
+    Long v = shareOffsets.get(sharePartition);
+    return v == null ? 0L : v;
+  }
+
+  /** Records the offset to read next in a share partition (see {@link #shareOffset}). */
+  public void shareOffset(int sharePartition, long next) {
+    shareOffsets.put(sharePartition, next);
+  }
+
+  /** The input partition this step was made for (the source its shares carry). */
+  public int partitionOfShares() { return partitionNumber; }
+
+  /** Shares this step made (since its state began). */
+  public long sharesMade() { return sharesMade; }
+
+  /** Shares of other partitions folded into the view (since its state began). */
+  public long sharesFolded() { return sharesFolded; }
+
   public PrequentialMetrics metrics() { return metrics; }
 
   /** The drift alarms' state. */
@@ -980,8 +1176,11 @@ public final class PipelineStep {
       ByteArrayOutputStream bytes = new ByteArrayOutputStream(4096);
       DataOutputStream out = new DataOutputStream(bytes);
       out.writeInt(CHECKPOINT_MAGIC);
-      boolean v7 = featurizer.readsHistory() || drift.hasAttributionState();
-      out.writeInt(featurizer.readsHistory() ? CHECKPOINT_VERSION : v7 ? CHECKPOINT_VERSION_WITH_ATTRIBUTION
+      boolean v9 = global != null || drift.hasBreakState();
+      boolean v7 = v9 || featurizer.readsHistory() || drift.hasAttributionState();
+      out.writeInt(global != null ? CHECKPOINT_VERSION_GLOBAL : v9 ? CHECKPOINT_VERSION
+          : featurizer.readsHistory() ? CHECKPOINT_VERSION_WITH_HISTORY
+          : v7 ? CHECKPOINT_VERSION_WITH_ATTRIBUTION
           : pending != null ? CHECKPOINT_VERSION_WITH_FORECASTS : CHECKPOINT_VERSION_WITHOUT_FORECASTS);
       out.writeLong(configFingerprint);
       out.writeLong(records);
@@ -1007,7 +1206,11 @@ public final class PipelineStep {
       clock.writeTo(out);
       metrics.writeTo(out);
       featurizer.writeTo(out);
-      model.writeTo(out);
+      if (global != null) {
+        global.writeTo(out);
+      } else {
+        model.writeTo(out);
+      }
       out.writeLong(snapshotsTaken);
       drift.writeTo(out);
       if (v7) {
@@ -1033,6 +1236,20 @@ public final class PipelineStep {
       if (v7) {
         drift.writeAttributionTo(out);
       }
+      if (v9) {
+        drift.writeBreakTo(out);
+      }
+      if (global != null) {
+        out.writeLong(trainedAtLastShare);
+        out.writeLong(periodOfLastShare);
+        out.writeLong(sharesMade);
+        out.writeLong(sharesFolded);
+        out.writeInt(shareOffsets.size());
+        for (java.util.Map.Entry<Integer, Long> e : shareOffsets.entrySet()) {
+          out.writeInt(e.getKey());
+          out.writeLong(e.getValue());
+        }
+      }
       out.flush();
       return bytes.toByteArray();
     } catch (IOException e) {
@@ -1048,7 +1265,8 @@ public final class PipelineStep {
    * 2 (before the one stream clock) give the clock their largest training time, with no jump pending;
    * versions 1 to 3 (before forecasts were remembered) restore with no forecast pending; versions 1
    * to 4 (before the memory of learned actuals) restore with an empty memory; versions 1 to 5 (before
-   * errors by horizon) restore with empty horizon tables. A version 6 checkpoint whose
+   * errors by horizon) restore with empty horizon tables; versions 1 to 8 (before the weight-break
+   * scan) restore with the scan empty (it starts summing afresh). A version 6 checkpoint whose
    * {@code input.forecast.horizon_buckets} differ from the configured ones restores with empty
    * horizon tables (the rest of the state as written).
    *
@@ -1062,11 +1280,16 @@ public final class PipelineStep {
         throw new IllegalArgumentException("not a Runnel pipeline checkpoint");
       }
       int version = in.readInt();
-      if (version < 1 || version > CHECKPOINT_VERSION) {
+      if (version < 1 || version > CHECKPOINT_VERSION_GLOBAL) {
         throw new IllegalArgumentException("checkpoint format version " + version
-            + " is not supported; this Runnel reads version " + CHECKPOINT_VERSION);
+            + " is not supported; this Runnel reads versions 1 to " + CHECKPOINT_VERSION_GLOBAL);
       }
-      if (featurizer.readsHistory() && version < CHECKPOINT_VERSION) {
+      if ((version == CHECKPOINT_VERSION_GLOBAL) != (global != null)) {
+        throw new IllegalArgumentException("the checkpoint was written with model.scope: "
+            + (version == CHECKPOINT_VERSION_GLOBAL ? "global" : "partition") + "; keep that scope, or start a new pipeline"
+            + " name (or reset its state) to change it");
+      }
+      if (featurizer.readsHistory() && version < CHECKPOINT_VERSION_WITH_HISTORY) {
         throw new IllegalArgumentException("checkpoint format version " + version + " has no history state (it was written"
             + " before lag or smoothed features existed); start a new pipeline name (or reset its state) to use them");
       }
@@ -1106,7 +1329,12 @@ public final class PipelineStep {
         // clock's, and equals the forgetting clock when forgetting is by half-life
         clock.restoreLegacy(legacyStreamTime != Long.MIN_VALUE ? legacyStreamTime : legacyForgettingClock, trained);
       }
-      model = RlsModel.readFrom(in);
+      if (global != null) {
+        global = GlobalModel.readFrom(in);
+        model = global.view();
+      } else {
+        model = RlsModel.readFrom(in);
+      }
       featurizer.setListener(listener());
       if (version >= 2) {
         snapshotsTaken = in.readLong();
@@ -1132,6 +1360,21 @@ public final class PipelineStep {
         }
       }
       drift.readAttributionFrom(version >= 7 ? in : null);
+      drift.readBreakFrom(version >= 9 ? in : null);
+      shareOffsets.clear();
+      if (global != null) {
+        trainedAtLastShare = in.readLong();
+        periodOfLastShare = in.readLong();
+        sharesMade = in.readLong();
+        sharesFolded = in.readLong();
+        int n2 = in.readInt();
+        if (n2 < 0 || n2 > 1_000_000) {
+          throw new IOException("corrupt share offsets: " + n2 + " share partitions");
+        }
+        for (int i = 0; i < n2; i++) {
+          shareOffsets.put(in.readInt(), in.readLong());
+        }
+      }
       ensureRow();
     } catch (IOException e) {
       throw new IllegalArgumentException("the checkpoint is truncated or corrupt: " + e.getMessage(), e);

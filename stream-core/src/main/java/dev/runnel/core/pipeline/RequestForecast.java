@@ -123,7 +123,7 @@ public final class RequestForecast {
     boolean warm = model.ready() && !Double.isNaN(noise);
     p.status = warm ? Prediction.Status.FORECAST : Prediction.Status.WARMING_UP;
     if (warm) {
-      model.forecast(row, aPriori);
+      step.forecastRow(row, aPriori);
       double half = model.settings().intervalZ() * noise * Math.sqrt(1.0 + aPriori[0]);
       p.predicted = aPriori[1];
       p.low = p.predicted - half;

@@ -42,16 +42,49 @@ import java.util.List;
  *     {@code input.forecast}
  * @param contrasts per one-hot feature, its levels' effects against the mean of its levels with
  *     standard errors (empty unless {@code drift.contrast_levels} &gt; 0)
+ * @param sharing with {@code model.scope: global}, what this partition's view of the one model holds
+ *     beyond its own records; null for a model per partition
  */
 public record Snapshot(long eventTimeMillis, long records, long trained, long forecasts, long rejected,
                        long layoutVersion, boolean ready, double noiseSd, double residualSd,
                        double effectiveSampleSize, List<Column> columns,
                        List<Featurizer.VocabularySnapshot> vocabularies,
                        List<Featurizer.ScalerSnapshot> scalers, Metrics metrics, long index,
-                       List<DriftAlarm> alarms, DriftStatus drift, Forecasting forecasting, List<Contrasts> contrasts) {
+                       List<DriftAlarm> alarms, DriftStatus drift, Forecasting forecasting, List<Contrasts> contrasts,
+                       Sharing sharing) {
 
   /** Version of the snapshot's published layout (see docs/formats.md). */
   public static final int FORMAT_VERSION = 2;
+
+  /** A snapshot of a model per partition (no {@link Sharing}). */
+  public Snapshot(long eventTimeMillis, long records, long trained, long forecasts, long rejected,
+                  long layoutVersion, boolean ready, double noiseSd, double residualSd,
+                  double effectiveSampleSize, List<Column> columns,
+                  List<Featurizer.VocabularySnapshot> vocabularies,
+                  List<Featurizer.ScalerSnapshot> scalers, Metrics metrics, long index,
+                  List<DriftAlarm> alarms, DriftStatus drift, Forecasting forecasting, List<Contrasts> contrasts) {
+    this(eventTimeMillis, records, trained, forecasts, rejected, layoutVersion, ready, noiseSd, residualSd,
+        effectiveSampleSize, columns, vocabularies, scalers, metrics, index, alarms, drift, forecasting, contrasts, null);
+  }
+
+  /**
+   * With {@code model.scope: global}: this partition's part in the one model (docs/formats.md).
+   *
+   * @param partition the partition whose view this is
+   * @param sharesMade shares this partition made
+   * @param sharesFolded shares of other partitions folded into its view
+   * @param foldedBySource per source partition, the last share's sequence number folded (sorted by partition)
+   * @param viewColumns the view's columns: this partition's own and every column another partition shared
+   * @param othersColumns the view's columns this partition's layout does not hold, with their
+   *     weights in the view (standardized, in the basis the view keeps them in)
+   */
+  public record Sharing(long partition, long sharesMade, long sharesFolded, java.util.SortedMap<Integer, Long> foldedBySource,
+                        int viewColumns, List<Column> othersColumns) {
+    public Sharing {
+      foldedBySource = java.util.Collections.unmodifiableSortedMap(new java.util.TreeMap<>(foldedBySource));
+      othersColumns = List.copyOf(othersColumns);
+    }
+  }
 
   public Snapshot {
     columns = List.copyOf(columns);
@@ -260,13 +293,13 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
     Featurizer f = step.featurizer();
     RlsModel m = step.model();
     DriftMonitor drift = step.drift();
-    int p = m.dimension();
+    int p = step.modelDimension();
     double[] w = new double[p];
     double[] se = new double[p];
-    m.weights(w);
-    m.standardErrors(se);
+    step.modelWeights(w);
+    step.modelStandardErrors(se);
     boolean constant = f.hasConstantTerm();
-    double[] cov = constant && m.ready() ? m.unscaledCovariance() : null;
+    double[] cov = constant && m.ready() ? step.modelCovariance() : null;
     double sigma = m.residualSd();
     List<Column> cols = new ArrayList<>(p);
     double rawConstant = constant ? w[0] : Double.NaN;
@@ -303,14 +336,41 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
           isConstant ? rawConstant : w[j] / sj,
           isConstant ? rawConstantSe : se[j] / sj, mj, sj, drift.moved(name)));
     }
-    List<Contrasts> contrasts = contrasts(f, m, w, sigma, step.config().drift().contrastLevels());
+    List<Contrasts> contrasts = contrasts(f, m, p, step::modelCovariance, w, sigma, step.config().drift().contrastLevels());
     PrequentialMetrics pm = step.metrics();
     Metrics metrics = new Metrics(pm.count(), pm.mae(), pm.rmse(), pm.bias(), pm.coverage(),
         pm.recentMae(), pm.recentRmse(), pm.recentBias(), pm.recentCoverage());
     return new Snapshot(step.lastEventTimeMillis(), step.records(), step.trained(), step.forecasts(),
         step.rejected(), f.layoutVersion(), m.ready(), m.noiseSd(), sigma, m.effectiveSampleSize(),
         cols, f.vocabularies(), f.scalers(), metrics, step.snapshotsTaken() - 1, drift.alarms(), drift.status(),
-        forecastingOf(step), contrasts);
+        forecastingOf(step), contrasts, sharingOf(step));
+  }
+
+  /** With the global scope, this partition's part in the one model; else null. */
+  static Sharing sharingOf(PipelineStep step) {
+    dev.runnel.core.model.GlobalModel g = step.globalModel();
+    if (g == null) {
+      return null;
+    }
+    RlsModel view = g.view();
+    int n = view.dimension();
+    double[] w = new double[n];
+    double[] se = new double[n];
+    view.weights(w);
+    view.standardErrors(se);
+    java.util.Set<String> local = new java.util.HashSet<>(); // lookups only
+    for (int j = 0; j < step.featurizer().dimension(); j++) {
+      local.add(step.featurizer().columnName(j));
+    }
+    List<String> names = g.viewColumns();
+    List<Column> others = new ArrayList<>();
+    for (int v = 0; v < n; v++) {
+      if (!local.contains(names.get(v))) {
+        double sc = g.viewScale(v);
+        others.add(new Column(names.get(v), w[v], se[v], w[v] / sc, se[v] / sc, g.viewOffset(v), sc, Double.NaN));
+      }
+    }
+    return new Sharing(step.partitionOfShares(), step.sharesMade(), step.sharesFolded(), g.foldedSequences(), n, others);
   }
 
   /**
@@ -318,11 +378,11 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
    * most recorded levels (ties in column order) against the mean of all its levels. O(p³) for the
    * covariance, then O(p² k) per feature.
    */
-  static List<Contrasts> contrasts(Featurizer f, RlsModel m, double[] w, double sigma, int max) {
+  static List<Contrasts> contrasts(Featurizer f, RlsModel m, int p, java.util.function.Supplier<double[]> covariance,
+      double[] w, double sigma, int max) {
     if (max <= 0 || !m.ready() || !(sigma >= 0)) {
       return List.of();
     }
-    int p = m.dimension();
     double[] cov = null;
     List<Contrasts> out = new ArrayList<>();
     for (Featurizer.VocabularySnapshot v : f.vocabularies()) {
@@ -331,7 +391,7 @@ public record Snapshot(long eventTimeMillis, long records, long trained, long fo
         continue;
       }
       if (cov == null) {
-        cov = m.unscaledCovariance();
+        cov = covariance.get();
       }
       List<Featurizer.LevelSnapshot> shown = new ArrayList<>(v.levels());
       shown.sort((a, b) -> Long.compare(b.count(), a.count())); // stable: ties keep column order

@@ -22,7 +22,8 @@ import java.util.Random;
  * cycle in the target and unit noise, a record every 10 minutes, a 7-day half-life (about 1,000
  * records). In a change trial one randomly chosen column's true weight triples at record
  * {@value #STEP}; stationary trials have no change. For each trial it reports which columns the
- * changed-weight alarms and the weight alarms name, and for each value of
+ * weight-break scan, the changed-weight alarms and the weight alarms name (side by side, the same
+ * trials), and for each value of
  * {@code drift.reset_to_records} the RMSE of the a priori errors and the coverage of the 90 %
  * intervals over stretches after the change. Run from the repository root:
  *
@@ -31,13 +32,23 @@ import java.util.Random;
  * java -cp "stream-core/target/test-classes:stream-core/target/classes:$(cat cp.txt)" dev.runnel.core.bench.ChangeRecoveryHarness 200 100 [DAILY_MAX [SNAPSHOT_RECORDS [noise|se]]]
  * </pre>
  * ({@code cp.txt} from {@code mvn -o -q -pl stream-core dependency:build-classpath -Dmdep.outputFile=../cp.txt}).
+ * {@code -Drunnel.harness.namingOnly=true} prints the naming table alone (one pipeline per trial instead
+ * of four); {@code -Drunnel.harness.break="break_se: 4.5"} sets drift keys of the weight-break scan (several
+ * separated by {@code ;}), as for the threshold's calibration in docs/drift.md.
  */
 public final class ChangeRecoveryHarness {
 
   static final int STEP = 8_000;
   static final int N = STEP + 3 * 1008 + 200;
   static final int P = 6;
-  static final int[] RESETS = {0, 50, 100, 200};
+  /** The values of drift.reset_to_records compared; {@code -Drunnel.harness.namingOnly=true} runs only the first (the naming table alone). */
+  static final int[] RESETS = Boolean.getBoolean("runnel.harness.namingOnly") ? new int[] {0} : new int[] {0, 50, 100, 200};
+  /**
+   * Extra drift keys for the weight-break scan, e.g. {@code -Drunnel.harness.break="break_se: 4"} (several
+   * separated by {@code ;}); none by default (the defaults).
+   */
+  static final String BREAK_KEYS = String.join("", java.util.Arrays.stream(System.getProperty("runnel.harness.break", "").split(";"))
+      .filter(k -> !k.isBlank()).map(k -> "  " + k.trim() + "\n").toList());
   static final String[] NAMES = {"x1", "x2", "x3", "x4", "x5", "x6", "x7", "x8", "x9", "x10"};
 
   /**
@@ -80,7 +91,7 @@ public final class ChangeRecoveryHarness {
           snapshot_every_records: %d
         drift:
           reset_to_records: %d
-        """.formatted(fields, features, snapshotRecords, reset);
+        %s""".formatted(fields, features, snapshotRecords, reset, BREAK_KEYS);
   }
 
   /** A feed: its lines, the changed column (−1: none), its number of columns and the step in standard errors. */
@@ -165,6 +176,7 @@ public final class ChangeRecoveryHarness {
     final double[] err = new double[N];
     final boolean[] covered = new boolean[N];
     final List<DriftAlarm> changedAlarms = new ArrayList<>();
+    final List<DriftAlarm> breakAlarms = new ArrayList<>();
     final List<DriftAlarm> weightAlarms = new ArrayList<>();
     final List<DriftAlarm> errorAlarms = new ArrayList<>();
     int i;
@@ -191,9 +203,10 @@ public final class ChangeRecoveryHarness {
       Snapshot s = step.snapshot();
       for (DriftAlarm a : s.alarms()) {
         List<DriftAlarm> l = a.kind().equals(DriftAlarm.CHANGED_WEIGHT) ? changedAlarms
+            : a.kind().equals(DriftAlarm.WEIGHT_BREAK) ? breakAlarms
             : a.kind().equals(DriftAlarm.WEIGHT) ? weightAlarms
             : a.kind().equals(DriftAlarm.ERROR_LEVEL) && "up".equals(a.direction()) ? errorAlarms : null;
-        if (l != null && l.stream().noneMatch(o -> o.column().equals(a.column()) && o.firedAtRecord() == a.firedAtRecord())) {
+        if (l != null && l.stream().noneMatch(o -> java.util.Objects.equals(o.column(), a.column()) && o.firedAtRecord() == a.firedAtRecord())) {
           l.add(a);
         }
       }
@@ -252,11 +265,13 @@ public final class ChangeRecoveryHarness {
     int weightNone = 0;
     int none = 0;
     int errorUp = 0;
+    Naming breaks = new Naming();
     List<Long> delay = new ArrayList<>();
     List<Long> weightDelay = new ArrayList<>();
     for (int t = 0; t < trials; t++) {
       Feed f = feed(1000 + t, true);
       String want = NAMES[f.changed()];
+      breaks.stepSe = f.stepSe();
       for (int k = 0; k < r; k++) {
         Run run = new Run(RESETS[k], f.p()).feed(f.lines());
         rmseDay[k][t] = run.rmse(STEP, STEP + 144);
@@ -283,6 +298,7 @@ public final class ChangeRecoveryHarness {
           if (after.stream().anyMatch(a -> !a.column().equals(want))) {
             anyWrong++;
           }
+          breaks.count(run.breakAlarms, want, "break");
           List<DriftAlarm> wa = run.weightAlarms.stream().filter(a -> a.firedAtRecord() > STEP
               && !a.column().equals("constant")).toList();
           if (wa.isEmpty()) {
@@ -300,6 +316,7 @@ public final class ChangeRecoveryHarness {
     }
     int statChanged = 0;
     int statWeight = 0;
+    int statBreak = 0;
     for (int t = 0; t < stationary; t++) {
       Feed f = feed(500_000 + t, false);
       for (int k = 0; k < r; k++) {
@@ -310,6 +327,8 @@ public final class ChangeRecoveryHarness {
           if (!run.changedAlarms.isEmpty()) statChanged++;
           for (DriftAlarm a : run.changedAlarms) System.err.println("stationary " + t + ": " + a);
           if (run.weightAlarms.stream().anyMatch(a -> !a.column().equals("constant"))) statWeight++;
+          if (!run.breakAlarms.isEmpty()) statBreak++;
+          for (DriftAlarm a : run.breakAlarms) System.err.println("stationary " + t + " break: " + a);
         }
       }
     }
@@ -320,19 +339,64 @@ public final class ChangeRecoveryHarness {
             : "one weight of six correlated columns triples", stationary, dailyMax, snapshotRecords);
     System.out.printf(Locale.ROOT, "error-level \"up\" alarm after the change (opens the changed-weight alarm's window): %.1f %% of change trials%n%n",
         100.0 * errorUp / trials);
-    System.out.println("| naming | changed-weight alarm (new) | weight alarm (former) |");
-    System.out.println("|---|---|---|");
-    System.out.printf(Locale.ROOT, "| first named column is the changed one | %.1f %% | %.1f %% |%n", 100.0 * firstRight / trials, 100.0 * weightFirstRight / trials);
-    System.out.printf(Locale.ROOT, "| a column whose weight did not change is named | %.1f %% | %.1f %% |%n", 100.0 * anyWrong / trials, 100.0 * weightAnyWrong / trials);
-    System.out.printf(Locale.ROOT, "| nothing named after the change | %.1f %% | %.1f %% |%n", 100.0 * none / trials, 100.0 * weightNone / trials);
-    System.out.printf(Locale.ROOT, "| median records from the change to the right name | %s | %s |%n", median(delay), median(weightDelay));
-    System.out.printf(Locale.ROOT, "| stationary trials with any such alarm | %.1f %% | %.1f %% |%n%n", 100.0 * statChanged / stationary, 100.0 * statWeight / stationary);
+    System.out.println("| naming | weight-break scan (kept all the time) | changed-weight alarm (after an error alarm) | weight alarm (snapshots) |");
+    System.out.println("|---|---|---|---|");
+    System.out.printf(Locale.ROOT, "| first named column is the changed one | %.1f %% | %.1f %% | %.1f %% |%n", 100.0 * breaks.firstRight / trials, 100.0 * firstRight / trials, 100.0 * weightFirstRight / trials);
+    System.out.printf(Locale.ROOT, "| a column whose weight did not change is named | %.1f %% | %.1f %% | %.1f %% |%n", 100.0 * breaks.anyWrong / trials, 100.0 * anyWrong / trials, 100.0 * weightAnyWrong / trials);
+    System.out.printf(Locale.ROOT, "| nothing named after the change | %.1f %% | %.1f %% | %.1f %% |%n", 100.0 * breaks.none / trials, 100.0 * none / trials, 100.0 * weightNone / trials);
+    System.out.printf(Locale.ROOT, "| median records from the change to the right name | %s | %s | %s |%n", median(breaks.delay), median(delay), median(weightDelay));
+    System.out.printf(Locale.ROOT, "| stationary trials with any such alarm | %.1f %% | %.1f %% | %.1f %% |%n%n", 100.0 * statBreak / stationary, 100.0 * statChanged / stationary, 100.0 * statWeight / stationary);
+    System.out.printf(Locale.ROOT, "weight-break scan, first named right, by step size: %s%n", breaks.bySize());
+    System.out.printf(Locale.ROOT, "weight-break scan, a column named before the change: %.1f %% of change trials%n%n", 100.0 * breaks.before / trials);
+    if (RESETS.length == 1) {
+      return;
+    }
     System.out.println("| drift.reset_to_records | RMSE day 1 | RMSE week 1 | RMSE weeks 2-3 | records to recover (median) | 90 % coverage week 1 | weeks 2-3 | stationary RMSE | stationary coverage |");
     System.out.println("|---|---|---|---|---|---|---|---|---|");
     for (int k = 0; k < r; k++) {
       System.out.printf(Locale.ROOT, "| %s | %.3f | %.3f | %.3f | %.0f | %.1f %% | %.1f %% | %.4f | %.1f %% |%n",
           RESETS[k] == 0 ? "0 (off)" : String.valueOf(RESETS[k]), mean(rmseDay[k]), mean(rmseWeek[k]), mean(rmseLater[k]),
           med(recov[k]), 100 * mean(covWeek[k]), 100 * mean(covLater[k]), mean(statRmse[k]), 100 * mean(statCov[k]));
+    }
+  }
+
+  /** Counts of one naming alarm over the change trials (the constant left out, as above). */
+  static final class Naming {
+    int firstRight;
+    int anyWrong;
+    int none;
+    int before;
+    final List<Long> delay = new ArrayList<>();
+    final int[] right = new int[6];
+    final int[] all = new int[6];
+    double stepSe;
+
+    void count(List<DriftAlarm> alarms, String want, String label) {
+      List<DriftAlarm> after = alarms.stream().filter(a -> a.firedAtRecord() > STEP && !a.column().equals("constant")).toList();
+      if (alarms.stream().anyMatch(a -> a.firedAtRecord() <= STEP && !a.column().equals("constant"))) {
+        before++;
+      }
+      int bin = Double.isNaN(stepSe) ? 0 : Math.min(5, (int) Math.abs(stepSe) - 4);
+      all[bin]++;
+      if (after.isEmpty()) {
+        none++;
+      } else if (after.get(0).column().equals(want)) {
+        firstRight++;
+        right[bin]++;
+        delay.add(after.get(0).firedAtRecord() - STEP);
+      }
+      if (after.stream().anyMatch(a -> !a.column().equals(want))) {
+        anyWrong++;
+        for (DriftAlarm a : after) if (!a.column().equals(want)) System.err.println(label + " want " + want + ": " + a);
+      }
+    }
+
+    String bySize() {
+      StringBuilder b = new StringBuilder();
+      for (int k = 0; k < 6; k++) {
+        if (all[k] > 0) b.append(String.format(Locale.ROOT, "%d-%d se: %d/%d  ", k + 4, k + 5, right[k], all[k]));
+      }
+      return b.toString();
     }
   }
 

@@ -32,11 +32,34 @@ class ModelScopeConfigTest {
   }
 
   @Test
-  void globalLoadsWithAWarningThatTheRunnerDoesNotShareYet() {
+  void globalLoadsWithoutAWarningAndWithItsSharePeriods() {
     PipelineConfig c = ConfigLoader.parse(BASE + "model:\n  scope: global\n  forgetting: {half_life: P4D}\n", "m.yaml");
     assertEquals(ModelScope.GLOBAL, c.model().scope());
-    ConfigWarning w = c.warnings().stream().filter(x -> x.key().equals("model.scope")).findFirst().orElseThrow();
-    assertTrue(w.message().contains("does not share between partitions yet"), w.message());
+    assertTrue(c.warnings().stream().noneMatch(w -> w.key().equals("model.scope")), c.warnings().toString());
+    assertEquals(1000, c.model().shareEveryRecords());
+    assertEquals(0, c.model().shareEveryMillis());
+    PipelineConfig d = ConfigLoader.parse(BASE + "model:\n  scope: global\n  share_every_records: 0\n  share_every: PT1H\n",
+        "m.yaml");
+    assertEquals(0, d.model().shareEveryRecords());
+    assertEquals(3_600_000L, d.model().shareEveryMillis());
+  }
+
+  @Test
+  void globalWithStateThatCannotBeSharedIsRefusedByKeyWithTheWayOut() {
+    ConfigException noConstant = assertThrows(ConfigException.class, () -> ConfigLoader.parse(
+        BASE + "model:\n  scope: global\n  constant_term: false\n", "m.yaml"));
+    assertTrue(noConstant.getMessage().contains("model.scope: global needs model.constant_term: true"), noConstant.getMessage());
+    ConfigException never = assertThrows(ConfigException.class, () -> ConfigLoader.parse(
+        BASE + "model:\n  scope: global\n  share_every_records: 0\n", "m.yaml"));
+    assertTrue(never.getMessage().startsWith("model.share_every_records: 0") && never.getMessage().contains("model.share_every"),
+        never.getMessage());
+    ConfigException reset = assertThrows(ConfigException.class, () -> ConfigLoader.parse(
+        BASE + "model:\n  scope: global\ndrift:\n  reset_to_records: 50\n", "m.yaml"));
+    assertTrue(reset.getMessage().startsWith("drift.reset_to_records: 50 cannot be used with model.scope: global"),
+        reset.getMessage());
+    // the same settings with a model per partition load
+    ConfigLoader.parse(BASE + "model:\n  constant_term: false\n", "m.yaml");
+    ConfigLoader.parse(BASE + "drift:\n  reset_to_records: 50\n", "m.yaml");
   }
 
   @Test

@@ -56,6 +56,8 @@ class PipelineForecastTest {
         interval_level: 0.9
       outputs:
         snapshot_every_records: 100
+      drift:
+        break_block_records: 0   # the weight-break scan off: these tests check the checkpoint layouts 3 to 6
       """;
 
   static final long H = 3_600_000L;
