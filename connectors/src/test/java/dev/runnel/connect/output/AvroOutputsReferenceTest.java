@@ -338,11 +338,17 @@ public class AvroOutputsReferenceTest {
         + "\"trained\":1,\"no_target_records\":0,\"rejected\":0,\"columns_version\":1,\"ready\":false,\"noise_sd\":null,"
         + "\"residual_sd\":null,\"effective_sample_size\":1.5,\"metrics\":{\"count\":0,\"overall\":{\"mae\":null,\"rmse\":null,"
         + "\"bias\":null,\"coverage\":null},\"recent\":{\"mae\":null,\"rmse\":null,\"bias\":null,\"coverage\":null}},"
-        + "\"columns\":[],\"alarms\":[],\"vocabularies\":[],\"standardization\":[]%s}";
-    // the well-formed one goes through and comes back as the same text
-    byte[] ok = String.format(java.util.Locale.ROOT, snapshot, "").getBytes(StandardCharsets.UTF_8);
-    JsonNode back = SnapshotAvro.toJson(OutputRecords.decode(OutputSchemas.Kind.SNAPSHOT.schema(), SnapshotAvro.fromJson(ok)));
-    assertEquals(new String(ok, StandardCharsets.UTF_8), back.toString());
+        + "\"columns\":[],\"alarms\":[],\"vocabularies\":[]%s,\"standardization\":[]}";
+    // the well-formed one goes through and comes back as the same text; so does one with model.scope: global's part
+    // (docs/formats.md, "global_model"; the demo runs one model per partition, so its replay has none)
+    String global = ",\"global_model\":{\"scope\":\"global\",\"shares_made\":4,\"shares_folded\":9,"
+        + "\"last_folded\":{\"1\":41,\"3\":12345678901},\"view_columns\":3,\"other_partitions_columns\":[{\"name\":\"hub=QM-02\","
+        + "\"weight\":0.1,\"std_error\":null,\"raw_weight\":-2.5E-7,\"raw_std_error\":1.0E300}]}";
+    for (String part : List.of("", global)) {
+      byte[] ok = String.format(java.util.Locale.ROOT, snapshot, part).getBytes(StandardCharsets.UTF_8);
+      JsonNode back = SnapshotAvro.toJson(OutputRecords.decode(OutputSchemas.Kind.SNAPSHOT.schema(), SnapshotAvro.fromJson(ok)));
+      assertEquals(new String(ok, StandardCharsets.UTF_8), back.toString());
+    }
     byte[] extra = String.format(java.util.Locale.ROOT, snapshot, ",\"new_part\":3").getBytes(StandardCharsets.UTF_8);
     IllegalStateException e = org.junit.jupiter.api.Assertions.assertThrows(IllegalStateException.class, () -> SnapshotAvro.fromJson(extra));
     assertTrue(e.getMessage().contains("new_part") && e.getMessage().contains("snapshot.avsc"), e.getMessage());
