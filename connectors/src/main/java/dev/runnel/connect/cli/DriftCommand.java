@@ -45,7 +45,7 @@ public final class DriftCommand implements Callable<Integer> {
 
   @Option(names = "--file", paramLabel = "FILE",
       description = "A file of snapshots, one JSON object per line, such as the coefficients.jsonl that `runnel replay` "
-          + "writes (instead of --pipeline or --topic; no Kafka).")
+          + "writes, or its coefficients.avro (outputs.encoding: avro) (instead of --pipeline or --topic; no Kafka).")
   Path file;
 
   @Mixin Options.Cluster cluster;
@@ -110,17 +110,38 @@ public final class DriftCommand implements Callable<Integer> {
   }
 
   /**
-   * Reads a file of snapshots (JSON Lines) and prints the table; package-private for tests.
+   * Reads a file of snapshots (JSON Lines, or an Avro container file {@code .avro}) and prints the table; package-private for tests.
    *
    * @return 0, or 1 when no line was printed
    */
   static int printFile(Path file, DriftTable table, PrintStream out) throws IOException {
     if (!Files.isRegularFile(file)) {
-      throw new IllegalArgumentException("--file " + file + ": no such file; give a coefficients.jsonl written by "
+      throw new IllegalArgumentException("--file " + file + ": no such file; give a coefficients.jsonl (or .avro) written by "
           + "`runnel replay` (its --out folder)");
     }
     out.println(DriftTable.header());
     int lines = 0;
+    if (file.getFileName().toString().endsWith(".avro")) {
+      // the coefficients.avro of a replay with outputs.encoding: avro, read back into the JSON layout
+      long n = 0;
+      for (JsonNode s : dev.runnel.connect.output.OutputRecords.readFile(file)) {
+        n++;
+        if (!s.isObject() || !s.has("columns")) {
+          out.println("(record " + n + ": not a snapshot, skipped)");
+          continue;
+        }
+        String line = table.take(s);
+        if (line != null) {
+          out.println(line);
+          lines++;
+        }
+        if (table.pastEnd(s)) {
+          break;
+        }
+      }
+      out.flush();
+      return lines == 0 ? 1 : 0;
+    }
     long lineNo = 0;
     try (BufferedReader in = Files.newBufferedReader(file, StandardCharsets.UTF_8)) {
       for (String l = in.readLine(); l != null; l = in.readLine()) {
@@ -176,7 +197,7 @@ public final class DriftCommand implements Callable<Integer> {
         for (ConsumerRecord<byte[], byte[]> r : c.poll(Duration.ofMillis(300))) {
           JsonNode s;
           try {
-            s = JSON.readTree(r.value());
+            s = dev.runnel.connect.output.OutputRecords.read(r.headers(), r.value()); // JSON or Avro snapshots
           } catch (IOException e) {
             out.println("(offset " + r.offset() + ": not a snapshot, skipped)");
             continue;

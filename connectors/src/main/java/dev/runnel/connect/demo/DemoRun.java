@@ -286,7 +286,7 @@ public final class DemoRun {
       if (assigned) {
         for (var r : consumer.poll(Duration.ofMillis(200))) {
           try {
-            JsonNode s = JSON.readTree(r.value());
+            JsonNode s = dev.runnel.connect.output.OutputRecords.read(r.headers(), r.value()); // JSON or Avro snapshots
             previous = latest;
             latest = s;
           } catch (IOException e) {

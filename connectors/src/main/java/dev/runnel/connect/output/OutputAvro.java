@@ -4,6 +4,7 @@ import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.pipeline.OutputJson;
 import dev.runnel.core.pipeline.Prediction;
 import dev.runnel.core.pipeline.SettledForecast;
+import dev.runnel.core.pipeline.Snapshot;
 import dev.runnel.core.record.EventRecord;
 import dev.runnel.core.record.FieldType;
 import dev.runnel.core.record.RecordSchema;
@@ -13,7 +14,7 @@ import java.util.Arrays;
 import java.util.List;
 
 /**
- * Writes predictions, settled forecasts and rejects as Avro binary of the writer schemas in
+ * Writes predictions, settled forecasts and rejects (and, through {@link SnapshotAvro}, coefficient snapshots) as Avro binary of the writer schemas in
  * {@link OutputSchemas} (one datum, no framing: the schema's fingerprint goes into a Kafka header).
  * The same fields and values as {@link OutputJson}: the echoed fields of {@code outputs.echo_fields},
  * the rounding of {@code outputs.significant_digits}; doubles are written as they are (8 bytes, the
@@ -57,6 +58,12 @@ public final class OutputAvro implements OutputEncoder {
   /** The writer a pipeline configuration asks for. */
   public static OutputAvro of(PipelineConfig config) {
     return new OutputAvro(config.model().intervalLevel(), config.outputs().echoFields(), config.outputs().significantDigits());
+  }
+
+  /** The JSON snapshot laid into {@code snapshot.avsc} ({@link SnapshotAvro}). */
+  @Override
+  public byte[] snapshot(OutputJson json, Snapshot s, long partition) {
+    return SnapshotAvro.fromJson(json.snapshot(s, partition));
   }
 
   @Override

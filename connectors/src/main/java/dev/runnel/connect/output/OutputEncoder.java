@@ -4,12 +4,14 @@ import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.pipeline.OutputJson;
 import dev.runnel.core.pipeline.Prediction;
 import dev.runnel.core.pipeline.SettledForecast;
+import dev.runnel.core.pipeline.Snapshot;
 import dev.runnel.core.record.EventRecord;
 import dev.runnel.core.record.RejectReason;
 
 /**
- * Writes predictions, settled forecasts and rejects in the encoding {@code outputs.encoding} names
- * (docs/formats.md). Snapshots are always JSON ({@link OutputJson#snapshot}). One thread.
+ * Writes predictions, settled forecasts, rejects and coefficient snapshots in the encoding
+ * {@code outputs.encoding} names (docs/formats.md). Checkpoints are not outputs and keep their own
+ * format. One thread.
  */
 public interface OutputEncoder {
 
@@ -21,6 +23,15 @@ public interface OutputEncoder {
 
   /** One rejected record ({@code raw} not modified). @return new bytes */
   byte[] reject(RejectReason reason, String detail, long partition, long offset, byte[] raw, int off, int len);
+
+  /**
+   * One coefficient snapshot.
+   *
+   * @param json the configuration's JSON writer (the snapshot's layout; Avro lays the same fields into {@code snapshot.avsc})
+   * @param partition the source partition the model belongs to (-1 if none)
+   * @return new bytes
+   */
+  byte[] snapshot(OutputJson json, Snapshot s, long partition);
 
   /** Which encoding this is. */
   PipelineConfig.OutputEncoding encoding();
@@ -55,6 +66,10 @@ public interface OutputEncoder {
 
     @Override public byte[] reject(RejectReason reason, String detail, long partition, long offset, byte[] raw, int off, int len) {
       return json.reject(reason, detail, partition, offset, raw, off, len);
+    }
+
+    @Override public byte[] snapshot(OutputJson ignored, Snapshot s, long partition) {
+      return json.snapshot(s, partition);
     }
 
     @Override public PipelineConfig.OutputEncoding encoding() {

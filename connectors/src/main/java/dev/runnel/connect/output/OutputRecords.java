@@ -26,7 +26,7 @@ import org.apache.kafka.common.header.Header;
 import org.apache.kafka.common.header.Headers;
 
 /**
- * Reads a published prediction, settled forecast or reject in either encoding and gives it in the
+ * Reads a published prediction, settled forecast, reject or coefficient snapshot in either encoding and gives it in the
  * JSON layout of docs/formats.md, so every reader in the project (the live page, the demo summary,
  * the run's reject tally) reads JSON and Avro outputs alike. On Kafka the encoding is told by the
  * header {@value OutputSchemas#HEADER_SCHEMA}: present, the value is Avro binary of the schema with
@@ -81,7 +81,7 @@ public final class OutputRecords {
     if (kind == null) {
       throw new IOException("header " + OutputSchemas.HEADER_SCHEMA + ": " + hex(schemaHeader)
           + " is not the fingerprint of an output schema this build knows (format " + OutputSchemas.FORMAT_VERSION
-          + ": prediction, settled, reject; docs/formats.md); read it with a build of the writer's version");
+          + ": prediction, settled, reject, snapshot; docs/formats.md); read it with a build of the writer's version");
     }
     return toJson(kind, decode(kind.schema(), value));
   }
@@ -147,6 +147,7 @@ public final class OutputRecords {
       case PREDICTION -> prediction(r);
       case SETTLED -> settled(r);
       case REJECT -> reject(r);
+      case SNAPSHOT -> SnapshotAvro.toJson(r);
     };
   }
 

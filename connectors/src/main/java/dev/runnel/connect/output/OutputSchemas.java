@@ -9,12 +9,12 @@ import org.apache.avro.SchemaNormalization;
 
 /**
  * The Avro writer schemas of output format {@value #FORMAT_VERSION} (docs/formats.md, "Avro
- * outputs"): {@code prediction.avsc}, {@code settled.avsc} and {@code reject.avsc}, shipped in the
+ * outputs"): {@code prediction.avsc}, {@code settled.avsc}, {@code reject.avsc} and {@code snapshot.avsc}, shipped in the
  * jar under {@value #RESOURCE_DIR}. Each record written with {@code outputs.encoding: avro} carries
  * its schema's fingerprint in the Kafka header {@value #HEADER_SCHEMA}: the 64-bit Rabin fingerprint
  * (CRC-64-AVRO) of the schema's Parsing Canonical Form, 8 bytes little-endian, the form Avro's own
  * single-object encoding uses (Avro specification, "Schema Fingerprints"). No schema registry is
- * needed: a reader finds the schema by the fingerprint among these three.
+ * needed: a reader finds the schema by the fingerprint among these four.
  */
 public final class OutputSchemas {
 
@@ -27,7 +27,7 @@ public final class OutputSchemas {
 
   /** Which output a schema is for. */
   public enum Kind {
-    PREDICTION("prediction.avsc"), SETTLED("settled.avsc"), REJECT("reject.avsc");
+    PREDICTION("prediction.avsc"), SETTLED("settled.avsc"), REJECT("reject.avsc"), SNAPSHOT("snapshot.avsc");
 
     private final String file;
     private final Schema schema;
@@ -67,7 +67,7 @@ public final class OutputSchemas {
    * The kind whose schema has this fingerprint.
    *
    * @param header the {@value #HEADER_SCHEMA} header's value. Not modified.
-   * @return null when it is none of the three (another format version, or not a fingerprint)
+   * @return null when it is none of the four (another format version, or not a fingerprint)
    */
   public static Kind byFingerprint(byte[] header) {
     if (header == null || header.length != 8) {

@@ -96,6 +96,7 @@ public final class PipelineProcessor implements PartitionProcessor {
   private final Header[] predictionHeaders;
   private final Header[] rejectHeaders;
   private final Header[] settledHeaders;
+  private final Header[] snapshotHeaders;
 
   /**
    * @param config the pipeline configuration. Not modified.
@@ -117,10 +118,12 @@ public final class PipelineProcessor implements PartitionProcessor {
       this.predictionHeaders = schemaHeader(OutputSchemas.Kind.PREDICTION);
       this.rejectHeaders = schemaHeader(OutputSchemas.Kind.REJECT);
       this.settledHeaders = schemaHeader(OutputSchemas.Kind.SETTLED);
+      this.snapshotHeaders = schemaHeader(OutputSchemas.Kind.SNAPSHOT);
     } else {
       this.predictionHeaders = headers;
       this.rejectHeaders = headers;
       this.settledHeaders = headers;
+      this.snapshotHeaders = headers;
     }
     this.partition = tp.partition();
     this.partitionKey = (tp.topic() + "-" + tp.partition()).getBytes(StandardCharsets.UTF_8);
@@ -144,13 +147,13 @@ public final class PipelineProcessor implements PartitionProcessor {
 
   /**
    * JSON: {@link #outputHeaders()} on every topic. Avro: {@value OutputSchemas#HEADER_SCHEMA} alone on
-   * predictions, rejects and settled forecasts; snapshots (JSON) keep the two headers.
+   * predictions, rejects, settled forecasts and snapshots (each with its own schema's fingerprint).
    */
   @Override
   public Header[] outputHeaders(OutputTopic topic) {
     return switch (topic) {
       case PREDICTIONS -> predictionHeaders.clone();
-      case COEFFICIENTS -> headers.clone();
+      case COEFFICIENTS -> snapshotHeaders.clone();
       case REJECTS -> rejectHeaders.clone();
       case SETTLED -> settledHeaders.clone();
     };
@@ -422,7 +425,7 @@ public final class PipelineProcessor implements PartitionProcessor {
 
     @Override
     public void snapshotDue() {
-      out.snapshot(partitionKey, json.snapshot(step.snapshot(), partition));
+      out.snapshot(partitionKey, encoder.snapshot(json, step.snapshot(), partition));
     }
 
     @Override

@@ -32,11 +32,11 @@ import java.nio.file.Path;
  * container files (no compression) of the writer schemas in {@link OutputSchemas}, each datum the
  * very bytes {@code run} publishes for it (appended pre-encoded), and a sync marker made from the
  * schema (the first 16 bytes of the MD5 of its Parsing Canonical Form) rather than at random, so the
- * same input gives the same file bytes. {@code coefficients.jsonl} stays JSON Lines.
+ * same input gives the same file bytes.
  *
  * <p>Snapshots: every snapshot that becomes due is written as it does; when records came after
  * the last due one (or none became due), one more is taken at the end of the file with the next
- * index, so the last line of {@code coefficients.jsonl} is the final state and indices only rise.
+ * index, so the last snapshot of {@code coefficients.jsonl} ({@code .avro}) is the final state and indices only rise.
  */
 public final class FileReplay {
 
@@ -80,7 +80,8 @@ public final class FileReplay {
     boolean forecast = config.input().forecast().enabled();
     try (Output preds = avro ? new AvroFile(out.resolve("predictions.avro"), OutputSchemas.Kind.PREDICTION)
              : new Lines(open(out.resolve("predictions.jsonl")));
-         OutputStream snaps = open(out.resolve("coefficients.jsonl"));
+         Output snaps = avro ? new AvroFile(out.resolve("coefficients.avro"), OutputSchemas.Kind.SNAPSHOT)
+             : new Lines(open(out.resolve("coefficients.jsonl")));
          Output rejects = avro ? new AvroFile(out.resolve("rejects.avro"), OutputSchemas.Kind.REJECT)
              : new Lines(open(out.resolve("rejects.jsonl")));
          Output settled = !forecast ? new Lines(OutputStream.nullOutputStream())
@@ -119,7 +120,7 @@ public final class FileReplay {
             }
 
             @Override public void snapshotDue() {
-              write(snaps, json.snapshot(step.snapshot(), PARTITION));
+              snaps.write(encoder.snapshot(json, step.snapshot(), PARTITION));
               recordsAtLastSnapshot[0] = step.records();
             }
 
@@ -137,7 +138,7 @@ public final class FileReplay {
       }
       if (step.records() != recordsAtLastSnapshot[0]) {
         step.takeSnapshotNow();
-        write(snaps, json.snapshot(step.snapshot(), PARTITION));
+        snaps.write(encoder.snapshot(json, step.snapshot(), PARTITION));
       }
     }
     return step;

@@ -186,11 +186,11 @@ public final class LiveState implements AutoCloseable {
     }
   }
 
-  /** One record of the predictions (JSON or Avro, told by its headers: {@code OutputRecords}) or coefficients topic. */
+  /** One record of the predictions or coefficients topic (JSON or Avro, told by its headers: {@code OutputRecords}). */
   private void take(boolean snapshot, byte[] key, org.apache.kafka.common.header.Headers headers, byte[] value) {
     JsonNode n;
     try {
-      n = snapshot ? JSON.readTree(value) : dev.runnel.connect.output.OutputRecords.read(headers, value);
+      n = dev.runnel.connect.output.OutputRecords.read(headers, value);
     } catch (IOException e) {
       return; // a record the view cannot read is skipped; the topic is authoritative
     }

@@ -36,7 +36,7 @@ import org.junit.jupiter.params.provider.ValueSource;
  * The Avro outputs of a demo run ({@code outputs.encoding: avro}) against the JSON outputs of the
  * same run: decoded by Avro's own {@code GenericDatumReader} (the reference: Apache Avro 1.12.2,
  * {@code org.apache.avro.generic}), every field of every prediction, settled forecast and reject has
- * the JSON record's value, doubles bit for bit (the JSON text read back by Jackson, which parses with
+ * the JSON record's value, doubles bit for bit; so has every coefficient snapshot (the JSON text read back by Jackson, which parses with
  * {@code Double.parseDouble}, the correctly rounded reading of java.lang). The demo sample has
  * requests, actuals, corrections (settled again, {@code replaced_actual}) and five bad records.
  */
@@ -82,8 +82,23 @@ public class AvroOutputsReferenceTest {
     assertEquals(PipelineConfig.OutputEncoding.AVRO, avroCfg.outputs().encoding());
     Path avro = replay(avroCfg, dir.resolve("avro"));
     assertFalse(Files.exists(avro.resolve("predictions.jsonl")), "Avro replaces the JSON Lines files");
-    assertEquals(Files.readString(json.resolve("coefficients.jsonl")), Files.readString(avro.resolve("coefficients.jsonl")),
-        "snapshots stay JSON, the same bytes");
+    assertFalse(Files.exists(avro.resolve("coefficients.jsonl")), "snapshots are Avro too");
+    List<JsonNode> snapshots = OutputRecords.readFile(json.resolve("coefficients.jsonl"));
+    List<GenericRecord> avroSnapshots = new ArrayList<>();
+    try (DataFileReader<GenericRecord> r = new DataFileReader<>(avro.resolve("coefficients.avro").toFile(),
+        new GenericDatumReader<>(OutputSchemas.Kind.SNAPSHOT.schema()))) {
+      assertEquals(OutputSchemas.Kind.SNAPSHOT.fingerprint(), org.apache.avro.SchemaNormalization.parsingFingerprint64(r.getSchema()));
+      r.forEach(avroSnapshots::add);
+    }
+    assertEquals(snapshots.size(), avroSnapshots.size(), "as many snapshots");
+    assertTrue(snapshots.size() >= 3, "the sample gives some snapshots: " + snapshots.size());
+    int[] seen = new int[5];
+    for (int i = 0; i < snapshots.size(); i++) {
+      sameSnapshotValue(avroSnapshots.get(i).getSchema(), avroSnapshots.get(i), snapshots.get(i), "snapshot " + i, seen);
+    }
+    // every kind of value was met: doubles, NaN for a JSON null, times, absent optional parts, map entries
+    assertTrue(seen[0] > 1000 && seen[1] > 0 && seen[2] > 10 && seen[3] > 0 && seen[4] > 0,
+        "values compared (doubles, nulls as NaN, times, absent parts, map entries): " + java.util.Arrays.toString(seen));
     int compared = 0;
     for (String[] pair : new String[][] {{"predictions", "PREDICTION"}, {"settled", "SETTLED"}, {"rejects", "REJECT"}}) {
       List<JsonNode> expected = OutputRecords.readFile(json.resolve(pair[0] + ".jsonl"));
@@ -191,6 +206,86 @@ public class AvroOutputsReferenceTest {
     assertEquals(jsonFields.size(), matched, where + ": the JSON has exactly the fields the Avro record holds: " + jsonFields);
   }
 
+  /**
+   * A value Avro's reader gave for {@code schema} against the JSON snapshot's node, following the
+   * schema (docs/formats.md): a record has exactly the JSON object's fields, in its order, save a null
+   * union the JSON leaves out (marked {@code runnel.json_absent_when_null}, or {@code over} beside a
+   * {@code up_to} that is not null); a double has the JSON number's bits (NaN for null); a time is the
+   * ISO 8601 text's instant ({@code java.time.Instant.parse}). {@code seen} counts doubles, NaNs, times,
+   * absent fields and map entries.
+   */
+  static void sameSnapshotValue(Schema schema, Object v, JsonNode j, String at, int[] seen) {
+    switch (schema.getType()) {
+      case RECORD -> {
+        GenericRecord r = (GenericRecord) v;
+        assertTrue(j != null && j.isObject(), at + ": " + j);
+        List<String> expectedNames = new ArrayList<>();
+        for (Schema.Field f : schema.getFields()) {
+          Object x = r.get(f.name());
+          boolean absent = x == null && (Boolean.TRUE.equals(f.getObjectProp("runnel.json_absent_when_null"))
+              || f.name().equals("over") && r.get("up_to") != null);
+          if (absent) {
+            assertFalse(j.has(f.name()), at + "." + f.name() + " is null in Avro and absent in JSON");
+            seen[3]++;
+            continue;
+          }
+          expectedNames.add(f.name());
+          sameSnapshotValue(f.schema(), x, j.get(f.name()), at + "." + f.name(), seen);
+        }
+        List<String> names = new ArrayList<>();
+        j.fieldNames().forEachRemaining(names::add);
+        assertEquals(names, expectedNames, at + ": the JSON's fields, in order");
+      }
+      case UNION -> {
+        if (v == null) {
+          assertTrue(j != null && j.isNull(), at + ": Avro null, JSON " + j);
+        } else {
+          sameSnapshotValue(schema.getTypes().get(1), v, j, at, seen);
+        }
+      }
+      case ARRAY -> {
+        List<?> l = (List<?>) v;
+        assertTrue(j.isArray(), at);
+        assertEquals(j.size(), l.size(), at);
+        for (int i = 0; i < l.size(); i++) {
+          sameSnapshotValue(schema.getElementType(), l.get(i), j.get(i), at + "[" + i + "]", seen);
+        }
+      }
+      case MAP -> {
+        Map<?, ?> m = (Map<?, ?>) v;
+        assertTrue(j.isObject(), at);
+        assertEquals(j.size(), m.size(), at);
+        for (Map.Entry<?, ?> e : m.entrySet()) {
+          sameSnapshotValue(schema.getValueType(), e.getValue(), j.get(e.getKey().toString()), at + "." + e.getKey(), seen);
+          seen[4]++;
+        }
+      }
+      case STRING -> {
+        assertTrue(j.isTextual(), at + ": " + j);
+        assertEquals(j.textValue(), v.toString(), at);
+      }
+      case LONG -> {
+        if (schema.getLogicalType() != null) {
+          assertEquals("timestamp-millis", schema.getLogicalType().getName(), at);
+          assertEquals(Instant.parse(j.textValue()).toEpochMilli(), (long) (Long) v, at);
+          seen[2]++;
+        } else {
+          assertTrue(j.isIntegralNumber(), at + ": " + j);
+          assertEquals(j.longValue(), (long) (Long) v, at);
+        }
+      }
+      case DOUBLE -> {
+        sameDouble(j, (Double) v, at);
+        seen[Double.isNaN((Double) v) ? 1 : 0]++;
+      }
+      case BOOLEAN -> {
+        assertTrue(j.isBoolean(), at + ": " + j);
+        assertEquals(j.booleanValue(), (boolean) (Boolean) v, at);
+      }
+      default -> fail(at + ": schema type " + schema.getType() + " is not compared by this test");
+    }
+  }
+
   /** JSON null ⇔ a double that is not finite; else the same bits. */
   static void sameDouble(JsonNode j, double v, String at) {
     assertNotNull(j, at);
@@ -207,7 +302,7 @@ public class AvroOutputsReferenceTest {
   void theProjectsReaderGivesTheJsonLayoutFromAvro(@TempDir Path dir) throws IOException {
     Path json = replay(demo(), dir.resolve("json"));
     Path avro = replay(demo("encoding: avro"), dir.resolve("avro"));
-    for (String name : List.of("predictions", "settled", "rejects")) {
+    for (String name : List.of("predictions", "settled", "rejects", "coefficients")) {
       List<JsonNode> a = OutputRecords.readFile(avro.resolve(name + ".avro"));
       List<JsonNode> j = OutputRecords.readFile(json.resolve(name + ".jsonl"));
       assertEquals(j.size(), a.size(), name);
@@ -215,6 +310,48 @@ public class AvroOutputsReferenceTest {
         sameJson(j.get(i), a.get(i), name + " record " + i);
       }
     }
+    // a snapshot read back from Avro is written by Jackson as the very line the JSON encoding wrote
+    List<String> lines = Files.readAllLines(json.resolve("coefficients.jsonl"), StandardCharsets.UTF_8);
+    List<JsonNode> a = OutputRecords.readFile(avro.resolve("coefficients.avro"));
+    assertEquals(lines.size(), a.size());
+    com.fasterxml.jackson.databind.ObjectMapper m = new com.fasterxml.jackson.databind.ObjectMapper();
+    for (int i = 0; i < lines.size(); i++) {
+      assertEquals(lines.get(i), m.writeValueAsString(a.get(i)), "snapshot " + i);
+      assertEquals(m.readTree(lines.get(i)), a.get(i), "snapshot " + i + ": the tree Jackson parses from the JSON line");
+    }
+    // drift --file: the same table from coefficients.avro as from coefficients.jsonl
+    String[] drift = new String[2];
+    int k = 0;
+    for (Path f : List.of(avro.resolve("coefficients.avro"), json.resolve("coefficients.jsonl"))) {
+      java.io.ByteArrayOutputStream b = new java.io.ByteArrayOutputStream();
+      assertEquals(0, dev.runnel.connect.cli.DriftCommandAccess.printFile(f, new dev.runnel.connect.drift.DriftTable("first", 3, null, null),
+          new java.io.PrintStream(b, true, StandardCharsets.UTF_8)));
+      drift[k++] = b.toString(StandardCharsets.UTF_8);
+    }
+    assertTrue(drift[1].lines().count() > 10, drift[1]);
+    assertEquals(drift[1], drift[0], "drift --file of coefficients.avro = of coefficients.jsonl");
+  }
+
+  @Test
+  void aSnapshotFieldTheSchemaLacksFailsAndNamesIt() throws IOException {
+    String snapshot = "{\"format\":2,\"pipeline\":\"p\",\"partition\":0,\"index\":1,\"event_time\":null,\"records\":1,"
+        + "\"trained\":1,\"no_target_records\":0,\"rejected\":0,\"columns_version\":1,\"ready\":false,\"noise_sd\":null,"
+        + "\"residual_sd\":null,\"effective_sample_size\":1.5,\"metrics\":{\"count\":0,\"overall\":{\"mae\":null,\"rmse\":null,"
+        + "\"bias\":null,\"coverage\":null},\"recent\":{\"mae\":null,\"rmse\":null,\"bias\":null,\"coverage\":null}},"
+        + "\"columns\":[],\"alarms\":[],\"vocabularies\":[]%s,\"standardization\":[]}";
+    // the well-formed one goes through and comes back as the same text; so does one with model.scope: global's part
+    // (docs/formats.md, "global_model"; the demo runs one model per partition, so its replay has none)
+    String global = ",\"global_model\":{\"scope\":\"global\",\"shares_made\":4,\"shares_folded\":9,"
+        + "\"last_folded\":{\"1\":41,\"3\":12345678901},\"view_columns\":3,\"other_partitions_columns\":[{\"name\":\"hub=QM-02\","
+        + "\"weight\":0.1,\"std_error\":null,\"raw_weight\":-2.5E-7,\"raw_std_error\":1.0E300}]}";
+    for (String part : List.of("", global)) {
+      byte[] ok = String.format(java.util.Locale.ROOT, snapshot, part).getBytes(StandardCharsets.UTF_8);
+      JsonNode back = SnapshotAvro.toJson(OutputRecords.decode(OutputSchemas.Kind.SNAPSHOT.schema(), SnapshotAvro.fromJson(ok)));
+      assertEquals(new String(ok, StandardCharsets.UTF_8), back.toString());
+    }
+    byte[] extra = String.format(java.util.Locale.ROOT, snapshot, ",\"new_part\":3").getBytes(StandardCharsets.UTF_8);
+    IllegalStateException e = org.junit.jupiter.api.Assertions.assertThrows(IllegalStateException.class, () -> SnapshotAvro.fromJson(extra));
+    assertTrue(e.getMessage().contains("new_part") && e.getMessage().contains("snapshot.avsc"), e.getMessage());
   }
 
   /**
@@ -257,7 +394,7 @@ public class AvroOutputsReferenceTest {
     PipelineConfig cfg = demo("encoding: avro");
     Path a = replay(cfg, dir.resolve("a"));
     Path b = replay(cfg, dir.resolve("b"));
-    for (String f : List.of("predictions.avro", "settled.avro", "rejects.avro", "coefficients.jsonl", "format.json")) {
+    for (String f : List.of("predictions.avro", "settled.avro", "rejects.avro", "coefficients.avro", "format.json")) {
       assertArrayEquals(Files.readAllBytes(a.resolve(f)), Files.readAllBytes(b.resolve(f)), f);
     }
   }

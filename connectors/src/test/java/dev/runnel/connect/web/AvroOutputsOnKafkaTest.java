@@ -46,8 +46,9 @@ import org.junit.jupiter.api.io.TempDir;
  * {@code run}'s values are byte for byte the datums {@code replay} writes to its container files; and
  * every reader of the outputs reads the Avro run as it reads the JSON one: the live page's feed
  * ({@link LiveState}, following the topics), the demo summary's topic reader
- * ({@link DemoRun#readJson}), the run's reject tally ({@link OutputTally}) and {@code drift} (which
- * reads the snapshots: JSON in both encodings).
+ * ({@link DemoRun#readJson}), the run's reject tally ({@link OutputTally}) and {@code drift} (on the
+ * topic and on the replay's {@code coefficients.avro}). Snapshots are Avro too: the topic's are the
+ * snapshots a replay of the same records writes, byte for byte.
  */
 @ExtendWith(EmbeddedKafkaExtension.class)
 class AvroOutputsOnKafkaTest {
@@ -101,24 +102,37 @@ class AvroOutputsOnKafkaTest {
     FileReplay.run(cfg, file, avro, null);
     Path json = dir.resolve("json");
     FileReplay.run(AvroOutputsReferenceTest.demo(), file, json, null);
+    // the snapshots count records and rejects: the replay that matches the run's has the leading bad record too
+    Path fileAll = dir.resolve("in-all.jsonl");
+    Files.write(fileAll, values, StandardCharsets.UTF_8);
+    Path avroAll = dir.resolve("avro-all");
+    FileReplay.run(cfg, fileAll, avroAll, null);
+    Path jsonAll = dir.resolve("json-all");
+    FileReplay.run(AvroOutputsReferenceTest.demo().withNameAndTopic("avro-out", "avro-out.in"), fileAll, jsonAll, null);
 
-    // headers: the fingerprint alone on Avro outputs; snapshots (JSON) keep format and pipeline
+    // headers: the fingerprint alone on every Avro output, snapshots included
     List<ConsumerRecord<byte[], byte[]>> preds = KafkaTestSupport.readAll(bs, cfg.name() + ".predictions");
     List<ConsumerRecord<byte[], byte[]>> settled = KafkaTestSupport.readAll(bs, cfg.name() + ".settled");
     List<ConsumerRecord<byte[], byte[]>> rejects = KafkaTestSupport.readAll(bs, cfg.name() + ".rejects");
     checkHeaders(preds, OutputSchemas.Kind.PREDICTION);
     checkHeaders(settled, OutputSchemas.Kind.SETTLED);
     checkHeaders(rejects, OutputSchemas.Kind.REJECT);
-    for (ConsumerRecord<byte[], byte[]> r : KafkaTestSupport.readAll(bs, cfg.name() + ".coefficients")) {
-      assertEquals("3", new String(r.headers().lastHeader("runnel.format").value(), StandardCharsets.US_ASCII));
-      assertNull(r.headers().lastHeader(OutputSchemas.HEADER_SCHEMA));
-    }
+    List<ConsumerRecord<byte[], byte[]>> snaps = KafkaTestSupport.readAll(bs, cfg.name() + ".coefficients");
+    checkHeaders(snaps, OutputSchemas.Kind.SNAPSHOT);
 
     // run = replay, byte for byte: the topic's values are the container files' datums, in order
     assertEquals(0L, OutputRecords.read(rejects.get(0).headers(), rejects.get(0).value()).path("source").path("offset").asLong(-1));
     assertArrayEquals(datums(avro.resolve("predictions.avro")), concat(preds, 0), "predictions: run = replay");
     assertArrayEquals(datums(avro.resolve("settled.avro")), concat(settled, 0), "settled: run = replay");
     assertArrayEquals(datums(avro.resolve("rejects.avro")), concat(rejects, 1), "rejects after the leading one: run = replay");
+    // snapshots: the topic's are the replay's, byte for byte; the replay adds one at the end of the file when records came after the last
+    byte[] replaySnaps = datums(avroAll.resolve("coefficients.avro"));
+    byte[] runSnaps = concat(snaps, 0);
+    int replayCount = OutputRecords.readFile(avroAll.resolve("coefficients.avro")).size();
+    assertTrue(snaps.size() > 10 && (replayCount == snaps.size() || replayCount == snaps.size() + 1),
+        snaps.size() + " snapshots on the topic, " + replayCount + " in the replay");
+    assertArrayEquals(runSnaps, java.util.Arrays.copyOf(replaySnaps, runSnaps.length), "snapshots: run = replay");
+    assertTrue(replayCount == snaps.size() ? replaySnaps.length == runSnaps.length : replaySnaps.length > runSnaps.length);
     assertTrue(preds.size() > 4000 && settled.size() > 2000 && rejects.size() == 6,
         preds.size() + " predictions, " + settled.size() + " settled, " + rejects.size() + " rejects");
 
@@ -133,17 +147,32 @@ class AvroOutputsOnKafkaTest {
       }
     }
 
-    // drift reads the snapshots, JSON in both encodings: from the Avro run's topic, and from the Avro replay's folder as from the JSON one's
+    // the demo summary's reader gives the Avro run's snapshots as the JSON replay of the same records wrote them
+    List<JsonNode> gotSnaps = DemoRun.readJson(bs, cfg.name() + ".coefficients");
+    List<JsonNode> wantSnaps = OutputRecords.readFile(jsonAll.resolve("coefficients.jsonl"));
+    assertEquals(snaps.size(), gotSnaps.size());
+    for (int i = 0; i < gotSnaps.size(); i++) {
+      AvroOutputsReferenceTest.sameJson(wantSnaps.get(i), gotSnaps.get(i), "snapshot " + i);
+    }
+
+    // drift reads Avro snapshots: from the Avro run's topic (as from the JSON replay of the same records), and from the Avro replay's coefficients.avro as from the JSON one's coefficients.jsonl
     java.io.ByteArrayOutputStream fromTopic = new java.io.ByteArrayOutputStream();
     assertEquals(0, dev.runnel.connect.cli.DriftCommandAccess.print(bs, cfg.name() + ".coefficients",
         new dev.runnel.connect.drift.DriftTable("first", 3, null, null), new java.io.PrintStream(fromTopic, true, StandardCharsets.UTF_8)));
     long rows = fromTopic.toString(StandardCharsets.UTF_8).lines().count();
     assertTrue(rows > 10, "drift printed the Avro run's snapshots: " + rows + " lines");
+    java.io.ByteArrayOutputStream fromJsonAll = new java.io.ByteArrayOutputStream();
+    List<String> jsonAllLines = Files.readAllLines(jsonAll.resolve("coefficients.jsonl"), StandardCharsets.UTF_8).subList(0, snaps.size());
+    Path jsonAllRun = dir.resolve("json-all-run.jsonl");
+    Files.write(jsonAllRun, jsonAllLines, StandardCharsets.UTF_8);
+    dev.runnel.connect.cli.DriftCommandAccess.printFile(jsonAllRun,
+        new dev.runnel.connect.drift.DriftTable("first", 3, null, null), new java.io.PrintStream(fromJsonAll, true, StandardCharsets.UTF_8));
+    assertEquals(fromJsonAll.toString(StandardCharsets.UTF_8), fromTopic.toString(StandardCharsets.UTF_8), "drift of the Avro topic = drift of the JSON lines");
     String[] drift = new String[2];
     int k = 0;
-    for (Path folder : List.of(avro, json)) {
+    for (Path snapFile : List.of(avro.resolve("coefficients.avro"), json.resolve("coefficients.jsonl"))) {
       java.io.ByteArrayOutputStream b = new java.io.ByteArrayOutputStream();
-      assertEquals(0, dev.runnel.connect.cli.DriftCommandAccess.printFile(folder.resolve("coefficients.jsonl"),
+      assertEquals(0, dev.runnel.connect.cli.DriftCommandAccess.printFile(snapFile,
           new dev.runnel.connect.drift.DriftTable("first", 3, null, null), new java.io.PrintStream(b, true, StandardCharsets.UTF_8)));
       drift[k++] = b.toString(StandardCharsets.UTF_8);
     }
@@ -162,9 +191,13 @@ class AvroOutputsOnKafkaTest {
     for (JsonNode p : OutputRecords.readFile(json.resolve("predictions.jsonl"))) {
       expected.addPrediction(p, "k" + p.path("source").path("offset").asLong());
     }
+    for (JsonNode sn : wantSnaps.subList(0, snaps.size())) {
+      expected.addSnapshot(sn);
+    }
     try (LiveState live = new LiveState(cfg.name(), bs, Map.of(), null, List.of("hub")).start()) {
-      KafkaTestSupport.await("the page read every prediction", Duration.ofSeconds(60),
-          () -> live.stateJson().path("throughput").path("predictions_read").asLong() >= preds.size());
+      KafkaTestSupport.await("the page read every prediction and snapshot", Duration.ofSeconds(60),
+          () -> live.stateJson().path("throughput").path("predictions_read").asLong() >= preds.size()
+              && live.stateJson().path("throughput").path("snapshots_read").asLong() >= snaps.size());
       JsonNode got = live.stateJson();
       JsonNode want = expected.stateJson();
       assertEquals(preds.size(), got.path("throughput").path("predictions_read").asLong());
@@ -172,6 +205,12 @@ class AvroOutputsOnKafkaTest {
       assertEquals(want.get("predictions"), got.get("predictions"));
       assertTrue(want.path("forecasts_ahead").path("entities").size() > 0, "forecasts ahead per hub");
       assertEquals(want.get("forecasts_ahead"), got.get("forecasts_ahead"));
+      assertEquals(snaps.size(), got.path("throughput").path("snapshots_read").asLong());
+      assertTrue(want.path("latest").path("columns").size() > 5 || want.path("coefficient_paths").size() > 0,
+          "the page draws the snapshots: " + want.path("latest"));
+      for (String key : List.of("shown_columns", "picked_columns", "coefficient_paths", "error_path", "latest", "alarm_log")) {
+        assertEquals(want.get(key), got.get(key), "the live page's " + key + " from Avro snapshots");
+      }
     }
   }
 
