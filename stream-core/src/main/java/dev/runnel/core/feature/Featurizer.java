@@ -451,6 +451,11 @@ public final class Featurizer {
     return c;
   }
 
+  /** Whether this featurizer has learned nothing yet (no training record, no dynamic column): what {@link #readFrom} needs. */
+  public boolean isFresh() {
+    return trainingRecords == 0 && columns.dimension() == firstDynamicColumn();
+  }
+
   private int firstDynamicColumn() {
     int n = constantTerm ? 1 : 0;
     for (Feature f : features) n += f.fixedColumns();
@@ -469,7 +474,7 @@ public final class Featurizer {
    *     step's clock; {@code Long.MIN_VALUE} for the current format, which carries none
    */
   public long readFrom(DataInput in) throws IOException {
-    if (trainingRecords != 0 || columns.dimension() != firstDynamicColumn()) {
+    if (!isFresh()) {
       throw new IllegalStateException("readFrom needs a fresh featurizer; this one has seen " + trainingRecords + " records");
     }
     try {

@@ -1272,8 +1272,15 @@ public final class PipelineStep {
    *
    * @throws IllegalArgumentException if the bytes are not a checkpoint, are of an unknown version,
    *     or were written under a configuration whose features or model differ
+   * @throws IllegalStateException if this step has already learned from a record (refused before
+   *     anything changes)
    */
   public void restore(byte[] checkpoint) {
+    if (!featurizer.isFresh()) {
+      // refused before anything is read, so a refused restore leaves this step as it was
+      throw new IllegalStateException("restore needs a fresh pipeline step; this one has learned from "
+          + featurizer.trainingRecords() + " records");
+    }
     try {
       DataInputStream in = new DataInputStream(new ByteArrayInputStream(checkpoint));
       if (in.readInt() != CHECKPOINT_MAGIC) {

@@ -5,6 +5,7 @@ import static dev.runnel.core.pipeline.PipelineForecastTest.T0;
 import static dev.runnel.core.pipeline.PipelineForecastTest.line;
 import static org.junit.jupiter.api.Assertions.assertArrayEquals;
 import static org.junit.jupiter.api.Assertions.assertEquals;
+import static org.junit.jupiter.api.Assertions.assertThrows;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
 import dev.runnel.core.config.PipelineConfig;
@@ -65,5 +66,32 @@ class PipelineRestoreReplacesStateTest {
     assertEquals(b.settled, a.settled);
     assertArrayEquals(b.all.toByteArray(), a.all.toByteArray());
     assertArrayEquals(fresh.checkpoint(), used.checkpoint());
+  }
+
+  /**
+   * A step that has learned is refused before anything is read, so the refused restore changes
+   * nothing (it used to overwrite the counters, the clock and the metrics before the featurizer
+   * refused, leaving the step half-replaced).
+   */
+  @Test
+  void aRefusedRestoreLeavesTheStepAsItWas() {
+    PipelineStep writer = new PipelineStep(config());
+    Collector w = new Collector(writer);
+    for (byte[] b : PipelineForecastTest.mixedFeed(41, 20)) {
+      w.feed(b);
+    }
+    byte[] checkpoint = writer.checkpoint();
+
+    PipelineStep learned = new PipelineStep(config());
+    Collector l = new Collector(learned);
+    List<byte[]> feed = PipelineForecastTest.mixedFeed(7, 6);
+    for (byte[] b : feed) {
+      l.feed(b);
+    }
+    assertTrue(learned.records() > 0 && learned.records() != writer.records());
+    byte[] before = learned.checkpoint();
+    IllegalStateException e = assertThrows(IllegalStateException.class, () -> learned.restore(checkpoint));
+    assertTrue(e.getMessage().contains("fresh pipeline step"), e.getMessage());
+    assertArrayEquals(before, learned.checkpoint(), "the refused restore changed nothing");
   }
 }
