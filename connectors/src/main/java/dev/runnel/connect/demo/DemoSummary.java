@@ -319,7 +319,9 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
     WeightBreak fBreak = breakAfter(FAHRENHEIT_INCIDENT);
     out.printf(Locale.ROOT, "%-34s %-26s %s%n", "", "", fBreak == null
         ? "no weight break on temperature_c within " + BREAK_AFTER_FAHRENHEIT_DAYS + " days"
-        : "weight break " + words(fBreak) + ", the °F hours in its recent stretch");
+        : "weight break " + words(fBreak) + String.format(Locale.ROOT, ", %.0f h after the last °F hour",
+            java.time.Duration.between(fFromOf(settings), fBreak.firedAt()).toMinutes() / 60.0
+                - ChangeSchedule.of(settings).fahrenheitHours()));
     out.printf(Locale.ROOT, "%-34s %-26s %-22s %s%n", "corrupt records", "5 planted",
         rejectsByReason.values().stream().mapToLong(Long::longValue).sum() + " rejected", "");
     out.printf(Locale.ROOT, "weight-break scan (kept all the time): %s%n", breaks.isEmpty() ? "nothing named"

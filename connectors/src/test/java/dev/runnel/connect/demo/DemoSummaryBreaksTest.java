@@ -86,7 +86,7 @@ class DemoSummaryBreaksTest {
     assertTrue(text.contains("weight-break scan (kept all the time): 2 columns named"), text);
     assertTrue(text.contains("temperature_c 0.5000 -> 0.0040 sessions per °C (z -5.2)"), text);
     assertTrue(text.contains("hub=QM-07 1.250 -> 2.500 sessions (level vs the others) (z +5.0), after no planned change"), text);
-    assertTrue(text.matches("(?s).*temperatures sent in °F.*\\n.*\\n.*weight break .*temperature_c.*the °F hours in its recent stretch.*"),
+    assertTrue(text.matches("(?s).*temperatures sent in °F.*\\n.*\\n.*weight break .*temperature_c.*, 30 h after the last °F hour\\n.*"),
         "under the incident's row: " + text);
     assertTrue(text.contains("no weight break on the price within 7 days"), text);
   }
