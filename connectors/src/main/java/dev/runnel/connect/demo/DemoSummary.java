@@ -74,8 +74,9 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
   /** {@link WeightBreak#follows()} of a price_per_kwh break after the tariff change. */
   public static final String TARIFF_CHANGE = "tariff_change";
   /**
-   * Days after the last °F hour within which a temperature_c break is put down to the incident: the scan's
-   * recent stretches reach back up to 32 blocks of 144 trained records, with the demo's 13 hubs days of hours.
+   * Days after the last °F hour within which a temperature_c break is put down to the incident: the scan's recent
+   * stretches are 1 to 32 blocks of 144 trained records, and with the demo's 13 hubs a block is about 11 hours of
+   * actuals, so a stretch of 4 to 8 blocks that holds the °F hours ends 1 to 3 days after them.
    */
   public static final int BREAK_AFTER_FAHRENHEIT_DAYS = 3;
   /** Days after the tariff change within which a price_per_kwh break is put down to it (as for the changed-weight alarm). */
