@@ -76,7 +76,8 @@ public record DemoSummary(long records, long predictions, Map<String, Long> reje
   /**
    * Days after the last °F hour within which a temperature_c break is put down to the incident: the scan's recent
    * stretches are 1 to 32 blocks of 144 trained records, and with the demo's 13 hubs a block is about 11 hours of
-   * actuals, so a stretch of 4 to 8 blocks that holds the °F hours ends 1 to 3 days after them.
+   * actuals, so a recent stretch of L blocks holds the °F hours only up to about L × 11 hours after them (3 days:
+   * L up to about 6). On the 28-day demo the break on temperature_c is named 37 hours after them.
    */
   public static final int BREAK_AFTER_FAHRENHEIT_DAYS = 3;
   /** Days after the tariff change within which a price_per_kwh break is put down to it (as for the changed-weight alarm). */
