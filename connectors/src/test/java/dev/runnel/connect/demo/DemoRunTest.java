@@ -60,6 +60,13 @@ class DemoRunTest {
     // named; with the default window of 1,200 records it scores 4.8 and is the only column named.
     assertNotNull(s.tariffNamed(), "a changed column named within 7 days of the tariff change: " + printed);
     assertTrue(s.tariffNamed().startsWith("price_per_kwh "), "the named column: " + s.tariffNamed() + "\n" + printed);
+    // issue 17: the weight-break scan (kept all the time) names temperature_c after the planned six hours in °F
+    // (the generator's schedule: ChangeSchedule.fahrenheitFirstHour), and the summary lists it in words
+    DemoSummary.WeightBreak fBreak = s.breakAfter(DemoSummary.FAHRENHEIT_INCIDENT);
+    assertNotNull(fBreak, "a weight break on temperature_c within 3 days after the °F hours: " + printed);
+    assertTrue(printed.contains("weight break " + DemoSummary.words(fBreak)) && printed.contains("after the planned °F incident"),
+        printed);
+    assertTrue(printed.contains("weight-break scan (kept all the time): " + s.breaks().size()), printed);
     assertTrue(s.finalCoverage() > 0.8 && s.finalCoverage() < 0.97, "90% interval coverage near 90%: " + s.finalCoverage());
     // the cooperative's workflow (issue 15): hour-ahead and 18:00 day-ahead requests settled by their
     // actuals, read back from <name>.settled, beside the ground truth's perfect model

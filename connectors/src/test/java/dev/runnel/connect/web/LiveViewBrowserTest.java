@@ -561,7 +561,7 @@ class LiveViewBrowserTest {
   }
 
   /** The text of the element whose start tag holds {@code marker}. */
-  private static String text(String dom, String marker) {
+  static String text(String dom, String marker) {
     Matcher m = Pattern.compile(Pattern.quote(marker) + "[^>]*>([^<]*)<").matcher(dom);
     assertTrue(m.find(), marker);
     return m.group(1);
