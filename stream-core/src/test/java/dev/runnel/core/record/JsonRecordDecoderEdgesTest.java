@@ -178,4 +178,35 @@ class JsonRecordDecoderEdgesTest {
     assertEquals(RejectReason.OUT_OF_RANGE, both(d, s, "{\"ts\":1774744200,\"y\":1000000.0000000001}", detail));
     assertEquals("field y: 1000000.0000000001 exceeds the limit of 1000000.0 in magnitude", detail[0]);
   }
+
+  // ---------------------------------------------------------------- details of malformed records
+
+  @Test void malformedDetails_nameWhatWasMetAndJacksonsPosition() {
+    RecordSchema s = schema(FieldType.TIME);
+    JsonRecordDecoder d = new JsonRecordDecoder(s, RecordLimits.DEFAULTS, "ts", TimeFormat.ISO8601);
+    String[] detail = new String[1];
+    for (String empty : new String[] {"", " ", "\r\n\t"}) {
+      assertEquals(RejectReason.MALFORMED_JSON, both(d, s, empty, detail));
+      assertEquals("empty input", detail[0]);
+    }
+    // a root that is not an object: the JSON kind met (RFC 8259 section 3's values)
+    String[][] roots = {{"42", "a number"}, {"-1.5e3", "a number"}, {"\"s\"", "a string"}, {"true", "a boolean"},
+      {"false", "a boolean"}, {"null", "null"}, {"[1]", "an array"}};
+    for (String[] r : roots) {
+      assertEquals(RejectReason.MALFORMED_JSON, both(d, s, r[0], detail));
+      assertEquals("expected a JSON object, got " + r[1], detail[0]);
+      assertEquals(RejectReason.MALFORMED_JSON, both(d, s, "{\"y\":1} " + r[0], detail));
+      assertEquals("trailing data: " + r[1] + " after the end of the object", detail[0]);
+    }
+    // Jackson's message with the byte offset of the problem, counted by hand from the record's start
+    String[][] at = {{"]", "0"}, {"x", "0"}, {"{\"hub\"", "6"}, {"{\"y\":1]", "6"}, {"{\"y\":01}", "6"}, {"{\"hub\":\"\\q\"}", "9"}};
+    for (String[] a : at) {
+      assertEquals(RejectReason.MALFORMED_JSON, both(d, s, a[0], detail));
+      assertTrue(detail[0].endsWith(" (at byte " + a[1] + ")"), a[0] + ": " + detail[0]);
+      assertFalse(detail[0].contains("\n"), detail[0]);
+    }
+    // a long message is cut to 80 chars, the last three "..."
+    assertEquals(RejectReason.MALFORMED_JSON, both(d, s, "{'y':1}", detail));
+    assertTrue(detail[0].endsWith("... (at byte 1)") && detail[0].length() == 80 + " (at byte 1)".length(), detail[0]);
+  }
 }
