@@ -209,4 +209,39 @@ class JsonRecordDecoderEdgesTest {
     assertEquals(RejectReason.MALFORMED_JSON, both(d, s, "{'y':1}", detail));
     assertTrue(detail[0].endsWith("... (at byte 1)") && detail[0].length() == 80 + " (at byte 1)".length(), detail[0]);
   }
+
+  // ---------------------------------------------------------------- the size limit
+
+  /**
+   * A valid record of exactly {@code max_record_bytes} is read by the allocation-free path (the
+   * class doc: a valid record of the common shape allocates nothing); one byte more is too large.
+   * Measured with the JVM's per-thread allocation counter (com.sun.management.ThreadMXBean), as
+   * {@link DecodeAllocationTest} does: Jackson's path allocates hundreds of bytes per record.
+   */
+  @Test void aRecordOfExactlyTheSizeLimit_isReadWithoutAllocating() {
+    java.lang.management.ThreadMXBean tmx = java.lang.management.ManagementFactory.getThreadMXBean();
+    if (!(tmx instanceof com.sun.management.ThreadMXBean sun) || !sun.isThreadAllocatedMemorySupported()) return;
+    RecordSchema s = schema(FieldType.TIME);
+    String rec = "{\"ts\":\"2026-03-29T02:30:00+02:00\",\"hub\":\"H07\",\"y\":12.5,\"note\":\"a skipped field\"}";
+    int limit = rec.length();
+    JsonRecordDecoder d = new JsonRecordDecoder(s, new RecordLimits(16, limit, 1e6, 1970, 2200), "ts", TimeFormat.ISO8601);
+    EventRecord r = new EventRecord(s);
+    byte[] b = rec.getBytes(StandardCharsets.UTF_8);
+    byte[] over = (rec + " ").getBytes(StandardCharsets.UTF_8);
+    assertEquals(RejectReason.RECORD_TOO_LARGE, d.decode(over, 0, over.length, r));
+    for (int k = 0; k < 20_000; k++) assertNull(d.decode(b, 0, b.length, r));
+    long tid = Thread.currentThread().getId();
+    long least = Long.MAX_VALUE;
+    for (int attempt = 0; attempt < 5; attempt++) {
+      long before = sun.getThreadAllocatedBytes(tid);
+      int bad = 0;
+      for (int k = 0; k < 1000; k++) {
+        if (d.decode(b, 0, b.length, r) != null) bad++;
+      }
+      least = Math.min(least, sun.getThreadAllocatedBytes(tid) - before);
+      assertEquals(0, bad);
+    }
+    assertTrue(least < 1024, "allocated " + least + " bytes over 1000 decodes of a record at the limit");
+    assertEquals(12.5, r.number(s.slot("y")));
+  }
 }
