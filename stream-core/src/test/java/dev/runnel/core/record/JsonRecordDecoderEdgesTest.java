@@ -244,4 +244,26 @@ class JsonRecordDecoderEdgesTest {
     assertTrue(least < 1024, "allocated " + least + " bytes over 1000 decodes of a record at the limit");
     assertEquals(12.5, r.number(s.slot("y")));
   }
+
+  // ---------------------------------------------------------------- the other unit
+
+  @Test void wrongTimeUnitDetails_sayWhichUnitItLooksLikeAndTheSetting() {
+    String[] detail = new String[1];
+    for (FieldType type : new FieldType[] {FieldType.NUMBER, FieldType.TIME}) {
+      RecordSchema s = schema(type);
+      // seconds read as millis: 1774744200 ms is 1970-01-21T12:59:04.200Z (java.time: Instant.ofEpochMilli)
+      JsonRecordDecoder millis = new JsonRecordDecoder(s, RecordLimits.DEFAULTS, "ts", TimeFormat.EPOCH_MILLIS);
+      assertEquals("1970-01-21T12:59:04.200Z", java.time.Instant.ofEpochMilli(1_774_744_200L).toString());
+      assertEquals(RejectReason.WRONG_TIME_UNIT, both(millis, s, "{\"ts\":1774744200}", detail));
+      assertEquals("field ts: read as epoch_millis it is 1970-01-21T12:59:04.200Z, before 1973; it looks like epoch seconds: "
+          + "if the feed writes seconds, set input.event_time.format to epoch_seconds", detail[0]);
+      // millis read as seconds: 1774744200123 s is +58209-05-28T20:02:03Z (java.time), after max_year 2200
+      JsonRecordDecoder seconds = new JsonRecordDecoder(s, RecordLimits.DEFAULTS, "ts", TimeFormat.EPOCH_SECONDS);
+      String when = java.time.Instant.ofEpochSecond(1_774_744_200_123L).toString();
+      assertEquals("+58209-05-28T20:02:03Z", when);
+      assertEquals(RejectReason.WRONG_TIME_UNIT, both(seconds, s, "{\"ts\":1774744200123}", detail));
+      assertEquals("field ts: read as epoch_seconds it is " + when + ", after max_year 2200; it looks like epoch milliseconds: "
+          + "if the feed writes milliseconds, set input.event_time.format to epoch_millis", detail[0]);
+    }
+  }
 }
