@@ -225,4 +225,48 @@ class StrictReaderSubsetTest {
     readsItself("{\"temperature\":1,\"x\":2}");
     assertEquals(2.0, out.number(schema.slot("x")));
   }
+
+  // ---------------------------------------------------------------- what it must leave to Jackson
+
+  /**
+   * A declared name holding a quote, a backslash or a control char is never matched by its raw
+   * bytes: in JSON such a name is written escaped (RFC 8259 section 7), and the same bytes
+   * unescaped are either not JSON or another name. Slot 0 is the one the reader guesses first.
+   */
+  @Test void namesThatJsonMustEscape_areNeverMatchedByTheirRawBytes() {
+    String[][] cases = {
+      // declared name (slot 0), records in which its raw bytes appear
+      {"a\"b", "{\"a\"b\":1}", "{\"x\":1,\"a\"b\":2}", "{\"a\\\"b\":3}"},
+      {"c\\b", "{\"c\\b\":1}", "{\"x\":1,\"c\\b\":2}", "{\"c\\\\b\":3}"},
+      {"t\tab", "{\"t\tab\":1}", "{\"x\":1,\"t\tab\":2}", "{\"t\\tab\":3}"},
+    };
+    for (String[] c : cases) {
+      Map<String, FieldType> m = new LinkedHashMap<>();
+      m.put(c[0], FieldType.NUMBER);
+      m.put("x", FieldType.NUMBER);
+      RecordSchema s = new RecordSchema(m);
+      DecoderAgreementTest.Pair p = new DecoderAgreementTest.Pair(s, LIMITS, null, TimeFormat.ISO8601);
+      for (int k = 1; k < c.length; k++) {
+        p.check(c[k].getBytes(StandardCharsets.UTF_8));
+        p.check("{\"x\":1}".getBytes(StandardCharsets.UTF_8));
+      }
+      // the escaped form is the declared name (Jackson reads it; the reader leaves escaped names to it)
+      EventRecord r = new EventRecord(s);
+      byte[] escaped = c[3].getBytes(StandardCharsets.UTF_8);
+      assertNull(p.fast.decode(escaped, 0, escaped.length, r), p.fast.lastDetail());
+      assertEquals(3.0, r.number(0), c[3]);
+    }
+  }
+
+  @Test void textsOnePastTheLimit_areLeftToJackson() {
+    // 15 chars and a pair (escaped or as UTF-8) make 17 UTF-16 units: one past max_text_length 16
+    for (String t : new String[] {"abcdefghijklmno\\ud83d\\ude00", "abcdefghijklmno\ud83d\ude00", "abcdefghijklmnop\\u00e9",
+        "abcdefghijklmnopq", "abcdefghijklmnop\u00e9", "abcdefghijklmnop\\n"}) {
+      // first a long text, so the slot's buffer is larger than the limit
+      readsItself("{\"kind\":\"" + "q".repeat(16) + "\"}");
+      byte[] b = ("{\"kind\":\"" + t + "\"}").getBytes(StandardCharsets.UTF_8);
+      assertEquals(RejectReason.TOO_LONG, pair.check(b), t);
+      assertFalse(reader.read(b, 0, b.length, out), t);
+    }
+  }
 }
