@@ -269,4 +269,23 @@ class StrictReaderSubsetTest {
       assertFalse(reader.read(b, 0, b.length, out), t);
     }
   }
+
+  /**
+   * Only {@code buf[off .. off+len)} is read (the decoder's javadoc): here the bytes before the
+   * record, read as JSON from the buffer's start, would close it as a valid object, so a reader
+   * that fell back to position 0 after a refusal would read a record that Jackson rejects.
+   */
+  @Test void onlyTheRecordsBytesAreRead() {
+    String before = ",\"u\":[";
+    String[] records = {"{\"ok\":\"x\"}", "{\"ok\":1}", "{\"at\":\"2026-13-01T00:00:00Z\"}", "{\"at\":\"1969-12-31T23:59:59Z\"}",
+      "{\"at\":1}", "{\"kind\":1}", "{\"kind\":\"abcdefghijklmnopq\"}", "{\"x\":\"1\"}", "{\"x\":1e999}", "{\"x\":2e6}",
+      "{\"x\":1,\"x\":2}", "{\"y\":[1],\"ok\":[]}"};
+    for (String rec : records) {
+      byte[] b = (before + rec + "]}").getBytes(StandardCharsets.UTF_8);
+      int off = before.length();
+      RejectReason r = pair.check(b, off, b.length - off);
+      assertTrue(r != null, rec);
+      assertFalse(reader.read(b, off, b.length - off, out), rec);
+    }
+  }
 }
