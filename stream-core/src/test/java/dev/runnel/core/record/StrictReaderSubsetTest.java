@@ -279,13 +279,35 @@ class StrictReaderSubsetTest {
     String before = ",\"u\":[";
     String[] records = {"{\"ok\":\"x\"}", "{\"ok\":1}", "{\"at\":\"2026-13-01T00:00:00Z\"}", "{\"at\":\"1969-12-31T23:59:59Z\"}",
       "{\"at\":1}", "{\"kind\":1}", "{\"kind\":\"abcdefghijklmnopq\"}", "{\"x\":\"1\"}", "{\"x\":1e999}", "{\"x\":2e6}",
-      "{\"x\":1,\"x\":2}", "{\"y\":[1],\"ok\":[]}"};
+      "{\"x\":1,\"x\":2}", "{\"y\":[1],\"ok\":[]}", "{\"kind\":\"\\ud800\"}", "{\"kind\":\"\\udc00\\ud800\"}"};
     for (String rec : records) {
       byte[] b = (before + rec + "]}").getBytes(StandardCharsets.UTF_8);
       int off = before.length();
       RejectReason r = pair.check(b, off, b.length - off);
       assertTrue(r != null, rec);
       assertFalse(reader.read(b, off, b.length - off, out), rec);
+    }
+  }
+
+  /**
+   * A declared name that is not well-formed UTF-16 has no UTF-8 bytes to compare ({@code
+   * String.getBytes} writes '?' for the lone surrogate): there is no strict reader for the
+   * schema, and a record whose name is those replaced bytes is another name (Jackson skips it).
+   */
+  @Test void aDeclaredNameWithALoneSurrogate_isNeverMatchedByBytes() {
+    for (String name : new String[] {"\ud800x", "x\udc00", "ab\ud83d"}) {
+      Map<String, FieldType> m = new LinkedHashMap<>();
+      m.put(name, FieldType.NUMBER);
+      m.put("y", FieldType.NUMBER);
+      RecordSchema s = new RecordSchema(m);
+      assertNull(StrictJsonReader.create(s, LIMITS, -1, TimeFormat.ISO8601), name);
+      JsonRecordDecoder d = new JsonRecordDecoder(s, LIMITS);
+      EventRecord r = new EventRecord(s);
+      String replaced = new String(name.getBytes(StandardCharsets.UTF_8), StandardCharsets.UTF_8);
+      byte[] b = ("{\"" + replaced + "\":1,\"y\":2}").getBytes(StandardCharsets.UTF_8);
+      assertNull(d.decode(b, 0, b.length, r), d.lastDetail());
+      assertFalse(r.present(0), replaced);
+      assertEquals(2.0, r.number(1));
     }
   }
 }
