@@ -280,7 +280,8 @@ class StrictReaderSubsetTest {
     String[] records = {"{\"ok\":\"x\"}", "{\"ok\":1}", "{\"at\":\"2026-13-01T00:00:00Z\"}", "{\"at\":\"1969-12-31T23:59:59Z\"}",
       "{\"at\":1}", "{\"kind\":1}", "{\"kind\":\"abcdefghijklmnopq\"}", "{\"x\":\"1\"}", "{\"x\":1e999}", "{\"x\":2e6}",
       "{\"x\":1,\"x\":2}", "{\"y\":[1],\"ok\":[]}", "{\"kind\":\"\\ud800\"}", "{\"kind\":\"\\udc00\\ud800\"}",
-      "{\"at\":\"" + "2".repeat(JsonRecordDecoder.MAX_TIME_CHARS + 1) + "\"}", "{\"kind\":\"abcdefghijklmno\ud83d\ude00\"}"};
+      "{\"at\":\"" + "2".repeat(JsonRecordDecoder.MAX_TIME_CHARS + 1) + "\"}", "{\"kind\":\"abcdefghijklmno\ud83d\ude00\"}",
+      "{\"kind\":\"\\ud83d\\u0041\"}"};
     for (String rec : records) {
       byte[] b = (before + rec + "]}").getBytes(StandardCharsets.UTF_8);
       int off = before.length();
@@ -315,7 +316,7 @@ class StrictReaderSubsetTest {
   /** Every prefix of records with nested skipped values, each in an array of exactly its length. */
   @Test void everyPrefixOfNestedRecords_inAnArrayOfItsLength() {
     String[] records = {"{\"u\":{\"a\":[1,{\"b\":\"c\"},[]],\"d\":{}},\"x\":1}", "{\"u\":[ { } , [ ] , \"\\u00e9\" ],\"kind\":\"k\"}",
-      "{\"x\":-0.5e-3,\"u\":[true,false,null],\"at\":\"2026-03-29T02:30:00Z\"}"};
+      "{\"x\":-0.5e-3,\"u\":[true,false,null],\"at\":\"2026-03-29T02:30:00Z\"}", "{\"kind\":\"a\\nb\\u00e9\",\"ok\":true}"};
     for (String rec : records) {
       byte[] whole = rec.getBytes(StandardCharsets.UTF_8);
       for (int k = 0; k <= whole.length; k++) {
