@@ -307,6 +307,8 @@ public final class GlobalScopeGain {
       for (int p = 0; p < PARTITIONS; p++) {
         row(col + " effect RMSE vs truth, partition " + p + ", all", pa[p].rmse(), ga[p].rmse());
       }
+      System.out.printf(Locale.ROOT, "| %s effect bias (mean estimate - truth), pooled, all / first %d days | %.4f / %.4f | %.4f / %.4f | |%n",
+          col, firstDays, pa[PARTITIONS].mean(), pa[PARTITIONS].meanFirst(), ga[PARTITIONS].mean(), ga[PARTITIONS].meanFirst());
       Sse ps = isPrice ? arms[0].priceSpread : arms[0].temperatureSpread;
       Sse gs = isPrice ? g.priceSpread : g.temperatureSpread;
       row(col + " spread across partitions (mean sd), all", ps.mean(), gs.mean());
