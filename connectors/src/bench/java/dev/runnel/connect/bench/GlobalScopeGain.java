@@ -46,7 +46,11 @@ import java.util.Locale;
  *       root mean square error per partition, pooled, over the first days, and the spread (standard
  *       deviation) of the 4 partitions' estimates around their mean, averaged over the sample times.</li>
  * </ul>
- * Deterministic: the feed is seeded, each step is deterministic, and the exchange follows the feed's
+ * {@code -Dgain.noFold=true} (the global arm folds nothing: it must then print the partition arm's
+ * numbers) and {@code -Dgain.withoutDayOfWeek=true} (both arms without the day-of-week feature) are
+ * checks, not configurations to use.
+ *
+ * <p>Deterministic: the feed is seeded, each step is deterministic, and the exchange follows the feed's
  * order, so two runs print the same numbers.
  *
  * <pre>{@code
@@ -66,10 +70,16 @@ public final class GlobalScopeGain {
   static final String PRICE = "price_per_kwh";
   static final String TEMPERATURE = "temperature_c";
 
+  /** {@code -Dgain.withoutDayOfWeek=true}: both arms without the demo's day-of-week feature (a diagnostic). */
+  static final boolean WITHOUT_DAY_OF_WEEK = Boolean.getBoolean("gain.withoutDayOfWeek");
+
   static PipelineConfig config(String scope, String shareEvery) throws IOException {
     String yaml;
     try (InputStream in = GlobalScopeGain.class.getResourceAsStream("/dev/runnel/demo/quillmarsh.yaml")) {
       yaml = new String(in.readAllBytes(), StandardCharsets.UTF_8);
+    }
+    if (WITHOUT_DAY_OF_WEEK) {
+      yaml = yaml.replace("  - {kind: cyclic, cycle: day_of_week, harmonics: 3}\n", "");
     }
     yaml = yaml.replace("corrections: replace", "corrections: learn_as_new")
         .replace("  noise_half_life_records: 500\n", "  noise_half_life_records: 500\n  scope: " + scope + "\n"
