@@ -73,12 +73,28 @@ class WeightBreakScanLengthsTest {
 
   @Test
   void everyLookComparesTheLengthsOneTwoFourWithTheOlderBlocks_againstCommonsMath() {
+    int[] r = scenario(11, 6, -1.2, 4.0); // x2's weight −1 → −1.2 from block 6
+    assertTrue(r[0] >= 1, "the step was named");
+    assertTrue(r[1] >= 1, "a named score came from a length above 1");
+  }
+
+  /** Early, small steps with a low threshold: looks with 2 and 3 blocks kept decide (a length is never compared with fewer older blocks). */
+  @Test
+  void earlyLooksCompareOnlyLengthsWithAsManyOlderBlocks_againstCommonsMath() {
+    int named = 0;
+    for (int seed = 20; seed < 30; seed++) {
+      named += scenario(seed, 1, -1.12, 2.5)[0];
+    }
+    assertTrue(named >= 1, "some step was named");
+  }
+
+  /** Runs 14 blocks of 200 records (8 kept) through the scan and the reference; returns {looks that named, of them from a length above 1}. */
+  private static int[] scenario(long seed, int fromBlock, double b2After, double threshold) {
     int b = 200;
     int kept = 8;
     int n = 14 * b;
     double[] y = new double[n];
-    double[][] x = WeightBreakScanTest.rows(11, n, 6 * b, -1.2, y); // x2's weight −1 → −1.2 from block 6
-    double threshold = 4.0;
+    double[][] x = WeightBreakScanTest.rows(seed, n, fromBlock * b, b2After, y);
     WeightBreakScan scan = new WeightBreakScan(b, kept, threshold);
     int first = 0;
     int namedLooks = 0;
@@ -126,9 +142,8 @@ class WeightBreakScanLengthsTest {
       }
       first = last + 1;
     }
-    assertTrue(namedLooks >= 1, "the step was named");
-    assertTrue(looksWithLongerBest >= 1, "a named score came from a length above 1");
     assertEquals(namedLooks, scan.fired());
+    return new int[] {namedLooks, looksWithLongerBest};
   }
 
   /** A checkpoint written with 8 blocks kept, read by a scan configured for 4, keeps the newest 4: the state of a scan that kept 4 all along. */
