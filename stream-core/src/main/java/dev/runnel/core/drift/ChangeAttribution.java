@@ -206,8 +206,8 @@ public final class ChangeAttribution {
       }
       b[i][i] = (seen[i] ? 1.0 : 0.0) + (seen[i] ? RIDGE : 1.0);
     }
-    double[][] inv = Cholesky.inverse(b, p);
-    if (inv == null) {
+    double[][] inv = new double[p][p];
+    if (!SmallCholesky.invertInto(b, p, new double[p][p], new double[p][p], inv)) {
       return null;
     }
     // d = D⁻¹ B⁻¹ D⁻¹ S
@@ -326,56 +326,6 @@ public final class ChangeAttribution {
           a[i][j] = in.readDouble();
         }
       }
-    }
-  }
-
-  /** A small dense Cholesky inverse (cold path). */
-  static final class Cholesky {
-    private Cholesky() { }
-
-    /** The inverse of a symmetric positive-definite matrix, or null if it is not positive definite. */
-    static double[][] inverse(double[][] m, int p) {
-      double[][] l = new double[p][p];
-      for (int i = 0; i < p; i++) {
-        for (int j = 0; j <= i; j++) {
-          double sum = m[i][j];
-          for (int k = 0; k < j; k++) {
-            sum -= l[i][k] * l[j][k];
-          }
-          if (i == j) {
-            if (!(sum > 0)) {
-              return null;
-            }
-            l[i][i] = Math.sqrt(sum);
-          } else {
-            l[i][j] = sum / l[j][j];
-          }
-        }
-      }
-      // L⁻¹ by forward substitution, then M⁻¹ = L⁻ᵀ L⁻¹
-      double[][] li = new double[p][p];
-      for (int j = 0; j < p; j++) {
-        li[j][j] = 1.0 / l[j][j];
-        for (int i = j + 1; i < p; i++) {
-          double sum = 0.0;
-          for (int k = j; k < i; k++) {
-            sum -= l[i][k] * li[k][j];
-          }
-          li[i][j] = sum / l[i][i];
-        }
-      }
-      double[][] inv = new double[p][p];
-      for (int i = 0; i < p; i++) {
-        for (int j = i; j < p; j++) {
-          double sum = 0.0;
-          for (int k = j; k < p; k++) {
-            sum += li[k][i] * li[k][j];
-          }
-          inv[i][j] = sum;
-          inv[j][i] = sum;
-        }
-      }
-      return inv;
     }
   }
 }

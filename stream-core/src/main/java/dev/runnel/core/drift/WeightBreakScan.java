@@ -91,6 +91,7 @@ public final class WeightBreakScan {
   private double[] refS;
   private double[][] eq;
   private double[][] chol;
+  private double[][] cholInv;
   private double[][] inv;
   private double[] dInv;
   private double[] tmp;
@@ -202,6 +203,7 @@ public final class WeightBreakScan {
       refS = new double[p];
       eq = new double[p][p];
       chol = new double[p][p];
+      cholInv = new double[p][p];
       inv = new double[p][p];
       dInv = new double[p];
       tmp = new double[p];
@@ -421,55 +423,7 @@ public final class WeightBreakScan {
 
   /** inv = eq⁻¹ by Cholesky (into the scratch arrays); false when eq is not positive definite. */
   private boolean invert() {
-    double[][] l = chol;
-    for (int i = 0; i < p; i++) {
-      for (int j = 0; j <= i; j++) {
-        double sum = eq[i][j];
-        for (int k = 0; k < j; k++) {
-          sum -= l[i][k] * l[j][k];
-        }
-        if (i == j) {
-          if (!(sum > 0)) {
-            return false;
-          }
-          l[i][i] = Math.sqrt(sum);
-        } else {
-          l[i][j] = sum / l[j][j];
-        }
-      }
-    }
-    // L⁻¹ into the upper... kept in inv's lower triangle first: li[i][j], j ≤ i
-    double[][] li = inv;
-    for (int i = 0; i < p; i++) {
-      java.util.Arrays.fill(li[i], 0.0);
-    }
-    for (int j = 0; j < p; j++) {
-      li[j][j] = 1.0 / l[j][j];
-      for (int i = j + 1; i < p; i++) {
-        double sum = 0.0;
-        for (int k = j; k < i; k++) {
-          sum -= l[i][k] * li[k][j];
-        }
-        li[i][j] = sum / l[i][i];
-      }
-    }
-    // eq⁻¹ = L⁻ᵀ L⁻¹: (i, j) = Σ_{k ≥ max(i,j)} li[k][i]·li[k][j]; computed into chol (L no longer needed), then copied
-    for (int i = 0; i < p; i++) {
-      for (int j = i; j < p; j++) {
-        double sum = 0.0;
-        for (int k = j; k < p; k++) {
-          sum += li[k][i] * li[k][j];
-        }
-        chol[i][j] = sum;
-      }
-    }
-    for (int i = 0; i < p; i++) {
-      for (int j = i; j < p; j++) {
-        inv[i][j] = chol[i][j];
-        inv[j][i] = chol[i][j];
-      }
-    }
-    return true;
+    return SmallCholesky.invertInto(eq, p, chol, cholInv, inv);
   }
 
   /** Columns named by the latest look that named any. */
