@@ -214,25 +214,7 @@ public final class OutputAvro implements OutputEncoder {
 
   /** As {@link OutputJson}: the configured names in order, or every text and flag field. */
   private int[] echoSlots(RecordSchema schema) {
-    int[] out = new int[schema.size()];
-    int k = 0;
-    if (echo == null) {
-      for (int i = 0; i < schema.size(); i++) {
-        if (schema.type(i) == FieldType.TEXT || schema.type(i) == FieldType.FLAG) {
-          out[k++] = i;
-        }
-      }
-    } else {
-      for (String name : echo) {
-        for (int i = 0; i < schema.size(); i++) {
-          if (schema.name(i).equals(name) && (schema.type(i) == FieldType.TEXT || schema.type(i) == FieldType.FLAG)) {
-            out[k++] = i;
-            break;
-          }
-        }
-      }
-    }
-    return Arrays.copyOf(out, k);
+    return OutputJson.echoSlots(schema, echo);
   }
 
   private void room(int more) {

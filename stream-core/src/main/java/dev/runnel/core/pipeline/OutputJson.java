@@ -801,6 +801,17 @@ public final class OutputJson {
 
   /** The slots echoed under {@code fields}: the configured names in order, or every text and flag field. */
   private int[] echoSlots(RecordSchema schema) {
+    return echoSlots(schema, echo);
+  }
+
+  /**
+   * The slots of {@code schema} echoed for {@code outputs.echo_fields}: the named text and flag
+   * fields in the order named (names of other types or absent from the schema are skipped), or
+   * every text and flag field when {@code echo} is null. Shared by every output encoding.
+   *
+   * @param echo the configured names, or null for the default. Not modified.
+   */
+  public static int[] echoSlots(RecordSchema schema, String[] echo) {
     int[] out = new int[schema.size()];
     int k = 0;
     if (echo == null) {
