@@ -162,7 +162,8 @@ public final class PipelineStep {
   private final Correction corrections;
   /** {@code corrections: replace} only (else null): column ids and bases, settled forecasts kept for re-settling. */
   private final ColumnBases bases;
-  private final PendingForecasts settledKept;
+  /** Whether settled forecasts are kept (in {@link #pending}'s kept section) for corrections: replace. */
+  private final boolean keep;
   /** {@code corrections: replace}: the sum of log(lambda) over every update since the state began, and model restarts. */
   private double logDecay;
   private long generation;
@@ -171,9 +172,6 @@ public final class PipelineStep {
   /** Scratch: the replaced observation's row in today's layout. */
   private double[] oldRow = new double[8];
   private String correctionDetail = "";
-  /** Scratch: the forecasts taken for re-settling, copied out (issue, partition, offset; forecast, low, high). */
-  private long[] keptLongs = new long[24];
-  private double[] keptDoubles = new double[24];
   /** Set only inside {@link #processRequest}: the target time it names. */
   private boolean hasRequestTarget;
   private long requestTargetMillis;
@@ -241,7 +239,9 @@ public final class PipelineStep {
     this.configFingerprint = fingerprint(config);
     PipelineConfig.Forecast fc = in.forecast();
     if (fc.enabled()) {
-      this.pending = new PendingForecasts(fc.maxPending(), fc.maxActualDelayMillis());
+      boolean replace = fc.maxLearnedActuals() > 0 && fc.corrections() == Correction.REPLACE;
+      this.pending = new PendingForecasts(fc.maxPending(), fc.maxActualDelayMillis(), replace ? fc.maxPending() : 0,
+          fc.maxActualLagMillis());
       this.entitySlots = new int[fc.entityFields().size()];
       for (int i = 0; i < entitySlots.length; i++) {
         entitySlots[i] = in.schema().slot(fc.entityFields().get(i));
@@ -250,15 +250,14 @@ public final class PipelineStep {
       this.settledForecast.entitySlots = entitySlots;
       this.maxActualLagMillis = fc.maxActualLagMillis();
       this.corrections = fc.corrections();
-      boolean replace = fc.maxLearnedActuals() > 0 && fc.corrections() == Correction.REPLACE;
       this.learned = fc.maxLearnedActuals() > 0 ? new LearnedActuals(fc.maxLearnedActuals(), fc.maxActualLagMillis(), replace) : null;
       if (replace) {
         this.bases = new ColumnBases(featurizer.dimension());
-        this.settledKept = new PendingForecasts(fc.maxPending(), fc.maxActualLagMillis());
+        this.keep = true;
         featurizer.setListener(listener());
       } else {
         this.bases = null;
-        this.settledKept = null;
+        this.keep = false;
       }
       long[] bounds = new long[fc.horizonBucketsMillis().size()];
       for (int i = 0; i < bounds.length; i++) {
@@ -274,7 +273,7 @@ public final class PipelineStep {
       this.learned = null;
       this.corrections = Correction.REJECT;
       this.bases = null;
-      this.settledKept = null;
+      this.keep = false;
     }
   }
 
@@ -801,12 +800,9 @@ public final class PipelineStep {
       horizonMetrics.add(entity, s.horizonMillis(), s.error(), s.covered());
       sink.settled(s, record);
     }
-    if (settledKept != null) {
-      // kept until their target time is max_actual_lag behind the clock, to be settled again by a correction
-      for (int i = 0; i < n; i++) {
-        settledKept.add(entityKey, entityKeyLength, target, pending.takenIssueMillis(i), pending.takenForecast(i),
-            pending.takenLow(i), pending.takenHigh(i), pending.takenPartition(i), pending.takenOffset(i), clock.nowMillis());
-      }
+    if (keep) {
+      // kept where they are until their target time is max_actual_lag behind the clock, to be settled again by a correction
+      pending.keepTaken(n, clock.nowMillis());
     }
   }
 
@@ -816,30 +812,17 @@ public final class PipelineStep {
    * for a later correction.
    */
   private void resettle(long target, double actual, double replacedActual, long partition, long offset, Sink sink) {
-    int n = settledKept.take(entityKey, entityKeyLength, target, clock.nowMillis());
-    if (keptLongs.length < 3 * n) {
-      keptLongs = new long[3 * n];
-      keptDoubles = new double[3 * n];
-    }
+    int n = pending.takeKept(entityKey, entityKeyLength, target, clock.nowMillis());
     SettledForecast s = settledForecast;
     for (int i = 0; i < n; i++) {
-      // copied out: the entries taken are reused by the next add
-      keptLongs[3 * i] = settledKept.takenIssueMillis(i);
-      keptLongs[3 * i + 1] = settledKept.takenPartition(i);
-      keptLongs[3 * i + 2] = settledKept.takenOffset(i);
-      keptDoubles[3 * i] = settledKept.takenForecast(i);
-      keptDoubles[3 * i + 1] = settledKept.takenLow(i);
-      keptDoubles[3 * i + 2] = settledKept.takenHigh(i);
-    }
-    for (int i = 0; i < n; i++) {
-      s.issueTimeMillis = keptLongs[3 * i];
+      s.issueTimeMillis = pending.takenIssueMillis(i);
       s.targetTimeMillis = target;
-      s.forecast = keptDoubles[3 * i];
-      s.low = keptDoubles[3 * i + 1];
-      s.high = keptDoubles[3 * i + 2];
+      s.forecast = pending.takenForecast(i);
+      s.low = pending.takenLow(i);
+      s.high = pending.takenHigh(i);
       s.actual = actual;
-      s.requestPartition = keptLongs[3 * i + 1];
-      s.requestOffset = keptLongs[3 * i + 2];
+      s.requestPartition = pending.takenPartition(i);
+      s.requestOffset = pending.takenOffset(i);
       s.actualPartition = partition;
       s.actualOffset = offset;
       s.correction = true;
@@ -847,9 +830,8 @@ public final class PipelineStep {
       sink.settled(s, record);
       resettledForecasts++;
     }
-    for (int i = 0; i < n; i++) {
-      settledKept.add(entityKey, entityKeyLength, target, keptLongs[3 * i], keptDoubles[3 * i], keptDoubles[3 * i + 1],
-          keptDoubles[3 * i + 2], keptLongs[3 * i + 1], keptLongs[3 * i + 2], clock.nowMillis());
+    if (n > 0) {
+      pending.keepTaken(n, clock.nowMillis());
     }
   }
 
@@ -1229,7 +1211,7 @@ public final class PipelineStep {
           out.writeLong(generation);
           out.writeLong(replacedActuals);
           out.writeLong(resettledForecasts);
-          settledKept.writeTo(out);
+          pending.writeKeptTo(out);
         }
         horizonMetrics.writeTo(out);
       }
@@ -1400,8 +1382,8 @@ public final class PipelineStep {
     if (learned != null) {
       learned.clear();
     }
-    if (settledKept != null) {
-      settledKept.clear();
+    if (keep) {
+      pending.clearKept();
     }
     if (bases != null) {
       // before version 5 the columns had no ids: number them afresh from today's layout
@@ -1432,7 +1414,7 @@ public final class PipelineStep {
       generation = in.readLong();
       replacedActuals = in.readLong();
       resettledForecasts = in.readLong();
-      settledKept.readFrom(in);
+      pending.readKeptFrom(in);
     }
   }
 
