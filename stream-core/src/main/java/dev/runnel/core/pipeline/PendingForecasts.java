@@ -400,9 +400,10 @@ final class PendingForecasts {
    */
   void keepTaken(int n, long nowMillis) {
     takenToFree = 0;
-    keptExpireFront(nowMillis);
     for (int i = 0; i < n; i++) {
       int e = taken[i];
+      // before each one, as a store of its own does in add: after a drop by count the new first may be expired
+      keptExpireFront(nowMillis);
       if (keptExpired(keys.target(e), nowMillis)) {
         keptDroppedExpired++;
         free[freeTop++] = e;

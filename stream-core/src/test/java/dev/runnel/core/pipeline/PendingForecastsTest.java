@@ -171,6 +171,149 @@ class PendingForecastsTest {
     assertTrue(allocated < 4_096, "bytes allocated by 20000 warm adds and takes: " + allocated);
   }
 
+  /** The bytes a writer produces. */
+  private interface Writer {
+    void write(DataOutputStream out) throws IOException;
+  }
+
+  private static String bytes(Writer w) throws IOException {
+    ByteArrayOutputStream b = new ByteArrayOutputStream();
+    w.write(new DataOutputStream(b));
+    return java.util.Arrays.toString(b.toByteArray());
+  }
+
+  /**
+   * The kept section (settled forecasts kept in the same pool for corrections: replace, moved by
+   * id) against what the step did before: a second store, each settled forecast copied into it
+   * with {@code add} and a correction's taken ones added back. A seeded mix of forecasts, settles
+   * and corrections over few keys, with bounds small enough that both sections drop by count and
+   * by age and the pool grows, gives the same forecasts taken in the same order and, every 500
+   * steps, the same checkpoint bytes for both sections; a restore in the middle continues the same.
+   */
+  @Test
+  void keptSectionHoldsWhatASecondStoreHeld() throws IOException {
+    int max = 60;
+    long delay = 40;
+    long lag = 10;
+    int keptMax = 40;
+    PendingForecasts store = new PendingForecasts(max, delay, keptMax, lag);
+    PendingForecasts refPending = new PendingForecasts(max, delay);
+    PendingForecasts refKept = new PendingForecasts(keptMax, lag);
+    Random random = new Random(20261205);
+    char[][] keys = new char[3][];
+    for (int i = 0; i < keys.length; i++) {
+      keys[i] = ("hub-" + i + (i % 3 == 0 ? "-a-longer-name" : "")).toCharArray();
+    }
+    long now = 0;
+    int settledSeen = 0;
+    int correctedSeen = 0;
+    for (int step = 0; step < 20_000; step++) {
+      now += random.nextInt(10) == 0 ? 1 : 0;
+      char[] k = keys[random.nextInt(keys.length)];
+      long target = now - 2 + random.nextInt(5);
+      int op = random.nextInt(10);
+      if (op < 6) {
+        boolean a = store.add(k, k.length, target, now, step, step - 1, step + 1, 1, step, now);
+        boolean b = refPending.add(k, k.length, target, now, step, step - 1, step + 1, 1, step, now);
+        assertEquals(b, a, "remembered at step " + step);
+      } else if (op < 9) {
+        int n = store.take(k, k.length, target, now);
+        int m = refPending.take(k, k.length, target, now);
+        assertEquals(m, n, "taken at step " + step);
+        for (int i = 0; i < n; i++) {
+          assertEquals(refPending.takenForecast(i), store.takenForecast(i), "settled at step " + step);
+          assertEquals(refPending.takenOffset(i), store.takenOffset(i), "settled at step " + step);
+          refKept.add(k, k.length, target, refPending.takenIssueMillis(i), refPending.takenForecast(i), refPending.takenLow(i),
+              refPending.takenHigh(i), refPending.takenPartition(i), refPending.takenOffset(i), now);
+        }
+        if (n > 0) {
+          store.keepTaken(n, now);
+          settledSeen += n;
+        }
+      } else {
+        int n = store.takeKept(k, k.length, target, now);
+        int m = refKept.take(k, k.length, target, now);
+        assertEquals(m, n, "taken again at step " + step);
+        long[] l = new long[3 * m];
+        double[] d = new double[3 * m];
+        for (int i = 0; i < n; i++) {
+          assertEquals(refKept.takenIssueMillis(i), store.takenIssueMillis(i), "settled again at step " + step);
+          assertEquals(refKept.takenForecast(i), store.takenForecast(i), "settled again at step " + step);
+          assertEquals(refKept.takenHigh(i), store.takenHigh(i), "settled again at step " + step);
+          l[3 * i] = refKept.takenIssueMillis(i);
+          l[3 * i + 1] = refKept.takenPartition(i);
+          l[3 * i + 2] = refKept.takenOffset(i);
+          d[3 * i] = refKept.takenForecast(i);
+          d[3 * i + 1] = refKept.takenLow(i);
+          d[3 * i + 2] = refKept.takenHigh(i);
+        }
+        for (int i = 0; i < m; i++) {
+          refKept.add(k, k.length, target, l[3 * i], d[3 * i], d[3 * i + 1], d[3 * i + 2], l[3 * i + 1], l[3 * i + 2], now);
+        }
+        if (n > 0) {
+          store.keepTaken(n, now);
+          correctedSeen += n;
+        }
+      }
+      if (step % 500 == 499) {
+        PendingForecasts s = store;
+        assertEquals(bytes(refPending::writeTo), bytes(s::writeTo), "pending section's checkpoint at step " + step);
+        assertEquals(bytes(refKept::writeTo), bytes(s::writeKeptTo), "kept section's checkpoint at step " + step);
+      }
+      if (step == 10_000) {
+        ByteArrayOutputStream b = new ByteArrayOutputStream();
+        DataOutputStream out = new DataOutputStream(b);
+        store.writeTo(out);
+        store.writeKeptTo(out);
+        store = new PendingForecasts(max, delay, keptMax, lag);
+        DataInputStream in = new DataInputStream(new ByteArrayInputStream(b.toByteArray()));
+        store.readFrom(in);
+        store.readKeptFrom(in);
+      }
+    }
+    assertTrue(refKept.droppedFull() > 0 && refKept.droppedExpired() > 0,
+        "pending " + refPending.remembered() + " " + refPending.droppedFull() + " " + refPending.droppedExpired() + " settled " + settledSeen + " again " + correctedSeen + " kept " + refKept.remembered() + "; the kept section dropped by count (" + refKept.droppedFull() + ") and by age (" + refKept.droppedExpired() + ")");
+    assertTrue(settledSeen > 1_000 && correctedSeen > 100, "settled " + settledSeen + ", settled again " + correctedSeen);
+  }
+
+  @Test
+  void warmKeepingAndTakingBackAllocateNothing() {
+    com.sun.management.ThreadMXBean bean = (com.sun.management.ThreadMXBean) ManagementFactory.getThreadMXBean();
+    PendingForecasts store = new PendingForecasts(5_000, 100, 5_000, 300);
+    char[][] keys = new char[500][];
+    for (int i = 0; i < keys.length; i++) {
+      keys[i] = ("hub-" + i).toCharArray();
+    }
+    long[] before = {bean.getCurrentThreadAllocatedBytes()};
+    for (int round = 0; round < 3; round++) {
+      if (round == 2) {
+        before[0] = bean.getCurrentThreadAllocatedBytes();
+      }
+      for (int i = round * 20_000; i < (round + 1) * 20_000; i++) {
+        char[] k = keys[i % keys.length];
+        long target = i / 10;
+        store.add(k, k.length, target, target - 5, i, i - 1, i + 1, 0, i, target - 5);
+        if (i >= 50) {
+          char[] old = keys[(i - 50) % keys.length];
+          int n = store.take(old, old.length, (i - 50) / 10, target - 5);
+          if (n > 0) {
+            store.keepTaken(n, target - 5);
+          }
+        }
+        if (i >= 900) {
+          char[] old = keys[(i - 900) % keys.length];
+          int n = store.takeKept(old, old.length, (i - 900) / 10, target - 5);
+          if (n > 0) {
+            store.keepTaken(n, target - 5);
+          }
+        }
+      }
+    }
+    long allocated = bean.getCurrentThreadAllocatedBytes() - before[0];
+    assertTrue(store.keptSize() > 1_000, "forecasts kept: " + store.keptSize());
+    assertTrue(allocated < 4_096, "bytes allocated by 20000 warm adds, takes, keeps and takes back: " + allocated);
+  }
+
   /**
    * Many forecasts for one key take one table slot, not one each: with a slot per forecast, k
    * forecasts of a key make a probe run of k slots that every add, take and drop walked and
