@@ -2,6 +2,9 @@
 # Kept settled forecasts (docs/performance.md, "Forecast path", last subsection): paired A/B on the
 # invented non-repeating year (DemoDataMain), demo configuration with input.forecast
 # (corrections: replace), each step made anew when the feed wraps, with the A/A for the spread.
+# The cut (settled forecasts kept in PendingForecasts' pool, moved by id) was taken back: it is
+# commit 9cecb53 (measured) and 27a9c97 (with the expiry fix the new test found); the build before is
+# 0bcedba. The ceiling variant is 0bcedba with settle's keeping loop switched off (not committed).
 # BEFORE: a compiled checkout of the build before; CUT: a compiled tree of the variant measured
 # (the ceiling variant skips keeping the settled forecasts altogether, which breaks corrections:
 # it bounds what any cut of the keeping can gain). From the root, after

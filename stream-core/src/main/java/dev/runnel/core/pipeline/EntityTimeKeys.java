@@ -62,19 +62,10 @@ final class EntityTimeKeys {
 
   /** A table sized for the capacity, every slot empty; cold. */
   void emptyTable() {
-    table = newTable();
-    mask = table.length - 1;
-  }
-
-  /**
-   * A second table over the same entries, sized for the capacity, every slot empty (for a store
-   * that keeps two sets of entries in one pool, each with its own table); cold. The methods that
-   * take a table {@code t} work on it as the others work on this class's own.
-   */
-  int[] newTable() {
-    int[] t = new int[Integer.highestOneBit(capacity) << 2];
-    Arrays.fill(t, NONE);
-    return t;
+    int t = Integer.highestOneBit(capacity) << 2;
+    table = new int[t];
+    Arrays.fill(table, NONE);
+    mask = t - 1;
   }
 
   /** Grows to {@code cap} entries, each keeping its id and key, with an empty table (the store inserts its entries again); cold. */
@@ -162,19 +153,6 @@ final class EntityTimeKeys {
     return i;
   }
 
-  /** As {@link #slotOf(long, char[], int, long)}, in table {@code t}. @param k not modified */
-  int slotOf(int[] t, long h, char[] k, int n, long targetMillis) {
-    int m = t.length - 1;
-    int i = (int) h & m;
-    for (int e = t[i]; e != NONE; e = t[i]) {
-      if (matches(e, h, k, n, targetMillis)) {
-        return i;
-      }
-      i = (i + 1) & m;
-    }
-    return i;
-  }
-
   /** The entry in table slot {@code i}, or {@link #NONE}. */
   int entryAt(int i) { return table[i]; }
 
@@ -183,79 +161,37 @@ final class EntityTimeKeys {
 
   /** Puts entry {@code e} in the first empty slot of its probe run. */
   void insert(int e) {
-    insert(table, e);
-  }
-
-  /** Puts entry {@code e} in the first empty slot of its probe run in table {@code t}. */
-  void insert(int[] t, int e) {
-    int m = t.length - 1;
-    int i = (int) hash(e) & m;
-    while (t[i] != NONE) {
-      i = (i + 1) & m;
+    int i = (int) hash(e) & mask;
+    while (table[i] != NONE) {
+      i = (i + 1) & mask;
     }
-    t[i] = e;
+    table[i] = e;
   }
 
   /** The table slot holding entry {@code e} (it must be in the table). */
   int slotOfEntry(int e) {
-    return slotOfEntry(table, e);
-  }
-
-  /** The slot of table {@code t} holding entry {@code e} (it must be in the table). */
-  int slotOfEntry(int[] t, int e) {
-    int m = t.length - 1;
-    int i = (int) hash(e) & m;
-    while (t[i] != e) {
-      i = (i + 1) & m;
-    }
-    return i;
-  }
-
-  /**
-   * The slot of table {@code t} whose entry holds the same key as entry {@code e} (which need not
-   * be in it), or the empty slot that ends its probe run: no hashing, the hash is entry e's.
-   */
-  int slotOfSameKey(int[] t, int e) {
-    int m = t.length - 1;
-    long[] w = words;
-    int b = 3 * e;
-    long h = w[b];
-    long target = w[b + 1];
-    long n = w[b + 2];
-    int o = e * width;
-    int i = (int) h & m;
-    for (int f = t[i]; f != NONE; f = t[i]) {
-      int c = 3 * f;
-      if (w[c] == h && w[c + 1] == target && w[c + 2] == n
-          && Arrays.equals(chars, f * width, f * width + (int) n, chars, o, o + (int) n)) {
-        return i;
-      }
-      i = (i + 1) & m;
+    int i = (int) hash(e) & mask;
+    while (table[i] != e) {
+      i = (i + 1) & mask;
     }
     return i;
   }
 
   /** Empties table slot {@code i} and shifts the rest of its probe run back. */
   void removeSlot(int i) {
-    removeSlot(table, i);
-  }
-
-  /** Empties slot {@code i} of table {@code t} and shifts the rest of its probe run back. */
-  void removeSlot(int[] t, int i) {
-    int m = t.length - 1;
-    t[i] = NONE;
+    table[i] = NONE;
     int j = i;
     while (true) {
-      j = (j + 1) & m;
-      int f = t[j];
+      j = (j + 1) & mask;
+      int f = table[j];
       if (f == NONE) {
         return;
       }
-      int home = (int) hash(f) & m;
+      int home = (int) hash(f) & mask;
       boolean stays = i <= j ? (i < home && home <= j) : (i < home || home <= j);
       if (!stays) {
-        t[i] = f;
-        t[j] = NONE;
+        table[i] = f;
+        table[j] = NONE;
         i = j;
       }
     }

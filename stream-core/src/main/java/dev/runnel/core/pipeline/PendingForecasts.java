@@ -75,45 +75,13 @@ final class PendingForecasts {
   private long droppedFull;
   private long droppedExpired;
 
-  /*
-   * The kept section (corrections: replace): forecasts settled already, kept in the same pool
-   * until their target time is the lag bound behind the clock, to be settled again by a
-   * correction. A settled forecast moves here by its id (its fields stay where they are), into a
-   * list in the order kept and a table of its own over the same keys. Bounded by count (keptMax:
-   * the one kept first is dropped) and by age (keptLagMillis). Its counters and checkpoint are
-   * those a store of its own would have (writeKeptTo, readKeptFrom).
-   */
-  private final int keptMax;
-  private final long keptLagMillis;
-  private int[] keptTable;
-  private int keptFirst = NONE;
-  private int keptLast = NONE;
-  private int keptSize;
-  private long keptNextSeq;
-  private long keptRemembered;
-  private long keptSettled;
-  private long keptDroppedFull;
-  private long keptDroppedExpired;
-
   /**
    * @param maxPending the count bound, at least 1
    * @param maxDelayMillis the age bound: how long past its target time a forecast waits, at least 1 ms
    */
   PendingForecasts(int maxPending, long maxDelayMillis) {
-    this(maxPending, maxDelayMillis, 0, 1);
-  }
-
-  /**
-   * @param maxPending the count bound, at least 1
-   * @param maxDelayMillis the age bound: how long past its target time a forecast waits, at least 1 ms
-   * @param keptMax the kept section's count bound; 0 for none
-   * @param keptLagMillis the kept section's age bound, at least 1 ms
-   */
-  PendingForecasts(int maxPending, long maxDelayMillis, int keptMax, long keptLagMillis) {
     this.maxPending = maxPending;
     this.maxDelayMillis = maxDelayMillis;
-    this.keptMax = keptMax;
-    this.keptLagMillis = keptLagMillis;
     allocate(Math.min(maxPending, 64));
   }
 
@@ -136,12 +104,11 @@ final class PendingForecasts {
       free[i] = cap - 1 - i;
     }
     freeTop = cap;
-    keptTable = keys.newTable();
   }
 
   /** Doubles the pool (not beyond the count bound) and the table; cold. */
   private void grow() {
-    int cap = (int) Math.min((long) capacity * 2, (long) maxPending + keptMax);
+    int cap = (int) Math.min((long) capacity * 2, maxPending);
     int old = capacity;
     keys.resize(cap);
     issue = Arrays.copyOf(issue, cap);
@@ -166,12 +133,6 @@ final class PendingForecasts {
     for (int e = first; e != NONE; e = next[e]) {
       if (keyLast[e] != NONE) {
         keys.insert(e);
-      }
-    }
-    keptTable = keys.newTable();
-    for (int e = keptFirst; e != NONE; e = next[e]) {
-      if (keyLast[e] != NONE) {
-        keys.insert(keptTable, e);
       }
     }
   }
@@ -322,219 +283,6 @@ final class PendingForecasts {
     size--;
   }
 
-  // ---- the kept section ----
-
-  private boolean keptExpired(long targetMillis, long nowMillis) {
-    return nowMillis != Long.MIN_VALUE && nowMillis - targetMillis > keptLagMillis;
-  }
-
-  /** Drops the kept forecasts kept first whose target time is more than the lag bound behind {@code nowMillis}. */
-  private void keptExpireFront(long nowMillis) {
-    while (keptFirst != NONE && keptExpired(keys.target(keptFirst), nowMillis)) {
-      keptDropFirst();
-      keptDroppedExpired++;
-    }
-  }
-
-  private void keptDropFirst() {
-    int e = keptFirst;
-    unlinkKept(e);
-    int i = keys.slotOfEntry(keptTable, e);
-    int f = keyNext[e];
-    if (f != NONE) {
-      keptTable[i] = f;
-      keyLast[f] = keyLast[e];
-    } else {
-      keys.removeSlot(keptTable, i);
-    }
-    keyLast[e] = NONE;
-    free[freeTop++] = e;
-  }
-
-  private void unlinkKept(int e) {
-    int p = prev[e];
-    int q = next[e];
-    if (p != NONE) {
-      next[p] = q;
-    } else {
-      keptFirst = q;
-    }
-    if (q != NONE) {
-      prev[q] = p;
-    } else {
-      keptLast = p;
-    }
-    keptSize--;
-  }
-
-  /** Appends entry {@code e} (in no list) to the kept section, as a store of its own would add it. */
-  private void linkKept(int e) {
-    seq[e] = keptNextSeq++;
-    prev[e] = keptLast;
-    next[e] = NONE;
-    if (keptLast != NONE) {
-      next[keptLast] = e;
-    } else {
-      keptFirst = e;
-    }
-    keptLast = e;
-    keptSize++;
-    keyNext[e] = NONE;
-    keyLast[e] = NONE;
-    int i = keys.slotOfSameKey(keptTable, e);
-    int f = keptTable[i];
-    if (f == NONE) {
-      keptTable[i] = e;
-      keyLast[e] = e;
-    } else {
-      keyNext[keyLast[f]] = e;
-      keyLast[f] = e;
-    }
-    keptRemembered++;
-  }
-
-  /**
-   * Moves the {@code n} forecasts the last {@link #take} or {@link #takeKept} returned into the
-   * kept section, in that order, without copying them: as a store of its own would add each (its
-   * age bound first, then its count bound).
-   */
-  void keepTaken(int n, long nowMillis) {
-    takenToFree = 0;
-    for (int i = 0; i < n; i++) {
-      int e = taken[i];
-      // before each one, as a store of its own does in add: after a drop by count the new first may be expired
-      keptExpireFront(nowMillis);
-      if (keptExpired(keys.target(e), nowMillis)) {
-        keptDroppedExpired++;
-        free[freeTop++] = e;
-        continue;
-      }
-      if (keptSize == keptMax) {
-        keptDropFirst();
-        keptDroppedFull++;
-      }
-      linkKept(e);
-    }
-  }
-
-  /**
-   * Takes out every kept forecast for (entity, target time), in the order kept; read them with the
-   * {@code taken*} methods. 0 when the target time is already the lag bound behind the clock
-   * (then they are dropped, counted).
-   *
-   * @param k the entity text. Not modified.
-   */
-  int takeKept(char[] k, int n, long targetMillis, long nowMillis) {
-    recycle();
-    keptExpireFront(nowMillis);
-    int slot = keys.slotOf(keptTable, EntityTimeKeys.hash(k, n, targetMillis), k, n, targetMillis);
-    int head = keptTable[slot];
-    int found = 0;
-    if (head != NONE) {
-      for (int e = head; e != NONE; e = keyNext[e]) {
-        if (found == taken.length) {
-          taken = Arrays.copyOf(taken, found * 2);
-        }
-        taken[found++] = e;
-        unlinkKept(e);
-      }
-      keyLast[head] = NONE;
-      keys.removeSlot(keptTable, slot);
-    }
-    takenToFree = found;
-    if (found > 0 && keptExpired(targetMillis, nowMillis)) {
-      keptDroppedExpired += found;
-      return 0;
-    }
-    keptSettled += found;
-    return found;
-  }
-
-  /** Forecasts in the kept section now. */
-  int keptSize() { return keptSize; }
-
-  /** Writes the kept section as {@link #writeTo} writes a store. @param out modified */
-  void writeKeptTo(DataOutput out) throws IOException {
-    out.writeLong(keptRemembered);
-    out.writeLong(keptSettled);
-    out.writeLong(keptDroppedFull);
-    out.writeLong(keptDroppedExpired);
-    out.writeLong(keptNextSeq);
-    out.writeInt(keptSize);
-    for (int e = keptFirst; e != NONE; e = next[e]) {
-      keys.writeKey(out, e);
-      out.writeLong(keys.target(e));
-      out.writeLong(issue[e]);
-      out.writeDouble(forecast[e]);
-      out.writeDouble(low[e]);
-      out.writeDouble(high[e]);
-      out.writeLong(partition[e]);
-      out.writeLong(offset[e]);
-      out.writeLong(seq[e]);
-    }
-  }
-
-  /** Empties the kept section, counters at zero; the pending forecasts stay. */
-  void clearKept() {
-    recycle();
-    while (keptFirst != NONE) {
-      int e = keptFirst;
-      unlinkKept(e);
-      keyLast[e] = NONE;
-      free[freeTop++] = e;
-    }
-    keptTable = keys.newTable();
-    keptNextSeq = 0;
-    keptRemembered = 0;
-    keptSettled = 0;
-    keptDroppedFull = 0;
-    keptDroppedExpired = 0;
-  }
-
-  /** Replaces the kept section with what {@link #writeKeptTo} wrote; the pending forecasts stay. */
-  void readKeptFrom(DataInput in) throws IOException {
-    clearKept();
-    long rem = in.readLong();
-    long set = in.readLong();
-    long full = in.readLong();
-    long exp = in.readLong();
-    long sq = in.readLong();
-    int n = in.readInt();
-    if (n < 0 || n > keptMax) {
-      throw new IOException(n + " settled forecasts kept in the checkpoint, more than input.forecast.max_pending (" + keptMax + ")");
-    }
-    for (int r = 0; r < n; r++) {
-      int len = keys.readKey(in, "a kept settled forecast's");
-      char[] k = keys.readBuffer();
-      long t = in.readLong();
-      long is = in.readLong();
-      double f = in.readDouble();
-      double lo = in.readDouble();
-      double hi = in.readDouble();
-      long p = in.readLong();
-      long o = in.readLong();
-      long s = in.readLong();
-      if (freeTop == 0) {
-        grow();
-      }
-      int e = free[--freeTop];
-      keys.set(e, EntityTimeKeys.hash(k, len, t), k, len, t);
-      issue[e] = is;
-      forecast[e] = f;
-      low[e] = lo;
-      high[e] = hi;
-      partition[e] = p;
-      offset[e] = o;
-      linkKept(e);
-      seq[e] = s;
-    }
-    keptRemembered = rem;
-    keptSettled = set;
-    keptDroppedFull = full;
-    keptDroppedExpired = exp;
-    keptNextSeq = sq;
-  }
-
   long takenIssueMillis(int i) { return issue[taken[i]]; }
 
   double takenForecast(int i) { return forecast[taken[i]]; }
@@ -595,14 +343,6 @@ final class PendingForecasts {
     last = NONE;
     size = 0;
     takenToFree = 0;
-    keptFirst = NONE;
-    keptLast = NONE;
-    keptSize = 0;
-    keptNextSeq = 0;
-    keptRemembered = 0;
-    keptSettled = 0;
-    keptDroppedFull = 0;
-    keptDroppedExpired = 0;
     remembered = 0;
     settled = 0;
     droppedFull = 0;

@@ -162,8 +162,7 @@ public final class PipelineStep {
   private final Correction corrections;
   /** {@code corrections: replace} only (else null): column ids and bases, settled forecasts kept for re-settling. */
   private final ColumnBases bases;
-  /** Whether settled forecasts are kept (in {@link #pending}'s kept section) for corrections: replace. */
-  private final boolean keep;
+  private final PendingForecasts settledKept;
   /** {@code corrections: replace}: the sum of log(lambda) over every update since the state began, and model restarts. */
   private double logDecay;
   private long generation;
@@ -172,6 +171,9 @@ public final class PipelineStep {
   /** Scratch: the replaced observation's row in today's layout. */
   private double[] oldRow = new double[8];
   private String correctionDetail = "";
+  /** Scratch: the forecasts taken for re-settling, copied out (issue, partition, offset; forecast, low, high). */
+  private long[] keptLongs = new long[24];
+  private double[] keptDoubles = new double[24];
   /** Set only inside {@link #processRequest}: the target time it names. */
   private boolean hasRequestTarget;
   private long requestTargetMillis;
@@ -239,9 +241,7 @@ public final class PipelineStep {
     this.configFingerprint = fingerprint(config);
     PipelineConfig.Forecast fc = in.forecast();
     if (fc.enabled()) {
-      boolean replace = fc.maxLearnedActuals() > 0 && fc.corrections() == Correction.REPLACE;
-      this.pending = new PendingForecasts(fc.maxPending(), fc.maxActualDelayMillis(), replace ? fc.maxPending() : 0,
-          fc.maxActualLagMillis());
+      this.pending = new PendingForecasts(fc.maxPending(), fc.maxActualDelayMillis());
       this.entitySlots = new int[fc.entityFields().size()];
       for (int i = 0; i < entitySlots.length; i++) {
         entitySlots[i] = in.schema().slot(fc.entityFields().get(i));
@@ -250,14 +250,15 @@ public final class PipelineStep {
       this.settledForecast.entitySlots = entitySlots;
       this.maxActualLagMillis = fc.maxActualLagMillis();
       this.corrections = fc.corrections();
+      boolean replace = fc.maxLearnedActuals() > 0 && fc.corrections() == Correction.REPLACE;
       this.learned = fc.maxLearnedActuals() > 0 ? new LearnedActuals(fc.maxLearnedActuals(), fc.maxActualLagMillis(), replace) : null;
       if (replace) {
         this.bases = new ColumnBases(featurizer.dimension());
-        this.keep = true;
+        this.settledKept = new PendingForecasts(fc.maxPending(), fc.maxActualLagMillis());
         featurizer.setListener(listener());
       } else {
         this.bases = null;
-        this.keep = false;
+        this.settledKept = null;
       }
       long[] bounds = new long[fc.horizonBucketsMillis().size()];
       for (int i = 0; i < bounds.length; i++) {
@@ -273,7 +274,7 @@ public final class PipelineStep {
       this.learned = null;
       this.corrections = Correction.REJECT;
       this.bases = null;
-      this.keep = false;
+      this.settledKept = null;
     }
   }
 
@@ -800,9 +801,12 @@ public final class PipelineStep {
       horizonMetrics.add(entity, s.horizonMillis(), s.error(), s.covered());
       sink.settled(s, record);
     }
-    if (keep) {
-      // kept where they are until their target time is max_actual_lag behind the clock, to be settled again by a correction
-      pending.keepTaken(n, clock.nowMillis());
+    if (settledKept != null) {
+      // kept until their target time is max_actual_lag behind the clock, to be settled again by a correction
+      for (int i = 0; i < n; i++) {
+        settledKept.add(entityKey, entityKeyLength, target, pending.takenIssueMillis(i), pending.takenForecast(i),
+            pending.takenLow(i), pending.takenHigh(i), pending.takenPartition(i), pending.takenOffset(i), clock.nowMillis());
+      }
     }
   }
 
@@ -812,17 +816,30 @@ public final class PipelineStep {
    * for a later correction.
    */
   private void resettle(long target, double actual, double replacedActual, long partition, long offset, Sink sink) {
-    int n = pending.takeKept(entityKey, entityKeyLength, target, clock.nowMillis());
+    int n = settledKept.take(entityKey, entityKeyLength, target, clock.nowMillis());
+    if (keptLongs.length < 3 * n) {
+      keptLongs = new long[3 * n];
+      keptDoubles = new double[3 * n];
+    }
     SettledForecast s = settledForecast;
     for (int i = 0; i < n; i++) {
-      s.issueTimeMillis = pending.takenIssueMillis(i);
+      // copied out: the entries taken are reused by the next add
+      keptLongs[3 * i] = settledKept.takenIssueMillis(i);
+      keptLongs[3 * i + 1] = settledKept.takenPartition(i);
+      keptLongs[3 * i + 2] = settledKept.takenOffset(i);
+      keptDoubles[3 * i] = settledKept.takenForecast(i);
+      keptDoubles[3 * i + 1] = settledKept.takenLow(i);
+      keptDoubles[3 * i + 2] = settledKept.takenHigh(i);
+    }
+    for (int i = 0; i < n; i++) {
+      s.issueTimeMillis = keptLongs[3 * i];
       s.targetTimeMillis = target;
-      s.forecast = pending.takenForecast(i);
-      s.low = pending.takenLow(i);
-      s.high = pending.takenHigh(i);
+      s.forecast = keptDoubles[3 * i];
+      s.low = keptDoubles[3 * i + 1];
+      s.high = keptDoubles[3 * i + 2];
       s.actual = actual;
-      s.requestPartition = pending.takenPartition(i);
-      s.requestOffset = pending.takenOffset(i);
+      s.requestPartition = keptLongs[3 * i + 1];
+      s.requestOffset = keptLongs[3 * i + 2];
       s.actualPartition = partition;
       s.actualOffset = offset;
       s.correction = true;
@@ -830,8 +847,9 @@ public final class PipelineStep {
       sink.settled(s, record);
       resettledForecasts++;
     }
-    if (n > 0) {
-      pending.keepTaken(n, clock.nowMillis());
+    for (int i = 0; i < n; i++) {
+      settledKept.add(entityKey, entityKeyLength, target, keptLongs[3 * i], keptDoubles[3 * i], keptDoubles[3 * i + 1],
+          keptDoubles[3 * i + 2], keptLongs[3 * i + 1], keptLongs[3 * i + 2], clock.nowMillis());
     }
   }
 
@@ -1211,7 +1229,7 @@ public final class PipelineStep {
           out.writeLong(generation);
           out.writeLong(replacedActuals);
           out.writeLong(resettledForecasts);
-          pending.writeKeptTo(out);
+          settledKept.writeTo(out);
         }
         horizonMetrics.writeTo(out);
       }
@@ -1382,8 +1400,8 @@ public final class PipelineStep {
     if (learned != null) {
       learned.clear();
     }
-    if (keep) {
-      pending.clearKept();
+    if (settledKept != null) {
+      settledKept.clear();
     }
     if (bases != null) {
       // before version 5 the columns had no ids: number them afresh from today's layout
@@ -1414,7 +1432,7 @@ public final class PipelineStep {
       generation = in.readLong();
       replacedActuals = in.readLong();
       resettledForecasts = in.readLong();
-      pending.readKeptFrom(in);
+      settledKept.readFrom(in);
     }
   }
 
