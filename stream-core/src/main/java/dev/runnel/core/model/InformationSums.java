@@ -20,9 +20,15 @@ import java.util.Arrays;
  * when a share is made. Nothing is allocated per update.
  *
  * <p>Columns are numbered as the {@link GlobalModel}'s pending table numbers them (the constant
- * term, when there is one, is column 0); a re-basing is the same map as
- * {@link RlsModel#columnRebased}: the entry of column {@code k} becomes
- * {@code (x_k - shift x_0) / scale}, so {@code A <- M^T A M}, {@code b <- M^T b}, {@code O(p)}.
+ * term, when there is one, is column 0). A re-basing is the map of {@link RlsModel#columnRebased}
+ * (the entry of column {@code k} becomes {@code (x_k - shift x_0) / scale}); the featurizer
+ * re-bases every numeric column on nearly every record, so the sums are not moved at each one:
+ * they stay in each column's basis of when it entered the sums (the last share, or its
+ * addition), each column keeps the composed map to its current basis, {@code O(1)} per
+ * re-basing, a row is brought back to the sums' bases ({@code x_k = S_k x'_k + H_k x'_0}, one
+ * multiply-add per moved column), and the sums are moved to the current bases
+ * ({@code A <- M^T A M}, {@code b <- M^T b}, {@code O(p)} per moved column) only when they are
+ * factored.
  */
 final class InformationSums {
 
@@ -44,12 +50,24 @@ final class InformationSums {
   private double nEff;
   /** Non-zero positions of the row being added. */
   private int[] nz;
+  /** The row being added, in the sums' bases. */
+  private double[] row;
+  /** Per column, the composed map to its current basis: {@code x_k = mapScale_k x'_k + mapShift_k x'_0}. */
+  private double[] mapScale;
+  private double[] mapShift;
+  /** Per column, whether its map is not the identity. */
+  private boolean[] moved;
 
   InformationSums(int dimension) {
     int cap = Math.max(8, dimension);
     a = new double[cap][cap];
     b = new double[cap];
     nz = new int[cap];
+    row = new double[cap];
+    mapScale = new double[cap];
+    Arrays.fill(mapScale, 1.0);
+    mapShift = new double[cap];
+    moved = new boolean[cap];
     p = dimension;
   }
 
@@ -68,7 +86,15 @@ final class InformationSums {
       a = na;
       b = Arrays.copyOf(b, cap);
       nz = new int[cap];
+      row = new double[cap];
+      mapScale = Arrays.copyOf(mapScale, cap);
+      Arrays.fill(mapScale, p, cap, 1.0);
+      mapShift = Arrays.copyOf(mapShift, cap);
+      moved = Arrays.copyOf(moved, cap);
     }
+    mapScale[p] = 1.0;
+    mapShift[p] = 0.0;
+    moved[p] = false;
     for (int i = 0; i <= p; i++) {
       a[i][p] = 0.0;
     }
@@ -76,8 +102,30 @@ final class InformationSums {
     p++;
   }
 
-  /** As {@link RlsModel#columnRebased}: {@code x'_k = (x_k - shift x_0) / sc}. */
+  /**
+   * As {@link RlsModel#columnRebased}: {@code x''_k = (x'_k - shift x'_0) / sc}, composed into the
+   * column's map: {@code x_k = S (sc x''_k + shift x''_0) + H x''_0}. {@code O(1)}.
+   */
   void columnRebased(int k, double sc, double shift) {
+    mapShift[k] += mapScale[k] * shift;
+    mapScale[k] *= sc;
+    moved[k] = true;
+  }
+
+  /** Moves the sums to the current bases (every column's map applied), and the maps to identity. */
+  private void applyMaps() {
+    for (int k = 0; k < p; k++) {
+      if (moved[k]) {
+        rebaseSums(k, mapScale[k], mapShift[k]);
+        mapScale[k] = 1.0;
+        mapShift[k] = 0.0;
+        moved[k] = false;
+      }
+    }
+  }
+
+  /** The sums under {@code x'_k = (x_k - shift x_0) / sc}: {@code A <- M^T A M}, {@code b <- M^T b}. */
+  private void rebaseSums(int k, double sc, double shift) {
     // the map is linear, so the stored sums re-base as the true ones do
     if (shift != 0.0) {
       final double a00 = a[0][0];
@@ -121,19 +169,23 @@ final class InformationSums {
     final double f = scale == 1.0 ? 1.0 : 1.0 / scale;
     final int n = p;
     final int[] idx = nz;
+    final double[] w = row;
+    final double x0 = n > 0 ? x[0] : 0.0;
     int m = 0;
     for (int j = 0; j < n; j++) {
-      if (x[j] != 0.0) {
+      final double v = moved[j] ? mapScale[j] * x[j] + mapShift[j] * x0 : x[j];
+      if (v != 0.0) {
+        w[j] = v;
         idx[m++] = j;
       }
     }
     for (int s = 0; s < m; s++) {
       final int i = idx[s];
-      final double xi = x[i] * f;
-      final double[] row = a[i];
+      final double xi = w[i] * f;
+      final double[] ai = a[i];
       for (int t = s; t < m; t++) {
         final int j = idx[t];
-        row[j] += xi * x[j];
+        ai[j] += xi * w[j];
       }
       b[i] += xi * y;
     }
@@ -171,6 +223,7 @@ final class InformationSums {
    * @return the rows' minimum weighted residual sum of squares, {@code c - u^T u}, at least 0
    */
   double sqrtInformation(double[][] rowsOut, double[] targetsOut) {
+    applyMaps();
     final int n = p;
     final double sc = scale;
     double uu = 0.0;
@@ -215,6 +268,8 @@ final class InformationSums {
         out.writeDouble(a[i][j]);
       }
       out.writeDouble(b[i]);
+      out.writeDouble(mapScale[i]);
+      out.writeDouble(mapShift[i]);
     }
   }
 
@@ -232,6 +287,9 @@ final class InformationSums {
         s.a[i][j] = finite(in.readDouble(), "information entry", j != i ? null : false);
       }
       s.b[i] = finite(in.readDouble(), "information vector entry", null);
+      s.mapScale[i] = finite(in.readDouble(), "basis scale", true);
+      s.mapShift[i] = finite(in.readDouble(), "basis shift", null);
+      s.moved[i] = s.mapScale[i] != 1.0 || s.mapShift[i] != 0.0;
     }
     return s;
   }
