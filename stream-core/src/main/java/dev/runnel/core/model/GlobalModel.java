@@ -23,9 +23,11 @@ import java.util.TreeMap;
  *   <li>the <b>view</b>, an {@link RlsModel} with the prior (counted once, here) over the union
  *       of the columns this partition has and every column a folded share named: its own rows go
  *       in by {@link #update}, other partitions' shares by {@link #fold};</li>
- *   <li>the <b>pending share</b>, an {@link RlsModel} without prior or windup guard that learns
- *       the same own rows with the same forgetting factors, so that it holds exactly the rows'
- *       information since the last {@link #share}; a share hands it out and starts it again.</li>
+ *   <li>the <b>pending share</b>, {@link InformationSums}: the weighted sums {@code X^T W X},
+ *       {@code X^T W y}, {@code y^T W y} of the same own rows with the same forgetting factors,
+ *       so that it holds exactly the rows' information since the last {@link #share}; a share
+ *       factors it (Cholesky), hands it out and starts it again. (Checkpoints of version 1 kept
+ *       it as an {@link RlsModel} without prior; they are read and turned into sums.)</li>
  * </ul>
  *
  * <p>Columns are matched by name. A column only another partition holds is <b>kept</b> in the
@@ -58,14 +60,17 @@ public final class GlobalModel implements LayoutListener {
   }
 
   /** Format version written by {@link #writeTo}. */
-  public static final int FORMAT_VERSION = 1;
+  public static final int FORMAT_VERSION = 2;
   private static final int MAGIC = 0x524e4731; // "RNG1"
   /** A share stated more than this many half-lives after the receiver's clock is refused. */
   static final double MAX_HALVINGS_AHEAD = 64.0;
 
   /** The columns of one of the two models: names, bases, and which local column each is. */
   private static final class Table {
+    /** The view's model; null in the pending share. */
     RlsModel model;
+    /** The pending share's sums; null in the view. */
+    InformationSums sums;
     final List<String> names = new ArrayList<>();
     final Map<String, Integer> index = new HashMap<>(); // lookups only; never iterated
     double[] offset = new double[8];
@@ -115,15 +120,27 @@ public final class GlobalModel implements LayoutListener {
           throw new IllegalStateException("column " + name + " was added to the layout twice");
         }
         if (offset[k] != 0.0 || scale[k] != 1.0) { // back to the basis a new column starts in
-          model.columnRebased(k, 1.0 / scale[k], -offset[k] / scale[k]);
+          rebase(k, 1.0 / scale[k], -offset[k] / scale[k]);
           offset[k] = 0.0;
           scale[k] = 1.0;
         }
       } else {
         k = register(name, isFixed, 0.0, 1.0);
-        model.columnAdded(k, name, isFixed);
+        if (model != null) {
+          model.columnAdded(k, name, isFixed);
+        } else {
+          sums.columnAdded();
+        }
       }
       bindLocal(localIndex, k);
+    }
+
+    private void rebase(int k, double sc, double shift) {
+      if (model != null) {
+        model.columnRebased(k, sc, shift);
+      } else {
+        sums.columnRebased(k, sc, shift);
+      }
     }
 
     void localRemoved(int localIndex, int localCount) {
@@ -137,7 +154,7 @@ public final class GlobalModel implements LayoutListener {
 
     void localRebased(int localIndex, double sc, double shift) {
       int k = fromLocal[localIndex];
-      model.columnRebased(k, sc, shift);
+      rebase(k, sc, shift);
       offset[k] += shift * scale[k];
       scale[k] *= sc;
     }
@@ -151,10 +168,18 @@ public final class GlobalModel implements LayoutListener {
         out.writeBoolean(fixed[k]);
         out.writeInt(local[k]);
       }
-      model.writeTo(out);
+      if (model != null) {
+        model.writeTo(out);
+      } else {
+        sums.writeTo(out);
+      }
     }
 
-    static Table readFrom(DataInput in, int localCount, String what) throws IOException {
+    /**
+     * @param pendingVersion 0 for the view; else the checkpoint's version for the pending share
+     *     (1: an {@link RlsModel}, read and turned into sums; 2: {@link InformationSums})
+     */
+    static Table readFrom(DataInput in, int localCount, String what, int pendingVersion) throws IOException {
       Table t = new Table();
       int n = in.readInt();
       if (n < 0 || n > ModelShare.MAX_COLUMNS) {
@@ -184,10 +209,23 @@ public final class GlobalModel implements LayoutListener {
           throw new IOException("corrupt global model checkpoint: " + what + " has no column for local column " + j);
         }
       }
-      t.model = RlsModel.readFrom(in);
-      if (t.model.dimension() != n) {
+      int dim;
+      if (pendingVersion == 0) {
+        t.model = RlsModel.readFrom(in);
+        dim = t.model.dimension();
+      } else if (pendingVersion == 1) {
+        RlsModel old = RlsModel.readFrom(in);
+        dim = old.dimension();
+        if (dim == n) {
+          t.sums = InformationSums.fromModel(old);
+        }
+      } else {
+        t.sums = InformationSums.readFrom(in);
+        dim = t.sums.dimension();
+      }
+      if (dim != n) {
         throw new IOException("corrupt global model checkpoint: " + what + " lists " + n + " columns, its model has "
-            + t.model.dimension());
+            + dim);
       }
       return t;
     }
@@ -250,23 +288,14 @@ public final class GlobalModel implements LayoutListener {
     this.view = view;
   }
 
-  /** The settings of the pending share: no prior, no guard, the view's constant term. */
-  private ModelSettings pendingSettings() {
-    return settings.withPriorVariance(ModelSettings.DIFFUSE).withWindupGuard(false);
-  }
-
   /** A pending share with no information over the local columns, in their current bases. */
   private Table freshPending() {
     Table t = new Table();
-    int min = settings.constantTerm() ? 1 : 0;
-    t.model = new RlsModel(min, pendingSettings());
+    t.sums = new InformationSums(local);
     for (int j = 0; j < local; j++) {
       int v = view.fromLocal[j];
       t.register(view.names.get(v), view.fixed[v], view.offset[v], view.scale[v]);
       t.bindLocal(j, j);
-      if (j >= min) {
-        t.model.columnAdded(j, view.names.get(v), view.fixed[v]);
-      }
     }
     return t;
   }
@@ -297,8 +326,8 @@ public final class GlobalModel implements LayoutListener {
 
   /**
    * Learns one own record: the view and the pending share both forget by {@code lambda} and
-   * add the row. The pending share cannot refuse a row the view accepts: its information is a
-   * part of the view's, so its factor's column norms are at most the view's.
+   * add the row. The pending share takes every row the view accepts (finite, within
+   * {@link RlsModel#MAX_ABS_INPUT}); it adds {@code x x^T} over the row's non-zero entries.
    *
    * @param x the feature vector in the local layout. Not modified.
    * @param y the target
@@ -311,9 +340,7 @@ public final class GlobalModel implements LayoutListener {
     if (!view.model.update(viewRow, y, lambda, aPrioriOut)) {
       return false;
     }
-    if (!pending.model.update(pendingRow, y, lambda)) {
-      throw new IllegalStateException("the pending share refused a row its view accepted");
-    }
+    pending.sums.update(pendingRow, y, lambda); // the view accepted the row: it is finite and in range
     return true;
   }
 
@@ -356,19 +383,18 @@ public final class GlobalModel implements LayoutListener {
    * @return the share, numbered one after the previous one
    */
   public ModelShare share(long eventTimeMillis) {
-    RlsModel m = pending.model;
+    InformationSums m = pending.sums;
     int n = m.dimension();
     double[][] rows = new double[n][n];
     double[] targets = new double[n];
-    int[] cols = new int[n];
-    m.sqrtInformation(rows, targets, cols);
+    double rss = m.sqrtInformation(rows, targets);
     String[] names = new String[n];
     double[] offsets = new double[n];
     double[] scales = new double[n];
     boolean[] fixed = new boolean[n];
     int constant = -1;
     for (int q = 0; q < n; q++) {
-      int k = cols[q];
+      int k = q;
       names[q] = pending.names.get(k);
       offsets[q] = pending.offset[k];
       scales[q] = pending.scale[k];
@@ -378,7 +404,7 @@ public final class GlobalModel implements LayoutListener {
       }
     }
     ModelShare s = new ModelShare(partition, nextSequence, eventTimeMillis, names, offsets, scales, fixed, constant,
-        rows, targets, m.weightedResidualSumOfSquares(), m.effectiveSampleSize());
+        rows, targets, rss, m.effectiveSampleSize());
     nextSequence++;
     pending = freshPending();
     return s;
@@ -690,8 +716,8 @@ public final class GlobalModel implements LayoutListener {
         throw new IOException("not a global model checkpoint: magic 0x" + Integer.toHexString(magic));
       }
       int version = in.readInt();
-      if (version != FORMAT_VERSION) {
-        throw new IOException("global model checkpoint format version " + version + " is not supported (this build reads "
+      if (version < 1 || version > FORMAT_VERSION) {
+        throw new IOException("global model checkpoint format version " + version + " is not supported (this build reads 1 to "
             + FORMAT_VERSION + ")");
       }
       int partition = in.readInt();
@@ -711,12 +737,12 @@ public final class GlobalModel implements LayoutListener {
           throw new IOException("corrupt global model checkpoint: folded share " + seq + " of partition " + src);
         }
       }
-      Table view = Table.readFrom(in, local, "view");
+      Table view = Table.readFrom(in, local, "view", 0);
       GlobalModel g = new GlobalModel(partition, view.model.settings(), h, view);
       g.local = local;
       g.nextSequence = nextSequence;
       g.folded.putAll(folded);
-      g.pending = Table.readFrom(in, local, "pending share");
+      g.pending = Table.readFrom(in, local, "pending share", version);
       return g;
     } catch (EOFException e) {
       throw new EOFException("global model checkpoint is truncated");
