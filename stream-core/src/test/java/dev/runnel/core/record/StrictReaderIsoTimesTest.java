@@ -4,6 +4,8 @@ import static org.junit.jupiter.api.Assertions.assertEquals;
 import static org.junit.jupiter.api.Assertions.assertFalse;
 import static org.junit.jupiter.api.Assertions.assertTrue;
 
+import java.lang.reflect.Field;
+import java.lang.reflect.Method;
 import java.nio.charset.StandardCharsets;
 import java.time.OffsetDateTime;
 import java.time.YearMonth;
@@ -202,6 +204,47 @@ class StrictReaderIsoTimesTest {
       }
       assertEquals(reference(t) != null, reader.read(b, 0, b.length, out), t);
     }
+  }
+
+  /**
+   * The bytes parser itself, called directly (reflection: it is private): a fixed-shape text that
+   * java.time reads ({@code OffsetDateTime.parse(...).toInstant().toEpochMilli()}, no range of
+   * years applied here) must be read by it to the same millis, ending after the closing quote;
+   * any other text must be left to the general parser (INVALID). Through {@code read} alone a
+   * wrong refusal is invisible (the general parser then reads the same time), so this is what
+   * pins down that the fixed shape never takes the slow path.
+   */
+  @Test void bytesParser_readsExactlyTheFixedShape_asOffsetDateTimeParse() throws Exception {
+    Method parse = StrictJsonReader.class.getDeclaredMethod("parseIsoBytes", byte[].class, int.class, int.class);
+    parse.setAccessible(true);
+    Field isoEnd = StrictJsonReader.class.getDeclaredField("isoEnd");
+    isoEnd.setAccessible(true);
+    Random r = new Random(5L);
+    int fixed = 0;
+    for (int k = 0; k < 1_000; k++) {
+      String t = randomValid(r);
+      List<String> texts = nearMisses(t, r);
+      texts.add(t);
+      for (String s : texts) {
+        Long expected = null;
+        if (FIXED_SHAPE.matcher(s).matches()) {
+          try {
+            expected = OffsetDateTime.parse(s.charAt(19) == ',' ? s.substring(0, 19) + "." + s.substring(20) : s).toInstant().toEpochMilli();
+          } catch (DateTimeParseException e) {
+            expected = null;
+          }
+        }
+        // the text after 3 bytes of something else, then its closing quote and more of the record
+        byte[] b = ("{\"a" + s + "\",\"x\":1}").getBytes(StandardCharsets.UTF_8);
+        long ms = (long) parse.invoke(reader, b, 3, b.length);
+        assertEquals(expected == null ? EventTimes.INVALID : expected, ms, s);
+        if (expected != null) {
+          fixed++;
+          assertEquals(3 + s.length() + 1, (int) isoEnd.get(reader), s);
+        }
+      }
+    }
+    assertTrue(fixed > 5_000, fixed + " fixed-shape texts");
   }
 
   @Test void fixedCases_agreeWithOffsetDateTimeParse() {
