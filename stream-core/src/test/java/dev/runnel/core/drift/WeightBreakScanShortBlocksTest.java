@@ -43,4 +43,26 @@ class WeightBreakScanShortBlocksTest {
     assertEquals(12, at, "first named when both stretches hold 2p records");
     assertTrue(at > 9);
   }
+
+  /**
+   * A column that is 0 in every record of both stretches (a level not seen lately) has no weight
+   * the data identify: it is not named, and it does not keep the other columns from being compared.
+   */
+  @Test void aColumnWithoutDataInEitherStretchLeavesTheOthersCompared() {
+    WeightBreakScan scan = new WeightBreakScan(10, 2, 1e-6);
+    Random rnd = new Random(4);
+    int at = -1;
+    for (int i = 0; i < 40 && at < 0; i++) {
+      double x = rnd.nextGaussian();
+      double slope = i < 10 ? 1.0 : 10.0;
+      if (scan.observe(new double[] {1, x, 0}, slope * x + 0.01 * rnd.nextGaussian(), 3, 1L)) {
+        at = i + 1;
+      }
+    }
+    assertEquals(20, at, "the slope's change is named at the first look");
+    assertEquals(1, scan.namedColumn(0), "the slope first (the constant may follow at this tiny threshold)");
+    for (int k = 0; k < scan.namedCount(); k++) {
+      assertTrue(scan.namedColumn(k) != 2, "the column without data is never named");
+    }
+  }
 }
