@@ -62,7 +62,7 @@ class GlobalCrashTest {
     Random rnd = new Random(20261205);
     long[] killAt = new long[3];
     for (int i = 0; i < 3; i++) {
-      killAt[i] = (long) (total * (0.1 + 0.7 * rnd.nextDouble()));
+      killAt[i] = (long) (total * (0.1 + 0.35 * rnd.nextDouble()));
     }
     Arrays.sort(killAt);
     long[] committedAtKill = new long[3];
@@ -70,7 +70,10 @@ class GlobalCrashTest {
     try (Admin admin = KafkaTestSupport.admin(bs)) {
       Process p = startRunner(config, 0);
       for (int k = 0; k < 3; k++) {
-        final long threshold = k == 0 ? killAt[0] : Math.min(total, Math.max(killAt[k], committedAtKill[k - 1] + 1_500));
+        // kills land in the first 60 % of the input: on a quiet machine the runner commits thousands of
+        // records in the moments between the threshold being seen and the kill, and a kill after the
+        // last record would test nothing (it failed so once, at 20000 of 20000)
+        final long threshold = k == 0 ? killAt[0] : Math.min(total * 6 / 10, Math.max(killAt[k], committedAtKill[k - 1] + 1_500));
         final Process running = p;
         KafkaTestSupport.await("committed offsets reaching " + threshold, Duration.ofSeconds(180), () -> {
           if (!running.isAlive()) {
