@@ -2,11 +2,10 @@ package dev.runnel.connect.bench;
 
 import dev.runnel.core.config.ConfigLoader;
 import dev.runnel.core.config.PipelineConfig;
-import dev.runnel.core.model.GlobalModel;
-import dev.runnel.core.model.ModelShare;
 import dev.runnel.core.pipeline.PipelineStep;
 import dev.runnel.core.pipeline.Prediction;
 import dev.runnel.core.pipeline.SettledForecast;
+import dev.runnel.core.pipeline.ShareExchange;
 import dev.runnel.core.pipeline.Snapshot;
 import dev.runnel.core.record.EventRecord;
 import dev.runnel.core.record.RejectReason;
@@ -17,7 +16,6 @@ import dev.runnel.demo.Settings;
 import java.io.IOException;
 import java.io.InputStream;
 import java.nio.charset.StandardCharsets;
-import java.util.ArrayList;
 import java.util.List;
 import java.util.Locale;
 
@@ -31,8 +29,8 @@ import java.util.Locale;
  * cannot be shared), so they differ only in the scope. The global arm shares on the configured period
  * ({@code model.share_every}, default {@code PT1H} of event time, and {@code share_every_records: 0}):
  * the feed is walked in its (event-time) order, each share goes through its bytes into the other
- * three steps' inboxes and is folded before their next record, as the runner does after the commit
- * (a share that arrives before a step has a clock waits, as {@link PipelineStep#fold} asks).
+ * three steps' inboxes and is folded before their next record ({@link ShareExchange}, the schedule the
+ * backtest and replay use with {@code model.scope: global}; the runner folds after the commit).
  *
  * <p>Reports, per arm:
  * <ul>
@@ -122,7 +120,8 @@ public final class GlobalScopeGain {
   static final class Arm {
     final String label;
     final PipelineStep[] steps = new PipelineStep[PARTITIONS];
-    final List<List<byte[]>> inbox = new ArrayList<>();
+    /** The schedule replays and backtests use: each share folded by the others before their next record. */
+    final ShareExchange exchange;
     final Sse scored = new Sse();
     final Sse nextHour = new Sse();
     final Sse dayAhead = new Sse();
@@ -131,19 +130,22 @@ public final class GlobalScopeGain {
     final Sse priceSpread = new Sse();
     final Sse temperatureSpread = new Sse();
     long rejects;
-    long sharesFolded;
     boolean early;
 
     Arm(String label, PipelineConfig cfg) {
       this.label = label;
       for (int p = 0; p < PARTITIONS; p++) {
         steps[p] = new PipelineStep(cfg, p);
-        inbox.add(new ArrayList<>());
         price[p] = new Sse();
         temperature[p] = new Sse();
       }
       price[PARTITIONS] = new Sse();
       temperature[PARTITIONS] = new Sse();
+      int[] parts = new int[PARTITIONS];
+      for (int p = 0; p < PARTITIONS; p++) {
+        parts[p] = p;
+      }
+      exchange = new ShareExchange(parts, !NO_FOLD);
     }
 
     final PipelineStep.Sink sink = new PipelineStep.Sink() {
@@ -161,38 +163,10 @@ public final class GlobalScopeGain {
 
     void process(int p, byte[] line, long offset, boolean earlyRecord) {
       PipelineStep step = steps[p];
-      if (step.globalModel() != null && !inbox.get(p).isEmpty() && !NO_FOLD) {
-        List<byte[]> waiting = inbox.get(p);
-        int k = 0;
-        while (k < waiting.size()) {
-          GlobalModel.FoldResult r;
-          try {
-            r = step.fold(ModelShare.fromBytes(waiting.get(k)));
-          } catch (IOException e) {
-            throw new java.io.UncheckedIOException(e);
-          }
-          if (r == null) {
-            break; // no clock yet: the rest waits too, in order
-          }
-          if (r != GlobalModel.FoldResult.FOLDED) {
-            throw new IllegalStateException("partition " + p + " could not fold a share: " + r);
-          }
-          sharesFolded++;
-          k++;
-        }
-        waiting.subList(0, k).clear();
-      }
+      exchange.before(p, step);
       early = earlyRecord;
       step.process(line, 0, line.length, 0L, p, offset, sink);
-      ModelShare s = step.shareIfDue();
-      if (s != null) {
-        byte[] bytes = s.toBytes();
-        for (int q = 0; q < PARTITIONS; q++) {
-          if (q != p) {
-            inbox.get(q).add(bytes);
-          }
-        }
-      }
+      exchange.after(p, step);
     }
 
     /** Reads every partition's raw-unit effects and scores them against the truth. */
@@ -291,7 +265,7 @@ public final class GlobalScopeGain {
     for (PipelineStep s : g.steps) {
       made += s.sharesMade();
     }
-    System.out.printf(Locale.ROOT, "global: %,d shares made, %,d folded; rejects per arm: %d / %d%n", made, g.sharesFolded,
+    System.out.printf(Locale.ROOT, "global: %,d shares made, %,d folded; rejects per arm: %d / %d%n", made, g.exchange.sharesFolded(),
         arms[0].rejects, arms[1].rejects);
     System.out.println();
     System.out.println("| measure | partition (4 models) | global (1 model) | global / partition |");

@@ -65,6 +65,9 @@ public final class ReplayDriver {
    * @throws IllegalArgumentException if {@code threads} is less than 1
    */
   public static long run(Backtest bt, FileSource src, int threads, ProgressListener listener) throws IOException {
+    if (bt.globalScope()) {
+      return runMerged(bt, h -> src.read(h, null), threads, listener);
+    }
     long[] bytes = {0};
     long n = passes(bt, sink -> replay(labels(bt), sink, h -> src.read(h, bytes), () -> bytes[0], src.sizeBytes(), threads, listener));
     bt.countRecords(n);
@@ -169,11 +172,29 @@ public final class ReplayDriver {
    */
   public static long run(Backtest bt, TopicSource src, int threads, ProgressListener listener) {
     try {
+      if (bt.globalScope()) {
+        return runMerged(bt, h -> src.read(h, null), threads, listener);
+      }
       long n = passes(bt, sink -> replay(labels(bt), sink, h -> src.read(h, null), null, src.expectedRecords(), threads, listener));
       bt.countRecords(n);
       return n;
     } catch (IOException e) {
       throw new java.io.UncheckedIOException(e); // a topic source throws no IOException
+    }
+  }
+
+  /**
+   * With a configuration of {@code model.scope: global}: the source read once into a {@link MergedFeed}
+   * and every pass fed from it, all partitions in one order (Kafka timestamp, partition, offset), so
+   * the shares are made and folded on the same schedule whatever order the source interleaved the
+   * partitions in. Progress is counted in records.
+   */
+  static long runMerged(Backtest bt, MergedFeed.Source source, int threads, ProgressListener listener) throws IOException {
+    try (MergedFeed feed = MergedFeed.spill(source, "--source")) {
+      bt.expectPartitions(feed.partitions());
+      long n = passes(bt, sink -> replay(labels(bt), sink, feed::read, null, feed.records(), threads, listener));
+      bt.countRecords(n);
+      return n;
     }
   }
 

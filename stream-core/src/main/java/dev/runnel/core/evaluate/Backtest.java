@@ -1,10 +1,12 @@
 package dev.runnel.core.evaluate;
 
+import dev.runnel.core.config.ModelScope;
 import dev.runnel.core.config.PipelineConfig;
 import dev.runnel.core.feature.LocalCalendar;
 import dev.runnel.core.pipeline.PipelineStep;
 import dev.runnel.core.pipeline.Prediction;
 import dev.runnel.core.pipeline.SettledForecast;
+import dev.runnel.core.pipeline.ShareExchange;
 import dev.runnel.core.pipeline.Snapshot;
 import dev.runnel.core.record.EventRecord;
 import dev.runnel.core.record.FieldType;
@@ -28,6 +30,14 @@ import java.util.TreeMap;
  * <p>Determinism: each partition's records reach its steps in offset order, and the report reads
  * the logs partition by partition in ascending order, so the result does not depend on how a
  * source interleaves partitions: a topic and a recording of it give the same bits.
+ *
+ * <p>A configuration with {@code model.scope: global} is the exception: its partitions' steps share
+ * and fold ({@link ShareExchange}: each share is made on the live period rule and folded by the
+ * other partitions' steps before their next record), so its result depends on the order in which
+ * records of different partitions are handed in. Its caller must hand them in one deterministic
+ * order ({@code dev.runnel.connect.replay.MergedFeed} does: by Kafka timestamp, then partition, then
+ * offset) and should name the partitions first ({@link #expectPartitions}); docs/backtesting.md,
+ * "Global scope".
  *
  * <p>Threads: {@link #accept} runs every variant on the calling thread. A caller may instead give
  * each variant its own thread and call {@link #acceptFor} with that variant's index only; variants
@@ -139,6 +149,8 @@ public final class Backtest {
   private final Options options;
   private final VariantState[] states;
   private long records;
+  /** The partitions named by {@link #expectPartitions}, or null. */
+  private int[] partitions;
 
   /**
    * @param variants the configurations, at least one; labels unique. Not modified.
@@ -315,6 +327,7 @@ public final class Backtest {
     for (VariantState s : states) {
       s.lanes = new Lane[1];
       s.records = 0;
+      s.newExchange(partitions);
       s.levelIds.clear();
       s.levels.clear();
       s.entityIds.clear();
@@ -323,6 +336,50 @@ public final class Backtest {
   }
 
   private record RecordId(int partition, long offset) {}
+
+  /**
+   * Names the partitions the records will come from, before the first record: each configuration
+   * with {@code model.scope: global} then keeps an inbox of shares for each of them from the start
+   * (a partition whose first record comes late still folds every share made before it), and holds
+   * no list of every share made. Without it such a configuration learns the partitions as they come
+   * and keeps every share made for the late ones. No effect on {@code model.scope: partition}.
+   *
+   * @param partitionNumbers the partitions, each ≥ 0. Not modified.
+   * @throws IllegalStateException if a record was handed in already
+   */
+  public void expectPartitions(int[] partitionNumbers) {
+    for (VariantState s : states) {
+      if (s.records > 0) {
+        throw new IllegalStateException("name the partitions before the first record (or after reset())");
+      }
+    }
+    this.partitions = partitionNumbers.clone();
+    for (VariantState s : states) {
+      s.newExchange(partitions);
+    }
+  }
+
+  /** Whether some configuration has {@code model.scope: global} (its result depends on the order across partitions). */
+  public boolean globalScope() {
+    for (VariantState s : states) {
+      if (s.exchange != null) {
+        return true;
+      }
+    }
+    return false;
+  }
+
+  /** Shares made by a configuration's partitions so far (0 for {@code model.scope: partition}). */
+  public long sharesMade(int variant) {
+    ShareExchange ex = states[variant].exchange;
+    return ex == null ? 0 : ex.sharesMade();
+  }
+
+  /** Shares folded by a configuration's partitions so far (0 for {@code model.scope: partition}). */
+  public long sharesFolded(int variant) {
+    ShareExchange ex = states[variant].exchange;
+    return ex == null ? 0 : ex.sharesFolded();
+  }
 
   /** Records handed to {@link #accept} (or counted by {@link #countRecords}). */
   public long records() {
@@ -725,6 +782,8 @@ public final class Backtest {
     /** The entities of the settled simulated forecasts: values by id, and ids by values. */
     final List<List<String>> entities = new ArrayList<>();
     final Map<List<String>, Integer> entityIds = new HashMap<>();
+    /** With {@code model.scope: global}: the shares between this variant's lanes; else null. */
+    ShareExchange exchange;
 
     VariantState(Variant variant, int segmentSlot, List<String> weightNames, long[] horizons) {
       this.variant = variant;
@@ -736,6 +795,16 @@ public final class Backtest {
       this.entitySlots = new int[fields.size()];
       for (int i = 0; i < entitySlots.length; i++) {
         entitySlots[i] = in.schema().slot(fields.get(i));
+      }
+      newExchange(null);
+    }
+
+    /** A new exchange for a new pass (global scope only): for these partitions, or open when null. */
+    void newExchange(int[] partitions) {
+      if (variant.config().model().scope() != ModelScope.GLOBAL) {
+        exchange = null;
+      } else {
+        exchange = partitions == null ? new ShareExchange() : new ShareExchange(partitions);
       }
     }
 
@@ -1003,7 +1072,8 @@ public final class Backtest {
       this.owner = owner;
       this.partition = partition;
       int nh = owner.horizons.length;
-      this.step = new PipelineStep(owner.variant.config());
+      // the partition is the source of the step's shares with model.scope: global (unused otherwise)
+      this.step = new PipelineStep(owner.variant.config(), partition);
       this.viaPending = owner.variant.config().input().forecast().enabled();
       this.outstanding = nh > 0 && !viaPending ? new HashMap<>() : null;
       this.simulated = nh > 0 ? new SimulatedForecasts(owner.horizons, owner.variant.config(), step, this) : null;
@@ -1093,7 +1163,14 @@ public final class Backtest {
       pendingTime = fallback;
       pendingSegment = -1;
       pendingCovered = false;
+      ShareExchange ex = owner.exchange;
+      if (ex != null) {
+        ex.before(partition, step); // the others' shares made since this partition's last record
+      }
       step.process(buf, off, len, fallback, partition, offset, this);
+      if (ex != null) {
+        ex.after(partition, step);
+      }
       log();
     }
 
