@@ -10,6 +10,7 @@ import dev.runnel.core.pipeline.Snapshot;
 import java.io.IOException;
 import java.io.PrintStream;
 import java.nio.file.Path;
+import java.util.List;
 import java.util.concurrent.Callable;
 import picocli.CommandLine.Command;
 import picocli.CommandLine.Mixin;
@@ -17,16 +18,22 @@ import picocli.CommandLine.Option;
 
 /**
  * Runs one configuration over a JSON Lines file, exactly as the live pipeline would, and writes
- * the predictions, snapshots and rejects to files. No Kafka involved.
+ * the predictions, snapshots and rejects to files. No Kafka involved. A recording made by
+ * {@code runnel record} runs each partition through its own step, all partitions in one order
+ * (Kafka timestamp, partition, offset), sharing with {@code model.scope: global}.
  */
 @Command(name = "replay", mixinStandardHelpOptions = true,
-    description = "Run one pipeline configuration over a JSON Lines or CSV file (no Kafka) and write its outputs to files.")
+    description = {"Run one pipeline configuration over a JSON Lines or CSV file (no Kafka) and write its outputs to files.",
+        "A recording made by 'runnel record' runs each partition through its own step, all partitions in one order"
+            + " (Kafka timestamp, then partition, then offset); with model.scope: global the partitions share on the"
+            + " configured period and each share is folded by the others before their next record, so the same"
+            + " recording gives the same bytes (live folds wait for commits: docs/backtesting.md, \"Global scope\")."})
 public final class ReplayCommand implements Callable<Integer> {
 
   @Mixin Options.PipelineFile pipeline;
   @Mixin Options.Quiet quiet;
 
-  @Option(names = "--source", required = true, paramLabel = "FILE", description = "Input records: one JSON object per line, or a CSV file (*.csv) with a header row naming the fields.")
+  @Option(names = "--source", required = true, paramLabel = "FILE", description = "Input records: one JSON object per line (a plain file is partition 0), a recording made by 'runnel record' (its partitions, offsets and timestamps kept), or a CSV file (*.csv) with a header row naming the fields.")
   Path source;
 
   @Option(names = "--out", paramLabel = "DIR", defaultValue = "target/replay",
@@ -38,16 +45,26 @@ public final class ReplayCommand implements Callable<Integer> {
   public Integer call() throws IOException {
     PipelineConfig cfg = Launch.warn(ConfigLoader.load(pipeline.config), System.err);
     Progress progress = new Progress(System.err, "records", 0, quiet.quiet);
-    PipelineStep step = FileReplay.run(cfg, source, out, (records, done, size) -> progress.update(records,
+    List<PipelineStep> steps = FileReplay.runAny(cfg, source, out, (records, done, size) -> progress.update(records,
         () -> String.format("%.0f%% of the file", 100.0 * done / Math.max(1, size))));
-    progress.finish(step.records(), "");
-    Snapshot s = step.snapshot();
+    long records = 0;
+    for (PipelineStep step : steps) {
+      records += step.records();
+    }
+    progress.finish(records, "");
     PrintStream o = System.out;
-    o.printf("replayed %,d records: %,d learned from, %,d without a target, %,d rejected; %,d snapshots%n",
-        step.records(), step.trained(), step.forecasts(), step.rejected(), step.snapshotsTaken());
-    o.printf("prequential MAE %.4g, RMSE %.4g, bias %.3g, interval coverage %.1f%% (level %.0f%%)%n",
-        s.metrics().mae(), s.metrics().rmse(), s.metrics().bias(), 100 * s.metrics().coverage(),
-        100 * cfg.model().intervalLevel());
+    for (PipelineStep step : steps) {
+      Snapshot s = step.snapshot();
+      String part = steps.size() > 1 ? "partition " + step.partitionOfShares() + ": " : "";
+      o.printf("%sreplayed %,d records: %,d learned from, %,d without a target, %,d rejected; %,d snapshots%n",
+          part, step.records(), step.trained(), step.forecasts(), step.rejected(), step.snapshotsTaken());
+      o.printf("%sprequential MAE %.4g, RMSE %.4g, bias %.3g, interval coverage %.1f%% (level %.0f%%)%n",
+          part, s.metrics().mae(), s.metrics().rmse(), s.metrics().bias(), 100 * s.metrics().coverage(),
+          100 * cfg.model().intervalLevel());
+      if (step.globalModel() != null && steps.size() > 1) {
+        o.printf("%smodel.scope: global: %,d shares made, %,d folded%n", part, step.sharesMade(), step.sharesFolded());
+      }
+    }
     o.printf("outputs in %s%n", TerminalText.safe(out.toAbsolutePath().toString()));
     return 0;
   }

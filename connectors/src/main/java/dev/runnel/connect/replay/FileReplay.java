@@ -18,6 +18,11 @@ import java.io.OutputStream;
 import java.io.UncheckedIOException;
 import java.nio.file.Files;
 import java.nio.file.Path;
+import java.util.ArrayList;
+import java.util.List;
+import dev.runnel.connect.file.Recording;
+import dev.runnel.core.config.ModelScope;
+import dev.runnel.core.pipeline.ShareExchange;
 
 /**
  * One configuration over one JSON Lines or CSV file ({@link FileFormat}), exactly as the live pipeline would run it on one
@@ -69,24 +74,15 @@ public final class FileReplay {
       throw new IllegalArgumentException("--source " + source + ": no such file; give a JSON Lines or CSV file");
     }
     FileFormat format = FileFormat.of(source, "--source");
-    Files.createDirectories(out);
     PipelineStep step = new PipelineStep(config);
-    OutputJson json = OutputJson.of(config);
-    OutputEncoder encoder = OutputEncoder.of(config, json);
-    boolean avro = encoder.encoding() == PipelineConfig.OutputEncoding.AVRO;
-    // format 3 keeps the format version and pipeline name out of each line; the folder holds them once
-    Files.write(out.resolve("format.json"), json.formatFile());
     long size = Files.size(source);
-    boolean forecast = config.input().forecast().enabled();
-    try (Output preds = avro ? new AvroFile(out.resolve("predictions.avro"), OutputSchemas.Kind.PREDICTION)
-             : new Lines(open(out.resolve("predictions.jsonl")));
-         Output snaps = avro ? new AvroFile(out.resolve("coefficients.avro"), OutputSchemas.Kind.SNAPSHOT)
-             : new Lines(open(out.resolve("coefficients.jsonl")));
-         Output rejects = avro ? new AvroFile(out.resolve("rejects.avro"), OutputSchemas.Kind.REJECT)
-             : new Lines(open(out.resolve("rejects.jsonl")));
-         Output settled = !forecast ? new Lines(OutputStream.nullOutputStream())
-             : avro ? new AvroFile(out.resolve("settled.avro"), OutputSchemas.Kind.SETTLED)
-             : new Lines(open(out.resolve("settled.jsonl")))) {
+    try (Outputs outputs = new Outputs(config, out)) {
+      OutputJson json = outputs.json;
+      OutputEncoder encoder = outputs.encoder;
+      Output preds = outputs.preds;
+      Output snaps = outputs.snaps;
+      Output rejects = outputs.rejects;
+      Output settled = outputs.settled;
       long[] bytesDone = {0};
       long[] recordsAtLastSnapshot = {-1};
       // a line longer than max_record_bytes is rejected from its first bytes; the rest is never held
@@ -142,6 +138,157 @@ public final class FileReplay {
       }
     }
     return step;
+  }
+
+  /**
+   * Runs a file: a recording made by {@code runnel record} (told by its header line) through one step
+   * per partition ({@link #runRecording}); any other JSON Lines or CSV file as one partition
+   * ({@link #run}).
+   *
+   * @return the steps at the end, by ascending partition (one for a plain file)
+   */
+  public static List<PipelineStep> runAny(PipelineConfig config, Path source, Path out, Listener listener) throws IOException {
+    if (isRecording(source)) {
+      return runRecording(config, source, out, listener);
+    }
+    return List.of(run(config, source, out, listener));
+  }
+
+  /** Whether the file's first line is a recording's header. */
+  static boolean isRecording(Path file) throws IOException {
+    if (!Files.isRegularFile(file) || FileFormat.of(file, "--source") == FileFormat.CSV) {
+      return false;
+    }
+    byte[] head;
+    try (java.io.InputStream in = Files.newInputStream(file)) {
+      head = in.readNBytes(4096);
+    }
+    int end = 0;
+    while (end < head.length && head[end] != '\n') {
+      end++;
+    }
+    return Recording.isHeader(head, 0, end);
+  }
+
+  /**
+   * A recording made by {@code runnel record} (docs/formats.md, "Recorded topics"): each partition
+   * through its own step, as the live pipeline runs it, the outputs of all partitions in the same
+   * files, each record with its recorded partition and offset. The records of all partitions run in
+   * one order, by Kafka timestamp, then partition, then offset ({@link MergedFeed}); with
+   * {@code model.scope: global} each partition's shares are made on the live period rule and folded
+   * by the others before their next record ({@link ShareExchange}), so the same recording gives the
+   * same bytes, whatever order it holds the partitions in (docs/backtesting.md, "Global scope").
+   * A snapshot per partition closes the run when records came after its last due one.
+   *
+   * @return the steps at the end, by ascending partition
+   * @throws IllegalArgumentException (naming {@code model.scope}) with a global configuration and a
+   *     recording of several partitions whose records lack timestamps
+   */
+  public static List<PipelineStep> runRecording(PipelineConfig config, Path source, Path out, Listener listener)
+      throws IOException {
+    FileSource src = new FileSource(source);
+    long size = Files.size(source);
+    try (MergedFeed feed = MergedFeed.spill(h -> src.read(h, null), "--source " + source);
+         Outputs outputs = new Outputs(config, out)) {
+      int[] parts = feed.partitions();
+      PipelineStep[] steps = new PipelineStep[parts.length == 0 ? 0 : parts[parts.length - 1] + 1];
+      long[] recordsAtLastSnapshot = new long[steps.length];
+      for (int p : parts) {
+        steps[p] = new PipelineStep(config, p);
+        recordsAtLastSnapshot[p] = -1;
+      }
+      ShareExchange exchange = config.model().scope() == ModelScope.GLOBAL ? new ShareExchange(parts) : null;
+      long[] n = {0};
+      feed.read((buf, off, len, ts, p, o) -> {
+        PipelineStep step = steps[p];
+        if (exchange != null) {
+          exchange.before(p, step);
+        }
+        step.process(buf, off, len, ts, p, o, new PipelineStep.Sink() {
+          @Override public void prediction(Prediction pr, EventRecord r) {
+            outputs.preds.write(outputs.encoder.prediction(pr, r));
+          }
+
+          @Override public void reject(RejectReason reason, String detail) {
+            outputs.rejects.write(outputs.encoder.reject(reason, detail, p, o, buf, off, len));
+          }
+
+          @Override public void snapshotDue() {
+            outputs.snaps.write(outputs.encoder.snapshot(outputs.json, step.snapshot(), p));
+            recordsAtLastSnapshot[p] = step.records();
+          }
+
+          @Override public void settled(SettledForecast s, EventRecord r) {
+            outputs.settled.write(outputs.encoder.settled(s, r));
+          }
+        });
+        if (exchange != null) {
+          exchange.after(p, step);
+        }
+        n[0]++;
+        if (listener != null && (n[0] & 1023) == 0) {
+          listener.progress(n[0], size * n[0] / Math.max(1, feed.records()), size);
+        }
+      });
+      List<PipelineStep> done = new ArrayList<>();
+      for (int p : parts) {
+        PipelineStep step = steps[p];
+        if (step.records() != recordsAtLastSnapshot[p]) {
+          step.takeSnapshotNow();
+          outputs.snaps.write(outputs.encoder.snapshot(outputs.json, step.snapshot(), p));
+        }
+        done.add(step);
+      }
+      if (listener != null) {
+        listener.progress(n[0], size, size);
+      }
+      return done;
+    }
+  }
+
+  /** The output files of one run: created at once, closed together. */
+  private static final class Outputs implements java.io.Closeable {
+    final OutputJson json;
+    final OutputEncoder encoder;
+    final Output preds;
+    final Output snaps;
+    final Output rejects;
+    final Output settled;
+
+    Outputs(PipelineConfig config, Path out) throws IOException {
+      Files.createDirectories(out);
+      json = OutputJson.of(config);
+      encoder = OutputEncoder.of(config, json);
+      boolean avro = encoder.encoding() == PipelineConfig.OutputEncoding.AVRO;
+      // format 3 keeps the format version and pipeline name out of each line; the folder holds them once
+      Files.write(out.resolve("format.json"), json.formatFile());
+      boolean forecast = config.input().forecast().enabled();
+      preds = avro ? new AvroFile(out.resolve("predictions.avro"), OutputSchemas.Kind.PREDICTION)
+          : new Lines(open(out.resolve("predictions.jsonl")));
+      snaps = avro ? new AvroFile(out.resolve("coefficients.avro"), OutputSchemas.Kind.SNAPSHOT)
+          : new Lines(open(out.resolve("coefficients.jsonl")));
+      rejects = avro ? new AvroFile(out.resolve("rejects.avro"), OutputSchemas.Kind.REJECT)
+          : new Lines(open(out.resolve("rejects.jsonl")));
+      settled = !forecast ? new Lines(OutputStream.nullOutputStream())
+          : avro ? new AvroFile(out.resolve("settled.avro"), OutputSchemas.Kind.SETTLED)
+          : new Lines(open(out.resolve("settled.jsonl")));
+    }
+
+    @Override public void close() throws IOException {
+      IOException first = null;
+      for (Output o : new Output[] {preds, snaps, rejects, settled}) {
+        try {
+          o.close();
+        } catch (IOException e) {
+          if (first == null) {
+            first = e;
+          }
+        }
+      }
+      if (first != null) {
+        throw first;
+      }
+    }
   }
 
   /** One output file of predictions, rejects or settled forecasts. */

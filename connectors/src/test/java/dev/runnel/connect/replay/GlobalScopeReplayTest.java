@@ -31,7 +31,7 @@ import org.junit.jupiter.api.io.TempDir;
  * one worker thread or two; the global configuration shares and folds and so differs from the same
  * configuration with a model per partition. The topic against its recording: {@link GlobalScopeTopicReplayTest}.
  */
-class GlobalScopeReplayTest {
+public class GlobalScopeReplayTest {
 
   static final Path SAMPLE = Path.of("../demo-data/samples/quillmarsh-small.jsonl");
   static final int PARTITIONS = 3;
@@ -39,12 +39,17 @@ class GlobalScopeReplayTest {
   static final long FIRST_TIMESTAMP = 1_774_393_200_000L;
 
   /** The demo configuration with the scope given ({@code corrections: replace} cannot be shared). */
-  static PipelineConfig demo(String scope) throws IOException {
+  public static PipelineConfig demo(String scope) throws IOException {
+    return ConfigLoader.parse(demoYaml(scope), scope + ".yaml");
+  }
+
+  /** The demo configuration's text with the scope given. */
+  public static String demoYaml(String scope) throws IOException {
     String yaml = Files.readString(Path.of("../demo-data/src/main/resources/dev/runnel/demo/quillmarsh.yaml"));
     yaml = yaml.replace("corrections: replace", "corrections: learn_as_new")
         .replace("  noise_half_life_records: 500\n", "  noise_half_life_records: 500\n  scope: " + scope + "\n"
             + (scope.equals("global") ? "  share_every_records: 50\n" : ""));
-    return ConfigLoader.parse(yaml, scope + ".yaml");
+    return yaml;
   }
 
   static List<Backtest.Variant> variants() throws IOException {
@@ -56,9 +61,9 @@ class GlobalScopeReplayTest {
   }
 
   /** A sample line: its partition (by hub, as keyed production would), offset in it and timestamp. */
-  record Line(int partition, long offset, long timestamp, byte[] value) { }
+  public record Line(int partition, long offset, long timestamp, byte[] value) { }
 
-  static List<Line> lines() throws IOException {
+  public static List<Line> lines() throws IOException {
     List<Line> out = new ArrayList<>();
     long[] next = new long[PARTITIONS];
     long i = 0;
@@ -74,7 +79,7 @@ class GlobalScopeReplayTest {
   }
 
   /** A recording of the lines: {@code byPartition} writes all of partition 0, then 1, then 2; else in timestamp order. */
-  static Path record(Path file, List<Line> lines, boolean byPartition) throws IOException {
+  public static Path record(Path file, List<Line> lines, boolean byPartition) throws IOException {
     try (OutputStream o = new BufferedOutputStream(Files.newOutputStream(file))) {
       Recording.writeHeader(o, "global-sample", PARTITIONS);
       StringBuilder sb = new StringBuilder();
