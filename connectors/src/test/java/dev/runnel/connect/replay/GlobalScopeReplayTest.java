@@ -131,6 +131,21 @@ public class GlobalScopeReplayTest {
   }
 
   @Test
+  void withHorizons_twoInterleavingsGiveTheSameBits(@TempDir Path dir) throws IOException {
+    // simulated forecasts hold records back per partition; the shares follow the steps' own order
+    List<Line> lines = lines();
+    Backtest.Options withHorizons = options().withHorizons(List.of(3_600_000L, 86_400_000L));
+    Backtest a = new Backtest(variants(), withHorizons);
+    ReplayDriver.run(a, new FileSource(record(dir.resolve("a.jsonl"), lines, false)), 1, null);
+    Backtest b = new Backtest(variants(), withHorizons);
+    ReplayDriver.run(b, new FileSource(record(dir.resolve("b.jsonl"), lines, true)), 2, null);
+    BacktestResult ra = a.result();
+    assertTrue(a.sharesFolded(0) > 20, "folded " + a.sharesFolded(0));
+    assertTrue(ra.horizons().get(0).variants().get(0).metrics().count() > 100, ra.horizons().get(0).toString());
+    assertArrayEquals(json(ra, dir.resolve("a.json")), json(b.result(), dir.resolve("b.json")));
+  }
+
+  @Test
   void aModelPerPartition_isNotMerged_andKeepsItsBits(@TempDir Path dir) throws IOException {
     // without a global configuration the source is read as it comes: the report must not change
     List<Line> lines = lines();
