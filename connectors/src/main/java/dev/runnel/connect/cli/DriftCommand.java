@@ -208,7 +208,16 @@ public final class DriftCommand implements Callable<Integer> {
       int lines = 0;
       while (true) {
         boolean allPast = false;
-        for (ConsumerRecord<byte[], byte[]> r : c.poll(Duration.ofMillis(300))) {
+        org.apache.kafka.clients.consumer.ConsumerRecords<byte[], byte[]> polled = c.poll(Duration.ofMillis(300));
+        if (polled.isEmpty() && follow) {
+          // caught up: with model.scope: global the held times but the newest need not wait for a quiet partition
+          String settled = table.settle();
+          if (settled != null) {
+            out.println(settled);
+            lines++;
+          }
+        }
+        for (ConsumerRecord<byte[], byte[]> r : polled) {
           JsonNode s;
           try {
             s = dev.runnel.connect.output.OutputRecords.read(r.headers(), r.value()); // JSON or Avro snapshots

@@ -122,6 +122,17 @@ public final class DriftTable {
     return global == null ? null : lines(global.flush());
   }
 
+  /**
+   * With {@code model.scope: global}, for a follower that has read everything published so far: the lines of every
+   * held time but the newest ({@link GlobalSnapshots#settle()}); a partition that has not reached them is behind in
+   * publishing and its views of them come as late lines.
+   *
+   * @return the lines, or null when none
+   */
+  public String settle() {
+    return global == null ? null : lines(global.settle());
+  }
+
   /** One line per point of the one model (its views' differences after it); late views that differ on a line of their own. */
   private String lines(List<GlobalSnapshots.Point> points) {
     StringBuilder out = new StringBuilder();

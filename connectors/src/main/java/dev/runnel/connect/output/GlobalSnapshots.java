@@ -25,7 +25,8 @@ import java.util.TreeSet;
  *   <li><b>Points.</b> Snapshots are grouped by event time; the group at time T is complete (a point of the model's
  *       history) once every partition known so far has published a snapshot at T or later (a partition is known when
  *       it published, or when another partition's {@code last_folded} names it), or when more than
- *       {@link #MAX_PENDING} snapshots wait. With {@code outputs.snapshot_every} every partition publishes at the end of
+ *       {@link #MAX_PENDING} snapshots wait, or, for a reader that has caught up with the topic, when a later time
+ *       has a snapshot ({@link #settle()}). With {@code outputs.snapshot_every} every partition publishes at the end of
  *       each period, so a group holds one snapshot per partition; every N records, the groups are the single snapshots,
  *       in event-time order.</li>
  *   <li><b>The model</b> at a point is the group's view that has taken in the most shares (its {@code shares_made}
@@ -155,6 +156,22 @@ public final class GlobalSnapshots {
     newestTime.merge(p, t, Math::max);
     List<Point> out = new ArrayList<>();
     while (!pending.isEmpty() && (complete(pending.firstKey()) || pendingCount > MAX_PENDING)) {
+      out.add(emit());
+    }
+    return out;
+  }
+
+  /**
+   * Takes every waiting group but the newest as complete: for a reader that has read all that was published so far
+   * (a poll of a followed topic came back empty), so a partition that has not reached an older time is behind in
+   * publishing (it had no records), not in reading, and the model's history need not wait for it; its snapshots of
+   * those times come late.
+   *
+   * @return the points, in event-time order
+   */
+  public List<Point> settle() {
+    List<Point> out = new ArrayList<>();
+    while (pending.size() > 1) {
       out.add(emit());
     }
     return out;

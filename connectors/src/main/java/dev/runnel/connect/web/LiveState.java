@@ -178,8 +178,12 @@ public final class LiveState implements AutoCloseable {
             continue;
           }
         }
-        for (ConsumerRecord<byte[], byte[]> r : c.poll(Duration.ofMillis(300))) {
+        org.apache.kafka.clients.consumer.ConsumerRecords<byte[], byte[]> polled = c.poll(Duration.ofMillis(300));
+        for (ConsumerRecord<byte[], byte[]> r : polled) {
           take(r.topic().equals(coefTopic), r.key(), r.headers(), r.value());
+        }
+        if (polled.isEmpty()) {
+          settle();
         }
         sampleCounters();
       }
@@ -285,6 +289,19 @@ public final class LiveState implements AutoCloseable {
     }
     latest = n;
     addToHistory(n, false);
+  }
+
+  /**
+   * Caught up with the topics: with {@code model.scope: global}, every held snapshot time but the newest joins the
+   * model's history ({@link GlobalSnapshots#settle()}) without waiting for a partition that has not published it
+   * (package-private for tests).
+   */
+  synchronized void settle() {
+    if (global != null) {
+      for (GlobalSnapshots.Point pt : global.settle()) {
+        addToHistory(pt.model(), true);
+      }
+    }
   }
 
   /** One point of the coefficient paths and its alarms in the log; {@code model}: merged alarms of the one model. */

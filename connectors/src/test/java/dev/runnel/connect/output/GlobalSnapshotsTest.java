@@ -122,6 +122,70 @@ class GlobalSnapshotsTest {
     }
   }
 
+  @Test
+  void aQuietPartitionHoldsTheTimesItHasNotReachedUntilTheReaderSettles() {
+    List<String> times = FEED.times();
+    String cut = times.get(times.size() - 3);
+    GlobalSnapshots g = new GlobalSnapshots();
+    List<GlobalSnapshots.Point> pts = new ArrayList<>();
+    List<JsonNode> later = new ArrayList<>();
+    for (JsonNode s : FEED.snapshots) {
+      if (s.path("partition").asInt() == 1 && s.path("event_time").asText().compareTo(cut) >= 0) {
+        later.add(s); // partition 1 publishes its last 3 snapshots only after the reader caught up
+      } else {
+        pts.addAll(g.take(s));
+      }
+    }
+    assertEquals(times.size() - 3, pts.size(), "the times partition 1 has not reached wait for it");
+    List<GlobalSnapshots.Point> settled = g.settle();
+    assertEquals(2, settled.size(), "all but the newest");
+    for (GlobalSnapshots.Point pt : settled) {
+      assertEquals(List.of(0, 2, 3), pt.members());
+      // partition 1's view compared is its latest not after the point: the one before the cut
+      GlobalSnapshots.View v1 = pt.views().stream().filter(v -> v.partition() == 1).findFirst().orElseThrow();
+      assertEquals(times.get(times.size() - 4), v1.snapshot().path("event_time").asText());
+    }
+    assertEquals(times.get(times.size() - 1), g.current().model().path("event_time").asText(), "the newest is shown");
+    // partition 1's snapshots come: the two settled times are late (and it agrees with the model there: nothing back),
+    // the newest completes
+    List<GlobalSnapshots.Point> after = new ArrayList<>();
+    for (JsonNode s : later) {
+      after.addAll(g.take(s));
+    }
+    assertEquals(1, after.size(), after.toString());
+    assertFalse(after.get(0).late());
+    assertEquals(List.of(0, 1, 2, 3), after.get(0).members());
+    assertTrue(g.flush().isEmpty());
+  }
+
+  @Test
+  void aLateViewThatDiffersComesBackAsALatePointNamingIt() {
+    List<String> times = FEED.times();
+    String cut = times.get(times.size() - 3);
+    GlobalSnapshots g = new GlobalSnapshots();
+    List<JsonNode> later = new ArrayList<>();
+    for (JsonNode s : FEED.snapshots) {
+      if (s.path("partition").asInt() == GlobalViewsFeed.BEHIND && s.path("event_time").asText().compareTo(cut) >= 0) {
+        later.add(s);
+      } else {
+        g.take(s);
+      }
+    }
+    g.settle();
+    List<GlobalSnapshots.Point> after = new ArrayList<>();
+    for (JsonNode s : later) {
+      after.addAll(g.take(s));
+    }
+    assertEquals(3, after.size(), after.toString());
+    for (int i = 0; i < 2; i++) {
+      GlobalSnapshots.Point pt = after.get(i);
+      assertTrue(pt.late());
+      assertEquals(times.get(times.size() - 3 + i), pt.model().path("event_time").asText());
+      assertEquals(List.of(GlobalViewsFeed.BEHIND), pt.differing().stream().map(GlobalSnapshots.View::partition).toList());
+    }
+    assertFalse(after.get(2).late());
+  }
+
   static List<String> names(JsonNode s) {
     List<String> out = new ArrayList<>();
     s.path("columns").forEach(c -> out.add(c.path("name").asText()));
