@@ -106,6 +106,9 @@ class LiveStateGlobalTest {
       assertEquals(1, LiveViewBrowserTest.count(dom, "<tr class=\"view-differs\"><td>" + GlobalViewsFeed.BEHIND + "</td>"));
       assertEquals(1, LiveViewBrowserTest.count(dom, "<tr class=\"view-model\"><td>" + model + "</td>"));
       assertEquals(2, LiveViewBrowserTest.count(dom, "<tr class=\"view-agrees\">"));
+      assertEquals("4", LiveViewBrowserTest.text(dom, "id=\"global-partitions\""));
+      assertEquals(String.valueOf(model), LiveViewBrowserTest.text(dom, "id=\"global-model\""));
+      assertEquals("1", LiveViewBrowserTest.text(dom, "id=\"global-differ\""), "the header counts the views that differ");
       assertTrue(dom.matches("(?s).*<tr class=\"view-differs\">.*differs: price [-0-9.]+ vs [-0-9.]+ \\([-+][0-9.]+ se\\).*"), dom);
       assertEquals(1, LiveViewBrowserTest.count(dom, "<path[^>]*data-weight=\"price\""), "one path for the model's price weight");
     } finally {
