@@ -32,7 +32,9 @@ import picocli.CommandLine.Option;
         + "coefficients.jsonl with --file, and print one line per "
         + "snapshot: time, index, input partition, noise sd, recent prequential MAE and RMSE, the weights that moved most since the "
         + "baseline in standard errors ((w - w_b) / sqrt(se^2 + se_b^2), raw units), and the raised alarms. For a pipeline "
-        + "with input.forecast, the errors of settled forecasts by horizon bucket follow each line (docs/forecasting.md).",
+        + "with input.forecast, the errors of settled forecasts by horizon bucket follow each line (docs/forecasting.md). "
+        + "With model.scope: global, one line per snapshot time for the one model, with the partitions whose view "
+        + "differs from it (docs/operations.md, \"Scaling\").",
         "Reads to the current end and stops, or keeps following with --follow. With --config, the pipeline name "
             + "comes from the configuration too."})
 public final class DriftCommand implements Callable<Integer> {
@@ -139,6 +141,7 @@ public final class DriftCommand implements Callable<Integer> {
           break;
         }
       }
+      lines += finish(table, out);
       out.flush();
       return lines == 0 ? 1 : 0;
     }
@@ -170,8 +173,19 @@ public final class DriftCommand implements Callable<Integer> {
         }
       }
     }
+    lines += finish(table, out);
     out.flush();
     return lines == 0 ? 1 : 0;
+  }
+
+  /** Prints the lines the table still holds at the end of the input (model.scope: global); returns how many. */
+  private static int finish(DriftTable table, PrintStream out) {
+    String held = table.finish();
+    if (held == null) {
+      return 0;
+    }
+    out.println(held);
+    return 1;
   }
 
   /** Reads the topic and prints the table; package-private for tests. */
@@ -194,7 +208,16 @@ public final class DriftCommand implements Callable<Integer> {
       int lines = 0;
       while (true) {
         boolean allPast = false;
-        for (ConsumerRecord<byte[], byte[]> r : c.poll(Duration.ofMillis(300))) {
+        org.apache.kafka.clients.consumer.ConsumerRecords<byte[], byte[]> polled = c.poll(Duration.ofMillis(300));
+        if (polled.isEmpty() && follow) {
+          // caught up: with model.scope: global the held times but the newest need not wait for a quiet partition
+          String settled = table.settle();
+          if (settled != null) {
+            out.println(settled);
+            lines++;
+          }
+        }
+        for (ConsumerRecord<byte[], byte[]> r : polled) {
           JsonNode s;
           try {
             s = dev.runnel.connect.output.OutputRecords.read(r.headers(), r.value()); // JSON or Avro snapshots
@@ -216,6 +239,7 @@ public final class DriftCommand implements Callable<Integer> {
           break;
         }
       }
+      lines += finish(table, out);
       out.flush();
       return lines == 0 ? 1 : 0;
     }

@@ -1,6 +1,7 @@
 package dev.runnel.connect.drift;
 
 import com.fasterxml.jackson.databind.JsonNode;
+import dev.runnel.connect.output.GlobalSnapshots;
 import dev.runnel.connect.text.TerminalText;
 import java.time.Instant;
 import java.time.format.DateTimeParseException;
@@ -58,6 +59,9 @@ public final class DriftTable {
   private final Map<Integer, Map<String, JsonNode>> first = new HashMap<>();
   private final Map<Integer, JsonNode> previous = new HashMap<>();
   private final Map<Integer, JsonNode> chosen = new HashMap<>();
+  /** The key of the one model's history in the maps above ({@code model.scope: global}). */
+  private static final int MODEL = Integer.MIN_VALUE;
+  private GlobalSnapshots global;
 
   /**
    * @param baseline {@code pipeline}, {@code first}, {@code previous}, a snapshot index or an ISO 8601 time
@@ -99,7 +103,96 @@ public final class DriftTable {
    *     or null when it is outside {@code --from}/{@code --to}
    */
   public String take(JsonNode s) {
-    int part = s.path("partition").asInt();
+    if (GlobalSnapshots.isGlobal(s)) {
+      if (global == null) {
+        global = new GlobalSnapshots();
+      }
+      return lines(global.take(s));
+    }
+    return line(s, s.path("partition").asInt(), null);
+  }
+
+  /**
+   * The lines still held at the end of the input: with {@code model.scope: global}, the model's points whose snapshot
+   * time not every partition had reached ({@link GlobalSnapshots}). Call once when the input ends.
+   *
+   * @return the lines, or null when none are held
+   */
+  public String finish() {
+    return global == null ? null : lines(global.flush());
+  }
+
+  /**
+   * With {@code model.scope: global}, for a follower that has read everything published so far: the lines of every
+   * held time but the newest ({@link GlobalSnapshots#settle()}); a partition that has not reached them is behind in
+   * publishing and its views of them come as late lines.
+   *
+   * @return the lines, or null when none
+   */
+  public String settle() {
+    return global == null ? null : lines(global.settle());
+  }
+
+  /** One line per point of the one model (its views' differences after it); late views that differ on a line of their own. */
+  private String lines(List<GlobalSnapshots.Point> points) {
+    StringBuilder out = new StringBuilder();
+    for (GlobalSnapshots.Point pt : points) {
+      String l = pt.late() ? lateLine(pt) : line(pt.model(), MODEL, pt);
+      if (l != null) {
+        out.append(out.length() == 0 ? "" : "\n").append(l);
+      }
+    }
+    return out.length() == 0 ? null : out.toString();
+  }
+
+  private String lateLine(GlobalSnapshots.Point pt) {
+    JsonNode m = pt.model();
+    if ((from != null && !from.reachedBy(m)) || (to != null && to.passedBy(m))) {
+      return null;
+    }
+    StringBuilder sb = new StringBuilder(String.format(Locale.ROOT, "%-5s %-17s %4s  ", "late",
+        shortTime(m.path("event_time").asText("")), "-"));
+    appendViews(sb, pt.views(), "a view read after its time");
+    return TerminalText.safe(sb);
+  }
+
+  /** " | views: ..." for one point: the partitions whose view differs, by how much, or that all agree. */
+  private static void appendViews(StringBuilder sb, List<GlobalSnapshots.View> views, String lead) {
+    List<GlobalSnapshots.View> differ = new ArrayList<>();
+    for (GlobalSnapshots.View v : views) {
+      if (v.differs()) {
+        differ.add(v);
+      }
+    }
+    sb.append("  | ").append(lead).append(": ");
+    if (differ.isEmpty()) {
+      sb.append(String.format(Locale.ROOT, "%d agree within %.1f se", views.size(), GlobalSnapshots.DIFFER_SE));
+      return;
+    }
+    for (int i = 0; i < differ.size(); i++) {
+      GlobalSnapshots.View v = differ.get(i);
+      sb.append(i == 0 ? "" : "; ").append("part ").append(v.partition()).append(" differs: ");
+      List<GlobalSnapshots.Difference> ds = v.differences();
+      for (int j = 0; j < Math.min(3, ds.size()); j++) {
+        GlobalSnapshots.Difference d = ds.get(j);
+        sb.append(j == 0 ? "" : ", ").append(d.column()).append(' ').append(sig(d.weight())).append(" vs ")
+            .append(sig(d.modelWeight())).append(String.format(Locale.ROOT, " (%+.1f se)", d.inStdErrors()));
+      }
+      if (ds.size() > 3) {
+        sb.append(", ").append(ds.size() - 3).append(" more");
+      }
+    }
+  }
+
+  /**
+   * One snapshot's line.
+   *
+   * @param key the history it belongs to: its partition, or {@link #MODEL} for the one model of a global pipeline
+   * @param point with {@code model.scope: global}, the model's point (its views follow the line); null otherwise
+   */
+  private String line(JsonNode s, int key, GlobalSnapshots.Point point) {
+    int part = key;
+    int shown = s.path("partition").asInt();
     JsonNode prev = previous.put(part, s);
     if (baselinePoint != null && !chosen.containsKey(part) && baselinePoint.reachedBy(s)) {
       chosen.put(part, s);
@@ -115,7 +208,7 @@ public final class DriftTable {
       default -> chosen.get(part);
     };
     StringBuilder sb = new StringBuilder(String.format(Locale.ROOT, "%-5d %-17s %4d %8s %10s %11s  ",
-        s.path("index").asLong(-1), shortTime(s.path("event_time").asText("")), part, num(s.path("noise_sd")),
+        s.path("index").asLong(-1), shortTime(s.path("event_time").asText("")), shown, num(s.path("noise_sd")),
         num(s.path("metrics").path("recent").path("mae")), num(s.path("metrics").path("recent").path("rmse"))));
     List<double[]> scores = new ArrayList<>();
     List<String> texts = new ArrayList<>();
@@ -193,9 +286,19 @@ public final class DriftTable {
           sb.append("error level ").append(a.path("direction").asText()).append(" at ")
               .append(shortTime(a.path("fired_at").asText("")));
         }
+        JsonNode by = a.path("partitions");
+        if (point != null && by.isArray() && by.size() < point.members().size()) {
+          // the one model's alarm, raised by some views only: name them
+          sb.append(" (part");
+          by.forEach(x -> sb.append(' ').append(x.asInt()));
+          sb.append(" only)");
+        }
         sb.append(';');
       }
       sb.setLength(sb.length() - 1);
+    }
+    if (point != null) {
+      appendViews(sb, point.views(), "views");
     }
     // names and levels come from the data: no control character reaches the terminal
     String line = TerminalText.safe(sb);

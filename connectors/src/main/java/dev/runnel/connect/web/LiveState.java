@@ -6,6 +6,7 @@ import com.fasterxml.jackson.databind.node.ArrayNode;
 import com.fasterxml.jackson.databind.node.JsonNodeFactory;
 import com.fasterxml.jackson.databind.node.ObjectNode;
 import dev.runnel.connect.kafka.RunnerCounters;
+import dev.runnel.connect.output.GlobalSnapshots;
 import java.io.IOException;
 import java.time.Duration;
 import java.time.Instant;
@@ -33,7 +34,9 @@ import org.apache.kafka.common.serialization.ByteArrayDeserializer;
  * the most recently updated) its last {@link #MAX_SERIES_PREDICTIONS}; the last {@link #MAX_SNAPSHOTS} snapshots (weights only) and the latest full snapshot; with
  * {@code input.forecast}, per entity (at most {@link #MAX_AHEAD_ENTITIES}, the most recently updated),
  * its latest {@link #MAX_AHEAD_ACTUALS} actuals and the nearest {@link #MAX_AHEAD_FORECASTS} forecasts
- * ahead of its latest actual ({@link ForecastsAhead}).
+ * ahead of its latest actual ({@link ForecastsAhead}). With {@code model.scope: global} the snapshots of all partitions
+ * make one model ({@link GlobalSnapshots}): the coefficient paths, the latest snapshot and the alarms are the one
+ * model's, and {@code global_model} lists each partition's view and where it differs (docs/operations.md, "Scaling").
  *
  * <p>Thread contract: one reader thread writes; {@link #stateJson()} may be called from any thread.
  */
@@ -87,6 +90,7 @@ public final class LiveState implements AutoCloseable {
   private final LinkedHashMap<String, JsonNode> alarmLog = new LinkedHashMap<>();
   private final ForecastsAhead ahead = new ForecastsAhead();
   private JsonNode latest;
+  private GlobalSnapshots global;
   private long predictionsSeen;
   private long snapshotsSeen;
   private long sampleNanos;
@@ -174,8 +178,12 @@ public final class LiveState implements AutoCloseable {
             continue;
           }
         }
-        for (ConsumerRecord<byte[], byte[]> r : c.poll(Duration.ofMillis(300))) {
+        org.apache.kafka.clients.consumer.ConsumerRecords<byte[], byte[]> polled = c.poll(Duration.ofMillis(300));
+        for (ConsumerRecord<byte[], byte[]> r : polled) {
           take(r.topic().equals(coefTopic), r.key(), r.headers(), r.value());
+        }
+        if (polled.isEmpty()) {
+          settle();
         }
         sampleCounters();
       }
@@ -262,10 +270,61 @@ public final class LiveState implements AutoCloseable {
     return sb.toString();
   }
 
-  /** Adds one snapshot record (package-private for tests). */
+  /**
+   * Adds one snapshot record (package-private for tests). A snapshot of a {@code model.scope: global} pipeline goes
+   * to the one model ({@link GlobalSnapshots}): its history and alarms are the model's, not each partition's.
+   */
   synchronized void addSnapshot(JsonNode n) {
     snapshotsSeen++;
+    if (GlobalSnapshots.isGlobal(n)) {
+      if (global == null) {
+        global = new GlobalSnapshots();
+      }
+      for (GlobalSnapshots.Point pt : global.take(n)) {
+        if (!pt.late()) {
+          addToHistory(pt.model(), true);
+        }
+      }
+      return;
+    }
     latest = n;
+    addToHistory(n, false);
+  }
+
+  /**
+   * Caught up with the topics: with {@code model.scope: global}, every held snapshot time but the newest joins the
+   * model's history ({@link GlobalSnapshots#settle()}) without waiting for a partition that has not published it
+   * (package-private for tests).
+   */
+  synchronized void settle() {
+    if (global != null) {
+      for (GlobalSnapshots.Point pt : global.settle()) {
+        addToHistory(pt.model(), true);
+      }
+    }
+  }
+
+  /** One point of the coefficient paths and its alarms in the log; {@code model}: merged alarms of the one model. */
+  private void addToHistory(JsonNode n, boolean model) {
+    snapshots.addLast(slim(n));
+    while (snapshots.size() > MAX_SNAPSHOTS) {
+      snapshots.removeFirst();
+    }
+    for (JsonNode a : n.path("alarms")) {
+      String key = a.path("kind").asText() + "|" + a.path("column").asText("") + "|" + a.path("fired_at").asText()
+          + "|" + (model ? "global|" + a.path("direction").asText() : n.path("partition").asText());
+      ObjectNode entry = ((ObjectNode) a).deepCopy();
+      entry.put("partition", n.path("partition").asInt());
+      entry.set("last_seen", n.path("event_time"));
+      alarmLog.remove(key);
+      alarmLog.put(key, entry);
+      while (alarmLog.size() > MAX_ALARMS) {
+        alarmLog.remove(alarmLog.keySet().iterator().next());
+      }
+    }
+  }
+
+  private static ObjectNode slim(JsonNode n) {
     ObjectNode slim = F.objectNode();
     slim.put("index", n.path("index").asLong(-1));
     slim.set("event_time", n.path("event_time"));
@@ -277,22 +336,7 @@ public final class LiveState implements AutoCloseable {
       a.add(col.path("raw_weight"));
       a.add(col.path("raw_std_error"));
     }
-    snapshots.addLast(slim);
-    while (snapshots.size() > MAX_SNAPSHOTS) {
-      snapshots.removeFirst();
-    }
-    for (JsonNode a : n.path("alarms")) {
-      String key = a.path("kind").asText() + "|" + a.path("column").asText("") + "|" + a.path("fired_at").asText()
-          + "|" + n.path("partition").asText();
-      ObjectNode entry = ((ObjectNode) a).deepCopy();
-      entry.put("partition", n.path("partition").asInt());
-      entry.set("last_seen", n.path("event_time"));
-      alarmLog.remove(key);
-      alarmLog.put(key, entry);
-      while (alarmLog.size() > MAX_ALARMS) {
-        alarmLog.remove(alarmLog.keySet().iterator().next());
-      }
-    }
+    return slim;
   }
 
   private synchronized void sampleCounters() {
@@ -370,10 +414,18 @@ public final class LiveState implements AutoCloseable {
       }
     }
     writeSeries(root, seriesName, allSeries);
-    List<String> shown = shownColumns();
+    // model.scope: global: the one model (its newest point, complete or not) in place of the latest partition's view
+    GlobalSnapshots.Point now = global == null ? null : global.current();
+    JsonNode latest = now != null ? now.model() : this.latest;
+    List<JsonNode> history = new ArrayList<>(snapshots);
+    if (now != null && (history.isEmpty()
+        || GlobalSnapshots.timeOf(now.model()) > GlobalSnapshots.timeOf(history.get(history.size() - 1)))) {
+      history.add(slim(now.model()));
+    }
+    List<String> shown = shownColumns(latest);
     ArrayNode sh = root.putArray("shown_columns");
     shown.forEach(sh::add);
-    List<String> drawn = pickedColumns(picked);
+    List<String> drawn = pickedColumns(latest, picked);
     ArrayNode pk = root.putArray("picked_columns");
     drawn.forEach(pk::add);
     ArrayNode paths = root.putArray("coefficient_paths");
@@ -381,7 +433,7 @@ public final class LiveState implements AutoCloseable {
       ObjectNode path = paths.addObject();
       path.put("column", name);
       ArrayNode pts = path.putArray("points");
-      for (JsonNode s : snapshots) {
+      for (JsonNode s : history) {
         JsonNode ws = s.path("weights").get(name);
         if (ws == null || ws.get(0).isNull()) {
           continue;
@@ -393,7 +445,7 @@ public final class LiveState implements AutoCloseable {
       }
     }
     ArrayNode err = root.putArray("error_path");
-    for (JsonNode s : snapshots) {
+    for (JsonNode s : history) {
       ArrayNode pt = err.addArray();
       pt.add(s.path("event_time").asText());
       pt.add(s.path("recent_mae"));
@@ -415,9 +467,15 @@ public final class LiveState implements AutoCloseable {
         o.set("raw_weight", c.path("raw_weight"));
         o.set("raw_std_error", c.path("raw_std_error"));
         o.set("drift_score", c.path("drift_score"));
+        if (c.has("other_partitions")) {
+          o.put("other_partitions", true);
+        }
       }
     } else {
       root.putNull("latest");
+    }
+    if (now != null) {
+      root.set("global_model", GlobalSnapshots.json(now, global.partitions()));
     }
     if (ahead.size() > 0) {
       ahead.write(root.putObject("forecasts_ahead"));
@@ -491,7 +549,7 @@ public final class LiveState implements AutoCloseable {
    * The weights drawn: those with a raised alarm first, then the largest |drift_score|, then the
    * largest |weight/se|, up to {@link #SHOWN_WEIGHTS}; the constant is left out (its scale dwarfs the rest).
    */
-  private List<String> shownColumns() {
+  private static List<String> shownColumns(JsonNode latest) {
     List<String> out = new ArrayList<>();
     if (latest == null) {
       return out;
@@ -519,7 +577,7 @@ public final class LiveState implements AutoCloseable {
   }
 
   /** The asked-for columns that the latest snapshot has, in the order asked, each once, at most {@link #MAX_PICKED}. */
-  private List<String> pickedColumns(List<String> picked) {
+  private static List<String> pickedColumns(JsonNode latest, List<String> picked) {
     List<String> out = new ArrayList<>();
     if (latest == null || picked.isEmpty()) {
       return out;
