@@ -815,6 +815,22 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
     return null;
   }
 
+  /**
+   * The ACLs an instance needs, as the authorization failure names them: READ on the input and the
+   * group; DESCRIBE on every topic it checks at start; WRITE on the outputs and READ too on the
+   * state topic (a partition taken over is restored from it); with {@code model.scope: global}
+   * READ and WRITE on {@code <name>.shares} (its shares are written in the transactions and the
+   * others' read with read_committed, by assignment, without a group); CREATE on a topic that does
+   * not exist yet (or create it by hand); WRITE and DESCRIBE on the transactional id.
+   */
+  static String aclsNeeded(RunnerSettings s) {
+    return "needs READ and DESCRIBE on " + s.inputTopic() + ", READ on group " + s.groupId() + ", WRITE and DESCRIBE on "
+        + s.predictionsTopic() + ", " + s.coefficientsTopic() + ", " + s.rejectsTopic() + " and " + s.settledTopic()
+        + ", READ, WRITE and DESCRIBE on " + s.stateTopic() + ", with model.scope: global READ, WRITE and DESCRIBE on "
+        + s.sharesTopic() + ", CREATE on those of them that do not exist yet (or create them by hand, docs/operations.md),"
+        + " WRITE and DESCRIBE on transactional id " + s.transactionalId();
+  }
+
   private String fatalMessage(Throwable t) {
     if (t instanceof ProducerFencedException) {
       return "another instance with transactional id " + settings.transactionalId() + " has started (this one is fenced off);"
@@ -825,9 +841,8 @@ public final class ExactlyOnceRunner implements Runnable, AutoCloseable {
           + "; give every instance its own instance id. Stopping.";
     }
     if (t instanceof AuthorizationException || t instanceof AuthenticationException) {
-      return "not allowed by the cluster at " + settings.bootstrapServers() + ": " + t.getMessage()
-          + " (needs READ on " + settings.inputTopic() + " and group " + settings.groupId() + ", WRITE on the five output topics (and " + settings.sharesTopic() + " with model.scope: global),"
-          + " WRITE/DESCRIBE on transactional id " + settings.transactionalId() + "). Stopping.";
+      return "not allowed by the cluster at " + settings.bootstrapServers() + ": " + t.getMessage() + " (" + aclsNeeded(settings)
+          + "). Stopping.";
     }
     if (t instanceof org.apache.kafka.common.errors.RecordTooLargeException) {
       return "an output or checkpoint record is too large (" + t.getMessage() + "); the state topic accepts "

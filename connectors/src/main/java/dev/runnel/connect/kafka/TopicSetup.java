@@ -98,6 +98,10 @@ public final class TopicSetup {
         get(admin.createTopics(List.of(t)).all());
       } catch (TopicExistsException raced) {
         // another instance created it first
+      } catch (AuthorizationException e) {
+        throw new IllegalStateException("not allowed to create topic " + t.name() + " on " + s.bootstrapServers() + " (" + e.getMessage()
+            + "); create it by hand with partitions=" + t.numPartitions() + ", replication=" + t.replicationFactor() + ", configs "
+            + t.configs() + ", or grant CREATE on it (instances also need READ, WRITE and DESCRIBE on it)", e);
       } catch (RuntimeException e) {
         if (e instanceof org.apache.kafka.common.errors.TimeoutException) throw e;
         throw new IllegalStateException("cannot create topic " + t.name() + " (" + e.getMessage() + "); create it by hand with"

@@ -23,7 +23,9 @@ import org.junit.jupiter.api.Test;
 import org.junit.jupiter.api.extension.ExtendWith;
 
 /**
- * As {@link PipelineCrashTest}, with {@code model.scope: global} on 4 input partitions: the real
+ * As {@link PipelineCrashTest}, with {@code model.scope: global} on 4 input partitions and forgetting
+ * by event time ({@link GlobalFeed}; its first stretch is produced alone and folded everywhere
+ * before the rest is produced and the kills begin): the real
  * command line ({@code runnel run --config ...}) in its own JVM, killed with SIGKILL at three seeded
  * points (shares and folds in flight in open transactions) and restarted each time. At the sync
  * point the committed views of every partition equal the uninterrupted stream-core run's and the
@@ -56,7 +58,7 @@ class GlobalCrashTest {
     List<GlobalFeed.Rec> recs = new ArrayList<>();
     List<List<String>> lines = GlobalFeed.lines(20261205, PER_PARTITION, recs);
     KafkaTestSupport.createTopic(bs, TOPIC, GlobalFeed.PARTITIONS);
-    KafkaTestSupport.produce(bs, TOPIC, lines);
+    KafkaTestSupport.produce(bs, TOPIC, GlobalModelOnKafkaTest.slice(lines, 0, GlobalFeed.FIRST));
     long total = (long) GlobalFeed.PARTITIONS * PER_PARTITION;
     String group = "runnel." + NAME;
     Random rnd = new Random(20261205);
@@ -69,6 +71,15 @@ class GlobalCrashTest {
     PipelineStep[][] got = new PipelineStep[1][];
     try (Admin admin = KafkaTestSupport.admin(bs)) {
       Process p = startRunner(config, 0);
+      final Process first = p;
+      KafkaTestSupport.await("every first share folded", Duration.ofSeconds(180), () -> {
+        if (!first.isAlive()) {
+          throw new AssertionError("runner exited with " + first.exitValue() + "; see target/" + NAME + "-*.log");
+        }
+        return GlobalFeed.synced(GlobalFeed.committedStates(bs, cfg), GlobalFeed.FIRST);
+      });
+      // the rest only now, so that every prior of every view is stated at its first event time (GlobalFeed)
+      KafkaTestSupport.produce(bs, TOPIC, GlobalModelOnKafkaTest.slice(lines, GlobalFeed.FIRST, PER_PARTITION));
       for (int k = 0; k < 3; k++) {
         // kills land in the first 60 % of the input: on a quiet machine the runner commits thousands of
         // records in the moments between the threshold being seen and the kill, and a kill after the

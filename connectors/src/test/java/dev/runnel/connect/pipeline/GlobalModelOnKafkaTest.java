@@ -26,7 +26,8 @@ import org.junit.jupiter.api.extension.ExtendWith;
 
 /**
  * {@code model.scope: global} on the real embedded broker: 4 input partitions with hub levels split
- * across them and scalers that differ by partition. Each partition's processor publishes its shares
+ * across them, scalers that differ by partition and forgetting by event time (the feed and why its
+ * first stretch is produced alone: {@link GlobalFeed}). Each partition's processor publishes its shares
  * to {@code <name>.shares} in its transactions and folds the others' (read_committed); at the sync
  * point (every partition learned its records and folded every other partition's last share) each
  * partition's committed view equals the ridge solution over the union of all records (EJML's QR),
@@ -75,7 +76,7 @@ class GlobalModelOnKafkaTest {
     List<GlobalFeed.Rec> recs = new ArrayList<>();
     List<List<String>> lines = GlobalFeed.lines(41, PER_PARTITION, recs);
     KafkaTestSupport.createTopic(bs, name + ".in", GlobalFeed.PARTITIONS);
-    KafkaTestSupport.produce(bs, name + ".in", lines);
+    KafkaTestSupport.produce(bs, name + ".in", slice(lines, 0, GlobalFeed.FIRST));
     Map<Integer, PipelineProcessor> latest = new ConcurrentHashMap<>();
     ExactlyOnceRunner runner = new ExactlyOnceRunner(settings(cfg, bs), remembering(cfg, latest));
     Thread t = new Thread(runner, "global-runner");
@@ -83,6 +84,8 @@ class GlobalModelOnKafkaTest {
     t.start();
     PipelineStep[] steps;
     try {
+      awaitSyncedState(bs, cfg, GlobalFeed.FIRST, runner); // every first share folded: the rest may come (GlobalFeed)
+      KafkaTestSupport.produce(bs, name + ".in", slice(lines, GlobalFeed.FIRST, PER_PARTITION));
       steps = awaitSyncedState(bs, cfg, PER_PARTITION, runner);
     } finally {
       runner.close();
@@ -101,10 +104,13 @@ class GlobalModelOnKafkaTest {
   }
 
   /**
-   * The checks at the sync point: each partition's committed view against the union solution
-   * (EJML QR; the prior counted once per partition told apart) and against the uninterrupted
-   * stream-core run, to 1e-9 relative; scalers that differ by partition; one output per input
-   * offset. Returns the largest difference from the union solution and the uninterrupted run.
+   * The checks at the sync point: each partition's committed view against the union solution with
+   * the forgetting weights (EJML QR) and against the uninterrupted stream-core run, to 1e-9
+   * relative; wrong union problems told apart (the prior counted once per partition, no
+   * forgetting, and the priors of columns only other partitions hold stated at the last sync
+   * point instead of the first: the check sees when those priors came); levels split across
+   * partitions and scalers that differ by partition; one output per input offset. Returns the
+   * largest difference from the union solution and the uninterrupted run.
    */
   static double checkSyncPoint(String bs, PipelineConfig cfg, List<List<String>> lines, List<GlobalFeed.Rec> recs,
       PipelineStep[] steps, int perPartition) throws Exception {
@@ -112,11 +118,17 @@ class GlobalModelOnKafkaTest {
     double worst = 0;
     for (int p = 0; p < GlobalFeed.PARTITIONS; p++) {
       assertEquals(perPartition, steps[p].trained());
-      double[] union = GlobalFeed.againstUnion(steps[p].globalModel(), recs, 1);
+      double[] union = GlobalFeed.againstUnion(steps[p], p, recs, GlobalFeed.Union.RIGHT);
       assertTrue(union[0] < 1e-9, "partition " + p + ": weights differ from the union solution (EJML QR) by " + union[0]);
       assertTrue(union[1] < 1e-9, "partition " + p + ": standard errors differ from the union solution by " + union[1]);
-      double[] control = GlobalFeed.againstUnion(steps[p].globalModel(), recs, GlobalFeed.PARTITIONS);
-      assertTrue(control[0] > 1e-6, "the prior counted once per partition is told apart: " + control[0]);
+      for (GlobalFeed.Union wrong : new GlobalFeed.Union[] {GlobalFeed.Union.PRIOR_PER_PARTITION, GlobalFeed.Union.NO_FORGETTING,
+          GlobalFeed.Union.FOREIGN_PRIOR_AT_THE_END}) {
+        double[] control = GlobalFeed.againstUnion(steps[p], p, recs, wrong);
+        assertTrue(control[0] > 1e-6, "partition " + p + ": the union problem " + wrong + " is told apart: " + control[0]);
+      }
+      // levels split across partitions: this view holds a level only another partition has
+      assertTrue(steps[p].globalModel().viewIndex("hub=H" + ((p + 2) % GlobalFeed.PARTITIONS) + "-0") >= 0,
+          "partition " + p + "'s view: " + steps[p].globalModel().viewColumns());
       double[] run = GlobalFeed.difference(steps[p].globalModel(), reference[p].globalModel());
       assertTrue(run[0] < 1e-9 && run[1] < 1e-9, "partition " + p + " against the uninterrupted run: " + run[0] + ", " + run[1]);
       worst = Math.max(worst, Math.max(Math.max(union[0], union[1]), Math.max(run[0], run[1])));
@@ -169,8 +181,10 @@ class GlobalModelOnKafkaTest {
     ta.setDaemon(true);
     tb.setDaemon(true);
     try (org.apache.kafka.clients.admin.Admin admin = KafkaTestSupport.admin(bs)) {
-      KafkaTestSupport.produce(bs, topic, slice(lines, 0, 230));
+      KafkaTestSupport.produce(bs, topic, slice(lines, 0, GlobalFeed.FIRST));
       ta.start();
+      awaitSyncedState(bs, cfg, GlobalFeed.FIRST, a); // every first share folded: the rest may come (GlobalFeed)
+      KafkaTestSupport.produce(bs, topic, slice(lines, GlobalFeed.FIRST, 230));
       awaitCommitted(admin, s, 4 * 230, a);
       tb.start();
       KafkaTestSupport.await("the second instance holding partitions", Duration.ofSeconds(120),
