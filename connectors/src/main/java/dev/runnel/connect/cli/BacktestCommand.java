@@ -37,7 +37,7 @@ import picocli.CommandLine.Option;
         + "configuration in one pass, with the same code that runs live, and compare their prequential errors.",
         "Uses its own consumer without a group and commits nothing: a live pipeline is never disturbed.",
         "With model.scope: global the partitions' records run in one order (Kafka timestamp, then partition, then "
-            + "offset; the source is first copied to temporary files) and each share is folded by the other partitions "
+            + "offset; the source is first copied to temporary files under java.io.tmpdir, about its size) and each share is folded by the other partitions "
             + "before their next record, so a topic and its recording give the same bits (docs/backtesting.md, \"Global scope\").",
         "Writes a table to the terminal, backtest.json and backtest.html (self-contained, SVG plots) to --out."})
 public final class BacktestCommand implements Callable<Integer> {
