@@ -59,7 +59,8 @@ final class SpillDisplay {
   private void start(MergedFeed.SpillProgress p) {
     String dir = TerminalText.safe(p.dir().toString());
     if (!quiet) {
-      out.println("model.scope: global: copying the source once to one temporary file per partition in " + dir
+      out.println("to run the partitions in one order (docs/backtesting.md, \"Global scope\"): copying the source once"
+          + " to one temporary file per partition in " + dir
           + " (about the source's size" + (sourceBytes > 0 ? ", " + megabytes(sourceBytes) : "")
           + (p.usableBytes() >= 0 ? "; " + megabytes(p.usableBytes()) + " free there" : "")
           + "; deleted at the end; elsewhere with -Djava.io.tmpdir=DIR, e.g. in RUNNEL_JAVA_OPTS)");
