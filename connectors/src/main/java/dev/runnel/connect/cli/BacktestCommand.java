@@ -2,6 +2,7 @@ package dev.runnel.connect.cli;
 
 import dev.runnel.connect.broker.EmbeddedBroker;
 import dev.runnel.connect.launch.Progress;
+import dev.runnel.connect.replay.MergedFeed;
 import dev.runnel.connect.replay.ReplayDriver;
 import dev.runnel.connect.replay.ReplaySource;
 import dev.runnel.connect.replay.TopicRange;
@@ -36,7 +37,7 @@ import picocli.CommandLine.Option;
         + "configuration in one pass, with the same code that runs live, and compare their prequential errors.",
         "Uses its own consumer without a group and commits nothing: a live pipeline is never disturbed.",
         "With model.scope: global the partitions' records run in one order (Kafka timestamp, then partition, then "
-            + "offset; the source is first copied to temporary files) and each share is folded by the other partitions "
+            + "offset; the source is first copied to temporary files under java.io.tmpdir, about its size) and each share is folded by the other partitions "
             + "before their next record, so a topic and its recording give the same bits (docs/backtesting.md, \"Global scope\").",
         "Writes a table to the terminal, backtest.json and backtest.html (self-contained, SVG plots) to --out."})
 public final class BacktestCommand implements Callable<Integer> {
@@ -169,8 +170,9 @@ public final class BacktestCommand implements Callable<Integer> {
       throw new IllegalArgumentException("--threads " + threads + ": must be at least 1 (1 = no worker threads)");
     }
     int workers = Math.min(variants.size(), threads != null ? threads : ReplayDriver.defaultThreads(variants.size()));
-    Progress progress = new Progress(System.err, "records", 0, quiet.quiet);
+    Progress[] progress = {new Progress(System.err, "records", 0, quiet.quiet)};
     long t0 = System.nanoTime();
+    long[] passStart = {t0}; // after a global scope's copy to temporary files, the pass's own start
     Map<String, Object> run = new LinkedHashMap<>();
     run.put("source", source);
     List<String> names = new ArrayList<>();
@@ -196,8 +198,20 @@ public final class BacktestCommand implements Callable<Integer> {
       run.put("bootstrap_servers", servers);
       return new TopicSource(servers, first.kafka().clientProperties(), topic, range);
     }, dev.runnel.connect.file.CsvLines.union(fieldsByConfig))) {
-      n = readOnly ? src.readOnly() : src.replay(bt, workers, (recs, done, total) -> progress.update(recs,
-          () -> src.progress(done, total) + left(done, total, t0)));
+      long sourceBytes = Files.isRegularFile(Path.of(source)) ? Files.size(Path.of(source)) : -1;
+      SpillDisplay spill = new SpillDisplay(System.err, quiet.quiet, sourceBytes, () -> {
+        progress[0] = new Progress(System.err, "records", 0, quiet.quiet);
+        passStart[0] = System.nanoTime();
+      });
+      n = readOnly ? src.readOnly() : src.replay(bt, workers, new ReplayDriver.ProgressListener() {
+        @Override public void progress(long recs, long done, long total) {
+          progress[0].update(recs, () -> src.progress(done, total) + left(done, total, passStart[0]));
+        }
+
+        @Override public void spill(MergedFeed.SpillProgress p, long done, long total) {
+          spill.show(p, () -> src.progress(done, total));
+        }
+      });
       src.describe(run);
     } finally {
       if (broker[0] != null) {
@@ -205,7 +219,7 @@ public final class BacktestCommand implements Callable<Integer> {
       }
     }
     double secs = (System.nanoTime() - t0) / 1e9;
-    progress.finish(n, String.format("%.1f s", secs));
+    progress[0].finish(n, String.format("%.1f s", secs));
     if (readOnly) {
       System.out.printf("read %,d records in %.2f s (%,.0f records/s), no configuration run%n", n, secs, n / Math.max(1e-9, secs));
       return 0;

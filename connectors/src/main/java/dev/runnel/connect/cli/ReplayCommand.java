@@ -2,6 +2,7 @@ package dev.runnel.connect.cli;
 
 import dev.runnel.connect.launch.Progress;
 import dev.runnel.connect.replay.FileReplay;
+import dev.runnel.connect.replay.MergedFeed;
 import dev.runnel.connect.text.TerminalText;
 import dev.runnel.core.config.ConfigLoader;
 import dev.runnel.core.config.PipelineConfig;
@@ -9,6 +10,7 @@ import dev.runnel.core.pipeline.PipelineStep;
 import dev.runnel.core.pipeline.Snapshot;
 import java.io.IOException;
 import java.io.PrintStream;
+import java.nio.file.Files;
 import java.nio.file.Path;
 import java.util.List;
 import java.util.concurrent.Callable;
@@ -44,14 +46,23 @@ public final class ReplayCommand implements Callable<Integer> {
   @Override
   public Integer call() throws IOException {
     PipelineConfig cfg = Launch.warn(ConfigLoader.load(pipeline.config), System.err);
-    Progress progress = new Progress(System.err, "records", 0, quiet.quiet);
-    List<PipelineStep> steps = FileReplay.runAny(cfg, source, out, (records, done, size) -> progress.update(records,
-        () -> String.format("%.0f%% of the file", 100.0 * done / Math.max(1, size))));
+    Progress[] progress = {new Progress(System.err, "records", 0, quiet.quiet)};
+    SpillDisplay spill = new SpillDisplay(System.err, quiet.quiet, Files.isRegularFile(source) ? Files.size(source) : -1,
+        () -> progress[0] = new Progress(System.err, "records", 0, quiet.quiet));
+    List<PipelineStep> steps = FileReplay.runAny(cfg, source, out, new FileReplay.Listener() {
+      @Override public void progress(long records, long done, long size) {
+        progress[0].update(records, () -> ofTheFile(done, size));
+      }
+
+      @Override public void spill(MergedFeed.SpillProgress p, long done, long size) {
+        spill.show(p, () -> ofTheFile(done, size));
+      }
+    });
     long records = 0;
     for (PipelineStep step : steps) {
       records += step.records();
     }
-    progress.finish(records, "");
+    progress[0].finish(records, "");
     PrintStream o = System.out;
     for (PipelineStep step : steps) {
       Snapshot s = step.snapshot();
@@ -67,5 +78,9 @@ public final class ReplayCommand implements Callable<Integer> {
     }
     o.printf("outputs in %s%n", TerminalText.safe(out.toAbsolutePath().toString()));
     return 0;
+  }
+
+  private static String ofTheFile(long done, long size) {
+    return String.format(java.util.Locale.ROOT, "%.0f%% of the file", 100.0 * done / Math.max(1, size));
   }
 }

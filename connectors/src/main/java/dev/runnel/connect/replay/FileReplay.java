@@ -54,6 +54,12 @@ public final class FileReplay {
   @FunctionalInterface
   public interface Listener {
     void progress(long records, long bytesDone, long bytesTotal);
+
+    /**
+     * A recording, before its run: how the copy to one temporary file per partition goes
+     * ({@link MergedFeed}), with the bytes of the recording read so far of its size. Default: nothing.
+     */
+    default void spill(MergedFeed.SpillProgress p, long bytesDone, long bytesTotal) { }
   }
 
   /**
@@ -188,7 +194,9 @@ public final class FileReplay {
       throws IOException {
     FileSource src = new FileSource(source);
     long size = Files.size(source);
-    try (MergedFeed feed = MergedFeed.spill(h -> src.read(h, null), "--source " + source);
+    long[] read = {0};
+    MergedFeed.SpillListener spill = listener == null ? null : p -> listener.spill(p, read[0], size);
+    try (MergedFeed feed = MergedFeed.spill(h -> src.read(h, read), "--source " + source, MergedFeed.temporaryRoot(), spill);
          Outputs outputs = new Outputs(config, out)) {
       int[] parts = feed.partitions();
       PipelineStep[] steps = new PipelineStep[parts.length == 0 ? 0 : parts[parts.length - 1] + 1];

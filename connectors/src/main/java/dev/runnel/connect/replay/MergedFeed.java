@@ -24,7 +24,9 @@ import java.util.stream.Stream;
  * <p>How: {@link #spill} reads the source once and writes each partition's records to a temporary
  * file of its own (the records' bytes, about the size of a recording); {@link #read} merges those
  * files, holding one record per partition in memory, as often as asked (a replay that sets a record
- * aside reads again). {@link #close} deletes the files. One thread.
+ * aside reads again). {@link #close} deletes the files. The folder is made under {@code java.io.tmpdir}
+ * ({@link #temporaryRoot()}); the files take the records' values plus {@value #RECORD_OVERHEAD_BYTES}
+ * bytes each. One thread.
  *
  * <p>The merge looks at the heads only, so a timestamp that goes back within a partition does not
  * break it: such a record simply comes out after the other partitions' records with lower
@@ -33,16 +35,55 @@ import java.util.stream.Stream;
  */
 public final class MergedFeed implements AutoCloseable {
 
+  /** Bytes a record takes in a partition's file besides its value: timestamp, offset, length. */
+  static final int RECORD_OVERHEAD_BYTES = 8 + 8 + 4;
+
   private final Path dir;
   private final int[] partitions;
   private final Path[] files;
   private final long records;
+  private final long bytes;
 
-  private MergedFeed(Path dir, int[] partitions, Path[] files, long records) {
+  private MergedFeed(Path dir, int[] partitions, Path[] files, long records, long bytes) {
     this.dir = dir;
     this.partitions = partitions;
     this.files = files;
     this.records = records;
+    this.bytes = bytes;
+  }
+
+  /**
+   * How far the copy is: where the files go, records and bytes written so far, the free space left
+   * there when the copy started, and whether it is over.
+   *
+   * @param dir the temporary folder of this copy
+   * @param records records written so far
+   * @param bytesWritten bytes written so far, over all files
+   * @param usableBytes bytes free for this JVM on the folder's file store when the copy started (-1 unknown)
+   * @param files files (partitions) so far
+   * @param finished true once, after the last record
+   */
+  public record SpillProgress(Path dir, long records, long bytesWritten, long usableBytes, int files, boolean finished) { }
+
+  /** Told how the copy goes: once before the first record, every {@value #REPORT_EVERY} records, once at the end. */
+  @FunctionalInterface
+  public interface SpillListener {
+    void spill(SpillProgress p);
+  }
+
+  /** Records between two calls of a {@link SpillListener}. */
+  static final int REPORT_EVERY = 1024;
+
+  /** The folder temporary copies go under: the JVM's {@code java.io.tmpdir}. */
+  public static Path temporaryRoot() {
+    return Path.of(System.getProperty("java.io.tmpdir"));
+  }
+
+  /** The fix to name when the temporary folder cannot hold the copy. */
+  static String fix(Path root) {
+    return "point java.io.tmpdir at a writable folder with room for about the source's size (e.g. RUNNEL_JAVA_OPTS="
+        + "-Djava.io.tmpdir=/var/tmp ./runnel ..., or java -Djava.io.tmpdir=DIR -jar runnel.jar ...; now " + root
+        + "), or replay with model.scope: partition, which reads the source as it comes";
   }
 
   /** Reads a source once, handing each record to the handler (a {@link FileSource} or {@link TopicSource} read). */
@@ -61,7 +102,41 @@ public final class MergedFeed implements AutoCloseable {
    *     and one has no timestamp, or a partition's offsets do not rise
    */
   public static MergedFeed spill(Source source, String what) throws IOException {
-    Path dir = Files.createTempDirectory("runnel-global-");
+    return spill(source, what, temporaryRoot(), null);
+  }
+
+  /**
+   * As {@link #spill(Source, String)}, in a new folder under {@code root}, telling {@code listener}
+   * how the copy goes.
+   *
+   * @param root the folder to make the temporary folder in (usually {@link #temporaryRoot()})
+   * @param listener told where the files go and how far the copy is; null for none
+   * @throws IllegalArgumentException naming {@code java.io.tmpdir} and the fix if no folder can be made
+   *     under {@code root}, or a file in it cannot be written
+   * @throws IOException naming the folder, the bytes written so far and the fix if writing fails later
+   *     (a full disk)
+   */
+  public static MergedFeed spill(Source source, String what, Path root, SpillListener listener) throws IOException {
+    Path dir;
+    try {
+      dir = Files.createTempDirectory(root, "runnel-global-");
+    } catch (IOException | SecurityException | UnsupportedOperationException e) {
+      throw new IllegalArgumentException("model.scope: global: " + what + " is first copied to one temporary file per"
+          + " partition, but no folder can be made in the temporary folder " + root + " (java.io.tmpdir): " + e
+          + "; " + fix(root), e);
+    }
+    long usable = -1;
+    try {
+      usable = Files.getFileStore(dir).getUsableSpace();
+    } catch (IOException | SecurityException e) {
+      // unknown: said as such
+    }
+    long usableAtStart = usable;
+    long[] written = {0, 0}; // bytes, records
+    int[] fileCount = {0};
+    if (listener != null) {
+      listener.spill(new SpillProgress(dir, 0, 0, usableAtStart, 0, false));
+    }
     DataOutputStream[][] holder = {new DataOutputStream[0]};
     long[][] last = {new long[0]};
     long[] noTimestamp = {-1, -1};
@@ -80,6 +155,7 @@ public final class MergedFeed implements AutoCloseable {
           if (out == null) {
             out = new DataOutputStream(new BufferedOutputStream(Files.newOutputStream(dir.resolve(p + ".bin")), 1 << 16));
             holder[0][p] = out;
+            fileCount[0]++;
           }
           if (o <= last[0][p]) {
             throw new IllegalArgumentException("model.scope: global: " + what + " gave partition " + p + " offset " + o
@@ -94,6 +170,10 @@ public final class MergedFeed implements AutoCloseable {
           out.writeLong(o);
           out.writeInt(len);
           out.write(buf, off, len);
+          written[0] += RECORD_OVERHEAD_BYTES + len;
+          if (++written[1] % REPORT_EVERY == 0 && listener != null) {
+            listener.spill(new SpillProgress(dir, written[1], written[0], usableAtStart, fileCount[0], false));
+          }
         } catch (IOException e) {
           throw new UncheckedIOException(e);
         }
@@ -122,11 +202,16 @@ public final class MergedFeed implements AutoCloseable {
             + " known and a replay would not be deterministic; replay it with model.scope: partition, or from a topic"
             + " whose records carry timestamps");
       }
-      MergedFeed feed = new MergedFeed(dir, parts, files, n);
+      MergedFeed feed = new MergedFeed(dir, parts, files, n, written[0]);
       handedOver = true; // the feed owns the folder now
+      if (listener != null) {
+        listener.spill(new SpillProgress(dir, written[1], written[0], usableAtStart, count, true));
+      }
       return feed;
     } catch (UncheckedIOException e) {
-      throw e.getCause();
+      throw new IOException("model.scope: global: copying " + what + " to temporary files in " + dir + " failed after "
+          + written[1] + " records, " + written[0] + " bytes (" + e.getCause().getMessage() + "); " + fix(root),
+          e.getCause());
     } finally {
       if (!handedOver) {
         for (DataOutputStream out : holder[0]) {
@@ -146,6 +231,16 @@ public final class MergedFeed implements AutoCloseable {
   /** The partitions that had records, ascending. */
   public int[] partitions() {
     return partitions.clone();
+  }
+
+  /** The temporary folder holding the files (deleted by {@link #close}). */
+  public Path directory() {
+    return dir;
+  }
+
+  /** Bytes of the files, over all partitions. */
+  public long bytes() {
+    return bytes;
   }
 
   /** The records read by {@link #spill}. */

@@ -23,6 +23,13 @@ public final class ReplayDriver {
   @FunctionalInterface
   public interface ProgressListener {
     void progress(long records, long done, long total);
+
+    /**
+     * With {@code model.scope: global}, before the pass: how the copy of the source to temporary files
+     * goes ({@link MergedFeed}), with the source's own measure, {@code done} of about {@code total}
+     * (bytes of a file, records of a topic range). Default: nothing.
+     */
+    default void spill(MergedFeed.SpillProgress p, long done, long total) { }
   }
 
   private static final Logger LOG = LoggerFactory.getLogger(ReplayDriver.class);
@@ -66,7 +73,8 @@ public final class ReplayDriver {
    */
   public static long run(Backtest bt, FileSource src, int threads, ProgressListener listener) throws IOException {
     if (bt.globalScope()) {
-      return runMerged(bt, h -> src.read(h, null), threads, listener);
+      long[] read = {0};
+      return runMerged(bt, h -> src.read(h, read), () -> read[0], src.sizeBytes(), threads, listener);
     }
     long[] bytes = {0};
     long n = passes(bt, sink -> replay(labels(bt), sink, h -> src.read(h, bytes), () -> bytes[0], src.sizeBytes(), threads, listener));
@@ -173,7 +181,7 @@ public final class ReplayDriver {
   public static long run(Backtest bt, TopicSource src, int threads, ProgressListener listener) {
     try {
       if (bt.globalScope()) {
-        return runMerged(bt, h -> src.read(h, null), threads, listener);
+        return runMerged(bt, h -> src.read(h, null), null, src.expectedRecords(), threads, listener);
       }
       long n = passes(bt, sink -> replay(labels(bt), sink, h -> src.read(h, null), null, src.expectedRecords(), threads, listener));
       bt.countRecords(n);
@@ -187,10 +195,14 @@ public final class ReplayDriver {
    * With a configuration of {@code model.scope: global}: the source read once into a {@link MergedFeed}
    * and every pass fed from it, all partitions in one order (Kafka timestamp, partition, offset), so
    * the shares are made and folded on the same schedule whatever order the source interleaved the
-   * partitions in. Progress is counted in records.
+   * partitions in. The copy's progress goes to {@link ProgressListener#spill} ({@code doneSoFar} of
+   * {@code total}: the source's measure, null to count records); the pass's is counted in records.
    */
-  static long runMerged(Backtest bt, MergedFeed.Source source, int threads, ProgressListener listener) throws IOException {
-    try (MergedFeed feed = MergedFeed.spill(source, "--source")) {
+  static long runMerged(Backtest bt, MergedFeed.Source source, LongSupplier doneSoFar, long total, int threads,
+                        ProgressListener listener) throws IOException {
+    MergedFeed.SpillListener spill = listener == null ? null
+        : p -> listener.spill(p, doneSoFar == null ? p.records() : doneSoFar.getAsLong(), total);
+    try (MergedFeed feed = MergedFeed.spill(source, "--source", MergedFeed.temporaryRoot(), spill)) {
       bt.expectPartitions(feed.partitions());
       long n = passes(bt, sink -> replay(labels(bt), sink, feed::read, null, feed.records(), threads, listener));
       bt.countRecords(n);

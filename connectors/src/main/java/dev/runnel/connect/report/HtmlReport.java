@@ -68,6 +68,7 @@ public final class HtmlReport {
                   : new java.util.TreeMap<>(v.rejectsByReason()).toString())));
     }
     sb.append("</table>\n");
+    sharing(sb, r);
     if (!r.comparisons().isEmpty()) {
       sb.append("<h2>Is the difference real? Diebold–Mariano tests</h2>\n");
       for (BacktestResult.Comparison c : r.comparisons()) {
@@ -507,6 +508,37 @@ public final class HtmlReport {
 
   private static String colour(int i) {
     return COLOURS[i % COLOURS.length];
+  }
+
+  /**
+   * The shares of the configurations with {@code model.scope: global}, in all and per partition
+   * (docs/backtesting.md, "Global scope"); nothing when none is global.
+   */
+  static void sharing(StringBuilder sb, BacktestResult r) {
+    boolean any = false;
+    for (BacktestResult.VariantResult v : r.variants()) {
+      any |= v.sharing().global();
+    }
+    if (!any) {
+      return;
+    }
+    sb.append("<h2>Shares (model.scope: global)</h2>\n<p class=\"meta\">A share is what a partition learned since its "
+        + "last share; every other partition folds it before its next record. Folded counts each share once per "
+        + "partition that folded it.</p>\n<table class=\"shares\"><tr><th>configuration</th><th>partition</th>"
+        + "<th>shares made</th><th>shares folded</th></tr>\n");
+    for (BacktestResult.VariantResult v : r.variants()) {
+      BacktestResult.Sharing s = v.sharing();
+      if (!s.global()) {
+        continue;
+      }
+      sb.append("<tr><td>").append(esc(v.label())).append(String.format(Locale.ROOT,
+          "</td><td>all</td><td>%,d</td><td>%,d</td></tr>%n", s.sharesMade(), s.sharesFolded()));
+      for (BacktestResult.PartitionShares p : s.partitions()) {
+        sb.append("<tr><td>").append(esc(v.label())).append(String.format(Locale.ROOT,
+            "</td><td>%d</td><td>%,d</td><td>%,d</td></tr>%n", p.partition(), p.sharesMade(), p.sharesFolded()));
+      }
+    }
+    sb.append("</table>\n");
   }
 
   static String esc(String s) {

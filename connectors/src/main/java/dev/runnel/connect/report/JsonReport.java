@@ -22,6 +22,23 @@ public final class JsonReport {
 
   private JsonReport() { }
 
+  /** A global-scope configuration's {@code shares}: made and folded, in all and per partition. */
+  private static void shares(JsonGenerator g, BacktestResult.Sharing s) throws IOException {
+    g.writeObjectFieldStart("shares");
+    g.writeNumberField("made", s.sharesMade());
+    g.writeNumberField("folded", s.sharesFolded());
+    g.writeArrayFieldStart("partitions");
+    for (BacktestResult.PartitionShares p : s.partitions()) {
+      g.writeStartObject();
+      g.writeNumberField("partition", p.partition());
+      g.writeNumberField("made", p.sharesMade());
+      g.writeNumberField("folded", p.sharesFolded());
+      g.writeEndObject();
+    }
+    g.writeEndArray();
+    g.writeEndObject();
+  }
+
   /** Writes the report to {@code file}. */
   public static void write(BacktestResult r, Map<String, Object> run, Path file) throws IOException {
     try (JsonGenerator g = new com.fasterxml.jackson.core.JsonFactory().createGenerator(file.toFile(), JsonEncoding.UTF8)) {
@@ -72,6 +89,10 @@ public final class JsonReport {
           g.writeNumberField(e.getKey(), e.getValue());
         }
         g.writeEndObject();
+        g.writeStringField("scope", v.sharing().scope());
+        if (v.sharing().global()) {
+          shares(g, v.sharing());
+        }
         g.writeFieldName("overall");
         metrics(g, v.overall());
         g.writeArrayFieldStart("segments");

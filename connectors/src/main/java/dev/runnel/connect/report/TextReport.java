@@ -44,6 +44,7 @@ public final class TextReport {
         sb.append(String.format(Locale.ROOT, "  rejects of %s: %s%n", v.label(), new java.util.TreeMap<>(v.rejectsByReason())));
       }
     }
+    sharingLines(sb, r);
     if (r.segmentField() != null && !r.variants().isEmpty()) {
       sb.append(String.format(Locale.ROOT, "%nRMSE per %s%n", r.segmentField()));
       segmentTable(sb, r);
@@ -85,6 +86,29 @@ public final class TextReport {
       breakdownTables(sb, r);
     }
     return TerminalText.lines(sb);
+  }
+
+  /**
+   * One line per configuration with {@code model.scope: global}: shares made and folded, in all and
+   * per partition ({@code p0 made/folded}). Nothing when no configuration is global.
+   */
+  static void sharingLines(StringBuilder sb, BacktestResult r) {
+    for (BacktestResult.VariantResult v : r.variants()) {
+      BacktestResult.Sharing s = v.sharing();
+      if (!s.global()) {
+        continue;
+      }
+      sb.append(String.format(Locale.ROOT, "  model.scope of %s: global, %,d shares made, %,d folded", v.label(),
+          s.sharesMade(), s.sharesFolded()));
+      if (s.partitions().size() > 1) {
+        sb.append(" (made/folded by partition:");
+        for (BacktestResult.PartitionShares p : s.partitions()) {
+          sb.append(String.format(Locale.ROOT, " p%d %,d/%,d", p.partition(), p.sharesMade(), p.sharesFolded()));
+        }
+        sb.append(')');
+      }
+      sb.append('\n');
+    }
   }
 
   /** Errors and tests per horizon of the simulated forecasts. */

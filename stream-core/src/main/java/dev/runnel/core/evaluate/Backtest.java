@@ -799,6 +799,20 @@ public final class Backtest {
       newExchange(null);
     }
 
+    /** The scope and, with global scope, the shares made and folded per partition that had records. */
+    BacktestResult.Sharing sharing() {
+      if (exchange == null) {
+        return BacktestResult.Sharing.PARTITION;
+      }
+      List<BacktestResult.PartitionShares> per = new ArrayList<>();
+      for (int p = 0; p < lanes.length; p++) {
+        if (lanes[p] != null) {
+          per.add(new BacktestResult.PartitionShares(p, exchange.sharesMadeBy(p), exchange.sharesFoldedBy(p)));
+        }
+      }
+      return new BacktestResult.Sharing("global", exchange.sharesMade(), exchange.sharesFolded(), per);
+    }
+
     /** A new exchange for a new pass (global scope only): for these partitions, or open when null. */
     void newExchange(int[] partitions) {
       if (variant.config().model().scope() != ModelScope.GLOBAL) {
@@ -1016,7 +1030,7 @@ public final class Backtest {
         }
       }
       return new BacktestResult.VariantResult(variant.label(), cfg.name(), rec, scored, forecasts, warming,
-          rejected, rejectsByReason, overall.metrics(), segments, hours, overTime, paths);
+          rejected, rejectsByReason, overall.metrics(), segments, hours, overTime, paths, sharing());
     }
   }
 

@@ -152,19 +152,56 @@ public record BacktestResult(long records, int partitions, String segmentField, 
    * @param byHour metrics per local hour of day, 24 entries (hour 0 first)
    * @param overTime metrics per period, in time order
    * @param paths coefficient paths of the chosen columns (raw units, first partition)
+   * @param sharing the configuration's {@code model.scope} and, with {@code global}, the shares its
+   *     partitions made and folded
    */
   public record VariantResult(String label, String pipelineName, long records, long scored, long forecasts,
                               long warmingUp, long rejected, Map<String, Long> rejectsByReason, Metrics overall,
                               List<Segment> segments, List<Metrics> byHour, List<Bucket> overTime,
-                              List<WeightPath> paths) {
+                              List<WeightPath> paths, Sharing sharing) {
     public VariantResult {
       rejectsByReason = Map.copyOf(rejectsByReason);
       segments = List.copyOf(segments);
       byHour = List.copyOf(byHour);
       overTime = List.copyOf(overTime);
       paths = List.copyOf(paths);
+      java.util.Objects.requireNonNull(sharing, "sharing");
+    }
+
+    /** A result of {@code model.scope: partition} (no shares). */
+    public VariantResult(String label, String pipelineName, long records, long scored, long forecasts,
+                         long warmingUp, long rejected, Map<String, Long> rejectsByReason, Metrics overall,
+                         List<Segment> segments, List<Metrics> byHour, List<Bucket> overTime, List<WeightPath> paths) {
+      this(label, pipelineName, records, scored, forecasts, warmingUp, rejected, rejectsByReason, overall, segments,
+          byHour, overTime, paths, Sharing.PARTITION);
     }
   }
+
+  /**
+   * A configuration's scope and what its partitions shared (docs/backtesting.md, "Global scope"):
+   * counted over the last pass (a replay that set a record aside counts the pass without it).
+   *
+   * @param scope {@code partition} or {@code global}, as {@code model.scope}
+   * @param sharesMade shares made by all partitions (0 with {@code partition})
+   * @param sharesFolded shares folded by all partitions, each share once per partition that folded it
+   * @param partitions the same per partition that had records, ascending (empty with {@code partition})
+   */
+  public record Sharing(String scope, long sharesMade, long sharesFolded, List<PartitionShares> partitions) {
+    /** {@code model.scope: partition}: nothing shared. */
+    public static final Sharing PARTITION = new Sharing("partition", 0, 0, List.of());
+
+    public Sharing {
+      partitions = List.copyOf(partitions);
+    }
+
+    /** Whether the configuration has {@code model.scope: global}. */
+    public boolean global() {
+      return "global".equals(scope);
+    }
+  }
+
+  /** Shares one partition made, and folded (made by the others), in a global-scope configuration. */
+  public record PartitionShares(int partition, long sharesMade, long sharesFolded) { }
 
   /** Metrics of one segment level. */
   public record Segment(String level, Metrics metrics) { }

@@ -38,6 +38,9 @@ public final class ShareExchange {
   private final boolean fold;
   private long made;
   private long folded;
+  /** Shares made and folded per partition number (grown with {@link #inbox}). */
+  private long[] madeBy;
+  private long[] foldedBy;
 
   /**
    * An exchange for these partitions (a partition not among them is refused).
@@ -54,6 +57,8 @@ public final class ShareExchange {
    */
   public ShareExchange() {
     this.inbox = newInboxes(1);
+    this.madeBy = new long[1];
+    this.foldedBy = new long[1];
     this.history = new ArrayList<>();
     this.historySources = new ArrayList<>();
     this.fold = true;
@@ -72,6 +77,8 @@ public final class ShareExchange {
       max = Math.max(max, p);
     }
     this.inbox = newInboxes(max + 1);
+    this.madeBy = new long[max + 1];
+    this.foldedBy = new long[max + 1];
     for (int p : partitions) {
       inbox[p] = new ArrayDeque<>();
     }
@@ -123,6 +130,7 @@ public final class ShareExchange {
       }
       waiting.pollFirst();
       folded++;
+      foldedBy[partition]++;
     }
   }
 
@@ -145,6 +153,7 @@ public final class ShareExchange {
   /** Posts a share's bytes, made by {@code source}, to every other partition. */
   private void post(int source, byte[] bytes) {
     made++;
+    madeBy[source]++;
     for (int q = 0; q < inbox.length; q++) {
       if (q != source && inbox[q] != null) {
         inbox[q].addLast(bytes);
@@ -165,6 +174,8 @@ public final class ShareExchange {
     }
     if (p >= inbox.length) {
       inbox = Arrays.copyOf(inbox, Math.max(p + 1, inbox.length * 2));
+      madeBy = Arrays.copyOf(madeBy, inbox.length);
+      foldedBy = Arrays.copyOf(foldedBy, inbox.length);
     }
     ArrayDeque<byte[]> box = new ArrayDeque<>();
     for (int i = 0; i < history.size(); i++) {
@@ -181,6 +192,16 @@ public final class ShareExchange {
 
   /** Shares folded so far, over all partitions. */
   public long sharesFolded() { return folded; }
+
+  /** Shares partition {@code p} made so far; 0 for a partition this exchange has not met. */
+  public long sharesMadeBy(int p) {
+    return p >= 0 && p < madeBy.length ? madeBy[p] : 0;
+  }
+
+  /** Shares partition {@code p} folded so far (made by the others); 0 for a partition this exchange has not met. */
+  public long sharesFoldedBy(int p) {
+    return p >= 0 && p < foldedBy.length ? foldedBy[p] : 0;
+  }
 
   /** Shares waiting to be folded, over all partitions. */
   public long sharesWaiting() {
