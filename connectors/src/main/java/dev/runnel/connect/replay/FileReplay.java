@@ -188,7 +188,7 @@ public final class FileReplay {
    *
    * @return the steps at the end, by ascending partition
    * @throws IllegalArgumentException (naming {@code model.scope}) with a global configuration and a
-   *     recording of several partitions whose records lack timestamps
+   *     recording of several partitions whose records lack timestamps (a partition-scope one is replayed)
    */
   public static List<PipelineStep> runRecording(PipelineConfig config, Path source, Path out, Listener listener)
       throws IOException {
@@ -196,7 +196,8 @@ public final class FileReplay {
     long size = Files.size(source);
     long[] read = {0};
     MergedFeed.SpillListener spill = listener == null ? null : p -> listener.spill(p, read[0], size);
-    try (MergedFeed feed = MergedFeed.spill(h -> src.read(h, read), "--source " + source, MergedFeed.temporaryRoot(), spill);
+    try (MergedFeed feed = MergedFeed.spill(h -> src.read(h, read), "--source " + source, MergedFeed.temporaryRoot(), spill,
+        config.model().scope() == ModelScope.GLOBAL);
          Outputs outputs = new Outputs(config, out)) {
       int[] parts = feed.partitions();
       PipelineStep[] steps = new PipelineStep[parts.length == 0 ? 0 : parts[parts.length - 1] + 1];

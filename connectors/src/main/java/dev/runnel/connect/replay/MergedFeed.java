@@ -117,11 +117,23 @@ public final class MergedFeed implements AutoCloseable {
    *     (a full disk)
    */
   public static MergedFeed spill(Source source, String what, Path root, SpillListener listener) throws IOException {
+    return spill(source, what, root, listener, true);
+  }
+
+  /**
+   * As {@link #spill(Source, String, Path, SpillListener)}; with {@code sharing} false (a
+   * {@code model.scope: partition} replay of a recording, where no partition's records affect
+   * another's outputs) records without timestamps are accepted (the merge order is still fixed by
+   * timestamp, partition and offset, so the bytes stay the same) and errors do not name the scope.
+   */
+  public static MergedFeed spill(Source source, String what, Path root, SpillListener listener, boolean sharing)
+      throws IOException {
+    String prefix = sharing ? "model.scope: global: " : "replay of a recording: ";
     Path dir;
     try {
       dir = Files.createTempDirectory(root, "runnel-global-");
     } catch (IOException | SecurityException | UnsupportedOperationException e) {
-      throw new IllegalArgumentException("model.scope: global: " + what + " is first copied to one temporary file per"
+      throw new IllegalArgumentException(prefix + what + " is first copied to one temporary file per"
           + " partition, but no folder can be made in the temporary folder " + root + " (java.io.tmpdir): " + e
           + "; " + fix(root), e);
     }
@@ -158,7 +170,7 @@ public final class MergedFeed implements AutoCloseable {
             fileCount[0]++;
           }
           if (o <= last[0][p]) {
-            throw new IllegalArgumentException("model.scope: global: " + what + " gave partition " + p + " offset " + o
+            throw new IllegalArgumentException(prefix + what + " gave partition " + p + " offset " + o
                 + " after offset " + last[0][p] + "; a global-scope replay needs each partition in offset order");
           }
           last[0][p] = o;
@@ -196,7 +208,7 @@ public final class MergedFeed implements AutoCloseable {
           k++;
         }
       }
-      if (count > 1 && noTimestamp[0] >= 0) {
+      if (sharing && count > 1 && noTimestamp[0] >= 0) {
         throw new IllegalArgumentException("model.scope: global: " + what + " holds a record without a timestamp (partition "
             + noTimestamp[0] + ", offset " + noTimestamp[1] + "), so its place among the other partitions' records is not"
             + " known and a replay would not be deterministic; replay it with model.scope: partition, or from a topic"
@@ -209,7 +221,7 @@ public final class MergedFeed implements AutoCloseable {
       }
       return feed;
     } catch (UncheckedIOException e) {
-      throw new IOException("model.scope: global: copying " + what + " to temporary files in " + dir + " failed after "
+      throw new IOException(prefix + "copying " + what + " to temporary files in " + dir + " failed after "
           + written[1] + " records, " + written[0] + " bytes (" + e.getCause().getMessage() + "); " + fix(root),
           e.getCause());
     } finally {

@@ -72,4 +72,39 @@ class ReplayGlobalScopeCliTest {
         Files.readAllBytes(dir.resolve("d").resolve("predictions.jsonl"))), "a model per partition predicts otherwise");
     assertFalse(d[2].contains("model.scope: global"), d[2]);
   }
+
+  @Test
+  void aRecordingWithoutTimestamps_replaysInPartitionScope_andIsRefusedNamingTheScopeInGlobal(@TempDir Path dir)
+      throws Exception {
+    // the sample's lines recorded without Kafka timestamps (-1), partition by partition
+    List<GlobalScopeReplayTest.Line> lines = new java.util.ArrayList<>();
+    for (GlobalScopeReplayTest.Line l : GlobalScopeReplayTest.lines()) {
+      lines.add(new GlobalScopeReplayTest.Line(l.partition(), l.offset(), -1, l.value()));
+    }
+    Path noTs = GlobalScopeReplayTest.record(dir.resolve("no-ts.jsonl"), lines, true);
+    Path global = dir.resolve("global.yaml");
+    Files.writeString(global, GlobalScopeReplayTest.demoYaml("global"));
+    Path partition = dir.resolve("partition.yaml");
+    Files.writeString(partition, GlobalScopeReplayTest.demoYaml("partition"));
+
+    // partition scope: no partition's records change another's outputs, so no timestamps are needed
+    String[] a = CliCapture.run("replay", "--config", partition.toString(), "--source", noTs.toString(),
+        "--out", dir.resolve("a").toString(), "--quiet");
+    assertEquals("0", a[0], a[1] + a[2]);
+    String[] b = CliCapture.run("replay", "--config", partition.toString(), "--source", noTs.toString(),
+        "--out", dir.resolve("b").toString(), "--quiet");
+    assertEquals("0", b[0], b[1] + b[2]);
+    assertTrue(Files.size(dir.resolve("a").resolve("predictions.jsonl")) > 0);
+    for (String f : FILES) {
+      assertArrayEquals(Files.readAllBytes(dir.resolve("a").resolve(f)), Files.readAllBytes(dir.resolve("b").resolve(f)), f);
+    }
+    assertFalse((a[1] + a[2]).contains("model.scope: global"), a[1] + a[2]);
+
+    // global scope: the records' place among the other partitions' is unknown, refused naming the scope
+    String[] c = CliCapture.run("replay", "--config", global.toString(), "--source", noTs.toString(),
+        "--out", dir.resolve("c").toString(), "--quiet");
+    assertFalse("0".equals(c[0]), c[1] + c[2]);
+    assertTrue((c[1] + c[2]).contains("model.scope: global: --source"), c[1] + c[2]);
+    assertTrue((c[1] + c[2]).contains("without a timestamp"), c[1] + c[2]);
+  }
 }
