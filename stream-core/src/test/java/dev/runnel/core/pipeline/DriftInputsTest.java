@@ -162,6 +162,63 @@ class DriftInputsTest {
   }
 
   /**
+   * When the noise hold ends, the noise estimate restarts from its value with a weight of 10
+   * records ({@code PipelineStep.NOISE_RESTART_RECORDS}, docs/drift.md): the next record's squared
+   * standardized error {@code r² = e² / (1 + xᵀ(λΛ)⁻¹x)} then weighs {@code 1 / (10·d + 1)} in it, with
+   * {@code d = 2^(−1/500)} the noise estimate's per-record decay ({@code model.noise_half_life_records}
+   * 500, docs/model.md). {@code r²} comes from the published prediction: {@code e = actual − predicted},
+   * and {@code 1 + xᵀΛ⁻¹x = (sd / s)²} with {@code sd} the interval's half-width over {@code z} and
+   * {@code s} the noise sd it was made with (the interval's leverage is taken before the record's
+   * forgetting λ). With {@code reset_to_records: 1} a hold can end at its first record, where no
+   * earlier restart inside the hold can stand in for the one at its end.
+   */
+  @Test
+  void theNoiseEstimateRestartsWhenTheHoldEnds() {
+    PipelineConfig config = ConfigLoader.parse(CONFIG + "drift: {reset_to_records: 1, break_block_records: 0}\n", "d.yaml");
+    PipelineStep step = new PipelineStep(config);
+    Keep keep = new Keep(step);
+    double z = step.model().settings().intervalZ();
+    double d = StrictMath.pow(2.0, -1.0 / 500);
+    List<Line> lines = feed(4, 2.0); // seed and step chosen so that a hold ends at its first record
+    int checked = 0;
+    int checkedAfterOneRecordHolds = 0;
+    int heldRun = 0;
+    for (int i = 0; i + 1 < lines.size(); i++) {
+      boolean heldBefore = step.drift().noiseHeld();
+      keep.feed(lines.get(i));
+      heldRun = heldBefore ? heldRun + 1 : 0;
+      if (!heldBefore || step.drift().noiseHeld()) {
+        continue;
+      }
+      // the hold ended with this record
+      boolean oneRecordHold = heldRun == 1;
+      double s0 = step.model().noiseSd();
+      Line next = lines.get(i + 1);
+      keep.feed(next);
+      i++;
+      if (keep.status != Prediction.Status.SCORED || step.drift().noiseHeld()) {
+        continue;
+      }
+      double e = next.y() - keep.predicted;
+      double sd = (keep.high - keep.low) / (2 * z);
+      // the published interval's leverage is that of the information before this record's
+      // forgetting; the noise estimate standardizes with the forgotten one, xᵀ(λΛ)⁻¹x = lev / λ,
+      // λ = 2^(−10 min / 7 days) (records 10 minutes apart, half-life P7D; docs/model.md)
+      double lambda = StrictMath.pow(2.0, -600_000.0 / (7 * 86_400_000.0));
+      double leverage = (sd / s0) * (sd / s0) - 1;
+      double r2 = e * e / (1 + leverage / lambda);
+      double expected = Math.sqrt((d * 10 * s0 * s0 + r2) / (d * 10 + 1));
+      assertEquals(expected, step.model().noiseSd(), 1e-9 * expected, "the noise sd after the record that followed the hold, record " + (i + 1));
+      checked++;
+      if (oneRecordHold) {
+        checkedAfterOneRecordHolds++;
+      }
+    }
+    assertTrue(checkedAfterOneRecordHolds >= 1, "a record after a hold that ended at its first record was checked");
+    assertTrue(checked >= 1, "a record after a hold was checked");
+  }
+
+  /**
    * The weight scores: each published column's score is {@code (w − w_b) / √(se² + se_b²)} of its
    * raw weight and raw standard error in this snapshot and the one before
    * ({@code drift.baseline: previous_snapshot}). The numeric feature jumps from near 5 to near 60,
@@ -237,9 +294,20 @@ class DriftInputsTest {
     ChangeAttribution shadow = new ChangeAttribution(config.drift().attributionRecords(), config.drift().attributionSe());
     Map<String, Double> rawAtAlarm = new HashMap<>();
     boolean opened = false;
+    List<Long> upAlarms = new ArrayList<>();
+    List<Long> openings = new ArrayList<>();
+    long lastOpening = -1;
     for (Line l : feed(7, 3.0)) {
       boolean openBefore = step.drift().attribution().isOpen();
+      long alarmsBefore = step.drift().errorAlarmsFired();
       keep.feed(l);
+      if (step.drift().errorAlarmsFired() > alarmsBefore && step.drift().lastErrorAlarmUp()) {
+        upAlarms.add(step.trained());
+      }
+      if (step.drift().attribution().isOpen() && step.drift().attribution().openedAtRecord() != lastOpening) {
+        lastOpening = step.drift().attribution().openedAtRecord();
+        openings.add(lastOpening);
+      }
       if (!openBefore && step.drift().attribution().isOpen()) {
         assertFalse(opened, "one window in this feed");
         opened = true;
@@ -258,6 +326,10 @@ class DriftInputsTest {
       }
     }
     assertTrue(opened, "the tripled weight opened the attribution");
+    // a window opens on the record of an "up" error alarm, and only there
+    assertFalse(upAlarms.isEmpty());
+    assertEquals(upAlarms.get(0), openings.get(0), "the first window opens on the first up alarm's record");
+    assertTrue(upAlarms.containsAll(openings), "windows opened at " + openings + ", up alarms at " + upAlarms);
     List<ChangeAttribution.Change> stepChanges = step.drift().attribution().latest();
     List<ChangeAttribution.Change> shadowChanges = shadow.latest();
     assertFalse(stepChanges.isEmpty(), "the window was evaluated");
