@@ -29,12 +29,14 @@ import org.junit.jupiter.api.Test;
  * <ul>
  *   <li>the error test and the noise hold after {@code drift.reset_to_records}: the a priori error
  *       is {@code actual − predicted} and its predictive sd is the interval's half-width over
- *       {@code z} (docs/drift.md); the hold's statistic is that error's square over that sd's;</li>
+ *       {@code z} (docs/drift.md); the hold's statistic is that error's square over that sd's; and
+ *       the noise estimate restarts when the hold ends;</li>
  *   <li>the weight scores: {@code (w − w_b) / √(se² + se_b²)} of two published snapshots' raw weights
  *       and raw standard errors, the constant's included, with a stale scaler centre that makes the
  *       constant's standard error depend on its cross term (as {@code SnapshotStaleCentreTest});</li>
  *   <li>the change attribution: its "before" weights are the raw weights a snapshot publishes at
- *       the alarm, and the window's rows are the records' raw values (1, x1, x2, x3).</li>
+ *       the alarm, the window's rows are the records' raw values (1, x1, x2, x3), and a window
+ *       opens on the record of an "up" alarm only.</li>
  * </ul>
  */
 class DriftInputsTest {
