@@ -60,7 +60,7 @@ public final class GlobalModel implements LayoutListener {
   }
 
   /** Format version written by {@link #writeTo}. */
-  public static final int FORMAT_VERSION = 2;
+  public static final int FORMAT_VERSION = 3;
   private static final int MAGIC = 0x524e4731; // "RNG1"
   /** A share stated more than this many half-lives after the receiver's clock is refused. */
   static final double MAX_HALVINGS_AHEAD = 64.0;
@@ -506,7 +506,11 @@ public final class GlobalModel implements LayoutListener {
     for (int q = 0; q < n; q++) {
       if (target[q] >= view.size()) {
         int k = view.register(s.name(q), s.fixed(q), s.offset(q), s.scale(q));
-        view.model.columnAdded(k, s.name(q), s.fixed(q));
+        if (s.fixed(q)) {
+          view.model.columnAddedAhead(k, s.name(q)); // own rows are 0 there: see the class doc
+        } else {
+          view.model.columnAdded(k, s.name(q), false);
+        }
       }
     }
     if (!view.model.addRows(rows, targets, n, weight, s.residualSumOfSquares(), s.sampleSize())) {
@@ -611,7 +615,7 @@ public final class GlobalModel implements LayoutListener {
    */
   public void localWeights(double[] out) {
     double[] w = new double[view.size()];
-    view.model.weights(w);
+    view.model.weightsFrom(localStart(), w);
     for (int j = 0; j < local; j++) {
       out[j] = w[view.fromLocal[j]];
     }
@@ -624,7 +628,7 @@ public final class GlobalModel implements LayoutListener {
    */
   public void localStandardErrors(double[] out) {
     double[] se = new double[view.size()];
-    view.model.standardErrors(se);
+    view.model.standardErrorsFrom(localStart(), se);
     for (int j = 0; j < local; j++) {
       out[j] = se[view.fromLocal[j]];
     }
@@ -637,7 +641,7 @@ public final class GlobalModel implements LayoutListener {
    * @return row-major {@code localDimension() x localDimension()} (a new array)
    */
   public double[] localUnscaledCovariance() {
-    double[] cov = view.model.unscaledCovariance();
+    double[] cov = view.model.unscaledCovarianceFrom(localStart());
     int n = view.size();
     double[] out = new double[local * local];
     for (int i = 0; i < local; i++) {
@@ -647,6 +651,19 @@ public final class GlobalModel implements LayoutListener {
       }
     }
     return out;
+  }
+
+  /**
+   * @return the first position in the view's factor of a local column: the trailing block from
+   *     there holds every local column, and the solution's entries, standard errors and marginal
+   *     covariance of those columns need only that block (see {@link RlsModel#weightsFrom})
+   */
+  private int localStart() {
+    int start = view.size();
+    for (int j = 0; j < local; j++) {
+      start = Math.min(start, view.model.position(view.fromLocal[j]));
+    }
+    return start;
   }
 
   /** @return per source partition, the last sequence number folded (a new sorted map) */
@@ -698,6 +715,7 @@ public final class GlobalModel implements LayoutListener {
       out.writeLong(e.getValue());
     }
     view.writeTo(out);
+    out.writeInt(view.model.aheadCount());
     pending.writeTo(out);
   }
 
@@ -738,6 +756,14 @@ public final class GlobalModel implements LayoutListener {
         }
       }
       Table view = Table.readFrom(in, local, "view", 0);
+      if (version >= 3) {
+        int ahead = in.readInt();
+        try {
+          view.model.restoreAheadCount(ahead);
+        } catch (IllegalArgumentException e) {
+          throw new IOException("corrupt global model checkpoint: " + e.getMessage());
+        }
+      }
       GlobalModel g = new GlobalModel(partition, view.model.settings(), h, view);
       g.local = local;
       g.nextSequence = nextSequence;
