@@ -79,6 +79,9 @@ public final class GlobalModel implements LayoutListener {
     int[] fromLocal = new int[8];
     /** Per column, the local index it is, or -1. */
     int[] local = new int[8];
+    /** The local indices in the order of their columns here; rebuilt when {@link #orderStale}. */
+    int[] localOrder = new int[8];
+    boolean orderStale = true;
 
     int size() {
       return names.size();
@@ -108,6 +111,24 @@ public final class GlobalModel implements LayoutListener {
       }
       fromLocal[localIndex] = k;
       local[k] = localIndex;
+      orderStale = true;
+    }
+
+    /** @return the local indices in the order of their columns here ({@code localCount} of them) */
+    int[] localOrder(int localCount) {
+      if (orderStale) {
+        if (localOrder.length < localCount) {
+          localOrder = new int[Math.max(localCount, 2 * localOrder.length)];
+        }
+        int m = 0;
+        for (int k = 0; k < names.size(); k++) {
+          if (local[k] >= 0) {
+            localOrder[m++] = local[k];
+          }
+        }
+        orderStale = false;
+      }
+      return localOrder;
     }
 
     /** The local layout adds column {@code localIndex}: continue a kept column of that name or add one. */
@@ -144,6 +165,7 @@ public final class GlobalModel implements LayoutListener {
     }
 
     void localRemoved(int localIndex, int localCount) {
+      orderStale = true;
       local[fromLocal[localIndex]] = -1;
       for (int j = localIndex + 1; j < localCount; j++) {
         int k = fromLocal[j];
@@ -241,7 +263,8 @@ public final class GlobalModel implements LayoutListener {
   /** Per source partition, the last sequence number folded; sorted, so the checkpoint's bytes are too. */
   private final TreeMap<Integer, Long> folded = new TreeMap<>();
   private double[] viewRow = new double[8];
-  private double[] pendingRow = new double[8];
+  /** {@link #localStart()}, or -1 when a layout change or a fold may have moved it. */
+  private int localStart = -1;
 
   /**
    * A model at its prior over {@code initialColumns}, the layout's columns before any event (the
@@ -302,25 +325,23 @@ public final class GlobalModel implements LayoutListener {
 
   // ---------------------------------------------------------------- the stream
 
-  /** Writes the local vector {@code x} into the view's and the pending share's layouts. */
+  /**
+   * Writes the local vector {@code x} into the view's layout (the pending share reads the local
+   * vector itself: {@link InformationSums#update}).
+   */
   private void scatter(double[] x) {
     if (x.length < local) {
       throw new IllegalArgumentException("vector length must be at least the local dimension " + local + ", got "
           + x.length);
     }
     int nv = view.size();
-    int np = pending.size();
     if (viewRow.length < nv) {
       viewRow = new double[Math.max(nv, 2 * viewRow.length)];
     }
-    if (pendingRow.length < np) {
-      pendingRow = new double[Math.max(np, 2 * pendingRow.length)];
-    }
     Arrays.fill(viewRow, 0, nv, 0.0);
-    Arrays.fill(pendingRow, 0, np, 0.0);
+    final int[] to = view.fromLocal;
     for (int j = 0; j < local; j++) {
-      viewRow[view.fromLocal[j]] = x[j];
-      pendingRow[pending.fromLocal[j]] = x[j];
+      viewRow[to[j]] = x[j];
     }
   }
 
@@ -340,7 +361,8 @@ public final class GlobalModel implements LayoutListener {
     if (!view.model.update(viewRow, y, lambda, aPrioriOut)) {
       return false;
     }
-    pending.sums.update(pendingRow, y, lambda); // the view accepted the row: it is finite and in range
+    // the view accepted the row: it is finite and in range
+    pending.sums.update(x, pending.localOrder(local), pending.fromLocal, local, y, lambda);
     return true;
   }
 
@@ -517,6 +539,7 @@ public final class GlobalModel implements LayoutListener {
       throw new IllegalStateException("the view refused rows checked in range"); // checked above
     }
     folded.put(s.source(), s.sequence());
+    localStart = -1;
     return FoldResult.FOLDED;
   }
 
@@ -538,6 +561,7 @@ public final class GlobalModel implements LayoutListener {
     }
     fresh.model = new RlsModel(local, settings);
     view = fresh;
+    localStart = -1;
     pending = freshPending();
   }
 
@@ -556,6 +580,7 @@ public final class GlobalModel implements LayoutListener {
     view.localAdded(index, name, neverRebased);
     pending.localAdded(index, name, neverRebased);
     local++;
+    localStart = -1;
   }
 
   /** The column stays in the view and in the pending share (kept; see the class doc). */
@@ -568,6 +593,7 @@ public final class GlobalModel implements LayoutListener {
     view.localRemoved(index, local);
     pending.localRemoved(index, local);
     local--;
+    localStart = -1;
   }
 
   @Override
@@ -659,11 +685,14 @@ public final class GlobalModel implements LayoutListener {
    *     covariance of those columns need only that block (see {@link RlsModel#weightsFrom})
    */
   private int localStart() {
-    int start = view.size();
-    for (int j = 0; j < local; j++) {
-      start = Math.min(start, view.model.position(view.fromLocal[j]));
+    if (localStart < 0) {
+      int start = view.size();
+      for (int j = 0; j < local; j++) {
+        start = Math.min(start, view.model.position(view.fromLocal[j]));
+      }
+      localStart = start;
     }
-    return start;
+    return localStart;
   }
 
   /** @return per source partition, the last sequence number folded (a new sorted map) */

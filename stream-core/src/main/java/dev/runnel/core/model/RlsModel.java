@@ -129,9 +129,10 @@ public final class RlsModel implements LayoutListener {
   private double[] theta;
   /** Whether {@link #theta} is the solution of the current {@code R theta = z}. */
   private boolean thetaValid;
-  /** {@code 1 / r_ii} per factor position, valid while {@link #invDiagValid}. */
+  /** {@code 1 / r_ii} per factor position, valid from position {@link #invDiagFrom} on. */
   private double[] invDiag;
-  private boolean invDiagValid;
+  /** The first position {@link #invDiag} is valid at; {@code Integer.MAX_VALUE} for none. */
+  private int invDiagFrom = Integer.MAX_VALUE;
   /**
    * {@code R^-1} of the current factor (row-major p x p), or null; see {@link #inverseFactor}:
    * the entries of rows and columns from {@link #inverseStart} on (the others 0, not read).
@@ -223,7 +224,7 @@ public final class RlsModel implements LayoutListener {
     zNext = new double[cap];
     theta = new double[cap];
     invDiag = new double[cap];
-    invDiagValid = false;
+    invDiagFrom = Integer.MAX_VALUE;
     work = new double[cap];
     work2 = new double[cap];
     work3 = new double[cap];
@@ -272,7 +273,7 @@ public final class RlsModel implements LayoutListener {
     pos[k] = k;
     col[k] = k;
     p = k + 1;
-    invDiagValid = false;
+    invDiagFrom = Integer.MAX_VALUE;
     inverse = null;
     return k;
   }
@@ -415,12 +416,24 @@ public final class RlsModel implements LayoutListener {
     final double[] u = work2;
     final double[][] rm = r;
     final double[] zm = z;
-    final double[] inv = reciprocalPivots();
     final int n = p;
     gather(x, u);
+    // rows before the first non-zero carry nothing (below): only their pivots are checked, and
+    // their reciprocals are not needed (a global model's view keeps the columns only other
+    // partitions hold there)
+    int first = 0;
+    while (first < n && u[first] == 0.0) {
+      if (!(rm[first][first] > 0.0)) {
+        out[0] = leverage(x);
+        out[1] = predict(x);
+        return;
+      }
+      first++;
+    }
+    final double[] inv = reciprocalPivots(first);
     double sum = 0.0;
     double pred = 0.0;
-    for (int i = 0; i < n; i++) {
+    for (int i = first; i < n; i++) {
       final double[] row = rm[i];
       final double d = row[i];
       if (!(d > 0.0)) {
@@ -965,7 +978,7 @@ public final class RlsModel implements LayoutListener {
   private void factorChanged() {
     inverseStart = 0;
     thetaValid = false;
-    invDiagValid = false;
+    invDiagFrom = Integer.MAX_VALUE;
     inverse = null;
   }
 
@@ -974,14 +987,14 @@ public final class RlsModel implements LayoutListener {
    * they overlap), so that a forward substitution's chain from row to row is a multiplication
    * rather than a division.
    */
-  private double[] reciprocalPivots() {
-    if (!invDiagValid) {
+  private double[] reciprocalPivots(int from) {
+    if (from < invDiagFrom) {
       final double[][] rm = r;
       final double[] inv = invDiag;
-      for (int i = 0; i < p; i++) {
+      for (int i = from; i < p; i++) {
         inv[i] = 1.0 / rm[i][i];
       }
-      invDiagValid = true;
+      invDiagFrom = from;
     }
     return invDiag;
   }
