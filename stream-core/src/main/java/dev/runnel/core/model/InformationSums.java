@@ -178,6 +178,7 @@ final class InformationSums {
     final double[] w = row;
     // column 0's entry (the constant term's when there is one; else every shift is 0)
     final double x0 = count > 0 && columns[0] == 0 ? x[0] : 0.0;
+    Arrays.fill(w, 0, p, 0.0);
     int m = 0;
     for (int s = 0; s < count; s++) {
       final int j = order[s];
@@ -188,12 +189,15 @@ final class InformationSums {
         idx[m++] = k;
       }
     }
+    // each non-zero's row of the triangle over [i, last non-zero], zeros included: a loop over
+    // one index, which the JIT turns into vector instructions (adding 0 changes no entry); the
+    // same sums as over the non-zeros alone
+    final int hi = m > 0 ? idx[m - 1] + 1 : 0;
     for (int s = 0; s < m; s++) {
       final int i = idx[s];
       final double xi = w[i] * f;
       final double[] ai = a[i];
-      for (int t = s; t < m; t++) {
-        final int j = idx[t];
+      for (int j = i; j < hi; j++) {
         ai[j] += xi * w[j];
       }
       b[i] += xi * y;
