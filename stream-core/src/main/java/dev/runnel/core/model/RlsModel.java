@@ -1688,8 +1688,12 @@ public final class RlsModel implements LayoutListener {
           continue;
         }
         final double[] row = rm[i];
-        final double h = StrictMath.hypot(row[i], xi);
-        final double cs = row[i] / h;
+        final double ai = row[i];
+        double h = Math.sqrt(ai * ai + xi * xi); // as update: StrictMath.hypot cost most of a fold
+        if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
+          h = StrictMath.hypot(ai, xi); // squares under- or overflowed: rare path
+        }
+        final double cs = ai / h;
         final double sn = xi / h;
         row[i] = h;
         w[i] = 0.0;
