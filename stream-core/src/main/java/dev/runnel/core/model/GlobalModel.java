@@ -35,7 +35,13 @@ import java.util.TreeMap;
  * the union of all records gives them, and a later share that touches the column adds to it
  * exactly; marginalizing would be exact only until such a share came. A column the local layout
  * removes is kept too, for the same reason (its information is in the pending share until it is
- * shared); a local column that comes back under the same name continues the kept one. Every
+ * shared); a local column that comes back under the same name continues the kept one. A level
+ * (a never re-based column) a share brings that the view lacks goes to the very start of the
+ * view's factor ({@link RlsModel#columnAddedAhead}): own rows are 0 there, so an own update and
+ * forecast skip those rows, and the local weights, standard errors and covariance come from the
+ * factor's trailing block alone ({@link RlsModel#weightsFrom}), exactly, since the trailing block
+ * of an upper-triangular factor factors the marginal information of its columns; the leading
+ * block is kept, so a later share touching it still folds exactly. Every
  * column's basis (the entry of a value {@code v} is {@code (v - offset) / scale}) starts at
  * {@code (0, 1)} when the column is created, as the featurizer's scalers do, and follows each
  * re-basing ({@code offset += shift * scale}, {@code scale *= s'/s}); a share states its
@@ -59,7 +65,10 @@ public final class GlobalModel implements LayoutListener {
     ALREADY_FOLDED
   }
 
-  /** Format version written by {@link #writeTo}. */
+  /**
+   * Format version written by {@link #writeTo}: 3 adds the count of the view's columns ahead
+   * ({@link RlsModel#aheadCount}); 2 and 1 (the pending share an {@link RlsModel}) are read.
+   */
   public static final int FORMAT_VERSION = 3;
   private static final int MAGIC = 0x524e4731; // "RNG1"
   /** A share stated more than this many half-lives after the receiver's clock is refused. */
@@ -724,7 +733,8 @@ public final class GlobalModel implements LayoutListener {
   // ---------------------------------------------------------------- checkpoint
 
   /**
-   * Writes the whole state: the view and the pending share with their columns and bases, the
+   * Writes the whole state: the view (and how many of its columns are ahead in its factor) and
+   * the pending share with their columns and bases, the
    * next share's number and the last number folded from each source. {@link #readFrom}
    * continues bit for bit.
    *

@@ -37,7 +37,9 @@ import java.util.Arrays;
  * term and the columns it was built with, then other added columns. A one-hot row is zero on
  * every level but one, so its leading zeros skip the longest rows of the triangle; a re-basing
  * moves weight into the constant, whose column must precede the re-based one for the factor to
- * stay triangular, which this order keeps. Every method takes and gives vectors in layout order.
+ * stay triangular, which this order keeps. A {@link GlobalModel} view puts the levels only other
+ * partitions hold at the very start, before those ({@link #columnAddedAhead}). Every method takes
+ * and gives vectors in layout order.
  *
  * <p>Storage: {@code R} is an array of rows, row {@code i} a {@code double[]} indexed by column,
  * so a Givens rotation reads and writes a row and the rotated data vector at the same index; the
