@@ -154,6 +154,15 @@ public final class ModelShare {
       count += len;
     }
 
+    /** As {@link DataOutputStream#writeDouble} (big-endian bits), without a call per byte block. */
+    void writeDouble(double v) {
+      ensure(8);
+      long b = Double.doubleToLongBits(v);
+      for (int k = 56; k >= 0; k -= 8) {
+        buf[count++] = (byte) (b >>> k);
+      }
+    }
+
     byte[] toByteArray() {
       return java.util.Arrays.copyOf(buf, count);
     }
@@ -193,6 +202,19 @@ public final class ModelShare {
     @Override
     public int available() {
       return end - pos;
+    }
+
+    /** As {@link DataInputStream#readDouble}. */
+    double readDouble() throws EOFException {
+      if (end - pos < 8) {
+        pos = end;
+        throw new EOFException();
+      }
+      long b = 0;
+      for (int k = 0; k < 8; k++) {
+        b = (b << 8) | (buf[pos++] & 0xff);
+      }
+      return Double.longBitsToDouble(b);
     }
   }
 
@@ -293,11 +315,14 @@ public final class ModelShare {
         out.writeDouble(scales[q]);
         out.writeBoolean(fixed[q]);
       }
+      // the triangle straight into the sink (the data stream has no buffer of its own, so the
+      // bytes are in the same order)
       for (int i = 0; i < p; i++) {
+        final double[] row = rows[i];
         for (int j = i; j < p; j++) {
-          out.writeDouble(rows[i][j]);
+          body.writeDouble(row[j]);
         }
-        out.writeDouble(targets[i]);
+        body.writeDouble(targets[i]);
       }
       out.writeDouble(residualSumOfSquares);
       out.writeDouble(sampleSize);
@@ -362,7 +387,8 @@ public final class ModelShare {
       throw new IOException("model share fails its checksum (tampered or corrupted): CRC-32 0x"
           + Integer.toHexString((int) crc.getValue()) + ", stored 0x" + Integer.toHexString(stored));
     }
-    DataInputStream in = new DataInputStream(new Source(bytes, 12, length));
+    Source src = new Source(bytes, 12, length);
+    DataInputStream in = new DataInputStream(src); // no buffer of its own: src.readDouble follows it
     try {
       int source = in.readInt();
       long sequence = in.readLong();
@@ -385,10 +411,11 @@ public final class ModelShare {
       double[][] rows = new double[p][p];
       double[] targets = new double[p];
       for (int i = 0; i < p; i++) {
+        final double[] row = rows[i];
         for (int j = i; j < p; j++) {
-          rows[i][j] = in.readDouble();
+          row[j] = src.readDouble();
         }
-        targets[i] = in.readDouble();
+        targets[i] = src.readDouble();
       }
       double rss = in.readDouble();
       double n = in.readDouble();

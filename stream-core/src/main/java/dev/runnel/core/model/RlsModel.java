@@ -1732,10 +1732,19 @@ public final class RlsModel implements LayoutListener {
     if (inverse != null && inverseStart <= start) {
       return inverse;
     }
-    double[] u = new double[p * p];
+    // a block computed before (from inverseStart on) is extended, not computed again: its
+    // entries are those of any larger block (see above), and each column goes on upwards
+    final double[] u = inverse != null ? inverse : new double[p * p];
+    final int done = inverse != null ? inverseStart : p;
     for (int j = start; j < p; j++) {
-      u[j * p + j] = 1.0 / r[j][j];
-      for (int i = j - 1; i >= start; i--) {
+      final int top;
+      if (j >= done) {
+        top = done - 1; // rows from done on are there
+      } else {
+        u[j * p + j] = 1.0 / r[j][j];
+        top = j - 1;
+      }
+      for (int i = top; i >= start; i--) {
         double s = 0.0;
         for (int k = i + 1; k <= j; k++) {
           s += r[i][k] * u[k * p + j];

@@ -61,7 +61,7 @@ class GlobalViewOrderTest {
   }
 
   @Test
-  void theLocalBlockGivesTheBitsOfTheWholeSolveAndInverse() {
+  void theLocalBlockGivesTheBitsOfTheWholeSolveAndInverse() throws IOException {
     GlobalModelStateTest.Feed[] f = twoPartitions();
     GlobalModelStateTest.Feed a = f[0];
     a.gm.columnRemoved(a.layout.indexOf("site=0-1")); // kept in the view, among the local columns
@@ -93,6 +93,12 @@ class GlobalViewOrderTest {
 
     double[] block = g.localUnscaledCovariance();
     double[] whole = v.unscaledCovariance();
+    // the whole inverse, extended from the block's, is the one computed from scratch
+    RlsModel fresh = GlobalModelStateTest.restore(GlobalModelStateTest.bytes(g)).view();
+    double[] freshAll = new double[n];
+    fresh.standardErrors(freshAll);
+    assertArrayEquals(freshAll, all);
+    assertArrayEquals(fresh.unscaledCovariance(), whole);
     for (int i = 0; i < local; i++) {
       for (int j = 0; j < local; j++) {
         int vi = g.viewIndex(a.layout.get(i));
