@@ -59,6 +59,45 @@ class DriftResetDueTest {
   }
 
   @Test
+  void theHoldEndsAfterMScoredUpdatesWhoseMeanSquaredErrorIsBelowTwo_notAtTwo() {
+    // z² = 0.5 in every held update: after m = 10 of them the moving mean 0.5 is below 2: caught up
+    DriftMonitor m = new DriftMonitor(settings(10));
+    fireUp(m);
+    for (int i = 1; i < 10; i++) {
+      assertFalse(m.afterUpdate(0.5), "held update " + i + " of at least 10");
+      assertFalse(m.afterUpdate(Double.NaN), "an unscored update does not count");
+    }
+    assertTrue(m.afterUpdate(0.5), "the 10th scored update ends the hold");
+    assertFalse(m.noiseHeld());
+
+    // z² = 2 exactly: the mean is 2, not below it, so the hold goes on to its limit of 100 updates
+    DriftMonitor atTwo = new DriftMonitor(settings(10));
+    fireUp(atTwo);
+    for (int i = 1; i < DriftMonitor.HOLD_LIMIT * 10; i++) {
+      assertFalse(atTwo.afterUpdate(2.0), "held update " + i);
+    }
+    assertTrue(atTwo.afterUpdate(2.0), "the limit ends it");
+  }
+
+  @Test
+  void anUpdateWithoutAHoldLeavesTheStateAsItWas() throws java.io.IOException {
+    DriftMonitor fresh = new DriftMonitor(settings(10));
+    DriftMonitor m = new DriftMonitor(settings(10));
+    assertFalse(m.afterUpdate(0.5));
+    assertFalse(m.noiseHeld());
+    assertEquals(java.util.Arrays.toString(bytes(fresh)), java.util.Arrays.toString(bytes(m)));
+  }
+
+  static byte[] bytes(DriftMonitor m) throws java.io.IOException {
+    java.io.ByteArrayOutputStream bo = new java.io.ByteArrayOutputStream();
+    java.io.DataOutputStream out = new java.io.DataOutputStream(bo);
+    m.writeTo(out);
+    m.writeAttributionTo(out);
+    out.flush();
+    return bo.toByteArray();
+  }
+
+  @Test
   void upAlarm_whenTheModelHoldsFewerRecordsThanM_keepsLambda() {
     DriftMonitor m = new DriftMonitor(settings(10));
     fireUp(m);
