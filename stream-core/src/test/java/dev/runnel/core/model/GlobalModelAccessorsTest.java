@@ -234,6 +234,17 @@ class GlobalModelAccessorsTest {
     double pred = ref.theta.dotProduct(xv);
     double lev = xv.dotProduct(ref.inv.operate(xv));
     assertEquals(pred, a.gm.predict(x), 1e-9 * (1 + Math.abs(pred)));
+    // the leverage of another record, asked right after: each call reads its own vector
+    Rec other = new Rec(a.clock, new double[] {6.0, 25.0, 1.0}, "site=a", 0);
+    double[] x2 = new double[local];
+    x2[0] = 1;
+    for (int k = 0; k < 3; k++) {
+      x2[1 + k] = (other.raw()[k] - a.off[k]) / a.sc[k];
+    }
+    x2[a.layout.indexOf("site=a")] = 1;
+    RealVector xv2 = new ArrayRealVector(ref.row(other, a.off, a.sc));
+    double lev2 = xv2.dotProduct(ref.inv.operate(xv2));
+    assertEquals(lev2, a.gm.leverage(x2), 1e-9 * lev2);
     assertEquals(lev, a.gm.leverage(x), 1e-9 * lev);
     double[] out = new double[2];
     a.gm.forecast(x, out);

@@ -199,17 +199,17 @@ class GlobalModelRefusalsTest {
 
   /** A model of partition 1 that folded from partitions 0 and 2, and kept a removed column. */
   static GlobalModel twoSources() {
-    GlobalModel g = new GlobalModel(1, new String[] {"constant", "price", "site=a", "site=b"}, PLAIN, H);
+    GlobalModel g = new GlobalModel(1, new String[] {"constant", "price", "site=a", "site=b", "site=c"}, PLAIN, H);
     Random rnd = new Random(4);
     for (int i = 0; i < 20; i++) {
-      double[] x = {1, rnd.nextGaussian(), i % 3 == 0 ? 1 : 0, i % 3 == 1 ? 1 : 0};
+      double[] x = {1, rnd.nextGaussian(), i % 4 == 0 ? 1 : 0, i % 4 == 1 ? 1 : 0, i % 4 == 2 ? 1 : 0};
       g.update(x, x[1] + rnd.nextGaussian(), 0.99, null);
     }
     g.fold(share(0, 1, 0, new String[] {"constant", "price"}, new double[2], new double[] {1, 1}, 0,
         new double[][] {{2, 1}, {0, 3}}, new double[] {1, 2}), 0);
     g.fold(share(2, 1, 0, new String[] {"constant", "price"}, new double[2], new double[] {1, 1}, 0,
         new double[][] {{2, 1}, {0, 3}}, new double[] {1, 2}), 0);
-    g.columnRemoved(3); // site=b: kept in the view with local index -1
+    g.columnRemoved(2); // site=a: kept in the view with local index -1; site=b and site=c move down
     return g;
   }
 
@@ -274,19 +274,22 @@ class GlobalModelRefusalsTest {
     badCheckpoint(changed(good, b -> b.putDouble(p + 8, 0.0)), "view column 1 (price", "scale 0.0");
     badCheckpoint(changed(good, b -> b.putDouble(p + 8, -1.0)), "scale -1.0");
     badCheckpoint(changed(good, b -> b.putDouble(p + 8, Double.POSITIVE_INFINITY)), "scale Infinity");
-    badCheckpoint(changed(good, b -> b.putInt(p + 17, 3)), "local index 3"); // 3 local columns: 0 to 2
+    badCheckpoint(changed(good, b -> b.putInt(p + 17, 4)), "local index 4"); // 4 local columns: 0 to 3
     badCheckpoint(changed(good, b -> b.putInt(p + 17, -2)), "local index -2");
     badCheckpoint(changed(good, b -> b.putInt(p + 17, 0)), "local index 0"); // the constant's
     badCheckpoint(changed(good, b -> b.putInt(p + 17, -1)), "view has no column for local column 1");
-    // a name given twice: site=b (kept, local index -1) renamed site=a
+    // a name given twice: site=b renamed site=a
     int siteB = column(names, names.indexOf("site=b"));
     byte[] twice = good.clone();
     twice[siteB - 1] = 'a';
     badCheckpoint(twice, "view column 3 (site=a");
-    // a kept column (local index -1) and the largest local index are accepted: the good bytes
-    assertEquals(-1, ByteBuffer.wrap(good).getInt(siteB + 17));
+    // a kept column (local index -1) and the largest local index are accepted: the good bytes;
+    // the columns after a removed one moved down by one
     int siteA = column(names, names.indexOf("site=a"));
-    assertEquals(2, ByteBuffer.wrap(good).getInt(siteA + 17));
+    int siteC = column(names, names.indexOf("site=c"));
+    assertEquals(-1, ByteBuffer.wrap(good).getInt(siteA + 17));
+    assertEquals(2, ByteBuffer.wrap(good).getInt(siteB + 17));
+    assertEquals(3, ByteBuffer.wrap(good).getInt(siteC + 17));
   }
 
   @Test
