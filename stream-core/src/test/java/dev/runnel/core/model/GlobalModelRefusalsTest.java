@@ -104,6 +104,8 @@ class GlobalModelRefusalsTest {
     assertEquals(2, g.localDimension());
     // without a constant term, column 0 is an ordinary column and may go
     GlobalModel n = new GlobalModel(0, new String[] {"price", "temp"}, NO_CONSTANT, H);
+    n.columnRebased(0, 2.0, 0.0); // column 0 may be re-based too
+    assertEquals(2.0, n.viewScale(0), 0.0);
     n.columnRemoved(0);
     assertEquals(1, n.localDimension());
     refused(IllegalArgumentException.class, () -> n.columnRemoved(1), "[0, 0]", "got 1");
@@ -179,7 +181,8 @@ class GlobalModelRefusalsTest {
     refused(IllegalArgumentException.class, () -> g.fold(priceShare(1, t0, 1e99, 1, 0, 100), t0),
         "out of range in this view's basis");
     assertArrayEquals(before, bytes(g));
-    assertEquals(GlobalModel.FoldResult.FOLDED, g.fold(priceShare(1, t0, 1e99, 1e99, 0, 1), t0));
+    // 1e100 itself is within the limit
+    assertEquals(GlobalModel.FoldResult.FOLDED, g.fold(priceShare(1, t0, 1e100, 1e100, 0, 1), t0));
   }
 
   @Test
@@ -246,6 +249,8 @@ class GlobalModelRefusalsTest {
     badCheckpoint(changed(good, b -> b.putDouble(12, Double.NaN)), "half-life NaN ms");
     badCheckpoint(changed(good, b -> b.putInt(20, -1)), "local columns -1");
     badCheckpoint(changed(good, b -> b.putInt(20, ModelShare.MAX_COLUMNS + 1)), "local columns 32769");
+    // 2^15 local columns pass the header's bound; the view then has none for local column 4
+    badCheckpoint(changed(good, b -> b.putInt(20, ModelShare.MAX_COLUMNS)), "view has no column for local column 4");
     badCheckpoint(changed(good, b -> b.putLong(24, 0)), "next share 0");
     badCheckpoint(changed(good, b -> b.putInt(32, -1)), "sources -1");
     // the two folded sources: (0, 1) and (2, 1), each an int and a long
@@ -255,6 +260,9 @@ class GlobalModelRefusalsTest {
     badCheckpoint(changed(good, b -> b.putInt(48, 0)), "folded share 1 of partition 0"); // twice
     badCheckpoint(changed(good, b -> b.putInt(60, -1)), "view has -1 columns");
     badCheckpoint(changed(good, b -> b.putInt(60, ModelShare.MAX_COLUMNS + 1)), "view has 32769 columns");
+    // 2^15 view columns pass the count's bound (and the bytes after it are not such columns)
+    IOException most = assertThrows(IOException.class, () -> read(changed(good, b -> b.putInt(60, ModelShare.MAX_COLUMNS))));
+    assertTrue(!most.getMessage().contains("32768 columns"), most.getMessage());
     for (int cut = 0; cut < good.length; cut += 11) {
       badCheckpoint(java.util.Arrays.copyOf(good, cut), "global model checkpoint is truncated");
     }
