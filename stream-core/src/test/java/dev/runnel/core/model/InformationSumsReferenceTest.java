@@ -213,7 +213,7 @@ class InformationSumsReferenceTest {
       }
       y += 0.3 * rnd.nextGaussian();
       double lambda = step % 5 == 0 ? 1.0 : StrictMath.pow(2.0, -rnd.nextInt(300) / 2000.0);
-      s.update(x, y, lambda);
+      add(s, x, y, lambda);
       ref.update(x, y, lambda);
       if (step % 50 == 49) {
         check(s, ref, all(ref.p), "step " + step);
@@ -234,7 +234,7 @@ class InformationSumsReferenceTest {
     for (int i = 0; i < 20; i++) {
       double[] x = {1, rnd.nextGaussian() * 4 + 2};
       double y = 1 + x[1] + rnd.nextGaussian();
-      moved.update(x, y, 1.0);
+      add(moved, x, y, 1.0);
       ref.update(x, y, 1.0);
     }
     moved.columnRebased(1, 2.0, 3.0);
@@ -243,7 +243,7 @@ class InformationSumsReferenceTest {
     ref.rebased(1, 0.5, -1.0);
     // a row given now is in the twice-moved basis
     double[] x = {1, 0.7};
-    moved.update(x, 2.5, 1.0);
+    add(moved, x, 2.5, 1.0);
     ref.update(x, 2.5, 1.0);
     check(moved, ref, all(2), "composed");
     // the one map equivalent to both: x'' = (x - 2) / 1 (shift 3 then, in units of scale 2, -1)
@@ -253,12 +253,12 @@ class InformationSumsReferenceTest {
     for (int i = 0; i < 20; i++) {
       double[] r = {1, again.nextGaussian() * 4 + 2};
       double yy = 1 + r[1] + again.nextGaussian();
-      once.update(r, yy, 1.0);
+      add(once, r, yy, 1.0);
       refOnce.update(r, yy, 1.0);
     }
     once.columnRebased(1, 1.0, 1.0);
     refOnce.rebased(1, 1.0, 1.0);
-    once.update(x, 2.5, 1.0);
+    add(once, x, 2.5, 1.0);
     refOnce.update(x, 2.5, 1.0);
     double[][] r1 = new double[2][2];
     double[][] r2 = new double[2][2];
@@ -288,7 +288,7 @@ class InformationSumsReferenceTest {
       }
       double y = 2 + x[1] - x[2] + 0.1 * rnd.nextGaussian();
       double lambda = step < 3 || step >= 140 ? 1.0 : step < 80 ? 0.5 : 0x1p-20;
-      s.update(x, y, lambda);
+      add(s, x, y, lambda);
       ref.update(x, y, lambda);
       if (step == 62 || step == 79) {
         check(s, ref, all(8), "step " + step);
@@ -312,7 +312,7 @@ class InformationSumsReferenceTest {
       }
       double[] x = {0.5 + rnd.nextDouble() * 3, rnd.nextGaussian(), rnd.nextGaussian()};
       double y = x[0] - x[1] + rnd.nextGaussian();
-      s.update(x, y, 0.97);
+      add(s, x, y, 0.97);
       ref.update(x, y, 0.97);
     }
     check(s, ref, all(3), "x_0 not 1");
@@ -331,7 +331,7 @@ class InformationSumsReferenceTest {
         double v = 1000 * rnd.nextGaussian();
         double[] x = {1, v, 3 * v + 1e-12 * rnd.nextGaussian()};
         double y = 1 + 0.002 * v + rnd.nextGaussian();
-        s.update(x, y, 1.0);
+        add(s, x, y, 1.0);
         ref.update(x, y, 1.0);
       }
       double[][] rows = check(s, ref, new int[] {0, 1}, "seed " + seed);
@@ -355,7 +355,7 @@ class InformationSumsReferenceTest {
       int level = 2 + rnd.nextInt(3);
       x[level] = 1;
       double y = 1 + 2 * x[1] + level + 0.2 * rnd.nextGaussian();
-      s.update(x, y, 0.98);
+      add(s, x, y, 0.98);
       ref.update(x, y, 0.98);
     }
     double[][] rows = check(s, ref, new int[] {0, 1, 2, 3}, "rank deficient");
@@ -371,7 +371,7 @@ class InformationSumsReferenceTest {
     double n = 0;
     double[] ys = {1.5, -2, 3};
     for (double y : ys) {
-      s.update(new double[0], y, 0.5);
+      add(s, new double[0], y, 0.5);
       c = 0.5 * c + y * y;
       n = 0.5 * n + 1;
     }
@@ -387,7 +387,7 @@ class InformationSumsReferenceTest {
     for (int i = 0; i < 30; i++) {
       double[] x = {1, rnd.nextGaussian(), rnd.nextInt(2)};
       double y = x[1] + rnd.nextGaussian();
-      s.update(x, y, 0.9);
+      add(s, x, y, 0.9);
       ref.update(x, y, 0.9);
     }
     s.columnRebased(1, 1.7, -0.4); // pending when the checkpoint is written
@@ -397,13 +397,13 @@ class InformationSumsReferenceTest {
     assertArrayEquals(cp, bytes(back), "the checkpoint does not read back to the same bytes");
     for (InformationSums t : List.of(s, back)) {
       t.columnAdded();
-      t.update(new double[] {1, 0.3, 1, 2.0}, 1.1, 0.9);
+      add(t, new double[] {1, 0.3, 1, 2.0}, 1.1, 0.9);
     }
     ref.columnAdded();
     ref.update(new double[] {1, 0.3, 1, 2.0}, 1.1, 0.9);
     ref.update(new double[] {1, -0.3, 0, -1.0}, 0.4, 1.0);
-    s.update(new double[] {1, -0.3, 0, -1.0}, 0.4, 1.0);
-    back.update(new double[] {1, -0.3, 0, -1.0}, 0.4, 1.0);
+    add(s, new double[] {1, -0.3, 0, -1.0}, 0.4, 1.0);
+    add(back, new double[] {1, -0.3, 0, -1.0}, 0.4, 1.0);
     assertArrayEquals(bytes(s), bytes(back), "the read copy continues differently");
     check(back, ref, all(4), "read back");
   }
@@ -457,7 +457,7 @@ class InformationSumsReferenceTest {
     assertEquals(2.0, rows[1][1], 1e-15);
     // no columns at all reads back
     InformationSums none = new InformationSums(0);
-    none.update(new double[0], 2.0, 1.0);
+    add(none, new double[0], 2.0, 1.0);
     InformationSums noneBack = read(bytes(none));
     assertEquals(0, noneBack.dimension());
     assertEquals(4.0, noneBack.sqrtInformation(new double[0][0], new double[0]), 0.0);
@@ -479,6 +479,11 @@ class InformationSumsReferenceTest {
     old.columnRebased(2, 2.0, 0.5);
     ref.rebased(2, 2.0, 0.5);
     check(InformationSums.fromModel(old), ref, all(3), "from a model");
+  }
+
+  /** Forgets by {@code lambda} and adds the row {@code (x, y)}, every entry of {@code x} in its own column. */
+  static void add(InformationSums s, double[] x, double y, double lambda) {
+    s.update(x, y, lambda);
   }
 
   static byte[] bytes(InformationSums s) throws IOException {
