@@ -243,7 +243,8 @@ class GlobalModelRefusalsTest {
     assertArrayEquals(good, bytes(read(good)), "partition 1 with sources 0 and 2 reads back");
     badCheckpoint(changed(good, b -> b.putInt(0, 0x524e4732)), "not a global model checkpoint");
     badCheckpoint(changed(good, b -> b.putInt(4, 0)), "format version 0 is not supported");
-    badCheckpoint(changed(good, b -> b.putInt(4, 3)), "format version 3 is not supported");
+    int next = GlobalModel.FORMAT_VERSION + 1;
+    badCheckpoint(changed(good, b -> b.putInt(4, next)), "format version " + next + " is not supported");
     badCheckpoint(changed(good, b -> b.putInt(8, -1)), "corrupt global model checkpoint", "partition -1");
     badCheckpoint(changed(good, b -> b.putDouble(12, 0.0)), "half-life 0.0 ms");
     badCheckpoint(changed(good, b -> b.putDouble(12, Double.NaN)), "half-life NaN ms");
