@@ -204,6 +204,48 @@ class RlsGlobalOperationsTest {
   }
 
   @Test
+  void downdateAndAColumnWithoutInformation() throws IOException {
+    Random rnd = new Random(6);
+    Ref ref = new Ref();
+    RlsModel m = learned(ref, rnd, 8);
+    m.columnAdded(3, "level", true); // no prior: the new column has no information
+    byte[] before = bytes(m);
+    // a row that has the column cannot have been learned: refused, nothing changed
+    assertFalse(m.downdate(new double[] {1, 5, 0, 1}, 1.0, 1.0));
+    assertFalse(m.downdate(new double[] {1, Double.NaN, 0, 0}, 1.0, 1.0));
+    assertArrayEquals(before, bytes(m));
+    // a row without it is removed; the information is X^T X of the other rows, 0 in the new column
+    double[] gone = Arrays.copyOf(ref.x.get(4), 4);
+    assertTrue(m.downdate(gone, ref.y.get(4), 1.0));
+    ref.x.remove(4);
+    ref.y.remove(4);
+    double[] info = m.informationMatrix();
+    for (int a = 0; a < 4; a++) {
+      for (int b = 0; b < 4; b++) {
+        double want = 0;
+        for (double[] x : ref.x) {
+          want += (a < 3 ? x[a] : 0) * (b < 3 ? x[b] : 0);
+        }
+        assertEquals(want, info[a * 4 + b], 1e-9 * (1 + Math.abs(want)), "(" + a + ", " + b + ")");
+      }
+    }
+    assertEquals(7.0, m.effectiveSampleSize(), 1e-12);
+  }
+
+  @Test
+  void aModelWithoutPriorIsNoLongerReadyWhenADowndateLeavesADirectionBelowTheTolerance() {
+    // pivots 1e4 and 1e-4 (ratio 1e-8, above READY_TOLERANCE 1e-13); removing all but 1e-11 of
+    // the second row leaves a pivot of about 1e-4 * sqrt(1e-11), a ratio of about 3e-14
+    RlsModel m = new RlsModel(2, PLAIN);
+    assertTrue(m.update(new double[] {1e4, 0}, 1.0, 1.0));
+    assertTrue(m.update(new double[] {0, 1e-4}, 1.0, 1.0));
+    assertTrue(m.ready());
+    assertTrue(m.downdate(new double[] {0, 1e-4}, 1.0, 1.0 - 1e-11));
+    assertFalse(m.ready(), "a direction with 1e-11 of its information left is not determined");
+    assertTrue(Double.isNaN(m.predict(new double[] {1, 1})));
+  }
+
+  @Test
   void theSquareRootInformationIsTheInformationInTheNewBasis() {
     Random rnd = new Random(5);
     Ref ref = new Ref();
