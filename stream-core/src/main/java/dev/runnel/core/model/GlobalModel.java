@@ -35,7 +35,13 @@ import java.util.TreeMap;
  * the union of all records gives them, and a later share that touches the column adds to it
  * exactly; marginalizing would be exact only until such a share came. A column the local layout
  * removes is kept too, for the same reason (its information is in the pending share until it is
- * shared); a local column that comes back under the same name continues the kept one. Every
+ * shared); a local column that comes back under the same name continues the kept one. A level
+ * (a never re-based column) a share brings that the view lacks goes to the very start of the
+ * view's factor ({@link RlsModel#columnAddedAhead}): own rows are 0 there, so an own update and
+ * forecast skip those rows, and the local weights, standard errors and covariance come from the
+ * factor's trailing block alone ({@link RlsModel#weightsFrom}), exactly, since the trailing block
+ * of an upper-triangular factor factors the marginal information of its columns; the leading
+ * block is kept, so a later share touching it still folds exactly. Every
  * column's basis (the entry of a value {@code v} is {@code (v - offset) / scale}) starts at
  * {@code (0, 1)} when the column is created, as the featurizer's scalers do, and follows each
  * re-basing ({@code offset += shift * scale}, {@code scale *= s'/s}); a share states its
@@ -59,8 +65,11 @@ public final class GlobalModel implements LayoutListener {
     ALREADY_FOLDED
   }
 
-  /** Format version written by {@link #writeTo}. */
-  public static final int FORMAT_VERSION = 2;
+  /**
+   * Format version written by {@link #writeTo}: 3 adds the count of the view's columns ahead
+   * ({@link RlsModel#aheadCount}); 2 and 1 (the pending share an {@link RlsModel}) are read.
+   */
+  public static final int FORMAT_VERSION = 3;
   private static final int MAGIC = 0x524e4731; // "RNG1"
   /** A share stated more than this many half-lives after the receiver's clock is refused. */
   static final double MAX_HALVINGS_AHEAD = 64.0;
@@ -79,6 +88,9 @@ public final class GlobalModel implements LayoutListener {
     int[] fromLocal = new int[8];
     /** Per column, the local index it is, or -1. */
     int[] local = new int[8];
+    /** The local indices in the order of their columns here; rebuilt when {@link #orderStale}. */
+    int[] localOrder = new int[8];
+    boolean orderStale = true;
 
     int size() {
       return names.size();
@@ -108,6 +120,24 @@ public final class GlobalModel implements LayoutListener {
       }
       fromLocal[localIndex] = k;
       local[k] = localIndex;
+      orderStale = true;
+    }
+
+    /** @return the local indices in the order of their columns here ({@code localCount} of them) */
+    int[] localOrder(int localCount) {
+      if (orderStale) {
+        if (localOrder.length < localCount) {
+          localOrder = new int[Math.max(localCount, 2 * localOrder.length)];
+        }
+        int m = 0;
+        for (int k = 0; k < names.size(); k++) {
+          if (local[k] >= 0) {
+            localOrder[m++] = local[k];
+          }
+        }
+        orderStale = false;
+      }
+      return localOrder;
     }
 
     /** The local layout adds column {@code localIndex}: continue a kept column of that name or add one. */
@@ -144,6 +174,7 @@ public final class GlobalModel implements LayoutListener {
     }
 
     void localRemoved(int localIndex, int localCount) {
+      orderStale = true;
       local[fromLocal[localIndex]] = -1;
       for (int j = localIndex + 1; j < localCount; j++) {
         int k = fromLocal[j];
@@ -241,7 +272,8 @@ public final class GlobalModel implements LayoutListener {
   /** Per source partition, the last sequence number folded; sorted, so the checkpoint's bytes are too. */
   private final TreeMap<Integer, Long> folded = new TreeMap<>();
   private double[] viewRow = new double[8];
-  private double[] pendingRow = new double[8];
+  /** {@link #localStart()}, or -1 when a layout change or a fold may have moved it. */
+  private int localStart = -1;
 
   /**
    * A model at its prior over {@code initialColumns}, the layout's columns before any event (the
@@ -302,25 +334,23 @@ public final class GlobalModel implements LayoutListener {
 
   // ---------------------------------------------------------------- the stream
 
-  /** Writes the local vector {@code x} into the view's and the pending share's layouts. */
+  /**
+   * Writes the local vector {@code x} into the view's layout (the pending share reads the local
+   * vector itself: {@link InformationSums#update}).
+   */
   private void scatter(double[] x) {
     if (x.length < local) {
       throw new IllegalArgumentException("vector length must be at least the local dimension " + local + ", got "
           + x.length);
     }
     int nv = view.size();
-    int np = pending.size();
     if (viewRow.length < nv) {
       viewRow = new double[Math.max(nv, 2 * viewRow.length)];
     }
-    if (pendingRow.length < np) {
-      pendingRow = new double[Math.max(np, 2 * pendingRow.length)];
-    }
     Arrays.fill(viewRow, 0, nv, 0.0);
-    Arrays.fill(pendingRow, 0, np, 0.0);
+    final int[] to = view.fromLocal;
     for (int j = 0; j < local; j++) {
-      viewRow[view.fromLocal[j]] = x[j];
-      pendingRow[pending.fromLocal[j]] = x[j];
+      viewRow[to[j]] = x[j];
     }
   }
 
@@ -340,7 +370,8 @@ public final class GlobalModel implements LayoutListener {
     if (!view.model.update(viewRow, y, lambda, aPrioriOut)) {
       return false;
     }
-    pending.sums.update(pendingRow, y, lambda); // the view accepted the row: it is finite and in range
+    // the view accepted the row: it is finite and in range
+    pending.sums.update(x, pending.localOrder(local), pending.fromLocal, local, y, lambda);
     return true;
   }
 
@@ -506,13 +537,18 @@ public final class GlobalModel implements LayoutListener {
     for (int q = 0; q < n; q++) {
       if (target[q] >= view.size()) {
         int k = view.register(s.name(q), s.fixed(q), s.offset(q), s.scale(q));
-        view.model.columnAdded(k, s.name(q), s.fixed(q));
+        if (s.fixed(q)) {
+          view.model.columnAddedAhead(k, s.name(q)); // own rows are 0 there: see the class doc
+        } else {
+          view.model.columnAdded(k, s.name(q), false);
+        }
       }
     }
     if (!view.model.addRows(rows, targets, n, weight, s.residualSumOfSquares(), s.sampleSize())) {
       throw new IllegalStateException("the view refused rows checked in range"); // checked above
     }
     folded.put(s.source(), s.sequence());
+    localStart = -1;
     return FoldResult.FOLDED;
   }
 
@@ -534,6 +570,7 @@ public final class GlobalModel implements LayoutListener {
     }
     fresh.model = new RlsModel(local, settings);
     view = fresh;
+    localStart = -1;
     pending = freshPending();
   }
 
@@ -552,6 +589,7 @@ public final class GlobalModel implements LayoutListener {
     view.localAdded(index, name, neverRebased);
     pending.localAdded(index, name, neverRebased);
     local++;
+    localStart = -1;
   }
 
   /** The column stays in the view and in the pending share (kept; see the class doc). */
@@ -564,6 +602,7 @@ public final class GlobalModel implements LayoutListener {
     view.localRemoved(index, local);
     pending.localRemoved(index, local);
     local--;
+    localStart = -1;
   }
 
   @Override
@@ -611,7 +650,7 @@ public final class GlobalModel implements LayoutListener {
    */
   public void localWeights(double[] out) {
     double[] w = new double[view.size()];
-    view.model.weights(w);
+    view.model.weightsFrom(localStart(), w);
     for (int j = 0; j < local; j++) {
       out[j] = w[view.fromLocal[j]];
     }
@@ -624,7 +663,7 @@ public final class GlobalModel implements LayoutListener {
    */
   public void localStandardErrors(double[] out) {
     double[] se = new double[view.size()];
-    view.model.standardErrors(se);
+    view.model.standardErrorsFrom(localStart(), se);
     for (int j = 0; j < local; j++) {
       out[j] = se[view.fromLocal[j]];
     }
@@ -637,7 +676,7 @@ public final class GlobalModel implements LayoutListener {
    * @return row-major {@code localDimension() x localDimension()} (a new array)
    */
   public double[] localUnscaledCovariance() {
-    double[] cov = view.model.unscaledCovariance();
+    double[] cov = view.model.unscaledCovarianceFrom(localStart());
     int n = view.size();
     double[] out = new double[local * local];
     for (int i = 0; i < local; i++) {
@@ -647,6 +686,22 @@ public final class GlobalModel implements LayoutListener {
       }
     }
     return out;
+  }
+
+  /**
+   * @return the first position in the view's factor of a local column: the trailing block from
+   *     there holds every local column, and the solution's entries, standard errors and marginal
+   *     covariance of those columns need only that block (see {@link RlsModel#weightsFrom})
+   */
+  private int localStart() {
+    if (localStart < 0) {
+      int start = view.size();
+      for (int j = 0; j < local; j++) {
+        start = Math.min(start, view.model.position(view.fromLocal[j]));
+      }
+      localStart = start;
+    }
+    return localStart;
   }
 
   /** @return per source partition, the last sequence number folded (a new sorted map) */
@@ -678,7 +733,8 @@ public final class GlobalModel implements LayoutListener {
   // ---------------------------------------------------------------- checkpoint
 
   /**
-   * Writes the whole state: the view and the pending share with their columns and bases, the
+   * Writes the whole state: the view (and how many of its columns are ahead in its factor) and
+   * the pending share with their columns and bases, the
    * next share's number and the last number folded from each source. {@link #readFrom}
    * continues bit for bit.
    *
@@ -698,6 +754,7 @@ public final class GlobalModel implements LayoutListener {
       out.writeLong(e.getValue());
     }
     view.writeTo(out);
+    out.writeInt(view.model.aheadCount());
     pending.writeTo(out);
   }
 
@@ -738,6 +795,14 @@ public final class GlobalModel implements LayoutListener {
         }
       }
       Table view = Table.readFrom(in, local, "view", 0);
+      if (version >= 3) {
+        int ahead = in.readInt();
+        try {
+          view.model.restoreAheadCount(ahead);
+        } catch (IllegalArgumentException e) {
+          throw new IOException("corrupt global model checkpoint: " + e.getMessage());
+        }
+      }
       GlobalModel g = new GlobalModel(partition, view.model.settings(), h, view);
       g.local = local;
       g.nextSequence = nextSequence;

@@ -152,13 +152,20 @@ final class InformationSums {
   }
 
   /**
-   * Forgets by {@code lambda} and adds the row {@code (x, y)}.
+   * Forgets by {@code lambda} and adds the row {@code (x, y)}, given in another layout (the
+   * {@link GlobalModel}'s local one, so it is not copied into this object's order): entry
+   * {@code x[j]} is column {@code columns[j]} here, for {@code count} entries; the columns no
+   * entry names are 0.
    *
-   * @param x the row, at least {@link #dimension()} entries, each finite. Not modified.
+   * @param x the row in its own layout, at least {@code count} entries, each finite. Not modified.
+   * @param order the indices {@code j < count} in increasing order of {@code columns[j]}. Not modified.
+   * @param columns per index of {@code x}, its column here, distinct; with a constant term
+   *     {@code columns[0] == 0}. Not modified.
+   * @param count the number of entries of {@code x}
    * @param y its target
    * @param lambda the forgetting factor, in (0, 1]
    */
-  void update(double[] x, double y, double lambda) {
+  void update(double[] x, int[] order, int[] columns, int count, double y, double lambda) {
     if (lambda != 1.0) {
       scale *= lambda;
       nEff *= lambda;
@@ -167,24 +174,30 @@ final class InformationSums {
       }
     }
     final double f = scale == 1.0 ? 1.0 : 1.0 / scale;
-    final int n = p;
     final int[] idx = nz;
     final double[] w = row;
-    final double x0 = n > 0 ? x[0] : 0.0;
+    // column 0's entry (the constant term's when there is one; else every shift is 0)
+    final double x0 = count > 0 && columns[0] == 0 ? x[0] : 0.0;
+    Arrays.fill(w, 0, p, 0.0);
     int m = 0;
-    for (int j = 0; j < n; j++) {
-      final double v = moved[j] ? mapScale[j] * x[j] + mapShift[j] * x0 : x[j];
+    for (int s = 0; s < count; s++) {
+      final int j = order[s];
+      final int k = columns[j];
+      final double v = moved[k] ? mapScale[k] * x[j] + mapShift[k] * x0 : x[j];
       if (v != 0.0) {
-        w[j] = v;
-        idx[m++] = j;
+        w[k] = v;
+        idx[m++] = k;
       }
     }
+    // each non-zero's row of the triangle over [i, last non-zero], zeros included: a loop over
+    // one index, which the JIT turns into vector instructions (adding 0 changes no entry); the
+    // same sums as over the non-zeros alone
+    final int hi = m > 0 ? idx[m - 1] + 1 : 0;
     for (int s = 0; s < m; s++) {
       final int i = idx[s];
       final double xi = w[i] * f;
       final double[] ai = a[i];
-      for (int t = s; t < m; t++) {
-        final int j = idx[t];
+      for (int j = i; j < hi; j++) {
         ai[j] += xi * w[j];
       }
       b[i] += xi * y;

@@ -90,15 +90,29 @@ public final class ModelShare {
     this.fixed = fixed.clone();
     this.targets = targets.clone();
     this.rows = new double[p][p];
+    // each check's message is built only when it fails (building them all cost most of a share's
+    // construction, which runs once per share made and once per share read)
     for (int i = 0; i < p; i++) {
       require(names[i] != null && !names[i].isEmpty() && seen.add(names[i]), "column name", names[i]);
-      require(Double.isFinite(offsets[i]), "offset of column " + names[i], offsets[i]);
-      require(scales[i] > 0 && scales[i] < Double.POSITIVE_INFINITY, "scale of column " + names[i], scales[i]);
-      require(Double.isFinite(targets[i]), "target of row " + i, targets[i]);
-      require(rows[i].length >= p, "length of row " + i, rows[i].length);
+      if (!Double.isFinite(offsets[i])) {
+        require(false, "offset of column " + names[i], offsets[i]);
+      }
+      if (!(scales[i] > 0 && scales[i] < Double.POSITIVE_INFINITY)) {
+        require(false, "scale of column " + names[i], scales[i]);
+      }
+      if (!Double.isFinite(targets[i])) {
+        require(false, "target of row " + i, targets[i]);
+      }
+      if (rows[i].length < p) {
+        require(false, "length of row " + i, rows[i].length);
+      }
+      final double[] from = rows[i];
+      final double[] to = this.rows[i];
       for (int j = i; j < p; j++) {
-        require(Double.isFinite(rows[i][j]), "factor entry (" + i + ", " + j + ")", rows[i][j]);
-        this.rows[i][j] = rows[i][j];
+        if (!Double.isFinite(from[j])) {
+          require(false, "factor entry (" + i + ", " + j + ")", from[j]);
+        }
+        to[j] = from[j];
       }
     }
     this.source = source;
@@ -107,6 +121,101 @@ public final class ModelShare {
     this.constant = constant;
     this.residualSumOfSquares = residualSumOfSquares;
     this.sampleSize = sampleSize;
+  }
+
+  /**
+   * The bytes written, as {@link ByteArrayOutputStream} without its locks (a {@code writeDouble}
+   * is one locked write each there; this class is used by one thread).
+   */
+  private static final class Sink extends java.io.OutputStream {
+    private byte[] buf;
+    private int count;
+
+    Sink(int capacity) {
+      buf = new byte[Math.max(16, capacity)];
+    }
+
+    private void ensure(int more) {
+      if (count + more > buf.length) {
+        buf = java.util.Arrays.copyOf(buf, Math.max(count + more, 2 * buf.length));
+      }
+    }
+
+    @Override
+    public void write(int b) {
+      ensure(1);
+      buf[count++] = (byte) b;
+    }
+
+    @Override
+    public void write(byte[] b, int off, int len) {
+      ensure(len);
+      System.arraycopy(b, off, buf, count, len);
+      count += len;
+    }
+
+    /** As {@link DataOutputStream#writeDouble} (big-endian bits), without a call per byte block. */
+    void writeDouble(double v) {
+      ensure(8);
+      long b = Double.doubleToLongBits(v);
+      for (int k = 56; k >= 0; k -= 8) {
+        buf[count++] = (byte) (b >>> k);
+      }
+    }
+
+    byte[] toByteArray() {
+      return java.util.Arrays.copyOf(buf, count);
+    }
+  }
+
+  /** A range of bytes read, as {@link ByteArrayInputStream} without its locks. */
+  private static final class Source extends java.io.InputStream {
+    private final byte[] buf;
+    private int pos;
+    private final int end;
+
+    Source(byte[] buf, int offset, int length) {
+      this.buf = buf;
+      this.pos = offset;
+      this.end = offset + length;
+    }
+
+    @Override
+    public int read() {
+      return pos < end ? buf[pos++] & 0xff : -1;
+    }
+
+    @Override
+    public int read(byte[] b, int off, int len) {
+      if (len == 0) {
+        return 0;
+      }
+      if (pos >= end) {
+        return -1;
+      }
+      int n = Math.min(len, end - pos);
+      System.arraycopy(buf, pos, b, off, n);
+      pos += n;
+      return n;
+    }
+
+    @Override
+    public int available() {
+      return end - pos;
+    }
+
+    /** As {@link DataInputStream#readDouble}. */
+    double readDouble() throws EOFException {
+      if (end - pos < 8) {
+        pos = end;
+        throw new EOFException();
+      }
+      long b = 0;
+      for (int k = 0; k < 8; k++) {
+        b = (b << 8) | (buf[pos++] & 0xff);
+      }
+      return Double.longBitsToDouble(b);
+    }
   }
 
   private static void require(boolean ok, String what, Object value) {
@@ -192,9 +301,9 @@ public final class ModelShare {
   /** @return the binary form: magic, version, body length, body, CRC-32 of the body */
   public byte[] toBytes() {
     try {
-      ByteArrayOutputStream body = new ByteArrayOutputStream();
-      DataOutputStream out = new DataOutputStream(body);
       int p = names.length;
+      Sink body = new Sink(64 + 40 * p + 8 * (p * (p + 1) / 2 + p));
+      DataOutputStream out = new DataOutputStream(body);
       out.writeInt(source);
       out.writeLong(sequence);
       out.writeLong(eventTimeMillis);
@@ -206,11 +315,14 @@ public final class ModelShare {
         out.writeDouble(scales[q]);
         out.writeBoolean(fixed[q]);
       }
+      // the triangle straight into the sink (the data stream has no buffer of its own, so the
+      // bytes are in the same order)
       for (int i = 0; i < p; i++) {
+        final double[] row = rows[i];
         for (int j = i; j < p; j++) {
-          out.writeDouble(rows[i][j]);
+          body.writeDouble(row[j]);
         }
-        out.writeDouble(targets[i]);
+        body.writeDouble(targets[i]);
       }
       out.writeDouble(residualSumOfSquares);
       out.writeDouble(sampleSize);
@@ -275,7 +387,8 @@ public final class ModelShare {
       throw new IOException("model share fails its checksum (tampered or corrupted): CRC-32 0x"
           + Integer.toHexString((int) crc.getValue()) + ", stored 0x" + Integer.toHexString(stored));
     }
-    DataInputStream in = new DataInputStream(new ByteArrayInputStream(bytes, 12, length));
+    Source src = new Source(bytes, 12, length);
+    DataInputStream in = new DataInputStream(src); // no buffer of its own: src.readDouble follows it
     try {
       int source = in.readInt();
       long sequence = in.readLong();
@@ -298,10 +411,11 @@ public final class ModelShare {
       double[][] rows = new double[p][p];
       double[] targets = new double[p];
       for (int i = 0; i < p; i++) {
+        final double[] row = rows[i];
         for (int j = i; j < p; j++) {
-          rows[i][j] = in.readDouble();
+          row[j] = src.readDouble();
         }
-        targets[i] = in.readDouble();
+        targets[i] = src.readDouble();
       }
       double rss = in.readDouble();
       double n = in.readDouble();

@@ -37,7 +37,9 @@ import java.util.Arrays;
  * term and the columns it was built with, then other added columns. A one-hot row is zero on
  * every level but one, so its leading zeros skip the longest rows of the triangle; a re-basing
  * moves weight into the constant, whose column must precede the re-based one for the factor to
- * stay triangular, which this order keeps. Every method takes and gives vectors in layout order.
+ * stay triangular, which this order keeps. A {@link GlobalModel} view puts the levels only other
+ * partitions hold at the very start, before those ({@link #columnAddedAhead}). Every method takes
+ * and gives vectors in layout order.
  *
  * <p>Storage: {@code R} is an array of rows, row {@code i} a {@code double[]} indexed by column,
  * so a Givens rotation reads and writes a row and the rotated data vector at the same index; the
@@ -101,6 +103,12 @@ public final class RlsModel implements LayoutListener {
   /** Number of columns in the leading block. */
   private int front;
   /**
+   * Number of columns at the very start of the leading block added by {@link #columnAddedAhead}
+   * (a {@link GlobalModel} view's columns only other partitions hold); at most {@link #front}.
+   * Not written by {@link #writeTo}: the global model keeps it.
+   */
+  private int ahead;
+  /**
    * Re-basings not yet applied to {@code R}, per factor position: the shift and the scale (0 and
    * 1 where none is pending), over positions {@code [pendLo, pendHi]}; applied together, one pass
    * over the rows, before {@code R} is next read (see {@link #columnRebased}). The entries are
@@ -123,11 +131,16 @@ public final class RlsModel implements LayoutListener {
   private double[] theta;
   /** Whether {@link #theta} is the solution of the current {@code R theta = z}. */
   private boolean thetaValid;
-  /** {@code 1 / r_ii} per factor position, valid while {@link #invDiagValid}. */
+  /** {@code 1 / r_ii} per factor position, valid from position {@link #invDiagFrom} on. */
   private double[] invDiag;
-  private boolean invDiagValid;
-  /** {@code R^-1} of the current factor (row-major p x p), or null; see {@link #inverseFactor}. */
+  /** The first position {@link #invDiag} is valid at; {@code Integer.MAX_VALUE} for none. */
+  private int invDiagFrom = Integer.MAX_VALUE;
+  /**
+   * {@code R^-1} of the current factor (row-major p x p), or null; see {@link #inverseFactor}:
+   * the entries of rows and columns from {@link #inverseStart} on (the others 0, not read).
+   */
   private double[] inverse;
+  private int inverseStart;
   private double[] work;
   /** The scalars {@link #dataRows} carries in and out. */
   private final double[] passAcc = new double[5];
@@ -213,7 +226,7 @@ public final class RlsModel implements LayoutListener {
     zNext = new double[cap];
     theta = new double[cap];
     invDiag = new double[cap];
-    invDiagValid = false;
+    invDiagFrom = Integer.MAX_VALUE;
     work = new double[cap];
     work2 = new double[cap];
     work3 = new double[cap];
@@ -262,21 +275,21 @@ public final class RlsModel implements LayoutListener {
     pos[k] = k;
     col[k] = k;
     p = k + 1;
-    invDiagValid = false;
+    invDiagFrom = Integer.MAX_VALUE;
     inverse = null;
     return k;
   }
 
   /**
-   * Adds layout column {@code p} at position {@code front} of the factor (the end of the leading
-   * block): rows and columns from there move one place on. The new row is the prior row
-   * {@code (0.., d, ..0)} with {@code z} 0, and the new column is 0 above it, so the factor stays
-   * upper triangular and exact. {@code O(p^2)} moves.
+   * Adds layout column {@code p} at position {@code q0} of the factor, at most {@link #front}
+   * (the end of the leading block, or of its part {@link #ahead}): rows and columns from there
+   * move one place on. The new row is the prior row {@code (0.., d, ..0)} with {@code z} 0, and
+   * the new column is 0 above it, so the factor stays upper triangular and exact. {@code O(p^2)}
+   * moves.
    */
-  private void insertFrontColumn() {
+  private void insertFrontColumn(int q0) {
     ensureCapacity(p + 1);
     final int n = p;
-    final int q0 = front;
     final double[][] rm = r;
     for (int i = 0; i < q0; i++) {
       final double[] row = rm[i];
@@ -304,7 +317,7 @@ public final class RlsModel implements LayoutListener {
     col[q0] = n;
     priorAtRefresh[n] = priorInfo;
     logDecayAtRefresh[n] = logDecay;
-    front = q0 + 1;
+    front++;
     p = n + 1;
     factorChanged();
   }
@@ -405,12 +418,24 @@ public final class RlsModel implements LayoutListener {
     final double[] u = work2;
     final double[][] rm = r;
     final double[] zm = z;
-    final double[] inv = reciprocalPivots();
     final int n = p;
     gather(x, u);
+    // rows before the first non-zero carry nothing (below): only their pivots are checked, and
+    // their reciprocals are not needed (a global model's view keeps the columns only other
+    // partitions hold there)
+    int first = 0;
+    while (first < n && u[first] == 0.0) {
+      if (!(rm[first][first] > 0.0)) {
+        out[0] = leverage(x);
+        out[1] = predict(x);
+        return;
+      }
+      first++;
+    }
+    final double[] inv = reciprocalPivots(first);
     double sum = 0.0;
     double pred = 0.0;
-    for (int i = 0; i < n; i++) {
+    for (int i = first; i < n; i++) {
       final double[] row = rm[i];
       final double d = row[i];
       if (!(d > 0.0)) {
@@ -953,8 +978,9 @@ public final class RlsModel implements LayoutListener {
 
   /** The weights and the reciprocal pivots no longer describe {@code R}. */
   private void factorChanged() {
+    inverseStart = 0;
     thetaValid = false;
-    invDiagValid = false;
+    invDiagFrom = Integer.MAX_VALUE;
     inverse = null;
   }
 
@@ -963,14 +989,14 @@ public final class RlsModel implements LayoutListener {
    * they overlap), so that a forward substitution's chain from row to row is a multiplication
    * rather than a division.
    */
-  private double[] reciprocalPivots() {
-    if (!invDiagValid) {
+  private double[] reciprocalPivots(int from) {
+    if (from < invDiagFrom) {
       final double[][] rm = r;
       final double[] inv = invDiag;
-      for (int i = 0; i < p; i++) {
+      for (int i = from; i < p; i++) {
         inv[i] = 1.0 / rm[i][i];
       }
-      invDiagValid = true;
+      invDiagFrom = from;
     }
     return invDiag;
   }
@@ -1009,13 +1035,18 @@ public final class RlsModel implements LayoutListener {
    * else exactly 0) give weight 0.
    */
   private void solve(double[][] rm, double[] zm, double[] out) {
+    solve(rm, zm, out, 0);
+  }
+
+  /** As {@link #solve(double[][], double[], double[])} for rows {@code start} and after only. */
+  private void solve(double[][] rm, double[] zm, double[] out, int start) {
     final int n = p;
     double maxDiag = 0.0;
     for (int i = 0; i < n; i++) {
       maxDiag = Math.max(maxDiag, rm[i][i]);
     }
     final double tol = settings.diffuse() ? READY_TOLERANCE * maxDiag : 0.0;
-    for (int i = n - 1; i >= 0; i--) {
+    for (int i = n - 1; i >= start; i--) {
       final double[] row = rm[i];
       final double d = row[i];
       out[i] = d > tol ? (zm[i] - dot(row, out, i + 1, n)) / d : 0.0;
@@ -1155,7 +1186,7 @@ public final class RlsModel implements LayoutListener {
     }
     applyRebases();
     if (neverRebased) {
-      insertFrontColumn();
+      insertFrontColumn(front);
     } else {
       appendColumn();
     }
@@ -1164,6 +1195,54 @@ public final class RlsModel implements LayoutListener {
     } else if (observer != null) {
       observer.priorRowAdded(index, priorInfo);
     }
+  }
+
+  /**
+   * As {@link #columnAdded(int, String, boolean)} with {@code neverRebased}, but the column goes
+   * to the very start of the factor, before every column added otherwise (after those added
+   * ahead before it): for a column the rows this model learns one by one are always 0 in (a
+   * {@link GlobalModel} view's column only other partitions hold), every such row then starts
+   * with zeros in those columns and its update never touches their rows, and the weights,
+   * standard errors and covariance of the other columns come from the trailing block of the
+   * factor alone ({@link #weightsFrom}, {@link #standardErrorsFrom},
+   * {@link #unscaledCovarianceFrom}). Exact in any position: the new column holds only its prior
+   * row. The prior row is reported as {@link #columnAdded(int, String)} reports it.
+   *
+   * @param index must equal {@link #dimension()}
+   * @param name the column's name; not kept. Not modified.
+   * @throws IllegalArgumentException if {@code index != dimension()}
+   */
+  void columnAddedAhead(int index, String name) {
+    if (index != p) {
+      throw new IllegalArgumentException("columnAdded index must equal the dimension " + p
+          + " (columns are appended), got " + index);
+    }
+    applyRebases();
+    insertFrontColumn(ahead);
+    ahead++;
+    if (settings.diffuse()) {
+      ready = false;
+    } else if (observer != null) {
+      observer.priorRowAdded(index, priorInfo);
+    }
+  }
+
+  /** @return the number of columns added by {@link #columnAddedAhead} still in the model */
+  int aheadCount() {
+    return ahead;
+  }
+
+  /**
+   * Restores {@link #aheadCount()} after {@link #readFrom} (the global model keeps it).
+   *
+   * @param n the count, in {@code [0, front]} (the leading block of never re-based columns)
+   * @throws IllegalArgumentException if out of range
+   */
+  void restoreAheadCount(int n) {
+    if (n < 0 || n > front) {
+      throw new IllegalArgumentException("ahead count must be in [0, " + front + "], got " + n);
+    }
+    ahead = n;
   }
 
   /**
@@ -1264,6 +1343,9 @@ public final class RlsModel implements LayoutListener {
     }
     if (q < front) {
       front--;
+    }
+    if (q < ahead) {
+      ahead--;
     }
     p--;
     factorChanged();
@@ -1373,6 +1455,44 @@ public final class RlsModel implements LayoutListener {
   }
 
   /**
+   * The weights of the columns at factor positions {@code start} and after (see
+   * {@link #position}), the same bits as {@link #weights} gives them: the back-substitution runs
+   * from the last row up and stops at row {@code start}, so it needs only the trailing block of
+   * {@code R} and {@code z} ({@code (p - start)^2/2}); the rows before it are not solved.
+   *
+   * @param start a factor position in {@code [0, dimension()]}
+   * @param out receives, at the layout index of each such column, its weight (NaN when not
+   *     ready); other entries are not written. Length at least {@link #dimension()}. Modified.
+   */
+  void weightsFrom(int start, double[] out) {
+    checkLength(out);
+    if (!ready || thetaValid || start == 0) {
+      final double[] t = ready ? currentTheta() : null;
+      for (int q = start; q < p; q++) {
+        out[col[q]] = ready ? t[col[q]] : Double.NaN;
+      }
+      return;
+    }
+    applyRebases();
+    final double[] t = work2;
+    solve(r, z, t, start);
+    for (int q = start; q < p; q++) {
+      out[col[q]] = t[q];
+    }
+  }
+
+  /**
+   * @param column a layout column
+   * @return its position in the factor's own column order
+   */
+  int position(int column) {
+    if (column < 0 || column >= p) {
+      throw new IllegalArgumentException("column must be in [0, " + (p - 1) + "], got " + column);
+    }
+    return pos[column];
+  }
+
+  /**
    * Standard errors {@code residualSd * sqrt(diag((R^T R)^-1))}, from the rows of {@code R^-1};
    * {@code O(p^3)}.
    *
@@ -1380,15 +1500,32 @@ public final class RlsModel implements LayoutListener {
    *     {@code effectiveSampleSize <= dimension}. Modified.
    */
   public void standardErrors(double[] out) {
+    standardErrorsFrom(0, out);
+  }
+
+  /**
+   * As {@link #standardErrors}, for the columns at factor positions {@code start} and after (see
+   * {@link #position}), the same bits: their rows of {@code R^-1} are those of the inverse of the
+   * trailing block of {@code R} ({@code R} is upper triangular), so only that block is inverted,
+   * {@code O((p - start)^3)}. The diagonal of the covariance of the trailing columns is that of
+   * their marginal covariance in the joint solution.
+   *
+   * @param start a factor position in {@code [0, dimension()]}
+   * @param out receives, at the layout index of each such column, its standard error; other
+   *     entries are not written. Length at least {@link #dimension()}. Modified.
+   */
+  void standardErrorsFrom(int start, double[] out) {
     checkLength(out);
     double s = residualSd();
     if (!ready || !(s >= 0)) {
-      Arrays.fill(out, 0, p, Double.NaN);
+      for (int q = start; q < p; q++) {
+        out[col[q]] = Double.NaN;
+      }
       return;
     }
     applyRebases();
-    double[] u = inverseFactor();
-    for (int i = 0; i < p; i++) {
+    double[] u = inverseFactor(start);
+    for (int i = start; i < p; i++) {
       double sum = 0.0;
       for (int k = i; k < p; k++) {
         sum += u[i * p + k] * u[i * p + k];
@@ -1404,14 +1541,28 @@ public final class RlsModel implements LayoutListener {
    * @return a new array; NaN-filled when not ready
    */
   public double[] unscaledCovariance() {
+    return unscaledCovarianceFrom(0);
+  }
+
+  /**
+   * As {@link #unscaledCovariance}, the block of the columns at factor positions {@code start}
+   * and after (see {@link #position}), the same bits, from the inverse of the trailing block of
+   * {@code R} alone (as {@link #standardErrorsFrom}): the marginal covariance of those columns'
+   * weights, {@code (R_LL^T R_LL)^-1}. {@code O((p - start)^3)}.
+   *
+   * @param start a factor position in {@code [0, dimension()]}
+   * @return row-major {@code p x p} in layout order (a new array): the entries of two such
+   *     columns; the others 0 (NaN-filled when not ready)
+   */
+  double[] unscaledCovarianceFrom(int start) {
     double[] out = new double[p * p];
     if (!ready) {
       Arrays.fill(out, Double.NaN);
       return out;
     }
     applyRebases();
-    double[] u = inverseFactor();
-    for (int i = 0; i < p; i++) {
+    double[] u = inverseFactor(start);
+    for (int i = start; i < p; i++) {
       for (int j = i; j < p; j++) {
         double sum = 0.0;
         for (int k = j; k < p; k++) {
@@ -1539,8 +1690,12 @@ public final class RlsModel implements LayoutListener {
           continue;
         }
         final double[] row = rm[i];
-        final double h = StrictMath.hypot(row[i], xi);
-        final double cs = row[i] / h;
+        final double ai = row[i];
+        double h = Math.sqrt(ai * ai + xi * xi); // as update: StrictMath.hypot cost most of a fold
+        if (!(h > 0.0 && h < Double.POSITIVE_INFINITY)) {
+          h = StrictMath.hypot(ai, xi); // squares under- or overflowed: rare path
+        }
+        final double cs = ai / h;
         final double sn = xi / h;
         row[i] = h;
         w[i] = 0.0;
@@ -1569,16 +1724,27 @@ public final class RlsModel implements LayoutListener {
   /**
    * R^-1, upper triangular, row-major p x p, by back-substitution per column; kept until the
    * factor changes (a snapshot asks for standard errors and the covariance, twice). Not to be
-   * modified by the caller.
+   * modified by the caller. Only the rows and columns from {@code start} on are computed (the
+   * inverse of the trailing block, the same bits as those entries of the whole inverse: each
+   * reads only entries of that block); the others are 0.
    */
-  private double[] inverseFactor() {
-    if (inverse != null) {
+  private double[] inverseFactor(int start) {
+    if (inverse != null && inverseStart <= start) {
       return inverse;
     }
-    double[] u = new double[p * p];
-    for (int j = 0; j < p; j++) {
-      u[j * p + j] = 1.0 / r[j][j];
-      for (int i = j - 1; i >= 0; i--) {
+    // a block computed before (from inverseStart on) is extended, not computed again: its
+    // entries are those of any larger block (see above), and each column goes on upwards
+    final double[] u = inverse != null ? inverse : new double[p * p];
+    final int done = inverse != null ? inverseStart : p;
+    for (int j = start; j < p; j++) {
+      final int top;
+      if (j >= done) {
+        top = done - 1; // rows from done on are there
+      } else {
+        u[j * p + j] = 1.0 / r[j][j];
+        top = j - 1;
+      }
+      for (int i = top; i >= start; i--) {
         double s = 0.0;
         for (int k = i + 1; k <= j; k++) {
           s += r[i][k] * u[k * p + j];
@@ -1587,6 +1753,7 @@ public final class RlsModel implements LayoutListener {
       }
     }
     inverse = u;
+    inverseStart = start;
     return u;
   }
 

@@ -729,11 +729,7 @@ public final class PipelineStep {
         q += constantContrast(i) * s;
       }
       rawConstantSe = model.residualSd() * Math.sqrt(Math.max(0.0, q));
-    } else if (constant) {
-      for (int j = 1; j < p; j++) {
-        rawConstant -= w[j] * featurizer.centre(j) / featurizer.scale(j);
-      }
-    }
+    } // not ready: every raw weight is NaN below, the constant's too
     for (int j = 0; j < p; j++) {
       boolean isConstant = constant && j == 0;
       double sj = featurizer.scale(j);
