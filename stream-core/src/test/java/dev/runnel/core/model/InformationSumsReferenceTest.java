@@ -483,7 +483,11 @@ class InformationSumsReferenceTest {
 
   /** Forgets by {@code lambda} and adds the row {@code (x, y)}, every entry of {@code x} in its own column. */
   static void add(InformationSums s, double[] x, double y, double lambda) {
-    s.update(x, y, lambda);
+    int[] id = new int[x.length];
+    for (int j = 0; j < id.length; j++) {
+      id[j] = j;
+    }
+    s.update(x, id, id, x.length, y, lambda);
   }
 
   static byte[] bytes(InformationSums s) throws IOException {
