@@ -181,6 +181,20 @@ class RlsGlobalOperationsTest {
   }
 
   @Test
+  void rowsWhoseSquaresUnderflowAreStillAdded() {
+    // entries of 1e-170: their squares (1e-340) underflow to 0, so a rotation's length must be
+    // found without squaring; the weights are still the targets over the entries: 2 and -3
+    RlsModel m = new RlsModel(2, PLAIN);
+    double[][] rows = {{1e-170, 0}, {0, 1e-170}};
+    assertTrue(m.addRows(rows, new double[] {2e-170, -3e-170}, 2, 1.0, 0.0, 2.0));
+    assertTrue(m.ready());
+    double[] w = new double[2];
+    m.weights(w);
+    assertEquals(2.0, w[0], 1e-12);
+    assertEquals(-3.0, w[1], 1e-12);
+  }
+
+  @Test
   void downdateRefusesItsArguments() throws IOException {
     Random rnd = new Random(4);
     Ref ref = new Ref();
