@@ -194,9 +194,13 @@ public final class ChangeAttribution {
     double[] dInv = new double[p];
     boolean[] seen = new boolean[p];
     double[][] b = new double[p][p];
+    int fitted = 0; // columns with data in the window: the fit's parameters
     for (int i = 0; i < p; i++) {
       seen[i] = a[i][i] > 0;
       dInv[i] = seen[i] ? 1.0 / Math.sqrt(a[i][i]) : 0.0;
+      if (seen[i]) {
+        fitted++;
+      }
     }
     for (int i = 0; i < p; i++) {
       for (int j = i; j < p; j++) {
@@ -234,7 +238,7 @@ public final class ChangeAttribution {
       }
       dAd += d[i] * row;
     }
-    double dof = n - p;
+    double dof = n - fitted; // a column 0 in the whole window is not fitted and takes no degree of freedom
     double rssFit = Math.max(0.0, rss - 2.0 * dS + dAd);
     if (!(dof > 0) || !(rssFit > 0)) {
       return null;
