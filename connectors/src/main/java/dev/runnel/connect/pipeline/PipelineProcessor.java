@@ -349,13 +349,17 @@ public final class PipelineProcessor implements PartitionProcessor {
     acquire();
     try {
       if (value != null) {
-        ModelShare s;
+        ModelShare s = null;
         try {
-          s = ModelShare.fromBytes(value);
+          // this partition's own share is skipped unread past its source (its records are in the
+          // view already); another's is read and checked whole
+          if (ModelShare.sourceOf(value) != partition) {
+            s = ModelShare.fromBytes(value);
+          }
         } catch (java.io.IOException e) {
           throw new IllegalStateException("the record is not a model share: " + e.getMessage(), e);
         }
-        if (s.source() != partition) {
+        if (s != null) {
           try {
             if (step.fold(s) == null) {
               return false;
