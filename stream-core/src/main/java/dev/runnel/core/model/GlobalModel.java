@@ -650,10 +650,7 @@ public final class GlobalModel implements LayoutListener {
    */
   public void localWeights(double[] out) {
     double[] w = new double[view.size()];
-    // the whole solution, kept until the factor changes: a snapshot asks for the local weights
-    // twice (drift monitor, snapshot) and for all of them once (the global part); the trailing
-    // rows' entries are the same bits either way (RlsModel.weightsFrom)
-    view.model.weights(w);
+    view.model.weightsFrom(localStart(), w);
     for (int j = 0; j < local; j++) {
       out[j] = w[view.fromLocal[j]];
     }
