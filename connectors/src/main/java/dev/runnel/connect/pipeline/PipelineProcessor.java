@@ -349,17 +349,13 @@ public final class PipelineProcessor implements PartitionProcessor {
     acquire();
     try {
       if (value != null) {
-        ModelShare s = null;
+        ModelShare s;
         try {
-          // this partition's own share is skipped unread past its source (its records are in the
-          // view already); another's is read and checked whole
-          if (ModelShare.sourceOf(value) != partition) {
-            s = ModelShare.fromBytes(value);
-          }
+          s = ModelShare.fromBytes(value);
         } catch (java.io.IOException e) {
           throw new IllegalStateException("the record is not a model share: " + e.getMessage(), e);
         }
-        if (s != null) {
+        if (s.source() != partition) {
           try {
             if (step.fold(s) == null) {
               return false;

@@ -676,7 +676,7 @@ public final class GlobalModel implements LayoutListener {
    * @return row-major {@code localDimension() x localDimension()} (a new array)
    */
   public double[] localUnscaledCovariance() {
-    double[] cov = view.model.unscaledCovarianceShared(localStart()); // read only
+    double[] cov = view.model.unscaledCovarianceFrom(localStart());
     int n = view.size();
     double[] out = new double[local * local];
     for (int i = 0; i < local; i++) {

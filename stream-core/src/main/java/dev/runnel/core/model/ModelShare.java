@@ -345,40 +345,6 @@ public final class ModelShare {
   }
 
   /**
-   * The source partition of a share's bytes, read from its header and the first field of its
-   * body, checking the header (magic, version, length) but not the checksum or the rest: for a
-   * reader that skips its own shares without decoding them ({@link #fromBytes} checks everything).
-   *
-   * @param bytes a share's bytes. Not modified.
-   * @return the partition that made it
-   * @throws IOException as {@link #fromBytes} for a header that is not a share's, of another
-   *     format version, or whose length disagrees with the bytes
-   */
-  public static int sourceOf(byte[] bytes) throws IOException {
-    if (bytes.length < 16) {
-      throw new EOFException("model share is truncated: " + bytes.length + " bytes, the header and source alone are 16");
-    }
-    int magic = intAt(bytes, 0);
-    if (magic != MAGIC) {
-      throw new IOException("not a model share: magic 0x" + Integer.toHexString(magic));
-    }
-    int version = intAt(bytes, 4);
-    if (version != FORMAT_VERSION) {
-      throw new IOException("model share format version " + version + " is not supported (this build reads "
-          + FORMAT_VERSION + ")");
-    }
-    int length = intAt(bytes, 8);
-    if (length < 4 || bytes.length != 12L + length + 4L) {
-      throw new IOException("corrupt model share: body length " + length + " for " + bytes.length + " bytes");
-    }
-    return intAt(bytes, 12);
-  }
-
-  private static int intAt(byte[] b, int i) {
-    return ((b[i] & 0xff) << 24) | ((b[i + 1] & 0xff) << 16) | ((b[i + 2] & 0xff) << 8) | (b[i + 3] & 0xff);
-  }
-
-  /**
    * Reads a share written by {@link #toBytes()}.
    *
    * @param bytes the binary form. Not modified.

@@ -141,14 +141,6 @@ public final class RlsModel implements LayoutListener {
    */
   private double[] inverse;
   private int inverseStart;
-  /**
-   * {@link #unscaledCovarianceFrom} of the current factor from position {@link #covarianceStart},
-   * or null; dropped with {@link #inverse} (a snapshot asks for it three times: the drift monitor,
-   * the constant's raw standard error and the contrasts).
-   */
-  private double[] covariance;
-  private int covarianceStart;
-  private boolean covarianceReady;
   private double[] work;
   /** The scalars {@link #dataRows} carries in and out. */
   private final double[] passAcc = new double[5];
@@ -285,7 +277,6 @@ public final class RlsModel implements LayoutListener {
     p = k + 1;
     invDiagFrom = Integer.MAX_VALUE;
     inverse = null;
-    covariance = null;
     return k;
   }
 
@@ -991,7 +982,6 @@ public final class RlsModel implements LayoutListener {
     thetaValid = false;
     invDiagFrom = Integer.MAX_VALUE;
     inverse = null;
-    covariance = null;
   }
 
   /**
@@ -1565,24 +1555,7 @@ public final class RlsModel implements LayoutListener {
    *     columns; the others 0 (NaN-filled when not ready)
    */
   double[] unscaledCovarianceFrom(int start) {
-    return unscaledCovarianceShared(start).clone();
-  }
-
-  /**
-   * As {@link #unscaledCovarianceFrom}, the array kept until the factor changes (computed once per
-   * factor and start, so the same bits each time).
-   *
-   * @param start a factor position in {@code [0, dimension()]}
-   * @return as {@link #unscaledCovarianceFrom}. Not to be modified by the caller.
-   */
-  double[] unscaledCovarianceShared(int start) {
-    if (covariance != null && covarianceStart == start && covarianceReady == ready && covariance.length == p * p) {
-      return covariance;
-    }
     double[] out = new double[p * p];
-    covariance = out;
-    covarianceStart = start;
-    covarianceReady = ready;
     if (!ready) {
       Arrays.fill(out, Double.NaN);
       return out;
