@@ -66,6 +66,59 @@ class WeightBreakScanEdgesTest {
   }
 
   /**
+   * Columns added or removed drop the kept blocks (docs/drift.md): after a layout of another width
+   * the scan starts over in the new width, never comparing blocks across layouts. Widening from 2
+   * to 3 columns mid-block and then a break in the new column: the scan looks, names the new
+   * column after the break, and agrees bit for bit with a scan that saw only the new layout's
+   * records; narrowing back to 2 columns starts over again the same way.
+   */
+  @Test
+  void aLayoutOfAnotherWidthStartsOverInTheNewWidth() throws IOException {
+    WeightBreakScan c = new WeightBreakScan(50, 4, 4.0);
+    Random rnd = new Random(21);
+    for (int i = 0; i < 130; i++) { // two blocks and part of a third, in 2 columns
+      double v = rnd.nextGaussian();
+      c.observe(new double[] {1, v}, 1 + 2 * v + 0.1 * rnd.nextGaussian(), 2, 1L);
+    }
+    long looksBefore = c.looks();
+    assertEquals(1, looksBefore, "one look at the second block");
+    WeightBreakScan d = new WeightBreakScan(50, 4, 4.0);
+    int firstNamed = -1;
+    for (int i = 0; i < 400; i++) { // 3 columns; the new column's weight moves from 1 to 3 at record 200
+      double v = rnd.nextGaussian();
+      double u = rnd.nextGaussian();
+      double[] x = {1, v, u};
+      double y = 1 + 2 * v + (i < 200 ? 1 : 3) * u + 0.1 * rnd.nextGaussian();
+      boolean nd = d.observe(x, y, 3, 2L);
+      assertEquals(nd, c.observe(x, y, 3, 2L), "record " + i);
+      if (nd && firstNamed < 0) {
+        firstNamed = i;
+        assertEquals(2, c.namedColumn(0), "the new column is named first");
+        assertEquals(d.namedScore(0), c.namedScore(0), 0.0);
+      }
+      assertEquals(d.filledBlocks(), c.filledBlocks(), "record " + i);
+    }
+    assertTrue(firstNamed >= 200 && firstNamed < 300, "named after the break: " + firstNamed);
+    assertEquals(d.looks(), c.looks() - looksBefore, "the looks since the new layout");
+    byte[] sc = state(c);
+    byte[] sd = state(d);
+    assertArrayEquals(java.util.Arrays.copyOfRange(sd, 16, sd.length), java.util.Arrays.copyOfRange(sc, 16, sc.length),
+        "after the counters, the state of a scan that saw only the new layout");
+    // back to 2 columns: the scan starts over once more, in 2 columns
+    WeightBreakScan e = new WeightBreakScan(50, 4, 4.0);
+    for (int i = 0; i < 120; i++) {
+      double v = rnd.nextGaussian();
+      double[] x = {1, v};
+      double y = 1 + 2 * v + 0.1 * rnd.nextGaussian();
+      assertEquals(e.observe(x, y, 2, 3L), c.observe(x, y, 2, 3L));
+    }
+    assertEquals(2, c.filledBlocks());
+    byte[] s2 = state(c);
+    byte[] se = state(e);
+    assertArrayEquals(java.util.Arrays.copyOfRange(se, 16, se.length), java.util.Arrays.copyOfRange(s2, 16, s2.length));
+  }
+
+  /**
    * A constant beside every level of a one-hot feature: neither the constant nor the levels have a
    * weight the data identify, so none is named, even when the level means move and the threshold is
    * tiny; a numeric column whose weight changes is named (docs/drift.md, "Identifiability").
