@@ -871,12 +871,8 @@ public final class RlsModel implements LayoutListener {
       final double zi = z[i];
       z[i] = cs * zi - sn * zeta;
       zeta = sn * zi + cs * zeta;
-      if (row[i] < 0.0) {
-        for (int j = i; j < n; j++) {
-          row[j] = -row[j];
-        }
-        z[i] = -z[i];
-      }
+      // no sign fix is needed: v[i] is still 0 here (row k > i fills only v[j], j >= k), so the new
+      // pivot is cs * r_ii with cs = alpha / h > 0 and r_ii > 0 (checked above): never negative
     }
     factorChanged();
     final double e = zeta0 * scale;
